@@ -1,0 +1,1 @@
+"""Bundled demo cases (YAML), shipped as package data."""

@@ -1,0 +1,306 @@
+"""The case model: what a case file describes, read and checked key by key.
+
+A case is a set of named units (exchangers, heaters, coolers, mixers, splitters, products) and
+the paths the streams take through them. Every place where a stream starts — a supply stream, a
+mixer's outlet, a splitter's branch — carries a ``path``: the units the stream passes through in
+order, ending at a product, a mixer or a splitter. See README.md for the full key reference.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from . import quantities as q
+from .errors import CaseError
+from .fields import Fields
+from .reading import Document, read_document
+
+ARRANGEMENTS = ("counterflow", "parallel_flow", "tema_e", "crossflow", "double_pipe")
+SIDES = ("hot", "cold")
+DEFAULT_MINIMUM_APPROACH = 10.0
+DEFAULT_MINIMUM_F = 0.75
+DEFAULT_TOLERANCE = 1e-6
+DEFAULT_MAX_ITERATIONS = 500
+
+
+@dataclass(frozen=True)
+class Step:
+    """One element of a path: a unit, and for an exchanger the side ("hot"/"cold") passed through."""
+
+    unit: str
+    side: str | None = None
+
+    @property
+    def label(self):
+        return f"{self.unit}.{self.side}" if self.side else self.unit
+
+
+@dataclass
+class Origin:
+    """Where a stream starts: a supply stream, a mixer outlet or a splitter branch."""
+
+    name: str
+    key: tuple
+    path: list[Step]
+    unit: str
+    port: str
+
+
+@dataclass
+class Settings:
+    minimum_approach: float = DEFAULT_MINIMUM_APPROACH
+    minimum_f: float = DEFAULT_MINIMUM_F
+    tolerance: float = DEFAULT_TOLERANCE
+    max_iterations: int = DEFAULT_MAX_ITERATIONS
+
+
+@dataclass
+class Case:
+    """A checked case. Physical values are floats in the default units (°C, kg/s, kJ/kg·K, kW, kW/K)."""
+
+    file: str
+    title: str
+    settings: Settings
+    fluids: dict[str, float]
+    streams: dict[str, dict]
+    exchangers: dict[str, dict]
+    heaters: dict[str, dict]
+    coolers: dict[str, dict]
+    mixers: dict[str, dict]
+    splitters: dict[str, dict]
+    products: dict[str, dict]
+    origins: list[Origin] = field(default_factory=list)
+    keys: dict[str, tuple] = field(default_factory=dict)
+    """Case-file key path of every unit by name."""
+
+    def error(self, path, message):
+        return CaseError(message, file=self.file, path=path)
+
+
+def load_case(path) -> Case:
+    """Read, parse and check a case file; raises :class:`CaseError` on any bad input."""
+    return case_from_document(read_document(path))
+
+
+def case_from_mapping(data, name="<case>") -> Case:
+    """Check a case given as plain Python data (the same keys as a case file)."""
+    return case_from_document(Document(data, name))
+
+
+def case_from_document(doc: Document) -> Case:
+    top = Fields(doc, (), doc.data, "a mapping at the top level (title, fluids, streams, exchangers, ...)")
+    title = top.text("title", default="") or ""
+    top.text("description")
+    settings = _settings(top.mapping("settings"))
+    fluids = {}
+    for name, f in top.named_entries("fluids", "fluid names to their properties"):
+        fluids[name] = f.quantity("cp", q.SPECIFIC_HEAT, above=0.0, maximum=100.0)
+        f.text("description")
+        f.finish()
+    if not fluids:
+        raise doc.error(("fluids",), "the case defines no fluids: add a 'fluids' section with each fluid's cp")
+    case = Case(doc.file, title, settings, fluids, {}, {}, {}, {}, {}, {}, {})
+    origins = []
+    for name, f in top.named_entries("streams", "stream names to their supply"):
+        case.streams[name] = {
+            "fluid": f.choice("fluid", sorted(fluids)),
+            "flow": f.quantity("flow", q.MASS_FLOW, above=0.0, maximum=1e5),
+            "supply_temperature": f.quantity("supply_temperature", q.TEMPERATURE, maximum=2000.0),
+        }
+        origins.append(Origin(name, f.path, _path(f), name, "out"))
+        f.text("description")
+        f.finish()
+    for name, f in top.named_entries("exchangers", "exchanger tags to their data"):
+        case.exchangers[name] = _exchanger(f)
+    for section, table in (("heaters", case.heaters), ("coolers", case.coolers)):
+        for name, f in top.named_entries(section, f"{section[:-1]} tags to their data"):
+            table[name] = _heater(f)
+    for name, f in top.named_entries("mixers", "mixer names to their outlet path"):
+        case.mixers[name] = {}
+        origins.append(Origin(name, f.path, _path(f), name, "out"))
+        f.text("description")
+        f.finish()
+    for name, f in top.named_entries("splitters", "splitter names to their branches"):
+        case.splitters[name] = _splitter(f, origins)
+    for name, f in top.named_entries("products", "product names"):
+        case.products[name] = {"target_temperature": f.quantity("target_temperature", q.TEMPERATURE, required=False)}
+        f.text("description")
+        f.finish()
+    top.finish()
+    _register_names(case, top)
+    if not case.streams:
+        raise doc.error(("streams",), "the case has no supply streams: nothing flows")
+    case.origins = origins
+    check_connections(case, doc)
+    return case
+
+
+def _settings(f: Fields | None) -> Settings:
+    if f is None:
+        return Settings()
+    settings = Settings(
+        minimum_approach=f.quantity("minimum_approach", q.TEMPERATURE_DIFFERENCE, False, DEFAULT_MINIMUM_APPROACH, minimum=0.0, maximum=500.0),
+        minimum_f=f.quantity("minimum_f", q.NUMBER, False, DEFAULT_MINIMUM_F, minimum=0.0, maximum=1.0),
+        tolerance=f.quantity("tolerance", q.TEMPERATURE_DIFFERENCE, False, DEFAULT_TOLERANCE, above=0.0, maximum=1.0),
+        max_iterations=f.integer("max_iterations", DEFAULT_MAX_ITERATIONS, 1, 100_000),
+    )
+    f.finish()
+    return settings
+
+
+def _sides(f: Fields, key, kind, **limits):
+    sides = f.mapping(key, what="a mapping with 'hot' and/or 'cold'")
+    if sides is None:
+        return {}
+    values = {s: sides.quantity(s, kind, required=False, **limits) for s in SIDES}
+    sides.finish()
+    return {s: v for s, v in values.items() if v is not None}
+
+
+def _exchanger(f: Fields) -> dict:
+    arrangement = f.choice("arrangement", ARRANGEMENTS)
+    shells = f.integer("shells", 1, 1, 50)
+    if f.has("ua") and (f.has("u") or f.has("area_per_shell")):
+        raise f.error("ua", "give either 'ua' or 'u' with 'area_per_shell', not both")
+    if f.has("ua"):
+        ua = f.quantity("ua", q.CONDUCTANCE, minimum=0.0, maximum=1e7)
+    else:
+        if not f.has("u"):
+            raise f.error(None, "missing key 'ua' (kW/K), or 'u' (W/m²·K) with 'area_per_shell' (m²)")
+        u = f.quantity("u", q.HEAT_TRANSFER_COEFFICIENT, minimum=0.0, maximum=1e5)
+        area = f.quantity("area_per_shell", q.AREA, minimum=0.0, maximum=1e6)
+        ua = u * area * shells / 1000.0
+    data = {"arrangement": arrangement, "shells": shells, "ua": ua, "tube_passes": 2, "shell_side": "hot", "mixed_side": None}
+    if arrangement == "tema_e":
+        data["tube_passes"] = f.integer("tube_passes", 2, 2, 16)
+        if data["tube_passes"] % 2:
+            raise f.error("tube_passes", f"a TEMA E shell here has an even number of tube passes; got {data['tube_passes']}")
+        data["shell_side"] = f.choice("shell_side", SIDES, required=data["tube_passes"] > 2, default="hot")
+    else:
+        for key in ("tube_passes",):
+            if f.has(key):
+                raise f.error(key, f"'{key}' applies to arrangement tema_e only")
+        f.choice("shell_side", SIDES, required=False)
+    if arrangement == "crossflow":
+        mixed = f.choice("mixed_side", ("none", "hot", "cold"))
+        data["mixed_side"] = None if mixed == "none" else mixed
+    elif f.has("mixed_side"):
+        raise f.error("mixed_side", "'mixed_side' applies to arrangement crossflow only")
+    bypass = _sides(f, "bypass", q.FRACTION, minimum=0.0, maximum=1.0)
+    data["bypass_hot"], data["bypass_cold"] = bypass.get("hot", 0.0), bypass.get("cold", 0.0)
+    data["design_temperature"] = _sides(f, "design_temperature", q.TEMPERATURE, maximum=2000.0)
+    f.text("description")
+    f.finish()
+    return data
+
+
+def _heater(f: Fields) -> dict:
+    if f.has("duty") == f.has("outlet_temperature"):
+        raise f.error(None, "give exactly one of 'duty' (kW) and 'outlet_temperature' (°C)")
+    data = {
+        "duty": f.quantity("duty", q.DUTY, required=False, minimum=0.0, maximum=1e8),
+        "outlet_temperature": f.quantity("outlet_temperature", q.TEMPERATURE, required=False, maximum=2000.0),
+        "design_temperature": f.quantity("design_temperature", q.TEMPERATURE, required=False, maximum=2000.0),
+    }
+    f.text("description")
+    f.finish()
+    return data
+
+
+def _splitter(f: Fields, origins) -> dict:
+    branches = f.named_entries("branches", "branch names to their fraction and path")
+    if not branches:
+        raise f.error("branches", "a splitter needs at least one branch")
+    fractions = {}
+    for branch, b in branches:
+        fractions[branch] = b.quantity("fraction", q.FRACTION, minimum=0.0, maximum=1.0)
+        origins.append(Origin(f"{f.path[-1]}.{branch}", b.path, _path(b), f.path[-1], branch))
+        b.text("description")
+        b.finish()
+    total = sum(fractions.values())
+    if abs(total - 1.0) > 1e-6:
+        raise f.error("branches", f"the branch fractions sum to {total:.6g}, not 1 (tolerance 1e-6)")
+    f.text("description")
+    f.finish()
+    return {"fractions": {k: v / total for k, v in fractions.items()}}
+
+
+def _path(f: Fields) -> list[Step]:
+    raw = f.raw("path")
+    if isinstance(raw, str):
+        items = [part.strip() for part in raw.split("->")]
+    elif isinstance(raw, list) and all(isinstance(item, str) for item in raw):
+        items = [item.strip() for item in raw]
+    else:
+        raise f.error("path", 'expected a path such as "E-101.cold -> E-102.cold -> crude_split" (or a list of steps)')
+    steps = []
+    for item in items:
+        if not item:
+            raise f.error("path", f"an empty step in {raw!r} (two arrows in a row, or an arrow at an end?)")
+        unit, _, side = item.partition(".")
+        steps.append(Step(unit, side or None))
+    return steps
+
+
+def _register_names(case: Case, top: Fields):
+    for section in ("streams", "exchangers", "heaters", "coolers", "mixers", "splitters", "products"):
+        for name in getattr(case, section):
+            if name in case.keys:
+                first = ".".join(case.keys[name])
+                raise top.doc.error((section, name), f"the name '{name}' is already used by {first}; names must be unique")
+            case.keys[name] = (section, name)
+
+
+def check_connections(case: Case, doc: Document):
+    """Every port connected exactly once; paths made of known units in a possible order."""
+    used: dict[tuple, tuple] = {}  # (unit, side) -> key path of the path that uses it
+    terminals = {**{n: "products" for n in case.products}, **{n: "mixers" for n in case.mixers},
+                 **{n: "splitters" for n in case.splitters}}
+    for origin in case.origins:
+        key = origin.key + ("path",)
+        *through, last = origin.path
+        for step in through:
+            _check_through_step(case, doc, key, step, terminals)
+            if (step.unit, step.side) in used:
+                other = ".".join(map(str, used[(step.unit, step.side)]))
+                raise doc.error(key, f"{step.label} is already on the path at {other}: each exchanger side and "
+                                     "each heater or cooler takes exactly one stream")
+            used[(step.unit, step.side)] = key
+        if last.unit not in terminals:
+            what = "an exchanger side" if last.unit in case.exchangers else "not a product, mixer or splitter"
+            if last.unit not in case.keys:
+                what = "not a known name"
+            raise doc.error(key, f"a path must end at a product, a mixer or a splitter; its last step '{last.label}' is {what}")
+        if last.side:
+            raise doc.error(key, f"'{last.label}': a path ends at the unit itself, without a '.{last.side}' part")
+        if terminals[last.unit] != "mixers" and (last.unit, None) in used:
+            other = ".".join(map(str, used[(last.unit, None)]))
+            raise doc.error(key, f"{last.unit} is already fed by the path at {other}; only a mixer takes several streams")
+        used.setdefault((last.unit, None), key)
+    expected = [(t, s, ("exchangers", t)) for t in case.exchangers for s in SIDES]
+    expected += [(t, None, (sec, t)) for sec in ("heaters", "coolers", "mixers", "splitters", "products") for t in getattr(case, sec)]
+    for unit, side, key in expected:
+        if (unit, side) not in used:
+            port = f"{unit}.{side}" if side else unit
+            raise doc.error(key, f"{port} is on no path: every exchanger side, heater, cooler, mixer, splitter and "
+                                 "product must be fed by exactly one path (a mixer by one or more)")
+
+
+def _check_through_step(case, doc, key, step, terminals):
+    if step.unit in case.exchangers:
+        if step.side not in SIDES:
+            raise doc.error(key, f"'{step.label}': name the exchanger side the stream passes through, "
+                                 f"'{step.unit}.hot' or '{step.unit}.cold'")
+    elif step.unit in case.heaters or step.unit in case.coolers:
+        if step.side:
+            raise doc.error(key, f"'{step.label}': a heater or cooler has one side; write '{step.unit}'")
+    elif step.unit in terminals:
+        raise doc.error(key, f"'{step.label}' is a {terminals[step.unit][:-1]}: it can only be the last step of a path")
+    else:
+        raise doc.error(key, f"'{step.label}' is not a known exchanger, heater or cooler{_near(step.unit, case.keys)}")
+
+
+def _near(word, names):
+    from .fields import nearest
+
+    return nearest(word, list(names))

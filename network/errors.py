@@ -1,0 +1,36 @@
+"""The one error type for bad input: it names the file, the key path and (where known) the line."""
+
+from __future__ import annotations
+
+
+def format_path(path) -> str:
+    """('exchangers', 'E-101', 'area') -> 'exchangers.E-101.area'; list indices as [i]."""
+    text = ""
+    for part in path:
+        if isinstance(part, int):
+            text += f"[{part}]"
+        else:
+            text += ("." if text else "") + str(part)
+    return text
+
+
+class CaseError(Exception):
+    """Bad input. ``str()`` is one short paragraph: file, key path, line, what is wrong."""
+
+    def __init__(self, message, *, file=None, path=(), line=None):
+        self.message = message
+        self.file = None if file is None else str(file)
+        self.path = tuple(path)
+        self.line = line
+        super().__init__(self.describe())
+
+    def describe(self) -> str:
+        where = []
+        if self.file:
+            where.append(self.file)
+        if self.path:
+            where.append(format_path(self.path))
+        if self.line is not None:
+            where.append(f"line {self.line}")
+        prefix = ", ".join(where)
+        return f"{prefix}: {self.message}" if prefix else self.message

@@ -1,0 +1,121 @@
+"""Checked access to one mapping of a case file: every read names its key path in errors, and
+keys that were never read are reported as unknown (with the nearest known key)."""
+
+from __future__ import annotations
+
+import difflib
+import math
+import re
+
+from .quantities import Kind, QuantityError, to_default_unit
+from .reading import Document
+
+NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_\-]*$")
+"""Tags and names: letters, digits, '-' and '_' (E-101, crude_split); no dots or spaces, which
+the path notation uses."""
+
+
+class Fields:
+    """The mapping at ``path`` in ``doc``. Call :meth:`finish` after reading to reject unknown keys."""
+
+    def __init__(self, doc: Document, path, value, what="a mapping of keys to values"):
+        self.doc, self.path = doc, tuple(path)
+        if not isinstance(value, dict):
+            raise doc.error(self.path, f"expected {what}, got {describe(value)}")
+        self.value = value
+        self.allowed: set[str] = set()
+
+    def error(self, key, message):
+        return self.doc.error(self.path + ((key,) if key is not None else ()), message)
+
+    def has(self, key) -> bool:
+        self.allowed.add(key)
+        return key in self.value and self.value[key] is not None
+
+    def raw(self, key, required=True, default=None):
+        self.allowed.add(key)
+        if key not in self.value or self.value[key] is None:
+            if required:
+                raise self.doc.error(self.path, f"missing key '{key}'")
+            return default
+        return self.value[key]
+
+    def quantity(self, key, kind: Kind, required=True, default=None, minimum=None, maximum=None, above=None):
+        value = self.raw(key, required, None)
+        if value is None:
+            return default
+        try:
+            number = to_default_unit(value, kind)
+        except QuantityError as exc:
+            raise self.error(key, str(exc)) from None
+        unit = "" if kind.unit == "dimensionless" else f" {kind.unit.replace('delta_', '')}"
+        if minimum is not None and number < minimum:
+            raise self.error(key, f"{value!r} is below the smallest allowed value, {minimum}{unit}")
+        if above is not None and number <= above:
+            raise self.error(key, f"{value!r} must be greater than {above}{unit}")
+        if maximum is not None and number > maximum:
+            raise self.error(key, f"{value!r} is above the largest allowed value, {maximum}{unit}")
+        return number
+
+    def integer(self, key, default, minimum=1, maximum=1000):
+        value = self.raw(key, False, default)
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise self.error(key, f"expected a whole number, got {describe(value)}")
+        if not minimum <= value <= maximum:
+            raise self.error(key, f"expected a whole number from {minimum} to {maximum}, got {value}")
+        return value
+
+    def text(self, key, required=False, default=None):
+        value = self.raw(key, required, default)
+        if value is not None and not isinstance(value, str):
+            raise self.error(key, f"expected text, got {describe(value)}")
+        return value
+
+    def choice(self, key, options, required=True, default=None):
+        value = self.raw(key, required, default)
+        if value is None:
+            return None
+        if value not in options:
+            hint = nearest(value, options)
+            raise self.error(key, f"expected one of {', '.join(map(str, options))}; got {value!r}{hint}")
+        return value
+
+    def mapping(self, key, required=False, what="a mapping of keys to values"):
+        value = self.raw(key, required, None)
+        if value is None:
+            return None
+        return Fields(self.doc, self.path + (key,), value, what)
+
+    def named_entries(self, key, what):
+        """A mapping of names (tags) to mappings; yields (name, Fields)."""
+        section = self.mapping(key, what=f"a mapping of {what}")
+        if section is None:
+            return []
+        entries = []
+        for name in section.value:
+            section.allowed.add(name)
+            if not NAME.match(name):
+                raise section.error(name, f"'{name}' is not a usable name: use letters, digits, '-' and '_' only")
+            entries.append((name, Fields(self.doc, section.path + (name,), section.value[name], f"the settings of {name}")))
+        return entries
+
+    def finish(self):
+        for key in self.value:
+            if key not in self.allowed:
+                known = sorted(self.allowed)
+                raise self.error(key, f"unknown key '{key}'{nearest(key, known)}; known keys here: {', '.join(known)}")
+
+
+def nearest(word, options) -> str:
+    close = difflib.get_close_matches(str(word), [str(o) for o in options], n=1)
+    return f" (did you mean '{close[0]}'?)" if close else ""
+
+
+def describe(value) -> str:
+    if isinstance(value, dict):
+        return "a mapping"
+    if isinstance(value, list):
+        return "a list"
+    if isinstance(value, float) and not math.isfinite(value):
+        return f"the non-finite number {value}"
+    return f"{type(value).__name__} {value!r}"

@@ -1,0 +1,113 @@
+"""Writing results to CSV, XLSX or JSON, chosen by the file extension, atomically.
+
+Each file is written to a temporary file in the target's folder and renamed over the target
+only when every file of the set is complete, so an existing output is never left half-written.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+
+import pandas as pd
+
+from hxtrain.network import CaseError
+
+from .results import SimulationResult
+
+FORMATS = (".csv", ".xlsx", ".json")
+
+
+def _tables(result: SimulationResult) -> dict[str, pd.DataFrame]:
+    return {
+        "units": result.units,
+        "streams": result.streams,
+        "findings": result.findings,
+        "tears": result.tears,
+        "summary": pd.concat([result.summary, result.balance]).rename("value").to_frame(),
+    }
+
+
+def output_files(path: Path) -> list[Path]:
+    """The files ``write_results`` creates for ``path`` (CSV makes one per table)."""
+    if path.suffix.lower() == ".csv":
+        return [path] + [path.with_name(f"{path.stem}_{name}.csv") for name in ("streams", "findings", "tears", "summary")]
+    return [path]
+
+
+def check_output_path(path) -> Path:
+    """Reject an output path that cannot be written before any work is done (exit 2)."""
+    path = Path(path)
+    if path.suffix.lower() not in FORMATS:
+        raise CaseError(f"the output file must end in {', '.join(FORMATS)} (the format follows the extension)",
+                        file=str(path))
+    if not path.parent.exists() or not path.parent.is_dir():
+        raise CaseError("the folder for the output file does not exist", file=str(path))
+    if path.is_dir():
+        raise CaseError("the output path is a directory", file=str(path))
+    return path
+
+
+def _clean(value):
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def _records(frame: pd.DataFrame):
+    reset = frame.reset_index()
+    return [{k: _clean(v) for k, v in row.items()} for row in reset.astype(object).to_dict(orient="records")]
+
+
+def _write_json(result, handle):
+    document = {
+        "title": result.title,
+        "case_file": result.case_file,
+        "caution": result.caution,
+        "converged": result.converged,
+        "message": result.message,
+        "summary": {k: _clean(float(v)) for k, v in result.summary.items()},
+        "balance": {k: _clean(float(v)) for k, v in result.balance.items()},
+        **{name: _records(frame) for name, frame in _tables(result).items() if name != "summary"},
+    }
+    handle.write(json.dumps(document, indent=2, allow_nan=False, default=str).encode("utf-8"))
+
+
+def _write_xlsx(result, handle):
+    with pd.ExcelWriter(handle, engine="openpyxl") as writer:
+        notes = pd.DataFrame({"note": [result.title, result.case_file, result.caution, result.message]})
+        notes.to_excel(writer, sheet_name="about", index=False)
+        for name, frame in _tables(result).items():
+            frame.to_excel(writer, sheet_name=name)
+
+
+def write_results(result: SimulationResult, path) -> list[Path]:
+    """Write the result tables to ``path`` by its extension; returns the files written."""
+    path = check_output_path(path)
+    targets = output_files(path)
+    suffix = path.suffix.lower()
+    if suffix == ".csv":
+        writers = [lambda h, f=frame: h.write(f.to_csv().encode("utf-8")) for frame in _tables(result).values()]
+    elif suffix == ".json":
+        writers = [lambda h: _write_json(result, h)]
+    else:
+        writers = [lambda h: _write_xlsx(result, h)]
+    temporaries = []
+    try:
+        for target, write in zip(targets, writers):
+            fd, name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
+            temporaries.append(Path(name))
+            with os.fdopen(fd, "wb") as handle:
+                write(handle)
+                handle.flush()
+                os.fsync(handle.fileno())
+        for temporary, target in zip(temporaries, targets):
+            os.replace(temporary, target)
+    finally:
+        for temporary in temporaries:
+            if temporary.exists():
+                temporary.unlink()
+    return targets

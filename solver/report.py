@@ -1,0 +1,110 @@
+"""Plain-text report of a simulation for the terminal.
+
+Violated limits and warnings come last, boxed, so they are the last thing on the screen.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from .results import SimulationResult
+
+EXCHANGER_COLUMNS = {
+    "duty_kw": "duty kW",
+    "hot_in_c": "hot in °C",
+    "hot_out_c": "hot out °C",
+    "cold_in_c": "cold in °C",
+    "cold_out_c": "cold out °C",
+    "ua_kw_per_k": "UA kW/K",
+    "ntu_hot": "NTU",
+    "p_hot": "P",
+    "r_hot": "R",
+    "f": "F",
+    "lmtd_k": "LMTD K",
+    "min_approach_k": "approach K",
+    "findings": "findings",
+}
+ONE_STREAM_COLUMNS = {"type": "type", "duty_kw": "duty kW", "in_c": "inlet °C", "out_c": "outlet °C", "findings": "findings"}
+STREAM_COLUMNS = {"segment": "segment", "flow_kg_s": "flow kg/s", "heat_capacity_rate_kw_per_k": "m·cp kW/K",
+                  "temperature_c": "temperature °C"}
+
+
+def _formatted(frame: pd.DataFrame, digits=2) -> str:
+    return frame.to_string(float_format=lambda v: f"{v:,.{digits}f}", na_rep="")
+
+
+def _section(title: str) -> str:
+    return f"\n{title}\n{'-' * len(title)}"
+
+
+def exchanger_table(result: SimulationResult) -> pd.DataFrame:
+    units = result.units
+    table = units[units["type"] == "exchanger"]
+    table = table[[c for c in EXCHANGER_COLUMNS if c in table]].rename(columns=EXCHANGER_COLUMNS)
+    return table.rename_axis("exchanger")
+
+
+def one_stream_table(result: SimulationResult) -> pd.DataFrame:
+    units = result.units
+    table = units[units["type"].isin(["heater", "cooler"])].copy()
+    heater = table["type"] == "heater"
+    table["in_c"] = np.where(heater, table.get("cold_in_c"), table.get("hot_in_c"))
+    table["out_c"] = np.where(heater, table.get("cold_out_c"), table.get("hot_out_c"))
+    return table[list(ONE_STREAM_COLUMNS)].rename(columns=ONE_STREAM_COLUMNS).rename_axis("unit")
+
+
+def findings_box(result: SimulationResult) -> str:
+    findings = result.findings
+    limits = findings[findings["severity"] == "limit"]
+    warnings = findings[findings["severity"] == "warning"]
+    lines = []
+    if len(limits):
+        banner = f"LIMITS VIOLATED: {len(limits)}"
+        lines += ["", "!" * 78, f"!! {banner}", "!" * 78]
+        lines += [f"!! {row.unit}: {row.message}  [{row.key}]" for row in limits.itertuples()]
+        lines.append("!" * 78)
+    if len(warnings):
+        lines += ["", f"Warnings: {len(warnings)}"]
+        lines += [f"  * {row.unit}: {row.message}" for row in warnings.itertuples()]
+    if not len(findings):
+        lines += ["", "No limit violated and no warnings."]
+    return "\n".join(lines)
+
+
+def text_report(result: SimulationResult) -> str:
+    s, b = result.summary, result.balance
+    parts = [
+        f"hxtrain: {result.title or result.case_file}",
+        f"case file: {result.case_file}",
+        f"NOTE: {result.caution}",
+        f"\n{result.message}",
+        _section("Exchangers (P, R, NTU on the hot-side basis)"),
+        _formatted(exchanger_table(result), 2),
+    ]
+    one_stream = one_stream_table(result)
+    if len(one_stream):
+        parts += [_section("Heaters and coolers"), _formatted(one_stream, 1)]
+    targets = result.units.get("target_deviation_k")
+    if targets is not None and targets.notna().any():
+        parts += [_section("Products with a target temperature (deviation = actual - target)"),
+                  _formatted(targets.dropna().to_frame("deviation K"), 1)]
+    streams = result.streams[list(STREAM_COLUMNS)].rename(columns=STREAM_COLUMNS)
+    parts += [_section("Stream segments"), _formatted(streams, 2)]
+    if len(result.tears):
+        tears = result.tears[["tear_stream", "iterations", "accelerators", "final_residual_k"]]
+        parts += [_section("Tear streams"), tears.to_string(index=False, float_format=lambda v: f"{v:.2e}")]
+    heater_lines = [f"  {k.removesuffix('_inlet_c')} inlet temperature: {v:,.2f} °C" for k, v in s.items()
+                    if k.endswith("_inlet_c")]
+    parts += [
+        _section("Totals"),
+        f"  heat recovered in exchangers: {s['heat_recovered_kw']:,.1f} kW",
+        f"  heater (furnace) duty:        {s['heater_duty_kw']:,.1f} kW",
+        f"  cooler duty:                  {s['cooler_duty_kw']:,.1f} kW",
+        *heater_lines,
+        f"  energy balance: in {b['enthalpy_in_supplies_kw']:,.1f} kW + added {b['heat_added_net_kw']:,.1f} kW"
+        f" - out {b['enthalpy_out_products_kw']:,.1f} kW = {b['imbalance_kw']:.3g} kW"
+        f" (relative {b['relative_imbalance']:.1e})",
+        findings_box(result),
+    ]
+    return "\n".join(parts)

@@ -1,0 +1,196 @@
+"""``simulate(case)``: one call from a case (file or object) to one result object with tables.
+
+Like a power-flow run that fills result tables matching the network's tables, a simulation
+returns :class:`SimulationResult` with pandas DataFrames: ``units`` (one row per unit),
+``streams`` (one row per stream segment), ``tears``, ``findings`` (limits violated, warnings)
+and ``balance`` (the overall energy balance).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from hxtrain.network import Case, CaseError, Network, build_network, load_case
+
+from .engine import TemperatureSolution, solve_temperatures, tear_labels
+
+UNIT_COLUMNS = {
+    "duty": "duty_kw",
+    "t_hot_in": "hot_in_c",
+    "t_hot_out": "hot_out_c",
+    "t_cold_in": "cold_in_c",
+    "t_cold_out": "cold_out_c",
+    "ua": "ua_kw_per_k",
+    "ntu": "ntu_hot",
+    "p": "p_hot",
+    "r": "r_hot",
+    "effectiveness": "effectiveness",
+    "f": "f",
+    "lmtd": "lmtd_k",
+    "approach": "min_approach_k",
+    "deviation": "target_deviation_k",
+}
+"""Report quantity -> column of the units table (P, R and NTU on the hot-side basis)."""
+
+CAUTION = (
+    "Screening estimates. Mechanical limits, safety and operating decisions rest with qualified "
+    "engineers and the applicable codes and standards."
+)
+
+
+@dataclass
+class SimulationResult:
+    """Result of one converged simulation (a failed one raises instead; see :func:`simulate`)."""
+
+    converged: bool
+    message: str
+    iterations: int
+    units: pd.DataFrame
+    streams: pd.DataFrame
+    tears: pd.DataFrame
+    findings: pd.DataFrame
+    balance: pd.Series
+    summary: pd.Series
+    title: str = ""
+    case_file: str = ""
+    caution: str = CAUTION
+    network: Network | None = field(default=None, repr=False)
+
+    @property
+    def success(self) -> bool:
+        return self.converged
+
+    @property
+    def limits(self) -> pd.DataFrame:
+        """Only the violated limits (design temperature, temperature cross)."""
+        return self.findings[self.findings["severity"] == "limit"]
+
+
+def simulate(case, *, tolerance=None, max_iterations=None) -> SimulationResult:
+    """Simulate a case (a path to a YAML file, or a :class:`Case`).
+
+    Raises :class:`CaseError` for bad input (including a target no unit can meet) and
+    :class:`~.engine.ConvergenceError` when a block's tears do not converge.
+    """
+    if not isinstance(case, Case):
+        case = load_case(Path(case))
+    net = build_network(case)
+    tolerance = tolerance if tolerance is not None else case.settings.tolerance
+    max_iterations = max_iterations if max_iterations is not None else case.settings.max_iterations
+    solution = solve_temperatures(net, tolerance=tolerance, max_iterations=max_iterations)
+    return tabulate(net, solution, tolerance)
+
+
+def tabulate(net: Network, solution: TemperatureSolution, tolerance) -> SimulationResult:
+    """Fill the result tables from a solved network (scenario 0 of the batch)."""
+    t = solution.temperature
+    c = np.broadcast_to(net.heat_capacity_rate, t.shape)
+    rows, findings, heat_added = {}, [], 0.0
+    for name, unit in net.units.items():
+        inlet = net.inlets[name]
+        report = unit.report(t[:, inlet], c[:, inlet])
+        row = {"type": unit.kind}
+        for quantity, column in UNIT_COLUMNS.items():
+            if quantity in report.quantities:
+                row[column] = float(np.asarray(report.quantities[quantity])[0])
+        notes = []
+        for finding in report.findings:
+            if finding.active[0]:
+                findings.append({"unit": name, "severity": finding.severity, "kind": finding.kind,
+                                 "key": finding.key, "message": finding.messages[0]})
+                notes.append(finding.kind)
+        row["findings"] = ", ".join(notes)
+        rows[name] = row
+        heat_added += float(np.asarray(report.heat_added).reshape(-1)[0])
+    _stop_on_bad_input(net, findings)
+    units = pd.DataFrame.from_dict(rows, orient="index", columns=["type", *UNIT_COLUMNS.values(), "findings"])
+    units.index.name = "unit"
+    units = units.dropna(axis=1, how="all")
+    streams = _stream_table(net, t[0])
+    balance = _balance(net, t[0], heat_added)
+    tears = _tear_table(net, solution)
+    findings_table = pd.DataFrame(findings, columns=["unit", "severity", "kind", "key", "message"])
+    findings_table = findings_table.sort_values("severity", key=lambda s: s.map({"limit": 0, "warning": 1}), kind="stable")
+    summary = _summary(units, balance, solution, findings_table)
+    message = (f"converged: {len(tears)} tear stream(s), {solution.iterations} iterations, "
+               f"energy balance closes to {balance['relative_imbalance']:.1e}")
+    return SimulationResult(True, message, solution.iterations, units, streams, tears,
+                            findings_table.reset_index(drop=True), balance, summary,
+                            net.case.title, net.case.file, network=net)
+
+
+def _stop_on_bad_input(net, findings):
+    for f in findings:
+        if f["severity"] == "input":
+            raise CaseError(f["message"], file=net.case.file, path=tuple(f["key"].split(".")))
+
+
+def _stream_table(net: Network, t) -> pd.DataFrame:
+    table = pd.DataFrame(
+        {
+            "segment": [s.label for s in net.segments],
+            "path_of": [s.origin for s in net.segments],
+            "from_unit": [s.source for s in net.segments],
+            "to_unit": [s.target for s in net.segments],
+            "flow_kg_s": net.flow,
+            "heat_capacity_rate_kw_per_k": net.heat_capacity_rate,
+            "temperature_c": t,
+        }
+    )
+    table.index.name = "segment_id"
+    return table
+
+
+def _balance(net: Network, t, heat_added) -> pd.Series:
+    """Overall enthalpy balance (reference 0 °C) from the stream table and the external duties."""
+    c = net.heat_capacity_rate
+    supplied = sum(c[net.outlets[n][0]] * t[net.outlets[n][0]] for n, u in net.units.items() if not u.inlets)
+    delivered = sum(c[net.inlets[n][0]] * t[net.inlets[n][0]] for n, u in net.units.items() if not u.outlets)
+    imbalance = supplied + heat_added - delivered
+    scale = abs(supplied) + abs(heat_added) + abs(delivered)
+    return pd.Series(
+        {
+            "enthalpy_in_supplies_kw": supplied,
+            "heat_added_net_kw": heat_added,
+            "enthalpy_out_products_kw": delivered,
+            "imbalance_kw": imbalance,
+            "relative_imbalance": abs(imbalance) / scale if scale else 0.0,
+        }
+    )
+
+
+def _tear_table(net: Network, solution: TemperatureSolution) -> pd.DataFrame:
+    rows = []
+    for outcome in solution.blocks:
+        if outcome.tears is None:
+            continue
+        for label, seg, residual in zip(tear_labels(net, outcome.block), outcome.block.tears, outcome.tears.residual[0]):
+            rows.append({"tear_stream": label, "segment_id": seg, "block_units": len(outcome.block.units),
+                         "tear_method": outcome.block.method, "iterations": outcome.tears.iterations,
+                         "accelerators": " -> ".join(outcome.tears.methods), "final_residual_k": float(residual)})
+    return pd.DataFrame(rows, columns=["tear_stream", "segment_id", "block_units", "tear_method", "iterations",
+                                       "accelerators", "final_residual_k"])
+
+
+def _summary(units, balance, solution, findings) -> pd.Series:
+    def total(kind):
+        return float(units.loc[units["type"] == kind, "duty_kw"].sum()) if "duty_kw" in units else 0.0
+
+    heaters = units[units["type"] == "heater"]
+    furnace_inlet = heaters["cold_in_c"].to_dict() if "cold_in_c" in heaters else {}
+    return pd.Series(
+        {
+            "heat_recovered_kw": total("exchanger"),
+            "heater_duty_kw": total("heater"),
+            "cooler_duty_kw": total("cooler"),
+            **{f"{name}_inlet_c": value for name, value in furnace_inlet.items()},
+            "limit_violations": int((findings["severity"] == "limit").sum()),
+            "warnings": int((findings["severity"] == "warning").sum()),
+            "iterations": solution.iterations,
+            "relative_imbalance": balance["relative_imbalance"],
+        }
+    )

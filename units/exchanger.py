@@ -1,0 +1,199 @@
+"""Rating of one two-stream heat exchanger from its inlet temperatures, flows and UA.
+
+The exchanger is rated on the basis of the side with the smaller heat-capacity rate (R <= 1),
+where every relation in :mod:`pntu` is well conditioned, and the results are then expressed on
+the hot-side basis for the report. Heat flows by temperature, not by label: when the stream on
+the ``hot`` side enters colder than the ``cold`` side stream, the duty comes out negative (heat
+flowing from the cold side to the hot side) and ``reversed`` is set.
+
+Units: temperatures in °C (or K: only differences matter), heat-capacity rates C = m·cp in kW/K,
+UA in kW/K, duty in kW.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import pntu
+
+ARRANGEMENTS = ("counterflow", "parallel_flow", "tema_e", "crossflow", "double_pipe")
+"""Flow arrangements. ``double_pipe`` is rated as counterflow (hairpins piped in counterflow)."""
+
+SIDES = ("hot", "cold")
+
+
+@dataclass(frozen=True)
+class ExchangerRating:
+    """Rating of an exchanger, every field an array over the batch axis.
+
+    P, R and NTU are on the hot-side basis (side 1 = the stream entering the ``hot`` port):
+    ``p = (T_hot_in - T_hot_out)/(T_hot_in - T_cold_in)``, ``r = C_hot/C_cold``,
+    ``ntu = UA/C_hot``. ``effectiveness`` is Q/Q_max on the C_min basis. ``shell_p_sum`` is
+    P_hot + P_cold of one shell; above 1 the cold stream leaves a shell above the hot outlet. Temperatures on the
+    exchanger proper (``*_out_exchanger``) differ from the outlet temperatures only with a bypass.
+    """
+
+    t_hot_out: np.ndarray
+    t_cold_out: np.ndarray
+    t_hot_out_exchanger: np.ndarray
+    t_cold_out_exchanger: np.ndarray
+    duty: np.ndarray
+    ntu: np.ndarray
+    p: np.ndarray
+    r: np.ndarray
+    effectiveness: np.ndarray
+    f: np.ndarray
+    lmtd: np.ndarray
+    approach: np.ndarray
+    shell_p_sum: np.ndarray
+    temperature_cross: np.ndarray
+    reversed: np.ndarray
+
+
+def p_one_unit(ntu, r, arrangement, *, basis_is_shell=None, basis_is_mixed=None, tube_passes=2):
+    """P of one shell/unit of ``arrangement`` on a basis side given by the flags.
+
+    ``basis_is_shell`` (tema_e) and ``basis_is_mixed`` (crossflow with one fluid mixed) are
+    boolean arrays saying whether the basis side is the shell fluid / the mixed fluid;
+    ``basis_is_mixed=None`` for crossflow means both fluids unmixed.
+    """
+    if arrangement in ("counterflow", "double_pipe"):
+        return pntu.p_counterflow(ntu, r)
+    if arrangement == "parallel_flow":
+        return pntu.p_parallel_flow(ntu, r)
+    if arrangement == "tema_e":
+        shell = pntu.p_tema_e(ntu, r, tube_passes, side1="shell")
+        if tube_passes == 2:  # symmetric: both bases give the same P
+            return shell
+        return np.where(basis_is_shell, shell, pntu.p_tema_e(ntu, r, tube_passes, side1="tube"))
+    if arrangement == "crossflow":
+        if basis_is_mixed is None:
+            return pntu.p_crossflow_unmixed(ntu, r)
+        return np.where(
+            basis_is_mixed,
+            pntu.p_crossflow_one_mixed(ntu, r, side1_mixed=True),
+            pntu.p_crossflow_one_mixed(ntu, r, side1_mixed=False),
+        )
+    raise ValueError(f"unknown arrangement {arrangement!r}; expected one of {ARRANGEMENTS}")
+
+
+def _outlet(t_in, t_other_in, c, duty_out, ua):
+    """Outlet temperature of one side losing ``duty_out``; a side without flow leaves at the
+    other inlet temperature (the limit P -> 1 as its NTU -> inf), or at its own with UA = 0."""
+    safe_c = np.where(c > 0.0, c, 1.0)
+    stagnant = np.where(ua > 0.0, t_other_in, t_in)
+    return np.where(c > 0.0, t_in - duty_out / safe_c, stagnant)
+
+
+def rate_exchanger(
+    t_hot_in,
+    t_cold_in,
+    c_hot,
+    c_cold,
+    ua,
+    arrangement="counterflow",
+    *,
+    shells=1,
+    tube_passes=2,
+    shell_side="hot",
+    mixed_side=None,
+    bypass_hot=0.0,
+    bypass_cold=0.0,
+):
+    """Rate an exchanger (or ``shells`` identical shells in series) by the P–NTU method.
+
+    Parameters
+    ----------
+    t_hot_in, t_cold_in : array_like
+        Inlet temperatures of the streams on the hot and cold sides, °C.
+    c_hot, c_cold : array_like
+        Heat-capacity rates m·cp of the two streams, kW/K (>= 0; zero flow is allowed).
+    ua : array_like
+        Overall conductance of all shells together, kW/K (U × area per shell × shells).
+    arrangement : str
+        One of :data:`ARRANGEMENTS`.
+    shells : int
+        Identical shells (or units) in series in overall counterflow; each gets UA/shells.
+    tube_passes : int
+        Even number of tube passes per shell (``tema_e`` only).
+    shell_side : {"hot", "cold"}
+        Which stream flows in the shell (``tema_e``; matters for 4 or more tube passes).
+    mixed_side : {None, "hot", "cold"}
+        Crossflow: the mixed fluid, or None for both fluids unmixed.
+    bypass_hot, bypass_cold : array_like
+        Fraction of each side's flow routed around the exchanger and re-mixed at its outlet.
+
+    Returns
+    -------
+    ExchangerRating
+    """
+    t_hot_in, t_cold_in, c_hot_total, c_cold_total, ua, bypass_hot, bypass_cold = np.broadcast_arrays(
+        *(np.asarray(v, dtype=float) for v in (t_hot_in, t_cold_in, c_hot, c_cold, ua, bypass_hot, bypass_cold))
+    )
+    c_hot = c_hot_total * (1.0 - bypass_hot)
+    c_cold = c_cold_total * (1.0 - bypass_cold)
+
+    hot_is_min = c_hot <= c_cold
+    c_min = np.minimum(c_hot, c_cold)
+    c_max = np.maximum(c_hot, c_cold)
+    has_flow = c_min > 0.0
+    r = np.where(has_flow, c_min / np.where(has_flow, c_max, 1.0), 0.0)
+    ntu = np.where(has_flow, ua / np.where(has_flow, c_min, 1.0), 0.0)
+    ntu_shell = ntu / shells
+
+    p_shell = p_one_unit(
+        ntu_shell,
+        r,
+        arrangement,
+        basis_is_shell=hot_is_min == (shell_side == "hot"),
+        basis_is_mixed=None if mixed_side is None else hot_is_min == (mixed_side == "hot"),
+        tube_passes=tube_passes,
+    )
+    effectiveness = pntu.p_shells_in_series(p_shell, r, shells)
+    duty = effectiveness * c_min * (t_hot_in - t_cold_in)
+
+    t_hot_x = _outlet(t_hot_in, t_cold_in, c_hot, duty, ua)
+    t_cold_x = _outlet(t_cold_in, t_hot_in, c_cold, -duty, ua)
+    t_hot_out = (1.0 - bypass_hot) * t_hot_x + bypass_hot * t_hot_in
+    t_cold_out = (1.0 - bypass_cold) * t_cold_x + bypass_cold * t_cold_in
+
+    # report on the hot-side basis; a hot side without flow is the limit P = 1, R = 0, NTU = inf
+    hot_flows = c_hot > 0.0
+    safe_hot = np.where(hot_flows, c_hot, 1.0)
+    with np.errstate(divide="ignore"):
+        p_hot = np.where(hot_flows, effectiveness * c_min / safe_hot, np.where(ua > 0.0, 1.0, 0.0))
+        r_hot = np.where(c_cold > 0.0, c_hot / np.where(c_cold > 0.0, c_cold, 1.0), np.inf)
+        ntu_hot = np.where(hot_flows, ua / safe_hot, np.where(ua > 0.0, np.inf, 0.0))
+    f = pntu.f_factor(effectiveness, r, ntu)
+
+    direction = np.where(t_hot_in >= t_cold_in, 1.0, -1.0)
+    end_hot_in = t_hot_in - t_cold_x  # counterflow terminal differences on the exchanger proper
+    end_hot_out = t_hot_x - t_cold_in
+    mean_difference = pntu.lmtd(end_hot_in, end_hot_out)
+    if arrangement == "parallel_flow":
+        approach = direction * (t_hot_x - t_cold_x)
+    else:
+        approach = np.minimum(direction * end_hot_in, direction * end_hot_out)
+    # a temperature cross inside one multipass shell: P_hot + P_cold > 1 for each shell (the
+    # same for every shell of a series, whose shells share P and R)
+    shell_p_sum = p_shell * (1.0 + r)
+    cross = (shell_p_sum > 1.0 + 1e-12) if arrangement == "tema_e" else np.zeros_like(duty, bool)
+    return ExchangerRating(
+        t_hot_out=t_hot_out,
+        t_cold_out=t_cold_out,
+        t_hot_out_exchanger=t_hot_x,
+        t_cold_out_exchanger=t_cold_x,
+        duty=duty,
+        ntu=ntu_hot,
+        p=p_hot,
+        r=r_hot,
+        effectiveness=effectiveness,
+        f=f,
+        lmtd=mean_difference,
+        approach=approach,
+        shell_p_sum=shell_p_sum,
+        temperature_cross=cross & has_flow,
+        reversed=(t_hot_in < t_cold_in) & (duty != 0.0),
+    )
