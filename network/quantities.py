@@ -53,7 +53,7 @@ class QuantityError(ValueError):
 def to_default_unit(value, kind: Kind) -> float:
     """Convert a case-file value to a float in ``kind``'s default unit.
 
-    >>> to_default_unit("212 degF", TEMPERATURE)
+    >>> round(to_default_unit("212 degF", TEMPERATURE), 9)
     100.0
     >>> round(to_default_unit("360 t/h", MASS_FLOW), 9)
     100.0

@@ -1,0 +1,83 @@
+"""Layering rules, checked on the source by AST (no imports executed).
+
+units (pure physics) <- network (case model) <- solver (order, convergence, results, CLI).
+Nothing imports upward; units touches no files and no graphs; runtime code never imports `ht`
+(a test-only outside reference).
+"""
+
+import ast
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+LAYERS = {"units": 0, "network": 1, "solver": 2}
+UNITS_MAY_NOT_USE = {"yaml", "pint", "networkx", "pandas", "pathlib", "open", "os", "io"}
+
+
+def imported_modules(path: Path):
+    """(module name, line) of every import; relative imports resolved within hxtrain."""
+    tree = ast.parse(path.read_text(encoding="utf-8"))
+    layer = path.parent.name
+    for node in ast.walk(tree):
+        if isinstance(node, ast.Import):
+            for alias in node.names:
+                yield alias.name, node.lineno
+        elif isinstance(node, ast.ImportFrom):
+            if node.level:
+                # from . import x / from .x import y stays in the same layer; level 2 goes up
+                yield (f"hxtrain.{layer}" if node.level == 1 else "hxtrain.<parent>"), node.lineno
+            else:
+                yield node.module or "", node.lineno
+
+
+def layer_of(module: str):
+    parts = module.split(".")
+    if parts[0] == "hxtrain" and len(parts) > 1:
+        return parts[1]
+    if parts[0] in LAYERS:  # a bare top-level name would clash with other packages: never allowed
+        return "bare:" + parts[0]
+    return None
+
+
+SOURCES = sorted(p for layer in LAYERS for p in (ROOT / layer).rglob("*.py"))
+
+
+@pytest.mark.parametrize("path", SOURCES, ids=lambda p: str(p.relative_to(ROOT)))
+def test_no_upward_or_bare_imports(path):
+    own = LAYERS[path.relative_to(ROOT).parts[0]]
+    for module, line in imported_modules(path):
+        target = layer_of(module)
+        assert target != "<parent>", f"{path}:{line}: relative import above the layer"
+        assert not (target or "").startswith("bare:"), f"{path}:{line}: bare import {module!r}; use hxtrain.{module}"
+        if target in LAYERS:
+            assert LAYERS[target] <= own, f"{path}:{line}: {path.parent.name} imports upward from {target}"
+        assert module.split(".")[0] != "ht", f"{path}:{line}: runtime code imports the test-only reference `ht`"
+
+
+@pytest.mark.parametrize("path", sorted((ROOT / "units").rglob("*.py")), ids=lambda p: p.name)
+def test_units_are_pure_physics(path):
+    for module, line in imported_modules(path):
+        assert module.split(".")[0] not in UNITS_MAY_NOT_USE, f"{path}:{line}: units may not use {module}"
+    tree = ast.parse(path.read_text(encoding="utf-8"))
+    calls = {n.func.id for n in ast.walk(tree) if isinstance(n, ast.Call) and isinstance(n.func, ast.Name)}
+    assert "open" not in calls, f"{path}: units must not open files"
+
+
+def test_the_check_sees_every_layer():
+    """Guard against a vacuous pass: the rules above must have looked at real files."""
+    assert {p.relative_to(ROOT).parts[0] for p in SOURCES} == set(LAYERS)
+    assert len(SOURCES) >= 10
+
+
+def test_solver_reaches_units_only_through_the_protocol():
+    """The solver never switches on unit type: it does not import the concrete unit classes."""
+    concrete = {"Exchanger", "Heater", "Mixer", "Splitter", "Source", "Sink", "rate_exchanger"}
+    for path in sorted((ROOT / "solver").rglob("*.py")):
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        for node in ast.walk(tree):
+            if isinstance(node, ast.ImportFrom) and (node.module or "").startswith("hxtrain.units"):
+                names = {a.name for a in node.names}
+                assert not names & concrete, f"{path}: imports concrete unit models {names & concrete}"
+            if isinstance(node, ast.Call) and isinstance(node.func, ast.Name) and node.func.id == "isinstance":
+                assert "units" not in ast.unparse(node), f"{path}: isinstance check on a unit type"
