@@ -1,0 +1,272 @@
+"""Fluid property models: cp(T), enthalpy, its inverse, and optional transport properties.
+
+Every model gives, on arrays of temperatures in °C:
+
+* ``cp(t)`` in kJ/kg·K and ``enthalpy(t)`` in kJ/kg referred to 0 °C (the exact integral of cp);
+* ``temperature(h)``, the inverse of ``enthalpy`` (Newton's method from the constant-cp guess,
+  safeguarded by bisection, to 1e-10 K);
+* ``viscosity(t)`` in Pa·s, ``conductivity(t)`` in W/m·K, ``density(t)`` in kg/m³ where the case
+  gives them (None otherwise);
+* ``valid_range`` (t_min, t_max) in °C or None: where the data hold. Using a model outside it is
+  an extrapolation; the unit models flag it.
+
+References
+----------
+.. [1] Kesler, M. G., B. I. Lee. "Improve prediction of enthalpy of fractions." Hydrocarbon
+       Processing 55(3) (1976) 153-158: liquid heat capacity of petroleum fractions,
+       :math:`c_p = (0.6811 - 0.308\,SG + (0.000815 - 0.000306\,SG)\,T)(0.35 + 0.055\,K_W)`
+       in Btu/lb·°F with T in °F (as given by Riazi, ASTM MNL50, 2005, ch. 7; from memory).
+.. [2] Watson, K. M., E. F. Nelson. "Improved methods for approximating critical and thermal
+       properties of petroleum fractions." Ind. Eng. Chem. 25 (1933) 880-887: the
+       characterization factor :math:`K_W = T_b^{1/3}/SG` (T_b in °R).
+.. [3] Andrade's form for liquid viscosity, :math:`\ln\mu = A + B/T` (T in K): two points fix A
+       and B (common practice for interpolating viscosity data).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["FluidModel", "ConstantCp", "PolynomialCp", "TabulatedCp", "petroleum_fraction", "api_to_specific_gravity",
+           "AndradeViscosity", "Blend"]
+
+BTU_PER_LB_F = 4.1868
+"""kJ/kg·K in one Btu/lb·°F (International Table Btu)."""
+
+
+def _t(t):
+    return np.asarray(t, dtype=float)
+
+
+class FluidModel:
+    """Base of the property models: transport properties, range, and the enthalpy inverse."""
+
+    valid_range: tuple[float, float] | None = None
+
+    def __init__(self, viscosity=None, conductivity=None, density=None, valid_range=None):
+        self.viscosity_model = viscosity
+        self.conductivity_value = conductivity
+        self.density_value = density
+        self.valid_range = valid_range
+
+    @property
+    def constant_cp(self) -> bool:
+        return False
+
+    def viscosity(self, t):
+        return None if self.viscosity_model is None else self.viscosity_model(t)
+
+    def conductivity(self, t):
+        return None if self.conductivity_value is None else np.broadcast_to(self.conductivity_value, np.shape(t)) * 1.0
+
+    def density(self, t):
+        return None if self.density_value is None else np.broadcast_to(self.density_value, np.shape(t)) * 1.0
+
+    def outside_range(self, t):
+        """True where ``t`` lies outside the model's valid range."""
+        t = _t(t)
+        if self.valid_range is None:
+            return np.zeros(t.shape, bool)
+        low, high = self.valid_range
+        return (t < low - 1e-9) | (t > high + 1e-9)
+
+    def mean_cp(self, t1, t2):
+        """Mean cp between two temperatures, (h2 - h1)/(t2 - t1); cp(t1) where they coincide."""
+        t1, t2 = np.broadcast_arrays(_t(t1), _t(t2))
+        dt = t2 - t1
+        close = np.abs(dt) < 1e-9
+        mean = (self.enthalpy(t2) - self.enthalpy(t1)) / np.where(close, 1.0, dt)
+        return np.where(close, self.cp(0.5 * (t1 + t2)), mean)
+
+    def temperature(self, h, guess=None):
+        """Temperature (°C) at enthalpy ``h`` (kJ/kg): Newton steps, bisection as a safeguard."""
+        h = _t(h)
+        t = h / self.cp(0.0) if guess is None else np.broadcast_to(_t(guess), h.shape).copy()
+        low, high = np.full(h.shape, -273.15), np.full(h.shape, 5000.0)
+        tolerance = 1e-13 * np.maximum(1.0, np.abs(h))
+        for _ in range(200):
+            error = self.enthalpy(t) - h
+            if np.all(np.abs(error) <= tolerance):
+                break
+            high = np.where(error > 0, np.minimum(high, t), high)
+            low = np.where(error <= 0, np.maximum(low, t), low)
+            t_new = t - error / self.cp(t)
+            outside = (t_new <= low) | (t_new >= high) | ~np.isfinite(t_new)
+            t = np.where(np.abs(error) <= tolerance, t, np.where(outside, 0.5 * (low + high), t_new))
+        return t
+
+
+class ConstantCp(FluidModel):
+    """cp independent of temperature.
+
+    >>> water = ConstantCp(4.18)
+    >>> float(water.enthalpy(50.0)), float(water.temperature(209.0))
+    (209.0, 50.0)
+    """
+
+    def __init__(self, cp, **properties):
+        super().__init__(**properties)
+        self.value = float(cp)
+
+    @property
+    def constant_cp(self) -> bool:
+        return True
+
+    def cp(self, t):
+        return np.full(np.shape(t), self.value)
+
+    def enthalpy(self, t):
+        return self.value * _t(t)
+
+    def temperature(self, h, guess=None):
+        return _t(h) / self.value
+
+
+class PolynomialCp(FluidModel):
+    r"""cp as a polynomial in T (°C): :math:`c_p = \sum_k a_k T^k`, so
+    :math:`h = \sum_k a_k T^{k+1}/(k+1)` exactly.
+
+    >>> oil = PolynomialCp([1.8, 0.004])
+    >>> float(oil.cp(100.0)), float(oil.enthalpy(100.0))
+    (2.2, 200.0)
+    >>> round(float(oil.temperature(200.0)), 9)
+    100.0
+    """
+
+    def __init__(self, coefficients, **properties):
+        super().__init__(**properties)
+        self.coefficients = np.asarray(coefficients, dtype=float)
+        self._cp = np.polynomial.Polynomial(self.coefficients)
+        self._h = self._cp.integ()  # integration constant 0: h(0 °C) = 0
+
+    def cp(self, t):
+        return self._cp(_t(t))
+
+    def enthalpy(self, t):
+        return self._h(_t(t))
+
+
+class TabulatedCp(FluidModel):
+    """cp given at temperatures, linear between the points; enthalpy integrated exactly.
+
+    Beyond the table cp is held at the end values; the table's span is the valid range unless
+    another is given.
+
+    >>> table = TabulatedCp([[0.0, 2.0], [100.0, 2.4]])
+    >>> float(table.cp(50.0)), round(float(table.enthalpy(100.0)), 9)
+    (2.2, 220.0)
+    """
+
+    def __init__(self, points, **properties):
+        points = np.asarray(points, dtype=float)
+        properties.setdefault("valid_range", (float(points[0, 0]), float(points[-1, 0])))
+        super().__init__(**properties)
+        self.t_points, self.cp_points = points[:, 0], points[:, 1]
+        areas = np.diff(self.t_points) * 0.5 * (self.cp_points[1:] + self.cp_points[:-1])
+        self._cumulative = np.concatenate([[0.0], np.cumsum(areas)])
+        self._offset = self._from_first_point(0.0)
+
+    def cp(self, t):
+        return np.interp(_t(t), self.t_points, self.cp_points)
+
+    def _from_first_point(self, t):
+        """Integral of cp from the first table temperature to t (held cp beyond the ends)."""
+        t = _t(t)
+        tp, cp = self.t_points, self.cp_points
+        inside = np.clip(t, tp[0], tp[-1])
+        i = np.clip(np.searchsorted(tp, inside, side="right") - 1, 0, len(tp) - 2)
+        within = self._cumulative[i] + (inside - tp[i]) * 0.5 * (cp[i] + np.interp(inside, tp, cp))
+        return within + (t - inside) * np.where(t < tp[0], cp[0], cp[-1])
+
+    def enthalpy(self, t):
+        return self._from_first_point(t) - self._offset
+
+
+def api_to_specific_gravity(api):
+    r"""Specific gravity 60/60 °F from API gravity: :math:`SG = 141.5/(API + 131.5)`.
+
+    >>> round(float(api_to_specific_gravity(10.0)), 12)
+    1.0
+    """
+    return 141.5 / (np.asarray(api, dtype=float) + 131.5)
+
+
+def petroleum_fraction(specific_gravity, watson_k, **properties) -> PolynomialCp:
+    r"""Liquid petroleum fraction with the Kesler–Lee liquid cp [1]_, linear in T:
+
+    .. math:: c_p = (0.6811 - 0.308\,SG + (0.000815 - 0.000306\,SG)\,T_F)(0.35 + 0.055\,K_W)
+
+    in Btu/lb·°F with :math:`T_F = 1.8\,T + 32`, converted here to kJ/kg·K against T in °C.
+    Stated for liquids; the correlation's authors give it for reduced temperatures below
+    about 0.85 (from memory), so keep ``valid_range`` below the fraction's critical region.
+
+    >>> crude = petroleum_fraction(0.86, 11.9)
+    >>> round(float(crude.cp(150.0)), 4)
+    2.4514
+    """
+    sg, k = float(specific_gravity), float(watson_k)
+    scale = BTU_PER_LB_F * (0.35 + 0.055 * k)
+    slope_f = 0.000815 - 0.000306 * sg
+    a0 = scale * (0.6811 - 0.308 * sg + slope_f * 32.0)
+    a1 = scale * slope_f * 1.8
+    return PolynomialCp([a0, a1], **properties)
+
+
+class AndradeViscosity:
+    r"""Liquid viscosity through two points, :math:`\ln\mu = A + B/T` with T in K [3]_.
+
+    >>> mu = AndradeViscosity((40.0, 8e-3), (100.0, 2e-3))
+    >>> round(float(mu(40.0)), 12), round(float(mu(100.0)), 12)
+    (0.008, 0.002)
+    """
+
+    def __init__(self, point_1, point_2):
+        (t1, mu1), (t2, mu2) = point_1, point_2
+        x1, x2 = 1.0 / (t1 + 273.15), 1.0 / (t2 + 273.15)
+        self.b = (np.log(mu1) - np.log(mu2)) / (x1 - x2)
+        self.a = np.log(mu1) - self.b * x1
+
+    def __call__(self, t):
+        return np.exp(self.a + self.b / (_t(t) + 273.15))
+
+
+class Blend(FluidModel):
+    """A mixture of fluids by mass fraction (ideal mixing: enthalpies add); viscosity by the
+    logarithmic mass-fraction rule (common practice for blending similar liquids)."""
+
+    def __init__(self, fluids, fractions):
+        super().__init__()
+        self.fluids = list(fluids)
+        self.fractions = [np.asarray(f, dtype=float) for f in fractions]
+        ranges = [f.valid_range for f in self.fluids if f.valid_range is not None]
+        self.valid_range = (max(r[0] for r in ranges), min(r[1] for r in ranges)) if ranges else None
+
+    @property
+    def constant_cp(self) -> bool:
+        return all(f.constant_cp for f in self.fluids)
+
+    def cp(self, t):
+        return sum(w * f.cp(t) for f, w in zip(self.fluids, self.fractions))
+
+    def enthalpy(self, t):
+        return sum(w * f.enthalpy(t) for f, w in zip(self.fluids, self.fractions))
+
+    def _weighted(self, name, t, log=False):
+        values = [getattr(f, name)(t) for f in self.fluids]
+        if any(v is None for v in values):
+            return None
+        if log:
+            return np.exp(sum(w * np.log(v) for v, w in zip(values, self.fractions)))
+        return sum(w * v for v, w in zip(values, self.fractions))
+
+    def viscosity(self, t):
+        return self._weighted("viscosity", t, log=True)
+
+    def conductivity(self, t):
+        return self._weighted("conductivity", t)
+
+    def density(self, t):
+        values = [f.density(t) for f in self.fluids]
+        if any(v is None for v in values):
+            return None
+        return 1.0 / sum(w / v for v, w in zip(values, self.fractions))
