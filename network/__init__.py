@@ -3,8 +3,8 @@
 Imports :mod:`hxtrain.units` (to build unit models); never :mod:`hxtrain.solver`.
 """
 
-from .case import Case, Settings, Step, case_from_mapping, load_case
+from .case import Case, Settings, Step, case_from_mapping, load_case, without_fouling
 from .errors import CaseError
 from .graph import Network, Segment, build_network
 
-__all__ = ["Case", "Settings", "Step", "load_case", "case_from_mapping", "CaseError", "Network", "Segment", "build_network"]
+__all__ = ["Case", "Settings", "Step", "load_case", "case_from_mapping", "without_fouling", "CaseError", "Network", "Segment", "build_network"]

@@ -12,11 +12,11 @@ from dataclasses import dataclass, field
 
 from . import quantities as q
 from .errors import CaseError
+from .exchangers import SIDES, read_exchanger
 from .fields import Fields
+from .quantities import shorten
+from .fluids import read_fluid
 from .reading import Document, read_document
-
-ARRANGEMENTS = ("counterflow", "parallel_flow", "tema_e", "crossflow", "double_pipe")
-SIDES = ("hot", "cold")
 DEFAULT_MINIMUM_APPROACH = 10.0
 DEFAULT_MINIMUM_F = 0.75
 DEFAULT_TOLERANCE = 1e-6
@@ -56,12 +56,13 @@ class Settings:
 
 @dataclass
 class Case:
-    """A checked case. Physical values are floats in the default units (°C, kg/s, kJ/kg·K, kW, kW/K)."""
+    """A checked case. Physical values are floats in the default units (°C, kg/s, kJ/kg·K, kW, kW/K);
+    fluids are property models; each exchanger holds its ``spec`` (an ExchangerSpec) and ``limits``."""
 
     file: str
     title: str
     settings: Settings
-    fluids: dict[str, float]
+    fluids: dict
     streams: dict[str, dict]
     exchangers: dict[str, dict]
     heaters: dict[str, dict]
@@ -72,9 +73,13 @@ class Case:
     origins: list[Origin] = field(default_factory=list)
     keys: dict[str, tuple] = field(default_factory=dict)
     """Case-file key path of every unit by name."""
+    lines: dict[tuple, int] = field(default_factory=dict, repr=False)
+    """Line of each key path in the case file (empty for a case built from Python data)."""
 
     def error(self, path, message):
-        return CaseError(message, file=self.file, path=path)
+        """A CaseError at ``path``, with the line where the file had that key."""
+        doc = Document(None, self.file, self.lines)
+        return doc.error(tuple(path), message)
 
 
 def load_case(path) -> Case:
@@ -92,14 +97,10 @@ def case_from_document(doc: Document) -> Case:
     title = top.text("title", default="") or ""
     top.text("description")
     settings = _settings(top.mapping("settings"))
-    fluids = {}
-    for name, f in top.named_entries("fluids", "fluid names to their properties"):
-        fluids[name] = f.quantity("cp", q.SPECIFIC_HEAT, above=0.0, maximum=100.0)
-        f.text("description")
-        f.finish()
+    fluids = {name: read_fluid(f) for name, f in top.named_entries("fluids", "fluid names to their properties")}
     if not fluids:
         raise doc.error(("fluids",), "the case defines no fluids: add a 'fluids' section with each fluid's cp")
-    case = Case(doc.file, title, settings, fluids, {}, {}, {}, {}, {}, {}, {})
+    case = Case(doc.file, title, settings, fluids, {}, {}, {}, {}, {}, {}, {}, lines=doc.lines)
     origins = []
     for name, f in top.named_entries("streams", "stream names to their supply"):
         case.streams[name] = {
@@ -111,7 +112,7 @@ def case_from_document(doc: Document) -> Case:
         f.text("description")
         f.finish()
     for name, f in top.named_entries("exchangers", "exchanger tags to their data"):
-        case.exchangers[name] = _exchanger(f)
+        case.exchangers[name] = read_exchanger(f)
     for section, table in (("heaters", case.heaters), ("coolers", case.coolers)):
         for name, f in top.named_entries(section, f"{section[:-1]} tags to their data"):
             table[name] = _heater(f)
@@ -146,52 +147,6 @@ def _settings(f: Fields | None) -> Settings:
     )
     f.finish()
     return settings
-
-
-def _sides(f: Fields, key, kind, **limits):
-    sides = f.mapping(key, what="a mapping with 'hot' and/or 'cold'")
-    if sides is None:
-        return {}
-    values = {s: sides.quantity(s, kind, required=False, **limits) for s in SIDES}
-    sides.finish()
-    return {s: v for s, v in values.items() if v is not None}
-
-
-def _exchanger(f: Fields) -> dict:
-    arrangement = f.choice("arrangement", ARRANGEMENTS)
-    shells = f.integer("shells", 1, 1, 50)
-    if f.has("ua") and (f.has("u") or f.has("area_per_shell")):
-        raise f.error("ua", "give either 'ua' or 'u' with 'area_per_shell', not both")
-    if f.has("ua"):
-        ua = f.quantity("ua", q.CONDUCTANCE, minimum=0.0, maximum=1e7)
-    else:
-        if not f.has("u"):
-            raise f.error(None, "missing key 'ua' (kW/K), or 'u' (W/m²·K) with 'area_per_shell' (m²)")
-        u = f.quantity("u", q.HEAT_TRANSFER_COEFFICIENT, minimum=0.0, maximum=1e5)
-        area = f.quantity("area_per_shell", q.AREA, minimum=0.0, maximum=1e6)
-        ua = u * area * shells / 1000.0
-    data = {"arrangement": arrangement, "shells": shells, "ua": ua, "tube_passes": 2, "shell_side": "hot", "mixed_side": None}
-    if arrangement == "tema_e":
-        data["tube_passes"] = f.integer("tube_passes", 2, 2, 16)
-        if data["tube_passes"] % 2:
-            raise f.error("tube_passes", f"a TEMA E shell here has an even number of tube passes; got {data['tube_passes']}")
-        data["shell_side"] = f.choice("shell_side", SIDES, required=data["tube_passes"] > 2, default="hot")
-    else:
-        for key in ("tube_passes",):
-            if f.has(key):
-                raise f.error(key, f"'{key}' applies to arrangement tema_e only")
-        f.choice("shell_side", SIDES, required=False)
-    if arrangement == "crossflow":
-        mixed = f.choice("mixed_side", ("none", "hot", "cold"))
-        data["mixed_side"] = None if mixed == "none" else mixed
-    elif f.has("mixed_side"):
-        raise f.error("mixed_side", "'mixed_side' applies to arrangement crossflow only")
-    bypass = _sides(f, "bypass", q.FRACTION, minimum=0.0, maximum=1.0)
-    data["bypass_hot"], data["bypass_cold"] = bypass.get("hot", 0.0), bypass.get("cold", 0.0)
-    data["design_temperature"] = _sides(f, "design_temperature", q.TEMPERATURE, maximum=2000.0)
-    f.text("description")
-    f.finish()
-    return data
 
 
 def _heater(f: Fields) -> dict:
@@ -236,7 +191,7 @@ def _path(f: Fields) -> list[Step]:
     steps = []
     for item in items:
         if not item:
-            raise f.error("path", f"an empty step in {raw!r} (two arrows in a row, or an arrow at an end?)")
+            raise f.error("path", f"an empty step in {shorten(raw)} (two arrows in a row, or an arrow at an end?)")
         unit, _, side = item.partition(".")
         steps.append(Step(unit, side or None))
     return steps
@@ -304,3 +259,19 @@ def _near(word, names):
     from .fields import nearest
 
     return nearest(word, list(names))
+
+
+def without_fouling(case: Case, exchangers=None) -> Case:
+    """A copy of ``case`` with the fouling resistances of ``exchangers`` (default: all) set to
+    zero: the exchangers as clean. The case passed in is not changed."""
+    import copy
+
+    clean = copy.deepcopy(case)
+    chosen = clean.exchangers if exchangers is None else exchangers
+    for tag in chosen:
+        if tag not in clean.exchangers:
+            raise CaseError(f"no exchanger '{tag}' in the case", file=case.file, path=("exchangers",))
+        thermal = clean.exchangers[tag]["spec"].thermal
+        if thermal is not None and hasattr(thermal, "fouling_shell"):
+            thermal.fouling_shell = thermal.fouling_tube = 0.0
+    return clean

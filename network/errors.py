@@ -7,6 +7,8 @@ def format_path(path) -> str:
     """('exchangers', 'E-101', 'area') -> 'exchangers.E-101.area'; list indices as [i]."""
     text = ""
     for part in path:
+        if isinstance(part, str) and len(part) > 60:
+            part = part[:45] + f"...({len(part)} characters)"
         if isinstance(part, int):
             text += f"[{part}]"
         else:

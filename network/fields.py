@@ -7,7 +7,7 @@ import difflib
 import math
 import re
 
-from .quantities import Kind, QuantityError, to_default_unit
+from .quantities import Kind, QuantityError, shorten, to_default_unit
 from .reading import Document
 
 NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_\-]*$")
@@ -50,15 +50,16 @@ class Fields:
             raise self.error(key, str(exc)) from None
         unit = "" if kind.unit == "dimensionless" else f" {kind.unit.replace('delta_', '')}"
         if minimum is not None and number < minimum:
-            raise self.error(key, f"{value!r} is below the smallest allowed value, {minimum}{unit}")
+            raise self.error(key, f"{shorten(value)} is below the smallest allowed value, {minimum}{unit}")
         if above is not None and number <= above:
-            raise self.error(key, f"{value!r} must be greater than {above}{unit}")
+            raise self.error(key, f"{shorten(value)} must be greater than {above}{unit}")
         if maximum is not None and number > maximum:
-            raise self.error(key, f"{value!r} is above the largest allowed value, {maximum}{unit}")
+            raise self.error(key, f"{shorten(value)} is above the largest allowed value, {maximum}{unit}")
         return number
 
     def integer(self, key, default, minimum=1, maximum=1000):
-        value = self.raw(key, False, default)
+        """A whole number; required when ``default`` is None."""
+        value = self.raw(key, default is None, default)
         if isinstance(value, bool) or not isinstance(value, int):
             raise self.error(key, f"expected a whole number, got {describe(value)}")
         if not minimum <= value <= maximum:
@@ -77,7 +78,7 @@ class Fields:
             return None
         if value not in options:
             hint = nearest(value, options)
-            raise self.error(key, f"expected one of {', '.join(map(str, options))}; got {value!r}{hint}")
+            raise self.error(key, f"expected one of {', '.join(map(str, options))}; got {shorten(value)}{hint}")
         return value
 
     def mapping(self, key, required=False, what="a mapping of keys to values"):
@@ -95,7 +96,7 @@ class Fields:
         for name in section.value:
             section.allowed.add(name)
             if not NAME.match(name):
-                raise section.error(name, f"'{name}' is not a usable name: use letters, digits, '-' and '_' only")
+                raise section.error(name, f"{shorten(name)} is not a usable name: use letters, digits, '-' and '_' only")
             entries.append((name, Fields(self.doc, section.path + (name,), section.value[name], f"the settings of {name}")))
         return entries
 
@@ -103,7 +104,7 @@ class Fields:
         for key in self.value:
             if key not in self.allowed:
                 known = sorted(self.allowed)
-                raise self.error(key, f"unknown key '{key}'{nearest(key, known)}; known keys here: {', '.join(known)}")
+                raise self.error(key, f"unknown key {shorten(key)}{nearest(key, known)}; known keys here: {', '.join(known)}")
 
 
 def nearest(word, options) -> str:
@@ -118,4 +119,4 @@ def describe(value) -> str:
         return "a list"
     if isinstance(value, float) and not math.isfinite(value):
         return f"the non-finite number {value}"
-    return f"{type(value).__name__} {value!r}"
+    return f"{type(value).__name__} {shorten(value)}"

@@ -4,7 +4,7 @@ the flows of every segment (solved before any temperature).
 Flows are linear in the supplies and independent of temperature: each segment's flow is its
 unit's flow coefficients times the unit's inlet flows, plus what the unit supplies. Solving that
 linear system once per source gives each segment's flow and its make-up by source, hence its cp
-(mass-weighted) and heat-capacity rate C = m·cp. Recycles need no iteration here.
+(the supplies' fluids blended by mass). Recycles need no iteration here.
 """
 
 from __future__ import annotations
@@ -17,6 +17,9 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from hxtrain.units import models
+from hxtrain.units.exchanger_unit import Exchanger
+from hxtrain.units.properties import Blend
+from hxtrain.units.thermal import GeometryFilms
 
 from .case import Case, Origin
 
@@ -54,10 +57,10 @@ class Network:
     outlets: dict[str, list[int]]
     flow: np.ndarray
     """Mass flow of each segment, kg/s."""
-    heat_capacity_rate: np.ndarray
-    """m·cp of each segment, kW/K."""
     makeup: np.ndarray
     """(segments, supply streams) mass flow of each segment coming from each supply stream."""
+    fluids: list
+    """Fluid model of each segment (a blend where supplies of different fluids have mixed)."""
 
 
 def build_network(case: Case) -> Network:
@@ -78,6 +81,7 @@ def build_network(case: Case) -> Network:
     net = Network(case, graph, units, segments, inlets, outlets, None, None, None)
     check_way_out(net)
     solve_flows(net)
+    check_properties(net)
     return net
 
 
@@ -111,21 +115,8 @@ def _unit_models(case: Case, mixer_inlets) -> dict[str, models.UnitModel]:
     for name, d in case.streams.items():
         units[name] = models.Source(name, _key(case, name), d["flow"], d["supply_temperature"])
     for name, d in case.exchangers.items():
-        units[name] = models.Exchanger(
-            name,
-            _key(case, name),
-            ua=d["ua"],
-            arrangement=d["arrangement"],
-            minimum_approach=s.minimum_approach,
-            minimum_f=s.minimum_f,
-            design_temperature=d["design_temperature"],
-            shells=d["shells"],
-            tube_passes=d["tube_passes"],
-            shell_side=d["shell_side"],
-            mixed_side=d["mixed_side"],
-            bypass_hot=d["bypass_hot"],
-            bypass_cold=d["bypass_cold"],
-        )
+        units[name] = Exchanger(name, _key(case, name), d["spec"], minimum_approach=s.minimum_approach,
+                                minimum_f=s.minimum_f, limits=d["limits"])
     for table, cooler in ((case.heaters, False), (case.coolers, True)):
         for name, d in table.items():
             units[name] = models.Heater(name, _key(case, name), cooler=cooler, **d)
@@ -184,13 +175,57 @@ def solve_flows(net: Network):
             if supplied[o] != 0.0:
                 supply[seg_out, sources.index(name)] = supplied[o]
     matrix = sp.csc_matrix((vals, (rows, cols)), shape=(n, n))
-    makeup = np.asarray(spla.splu(matrix).solve(supply)).reshape(n, len(sources))
+    try:
+        makeup = np.asarray(spla.splu(matrix).solve(supply)).reshape(n, len(sources))
+    except RuntimeError:  # exactly singular: a recycle that returns everything, to round-off
+        raise net.case.error(_recycle_key(net), "the flows cannot be balanced: a recycle returns all of its flow "
+                                                "(check the splitter fractions)") from None
     flow = makeup.sum(axis=1)
-    cp = np.array([net.case.fluids[net.case.streams[s]["fluid"]] for s in sources])
     _check_flow_balance(net, flow, sources)
     net.flow = flow
     net.makeup = makeup
-    net.heat_capacity_rate = makeup @ cp
+    net.fluids = [_segment_fluid(net.case, sources, row) for row in makeup]
+
+
+def _segment_fluid(case: Case, sources, makeup_row):
+    """The fluid of a segment: its supplies' fluids blended by mass (a segment without flow takes
+    the first supply's fluid; with no flow its properties never enter a balance)."""
+    by_fluid: dict[str, float] = {}
+    for source, flow in zip(sources, makeup_row):
+        if flow > 0.0:
+            name = case.streams[source]["fluid"]
+            by_fluid[name] = by_fluid.get(name, 0.0) + flow
+    if not by_fluid:
+        return case.fluids[case.streams[sources[0]]["fluid"]]
+    if len(by_fluid) == 1:
+        return case.fluids[next(iter(by_fluid))]
+    total = sum(by_fluid.values())
+    return Blend([case.fluids[n] for n in by_fluid], [v / total for v in by_fluid.values()])
+
+
+def check_properties(net: Network):
+    """Exchangers rated from geometry (and geometry pressure drops) need transport properties."""
+    for name, unit in net.units.items():
+        spec = getattr(unit, "spec", None)
+        if spec is None or not isinstance(spec.thermal, GeometryFilms):
+            continue
+        needed = ("viscosity", "conductivity") + (("density",) if spec.pressure_drop else ())
+        for port, seg in zip(unit.inlets, net.inlets[name]):
+            fluid = net.fluids[seg]
+            missing = [p for p in needed if getattr(fluid, p)(20.0) is None]
+            if missing:
+                raise net.case.error(tuple(net.case.keys[name]) + ("geometry",),
+                                     f"rating from geometry needs the {' and '.join(missing)} of the fluid on the "
+                                     f"{port} side (segment {net.segments[seg].label}); add it to its fluid")
+
+
+def _recycle_key(net: Network):
+    """Key path of the first splitter inside a loop (the likely culprit of an unbalanced flow)."""
+    for component in nx.strongly_connected_components(net.graph):
+        for name in sorted(component):
+            if len(component) > 1 and net.units[name].kind == "splitter":
+                return tuple(net.case.keys[name]) + ("branches",)
+    return ("splitters",)
 
 
 def _check_flow_balance(net: Network, flow, sources):
@@ -198,7 +233,7 @@ def _check_flow_balance(net: Network, flow, sources):
     delivered = sum(flow[net.inlets[n][0]] for n, u in net.units.items() if not u.outlets)
     if not np.all(np.isfinite(flow)) or np.any(flow < -1e-9 * supplied) or abs(delivered - supplied) > 1e-9 * supplied:
         raise net.case.error(
-            (),
+            _recycle_key(net),
             f"the flows do not balance: {supplied:.6g} kg/s supplied, {delivered:.6g} kg/s delivered to "
             "products (a recycle that returns nearly everything?)",
         )

@@ -61,16 +61,24 @@ def to_default_unit(value, kind: Kind) -> float:
     2.1
     """
     if isinstance(value, bool) or value is None:
-        raise QuantityError(f"expected {kind.name} such as {kind.example}, got {value!r}")
+        raise QuantityError(f"expected {kind.name} such as {kind.example}, got {shorten(value)}")
     if isinstance(value, (int, float)):
         number = float(value)
     elif isinstance(value, str):
         number = _parse(value, kind)
     else:
-        raise QuantityError(f"expected {kind.name} such as {kind.example}, got {type(value).__name__} {value!r}")
+        raise QuantityError(f"expected {kind.name} such as {kind.example}, got {type(value).__name__} {shorten(value)}")
     if not math.isfinite(number):
-        raise QuantityError(f"expected a finite value for {kind.name}, got {value!r}")
+        raise QuantityError(f"expected a finite value for {kind.name}, got {shorten(value)}")
+    if kind.level_temperature and number < -273.15:
+        raise QuantityError(f"{shorten(value)} °C is below absolute zero")
     return number
+
+
+def shorten(value, limit=60) -> str:
+    """repr of a value for a message, cut to ``limit`` characters."""
+    text = repr(value)
+    return text if len(text) <= limit else text[: limit - 15] + f"... ({len(text)} characters)"
 
 
 _NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
@@ -81,7 +89,7 @@ def _parse(text: str, kind: Kind) -> float:
 
     match = _NUMBER.match(text)
     if not match:
-        raise QuantityError(f"expected {kind.name} such as {kind.example}; {text!r} does not start with a number")
+        raise QuantityError(f"expected {kind.name} such as {kind.example}; {shorten(text)} does not start with a number")
     magnitude, unit_text = float(match.group(1)), match.group(2)
     if not unit_text:
         return magnitude
@@ -95,10 +103,8 @@ def _parse(text: str, kind: Kind) -> float:
         number = float(quantity.to(kind.unit).magnitude)
     except pint.DimensionalityError:
         raise QuantityError(
-            f"expected {kind.name} such as {kind.example}, got {text!r}, whose units are not of that kind"
+            f"expected {kind.name} such as {kind.example}, got {shorten(text)}, whose units are not of that kind"
         ) from None
     except Exception:  # pint's expression parser fails in many ways (even AssertionError) on junk
-        raise QuantityError(f"expected {kind.name} such as {kind.example}; cannot read the units of {text!r}") from None
-    if kind is TEMPERATURE and number < -273.15:
-        raise QuantityError(f"{text!r} is below absolute zero")
+        raise QuantityError(f"expected {kind.name} such as {kind.example}; cannot read the units of {shorten(text)}") from None
     return number

@@ -7,6 +7,7 @@ file and a file over the size limit are all errors naming the file (and the line
 
 from __future__ import annotations
 
+import stat
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -77,7 +78,7 @@ class _Builder:
             key = self.scalars.construct_object(key_node)
             key = str(key) if isinstance(key, (int, float)) and not isinstance(key, bool) else key
             if not isinstance(key, str):
-                raise CaseError(f"a key must be a plain name, got {key!r}", file=self.file, path=path,
+                raise CaseError(f"a key must be a plain name, got {type(key).__name__}", file=self.file, path=path,
                                 line=key_node.start_mark.line + 1)
             if key in result:
                 raise CaseError(
@@ -99,10 +100,12 @@ def read_text(path) -> tuple[str, str]:
     try:
         if path.is_dir():
             raise CaseError("this is a directory, not a case file", file=name)
-        size = path.stat().st_size
-        if size > MAX_FILE_BYTES:
-            raise CaseError(f"the file is {size} bytes, over the {MAX_FILE_BYTES}-byte limit for case files", file=name)
-        raw = path.read_bytes()
+        if path.exists() and not stat.S_ISREG(path.stat().st_mode):
+            raise CaseError("this is not a regular file (a device or a pipe?); give a case file", file=name)
+        with path.open("rb") as handle:
+            raw = handle.read(MAX_FILE_BYTES + 1)
+        if len(raw) > MAX_FILE_BYTES:
+            raise CaseError(f"the file is over the {MAX_FILE_BYTES}-byte limit for case files", file=name)
     except FileNotFoundError:
         raise CaseError("no such file", file=name) from None
     except PermissionError:
@@ -123,6 +126,8 @@ def parse_yaml(text, name) -> Document:
         raise CaseError("the file is empty", file=name)
     try:
         nodes = list(yaml.compose_all(text, Loader=yaml.SafeLoader))
+    except RecursionError:
+        raise CaseError("the document nests too deeply to be a case file", file=name) from None
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
         problem = " ".join(str(p) for p in (exc.context, exc.problem) if p)

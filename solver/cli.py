@@ -56,6 +56,9 @@ def build_parser() -> argparse.ArgumentParser:
                      help="also write the results: .csv (one file per table: PATH, PATH_streams.csv, "
                           "PATH_findings.csv, PATH_tears.csv, PATH_summary.csv), .xlsx (one sheet per table) "
                           "or .json (one document)")
+    run.add_argument("--against-clean", action="store_true",
+                     help="also rate the case with every fouling resistance at zero and show what fouling costs "
+                          "per exchanger and at the furnace")
     run.add_argument("--debug", action="store_true", help="show tracebacks on errors")
 
     check = commands.add_parser("check", help="validate a case file without simulating it",
@@ -81,8 +84,15 @@ def _run(args) -> int:
     path = _case_path(args)
     if args.out:
         check_output_path(args.out)
-    result = simulate(path)
-    print(text_report(result))
+    if args.against_clean:
+        from .fouling import compare_clean_and_fouled, comparison_text
+
+        comparison = compare_clean_and_fouled(path)
+        result = comparison.fouled
+        print(text_report(result, comparison_text(comparison)))
+    else:
+        result = simulate(path)
+        print(text_report(result))
     if args.out:
         written = write_results(result, args.out)
         print(f"\nwrote {', '.join(str(p) for p in written)}")

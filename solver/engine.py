@@ -11,6 +11,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from hxtrain.units.models import Inlets
+
 from .convergence import TearResult, converge_tears
 from .sequencing import Block, plan_calculation
 
@@ -40,19 +42,23 @@ class TemperatureSolution:
         return sum(b.tears.iterations for b in self.blocks if b.tears is not None)
 
 
-def _sweep(net, units, temperature, capacity, tear_slots=None):
+def inlets_of(net, name, temperature, flow) -> Inlets:
+    """What enters unit ``name``: temperatures and flows of its inlet segments and their fluids."""
+    inlet = net.inlets[name]
+    return Inlets(temperature[:, inlet], flow[:, inlet], tuple(net.fluids[s] for s in inlet))
+
+
+def _sweep(net, units, temperature, flow, tear_slots=None):
     """Evaluate ``units`` in order, writing outlet temperatures; outlets that are tear segments go
     to ``tear_slots`` (segment -> column of the returned array) instead of the working array."""
     computed = None
     if tear_slots:
         computed = np.empty((temperature.shape[0], len(tear_slots)))
     for name in units:
-        unit = net.units[name]
-        inlet = net.inlets[name]
         outlet = net.outlets[name]
         if not outlet:
             continue
-        t_out = unit.outlet_temperatures(temperature[:, inlet], capacity[:, inlet])
+        t_out = net.units[name].outlet_temperatures(inlets_of(net, name, temperature, flow))
         for j, seg in enumerate(outlet):
             if tear_slots and seg in tear_slots:
                 computed[:, tear_slots[seg]] = t_out[:, j]
@@ -63,21 +69,21 @@ def _sweep(net, units, temperature, capacity, tear_slots=None):
 
 def initial_guess(net, batch):
     """A first guess for tear temperatures: the mean of the supply temperatures."""
-    supplies = [np.broadcast_to(u.outlet_temperatures(np.empty((batch, 0)), np.empty((batch, 0)))[:, 0], (batch,))
-                for u in net.units.values() if not u.inlets]
+    nothing = Inlets(np.empty((batch, 0)), np.empty((batch, 0)), ())
+    supplies = [u.outlet_temperatures(nothing)[:, 0] for u in net.units.values() if not u.inlets]
     return np.mean(supplies, axis=0)
 
 
 def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None) -> TemperatureSolution:
     """Temperatures of every segment; raises :class:`ConvergenceError` if a block fails."""
     plan = plan if plan is not None else plan_calculation(net.graph)
-    capacity = np.broadcast_to(net.heat_capacity_rate, (batch, len(net.segments)))
+    flow = np.broadcast_to(net.flow, (batch, len(net.segments)))
     temperature = np.full((batch, len(net.segments)), np.nan)
     outcomes = []
     guess = initial_guess(net, batch)
     for block in plan:
         if not block.tears:
-            _sweep(net, block.units, temperature, capacity)
+            _sweep(net, block.units, temperature, flow)
             outcomes.append(BlockOutcome(block, None))
             continue
         slots = {seg: j for j, seg in enumerate(block.tears)}
@@ -85,14 +91,14 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None) ->
         def evaluate(x, block=block, slots=slots):
             work = temperature.copy()
             work[:, block.tears] = x
-            return _sweep(net, block.units, work, capacity, slots)
+            return _sweep(net, block.units, work, flow, slots)
 
         x0 = np.repeat(guess[:, None], len(block.tears), axis=1)
         result = converge_tears(evaluate, x0, tolerance, max_iterations)
         if not result.success:
             raise ConvergenceError(_failure_message(net, block, result, tolerance), _diagnostics(net, block, result))
         temperature[:, block.tears] = result.x
-        _sweep(net, block.units, temperature, capacity, {seg: j for j, seg in enumerate(block.tears)})
+        _sweep(net, block.units, temperature, flow, {seg: j for j, seg in enumerate(block.tears)})
         outcomes.append(BlockOutcome(block, result))
     return TemperatureSolution(temperature, outcomes)
 

@@ -97,17 +97,25 @@ def write_results(result: SimulationResult, path) -> list[Path]:
         writers = [lambda h: _write_xlsx(result, h)]
     temporaries = []
     try:
-        for target, write in zip(targets, writers):
-            fd, name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
-            temporaries.append(Path(name))
-            with os.fdopen(fd, "wb") as handle:
-                write(handle)
-                handle.flush()
-                os.fsync(handle.fileno())
-        for temporary, target in zip(temporaries, targets):
-            os.replace(temporary, target)
+        _write_all(targets, writers, temporaries)
+    except OSError as exc:
+        raise CaseError(f"the output cannot be written ({exc.strerror or exc}); no file was left half-written",
+                        file=str(path)) from None
     finally:
         for temporary in temporaries:
             if temporary.exists():
                 temporary.unlink()
     return targets
+
+
+def _write_all(targets, writers, temporaries):
+    """Write every file to a temporary name, then rename them all over their targets."""
+    for target, write in zip(targets, writers):
+        fd, name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
+        temporaries.append(Path(name))
+        with os.fdopen(fd, "wb") as handle:
+            write(handle)
+            handle.flush()
+            os.fsync(handle.fileno())
+    for temporary, target in zip(temporaries, targets):
+        os.replace(temporary, target)

@@ -25,6 +25,18 @@ EXCHANGER_COLUMNS = {
     "min_approach_k": "approach K",
     "findings": "findings",
 }
+SERVICE_COLUMNS = {
+    "u_source": "U from",
+    "u_service_w_m2k": "U service",
+    "u_clean_w_m2k": "U clean",
+    "fouling_shell_m2k_w": "fouling shell",
+    "fouling_tube_m2k_w": "fouling tube",
+    "h_shell_w_m2k": "h shell",
+    "h_tube_w_m2k": "h tube",
+    "re_tube": "Re tube",
+    "dp_shell_kpa": "dp shell kPa",
+    "dp_tube_kpa": "dp tube kPa",
+}
 ONE_STREAM_COLUMNS = {"type": "type", "duty_kw": "duty kW", "in_c": "inlet °C", "out_c": "outlet °C", "findings": "findings"}
 STREAM_COLUMNS = {"segment": "segment", "flow_kg_s": "flow kg/s", "heat_capacity_rate_kw_per_k": "m·cp kW/K",
                   "temperature_c": "temperature °C"}
@@ -43,6 +55,19 @@ def exchanger_table(result: SimulationResult) -> pd.DataFrame:
     table = units[units["type"] == "exchanger"]
     table = table[[c for c in EXCHANGER_COLUMNS if c in table]].rename(columns=EXCHANGER_COLUMNS)
     return table.rename_axis("exchanger")
+
+
+def service_table(result: SimulationResult) -> pd.DataFrame:
+    """U (W/m²·K), fouling (m²·K/W), films and pressure drops, for exchangers that have them."""
+    units = result.units[result.units["type"] == "exchanger"]
+    columns = [c for c in SERVICE_COLUMNS if c in units and c != "u_source"]
+    if not columns:
+        return pd.DataFrame()
+    table = units[["u_source", *columns]].rename(columns=SERVICE_COLUMNS).rename_axis("exchanger")
+    for name in ("fouling shell", "fouling tube"):
+        if name in table:
+            table[name] = table[name].map(lambda v: "" if pd.isna(v) else f"{v:.5f}")
+    return table
 
 
 def one_stream_table(result: SimulationResult) -> pd.DataFrame:
@@ -72,7 +97,8 @@ def findings_box(result: SimulationResult) -> str:
     return "\n".join(lines)
 
 
-def text_report(result: SimulationResult) -> str:
+def text_report(result: SimulationResult, extra: str = "") -> str:
+    """The report; ``extra`` (more sections) goes before the limits and warnings, which stay last."""
     s, b = result.summary, result.balance
     parts = [
         f"hxtrain: {result.title or result.case_file}",
@@ -82,6 +108,9 @@ def text_report(result: SimulationResult) -> str:
         _section("Exchangers (P, R, NTU on the hot-side basis)"),
         _formatted(exchanger_table(result), 2),
     ]
+    service = service_table(result)
+    if len(service):
+        parts += [_section("Exchangers in service (U and h in W/m²·K, fouling in m²·K/W)"), _formatted(service, 1)]
     one_stream = one_stream_table(result)
     if len(one_stream):
         parts += [_section("Heaters and coolers"), _formatted(one_stream, 1)]
@@ -105,6 +134,7 @@ def text_report(result: SimulationResult) -> str:
         f"  energy balance: in {b['enthalpy_in_supplies_kw']:,.1f} kW + added {b['heat_added_net_kw']:,.1f} kW"
         f" - out {b['enthalpy_out_products_kw']:,.1f} kW = {b['imbalance_kw']:.3g} kW"
         f" (relative {b['relative_imbalance']:.1e})",
+        extra,
         findings_box(result),
     ]
     return "\n".join(parts)

@@ -16,7 +16,7 @@ import pandas as pd
 
 from hxtrain.network import Case, CaseError, Network, build_network, load_case
 
-from .engine import TemperatureSolution, solve_temperatures, tear_labels
+from .engine import TemperatureSolution, inlets_of, solve_temperatures, tear_labels
 
 UNIT_COLUMNS = {
     "duty": "duty_kw",
@@ -32,8 +32,19 @@ UNIT_COLUMNS = {
     "f": "f",
     "lmtd": "lmtd_k",
     "approach": "min_approach_k",
+    "u_service": "u_service_w_m2k",
+    "u_clean": "u_clean_w_m2k",
+    "h_shell": "h_shell_w_m2k",
+    "h_tube": "h_tube_w_m2k",
+    "fouling_shell": "fouling_shell_m2k_w",
+    "fouling_tube": "fouling_tube_m2k_w",
+    "re_tube": "re_tube",
+    "dp_shell": "dp_shell_kpa",
+    "dp_tube": "dp_tube_kpa",
     "deviation": "target_deviation_k",
 }
+SCALE = {"dp_shell": 1e-3, "dp_tube": 1e-3}
+"""Report quantities converted for the table (Pa -> kPa)."""
 """Report quantity -> column of the units table (P, R and NTU on the hot-side basis)."""
 
 CAUTION = (
@@ -88,15 +99,14 @@ def simulate(case, *, tolerance=None, max_iterations=None) -> SimulationResult:
 def tabulate(net: Network, solution: TemperatureSolution, tolerance) -> SimulationResult:
     """Fill the result tables from a solved network (scenario 0 of the batch)."""
     t = solution.temperature
-    c = np.broadcast_to(net.heat_capacity_rate, t.shape)
+    flow = np.broadcast_to(net.flow, t.shape)
     rows, findings, heat_added = {}, [], 0.0
     for name, unit in net.units.items():
-        inlet = net.inlets[name]
-        report = unit.report(t[:, inlet], c[:, inlet])
-        row = {"type": unit.kind}
+        report = unit.report(inlets_of(net, name, t, flow))
+        row = {"type": unit.kind, **report.labels}
         for quantity, column in UNIT_COLUMNS.items():
             if quantity in report.quantities:
-                row[column] = float(np.asarray(report.quantities[quantity])[0])
+                row[column] = float(np.asarray(report.quantities[quantity])[0]) * SCALE.get(quantity, 1.0)
         notes = []
         for finding in report.findings:
             if finding.active[0]:
@@ -107,7 +117,8 @@ def tabulate(net: Network, solution: TemperatureSolution, tolerance) -> Simulati
         rows[name] = row
         heat_added += float(np.asarray(report.heat_added).reshape(-1)[0])
     _stop_on_bad_input(net, findings)
-    units = pd.DataFrame.from_dict(rows, orient="index", columns=["type", *UNIT_COLUMNS.values(), "findings"])
+    findings += _extrapolation_findings(net, t[0])
+    units = pd.DataFrame.from_dict(rows, orient="index", columns=["type", "u_source", *UNIT_COLUMNS.values(), "findings"])
     units.index.name = "unit"
     units = units.dropna(axis=1, how="all")
     streams = _stream_table(net, t[0])
@@ -126,7 +137,23 @@ def tabulate(net: Network, solution: TemperatureSolution, tolerance) -> Simulati
 def _stop_on_bad_input(net, findings):
     for f in findings:
         if f["severity"] == "input":
-            raise CaseError(f["message"], file=net.case.file, path=tuple(f["key"].split(".")))
+            raise net.case.error(tuple(f["key"].split(".")), f["message"])
+
+
+def _extrapolation_findings(net: Network, t):
+    """A segment whose temperature lies outside its fluid's data range is flagged, never silent."""
+    found = []
+    for seg, fluid, temperature in zip(net.segments, net.fluids, t):
+        if bool(fluid.outside_range(temperature)) and net.flow[seg.index] > 0.0:
+            low, high = fluid.valid_range
+            found.append({"unit": seg.target, "severity": "warning", "kind": "property_extrapolation",
+                          "key": "fluids", "message": f"segment {seg.label} at {temperature:.1f} °C is outside its "
+                          f"fluid's data range {low:g}-{high:g} °C: properties extrapolated"})
+    return found
+
+
+def _capacity_rates(net: Network, t):
+    return np.array([m * fluid.cp(temperature) for m, fluid, temperature in zip(net.flow, net.fluids, t)])
 
 
 def _stream_table(net: Network, t) -> pd.DataFrame:
@@ -137,7 +164,7 @@ def _stream_table(net: Network, t) -> pd.DataFrame:
             "from_unit": [s.source for s in net.segments],
             "to_unit": [s.target for s in net.segments],
             "flow_kg_s": net.flow,
-            "heat_capacity_rate_kw_per_k": net.heat_capacity_rate,
+            "heat_capacity_rate_kw_per_k": _capacity_rates(net, t),
             "temperature_c": t,
         }
     )
@@ -147,9 +174,11 @@ def _stream_table(net: Network, t) -> pd.DataFrame:
 
 def _balance(net: Network, t, heat_added) -> pd.Series:
     """Overall enthalpy balance (reference 0 °C) from the stream table and the external duties."""
-    c = net.heat_capacity_rate
-    supplied = sum(c[net.outlets[n][0]] * t[net.outlets[n][0]] for n, u in net.units.items() if not u.inlets)
-    delivered = sum(c[net.inlets[n][0]] * t[net.inlets[n][0]] for n, u in net.units.items() if not u.outlets)
+    def enthalpy_flow(seg):
+        return float(net.flow[seg] * net.fluids[seg].enthalpy(t[seg]))
+
+    supplied = sum(enthalpy_flow(net.outlets[n][0]) for n, u in net.units.items() if not u.inlets)
+    delivered = sum(enthalpy_flow(net.inlets[n][0]) for n, u in net.units.items() if not u.outlets)
     imbalance = supplied + heat_added - delivered
     scale = abs(supplied) + abs(heat_added) + abs(delivered)
     return pd.Series(

@@ -819,6 +819,47 @@ def test_tema_e_rejects_odd_or_too_few_tube_passes_and_unknown_sides():
         pntu.p_tema_e(1.0, 0.5, 2, side1="hot")
 
 
+BOUND_R = np.concatenate([[0.0], np.logspace(-8, 1, 70), [1.0]])
+BOUND_NTU = np.logspace(-3, 3.5, 70)
+ARRAY_P = [
+    ("counterflow", pntu.p_counterflow),
+    ("parallel_flow", pntu.p_parallel_flow),
+    ("crossflow_unmixed", pntu.p_crossflow_unmixed),
+    ("crossflow_mixed_1", lambda n, r: pntu.p_crossflow_one_mixed(n, r, True)),
+    ("crossflow_mixed_2", lambda n, r: pntu.p_crossflow_one_mixed(n, r, False)),
+    *[(f"tema_e_{tp}_{s}", lambda n, r, tp=tp, s=s: pntu.p_tema_e(n, r, tp, side1=s))
+      for tp in TUBE_PASSES for s in ("shell", "tube")],
+    *[(f"{k}x_{name}", lambda n, r, k=k, f=f: pntu.p_shells_in_series(f(n / k, r), r, k))
+      for k in (2, 3) for name, f in (("counterflow", pntu.p_counterflow),
+                                      ("tema_e_2", pntu.p_tema_e),
+                                      ("crossflow_unmixed", pntu.p_crossflow_unmixed))],
+]
+
+
+@pytest.mark.parametrize("name, func", ARRAY_P, ids=[a[0] for a in ARRAY_P])
+def test_p_stays_within_its_physical_bounds(name, func):
+    """0 <= P1 <= 1 and P1·R1 <= 1 (neither stream can change by more than the inlet difference:
+    second law), and never NaN, over R from 0 to 10 and NTU up to ~3000 (batch call).
+    P1 <= 1 is required exactly: a P of 1 + ulp is not a rounding nuisance downstream, it turns
+    f_factor and the series formula into NaN (log of a negative number). P1·R1 <= 1 gets 2 eps
+    for the rounding of the product."""
+    rr, nn = np.meshgrid(BOUND_R, BOUND_NTU, indexing="ij")
+    p = func(nn, rr)
+
+    def where(mask, label, value):
+        pts = ", ".join(f"(R={r:.4g}, NTU={n:.4g}, {label}={v:.2e})"
+                        for r, n, v in zip(rr[mask][:4], nn[mask][:4], value[mask][:4]))
+        return f"{pts} ... {int(mask.sum())} points"
+
+    nan = np.isnan(p)
+    assert not np.any(nan), "NaN at " + where(nan, "P", p)
+    assert np.all(p >= 0.0)
+    over = p > 1.0
+    assert not np.any(over), "P > 1 at " + where(over, "P-1", p - 1.0)
+    over = p * rr > 1.0 + 2 * EPS
+    assert not np.any(over), "P·R > 1 at " + where(over, "PR-1", p * rr - 1.0)
+
+
 # --------------------------------------------------------------------------------------------
 # 5. Batch evaluation.
 # --------------------------------------------------------------------------------------------

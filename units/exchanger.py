@@ -166,7 +166,9 @@ def rate_exchanger(
         p_hot = np.where(hot_flows, effectiveness * c_min / safe_hot, np.where(ua > 0.0, 1.0, 0.0))
         r_hot = np.where(c_cold > 0.0, c_hot / np.where(c_cold > 0.0, c_cold, 1.0), np.inf)
         ntu_hot = np.where(hot_flows, ua / safe_hot, np.where(ua > 0.0, np.inf, 0.0))
-    f = pntu.f_factor(effectiveness, r, ntu)
+    # counterflow is the F = 1 reference by definition; computing it would only add round-off
+    counterflow = arrangement in ("counterflow", "double_pipe") and shells >= 1
+    f = np.ones_like(duty) if counterflow else pntu.f_factor(effectiveness, r, ntu)
 
     direction = np.where(t_hot_in >= t_cold_in, 1.0, -1.0)
     end_hot_in = t_hot_in - t_cold_x  # counterflow terminal differences on the exchanger proper

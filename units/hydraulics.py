@@ -1,4 +1,4 @@
-"""Pressure drop per exchanger side: scaled from a reference, or from geometry.
+r"""Pressure drop per exchanger side: scaled from a reference, or from geometry.
 
 SI units: Pa, kg/s, kg/m³, m, Pa·s.
 

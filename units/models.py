@@ -5,9 +5,10 @@ A unit has named inlet and outlet ports. The solver asks it two things:
 * flows — ``flow_coefficients()`` (outlet mass flow = coefficients @ inlet mass flow) and
   ``supplied_flow()`` (what the unit feeds in itself: a source's supply). Flows are linear in
   each other and independent of temperature, so they are solved once, before temperatures.
-* temperatures — ``outlet_temperatures(t_in, c_in)`` from inlet temperatures and heat-capacity
-  rates, both shaped (batch, inlets); returns (batch, outlets). ``report(t_in, c_in)`` gives
-  the quantities for the results table and the findings (limits, warnings, bad input).
+* temperatures — ``outlet_temperatures(inlets)`` from an :class:`Inlets` (inlet temperatures
+  and mass flows shaped (batch, inlets), and each inlet's fluid model); returns
+  (batch, outlets). ``report(inlets)`` gives the quantities for the results table and the
+  findings (limits, warnings, bad input).
 
 Nothing here reads files or knows the graph; ``key`` is the case-file path of the unit, used only
 to word messages.
@@ -21,9 +22,9 @@ from typing import Protocol
 import numpy as np
 
 from . import balances
-from .exchanger import rate_exchanger
+from .properties import Blend
 
-__all__ = ["UnitModel", "Finding", "UnitReport", "Source", "Sink", "Exchanger", "Heater", "Mixer", "Splitter"]
+__all__ = ["UnitModel", "Inlets", "Finding", "UnitReport", "Source", "Sink", "Heater", "Mixer", "Splitter", "check"]
 
 SEVERITIES = ("limit", "warning", "input")
 """``limit``: a design limit violated (shown prominently); ``warning``: worth a look;
@@ -47,6 +48,30 @@ class UnitReport:
     findings: list[Finding] = field(default_factory=list)
     heat_added: np.ndarray | float = 0.0
     """Heat put into the process streams from outside (kW): heaters +, coolers -."""
+    labels: dict[str, str] = field(default_factory=dict)
+    """Fixed descriptions for the results table (e.g. how U is found)."""
+
+
+@dataclass
+class Inlets:
+    """What enters a unit: temperatures (°C) and mass flows (kg/s), each (batch, inlets), and the
+    fluid model of each inlet (a blend where streams of several fluids have mixed)."""
+
+    t: np.ndarray
+    m: np.ndarray
+    fluids: tuple
+
+    @property
+    def batch(self) -> int:
+        return self.t.shape[0]
+
+    def enthalpy_flow(self, j):
+        """ṁ·h of inlet j, kW (enthalpy referred to 0 °C)."""
+        return self.m[:, j] * self.fluids[j].enthalpy(self.t[:, j])
+
+    def capacity(self, j):
+        """ṁ·cp of inlet j at its inlet temperature, kW/K."""
+        return self.m[:, j] * self.fluids[j].cp(self.t[:, j])
 
 
 class UnitModel(Protocol):
@@ -60,9 +85,9 @@ class UnitModel(Protocol):
 
     def supplied_flow(self) -> np.ndarray: ...
 
-    def outlet_temperatures(self, t_in: np.ndarray, c_in: np.ndarray) -> np.ndarray: ...
+    def outlet_temperatures(self, inlets: Inlets) -> np.ndarray: ...
 
-    def report(self, t_in: np.ndarray, c_in: np.ndarray) -> UnitReport: ...
+    def report(self, inlets: Inlets) -> UnitReport: ...
 
 
 def check(kind, severity, active, key, template, **values):
@@ -124,11 +149,11 @@ class Source(_Base):
     def supplied_flow(self):
         return np.atleast_1d(self.flow)
 
-    def outlet_temperatures(self, t_in, c_in):
-        return np.broadcast_to(self.temperature, (t_in.shape[0],))[:, None].copy()
+    def outlet_temperatures(self, inlets):
+        return np.broadcast_to(self.temperature, (inlets.batch,))[:, None].copy()
 
-    def report(self, t_in, c_in):
-        return UnitReport({"t_out": self.outlet_temperatures(t_in, c_in)[:, 0]})
+    def report(self, inlets):
+        return UnitReport({"t_out": self.outlet_temperatures(inlets)[:, 0]})
 
 
 class Sink(_Base):
@@ -141,13 +166,13 @@ class Sink(_Base):
         self.name, self.key = name, key
         self.target_temperature = target_temperature
 
-    def outlet_temperatures(self, t_in, c_in):
-        return np.empty((t_in.shape[0], 0))
+    def outlet_temperatures(self, inlets):
+        return np.empty((inlets.batch, 0))
 
-    def report(self, t_in, c_in):
-        quantities = {"t_in": t_in[:, 0]}
+    def report(self, inlets):
+        quantities = {"t_in": inlets.t[:, 0]}
         if self.target_temperature is not None:
-            quantities["deviation"] = t_in[:, 0] - self.target_temperature
+            quantities["deviation"] = inlets.t[:, 0] - self.target_temperature
         return UnitReport(quantities)
 
 
@@ -163,11 +188,11 @@ class Mixer(_Base):
     def flow_coefficients(self):
         return np.ones((1, len(self.inlets)))
 
-    def outlet_temperatures(self, t_in, c_in):
-        return balances.mix_temperature(t_in, c_in)[:, None]
+    def outlet_temperatures(self, inlets):
+        return mix(inlets)[:, None]
 
-    def report(self, t_in, c_in):
-        return UnitReport({"t_out": balances.mix_temperature(t_in, c_in)})
+    def report(self, inlets):
+        return UnitReport({"t_out": mix(inlets)})
 
 
 class Splitter(_Base):
@@ -183,11 +208,11 @@ class Splitter(_Base):
     def flow_coefficients(self):
         return self.fractions[:, None]
 
-    def outlet_temperatures(self, t_in, c_in):
-        return np.repeat(t_in, len(self.outlets), axis=1)
+    def outlet_temperatures(self, inlets):
+        return np.repeat(inlets.t, len(self.outlets), axis=1)
 
-    def report(self, t_in, c_in):
-        return UnitReport({"t_out": t_in[:, 0]})
+    def report(self, inlets):
+        return UnitReport({"t_out": inlets.t[:, 0]})
 
 
 class Heater(_Base):
@@ -206,21 +231,23 @@ class Heater(_Base):
         self.duty, self.target = duty, outlet_temperature
         self.design_temperature = design_temperature
 
-    def _heat_added(self, t_in, c):
-        if self.target is None:
-            return np.broadcast_to(self.sign * np.asarray(self.duty, dtype=float), t_in.shape)
-        return balances.duty_to_reach(t_in, c, self.target)
-
-    def outlet_temperatures(self, t_in, c_in):
-        t, c = t_in[:, 0], c_in[:, 0]
+    def _heat_added(self, inlets):
+        """Heat added (kW, negative for a cooler) and the outlet temperature."""
+        t, m, fluid = inlets.t[:, 0], inlets.m[:, 0], inlets.fluids[0]
         if self.target is not None:
-            return np.broadcast_to(np.asarray(self.target, float), t.shape)[:, None].copy()
-        return balances.temperature_after_duty(t, c, self._heat_added(t, c))[:, None]
+            t_out = np.broadcast_to(np.asarray(self.target, float), t.shape).copy()
+            return m * (fluid.enthalpy(t_out) - fluid.enthalpy(t)), t_out
+        added = np.broadcast_to(self.sign * np.asarray(self.duty, dtype=float), t.shape)
+        flows = m > 0.0
+        h_out = fluid.enthalpy(t) + added / np.where(flows, m, 1.0)
+        return added, np.where(flows, fluid.temperature(h_out, guess=t), t)
 
-    def report(self, t_in, c_in):
-        t, c = t_in[:, 0], c_in[:, 0]
-        added = self._heat_added(t, c)
-        t_out = self.outlet_temperatures(t_in, c_in)[:, 0]
+    def outlet_temperatures(self, inlets):
+        return self._heat_added(inlets)[1][:, None]
+
+    def report(self, inlets):
+        t, m = inlets.t[:, 0], inlets.m[:, 0]
+        added, t_out = self._heat_added(inlets)
         side = "cold" if self.kind == "heater" else "hot"
         quantities = {"duty": self.sign * added, f"t_{side}_in": t, f"t_{side}_out": t_out}
         findings = design_temperature_findings(self.key, {"the stream ": (self.design_temperature, t, t_out)})
@@ -247,106 +274,25 @@ class Heater(_Base):
                 check(
                     "duty_without_flow",
                     "input",
-                    (c <= 0.0) & (np.asarray(self.duty) != 0.0),
+                    (m <= 0.0) & (np.asarray(self.duty) != 0.0),
                     f"{self.key}.duty",
                     f"the {self.kind} has a fixed duty but no flow through it",
                 )
             )
-        return UnitReport(quantities, findings, heat_added=np.where(c > 0.0, added, 0.0))
+        return UnitReport(quantities, findings, heat_added=np.where(m > 0.0, added, 0.0))
 
 
-class Exchanger(_Base):
-    """A two-stream exchanger rated by P–NTU (see :func:`rate_exchanger` for the parameters).
-
-    ``design_temperature`` maps "hot"/"cold" to a side's design temperature (°C) or None.
-    ``minimum_approach`` (K) and ``minimum_f`` are the warning lines.
-    """
-
-    kind = "exchanger"
-    inlets = ("hot", "cold")
-    outlets = ("hot", "cold")
-
-    def __init__(self, name, key, *, ua, arrangement, minimum_approach, minimum_f, design_temperature=None, **options):
-        self.name, self.key = name, key
-        self.ua = ua
-        self.arrangement = arrangement
-        self.options = options
-        self.minimum_approach, self.minimum_f = minimum_approach, minimum_f
-        self.design_temperature = design_temperature or {}
-
-    def rate(self, t_in, c_in):
-        return rate_exchanger(t_in[:, 0], t_in[:, 1], c_in[:, 0], c_in[:, 1], self.ua, self.arrangement, **self.options)
-
-    def outlet_temperatures(self, t_in, c_in):
-        rating = self.rate(t_in, c_in)
-        return np.stack([rating.t_hot_out, rating.t_cold_out], axis=1)
-
-    def report(self, t_in, c_in):
-        x = self.rate(t_in, c_in)
-        t_hot, t_cold = t_in[:, 0], t_in[:, 1]
-        quantities = {
-            "duty": x.duty,
-            "t_hot_in": t_hot,
-            "t_hot_out": x.t_hot_out,
-            "t_cold_in": t_cold,
-            "t_cold_out": x.t_cold_out,
-            "ua": np.broadcast_to(np.asarray(self.ua, float), x.duty.shape),
-            "ntu": x.ntu,
-            "p": x.p,
-            "r": x.r,
-            "effectiveness": x.effectiveness,
-            "f": x.f,
-            "lmtd": x.lmtd,
-            "approach": x.approach,
-        }
-        works = x.duty != 0.0
-        key = self.key
-        findings = design_temperature_findings(
-            key,
-            {
-                "the hot side ": (self.design_temperature.get("hot"), t_hot, x.t_hot_out),
-                "the cold side ": (self.design_temperature.get("cold"), t_cold, x.t_cold_out),
-            },
-        )
-        findings += [
-            check(
-                "temperature_cross",
-                "limit",
-                x.temperature_cross,
-                key,
-                "temperature cross inside a multipass shell (P_hot + P_cold = {s:.3f} per shell > 1): "
-                "the cold stream leaves above the hot outlet; F = {f:.3f}",
-                s=x.shell_p_sum,
-                f=x.f,
-            ),
-            check(
-                "low_f",
-                "warning",
-                works & (x.f < self.minimum_f),
-                key,
-                "F = {f:.3f} is below {lim:.2f}: steep, unreliable part of the F curve",
-                f=x.f,
-                lim=self.minimum_f,
-            ),
-            check(
-                "approach",
-                "warning",
-                works & (x.approach < self.minimum_approach),
-                key,
-                "minimum approach {a:.1f} K is below the case's {lim:.1f} K",
-                a=x.approach,
-                lim=self.minimum_approach,
-            ),
-            check(
-                "reversed_heat_flow",
-                "warning",
-                x.reversed,
-                key,
-                "the hot-side stream enters colder ({th:.1f} °C) than the cold-side stream "
-                "({tc:.1f} °C): heat flows from the cold side to the hot side ({q:.1f} kW)",
-                th=t_hot,
-                tc=t_cold,
-                q=-x.duty,
-            ),
-        ]
-        return UnitReport(quantities, findings)
+def mix(inlets: Inlets):
+    """Outlet temperature of an adiabatic mixer from its enthalpy balance; with no flow at all,
+    the mean of the inlet temperatures (any value balances a zero flow)."""
+    total = inlets.m.sum(axis=1)
+    flows = total > 0.0
+    if all(f.constant_cp for f in inlets.fluids):
+        capacities = np.stack([inlets.capacity(j) for j in range(inlets.t.shape[1])], axis=1)
+        return balances.mix_temperature(inlets.t, capacities)
+    h_in = sum(inlets.enthalpy_flow(j) for j in range(inlets.t.shape[1]))
+    fractions = inlets.m / np.where(flows, total, 1.0)[:, None]
+    blend = Blend(inlets.fluids, [fractions[:, j] for j in range(inlets.t.shape[1])])
+    guess = balances.mix_temperature(inlets.t, np.where(flows[:, None], inlets.m, 1.0))
+    t_out = blend.temperature(h_in / np.where(flows, total, 1.0), guess=guess)
+    return np.where(flows, t_out, inlets.t.mean(axis=1))

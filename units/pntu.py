@@ -46,6 +46,14 @@ def _arrays(*values):
     return np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in values))
 
 
+def _within_bounds(p, r1):
+    """Clip P1 to its physical range [0, min(1, 1/R1)]: round-off can put a saturated P a few
+    ulp above its limit, which would make the F factor's logarithm blow up."""
+    with np.errstate(divide="ignore"):
+        upper = np.minimum(1.0, np.where(r1 > 0.0, 1.0 / np.where(r1 > 0.0, r1, 1.0), 1.0))
+    return np.clip(p, 0.0, upper)
+
+
 def _one_minus_exp_over_x(x):
     """(1 - exp(-x)) / x for x >= 0, equal to 1 at x = 0 without a 0/0."""
     x = np.asarray(x, dtype=float)
@@ -155,7 +163,7 @@ def p_tema_e(ntu1, r1, tube_passes=2, side1="shell"):
     with np.errstate(invalid="ignore"):
         denominator_times_ntu = _tema_e_denominator(ntu1, r1, n1, half, side1)
     with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(ntu1 == 0.0, 0.0, 2.0 * ntu1 / denominator_times_ntu)
+        return _within_bounds(np.where(ntu1 == 0.0, 0.0, 2.0 * ntu1 / denominator_times_ntu), r1)
 
 
 def _tema_e_denominator(ntu1, r1, n1, half, side1):
@@ -210,7 +218,7 @@ def p_crossflow_unmixed(ntu1, r1):
             break
     with np.errstate(invalid="ignore", divide="ignore"):
         p = np.where(y == 0.0, -np.expm1(-x), total / np.where(y == 0.0, 1.0, y))
-    p = np.where(ntu == 0.0, 0.0, p)
+    p = _within_bounds(np.where(ntu == 0.0, 0.0, p), r)
     return np.where(flip, p * r, p)
 
 
@@ -264,7 +272,10 @@ def p_shells_in_series(p_one, r1, shells):
         safe = np.where(y == 0.0, 1.0, y)
         psi = np.where(y == 0.0, float(shells), np.expm1(shells * np.log1p(safe)) / safe)
         p = 1.0 / (1.0 + 1.0 / (u * psi))
-    return np.where(p_one >= 1.0, 1.0, np.where(p_one <= 0.0, 0.0, p))
+        saturated = np.where(r1 > 1.0, 1.0 / np.where(r1 > 1.0, r1, 1.0), 1.0)
+    # a unit already at its limit (P = 1, or P = 1/R for R > 1) keeps the series there
+    p = np.where(p_one * np.maximum(r1, 1.0) >= 1.0, saturated, np.where(p_one <= 0.0, 0.0, p))
+    return _within_bounds(p, r1)
 
 
 def ntu_counterflow(p1, r1):
@@ -293,11 +304,17 @@ def f_factor(p1, r1, ntu1):
     .. math:: F = \frac{Q}{UA\,\Delta T_{lm,cf}} = \frac{NTU_{1,cf}(P_1, R_1)}{NTU_1}
 
     the counterflow NTU for the same duty and end temperatures over the arrangement's NTU [4]_.
-    F = 1 at NTU1 = 0 (the limit). Same basis for all three arguments.
+    F = 1 at NTU1 = 0 and at R1 = 0 (the limits, where every arrangement is counterflow-like).
+    Where P1 is saturated (at 1 or 1/R1 to round-off) F cannot be resolved from P1; it is
+    evaluated two ulp below that bound, finite, not NaN. Same basis for all three arguments.
 
     >>> round(float(f_factor(p_counterflow(0.8, 0.6), 0.6, 0.8)), 12)
     1.0
     """
     p1, r1, ntu1 = _arrays(p1, r1, ntu1)
+    limit = np.minimum(1.0, 1.0 / np.maximum(r1, 1e-300))
+    below = np.nextafter(np.nextafter(limit, 0.0), 0.0)
+    p = np.where(p1 >= below, below, p1)
     with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(ntu1 == 0.0, 1.0, ntu_counterflow(p1, r1) / np.where(ntu1 == 0.0, 1.0, ntu1))
+        f = ntu_counterflow(p, r1) / np.where(ntu1 == 0.0, 1.0, ntu1)
+    return np.where((ntu1 == 0.0) | (r1 == 0.0), 1.0, f)

@@ -1,4 +1,4 @@
-"""Fluid property models: cp(T), enthalpy, its inverse, and optional transport properties.
+r"""Fluid property models: cp(T), enthalpy, its inverse, and optional transport properties.
 
 Every model gives, on arrays of temperatures in °C:
 

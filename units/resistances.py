@@ -1,4 +1,4 @@
-"""Overall heat-transfer coefficient from resistances in series, all referred to the tube
+r"""Overall heat-transfer coefficient from resistances in series, all referred to the tube
 outside area (the area an exchanger's data sheet quotes).
 
 .. math::

@@ -1,0 +1,221 @@
+"""Reading an exchanger from a case file: arrangement, shells, how U is found, pressure drop
+and design limits. See README.md ("Exchangers") for the keys.
+
+U is found in exactly one of five ways: ``ua`` (kW/K, fixed); ``u`` with ``area_per_shell``
+(fixed U); ``clean_u`` with ``clean_resistance_shell_share`` (a data sheet's clean U and the share
+of its film resistance on the shell side); ``film`` (each side's film coefficient); or
+``geometry`` (film coefficients from correlations). The last three are at ``reference_flow`` and
+scale with flow; they take ``fouling`` resistances.
+"""
+
+from __future__ import annotations
+
+from hxtrain.units import hydraulics, resistances, thermal
+from hxtrain.units.service import ExchangerSpec
+
+from . import quantities as q
+from .fields import Fields
+
+ARRANGEMENTS = ("counterflow", "parallel_flow", "tema_e", "crossflow", "double_pipe")
+SIDES = ("hot", "cold")
+PARTS = ("shell", "tube")
+FOULING = q.Kind("a fouling resistance", "m^2*delta_degC/W", '0.00035 or "0.002 h*ft^2*degF/Btu"')
+LENGTH = q.Kind("a length", "m", '6.1 or "20 ft" or "19.05 mm"')
+PRESSURE = q.Kind("a pressure difference", "Pa", '"0.7 bar" or 70000 or "10 psi"')
+CONDUCTIVITY = q.Kind("a thermal conductivity", "W/m/delta_degC", '45 or "26 Btu/h/ft/degF"')
+DEFAULT_EXPONENT = {"shell": 0.6, "tube": 0.8}
+"""Film exponents on flow: tube side turbulent (Dittus–Boelter form), shell side crossflow over
+tube banks (Kern's Re^0.55 rounded): common practice."""
+THERMAL_KEYS = ("clean_u", "film", "geometry")
+
+
+def read_exchanger(f: Fields) -> dict:
+    arrangement = f.choice("arrangement", ARRANGEMENTS)
+    data = {"arrangement": arrangement, "shells": f.integer("shells", 1, 1, 50),
+            "shells_in_parallel": f.integer("shells_in_parallel", 1, 1, 50), "tube_passes": 2, "mixed_side": None}
+    shell_side_given = f.has("shell_side")
+    if arrangement == "tema_e":
+        data["tube_passes"] = f.integer("tube_passes", 2, 2, 16)
+        if data["tube_passes"] % 2:
+            raise f.error("tube_passes", f"a TEMA E shell here has an even number of tube passes; got {data['tube_passes']}")
+    elif f.has("tube_passes"):
+        raise f.error("tube_passes", "'tube_passes' applies to arrangement tema_e only")
+    needs_side = (arrangement == "tema_e" and data["tube_passes"] > 2) or any(f.has(k) for k in THERMAL_KEYS)
+    data["shell_side"] = f.choice("shell_side", SIDES, required=needs_side, default="hot")
+    if arrangement == "crossflow":
+        mixed = f.choice("mixed_side", ("none", "hot", "cold"))
+        data["mixed_side"] = None if mixed == "none" else mixed
+    elif f.has("mixed_side"):
+        raise f.error("mixed_side", "'mixed_side' applies to arrangement crossflow only")
+    bypass = _by_side(f, "bypass", q.FRACTION, data["shell_side"], shell_side_given, minimum=0.0, maximum=1.0)
+    spec = ExchangerSpec(arrangement, shells=data["shells"], shells_in_parallel=data["shells_in_parallel"],
+                         tube_passes=data["tube_passes"], shell_side=data["shell_side"], mixed_side=data["mixed_side"],
+                         bypass_hot=bypass.get("hot", 0.0), bypass_cold=bypass.get("cold", 0.0))
+    _read_thermal(f, spec, shell_side_given)
+    limits = {
+        "design_temperature": _by_side(f, "design_temperature", q.TEMPERATURE, spec.shell_side, shell_side_given,
+                                       maximum=2000.0),
+        "maximum_flow": _by_side(f, "maximum_flow", q.MASS_FLOW, spec.shell_side, shell_side_given, above=0.0),
+        "allowable_pressure_drop": {},
+    }
+    _read_pressure_drop(f, spec, limits)
+    f.text("description")
+    f.finish()
+    data.update(spec=spec, limits=limits)
+    return data
+
+
+def _by_side(f: Fields, key, kind, shell_side, shell_side_given, **limits) -> dict:
+    """A {hot, cold} mapping, also accepted as {shell, tube} when the case says which is which."""
+    section = f.mapping(key, what="a mapping with 'hot'/'cold' (or 'shell'/'tube')")
+    if section is None:
+        return {}
+    values = {}
+    for side in SIDES + PARTS:
+        value = section.quantity(side, kind, required=False, **limits)
+        if value is None:
+            continue
+        if side in PARTS:
+            if not shell_side_given:
+                raise section.error(side, "say which stream is in the shell ('shell_side: hot' or 'cold') to use "
+                                          "'shell'/'tube' here")
+            side = shell_side if side == "shell" else _other(shell_side)
+        if side in values:
+            raise section.error(None, f"the {side} side is given twice (as hot/cold and as shell/tube)")
+        values[side] = value
+    section.finish()
+    return values
+
+
+def _other(side):
+    return "cold" if side == "hot" else "hot"
+
+
+def _per_part(f: Fields, key, kind, required=True, **limits):
+    section = f.mapping(key, required=required, what="a mapping with 'shell' and 'tube'")
+    if section is None:
+        return None
+    values = {part: section.quantity(part, kind, required=required, **limits) for part in PARTS}
+    section.finish()
+    return values
+
+
+def _read_thermal(f: Fields, spec: ExchangerSpec, shell_side_given):
+    forms = [k for k in ("ua", "u") + THERMAL_KEYS if f.has(k)]
+    if len(forms) != 1:
+        what = "none" if not forms else " and ".join(forms)
+        raise f.error(None if not forms else forms[1],
+                      f"give exactly one way to find U: 'ua', 'u', 'clean_u', 'film' or 'geometry' (found {what})")
+    form = forms[0]
+    if form == "ua":
+        spec.ua = f.quantity("ua", q.CONDUCTANCE, minimum=0.0, maximum=1e7)
+        return
+    if form == "geometry":
+        bundle, wall = _geometry(f, spec)
+        spec.area_per_shell = bundle.area
+        fouling = _per_part(f, "fouling", FOULING, required=False, minimum=0.0, maximum=0.02) or {"shell": 0.0, "tube": 0.0}
+        spec.thermal = thermal.GeometryFilms(bundle, fouling["shell"] or 0.0, fouling["tube"] or 0.0, wall)
+        return
+    spec.area_per_shell = f.quantity("area_per_shell", q.AREA, above=0.0, maximum=1e5)
+    if form == "u":
+        if f.has("fouling"):
+            raise f.error("fouling", "fouling needs U from 'clean_u', 'film' or 'geometry'; a plain 'u' is the service U")
+        spec.thermal = thermal.FixedCoefficient(f.quantity("u", q.HEAT_TRANSFER_COEFFICIENT, minimum=0.0, maximum=1e5))
+        return
+    wall, ratio = _tube_wall(f)
+    fouling = _per_part(f, "fouling", FOULING, required=False, minimum=0.0, maximum=0.02) or {"shell": 0.0, "tube": 0.0}
+    fouling = {k: v or 0.0 for k, v in fouling.items()}
+    if form == "clean_u":
+        clean = f.quantity("clean_u", q.HEAT_TRANSFER_COEFFICIENT, above=0.0, maximum=1e5)
+        share = f.quantity("clean_resistance_shell_share", q.FRACTION, above=0.0, maximum=0.999)
+        if 1.0 / clean <= wall:
+            raise f.error("clean_u", "the tube wall resistance alone exceeds 1/clean_u")
+        h_shell, h_tube = resistances.films_from_clean_coefficient(clean, share, wall, ratio)
+        h = {"shell": float(h_shell), "tube": float(h_tube)}
+    else:
+        h = _per_part(f, "film", q.HEAT_TRANSFER_COEFFICIENT, above=0.0, maximum=1e6)
+    flows = _per_part(f, "reference_flow", q.MASS_FLOW, above=0.0, maximum=1e5)
+    exponents = DEFAULT_EXPONENT | {k: v for k, v in (_per_part(f, "flow_exponent", q.NUMBER, required=False,
+                                                                minimum=0.2, maximum=1.0) or {}).items() if v is not None}
+    temps = _per_part(f, "reference_temperature", q.TEMPERATURE, required=False, maximum=2000.0) or {}
+    reynolds = f.quantity("reference_reynolds_tube", q.NUMBER, required=False, above=0.0, maximum=1e8)
+    per_shell = 1.0 / spec.shells_in_parallel
+    sides = {part: thermal.SideFilm(h[part], flows[part] * per_shell, exponents[part], temps.get(part),
+                                    reynolds if part == "tube" else None) for part in PARTS}
+    spec.thermal = thermal.ScaledFilms(sides["shell"], sides["tube"], fouling["shell"], fouling["tube"], wall, ratio)
+
+
+def _tube_wall(f: Fields):
+    tubes = f.mapping("tubes", what="a mapping with outer_diameter, inner_diameter and wall_conductivity")
+    if tubes is None:
+        return 0.0, 1.0
+    do = tubes.quantity("outer_diameter", LENGTH, above=0.0, maximum=1.0)
+    di = tubes.quantity("inner_diameter", LENGTH, above=0.0, maximum=1.0)
+    k = tubes.quantity("wall_conductivity", CONDUCTIVITY, above=0.0, maximum=1e4)
+    if di >= do:
+        raise tubes.error("inner_diameter", "the inner diameter must be smaller than the outer diameter")
+    tubes.finish()
+    return float(resistances.wall_resistance(do, di, k)), do / di
+
+
+def _geometry(f: Fields, spec: ExchangerSpec):
+    g = f.mapping("geometry", required=True)
+    lengths = {k: g.quantity(k, LENGTH, above=0.0, maximum=100.0) for k in (
+        "tube_outer_diameter", "tube_inner_diameter", "tube_length", "tube_pitch", "baffle_spacing",
+        "shell_inner_diameter")}
+    if lengths["tube_inner_diameter"] >= lengths["tube_outer_diameter"]:
+        raise g.error("tube_inner_diameter", "must be smaller than tube_outer_diameter")
+    if lengths["tube_pitch"] <= lengths["tube_outer_diameter"]:
+        raise g.error("tube_pitch", "must be larger than tube_outer_diameter")
+    bundle = thermal.TubeBundle(
+        lengths["tube_outer_diameter"], lengths["tube_inner_diameter"], lengths["tube_length"],
+        g.integer("tubes", None, 1, 100_000), spec.tube_passes, lengths["tube_pitch"],
+        g.choice("tube_layout", ("triangular", "square")), lengths["baffle_spacing"], g.integer("baffles", None, 0, 1000),
+        lengths["shell_inner_diameter"])
+    k = g.quantity("wall_conductivity", CONDUCTIVITY, above=0.0, maximum=1e4)
+    g.finish()
+    wall = float(resistances.wall_resistance(bundle.tube_outer_diameter, bundle.tube_inner_diameter, k))
+    return bundle, wall
+
+
+def _read_pressure_drop(f: Fields, spec: ExchangerSpec, limits):
+    section = f.mapping("pressure_drop", what="a mapping with 'shell' and/or 'tube'")
+    if section is None:
+        return
+    geometry = isinstance(spec.thermal, thermal.GeometryFilms)
+    for part in PARTS:
+        side = section.mapping(part, what="a mapping with 'reference' (at reference_flow) and/or 'allowable'")
+        if side is None:
+            continue
+        reference = side.quantity("reference", PRESSURE, required=not geometry, above=0.0, maximum=1e8)
+        allowable = side.quantity("allowable", PRESSURE, required=False, above=0.0, maximum=1e8)
+        side.finish()
+        if allowable is not None:
+            limits["allowable_pressure_drop"][part] = allowable
+        spec.pressure_drop[part] = _drop_model(f, spec, part, reference)
+    section.finish()
+
+
+def _drop_model(f: Fields, spec, part, reference):
+    if reference is None:
+        b = spec.thermal.bundle
+        if part == "tube":
+            return lambda m, t, fluid: hydraulics.tube_side_pressure_drop(
+                m, b.tubes, b.tube_passes, b.tube_inner_diameter, b.tube_length, fluid.density(t), fluid.viscosity(t))
+        return lambda m, t, fluid: hydraulics.kern_shell_pressure_drop(
+            m, b.shell_inner_diameter, b.baffle_spacing, b.baffles, b.tube_pitch, b.tube_outer_diameter,
+            fluid.density(t), fluid.viscosity(t), b.layout)
+    film = getattr(spec.thermal, part, None)
+    if film is None:
+        raise f.error("pressure_drop", "a reference pressure drop needs 'reference_flow' (give U by 'clean_u' or "
+                                       "'film' with reference flows)")
+    per_shell = reference / spec.shells
+    t_ref = film.reference_temperature
+
+    def model(m, t, fluid, per_shell=per_shell, m_ref=film.reference_flow, t_ref=t_ref):
+        rho, rho_ref = fluid.density(t), (fluid.density(t_ref) if t_ref is not None else None)
+        if rho is None or rho_ref is None:
+            rho = rho_ref = 1.0
+        return hydraulics.scaled_pressure_drop(per_shell, m, m_ref, 1.8, rho, rho_ref)
+
+    return model

@@ -1,0 +1,114 @@
+"""Property-based tests (hypothesis) of network invariants over generated valid networks.
+
+The networks come from ``network_generator.py`` (see its docstring): trains with splitters and
+mixers, exchanger bypasses, countercurrent couplings (hot streams meeting the cold train in the
+reverse order), true recycles (a splitter branch with fraction < 1 back to an upstream mixer,
+locally or around a whole feed-effluent loop), heaters (target outlet or fixed duty) and
+coolers, every exchanger arrangement, up to about 60 units. Every decision is a hypothesis draw,
+so a failing network shrinks to a small one.
+
+Properties (GUIDE.md, "Tests"):
+
+* the solve converges (no exception) and the overall energy balance closes:
+  ``result.balance['relative_imbalance'] <= 1e-9``;
+* second law: no exchanger moves heat from the colder to the hotter stream — ``duty_kw`` has the
+  sign of ``hot_in_c - cold_in_c`` and each side's outlet lies between the two inlets;
+* every stream temperature lies in the envelope [min, max] of the supply temperatures and the
+  heater/cooler target temperatures. Fixed duties can leave that envelope, so this property is
+  checked on networks generated **without fixed-duty heaters or coolers** (``fixed_duty=False``);
+* the result does not depend on the order in which the case lists its units: every section's
+  entries, every splitter's branches and the top-level keys shuffled give the same segment
+  temperatures to 1e-9 K (compared per segment label).
+
+Examples per property: the hypothesis profile (``tests/conftest.py``): ``default`` 150,
+``thorough`` 2000 (``--hypothesis-profile=thorough`` or ``HXTRAIN_HYPOTHESIS_PROFILE=thorough``).
+The number of networks checked and the slowest convergence are printed in pytest's terminal
+summary.
+"""
+
+from __future__ import annotations
+
+import random
+
+import numpy as np
+from hypothesis import given
+from hypothesis import strategies as st
+
+from hxtrain.network import case_from_mapping
+from hxtrain.solver import simulate
+
+from network_generator import DrawChooser, generate_case, has_fixed_duty, record, shuffled
+
+ENERGY_CLOSURE = 1e-9
+"""Largest relative imbalance accepted (the sequential-modular answer is polished to round-off)."""
+SLACK_K = 1e-9
+"""Temperature slack for the second-law and envelope checks, and the order-independence bound."""
+
+
+@st.composite
+def networks(draw, fixed_duty=True):
+    """A valid generated case dict (see network_generator.generate_case)."""
+    return generate_case(DrawChooser(draw), fixed_duty=fixed_duty)
+
+
+def _run(data, test_name):
+    case = case_from_mapping(data, "<generated>")
+    result = simulate(case)
+    record(test_name, result, data)
+    return case, result
+
+
+@given(networks())
+def test_solve_converges_and_energy_balance_closes(data):
+    """Convergence without exception, and closure of the overall enthalpy balance to 1e-9."""
+    _, result = _run(data, "converges_and_energy_closes")
+    assert result.converged
+    assert np.all(np.isfinite(result.streams["temperature_c"]))
+    assert result.balance["relative_imbalance"] <= ENERGY_CLOSURE, result.balance
+
+
+@given(networks())
+def test_no_exchanger_moves_heat_from_cold_to_hot(data):
+    """Second law per exchanger: sign(duty) = sign(T_hot,in − T_cold,in) (zero duty only at equal
+    inlets), and both outlets between the two inlet temperatures."""
+    _, result = _run(data, "no_heat_uphill")
+    ex = result.units[result.units["type"] == "exchanger"]
+    assert len(ex) == len(data["exchangers"])
+    for tag, row in ex.iterrows():
+        difference = row["hot_in_c"] - row["cold_in_c"]
+        duty = row["duty_kw"]
+        assert duty * difference >= 0.0, (tag, row.to_dict())
+        if difference != 0.0:
+            assert duty != 0.0, (tag, row.to_dict())
+        low = min(row["hot_in_c"], row["cold_in_c"]) - SLACK_K
+        high = max(row["hot_in_c"], row["cold_in_c"]) + SLACK_K
+        for column in ("hot_out_c", "cold_out_c"):
+            assert low <= row[column] <= high, (tag, column, row.to_dict())
+
+
+@given(networks(fixed_duty=False))
+def test_temperatures_stay_inside_supply_and_target_envelope(data):
+    """No fixed duties (by construction): every segment temperature within [min, max] of the supply
+    temperatures and the heater/cooler target temperatures."""
+    assert not has_fixed_duty(data)
+    _, result = _run(data, "inside_envelope")
+    levels = [s["supply_temperature"] for s in data["streams"].values()]
+    for section in ("heaters", "coolers"):
+        levels += [d["outlet_temperature"] for d in data.get(section, {}).values()]
+    t = result.streams["temperature_c"]
+    assert t.min() >= min(levels) - SLACK_K, (t.min(), min(levels))
+    assert t.max() <= max(levels) + SLACK_K, (t.max(), max(levels))
+
+
+@given(networks(), st.integers(0, 2**32 - 1))
+def test_result_does_not_depend_on_unit_order(data, seed):
+    """The same network with every section, every splitter's branches and the top-level keys in
+    another order gives the same temperature on every segment (matched by label) to 1e-9 K."""
+    _, first = _run(data, "order_independent")
+    other = shuffled(data, random.Random(seed))
+    second = simulate(case_from_mapping(other, "<shuffled>"))
+    a = first.streams.set_index("segment")["temperature_c"]
+    b = second.streams.set_index("segment")["temperature_c"]
+    assert a.index.is_unique and set(a.index) == set(b.index)
+    difference = (a - b.loc[a.index]).abs()
+    assert difference.max() <= SLACK_K, difference.sort_values().tail(5)

@@ -1,0 +1,108 @@
+"""The exchanger behind the unit protocol: rated in service, reported with its limits."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .models import UnitReport, _Base, check, design_temperature_findings
+from .service import ExchangerSpec, rate_in_service
+
+__all__ = ["Exchanger"]
+
+
+class Exchanger(_Base):
+    """A two-stream exchanger rated by P–NTU in service (:func:`rate_in_service`).
+
+    ``limits`` may hold ``design_temperature`` {"hot"/"cold": °C}, ``maximum_flow``
+    {"hot"/"cold": kg/s} and ``allowable_pressure_drop`` {"shell"/"tube": Pa}.
+    ``minimum_approach`` (K) and ``minimum_f`` are the warning lines.
+    """
+
+    kind = "exchanger"
+    inlets = ("hot", "cold")
+    outlets = ("hot", "cold")
+
+    def __init__(self, name, key, spec: ExchangerSpec, *, minimum_approach, minimum_f, limits=None):
+        self.name, self.key, self.spec = name, key, spec
+        self.minimum_approach, self.minimum_f = minimum_approach, minimum_f
+        self.limits = limits or {}
+
+    def rate(self, inlets):
+        return rate_in_service(self.spec, inlets.t[:, 0], inlets.t[:, 1], inlets.m[:, 0], inlets.m[:, 1],
+                               inlets.fluids[0], inlets.fluids[1])
+
+    def outlet_temperatures(self, inlets):
+        x = self.rate(inlets).rating
+        return np.stack([x.t_hot_out, x.t_cold_out], axis=1)
+
+    def report(self, inlets):
+        service = self.rate(inlets)
+        x = service.rating
+        t_hot, t_cold = inlets.t[:, 0], inlets.t[:, 1]
+        quantities = {
+            "duty": x.duty, "t_hot_in": t_hot, "t_hot_out": x.t_hot_out, "t_cold_in": t_cold,
+            "t_cold_out": x.t_cold_out, "ua": service.ua, "ntu": x.ntu, "p": x.p, "r": x.r,
+            "effectiveness": x.effectiveness, "f": x.f, "lmtd": x.lmtd, "approach": x.approach,
+        }
+        coefficients = service.coefficients
+        if coefficients is not None:
+            quantities.update(u_service=coefficients.u_service, u_clean=coefficients.u_clean)
+            if coefficients.h_shell is not None:
+                quantities.update(h_shell=coefficients.h_shell, h_tube=coefficients.h_tube)
+            if coefficients.reynolds_tube is not None:
+                quantities["re_tube"] = coefficients.reynolds_tube
+            thermal = self.spec.thermal
+            quantities.update(fouling_shell=np.full(x.duty.shape, thermal.fouling_shell),
+                              fouling_tube=np.full(x.duty.shape, thermal.fouling_tube))
+        for side, drop in service.pressure_drop.items():
+            quantities[f"dp_{side}"] = drop
+        labels = {"u_source": "fixed UA" if self.spec.ua is not None else self.spec.thermal.source}
+        findings = self._limit_findings(inlets, service) + self._rating_findings(x, coefficients, t_hot, t_cold)
+        return UnitReport(quantities, findings, labels=labels)
+
+    def _limit_findings(self, inlets, service):
+        x, key = service.rating, self.key
+        t_hot, t_cold = inlets.t[:, 0], inlets.t[:, 1]
+        design = self.limits.get("design_temperature", {})
+        findings = design_temperature_findings(key, {
+            "the hot side ": (design.get("hot"), t_hot, x.t_hot_out),
+            "the cold side ": (design.get("cold"), t_cold, x.t_cold_out)})
+        for j, side in enumerate(("hot", "cold")):
+            limit = self.limits.get("maximum_flow", {}).get(side)
+            if limit is not None:
+                findings.append(check("maximum_flow", "limit", inlets.m[:, j] > limit, f"{key}.maximum_flow.{side}",
+                                      f"the {side} side carries {{m:.2f}} kg/s, above its maximum of {{lim:.2f}} kg/s",
+                                      m=inlets.m[:, j], lim=limit))
+        for side, drop in service.pressure_drop.items():
+            limit = self.limits.get("allowable_pressure_drop", {}).get(side)
+            if limit is not None:
+                findings.append(check("pressure_drop", "limit", drop > limit, f"{key}.pressure_drop.{side}.allowable",
+                                      f"{side}-side pressure drop {{dp:.1f}} kPa is above the allowable {{lim:.1f}} kPa",
+                                      dp=drop / 1000.0, lim=limit / 1000.0))
+        return findings
+
+    def _rating_findings(self, x, coefficients, t_hot, t_cold):
+        key = self.key
+        works = x.duty != 0.0
+        findings = [
+            check("temperature_cross", "limit", x.temperature_cross, key,
+                  "temperature cross inside a multipass shell (P_hot + P_cold = {s:.3f} per shell > 1): "
+                  "the cold stream leaves above the hot outlet; F = {f:.3f}", s=x.shell_p_sum, f=x.f),
+            check("low_f", "warning", works & (x.f < self.minimum_f), key,
+                  "F = {f:.3f} is below {lim:.2f}: steep, unreliable part of the F curve", f=x.f, lim=self.minimum_f),
+            check("approach", "warning", works & (x.approach < self.minimum_approach), key,
+                  "minimum approach {a:.1f} K is below the case's {lim:.1f} K", a=x.approach, lim=self.minimum_approach),
+            check("reversed_heat_flow", "warning", x.reversed, key,
+                  "the hot-side stream enters colder ({th:.1f} °C) than the cold-side stream ({tc:.1f} °C): heat "
+                  "flows from the cold side to the hot side ({q:.1f} kW)", th=t_hot, tc=t_cold, q=-x.duty),
+        ]
+        if coefficients is not None:
+            notes = coefficients.notes
+            if "laminar_tube_side" in notes:
+                findings.append(check("laminar_tube_side", "warning", notes["laminar_tube_side"], key,
+                                      "tube-side Re = {re:.0f} is laminar: the film is rated by a laminar form",
+                                      re=coefficients.reynolds_tube))
+                findings.append(check("transitional_tube_side", "warning", notes["transitional_tube_side"], key,
+                                      "tube-side Re = {re:.0f} is transitional (2300-10000): the film coefficient "
+                                      "is uncertain there", re=coefficients.reynolds_tube))
+        return findings

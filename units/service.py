@@ -1,0 +1,134 @@
+"""Rating an exchanger in service: U from its thermal model, cp from the fluids' enthalpy.
+
+The P–NTU relations (:func:`rate_exchanger`) need constant heat-capacity rates and a fixed UA.
+In service both depend on the outlet temperatures: cp through the fluids' enthalpy curves, U
+through the film coefficients at the side mean temperatures. This module iterates (successive
+substitution) on the exchanger's outlet temperatures until they change by less than
+:data:`OUTLET_TOLERANCE`:
+
+* each side's heat-capacity rate is ṁ times the *mean* cp over the side's actual temperature
+  range, (h(T_in) - h(T_out)) / (T_in - T_out), so that the P–NTU duty equals the enthalpy
+  change exactly at the fixed point;
+* U is evaluated at the side mean temperatures and the flow through one shell.
+
+The cold outlet is finally taken from the enthalpy balance on the duty, so each exchanger
+closes its own energy balance to round-off whatever the iteration's residual. With constant cp
+and a fixed U the first pass is the answer.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .exchanger import ExchangerRating, rate_exchanger
+from .thermal import Coefficients, FixedCoefficient
+
+OUTLET_TOLERANCE = 1e-10
+MAX_PASSES = 100
+
+
+@dataclass
+class ExchangerSpec:
+    """What is fixed about an exchanger: arrangement, shells and its U model.
+
+    ``area_per_shell`` in m² (None with a fixed ``ua``); ``ua`` in kW/K overrides the U model.
+    ``pressure_drop`` maps "shell"/"tube" to a callable (mass flow through one shell, mean
+    temperature, fluid) -> Pa.
+    """
+
+    arrangement: str
+    thermal: object = None
+    ua: float | None = None
+    area_per_shell: float | None = None
+    shells: int = 1
+    shells_in_parallel: int = 1
+    tube_passes: int = 2
+    shell_side: str = "hot"
+    mixed_side: str | None = None
+    bypass_hot: float = 0.0
+    bypass_cold: float = 0.0
+    pressure_drop: dict = field(default_factory=dict)
+
+    @property
+    def total_area(self):
+        return None if self.area_per_shell is None else self.area_per_shell * self.shells * self.shells_in_parallel
+
+
+@dataclass
+class ServiceRating:
+    rating: ExchangerRating
+    coefficients: Coefficients | None
+    ua: np.ndarray
+    pressure_drop: dict
+    passes: int
+
+
+def _side(spec, hot_value, cold_value, side):
+    """The value for the shell or tube side from hot/cold values."""
+    shell_is_hot = spec.shell_side == "hot"
+    return hot_value if (side == "shell") == shell_is_hot else cold_value
+
+
+def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, fluid_hot, fluid_cold) -> ServiceRating:
+    """Rate an exchanger with temperature-dependent cp and a flow- and temperature-dependent U."""
+    t_hot_in, t_cold_in, m_hot, m_cold = np.broadcast_arrays(*(np.asarray(v, float) for v in (t_hot_in, t_cold_in, m_hot, m_cold)))
+    m_hot_x = m_hot * (1.0 - spec.bypass_hot)
+    m_cold_x = m_cold * (1.0 - spec.bypass_cold)
+    per_shell = 1.0 / spec.shells_in_parallel
+    fixed_u = spec.ua is not None or isinstance(spec.thermal, FixedCoefficient)
+    simple = fixed_u and fluid_hot.constant_cp and fluid_cold.constant_cp
+    t_hot_x, t_cold_x = t_hot_in.copy(), t_cold_in.copy()
+    coefficients = None
+    for passes in range(1, MAX_PASSES + 1):
+        t_mean_hot, t_mean_cold = 0.5 * (t_hot_in + t_hot_x), 0.5 * (t_cold_in + t_cold_x)
+        if spec.ua is not None:
+            ua = np.full(t_hot_in.shape, spec.ua)
+        else:
+            coefficients = spec.thermal.evaluate(
+                _side(spec, m_hot_x, m_cold_x, "shell") * per_shell, _side(spec, m_hot_x, m_cold_x, "tube") * per_shell,
+                _side(spec, t_mean_hot, t_mean_cold, "shell"), _side(spec, t_mean_hot, t_mean_cold, "tube"),
+                _side(spec, fluid_hot, fluid_cold, "shell"), _side(spec, fluid_hot, fluid_cold, "tube"))
+            ua = coefficients.u_service * spec.total_area / 1000.0
+        c_hot = m_hot * fluid_hot.mean_cp(t_hot_in, t_hot_x)
+        c_cold = m_cold * fluid_cold.mean_cp(t_cold_in, t_cold_x)
+        rating = rate_exchanger(t_hot_in, t_cold_in, c_hot, c_cold, ua, spec.arrangement, shells=spec.shells,
+                                tube_passes=spec.tube_passes, shell_side=spec.shell_side, mixed_side=spec.mixed_side,
+                                bypass_hot=spec.bypass_hot, bypass_cold=spec.bypass_cold)
+        change = np.maximum(np.abs(rating.t_hot_out_exchanger - t_hot_x), np.abs(rating.t_cold_out_exchanger - t_cold_x))
+        t_hot_x, t_cold_x = rating.t_hot_out_exchanger, rating.t_cold_out_exchanger
+        if simple or np.all(change <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot_in))):
+            break
+    rating = _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot, fluid_cold, spec, simple)
+    t_mean = {"hot": 0.5 * (t_hot_in + rating.t_hot_out_exchanger), "cold": 0.5 * (t_cold_in + rating.t_cold_out_exchanger)}
+    drops = {}
+    for side, model in spec.pressure_drop.items():
+        label = spec.shell_side if side == "shell" else ("cold" if spec.shell_side == "hot" else "hot")
+        flow = (m_hot_x if label == "hot" else m_cold_x) * per_shell
+        fluid = fluid_hot if label == "hot" else fluid_cold
+        drops[side] = model(flow, t_mean[label], fluid) * spec.shells
+    return ServiceRating(rating, coefficients, ua, drops, passes)
+
+
+def _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot, fluid_cold, spec, simple):
+    """Duty from the hot side's enthalpy change; cold outlet from the cold side's enthalpy;
+    bypass re-mixed on enthalpy. Constant-cp, fixed-U exchangers keep the closed-form result."""
+    if simple:
+        return rating
+    duty = m_hot_x * (fluid_hot.enthalpy(t_hot_in) - fluid_hot.enthalpy(rating.t_hot_out_exchanger))
+    cold_flows = m_cold_x > 0.0
+    h_cold = fluid_cold.enthalpy(t_cold_in) + duty / np.where(cold_flows, m_cold_x, 1.0)
+    t_cold_x = np.where(cold_flows, fluid_cold.temperature(h_cold, guess=rating.t_cold_out_exchanger),
+                        rating.t_cold_out_exchanger)
+    t_hot_out = _remix(fluid_hot, t_hot_in, rating.t_hot_out_exchanger, spec.bypass_hot)
+    t_cold_out = _remix(fluid_cold, t_cold_in, t_cold_x, spec.bypass_cold)
+    return ExchangerRating(**{**rating.__dict__, "duty": np.where(m_hot_x > 0.0, duty, rating.duty),
+                              "t_cold_out_exchanger": t_cold_x, "t_hot_out": t_hot_out, "t_cold_out": t_cold_out})
+
+
+def _remix(fluid, t_in, t_exchanger, bypass):
+    if bypass == 0.0:
+        return t_exchanger
+    h = (1.0 - bypass) * fluid.enthalpy(t_exchanger) + bypass * fluid.enthalpy(t_in)
+    return fluid.temperature(h, guess=t_exchanger)

@@ -1,0 +1,165 @@
+"""How an exchanger's U follows its operating point: fixed, scaled films, or geometry.
+
+Every model answers :meth:`evaluate` with the service U (fouled), the clean U, the film
+coefficients and, where known, the tube-side Reynolds number, for the flows through one shell
+(kg/s) and the mean temperature of each side (°C). All U and h are W/m²·K referred to the
+tube outside area; resistances m²·K/W.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import films
+from .resistances import overall_coefficient
+
+__all__ = ["SideFilm", "FixedCoefficient", "ScaledFilms", "TubeBundle", "GeometryFilms", "Coefficients"]
+
+
+@dataclass
+class Coefficients:
+    """U and its parts at one operating point, arrays over the batch."""
+
+    u_service: np.ndarray
+    u_clean: np.ndarray
+    h_shell: np.ndarray | None = None
+    h_tube: np.ndarray | None = None
+    reynolds_tube: np.ndarray | None = None
+    notes: dict = field(default_factory=dict)
+    """name -> boolean array: conditions the report flags (e.g. "laminar_tube_side")."""
+
+
+class FixedCoefficient:
+    """U given directly; it does not change with flow or temperature (the results say so)."""
+
+    source = "fixed U"
+    fouling_shell = fouling_tube = 0.0
+
+    def __init__(self, u):
+        self.u = float(u)
+
+    def evaluate(self, m_shell, m_tube, t_shell, t_tube, fluid_shell, fluid_tube):
+        u = np.full(np.broadcast(np.asarray(m_shell), np.asarray(m_tube)).shape, self.u)
+        return Coefficients(u, u)
+
+
+@dataclass
+class SideFilm:
+    """One side's film coefficient at a reference flow, and how it scales (see
+    :func:`films.scaled_film_coefficient`). ``reference_temperature`` (°C) enables the property
+    correction when the fluid has viscosity data; ``reference_reynolds`` (tube side) enables the
+    laminar check."""
+
+    h_ref: float
+    reference_flow: float
+    exponent: float
+    reference_temperature: float | None = None
+    reference_reynolds: float | None = None
+
+    def at(self, mass_flow, temperature, fluid):
+        ratio = 1.0
+        mu = None if self.reference_temperature is None else fluid.viscosity(temperature)
+        if mu is not None:
+            t_ref = self.reference_temperature
+            k, k_ref = fluid.conductivity(temperature), fluid.conductivity(t_ref)
+            ratio = films.property_correction(
+                self.exponent, mu, fluid.viscosity(t_ref), fluid.cp(temperature), fluid.cp(t_ref),
+                1.0 if k is None else k, 1.0 if k_ref is None else k_ref)
+        return films.scaled_film_coefficient(self.h_ref, mass_flow, self.reference_flow, self.exponent, ratio), mu
+
+
+class ScaledFilms:
+    """Film coefficients known at a reference (data-sheet) condition, scaled with flow and
+    properties, plus fouling and wall resistances in series (:func:`overall_coefficient`).
+
+    Tube side: if a reference Reynolds number is given, the operating Re follows as
+    Re_ref·(ṁ/ṁ_ref)·(μ_ref/μ); below 2300 the film scales as a laminar developing flow
+    (Nu ∝ (Re Pr)^(1/3), Sieder–Tate form) instead of with the turbulent exponent, and the
+    condition is flagged; between 2300 and 10^4 it is flagged as transitional.
+    """
+
+    source = "films scaled from reference"
+
+    def __init__(self, shell: SideFilm, tube: SideFilm, fouling_shell=0.0, fouling_tube=0.0, wall=0.0, diameter_ratio=1.0):
+        self.shell, self.tube = shell, tube
+        self.fouling_shell, self.fouling_tube = fouling_shell, fouling_tube
+        self.wall, self.diameter_ratio = wall, diameter_ratio
+
+    def evaluate(self, m_shell, m_tube, t_shell, t_tube, fluid_shell, fluid_tube):
+        h_shell, _ = self.shell.at(m_shell, t_shell, fluid_shell)
+        h_tube, mu_tube = self.tube.at(m_tube, t_tube, fluid_tube)
+        notes, reynolds = {}, None
+        if self.tube.reference_reynolds is not None:
+            mu_ratio = 1.0 if mu_tube is None else fluid_tube.viscosity(self.tube.reference_temperature) / mu_tube
+            reynolds = self.tube.reference_reynolds * np.asarray(m_tube, float) / self.tube.reference_flow * mu_ratio
+            laminar = reynolds < films.LAMINAR_LIMIT
+            if np.any(laminar):
+                lam = SideFilm(self.tube.h_ref, self.tube.reference_flow, 1.0 / 3.0, self.tube.reference_temperature)
+                h_laminar, _ = lam.at(m_tube, t_tube, fluid_tube)
+                h_tube = np.where(laminar, np.minimum(h_laminar, h_tube), h_tube)
+            notes["laminar_tube_side"] = laminar
+            notes["transitional_tube_side"] = (reynolds >= films.LAMINAR_LIMIT) & (reynolds < films.TURBULENT_LIMIT)
+        return _combine(self, h_shell, h_tube, reynolds, notes)
+
+
+def _combine(model, h_shell, h_tube, reynolds, notes):
+    clean_u = overall_coefficient(h_shell, h_tube, 0.0, 0.0, model.wall, model.diameter_ratio)
+    service = overall_coefficient(h_shell, h_tube, model.fouling_shell, model.fouling_tube, model.wall,
+                                  model.diameter_ratio)
+    return Coefficients(service, clean_u, h_shell, h_tube, reynolds, notes)
+
+
+@dataclass
+class TubeBundle:
+    """Geometry of one shell (SI units)."""
+
+    tube_outer_diameter: float
+    tube_inner_diameter: float
+    tube_length: float
+    tubes: int
+    tube_passes: int
+    tube_pitch: float
+    layout: str
+    baffle_spacing: float
+    baffles: int
+    shell_inner_diameter: float
+
+    @property
+    def tube_flow_area(self):
+        return self.tubes / self.tube_passes * np.pi * self.tube_inner_diameter**2 / 4.0
+
+    @property
+    def area(self):
+        return self.tubes * np.pi * self.tube_outer_diameter * self.tube_length
+
+
+class GeometryFilms:
+    """Film coefficients from geometry and fluid properties: tube side by
+    :func:`films.nusselt_tube_side` (Gnielinski, with Gnielinski's laminar–turbulent
+    interpolation), shell side by Kern's method (:func:`films.nusselt_kern_shell`). Viscosity
+    ratio (wall) factors are taken as 1. Needs cp, viscosity and conductivity of both fluids."""
+
+    source = "films from geometry"
+
+    def __init__(self, bundle: TubeBundle, fouling_shell=0.0, fouling_tube=0.0, wall=0.0):
+        self.bundle = bundle
+        self.fouling_shell, self.fouling_tube, self.wall = fouling_shell, fouling_tube, wall
+        self.diameter_ratio = bundle.tube_outer_diameter / bundle.tube_inner_diameter
+
+    def evaluate(self, m_shell, m_tube, t_shell, t_tube, fluid_shell, fluid_tube):
+        b = self.bundle
+        mu_t, k_t, cp_t = fluid_tube.viscosity(t_tube), fluid_tube.conductivity(t_tube), 1000.0 * fluid_tube.cp(t_tube)
+        re_t = films.reynolds(np.maximum(m_tube, 1e-12), b.tube_inner_diameter, b.tube_flow_area, mu_t)
+        nu_t = films.nusselt_tube_side(re_t, films.prandtl(cp_t, mu_t, k_t), b.tube_inner_diameter, b.tube_length)
+        h_tube = np.where(np.asarray(m_tube) > 0.0, nu_t * k_t / b.tube_inner_diameter, 0.0)
+        mu_s, k_s, cp_s = fluid_shell.viscosity(t_shell), fluid_shell.conductivity(t_shell), 1000.0 * fluid_shell.cp(t_shell)
+        de = films.kern_equivalent_diameter(b.tube_pitch, b.tube_outer_diameter, b.layout)
+        area_s = films.kern_crossflow_area(b.shell_inner_diameter, b.tube_pitch, b.tube_outer_diameter, b.baffle_spacing)
+        re_s = films.reynolds(np.maximum(m_shell, 1e-12), de, area_s, mu_s)
+        nu_s = films.nusselt_kern_shell(re_s, films.prandtl(cp_s, mu_s, k_s))
+        h_shell = np.where(np.asarray(m_shell) > 0.0, nu_s * k_s / de, 0.0)
+        notes = {"laminar_tube_side": re_t < films.LAMINAR_LIMIT,
+                 "transitional_tube_side": (re_t >= films.LAMINAR_LIMIT) & (re_t < films.TURBULENT_LIMIT)}
+        return _combine(self, h_shell, h_tube, re_t, notes)
