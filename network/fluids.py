@@ -8,7 +8,9 @@ cp takes one of four forms::
     petroleum: {api_gravity: 31, watson_k: 11.9}          # or specific_gravity; Kesler–Lee cp
 
 plus optional ``viscosity`` (a value, or ``points`` through two temperatures), ``conductivity``
-(W/m·K), ``density`` (kg/m³) and ``valid_range`` ([low, high] °C: where the data hold).
+(W/m·K), ``density`` (kg/m³) and ``valid_range`` ([low, high] °C: where the data hold; a table's
+span by default). A stream outside its fluid's range is bad input unless ``extrapolate: true``
+lets the run go on with a warning.
 """
 
 from __future__ import annotations
@@ -27,6 +29,23 @@ DENSITY = q.Kind("a density", "kg/m^3", '850 or "53 lb/ft^3"')
 
 
 def read_fluid(f: Fields) -> props.FluidModel:
+    model = _read_model(f)
+    model.name = f.path[-1]
+    range_key = "valid_range" if f.has("valid_range") else "cp"
+    model.range_key = ".".join(map(str, f.path + (range_key,)))
+    model.extrapolate = bool(_flag(f, "extrapolate"))
+    f.finish()
+    return model
+
+
+def _flag(f: Fields, key):
+    value = f.raw(key, required=False, default=False)
+    if not isinstance(value, bool):
+        raise f.error(key, f"expected true or false, got {describe(value)}")
+    return value
+
+
+def _read_model(f: Fields) -> props.FluidModel:
     transport = {
         "viscosity": _viscosity(f),
         "conductivity": f.quantity("conductivity", CONDUCTIVITY, required=False, above=0.0, maximum=1e3),
@@ -40,7 +59,6 @@ def read_fluid(f: Fields) -> props.FluidModel:
         model = _petroleum(f.mapping("petroleum"), transport)
     else:
         model = _cp(f, transport)
-    f.finish()
     _check_positive_cp(f, model)
     return model
 

@@ -116,8 +116,8 @@ def tabulate(net: Network, solution: TemperatureSolution, tolerance) -> Simulati
         row["findings"] = ", ".join(notes)
         rows[name] = row
         heat_added += float(np.asarray(report.heat_added).reshape(-1)[0])
-    _stop_on_bad_input(net, findings)
     findings += _extrapolation_findings(net, t[0])
+    _stop_on_bad_input(net, findings)
     units = pd.DataFrame.from_dict(rows, orient="index", columns=["type", "u_source", *UNIT_COLUMNS.values(), "findings"])
     units.index.name = "unit"
     units = units.dropna(axis=1, how="all")
@@ -141,14 +141,25 @@ def _stop_on_bad_input(net, findings):
 
 
 def _extrapolation_findings(net: Network, t):
-    """A segment whose temperature lies outside its fluid's data range is flagged, never silent."""
+    """A segment whose temperature lies outside a fluid's data range is refused (bad input, naming
+    the fluid's range) unless that fluid allows extrapolation, which is then flagged, never silent."""
     found = []
     for seg, fluid, temperature in zip(net.segments, net.fluids, t):
-        if bool(fluid.outside_range(temperature)) and net.flow[seg.index] > 0.0:
-            low, high = fluid.valid_range
-            found.append({"unit": seg.target, "severity": "warning", "kind": "property_extrapolation",
-                          "key": "fluids", "message": f"segment {seg.label} at {temperature:.1f} °C is outside its "
-                          f"fluid's data range {low:g}-{high:g} °C: properties extrapolated"})
+        if net.flow[seg.index] <= 0.0:
+            continue
+        for member in fluid.members():
+            if not bool(member.outside_range(temperature)):
+                continue
+            low, high = member.valid_range
+            message = (f"segment {seg.label} reaches {temperature:.1f} °C, outside the data range "
+                       f"{low:g} to {high:g} °C of fluid '{member.name}'")
+            if member.extrapolate:
+                found.append({"unit": seg.target, "severity": "warning", "kind": "property_extrapolation",
+                              "key": member.range_key, "message": message + ": properties extrapolated"})
+            else:
+                found.append({"unit": seg.target, "severity": "input", "kind": "property_range",
+                              "key": member.range_key, "message": message + "; widen the data (or set "
+                              "'extrapolate: true' on the fluid to accept extrapolated properties)"})
     return found
 
 

@@ -42,6 +42,11 @@ class FluidModel:
     """Base of the property models: transport properties, range, and the enthalpy inverse."""
 
     valid_range: tuple[float, float] | None = None
+    name: str = "fluid"
+    range_key: str = ""
+    """Where the range comes from in the case file, for messages."""
+    extrapolate: bool = False
+    """Whether use outside ``valid_range`` is allowed (with a warning) rather than refused."""
 
     def __init__(self, viscosity=None, conductivity=None, density=None, valid_range=None):
         self.viscosity_model = viscosity
@@ -69,6 +74,10 @@ class FluidModel:
             return np.zeros(t.shape, bool)
         low, high = self.valid_range
         return (t < low - 1e-9) | (t > high + 1e-9)
+
+    def members(self):
+        """The plain fluids this model is made of (itself; a blend's constituents)."""
+        return [self]
 
     def mean_cp(self, t1, t2):
         """Mean cp between two temperatures, (h2 - h1)/(t2 - t1); cp(t1) where they coincide."""
@@ -244,6 +253,9 @@ class Blend(FluidModel):
     @property
     def constant_cp(self) -> bool:
         return all(f.constant_cp for f in self.fluids)
+
+    def members(self):
+        return [m for f in self.fluids for m in f.members()]
 
     def cp(self, t):
         return sum(w * f.cp(t) for f, w in zip(self.fluids, self.fractions))
