@@ -15,6 +15,7 @@ from hxtrain.network import CaseError, load_case
 
 from .demos import DEMO_CASES, demo_case_path
 from .engine import ConvergenceError
+from .results import CAUTION
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT, EXIT_NOT_CONVERGED = 0, 1, 2, 3
 
@@ -31,7 +32,10 @@ examples:
   hxtrain run                          run the bundled crude preheat demo
   hxtrain run --demo feed_effluent     run another bundled demo
   hxtrain run plant.yaml --out res.xlsx
-  hxtrain check plant.yaml             validate only"""
+  hxtrain check plant.yaml             validate only
+  hxtrain compare study.yaml           variants side by side, specifications
+  hxtrain sweep study.yaml --out s.csv sweeps over one or two key paths
+  hxtrain cleaning plant.yaml          rank exchangers by what cleaning each gains"""
 
 
 def _package_version():
@@ -60,6 +64,26 @@ def build_parser() -> argparse.ArgumentParser:
                      help="also rate the case with every fouling resistance at zero and show what fouling costs "
                           "per exchanger and at the furnace")
     run.add_argument("--debug", action="store_true", help="show tracebacks on errors")
+
+    compare = commands.add_parser("compare", help="run a study's variants and specifications side by side",
+                                  description="Simulate a study's base case and every variant, print them in columns "
+                                              "with differences from the base, and solve its specifications.")
+    compare.add_argument("study", metavar="STUDY", help="study file (YAML)")
+    compare.add_argument("--out", metavar="PATH", help="also write the tables (.csv, .xlsx or .json)")
+    compare.add_argument("--debug", action="store_true", help="show tracebacks on errors")
+
+    sweep = commands.add_parser("sweep", help="run a study's sweeps over one or two key paths",
+                                description="Simulate every point of each sweep in a study file; one row per point.")
+    sweep.add_argument("study", metavar="STUDY", help="study file (YAML)")
+    sweep.add_argument("--out", metavar="PATH", help="also write the tables (.csv, .xlsx or .json)")
+    sweep.add_argument("--debug", action="store_true", help="show tracebacks on errors")
+
+    cleaning = commands.add_parser("cleaning", help="rank exchangers by what cleaning each alone gains",
+                                   description="For every fouled exchanger, simulate the case with that exchanger "
+                                               "clean and rank them by the furnace duty saved.")
+    cleaning.add_argument("case", nargs="?", metavar="CASE", help="case file (YAML); omit for the crude preheat demo")
+    cleaning.add_argument("--out", metavar="PATH", help="also write the ranking (.csv, .xlsx or .json)")
+    cleaning.add_argument("--debug", action="store_true", help="show tracebacks on errors")
 
     check = commands.add_parser("check", help="validate a case file without simulating it",
                                 description="Read and check a case file: keys, values, units and connections.")
@@ -109,10 +133,82 @@ def _check(args) -> int:
     return EXIT_OK
 
 
+def _write(tables, args, notes):
+    from .output import write_tables
+
+    if args.out:
+        written = write_tables(tables, args.out, notes)
+        print(f"\nwrote {', '.join(str(p) for p in written)}")
+
+
+def _compare(args) -> int:
+    from hxtrain.network.study import load_study
+
+    from .output import check_output_path
+    from .studies import compare, solve_specification, study_text
+
+    if args.out:
+        check_output_path(args.out)
+    study = load_study(args.study)
+    comparison = compare(study)
+    specifications = [solve_specification(study, spec) for spec in study.specifications]
+    print(study_text(study, comparison, specifications))
+    tables = {"comparison": comparison.table, "findings": comparison.findings}
+    if specifications:
+        tables["specifications"] = pd_specifications(specifications)
+    _write(tables, args, {"study": study.file, "title": study.title, "caution": CAUTION})
+    return EXIT_OK
+
+
+def pd_specifications(specifications):
+    import pandas as pd
+
+    return pd.DataFrame([vars(s) for s in specifications]).set_index("name")
+
+
+def _sweep(args) -> int:
+    from hxtrain.network.study import load_study
+
+    from .output import check_output_path
+    from .studies import run_sweep
+
+    if args.out:
+        check_output_path(args.out)
+    study = load_study(args.study)
+    if not study.sweeps:
+        raise CaseError("the study has no sweeps", file=study.file, path=("sweeps",))
+    tables = {}
+    for sweep in study.sweeps:
+        tables[sweep.name] = run_sweep(study, sweep)
+        print(f"\nSweep {sweep.name}\n{'-' * (6 + len(sweep.name))}")
+        print(tables[sweep.name].to_string(index=False, float_format=lambda v: f"{v:,.3f}"))
+    print(f"\nNOTE: {CAUTION}")
+    _write(tables, args, {"study": study.file, "title": study.title, "caution": CAUTION})
+    return EXIT_OK
+
+
+def _cleaning(args) -> int:
+    from .output import check_output_path
+    from .studies import cleaning_ranking
+
+    if args.out:
+        check_output_path(args.out)
+    path = args.case or demo_case_path(DEMO_CASES[0])
+    ranking = cleaning_ranking(load_case(path))
+    print(f"Cleaning one exchanger at a time: {path}")
+    print(ranking.to_string(float_format=lambda v: f"{v:,.2f}") if len(ranking) else "no exchanger has fouling")
+    print(f"\nNOTE: {CAUTION}")
+    _write({"ranking": ranking}, args, {"case_file": str(path), "caution": CAUTION})
+    return EXIT_OK
+
+
+COMMANDS = {"run": _run, "check": _check, "compare": _compare, "sweep": _sweep, "cleaning": _cleaning}
+
+
 def main(argv=None) -> int:
     args = build_parser().parse_args(argv)
     try:
-        return _run(args) if args.command == "run" else _check(args)
+        return COMMANDS[args.command](args)
     except CaseError as exc:
         _complain(args, f"error: {exc}")
         return EXIT_BAD_INPUT

@@ -31,13 +31,6 @@ def _tables(result: SimulationResult) -> dict[str, pd.DataFrame]:
     }
 
 
-def output_files(path: Path) -> list[Path]:
-    """The files ``write_results`` creates for ``path`` (CSV makes one per table)."""
-    if path.suffix.lower() == ".csv":
-        return [path] + [path.with_name(f"{path.stem}_{name}.csv") for name in ("streams", "findings", "tears", "summary")]
-    return [path]
-
-
 def check_output_path(path) -> Path:
     """Reject an output path that cannot be written before any work is done (exit 2)."""
     path = Path(path)
@@ -62,39 +55,46 @@ def _records(frame: pd.DataFrame):
     return [{k: _clean(v) for k, v in row.items()} for row in reset.astype(object).to_dict(orient="records")]
 
 
-def _write_json(result, handle):
-    document = {
-        "title": result.title,
-        "case_file": result.case_file,
-        "caution": result.caution,
-        "converged": result.converged,
-        "message": result.message,
-        "summary": {k: _clean(float(v)) for k, v in result.summary.items()},
-        "balance": {k: _clean(float(v)) for k, v in result.balance.items()},
-        **{name: _records(frame) for name, frame in _tables(result).items() if name != "summary"},
-    }
+def _write_json(document, handle):
     handle.write(json.dumps(document, indent=2, allow_nan=False, default=str).encode("utf-8"))
 
 
-def _write_xlsx(result, handle):
+def _write_xlsx(tables, notes, handle):
     with pd.ExcelWriter(handle, engine="openpyxl") as writer:
-        notes = pd.DataFrame({"note": [result.title, result.case_file, result.caution, result.message]})
-        notes.to_excel(writer, sheet_name="about", index=False)
-        for name, frame in _tables(result).items():
-            frame.to_excel(writer, sheet_name=name)
+        about = pd.DataFrame({"item": list(notes), "value": [str(v) for v in notes.values()]})
+        about.to_excel(writer, sheet_name="about", index=False)
+        for name, frame in tables.items():
+            frame.to_excel(writer, sheet_name=name[:31])
 
 
 def write_results(result: SimulationResult, path) -> list[Path]:
     """Write the result tables to ``path`` by its extension; returns the files written."""
+    notes = {"title": result.title, "case_file": result.case_file, "caution": result.caution,
+             "converged": result.converged, "message": result.message,
+             "summary": {k: _clean(float(v)) for k, v in result.summary.items()},
+             "balance": {k: _clean(float(v)) for k, v in result.balance.items()}}
+    return write_tables(_tables(result), path, notes)
+
+
+def write_tables(tables: dict, path, notes: dict) -> list[Path]:
+    """Write named DataFrames to ``path`` by its extension (.csv: one file per table, the first
+    at ``path``; .xlsx: one sheet per table; .json: one document with ``notes`` and the tables).
+    Atomic: temporary files renamed over the targets only when all are complete."""
     path = check_output_path(path)
-    targets = output_files(path)
+    names = list(tables)
     suffix = path.suffix.lower()
     if suffix == ".csv":
-        writers = [lambda h, f=frame: h.write(f.to_csv().encode("utf-8")) for frame in _tables(result).values()]
+        targets = [path] + [path.with_name(f"{path.stem}_{name}.csv") for name in names[1:]]
+        writers = [lambda h, f=frame: h.write(f.to_csv().encode("utf-8")) for frame in tables.values()]
     elif suffix == ".json":
-        writers = [lambda h: _write_json(result, h)]
+        targets = [path]
+        document = dict(notes)  # the notes' own summary (a mapping) wins over a table of that name
+        for name, frame in tables.items():
+            document.setdefault(name, _records(frame))
+        writers = [lambda h: _write_json(document, h)]
     else:
-        writers = [lambda h: _write_xlsx(result, h)]
+        targets = [path]
+        writers = [lambda h: _write_xlsx(tables, notes, h)]
     temporaries = []
     try:
         _write_all(targets, writers, temporaries)

@@ -42,6 +42,8 @@ UNIT_COLUMNS = {
     "dp_shell": "dp_shell_kpa",
     "dp_tube": "dp_tube_kpa",
     "deviation": "target_deviation_k",
+    "t_in": "inlet_c",
+    "t_out": "outlet_c",
 }
 SCALE = {"dp_shell": 1e-3, "dp_tube": 1e-3}
 """Report quantities converted for the table (Pa -> kPa)."""

@@ -38,7 +38,7 @@ def pytest_terminal_summary(terminalreporter):
     for name, count in counts.items():
         terminalreporter.write_line(f"{name}: {count}")
     terminalreporter.write_line(f"total: {sum(counts.values())} generated networks "
-                                f"(profile {settings._current_profile})")
+                                f"(hypothesis profile {settings.get_current_profile_name()!r})")
     terminalreporter.write_line("networks with each feature: " + ", ".join(
         f"{name} {count}" for name, count in sorted(stats["features"].items())))
     terminalreporter.write_line(f"largest network: {stats['max_units']} units; slowest convergence: "

@@ -38,7 +38,7 @@ What a generated network contains
 
 Every port is used exactly once, every path ends at a product, mixer or splitter, and every
 recycle leaves a way out (fraction < 1), so ``case_from_mapping`` and the flow balance accept
-every generated case. Units per case: at most about 60 (``max_exchangers`` = 12 by default).
+every generated case. Units per case: about 50 at most (``max_exchangers`` = 12 by default).
 """
 
 from __future__ import annotations

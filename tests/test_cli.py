@@ -340,7 +340,8 @@ def test_version(capsys):
 def _fail_midway(real):
     """A writer that writes part of the real output, then fails (a full disk, a killed process)."""
 
-    def writer(result, handle):
+    def writer(*args):
+        handle = args[-1]  # the writers take the file handle last
         handle.write(b'{"partial": ')
         raise OSError(28, "No space left on device")
 

@@ -4,7 +4,8 @@ The networks come from ``network_generator.py`` (see its docstring): trains with
 mixers, exchanger bypasses, countercurrent couplings (hot streams meeting the cold train in the
 reverse order), true recycles (a splitter branch with fraction < 1 back to an upstream mixer,
 locally or around a whole feed-effluent loop), heaters (target outlet or fixed duty) and
-coolers, every exchanger arrangement, up to about 60 units. Every decision is a hypothesis draw,
+coolers, every exchanger arrangement; up to about 50 units (at most 12 exchangers and 6 split or
+recycle blocks, to keep the default run near a minute). Every decision is a hypothesis draw,
 so a failing network shrinks to a small one.
 
 Properties (GUIDE.md, "Tests"):

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from .arrays import as_arrays
+
 __all__ = ["mix_temperature", "temperature_after_duty", "duty_to_reach"]
 
 
@@ -42,7 +44,7 @@ def temperature_after_duty(t_in, c, duty):
     >>> float(temperature_after_duty(150.0, 200.0, 10000.0))
     200.0
     """
-    t_in, c, duty = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in (t_in, c, duty)))
+    t_in, c, duty = as_arrays(t_in, c, duty)
     flows = c > 0.0
     return np.where(flows, t_in + duty / np.where(flows, c, 1.0), t_in)
 
@@ -55,5 +57,5 @@ def duty_to_reach(t_in, c, t_target):
     >>> float(duty_to_reach(250.0, 180.0, 360.0))
     19800.0
     """
-    t_in, c, t_target = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in (t_in, c, t_target)))
+    t_in, c, t_target = as_arrays(t_in, c, t_target)
     return c * (t_target - t_in)

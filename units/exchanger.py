@@ -17,6 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import pntu
+from .arrays import as_arrays
 
 ARRANGEMENTS = ("counterflow", "parallel_flow", "tema_e", "crossflow", "double_pipe")
 """Flow arrangements. ``double_pipe`` is rated as counterflow (hairpins piped in counterflow)."""
@@ -129,9 +130,8 @@ def rate_exchanger(
     -------
     ExchangerRating
     """
-    t_hot_in, t_cold_in, c_hot_total, c_cold_total, ua, bypass_hot, bypass_cold = np.broadcast_arrays(
-        *(np.asarray(v, dtype=float) for v in (t_hot_in, t_cold_in, c_hot, c_cold, ua, bypass_hot, bypass_cold))
-    )
+    t_hot_in, t_cold_in, c_hot_total, c_cold_total, ua, bypass_hot, bypass_cold = as_arrays(
+        t_hot_in, t_cold_in, c_hot, c_cold, ua, bypass_hot, bypass_cold)
     c_hot = c_hot_total * (1.0 - bypass_hot)
     c_cold = c_cold_total * (1.0 - bypass_cold)
 

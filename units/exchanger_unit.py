@@ -26,10 +26,13 @@ class Exchanger(_Base):
         self.name, self.key, self.spec = name, key, spec
         self.minimum_approach, self.minimum_f = minimum_approach, minimum_f
         self.limits = limits or {}
+        self._last_outlets = None  # warm start of the in-service iteration (speed only)
 
     def rate(self, inlets):
-        return rate_in_service(self.spec, inlets.t[:, 0], inlets.t[:, 1], inlets.m[:, 0], inlets.m[:, 1],
-                               inlets.fluids[0], inlets.fluids[1])
+        service = rate_in_service(self.spec, inlets.t[:, 0], inlets.t[:, 1], inlets.m[:, 0], inlets.m[:, 1],
+                                  inlets.fluids[0], inlets.fluids[1], guess=self._last_outlets)
+        self._last_outlets = (service.rating.t_hot_out_exchanger, service.rating.t_cold_out_exchanger)
+        return service
 
     def outlet_temperatures(self, inlets):
         x = self.rate(inlets).rating

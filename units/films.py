@@ -25,6 +25,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from .arrays import as_arrays
+
 __all__ = [
     "LAMINAR_LIMIT",
     "TURBULENT_LIMIT",
@@ -47,9 +49,6 @@ TURBULENT_LIMIT = 1.0e4
 """Tube-side Reynolds number above which flow is fully turbulent ([2]_)."""
 
 
-def _f(*values):
-    return np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in values))
-
 
 def reynolds(mass_flow, diameter, flow_area, viscosity):
     r"""Reynolds number from a mass flow: :math:`Re = \dot m D / (A\,\mu)`.
@@ -57,7 +56,7 @@ def reynolds(mass_flow, diameter, flow_area, viscosity):
     >>> round(float(reynolds(2.0, 0.02, 0.01, 1e-3)), 6)
     4000.0
     """
-    mass_flow, diameter, flow_area, viscosity = _f(mass_flow, diameter, flow_area, viscosity)
+    mass_flow, diameter, flow_area, viscosity = as_arrays(mass_flow, diameter, flow_area, viscosity)
     return mass_flow * diameter / (flow_area * viscosity)
 
 
@@ -67,7 +66,7 @@ def prandtl(cp, viscosity, conductivity):
     >>> round(float(prandtl(2000.0, 1e-3, 0.1)), 9)
     20.0
     """
-    cp, viscosity, conductivity = _f(cp, viscosity, conductivity)
+    cp, viscosity, conductivity = as_arrays(cp, viscosity, conductivity)
     return cp * viscosity / conductivity
 
 
@@ -79,7 +78,7 @@ def friction_factor_smooth(re):
     >>> round(float(friction_factor_smooth(1e5)), 6)
     0.017969
     """
-    (re,) = _f(re)
+    (re,) = as_arrays(re)
     return (1.82 * np.log10(re) - 1.64) ** -2
 
 
@@ -93,7 +92,7 @@ def nusselt_dittus_boelter(re, pr, heating=True):
     >>> round(float(nusselt_dittus_boelter(1e5, 7.0)), 6)
     500.918478
     """
-    re, pr = _f(re, pr)
+    re, pr = as_arrays(re, pr)
     return 0.023 * re**0.8 * pr ** (0.4 if heating else 0.3)
 
 
@@ -108,7 +107,7 @@ def nusselt_gnielinski(re, pr, fd=None):
     >>> round(float(nusselt_gnielinski(1e5, 7.0)), 6)
     598.533881
     """
-    re, pr = _f(re, pr)
+    re, pr = as_arrays(re, pr)
     fd = friction_factor_smooth(re) if fd is None else np.asarray(fd, dtype=float)
     eighth = fd / 8.0
     return eighth * (re - 1000.0) * pr / (1.0 + 12.7 * np.sqrt(eighth) * (pr ** (2.0 / 3.0) - 1.0))
@@ -125,7 +124,7 @@ def nusselt_laminar(re, pr, diameter, length):
     >>> round(float(nusselt_laminar(1000.0, 50.0, 0.02, 6.0)), 6)
     10.235974
     """
-    re, pr, diameter, length = _f(re, pr, diameter, length)
+    re, pr, diameter, length = as_arrays(re, pr, diameter, length)
     return np.maximum(1.86 * np.cbrt(re * pr * diameter / length), 3.66)
 
 
@@ -140,7 +139,7 @@ def nusselt_tube_side(re, pr, diameter, length):
     >>> round(float(nusselt_tube_side(6150.0, 5.0, 0.02, 6.0)), 6)
     38.058871
     """
-    re, pr, diameter, length = _f(re, pr, diameter, length)
+    re, pr, diameter, length = as_arrays(re, pr, diameter, length)
     lam = nusselt_laminar(np.minimum(re, LAMINAR_LIMIT), pr, diameter, length)
     turb = nusselt_gnielinski(np.maximum(re, TURBULENT_LIMIT), pr)
     weight = np.clip((re - LAMINAR_LIMIT) / (TURBULENT_LIMIT - LAMINAR_LIMIT), 0.0, 1.0)
@@ -158,7 +157,7 @@ def kern_equivalent_diameter(pitch, outer_diameter, layout="triangular"):
     >>> round(float(kern_equivalent_diameter(0.0254, 0.01905, "square")), 6)
     0.02407
     """
-    pitch, do = _f(pitch, outer_diameter)
+    pitch, do = as_arrays(pitch, outer_diameter)
     if layout == "square":
         return 4.0 * (pitch**2 - np.pi * do**2 / 4.0) / (np.pi * do)
     if layout == "triangular":
@@ -173,7 +172,7 @@ def kern_crossflow_area(shell_diameter, pitch, outer_diameter, baffle_spacing):
     >>> round(float(kern_crossflow_area(0.584, 0.0254, 0.019, 0.1524)), 8)
     0.0224256
     """
-    ds, pitch, do, spacing = _f(shell_diameter, pitch, outer_diameter, baffle_spacing)
+    ds, pitch, do, spacing = as_arrays(shell_diameter, pitch, outer_diameter, baffle_spacing)
     return ds * (pitch - do) * spacing / pitch
 
 
@@ -188,7 +187,7 @@ def nusselt_kern_shell(re, pr):
     >>> round(float(nusselt_kern_shell(2e4, 10.0)), 6)
     179.970918
     """
-    re, pr = _f(re, pr)
+    re, pr = as_arrays(re, pr)
     return 0.36 * re**0.55 * np.cbrt(pr)
 
 
@@ -204,7 +203,7 @@ def scaled_film_coefficient(h_ref, mass_flow, reference_flow, exponent, property
     >>> round(float(scaled_film_coefficient(1000.0, 12.0, 10.0, 0.8)), 6)
     1157.031005
     """
-    h_ref, m, m_ref, n, phi = _f(h_ref, mass_flow, reference_flow, exponent, property_ratio)
+    h_ref, m, m_ref, n, phi = as_arrays(h_ref, mass_flow, reference_flow, exponent, property_ratio)
     return h_ref * np.power(np.maximum(m, 0.0) / m_ref, n) * phi
 
 
@@ -217,6 +216,6 @@ def property_correction(exponent, viscosity, reference_viscosity, cp=1.0, refere
     >>> round(float(property_correction(0.8, 2e-3, 1e-3)), 6)
     0.723635
     """
-    n, mu, mu_ref, cp, cp_ref, k, k_ref = _f(exponent, viscosity, reference_viscosity, cp, reference_cp,
+    n, mu, mu_ref, cp, cp_ref, k, k_ref = as_arrays(exponent, viscosity, reference_viscosity, cp, reference_cp,
                                              conductivity, reference_conductivity)
     return (mu / mu_ref) ** (1.0 / 3.0 - n) * np.cbrt(cp / cp_ref) * (k / k_ref) ** (2.0 / 3.0)

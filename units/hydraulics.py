@@ -15,13 +15,12 @@ from __future__ import annotations
 
 import numpy as np
 
+from .arrays import as_arrays
+
 from .films import friction_factor_smooth
 
 __all__ = ["scaled_pressure_drop", "tube_side_pressure_drop", "kern_shell_friction_factor", "kern_shell_pressure_drop"]
 
-
-def _f(*values):
-    return np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in values))
 
 
 def scaled_pressure_drop(reference_drop, mass_flow, reference_flow, exponent=1.8, density=1.0, reference_density=1.0):
@@ -34,7 +33,7 @@ def scaled_pressure_drop(reference_drop, mass_flow, reference_flow, exponent=1.8
     >>> round(float(scaled_pressure_drop(50.0, 12.0, 10.0)), 6)
     69.42186
     """
-    dp, m, m_ref, n, rho, rho_ref = _f(reference_drop, mass_flow, reference_flow, exponent, density, reference_density)
+    dp, m, m_ref, n, rho, rho_ref = as_arrays(reference_drop, mass_flow, reference_flow, exponent, density, reference_density)
     return dp * np.power(np.maximum(m, 0.0) / m_ref, n) * rho_ref / rho
 
 
@@ -50,7 +49,7 @@ def tube_side_pressure_drop(mass_flow, tubes, passes, inner_diameter, length, de
     >>> round(float(tube_side_pressure_drop(20.0, 300, 2, 0.0148, 6.0, 850.0, 1e-3)), 1)
     11496.8
     """
-    m, nt, npass, di, length, rho, mu = _f(mass_flow, tubes, passes, inner_diameter, length, density, viscosity)
+    m, nt, npass, di, length, rho, mu = as_arrays(mass_flow, tubes, passes, inner_diameter, length, density, viscosity)
     area = (nt / npass) * np.pi * di**2 / 4.0
     velocity = m / (rho * area)
     re = np.maximum(rho * velocity * di / mu, 1e-12)
@@ -68,7 +67,7 @@ def kern_shell_friction_factor(re):
     >>> round(float(kern_shell_friction_factor(1.0e4)), 6)
     0.309139
     """
-    (re,) = _f(re)
+    (re,) = as_arrays(re)
     return np.exp(0.576 - 0.19 * np.log(re))
 
 
@@ -84,7 +83,7 @@ def kern_shell_pressure_drop(mass_flow, shell_diameter, baffle_spacing, baffles,
     """
     from .films import kern_crossflow_area, kern_equivalent_diameter
 
-    m, ds, spacing, nb, pitch, do, rho, mu = _f(mass_flow, shell_diameter, baffle_spacing, baffles, pitch,
+    m, ds, spacing, nb, pitch, do, rho, mu = as_arrays(mass_flow, shell_diameter, baffle_spacing, baffles, pitch,
                                                 outer_diameter, density, viscosity)
     de = kern_equivalent_diameter(pitch, do, layout)
     g = m / kern_crossflow_area(ds, pitch, do, spacing)

@@ -27,6 +27,8 @@ References
 from __future__ import annotations
 
 import numpy as np
+
+from .arrays import as_arrays
 from scipy.special import gammainc
 
 __all__ = [
@@ -41,9 +43,6 @@ __all__ = [
     "f_factor",
 ]
 
-
-def _arrays(*values):
-    return np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in values))
 
 
 def _within_bounds(p, r1):
@@ -75,7 +74,7 @@ def lmtd(dt1, dt2):
     >>> float(lmtd(15.0, 15.0))
     15.0
     """
-    dt1, dt2 = _arrays(dt1, dt2)
+    dt1, dt2 = as_arrays(dt1, dt2)
     same_sign = dt1 * dt2 > 0.0
     a = np.where(same_sign, np.abs(dt1), 1.0)
     b = np.where(same_sign, np.abs(dt2), 1.0)
@@ -101,7 +100,7 @@ def p_counterflow(ntu1, r1):
     >>> round(float(p_counterflow(1.0, 0.5)), 12)
     0.564733401606
     """
-    ntu1, r1 = _arrays(ntu1, r1)
+    ntu1, r1 = as_arrays(ntu1, r1)
     x = ntu1 * (1.0 - r1)
     a = np.abs(x)
     g = ntu1 * _one_minus_exp_over_x(a)
@@ -120,7 +119,7 @@ def p_parallel_flow(ntu1, r1):
     >>> round(float(p_parallel_flow(1.0, 1.0)), 12)
     0.432332358382
     """
-    ntu1, r1 = _arrays(ntu1, r1)
+    ntu1, r1 = as_arrays(ntu1, r1)
     return -np.expm1(-ntu1 * (1.0 + r1)) / (1.0 + r1)
 
 
@@ -153,7 +152,7 @@ def p_tema_e(ntu1, r1, tube_passes=2, side1="shell"):
     >>> round(float(p_tema_e(1.0, 1.0)), 12)
     0.462670994062
     """
-    ntu1, r1 = _arrays(ntu1, r1)
+    ntu1, r1 = as_arrays(ntu1, r1)
     if tube_passes < 2 or tube_passes % 2:
         raise ValueError(f"tube_passes must be an even number >= 2, got {tube_passes}")
     if side1 not in ("shell", "tube"):
@@ -201,7 +200,7 @@ def p_crossflow_unmixed(ntu1, r1):
     >>> round(float(p_crossflow_unmixed(1.0, 1.0)), 9)
     0.476222388
     """
-    ntu1, r1 = _arrays(ntu1, r1)
+    ntu1, r1 = as_arrays(ntu1, r1)
     flip = r1 > 1.0
     ntu = np.where(flip, ntu1 * r1, ntu1)
     r = np.where(flip, 1.0 / np.where(flip, r1, 1.0), r1)
@@ -240,7 +239,7 @@ def p_crossflow_one_mixed(ntu1, r1, side1_mixed):
     >>> round(float(p_crossflow_one_mixed(1.0, 0.5, side1_mixed=True)), 12)
     0.544763712015
     """
-    ntu1, r1 = _arrays(ntu1, r1)
+    ntu1, r1 = as_arrays(ntu1, r1)
     if side1_mixed:
         k_over_r = ntu1 * _one_minus_exp_over_x(r1 * ntu1)
         return -np.expm1(-k_over_r)
@@ -263,7 +262,7 @@ def p_shells_in_series(p_one, r1, shells):
     >>> round(float(p_shells_in_series(0.4, 1.0, 2)), 12)   # 2*0.4/(1+0.4)
     0.571428571429
     """
-    p_one, r1 = _arrays(p_one, r1)
+    p_one, r1 = as_arrays(p_one, r1)
     if shells == 1:
         return p_one.copy()
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
@@ -290,7 +289,7 @@ def ntu_counterflow(p1, r1):
     >>> round(float(ntu_counterflow(p_counterflow(1.3, 0.7), 0.7)), 12)
     1.3
     """
-    p1, r1 = _arrays(p1, r1)
+    p1, r1 = as_arrays(p1, r1)
     with np.errstate(invalid="ignore", divide="ignore"):
         u = p1 / (1.0 - p1)
         z = (1.0 - r1) * u
@@ -311,7 +310,7 @@ def f_factor(p1, r1, ntu1):
     >>> round(float(f_factor(p_counterflow(0.8, 0.6), 0.6, 0.8)), 12)
     1.0
     """
-    p1, r1, ntu1 = _arrays(p1, r1, ntu1)
+    p1, r1, ntu1 = as_arrays(p1, r1, ntu1)
     limit = np.minimum(1.0, 1.0 / np.maximum(r1, 1e-300))
     below = np.nextafter(np.nextafter(limit, 0.0), 0.0)
     p = np.where(p1 >= below, below, p1)

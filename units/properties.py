@@ -145,14 +145,16 @@ class PolynomialCp(FluidModel):
     def __init__(self, coefficients, **properties):
         super().__init__(**properties)
         self.coefficients = np.asarray(coefficients, dtype=float)
-        self._cp = np.polynomial.Polynomial(self.coefficients)
-        self._h = self._cp.integ()  # integration constant 0: h(0 °C) = 0
+        powers = np.arange(1, len(self.coefficients) + 1)
+        # highest power first for np.polyval; the enthalpy's constant term is 0: h(0 °C) = 0
+        self._cp_high_first = self.coefficients[::-1].copy()
+        self._h_high_first = np.concatenate([(self.coefficients / powers)[::-1], [0.0]])
 
     def cp(self, t):
-        return self._cp(_t(t))
+        return np.polyval(self._cp_high_first, _t(t))
 
     def enthalpy(self, t):
-        return self._h(_t(t))
+        return np.polyval(self._h_high_first, _t(t))
 
 
 class TabulatedCp(FluidModel):

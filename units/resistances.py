@@ -21,11 +21,10 @@ from __future__ import annotations
 
 import numpy as np
 
+from .arrays import as_arrays
+
 __all__ = ["wall_resistance", "overall_coefficient", "films_from_clean_coefficient"]
 
-
-def _f(*values):
-    return np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in values))
 
 
 def wall_resistance(outer_diameter, inner_diameter, conductivity):
@@ -35,7 +34,7 @@ def wall_resistance(outer_diameter, inner_diameter, conductivity):
     >>> round(float(wall_resistance(0.01905, 0.01483, 45.0)), 10)
     5.30045e-05
     """
-    do, di, k = _f(outer_diameter, inner_diameter, conductivity)
+    do, di, k = as_arrays(outer_diameter, inner_diameter, conductivity)
     return do * np.log(do / di) / (2.0 * k)
 
 
@@ -48,7 +47,7 @@ def overall_coefficient(h_shell, h_tube, fouling_shell=0.0, fouling_tube=0.0, wa
     >>> round(float(overall_coefficient(1000.0, 2000.0, 0.0002, 0.0001, 5e-5, 1.25)), 6)
     500.0
     """
-    hs, ht, rfs, rft, rw, ratio = _f(h_shell, h_tube, fouling_shell, fouling_tube, wall, diameter_ratio)
+    hs, ht, rfs, rft, rw, ratio = as_arrays(h_shell, h_tube, fouling_shell, fouling_tube, wall, diameter_ratio)
     with np.errstate(divide="ignore"):
         total = 1.0 / hs + rfs + rw + rft * ratio + ratio / ht
     return np.where((hs > 0.0) & (ht > 0.0), 1.0 / total, 0.0)
@@ -65,7 +64,7 @@ def films_from_clean_coefficient(clean_u, shell_fraction, wall=0.0, diameter_rat
     >>> round(float(overall_coefficient(hs, ht, wall=5e-5, diameter_ratio=1.25)), 9)
     500.0
     """
-    u, x, rw, ratio = _f(clean_u, shell_fraction, wall, diameter_ratio)
+    u, x, rw, ratio = as_arrays(clean_u, shell_fraction, wall, diameter_ratio)
     films = 1.0 / u - rw
     if np.any(films <= 0.0):
         raise ValueError("the wall resistance alone exceeds the clean resistance 1/U")

@@ -22,6 +22,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .arrays import as_arrays
 from .exchanger import ExchangerRating, rate_exchanger
 from .thermal import Coefficients, FixedCoefficient
 
@@ -71,15 +72,23 @@ def _side(spec, hot_value, cold_value, side):
     return hot_value if (side == "shell") == shell_is_hot else cold_value
 
 
-def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, fluid_hot, fluid_cold) -> ServiceRating:
-    """Rate an exchanger with temperature-dependent cp and a flow- and temperature-dependent U."""
-    t_hot_in, t_cold_in, m_hot, m_cold = np.broadcast_arrays(*(np.asarray(v, float) for v in (t_hot_in, t_cold_in, m_hot, m_cold)))
+def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, fluid_hot, fluid_cold,
+                    guess=None) -> ServiceRating:
+    """Rate an exchanger with temperature-dependent cp and a flow- and temperature-dependent U.
+
+    ``guess`` (hot and cold outlet temperatures of the exchanger proper, e.g. from the previous
+    call) only shortens the iteration; the answer is the same fixed point.
+    """
+    t_hot_in, t_cold_in, m_hot, m_cold = as_arrays(t_hot_in, t_cold_in, m_hot, m_cold)
     m_hot_x = m_hot * (1.0 - spec.bypass_hot)
     m_cold_x = m_cold * (1.0 - spec.bypass_cold)
     per_shell = 1.0 / spec.shells_in_parallel
     fixed_u = spec.ua is not None or isinstance(spec.thermal, FixedCoefficient)
     simple = fixed_u and fluid_hot.constant_cp and fluid_cold.constant_cp
-    t_hot_x, t_cold_x = t_hot_in.copy(), t_cold_in.copy()
+    if guess is not None and np.shape(guess[0]) == t_hot_in.shape:
+        t_hot_x, t_cold_x = (np.array(g, dtype=float) for g in guess)
+    else:
+        t_hot_x, t_cold_x = t_hot_in.copy(), t_cold_in.copy()
     coefficients = None
     for passes in range(1, MAX_PASSES + 1):
         t_mean_hot, t_mean_cold = 0.5 * (t_hot_in + t_hot_x), 0.5 * (t_cold_in + t_cold_x)

@@ -1,0 +1,19 @@
+"""One helper for every relation: inputs as float arrays broadcast to a common shape."""
+
+from __future__ import annotations
+
+import numpy as np
+
+
+def as_arrays(*values):
+    """Float64 arrays of one common shape (numpy broadcasting). Inputs that already are float
+    arrays of one shape are returned as they are: the common case inside the solver's loops,
+    where a general broadcast would cost more than the arithmetic."""
+    arrays = [v if isinstance(v, np.ndarray) and v.dtype == np.float64 else np.asarray(v, dtype=float) for v in values]
+    shape = arrays[0].shape
+    if all(a.shape == shape for a in arrays):
+        return arrays
+    shape = np.broadcast_shapes(*(a.shape for a in arrays))
+    # filling from a scalar is several times cheaper than a general broadcast view
+    return [a if a.shape == shape else (np.full(shape, a.item()) if a.ndim == 0 else np.broadcast_to(a, shape))
+            for a in arrays]
