@@ -65,30 +65,29 @@ def build_parser() -> argparse.ArgumentParser:
                           "per exchanger and at the furnace")
     run.add_argument("--debug", action="store_true", help="show tracebacks on errors")
 
-    compare = commands.add_parser("compare", help="run a study's variants and specifications side by side",
-                                  description="Simulate a study's base case and every variant, print them in columns "
-                                              "with differences from the base, and solve its specifications.")
-    compare.add_argument("study", metavar="STUDY", help="study file (YAML)")
-    compare.add_argument("--out", metavar="PATH", help="also write the tables (.csv, .xlsx or .json)")
-    compare.add_argument("--debug", action="store_true", help="show tracebacks on errors")
+    study_help = "study file (YAML)"
+    _subcommand(commands, "compare", "run a study's variants and specifications side by side",
+                "Simulate a study's base case and every variant, print them in columns with differences from the "
+                "base, and solve its specifications.", ("study", None, study_help), out=True)
+    _subcommand(commands, "sweep", "run a study's sweeps over one or two key paths",
+                "Simulate every point of each sweep in a study file; one row per point.",
+                ("study", None, study_help), out=True)
+    _subcommand(commands, "cleaning", "rank exchangers by what cleaning each alone gains",
+                "For every fouled exchanger, simulate the case with that exchanger clean and rank them by the "
+                "furnace duty saved.", ("case", "?", "case file (YAML); omit for the crude preheat demo"), out=True)
+    _subcommand(commands, "check", "validate a case file without simulating it",
+                "Read and check a case file: keys, values, units and connections.", ("case", None, "case file (YAML)"))
+    return parser
 
-    sweep = commands.add_parser("sweep", help="run a study's sweeps over one or two key paths",
-                                description="Simulate every point of each sweep in a study file; one row per point.")
-    sweep.add_argument("study", metavar="STUDY", help="study file (YAML)")
-    sweep.add_argument("--out", metavar="PATH", help="also write the tables (.csv, .xlsx or .json)")
-    sweep.add_argument("--debug", action="store_true", help="show tracebacks on errors")
 
-    cleaning = commands.add_parser("cleaning", help="rank exchangers by what cleaning each alone gains",
-                                   description="For every fouled exchanger, simulate the case with that exchanger "
-                                               "clean and rank them by the furnace duty saved.")
-    cleaning.add_argument("case", nargs="?", metavar="CASE", help="case file (YAML); omit for the crude preheat demo")
-    cleaning.add_argument("--out", metavar="PATH", help="also write the ranking (.csv, .xlsx or .json)")
-    cleaning.add_argument("--debug", action="store_true", help="show tracebacks on errors")
-
-    check = commands.add_parser("check", help="validate a case file without simulating it",
-                                description="Read and check a case file: keys, values, units and connections.")
-    check.add_argument("case", metavar="CASE", help="case file (YAML)")
-    check.add_argument("--debug", action="store_true", help="show tracebacks on errors")
+def _subcommand(commands, name, summary, description, target, out=False):
+    """A subcommand taking one file argument, optionally --out, and --debug."""
+    parser = commands.add_parser(name, help=summary, description=description)
+    dest, nargs, text = target
+    parser.add_argument(dest, nargs=nargs, metavar=dest.upper(), help=text)
+    if out:
+        parser.add_argument("--out", metavar="PATH", help="also write the tables (.csv, .xlsx or .json)")
+    parser.add_argument("--debug", action="store_true", help="show tracebacks on errors")
     return parser
 
 
