@@ -5,7 +5,7 @@ cp takes one of four forms::
     cp: 2.3                                    # constant, kJ/kg·K
     cp: {polynomial: [1.75, 0.0042]}           # a0 + a1·T + ..., T in °C
     cp: {table: [[40, 1.95], [150, 2.28], [300, 2.71]]}   # °C, kJ/kg·K; linear between points
-    petroleum: {api_gravity: 31, watson_k: 11.9}          # or specific_gravity; Kesler–Lee cp
+    petroleum: {api_gravity: 31, watson_k: 11.9}          # or specific_gravity; Watson–Nelson cp
 
 plus optional ``viscosity`` (a value, or ``points`` through two temperatures), ``conductivity``
 (W/m·K), ``density`` (kg/m³) and ``valid_range`` ([low, high] °C: where the data hold; a table's

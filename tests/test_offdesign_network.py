@@ -100,14 +100,13 @@ def test_demo_service_u_rises_with_crude_flow_at_fixed_temperatures(demo_runs):
     for tag, row in units.iterrows():
         data = case.exchangers[tag]
         spec = data["spec"]
-        stream_fluid = {"hot": None, "cold": case.fluids["crude"]}
-        shell_fluid = _shell_fluid(case, tag)
+        shell_fluid, crude = _shell_fluid(case, tag), case.fluids["crude"]
         assert spec.shell_side == "hot"
         t_shell = 0.5 * (row["hot_in_c"] + row["hot_out_c"])
         t_tube = 0.5 * (row["cold_in_c"] + row["cold_out_c"])
         m_shell = spec.thermal.shell.reference_flow
         u = [float(spec.thermal.evaluate(m_shell, spec.thermal.tube.reference_flow * s * (1 - spec.bypass_cold),
-                                         t_shell, t_tube, shell_fluid, stream_fluid["cold"]).u_service)
+                                         t_shell, t_tube, shell_fluid, crude).u_service)
              for s in SCALES]
         assert u[0] < u[1] < u[2], (tag, u)
 
@@ -381,7 +380,7 @@ def test_cp_of_temperature_closes_the_exchangers_own_enthalpy_balance():
 
 def test_cp_of_temperature_in_a_case_closes_on_enthalpy():
     result = simulate(case_from_mapping(two_stream_case(film_exchanger(), t_hot=330.0, t_cold=40.0)))
-    row, case = e1(result), None
+    row = e1(result)
     fluids = case_from_mapping(two_stream_case(film_exchanger())).fluids
     q_hot = 30.0 * float(fluids["gas_oil"].enthalpy(row["hot_in_c"]) - fluids["gas_oil"].enthalpy(row["hot_out_c"]))
     q_cold = 40.0 * float(fluids["crude"].enthalpy(row["cold_out_c"]) - fluids["crude"].enthalpy(row["cold_in_c"]))
@@ -451,10 +450,12 @@ def findings_of(result, kind):
 
 
 def test_laminar_and_transitional_tube_side_warnings_when_flow_is_cut():
-    """reference_reynolds_tube = 12 000 at 40 kg/s: Re follows the flow (and viscosity)."""
-    exchanger = film_exchanger(reference_reynolds_tube=12000, reference_temperature={"shell": 200, "tube": 110})
+    """reference_reynolds_tube = 12 000 at 40 kg/s and 120 °C: Re follows the flow and the
+    viscosity (the crude runs colder than 120 °C here): no warning at 60 kg/s (Re ~ 10 500),
+    transitional at 20 kg/s, laminar at 2 kg/s."""
+    exchanger = film_exchanger(reference_reynolds_tube=12000)
     seen = {}
-    for cold_flow in (40.0, 20.0, 5.0, 2.0):
+    for cold_flow in (60.0, 20.0, 2.0):
         result = simulate(case_from_mapping(two_stream_case(exchanger, cold_flow=cold_flow)))
         re = e1(result)["re_tube"]
         laminar = findings_of(result, "laminar_tube_side")
@@ -465,8 +466,7 @@ def test_laminar_and_transitional_tube_side_warnings_when_flow_is_cut():
         seen[cold_flow] = ("laminar" if re < 2300 else "transitional" if re < 1e4 else "turbulent")
         for finding in pd.concat([laminar, transitional])["message"]:
             assert f"Re = {re:.0f}" in finding
-    assert seen[40.0] == "turbulent" or seen[40.0] == "transitional"
-    assert "laminar" in seen.values() and "transitional" in seen.values(), seen
+    assert seen == {60.0: "turbulent", 20.0: "transitional", 2.0: "laminar"}, seen
 
 
 def test_laminar_tube_side_warning_from_geometry():

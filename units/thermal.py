@@ -76,8 +76,11 @@ class ScaledFilms:
 
     Tube side: if a reference Reynolds number is given, the operating Re follows as
     Re_ref·(ṁ/ṁ_ref)·(μ_ref/μ); below 2300 the film scales as a laminar developing flow
-    (Nu ∝ (Re Pr)^(1/3), Sieder–Tate form) instead of with the turbulent exponent, and the
-    condition is flagged; between 2300 and 10^4 it is flagged as transitional.
+    (Nu ∝ (Re Pr)^(1/3), Sieder–Tate form: exponent 1/3 on flow) instead of with the turbulent
+    exponent n, continuously at Re = 2300 — from a turbulent reference,
+    h = h_n·(2300/Re)^(n - 1/3) below 2300; from a laminar reference, h = h_(1/3) below 2300 and
+    h_(1/3)·(Re/2300)^(n - 1/3) above — and the condition is flagged; between 2300 and 10^4 it is
+    flagged as transitional.
     """
 
     source = "films scaled from reference"
@@ -95,10 +98,15 @@ class ScaledFilms:
             mu_ratio = 1.0 if mu_tube is None else fluid_tube.viscosity(self.tube.reference_temperature) / mu_tube
             reynolds = self.tube.reference_reynolds * np.asarray(m_tube, float) / self.tube.reference_flow * mu_ratio
             laminar = reynolds < films.LAMINAR_LIMIT
-            if np.any(laminar):
+            bend = self.tube.exponent - 1.0 / 3.0
+            with np.errstate(divide="ignore"):
+                to_transition = films.LAMINAR_LIMIT / np.maximum(reynolds, 1e-300)
+            if self.tube.reference_reynolds >= films.LAMINAR_LIMIT:
+                h_tube = np.where(laminar, h_tube * to_transition**bend, h_tube)
+            else:
                 lam = SideFilm(self.tube.h_ref, self.tube.reference_flow, 1.0 / 3.0, self.tube.reference_temperature)
                 h_laminar, _ = lam.at(m_tube, t_tube, fluid_tube)
-                h_tube = np.where(laminar, np.minimum(h_laminar, h_tube), h_tube)
+                h_tube = np.where(laminar, h_laminar, h_laminar * (1.0 / to_transition) ** bend)
             notes["laminar_tube_side"] = laminar
             notes["transitional_tube_side"] = (reynolds >= films.LAMINAR_LIMIT) & (reynolds < films.TURBULENT_LIMIT)
         return _combine(self, h_shell, h_tube, reynolds, notes)
