@@ -34,7 +34,7 @@ from pathlib import Path
 import numpy as np
 
 from .case import Case, case_from_document
-from .changes import apply_changes, locate, numeric_value
+from .changes import apply_change, apply_changes, locate, numeric_value
 from .demos import DEMO_CASES, demo_case_path
 from .errors import CaseError
 from .fields import Fields, describe
@@ -77,18 +77,23 @@ class Study:
     def error(self, path, message) -> CaseError:
         return Document(None, self.file, self.lines).error(tuple(path), message)
 
-    def case(self, changes=(), where=()) -> Case:
-        """The base case with ``changes`` applied, checked; errors name the study file and path."""
+    def case(self, changes=(), where=(), settings=(), settings_where=()) -> Case:
+        """The base case with ``changes`` (a list in the study at ``where``) and then ``settings``
+        (changes the study computes, e.g. a sweep point, attributed to ``settings_where``)
+        applied and checked; errors name the study file and the key path of the change."""
         try:
             data = apply_changes(self.base.data, list(changes), where)
+            for change in settings:
+                apply_change(data, change, tuple(settings_where))
         except CaseError as exc:
             raise self.error(exc.path or where, exc.message) from None
         try:
             return case_from_document(Document(data, self.base.file, self.base.lines))
         except CaseError as exc:
-            if not changes:
+            if not changes and not settings:
                 raise
-            raise self.error(where, f"after this variant's changes the case is not valid: {exc.describe()}") from None
+            raise self.error(settings_where if settings else where,
+                             f"after these changes the case is not valid: {exc.describe()}") from None
 
     def base_value(self, path, where) -> float:
         data = copy.deepcopy(self.base.data)
@@ -106,6 +111,8 @@ def load_study(path) -> Study:
     study = Study(doc.file, top.text("title", default="") or "", base, lines=doc.lines)
     top.text("description")
     for name, f in top.named_entries("variants", "variant names to their changes"):
+        if name == "base":
+            raise f.error(None, "'base' names the base case's column; give this variant another name")
         changes = f.raw("changes")
         if not isinstance(changes, list) or not changes:
             raise f.error("changes", f"expected a list of changes, got {describe(changes)}")
@@ -118,9 +125,27 @@ def load_study(path) -> Study:
     top.finish()
     if not (study.variants or study.specifications or study.sweeps):
         raise doc.error((), "the study has no variants, specifications or sweeps")
-    for name, (_, changes, key) in study.variants.items():  # check every variant before any run
-        study.case(changes, key)
+    _check_before_running(study)
     return study
+
+
+def _check_before_running(study: Study):
+    """Every variant, specification and sweep refers to what exists, before any simulation."""
+    base = study.case()
+    for name, (_, changes, key) in study.variants.items():
+        study.case(changes, key)
+    for spec in study.specifications:
+        study.case(spec.changes, spec.key + ("changes",))
+        study.base_value(spec.adjust, spec.key + ("adjust",))
+        metrics = [spec.target["value"]] if "value" in spec.target else spec.target["difference"]
+        field = "value" if "value" in spec.target else "difference"
+        for name in metrics:
+            tag = name.rpartition(".")[0]
+            if tag not in base.keys:
+                raise study.error(spec.key + ("target", field), f"no unit '{tag}' in the base case (for '{name}')")
+    for sweep in study.sweeps:
+        for path in sweep.grid:
+            study.base_value(path, sweep.key + ("grid", path))
 
 
 def _base(top: Fields, study_file: Path) -> Document:
@@ -134,7 +159,10 @@ def _base(top: Fields, study_file: Path) -> Document:
         path = (study_file.parent / raw) if not Path(raw).is_absolute() else Path(raw)
     else:
         raise top.error("base", f"expected the case file's path or {{demo: NAME}}, got {describe(raw)}")
-    return read_document(path)
+    try:
+        return read_document(path)
+    except CaseError as exc:
+        raise top.error("base", f"cannot read the base case: {exc.describe()}") from None
 
 
 def parse_metric(f: Fields, key, value) -> str:

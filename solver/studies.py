@@ -130,8 +130,8 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
     def achieved(x):
         nonlocal count
         count += 1
-        changes = list(spec.changes) + adjust_changes(study, spec.adjust, x, spec.key + ("adjust",))
-        result = simulate(study.case(changes, spec.key))
+        result = simulate(study.case(spec.changes, spec.key + ("changes",),
+                                     adjust_changes(study, spec.adjust, x, spec.key + ("adjust",)), spec.key + ("adjust",)))
         target = spec.target
         if "value" in target:
             return metric(result, target["value"])
@@ -172,8 +172,8 @@ def run_sweep(study: Study, sweep) -> pd.DataFrame:
     rows = []
     for point in _progress(points, len(points), sweep.name):
         values = {p: (v * bases[p] if sweep.scale else v) for p, v in zip(paths, point)}
-        changes = [c for p, v in values.items() for c in adjust_changes(study, p, v, sweep.key)]
-        result = simulate(study.case(changes, sweep.key))
+        changes = [c for p, v in values.items() for c in adjust_changes(study, p, v, sweep.key + ("grid", p))]
+        result = simulate(study.case((), sweep.key, changes, sweep.key + ("grid",)))
         rows.append({**{p: v for p, v in zip(paths, point)}, **key_outputs(result).to_dict()})
     return pd.DataFrame(rows)
 
