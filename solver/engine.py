@@ -36,6 +36,8 @@ class TemperatureSolution:
     temperature: np.ndarray
     """(batch, segments) °C."""
     blocks: list[BlockOutcome]
+    converged: np.ndarray | None = None
+    """Per scenario: every block converged."""
 
     @property
     def iterations(self) -> int:
@@ -74,12 +76,15 @@ def initial_guess(net, batch):
     return np.mean(supplies, axis=0)
 
 
-def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None) -> TemperatureSolution:
-    """Temperatures of every segment; raises :class:`ConvergenceError` if a block fails."""
+def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None, raise_on_failure=True) -> TemperatureSolution:
+    """Temperatures of every segment over the batch. A block that fails raises
+    :class:`ConvergenceError`, or with ``raise_on_failure=False`` marks its scenarios unconverged
+    in ``TemperatureSolution.converged`` (their temperatures must not be reported)."""
     plan = plan if plan is not None else plan_calculation(net.graph)
-    flow = np.broadcast_to(net.flow, (batch, len(net.segments)))
+    flow = np.broadcast_to(net.flow, (batch, len(net.segments)))  # (segments,) or per scenario
     temperature = np.full((batch, len(net.segments)), np.nan)
     outcomes = []
+    converged = np.ones(batch, bool)
     guess = initial_guess(net, batch)
     for block in plan:
         if not block.tears:
@@ -95,12 +100,13 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None) ->
 
         x0 = np.repeat(guess[:, None], len(block.tears), axis=1)
         result = converge_tears(evaluate, x0, tolerance, max_iterations)
-        if not result.success:
+        if not result.success and raise_on_failure:
             raise ConvergenceError(_failure_message(net, block, result, tolerance), _diagnostics(net, block, result))
+        converged &= result.converged
         temperature[:, block.tears] = result.x
         _sweep(net, block.units, temperature, flow, {seg: j for j, seg in enumerate(block.tears)})
         outcomes.append(BlockOutcome(block, result))
-    return TemperatureSolution(temperature, outcomes)
+    return TemperatureSolution(temperature, outcomes, converged)
 
 
 def tear_labels(net, block):

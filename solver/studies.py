@@ -15,8 +15,10 @@ import pandas as pd
 from scipy.optimize import brentq
 
 from hxtrain.network import CaseError, load_case, without_fouling
+from hxtrain.network.batch import check_values, is_batchable
 from hxtrain.network.study import Study
 
+from .batch import simulate_batch
 from .results import SimulationResult, simulate
 
 METRIC_COLUMNS = {"duty": "duty_kw", "hot_in": "hot_in_c", "hot_out": "hot_out_c", "cold_in": "cold_in_c",
@@ -165,10 +167,18 @@ def _progress(iterable, total, label):
 
 
 def run_sweep(study: Study, sweep) -> pd.DataFrame:
-    """Simulate every point of a one- or two-dimensional grid; one tidy row per point."""
+    """Simulate every point of a one- or two-dimensional grid; one tidy row per point.
+
+    When every swept key path can vary within a batch (see :mod:`hxtrain.network.batch`), all
+    points are solved in one vectorized pass; a point that asks for the impossible then gets a
+    row with ``valid`` False and its reason instead of stopping the sweep. Otherwise the points
+    are simulated one by one.
+    """
     paths = list(sweep.grid)
     bases = {p: study.base_value(p, sweep.key + ("grid", p)) for p in paths} if sweep.scale else {}
     points = list(itertools.product(*(sweep.grid[p] for p in paths)))
+    if len(points) > 1 and all(is_batchable(p) for p in paths):
+        return _batch_sweep(study, sweep, paths, bases, points)
     rows = []
     for point in _progress(points, len(points), sweep.name):
         values = {p: (v * bases[p] if sweep.scale else v) for p, v in zip(paths, point)}
@@ -176,6 +186,19 @@ def run_sweep(study: Study, sweep) -> pd.DataFrame:
         result = simulate(study.case((), sweep.key, changes, sweep.key + ("grid",)))
         rows.append({**{p: v for p, v in zip(paths, point)}, **key_outputs(result).to_dict()})
     return pd.DataFrame(rows)
+
+
+def _batch_sweep(study: Study, sweep, paths, bases, points) -> pd.DataFrame:
+    grid = np.asarray(points, dtype=float)
+    values = {p: grid[:, k] * bases.get(p, 1.0) for k, p in enumerate(paths)}
+    try:
+        check_values(study.base, values)
+    except CaseError as exc:
+        raise study.error(sweep.key + ("grid",), f"a grid point is not valid: {exc.describe()}") from None
+    table = simulate_batch(study.case(), values).table
+    for k, p in enumerate(paths):
+        table[p] = grid[:, k]
+    return table
 
 
 def cleaning_ranking(case) -> pd.DataFrame:

@@ -93,7 +93,7 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
     for passes in range(1, MAX_PASSES + 1):
         t_mean_hot, t_mean_cold = 0.5 * (t_hot_in + t_hot_x), 0.5 * (t_cold_in + t_cold_x)
         if spec.ua is not None:
-            ua = np.full(t_hot_in.shape, spec.ua)
+            ua = np.broadcast_to(np.asarray(spec.ua, dtype=float), t_hot_in.shape)
         else:
             coefficients = spec.thermal.evaluate(
                 _side(spec, m_hot_x, m_cold_x, "shell") * per_shell, _side(spec, m_hot_x, m_cold_x, "tube") * per_shell,
@@ -137,7 +137,7 @@ def _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot
 
 
 def _remix(fluid, t_in, t_exchanger, bypass):
-    if bypass == 0.0:
+    if np.all(np.asarray(bypass) == 0.0):
         return t_exchanger
     h = (1.0 - bypass) * fluid.enthalpy(t_exchanger) + bypass * fluid.enthalpy(t_in)
     return fluid.temperature(h, guess=t_exchanger)

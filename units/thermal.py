@@ -38,10 +38,11 @@ class FixedCoefficient:
     fouling_shell = fouling_tube = 0.0
 
     def __init__(self, u):
-        self.u = float(u)
+        self.u = np.asarray(u, dtype=float)  # a number, or one per scenario of a batch
 
     def evaluate(self, m_shell, m_tube, t_shell, t_tube, fluid_shell, fluid_tube):
-        u = np.full(np.broadcast(np.asarray(m_shell), np.asarray(m_tube)).shape, self.u)
+        shape = np.broadcast(np.asarray(m_shell), np.asarray(m_tube)).shape
+        u = np.broadcast_to(self.u, shape).astype(float)
         return Coefficients(u, u)
 
 

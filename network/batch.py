@@ -1,0 +1,163 @@
+"""Scenarios of one topology as arrays: numeric case values set per scenario on one network.
+
+Only values that leave the topology and the calculation order alone can vary across a batch:
+
+* ``streams.NAME.flow`` (kg/s), ``streams.NAME.supply_temperature`` (°C)
+* ``exchangers.TAG.ua`` (kW/K, where given), ``exchangers.TAG.u`` (W/m²·K, a fixed U),
+  ``exchangers.TAG.fouling.shell`` / ``.tube`` (m²·K/W), ``exchangers.TAG.bypass.hot`` / ``.cold``
+* ``heaters.TAG.outlet_temperature`` / ``.duty`` and the same for ``coolers``
+* ``splitters.NAME.branches.BRANCH.fraction`` (the other branches rescale to sum to one)
+
+Values are numbers in the default units. Each path's smallest and largest values are checked
+like case-file values before anything runs (the checks are ranges, so the rest pass too).
+"""
+
+from __future__ import annotations
+
+import copy
+
+import numpy as np
+
+from hxtrain.units.properties import Blend
+from hxtrain.units.thermal import FixedCoefficient
+
+from .case import case_from_document
+from .changes import apply_change
+from .errors import CaseError
+from .graph import Network, build_network
+from .reading import Document
+
+BATCHABLE = (
+    "streams.NAME.flow", "streams.NAME.supply_temperature", "exchangers.TAG.ua", "exchangers.TAG.u",
+    "exchangers.TAG.fouling.shell", "exchangers.TAG.fouling.tube", "exchangers.TAG.bypass.hot",
+    "exchangers.TAG.bypass.cold", "heaters.TAG.outlet_temperature", "heaters.TAG.duty",
+    "coolers.TAG.outlet_temperature", "coolers.TAG.duty", "splitters.NAME.branches.BRANCH.fraction",
+)
+
+
+def is_batchable(path: str) -> bool:
+    parts = path.split(".")
+    if len(parts) < 3:
+        return False
+    pattern = [parts[0], "NAME" if parts[0] in ("streams", "splitters") else "TAG", *parts[2:]]
+    if parts[0] == "splitters" and len(parts) == 5:
+        pattern[3] = "BRANCH"
+    return ".".join(pattern) in BATCHABLE
+
+
+def check_values(document: Document, values: dict, where=()):
+    """Check each path's extreme values as case-file values (the rules are ranges)."""
+    for path, array in values.items():
+        if not is_batchable(path):
+            raise CaseError(f"'{path}' cannot vary within a batch (it is not one of: {', '.join(BATCHABLE)})",
+                            path=where)
+        array = np.asarray(array, dtype=float)
+        if array.ndim != 1 or not np.all(np.isfinite(array)):
+            raise CaseError(f"the values of '{path}' must be a one-dimensional array of finite numbers", path=where)
+        for extreme in (array.min(), array.max()):
+            data = copy.deepcopy(document.data)
+            apply_change(data, {"set": path, "to": float(extreme)}, where)
+            if path.startswith("splitters.") and path.endswith(".fraction"):
+                _rescale_branches(data, path, float(extreme))
+            case_from_document(Document(data, document.file, document.lines))
+
+
+def _rescale_branches(data, path, value):
+    _, splitter, _, branch, _ = path.split(".")
+    branches = data["splitters"][splitter]["branches"]
+    others = {b: float(v["fraction"]) for b, v in branches.items() if b != branch}
+    rest = sum(others.values())
+    for b, fraction in others.items():
+        branches[b]["fraction"] = (1.0 - value) * (fraction / rest if rest > 0 else 1.0 / len(others))
+
+
+def batch_network(case, values: dict) -> tuple[Network, int]:
+    """A network of ``case`` whose unit parameters hold one value per scenario, with flows and
+    segment fluids per scenario. Returns (network, number of scenarios)."""
+    sizes = {len(np.atleast_1d(v)) for v in values.values()}
+    if len(sizes) != 1:
+        raise CaseError(f"every varied value needs the same number of scenarios; got {sorted(sizes)}")
+    batch = sizes.pop()
+    net = build_network(case)
+    fractions = {}
+    for path, array in values.items():
+        _set(net, path, np.asarray(array, dtype=float), fractions)
+    _batch_flows(net, batch, fractions)
+    return net, batch
+
+
+def _set(net: Network, path, array, fractions):
+    parts = path.split(".")
+    section, name, rest = parts[0], parts[1], parts[2:]
+    unit = net.units[name]
+    if section == "streams":
+        setattr(unit, "flow" if rest == ["flow"] else "temperature", array)
+    elif section == "exchangers":
+        spec = unit.spec
+        if rest == ["ua"]:
+            if spec.ua is None:
+                raise CaseError(f"exchanger '{name}' has no 'ua' to vary", path=("exchangers", name))
+            spec.ua = array
+        elif rest == ["u"]:
+            if not isinstance(spec.thermal, FixedCoefficient):
+                raise CaseError(f"exchanger '{name}' has no fixed 'u' to vary", path=("exchangers", name))
+            spec.thermal.u = array
+        elif rest[0] == "fouling":
+            if not hasattr(spec.thermal, "bundle") and not hasattr(spec.thermal, "shell"):
+                raise CaseError(f"exchanger '{name}' has no fouling resistances to vary", path=("exchangers", name))
+            setattr(spec.thermal, f"fouling_{rest[1]}", array)
+        else:
+            setattr(spec, f"bypass_{rest[1]}", array)
+    elif section in ("heaters", "coolers"):
+        field = "target" if rest == ["outlet_temperature"] else "duty"
+        if getattr(unit, field) is None:
+            raise CaseError(f"{section[:-1]} '{name}' is not set by its {rest[0]}; vary what it is set by",
+                            path=(section, name))
+        setattr(unit, field, array)
+    else:
+        branch = rest[1]
+        base = dict(zip(unit.outlets, unit.fractions))
+        others = {b: f for b, f in base.items() if b != branch}
+        total = sum(others.values())
+        matrix = np.empty((len(array), len(unit.outlets)))
+        for j, b in enumerate(unit.outlets):
+            matrix[:, j] = array if b == branch else (1.0 - array) * (others[b] / total if total > 0 else 1 / len(others))
+        fractions[name] = matrix
+
+
+def _batch_flows(net: Network, batch, fractions):
+    """Flows (batch, segments) and segment fluids per scenario."""
+    sources = [n for n, u in net.units.items() if not u.inlets]
+    n = len(net.segments)
+    supplies = np.stack([np.broadcast_to(np.asarray(net.units[s].flow, float), (batch,)) for s in sources], axis=1)
+    matrix = np.broadcast_to(np.eye(n), (batch, n, n)).copy()
+    unit_supply = np.zeros((n, len(sources)))
+    for name, unit in net.units.items():
+        coefficients = fractions[name][:, :, None] if name in fractions else np.asarray(unit.flow_coefficients())[None]
+        for o, seg_out in enumerate(net.outlets[name]):
+            for i, seg_in in enumerate(net.inlets[name]):
+                matrix[:, seg_out, seg_in] -= np.broadcast_to(coefficients[:, o, i], (batch,))
+        if not unit.inlets:
+            unit_supply[net.outlets[name][0], sources.index(name)] = 1.0
+    if fractions:
+        response = np.linalg.solve(matrix, np.broadcast_to(unit_supply, (batch, n, len(sources))))
+    else:  # one topology, one response: solve once
+        response = np.broadcast_to(np.linalg.solve(matrix[0], unit_supply), (batch, n, len(sources)))
+    makeup = response * supplies[:, None, :]
+    net.makeup = makeup
+    net.flow = makeup.sum(axis=2)
+    net.fluids = [_fluid(net, sources, makeup[:, s, :]) for s in range(n)]
+
+
+def _fluid(net: Network, sources, makeup):
+    """A segment's fluid over the batch: one fluid, or a blend with per-scenario fractions."""
+    by_fluid: dict[str, np.ndarray] = {}
+    for j, source in enumerate(sources):
+        name = net.case.streams[source]["fluid"]
+        by_fluid[name] = by_fluid.get(name, 0.0) + makeup[:, j]
+    carried = {k: v for k, v in by_fluid.items() if np.any(v > 0.0)}
+    if len(carried) <= 1:
+        return net.case.fluids[next(iter(carried or by_fluid))]
+    total = sum(carried.values())
+    safe = np.where(total > 0.0, total, 1.0)
+    return Blend([net.case.fluids[k] for k in carried], [v / safe for v in carried.values()])

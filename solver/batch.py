@@ -1,0 +1,119 @@
+"""Batch evaluation: many scenarios of one topology in one vectorized pass.
+
+The calculation order and the tear set are found once; every unit model works on arrays with
+the scenarios on the leading axis; tear convergence is tracked per scenario. A scenario that
+does not converge, or that asks for the impossible (a heater target below its inlet, a fluid out
+of its data range), gets NaN results and says why in ``message``: no number of it is reported as
+an answer.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from hxtrain.network import Case, load_case
+from hxtrain.network.batch import batch_network, check_values
+from hxtrain.network.reading import read_document
+
+from .engine import inlets_of, solve_temperatures
+from .sequencing import plan_calculation
+
+
+@dataclass
+class BatchResult:
+    table: pd.DataFrame
+    """One row per scenario: the varied values, ``converged``, ``valid``, ``message`` and the key
+    outputs (heat recovered, heater and cooler duties, heater inlet temperatures, limits
+    violated, warnings, relative energy imbalance)."""
+    iterations: int
+    temperature: np.ndarray
+    """(scenarios, segments) °C, NaN where a scenario is not converged or not valid; segments in
+    the order of the one-case streams table."""
+
+
+def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None) -> BatchResult:
+    """Simulate the scenarios given by ``values`` (key path -> array, one value per scenario;
+    see :mod:`hxtrain.network.batch` for the paths that may vary)."""
+    if not isinstance(case, Case):
+        case_path = Path(case)
+        check_values(read_document(case_path), values)
+        case = load_case(case_path)
+    net, batch = batch_network(case, values)
+    tolerance = tolerance if tolerance is not None else case.settings.tolerance
+    max_iterations = max_iterations if max_iterations is not None else case.settings.max_iterations
+    solution = solve_temperatures(net, tolerance=tolerance, max_iterations=max_iterations, batch=batch,
+                                  plan=plan_calculation(net.graph), raise_on_failure=False)
+    outputs, valid, messages = summarize(net, solution.temperature)
+    ok = solution.converged & valid
+    table = pd.DataFrame({path: np.asarray(v, dtype=float) for path, v in values.items()})
+    table["converged"] = solution.converged
+    table["valid"] = valid
+    table["message"] = np.where(solution.converged, messages, "temperatures did not converge")
+    for name, column in outputs.items():
+        table[name] = np.where(ok, column, np.nan)
+    temperature = np.where(ok[:, None], solution.temperature, np.nan)
+    return BatchResult(table, solution.iterations, temperature)
+
+
+def summarize(net, temperature):
+    """Key outputs per scenario from the units' reports, as in ``key_outputs`` of one run."""
+    batch = temperature.shape[0]
+    flow = np.broadcast_to(net.flow, temperature.shape)
+    totals = {"exchanger": np.zeros(batch), "heater": np.zeros(batch), "cooler": np.zeros(batch)}
+    inlets, limits, warnings = {}, np.zeros(batch), np.zeros(batch)
+    valid, messages = np.ones(batch, bool), np.full(batch, "", dtype=object)
+    heat_added = np.zeros(batch)
+    for name, unit in net.units.items():
+        report = unit.report(inlets_of(net, name, temperature, flow))
+        if unit.kind in totals:
+            totals[unit.kind] = totals[unit.kind] + report.quantities["duty"]
+        if unit.kind == "heater":
+            inlets[f"{name}_inlet_c"] = report.quantities["t_cold_in"]
+        heat_added = heat_added + report.heat_added
+        for finding in report.findings:
+            if finding.severity == "limit":
+                limits += finding.active
+            elif finding.severity == "warning":
+                warnings += finding.active
+            else:
+                _invalidate(valid, messages, finding.active, finding.messages, finding.key)
+    extrapolated = _range_checks(net, temperature, flow, valid, messages)
+    outputs = {"heat_recovered_kw": totals["exchanger"], "heater_duty_kw": totals["heater"],
+               "cooler_duty_kw": totals["cooler"], **inlets, "limit_violations": limits,
+               "warnings": warnings + extrapolated, "relative_imbalance": _imbalance(net, temperature, flow, heat_added)}
+    return outputs, valid, messages
+
+
+def _invalidate(valid, messages, active, texts, key):
+    for i in np.flatnonzero(active & valid):
+        messages[i] = f"{key}: {texts[i]}"
+    valid &= ~active
+
+
+def _range_checks(net, temperature, flow, valid, messages):
+    warned = np.zeros(temperature.shape[0])
+    for seg, fluid in zip(net.segments, net.fluids):
+        for member in fluid.members():
+            outside = member.outside_range(temperature[:, seg.index]) & (flow[:, seg.index] > 0.0)
+            if not np.any(outside):
+                continue
+            if member.extrapolate:
+                warned += outside
+            else:
+                texts = np.full(len(outside), f"segment {seg.label} outside fluid '{member.name}' data range", object)
+                _invalidate(valid, messages, outside, texts, member.range_key)
+    return warned
+
+
+def _imbalance(net, temperature, flow, heat_added):
+    def enthalpy(seg):
+        return flow[:, seg] * net.fluids[seg].enthalpy(temperature[:, seg])
+
+    supplied = sum(enthalpy(net.outlets[n][0]) for n, u in net.units.items() if not u.inlets)
+    delivered = sum(enthalpy(net.inlets[n][0]) for n, u in net.units.items() if not u.outlets)
+    scale = np.abs(supplied) + np.abs(heat_added) + np.abs(delivered)
+    return np.abs(supplied + heat_added - delivered) / np.where(scale > 0, scale, 1.0)

@@ -1,0 +1,101 @@
+"""Batch evaluation: many scenarios of one topology in one pass agree with one-by-one solves."""
+
+import numpy as np
+import pytest
+
+from hxtrain.network import CaseError, load_case
+from hxtrain.network.batch import is_batchable
+from hxtrain.solver import demo_case_path, simulate
+from hxtrain.solver.batch import simulate_batch
+from hxtrain.solver.studies import key_outputs
+
+
+def single(path, changes):
+    case = load_case(path)
+    for apply in changes:
+        apply(case)
+    return simulate(case)
+
+
+@pytest.mark.parametrize("demo,stream", [("feed_effluent", "fresh_feed"), ("product_cooling", "naphtha")])
+def test_batch_equals_single_solves_on_constant_cp_demos(demo, stream):
+    path = demo_case_path(demo)
+    base_flow = load_case(path).streams[stream]["flow"]
+    flows = base_flow * np.array([0.6, 0.9, 1.0, 1.2])
+    batch = simulate_batch(path, {f"streams.{stream}.flow": flows})
+    assert batch.table["converged"].all() and batch.table["valid"].all()
+    for i, flow in enumerate(flows):
+        one = single(path, [lambda c, f=flow: c.streams[stream].__setitem__("flow", f)])
+        np.testing.assert_allclose(batch.temperature[i], one.streams["temperature_c"].to_numpy(), rtol=0, atol=1e-9)
+        expected = key_outputs(one)
+        for key, value in expected.items():
+            assert batch.table.loc[i, key] == pytest.approx(value, rel=1e-9, abs=1e-9), key
+
+
+def test_batch_equals_single_solves_on_the_crude_demo_with_several_values():
+    """cp(T), film-scaled U, fouling and a bypass varied together: agreement to 1e-9 K."""
+    path = demo_case_path("crude_preheat")
+    flows = np.array([70.0, 95.0, 105.0])
+    fouling = np.array([0.0, 0.0009, 0.0005])
+    bypass = np.array([0.0, 0.05, 0.2])
+    batch = simulate_batch(path, {"streams.crude.flow": flows, "exchangers.E-112.fouling.tube": fouling,
+                                  "exchangers.E-110.bypass.cold": bypass})
+    for i in range(3):
+        def change(case, i=i):
+            case.streams["crude"]["flow"] = flows[i]
+            case.exchangers["E-112"]["spec"].thermal.fouling_tube = fouling[i]
+            case.exchangers["E-110"]["spec"].bypass_cold = bypass[i]
+
+        one = single(path, [change])
+        np.testing.assert_allclose(batch.temperature[i], one.streams["temperature_c"].to_numpy(), rtol=0, atol=1e-9)
+        assert batch.table.loc[i, "heater_duty_kw"] == pytest.approx(one.summary["heater_duty_kw"], rel=1e-12)
+        assert batch.table.loc[i, "relative_imbalance"] < 1e-9
+
+
+def test_split_fraction_varies_flows_per_scenario():
+    path = demo_case_path("product_cooling")
+    fractions = np.array([0.2, 0.4, 0.7])
+    batch = simulate_batch(path, {"splitters.cw_split.branches.first.fraction": fractions})
+    for i, x in enumerate(fractions):
+        def change(case, x=x):
+            case.splitters["cw_split"]["fractions"] = {"first": x, "second": 1.0 - x}
+
+        one = single(path, [change])
+        np.testing.assert_allclose(batch.temperature[i], one.streams["temperature_c"].to_numpy(), rtol=0, atol=1e-9)
+
+
+def test_impossible_scenario_is_flagged_not_reported():
+    """A cooler target above its inlet in one scenario: that row is invalid with NaN results,
+    the others are answered."""
+    path = demo_case_path("crude_preheat")
+    targets = np.array([45.0, 300.0])  # C-104 kerosene cooler: 300 °C is above its inlet
+    batch = simulate_batch(path, {"coolers.C-104.outlet_temperature": targets})
+    assert list(batch.table["valid"]) == [True, False]
+    assert "coolers.C-104.outlet_temperature" in batch.table.loc[1, "message"]
+    assert np.isnan(batch.table.loc[1, "heater_duty_kw"]) and np.isnan(batch.temperature[1]).all()
+    assert np.isfinite(batch.table.loc[0, "heater_duty_kw"])
+
+
+def test_unconverged_scenario_is_flagged():
+    case = load_case(demo_case_path("feed_effluent"))
+    batch = simulate_batch(case, {"streams.fresh_feed.flow": np.array([58.0, 60.0])}, max_iterations=2)
+    assert not batch.table["converged"].any()
+    assert batch.table["heater_duty_kw"].isna().all()
+    assert (batch.table["message"] == "temperatures did not converge").all()
+
+
+@pytest.mark.parametrize("path,ok", [
+    ("streams.crude.flow", True), ("exchangers.E-110.bypass.cold", True),
+    ("splitters.crude_split.branches.north.fraction", True), ("exchangers.E-104.shells", False),
+    ("exchangers.E-104.area_per_shell", False), ("fluids.crude.density", False),
+])
+def test_which_paths_may_vary_in_a_batch(path, ok):
+    assert is_batchable(path) is ok
+
+
+def test_bad_batch_values_are_errors_naming_the_key():
+    path = demo_case_path("crude_preheat")
+    with pytest.raises(CaseError, match="streams.crude.flow"):
+        simulate_batch(path, {"streams.crude.flow": np.array([50.0, -5.0])})
+    with pytest.raises(CaseError, match="cannot vary within a batch"):
+        simulate_batch(path, {"exchangers.E-104.shells": np.array([1.0, 2.0])})
