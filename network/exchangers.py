@@ -11,12 +11,12 @@ scale with flow; they take ``fouling`` resistances.
 from __future__ import annotations
 
 from hxtrain.units import hydraulics, resistances, thermal
+from hxtrain.units.exchanger import ARRANGEMENTS
 from hxtrain.units.service import ExchangerSpec
 
 from . import quantities as q
 from .fields import Fields
 
-ARRANGEMENTS = ("counterflow", "parallel_flow", "tema_e", "crossflow", "double_pipe")
 SIDES = ("hot", "cold")
 PARTS = ("shell", "tube")
 FOULING = q.Kind("a fouling resistance", "m^2*delta_degC/W", '0.00035 or "0.002 h*ft^2*degF/Btu"')

@@ -150,7 +150,7 @@ def _compare(args) -> int:
     from hxtrain.network.study import load_study
 
     from .output import check_output_path
-    from .studies import compare, solve_specification, study_text
+    from .studies import compare, solve_specification, specification_table, study_text
 
     if args.out:
         check_output_path(args.out)
@@ -160,15 +160,9 @@ def _compare(args) -> int:
     print(study_text(study, comparison, specifications))
     tables = {"comparison": comparison.table, "findings": comparison.findings}
     if specifications:
-        tables["specifications"] = pd_specifications(specifications)
+        tables["specifications"] = specification_table(specifications)
     _write(tables, args, {"study": study.file, "title": study.title, "caution": CAUTION})
     return EXIT_OK
-
-
-def pd_specifications(specifications):
-    import pandas as pd
-
-    return pd.DataFrame([vars(s) for s in specifications]).set_index("name")
 
 
 def _sweep(args) -> int:

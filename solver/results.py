@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from hxtrain.network import Case, CaseError, Network, build_network, load_case
+from hxtrain.network import Case, Network, build_network, load_case
 
 from .engine import TemperatureSolution, inlets_of, solve_temperatures, tear_labels
 

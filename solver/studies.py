@@ -157,6 +157,11 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
                                f"{spec.adjust} = {x:.6g} gives {reached:.6g} (target {goal:g})")
 
 
+def specification_table(specifications) -> pd.DataFrame:
+    """One row per solved specification."""
+    return pd.DataFrame([vars(s) for s in specifications]).set_index("name")
+
+
 def _progress(iterable, total, label):
     """A progress bar on a terminal (tqdm), nothing otherwise."""
     if not sys.stderr.isatty():

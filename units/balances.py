@@ -1,4 +1,5 @@
-"""Energy balances of the one-stream units: mixing, heating and cooling at constant cp.
+"""Energy balance of adiabatic mixing at constant cp (the fast path of the mixer; with cp(T) the
+mixer balances enthalpy through its fluids, see :func:`hxtrain.units.models.mix`).
 
 Enthalpy is referred to 0 °C (h = cp·T), so a heat-capacity rate C = m·cp in kW/K times a
 temperature in °C is an enthalpy flow in kW. Every function works on numpy arrays with a
@@ -9,9 +10,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .arrays import as_arrays
 
-__all__ = ["mix_temperature", "temperature_after_duty", "duty_to_reach"]
+__all__ = ["mix_temperature"]
 
 
 def mix_temperature(t_in, c_in):
@@ -32,30 +32,3 @@ def mix_temperature(t_in, c_in):
     flows = total > 0.0
     weighted = (c_in * t_in).sum(axis=-1) / np.where(flows, total, 1.0)
     return np.where(flows, weighted, t_in.mean(axis=-1))
-
-
-def temperature_after_duty(t_in, c, duty):
-    r"""Outlet temperature of a stream of heat-capacity rate C after receiving ``duty`` (kW).
-
-    .. math:: T_{out} = T_{in} + Q / C
-
-    A stream without flow keeps its inlet temperature (the caller flags a duty without flow).
-
-    >>> float(temperature_after_duty(150.0, 200.0, 10000.0))
-    200.0
-    """
-    t_in, c, duty = as_arrays(t_in, c, duty)
-    flows = c > 0.0
-    return np.where(flows, t_in + duty / np.where(flows, c, 1.0), t_in)
-
-
-def duty_to_reach(t_in, c, t_target):
-    r"""Duty (kW) that brings a stream of heat-capacity rate C from T_in to T_target.
-
-    .. math:: Q = C\,(T_{target} - T_{in})
-
-    >>> float(duty_to_reach(250.0, 180.0, 360.0))
-    19800.0
-    """
-    t_in, c, t_target = as_arrays(t_in, c, t_target)
-    return c * (t_target - t_in)
