@@ -38,7 +38,7 @@ What a generated network contains
 
 Every port is used exactly once, every path ends at a product, mixer or splitter, and every
 recycle leaves a way out (fraction < 1), so ``case_from_mapping`` and the flow balance accept
-every generated case. Units per case: about 50 at most (``max_exchangers`` = 12 by default).
+every generated case. Units per case: about 60 at most (``max_exchangers`` = 15 by default).
 """
 
 from __future__ import annotations
@@ -263,7 +263,7 @@ def _split_budget(ch, total, parts, first_at_least_one=False):
     return budgets
 
 
-def generate_case(ch, *, max_exchangers=12, fixed_duty=True, title="generated network"):
+def generate_case(ch, *, max_exchangers=15, fixed_duty=True, title="generated network"):
     """A valid case dict (keys as in a case file) built from the decisions of chooser ``ch``."""
     b = _Builder(ch, fixed_duty)
     b.case = {"title": title, "fluids": {}, "streams": {}, "exchangers": {}, "heaters": {}, "coolers": {},
