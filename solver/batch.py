@@ -19,6 +19,7 @@ from hxtrain.network import Case, load_case
 from hxtrain.network.batch import batch_network, check_values
 from hxtrain.network.reading import read_document
 
+from .checks import enthalpy_balance, out_of_range
 from .engine import inlets_of, solve_temperatures
 from .sequencing import plan_calculation
 
@@ -84,7 +85,8 @@ def summarize(net, temperature):
     extrapolated = _range_checks(net, temperature, flow, valid, messages)
     outputs = {"heat_recovered_kw": totals["exchanger"], "heater_duty_kw": totals["heater"],
                "cooler_duty_kw": totals["cooler"], **inlets, "limit_violations": limits,
-               "warnings": warnings + extrapolated, "relative_imbalance": _imbalance(net, temperature, flow, heat_added)}
+               "warnings": warnings + extrapolated,
+               "relative_imbalance": enthalpy_balance(net, temperature, flow, heat_added)["relative_imbalance"]}
     return outputs, valid, messages
 
 
@@ -96,24 +98,10 @@ def _invalidate(valid, messages, active, texts, key):
 
 def _range_checks(net, temperature, flow, valid, messages):
     warned = np.zeros(temperature.shape[0])
-    for seg, fluid in zip(net.segments, net.fluids):
-        for member in fluid.members():
-            outside = member.outside_range(temperature[:, seg.index]) & (flow[:, seg.index] > 0.0)
-            if not np.any(outside):
-                continue
-            if member.extrapolate:
-                warned += outside
-            else:
-                texts = np.full(len(outside), f"segment {seg.label} outside fluid '{member.name}' data range", object)
-                _invalidate(valid, messages, outside, texts, member.range_key)
+    for seg, member, outside in out_of_range(net, temperature, flow):
+        if member.extrapolate:
+            warned += outside
+        else:
+            texts = np.full(len(outside), f"segment {seg.label} outside fluid '{member.name}' data range", object)
+            _invalidate(valid, messages, outside, texts, member.range_key)
     return warned
-
-
-def _imbalance(net, temperature, flow, heat_added):
-    def enthalpy(seg):
-        return flow[:, seg] * net.fluids[seg].enthalpy(temperature[:, seg])
-
-    supplied = sum(enthalpy(net.outlets[n][0]) for n, u in net.units.items() if not u.inlets)
-    delivered = sum(enthalpy(net.inlets[n][0]) for n, u in net.units.items() if not u.outlets)
-    scale = np.abs(supplied) + np.abs(heat_added) + np.abs(delivered)
-    return np.abs(supplied + heat_added - delivered) / np.where(scale > 0, scale, 1.0)

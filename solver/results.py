@@ -16,6 +16,7 @@ import pandas as pd
 
 from hxtrain.network import Case, Network, build_network, load_case
 
+from .checks import enthalpy_balance, out_of_range
 from .engine import TemperatureSolution, inlets_of, solve_temperatures, tear_labels
 
 UNIT_COLUMNS = {
@@ -118,13 +119,13 @@ def tabulate(net: Network, solution: TemperatureSolution, tolerance) -> Simulati
         row["findings"] = ", ".join(notes)
         rows[name] = row
         heat_added += float(np.asarray(report.heat_added).reshape(-1)[0])
-    findings += _extrapolation_findings(net, t[0])
+    findings += _extrapolation_findings(net, t, flow)
     _stop_on_bad_input(net, findings)
     units = pd.DataFrame.from_dict(rows, orient="index", columns=["type", "u_source", *UNIT_COLUMNS.values(), "findings"])
     units.index.name = "unit"
     units = units.dropna(axis=1, how="all")
     streams = _stream_table(net, t[0])
-    balance = _balance(net, t[0], heat_added)
+    balance = _balance(net, t, flow, heat_added)
     tears = _tear_table(net, solution)
     findings_table = pd.DataFrame(findings, columns=["unit", "severity", "kind", "key", "message"])
     findings_table = findings_table.sort_values("severity", key=lambda s: s.map({"limit": 0, "warning": 1}), kind="stable")
@@ -142,26 +143,23 @@ def _stop_on_bad_input(net, findings):
             raise net.case.error(tuple(f["key"].split(".")), f["message"])
 
 
-def _extrapolation_findings(net: Network, t):
+def _extrapolation_findings(net: Network, t, flow):
     """A segment whose temperature lies outside a fluid's data range is refused (bad input, naming
     the fluid's range) unless that fluid allows extrapolation, which is then flagged, never silent."""
     found = []
-    for seg, fluid, temperature in zip(net.segments, net.fluids, t):
-        if net.flow[seg.index] <= 0.0:
+    for seg, member, where in out_of_range(net, t, flow):
+        if not where[0]:
             continue
-        for member in fluid.members():
-            if not bool(member.outside_range(temperature)):
-                continue
-            low, high = member.valid_range
-            message = (f"segment {seg.label} reaches {temperature:.1f} °C, outside the data range "
-                       f"{low:g} to {high:g} °C of fluid '{member.name}'")
-            if member.extrapolate:
-                found.append({"unit": seg.target, "severity": "warning", "kind": "property_extrapolation",
-                              "key": member.range_key, "message": message + ": properties extrapolated"})
-            else:
-                found.append({"unit": seg.target, "severity": "input", "kind": "property_range",
-                              "key": member.range_key, "message": message + "; widen the data (or set "
-                              "'extrapolate: true' on the fluid to accept extrapolated properties)"})
+        low, high = member.valid_range
+        message = (f"segment {seg.label} reaches {t[0, seg.index]:.1f} °C, outside the data range "
+                   f"{low:g} to {high:g} °C of fluid '{member.name}'")
+        if member.extrapolate:
+            found.append({"unit": seg.target, "severity": "warning", "kind": "property_extrapolation",
+                          "key": member.range_key, "message": message + ": properties extrapolated"})
+        else:
+            found.append({"unit": seg.target, "severity": "input", "kind": "property_range",
+                          "key": member.range_key, "message": message + "; widen the data (or set "
+                          "'extrapolate: true' on the fluid to accept extrapolated properties)"})
     return found
 
 
@@ -185,24 +183,9 @@ def _stream_table(net: Network, t) -> pd.DataFrame:
     return table
 
 
-def _balance(net: Network, t, heat_added) -> pd.Series:
+def _balance(net: Network, t, flow, heat_added) -> pd.Series:
     """Overall enthalpy balance (reference 0 °C) from the stream table and the external duties."""
-    def enthalpy_flow(seg):
-        return float(net.flow[seg] * net.fluids[seg].enthalpy(t[seg]))
-
-    supplied = sum(enthalpy_flow(net.outlets[n][0]) for n, u in net.units.items() if not u.inlets)
-    delivered = sum(enthalpy_flow(net.inlets[n][0]) for n, u in net.units.items() if not u.outlets)
-    imbalance = supplied + heat_added - delivered
-    scale = abs(supplied) + abs(heat_added) + abs(delivered)
-    return pd.Series(
-        {
-            "enthalpy_in_supplies_kw": supplied,
-            "heat_added_net_kw": heat_added,
-            "enthalpy_out_products_kw": delivered,
-            "imbalance_kw": imbalance,
-            "relative_imbalance": abs(imbalance) / scale if scale else 0.0,
-        }
-    )
+    return pd.Series({k: float(np.asarray(v).reshape(-1)[0]) for k, v in enthalpy_balance(net, t, flow, heat_added).items()})
 
 
 def _tear_table(net: Network, solution: TemperatureSolution) -> pd.DataFrame:
