@@ -20,6 +20,7 @@ import sys
 from pathlib import Path
 
 import pytest
+from cli_helpers import hxtrain_command
 import yaml
 
 from hxtrain.solver.cli import main
@@ -37,14 +38,6 @@ MAX_MESSAGE_CHARS = 1000
 # ----------------------------------------------------------------------------- helpers
 
 
-def hxtrain_command() -> list[str]:
-    """The installed console script next to this interpreter, else ``python -m`` on the CLI module."""
-    bindir = Path(sys.executable).parent
-    for name in ("hxtrain", "hxtrain.exe"):
-        script = bindir / name
-        if script.is_file() and os.access(script, os.X_OK):
-            return [str(script)]
-    return [sys.executable, "-m", "hxtrain.solver.cli"]
 
 
 def run_subprocess(*args, timeout=120, **kwargs) -> subprocess.CompletedProcess:

@@ -11,11 +11,11 @@ import json
 import os
 import re
 import subprocess
-import sys
 from pathlib import Path
 
 import pandas as pd
 import pytest
+from cli_helpers import hxtrain_command
 
 from hxtrain.network import CaseError
 
@@ -32,13 +32,6 @@ CSV_TABLES = ("streams", "findings", "tears", "summary")
 # ----------------------------------------------------------------------------- helpers
 
 
-def hxtrain_command() -> list[str]:
-    bindir = Path(sys.executable).parent
-    for name in ("hxtrain", "hxtrain.exe"):
-        script = bindir / name
-        if script.is_file() and os.access(script, os.X_OK):
-            return [str(script)]
-    return [sys.executable, "-m", "hxtrain.solver.cli"]
 
 
 def run_subprocess(*args, cwd=None, timeout=180) -> subprocess.CompletedProcess:

@@ -1,0 +1,15 @@
+"""Helpers shared by the command-line tests."""
+
+import os
+import sys
+from pathlib import Path
+
+
+def hxtrain_command() -> list[str]:
+    """The installed console script next to this interpreter, else ``python -m`` on the CLI module."""
+    bindir = Path(sys.executable).parent
+    for name in ("hxtrain", "hxtrain.exe"):
+        script = bindir / name
+        if script.is_file() and os.access(script, os.X_OK):
+            return [str(script)]
+    return [sys.executable, "-m", "hxtrain.solver.cli"]
