@@ -102,6 +102,7 @@ def rate_exchanger(
     mixed_side=None,
     bypass_hot=0.0,
     bypass_cold=0.0,
+    details=True,
 ):
     """Rate an exchanger (or ``shells`` identical shells in series) by the P–NTU method.
 
@@ -125,6 +126,9 @@ def rate_exchanger(
         Crossflow: the mixed fluid, or None for both fluids unmixed.
     bypass_hot, bypass_cold : array_like
         Fraction of each side's flow routed around the exchanger and re-mixed at its outlet.
+    details : bool
+        False leaves out what only a report needs (P, R, NTU on the hot side, F, LMTD, approach,
+        cross, reversed: set to None), for iterations that need only outlets and duty.
 
     Returns
     -------
@@ -158,6 +162,8 @@ def rate_exchanger(
     t_cold_x = _outlet(t_cold_in, t_hot_in, c_cold, -duty, ua)
     t_hot_out = (1.0 - bypass_hot) * t_hot_x + bypass_hot * t_hot_in
     t_cold_out = (1.0 - bypass_cold) * t_cold_x + bypass_cold * t_cold_in
+    if not details:
+        return ExchangerRating(t_hot_out, t_cold_out, t_hot_x, t_cold_x, duty, *([None] * 10))
 
     # report on the hot-side basis; a hot side without flow is the limit P = 1, R = 0, NTU = inf
     hot_flows = c_hot > 0.0
@@ -167,7 +173,7 @@ def rate_exchanger(
         r_hot = np.where(c_cold > 0.0, c_hot / np.where(c_cold > 0.0, c_cold, 1.0), np.inf)
         ntu_hot = np.where(hot_flows, ua / safe_hot, np.where(ua > 0.0, np.inf, 0.0))
     # counterflow is the F = 1 reference by definition; computing it would only add round-off
-    counterflow = arrangement in ("counterflow", "double_pipe") and shells >= 1
+    counterflow = arrangement in ("counterflow", "double_pipe")
     f = np.ones_like(duty) if counterflow else pntu.f_factor(effectiveness, r, ntu)
 
     direction = np.where(t_hot_in >= t_cold_in, 1.0, -1.0)

@@ -28,14 +28,14 @@ class Exchanger(_Base):
         self.limits = limits or {}
         self._last_outlets = None  # warm start of the in-service iteration (speed only)
 
-    def rate(self, inlets):
+    def rate(self, inlets, details=True):
         service = rate_in_service(self.spec, inlets.t[:, 0], inlets.t[:, 1], inlets.m[:, 0], inlets.m[:, 1],
-                                  inlets.fluids[0], inlets.fluids[1], guess=self._last_outlets)
+                                  inlets.fluids[0], inlets.fluids[1], guess=self._last_outlets, details=details)
         self._last_outlets = (service.rating.t_hot_out_exchanger, service.rating.t_cold_out_exchanger)
         return service
 
     def outlet_temperatures(self, inlets):
-        x = self.rate(inlets).rating
+        x = self.rate(inlets, details=False).rating
         return np.stack([x.t_hot_out, x.t_cold_out], axis=1)
 
     def report(self, inlets):

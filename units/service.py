@@ -73,11 +73,12 @@ def _side(spec, hot_value, cold_value, side):
 
 
 def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, fluid_hot, fluid_cold,
-                    guess=None) -> ServiceRating:
+                    guess=None, details=True) -> ServiceRating:
     """Rate an exchanger with temperature-dependent cp and a flow- and temperature-dependent U.
 
     ``guess`` (hot and cold outlet temperatures of the exchanger proper, e.g. from the previous
-    call) only shortens the iteration; the answer is the same fixed point.
+    call) only shortens the iteration; the answer is the same fixed point. ``details=False``
+    skips what only a report needs (see :func:`rate_exchanger`) and the pressure drops.
     """
     t_hot_in, t_cold_in, m_hot, m_cold = as_arrays(t_hot_in, t_cold_in, m_hot, m_cold)
     m_hot_x = m_hot * (1.0 - spec.bypass_hot)
@@ -104,12 +105,14 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
         c_cold = m_cold * fluid_cold.mean_cp(t_cold_in, t_cold_x)
         rating = rate_exchanger(t_hot_in, t_cold_in, c_hot, c_cold, ua, spec.arrangement, shells=spec.shells,
                                 tube_passes=spec.tube_passes, shell_side=spec.shell_side, mixed_side=spec.mixed_side,
-                                bypass_hot=spec.bypass_hot, bypass_cold=spec.bypass_cold)
+                                bypass_hot=spec.bypass_hot, bypass_cold=spec.bypass_cold, details=details)
         change = np.maximum(np.abs(rating.t_hot_out_exchanger - t_hot_x), np.abs(rating.t_cold_out_exchanger - t_cold_x))
         t_hot_x, t_cold_x = rating.t_hot_out_exchanger, rating.t_cold_out_exchanger
         if simple or np.all(change <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot_in))):
             break
     rating = _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot, fluid_cold, spec, simple)
+    if not details:
+        return ServiceRating(rating, coefficients, ua, {}, passes)
     t_mean = {"hot": 0.5 * (t_hot_in + rating.t_hot_out_exchanger), "cold": 0.5 * (t_cold_in + rating.t_cold_out_exchanger)}
     drops = {}
     for side, model in spec.pressure_drop.items():
