@@ -18,13 +18,12 @@ import copy
 
 import numpy as np
 
-from hxtrain.units.properties import Blend
 from hxtrain.units.thermal import FixedCoefficient
 
 from .case import case_from_document
-from .changes import apply_change
+from .changes import apply_change, rescaled_branches, value_changes
 from .errors import CaseError
-from .graph import Network, build_network
+from .graph import Network, build_network, segment_fluid
 from .reading import Document
 
 BATCHABLE = (
@@ -56,19 +55,9 @@ def check_values(document: Document, values: dict, where=()):
             raise CaseError(f"the values of '{path}' must be a one-dimensional array of finite numbers", path=where)
         for extreme in (array.min(), array.max()):
             data = copy.deepcopy(document.data)
-            apply_change(data, {"set": path, "to": float(extreme)}, where)
-            if path.startswith("splitters.") and path.endswith(".fraction"):
-                _rescale_branches(data, path, float(extreme))
+            for change in value_changes(data, path, float(extreme), where):
+                apply_change(data, change, where)
             case_from_document(Document(data, document.file, document.lines))
-
-
-def _rescale_branches(data, path, value):
-    _, splitter, _, branch, _ = path.split(".")
-    branches = data["splitters"][splitter]["branches"]
-    others = {b: float(v["fraction"]) for b, v in branches.items() if b != branch}
-    rest = sum(others.values())
-    for b, fraction in others.items():
-        branches[b]["fraction"] = (1.0 - value) * (fraction / rest if rest > 0 else 1.0 / len(others))
 
 
 def batch_network(case, values: dict) -> tuple[Network, int]:
@@ -115,14 +104,8 @@ def _set(net: Network, path, array, fractions):
                             path=(section, name))
         setattr(unit, field, array)
     else:
-        branch = rest[1]
-        base = dict(zip(unit.outlets, unit.fractions))
-        others = {b: f for b, f in base.items() if b != branch}
-        total = sum(others.values())
-        matrix = np.empty((len(array), len(unit.outlets)))
-        for j, b in enumerate(unit.outlets):
-            matrix[:, j] = array if b == branch else (1.0 - array) * (others[b] / total if total > 0 else 1 / len(others))
-        fractions[name] = matrix
+        shares = rescaled_branches(dict(zip(unit.outlets, unit.fractions)), rest[1], array)
+        fractions[name] = np.stack([np.broadcast_to(shares[b], array.shape) for b in unit.outlets], axis=1)
 
 
 def _batch_flows(net: Network, batch, fractions):
@@ -146,18 +129,4 @@ def _batch_flows(net: Network, batch, fractions):
     makeup = response * supplies[:, None, :]
     net.makeup = makeup
     net.flow = makeup.sum(axis=2)
-    net.fluids = [_fluid(net, sources, makeup[:, s, :]) for s in range(n)]
-
-
-def _fluid(net: Network, sources, makeup):
-    """A segment's fluid over the batch: one fluid, or a blend with per-scenario fractions."""
-    by_fluid: dict[str, np.ndarray] = {}
-    for j, source in enumerate(sources):
-        name = net.case.streams[source]["fluid"]
-        by_fluid[name] = by_fluid.get(name, 0.0) + makeup[:, j]
-    carried = {k: v for k, v in by_fluid.items() if np.any(v > 0.0)}
-    if len(carried) <= 1:
-        return net.case.fluids[next(iter(carried or by_fluid))]
-    total = sum(carried.values())
-    safe = np.where(total > 0.0, total, 1.0)
-    return Blend([net.case.fluids[k] for k in carried], [v / safe for v in carried.values()])
+    net.fluids = [segment_fluid(net.case, sources, makeup[:, s, :]) for s in range(n)]

@@ -138,3 +138,28 @@ def apply_changes(data: dict, changes, where=()) -> dict:
     for i, change in enumerate(changes):
         apply_change(changed, change, tuple(where) + (i,))
     return changed
+
+
+def rescaled_branches(fractions: dict, branch, value) -> dict:
+    """A splitter's branch fractions with ``branch`` set to ``value`` (a number or an array) and
+    the other branches rescaled in proportion, so that the fractions still sum to one."""
+    others = {b: f for b, f in fractions.items() if b != branch}
+    rest = sum(others.values())
+    result = {branch: value}
+    for b, fraction in others.items():
+        result[b] = (1.0 - value) * (fraction / rest if rest > 0 else 1.0 / len(others))
+    return result
+
+
+def value_changes(data: dict, path, value, where=()) -> list:
+    """The changes that set ``path`` to ``value``: a splitter branch fraction also rescales the
+    splitter's other branches (see :func:`rescaled_branches`)."""
+    parts = split_path(path)
+    if len(parts) == 5 and parts[0] == "splitters" and parts[2] == "branches" and parts[4] == "fraction":
+        branches = ((data.get("splitters") or {}).get(parts[1]) or {}).get("branches") or {}
+        if parts[3] not in branches:
+            raise CaseError(f"no branch '{parts[3]}' of splitter '{parts[1]}'", path=where)
+        base = {b: numeric_value((branches[b] or {}).get("fraction"), "fraction", where) for b in branches}
+        shares = rescaled_branches(base, parts[3], value)
+        return [{"set": f"splitters.{parts[1]}.branches.{b}.fraction", "to": float(v)} for b, v in shares.items()]
+    return [{"set": path, "to": float(value)}]

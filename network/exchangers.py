@@ -113,8 +113,8 @@ def _read_thermal(f: Fields, spec: ExchangerSpec, shell_side_given):
     if form == "geometry":
         bundle, wall = _geometry(f, spec)
         spec.area_per_shell = bundle.area
-        fouling = _per_part(f, "fouling", FOULING, required=False, minimum=0.0, maximum=0.02) or {"shell": 0.0, "tube": 0.0}
-        spec.thermal = thermal.GeometryFilms(bundle, fouling["shell"] or 0.0, fouling["tube"] or 0.0, wall)
+        fouling = _fouling(f)
+        spec.thermal = thermal.GeometryFilms(bundle, fouling["shell"], fouling["tube"], wall)
         return
     spec.area_per_shell = f.quantity("area_per_shell", q.AREA, above=0.0, maximum=1e5)
     if form == "u":
@@ -123,8 +123,7 @@ def _read_thermal(f: Fields, spec: ExchangerSpec, shell_side_given):
         spec.thermal = thermal.FixedCoefficient(f.quantity("u", q.HEAT_TRANSFER_COEFFICIENT, minimum=0.0, maximum=1e5))
         return
     wall, ratio = _tube_wall(f)
-    fouling = _per_part(f, "fouling", FOULING, required=False, minimum=0.0, maximum=0.02) or {"shell": 0.0, "tube": 0.0}
-    fouling = {k: v or 0.0 for k, v in fouling.items()}
+    fouling = _fouling(f)
     if form == "clean_u":
         clean = f.quantity("clean_u", q.HEAT_TRANSFER_COEFFICIENT, above=0.0, maximum=1e5)
         share = f.quantity("clean_resistance_shell_share", q.FRACTION, above=0.0, maximum=0.999)
@@ -143,6 +142,12 @@ def _read_thermal(f: Fields, spec: ExchangerSpec, shell_side_given):
     sides = {part: thermal.SideFilm(h[part], flows[part] * per_shell, exponents[part], temps.get(part),
                                     reynolds if part == "tube" else None) for part in PARTS}
     spec.thermal = thermal.ScaledFilms(sides["shell"], sides["tube"], fouling["shell"], fouling["tube"], wall, ratio)
+
+
+def _fouling(f: Fields) -> dict:
+    """Fouling resistances per side (m²·K/W); a side not given is clean."""
+    given = _per_part(f, "fouling", FOULING, required=False, minimum=0.0, maximum=0.02) or {}
+    return {part: given.get(part) or 0.0 for part in PARTS}
 
 
 def _tube_wall(f: Fields):

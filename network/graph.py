@@ -184,23 +184,24 @@ def solve_flows(net: Network):
     _check_flow_balance(net, flow, sources)
     net.flow = flow
     net.makeup = makeup
-    net.fluids = [_segment_fluid(net.case, sources, row) for row in makeup]
+    net.fluids = [segment_fluid(net.case, sources, row) for row in makeup]
 
 
-def _segment_fluid(case: Case, sources, makeup_row):
-    """The fluid of a segment: its supplies' fluids blended by mass (a segment without flow takes
-    the first supply's fluid; with no flow its properties never enter a balance)."""
-    by_fluid: dict[str, float] = {}
-    for source, flow in zip(sources, makeup_row):
-        if flow > 0.0:
-            name = case.streams[source]["fluid"]
-            by_fluid[name] = by_fluid.get(name, 0.0) + flow
-    if not by_fluid:
-        return case.fluids[case.streams[sources[0]]["fluid"]]
-    if len(by_fluid) == 1:
-        return case.fluids[next(iter(by_fluid))]
-    total = sum(by_fluid.values())
-    return Blend([case.fluids[n] for n in by_fluid], [v / total for v in by_fluid.values()])
+def segment_fluid(case: Case, sources, makeup):
+    """The fluid of a segment: its supplies' fluids blended by mass. ``makeup`` holds the
+    segment's flow from each supply on its last axis (a row, or one row per scenario). A segment
+    without flow takes the first supply's fluid: with no flow its properties enter no balance."""
+    makeup = np.asarray(makeup, dtype=float)
+    by_fluid: dict = {}
+    for j, source in enumerate(sources):
+        name = case.streams[source]["fluid"]
+        by_fluid[name] = by_fluid.get(name, 0.0) + makeup[..., j]
+    carried = {k: v for k, v in by_fluid.items() if np.any(v > 0.0)}
+    if len(carried) <= 1:
+        return case.fluids[next(iter(carried))] if carried else case.fluids[case.streams[sources[0]]["fluid"]]
+    total = sum(carried.values())
+    safe = np.where(total > 0.0, total, 1.0)
+    return Blend([case.fluids[k] for k in carried], [v / safe for v in carried.values()])
 
 
 def check_properties(net: Network):

@@ -16,6 +16,7 @@ from scipy.optimize import brentq
 
 from hxtrain.network import CaseError, load_case, without_fouling
 from hxtrain.network.batch import check_values, is_batchable
+from hxtrain.network.changes import value_changes
 from hxtrain.network.study import Study
 
 from .batch import simulate_batch
@@ -92,22 +93,12 @@ def compare(study: Study) -> Comparison:
 
 
 def adjust_changes(study: Study, path: str, value: float, where=()) -> list:
-    """Changes setting ``path`` to ``value``; a splitter branch fraction rescales the other
-    branches so that the fractions still sum to one."""
-    parts = path.split(".")
-    if len(parts) == 5 and parts[0] == "splitters" and parts[2] == "branches" and parts[4] == "fraction":
-        branches = ((study.base.data.get("splitters") or {}).get(parts[1]) or {}).get("branches") or {}
-        if parts[3] not in branches:
-            raise study.error(where, f"no branch '{parts[3]}' of splitter '{parts[1]}'")
-        others = {b: study.base_value(f"splitters.{parts[1]}.branches.{b}.fraction", where)
-                  for b in branches if b != parts[3]}
-        rest = sum(others.values())
-        changes = [{"set": path, "to": float(value)}]
-        for branch, fraction in others.items():
-            share = fraction / rest if rest > 0 else 1.0 / len(others)
-            changes.append({"set": f"splitters.{parts[1]}.branches.{branch}.fraction", "to": (1.0 - value) * share})
-        return changes
-    return [{"set": path, "to": float(value)}]
+    """Changes setting ``path`` to ``value`` in the study's base case; a splitter branch fraction
+    rescales the other branches so that the fractions still sum to one."""
+    try:
+        return value_changes(study.base.data, path, value, where)
+    except CaseError as exc:
+        raise study.error(exc.path or where, exc.message) from None
 
 
 @dataclass
