@@ -113,20 +113,35 @@ def _batch_flows(net: Network, batch, fractions):
     sources = [n for n, u in net.units.items() if not u.inlets]
     n = len(net.segments)
     supplies = np.stack([np.broadcast_to(np.asarray(net.units[s].flow, float), (batch,)) for s in sources], axis=1)
-    matrix = np.broadcast_to(np.eye(n), (batch, n, n)).copy()
+    rows = batch if fractions else 1  # one topology and fixed splits: one matrix serves all
+    matrix = np.broadcast_to(np.eye(n), (rows, n, n)).copy()
     unit_supply = np.zeros((n, len(sources)))
     for name, unit in net.units.items():
         coefficients = fractions[name][:, :, None] if name in fractions else np.asarray(unit.flow_coefficients())[None]
         for o, seg_out in enumerate(net.outlets[name]):
             for i, seg_in in enumerate(net.inlets[name]):
-                matrix[:, seg_out, seg_in] -= np.broadcast_to(coefficients[:, o, i], (batch,))
+                matrix[:, seg_out, seg_in] -= np.broadcast_to(coefficients[:, o, i], (rows,))
         if not unit.inlets:
             unit_supply[net.outlets[name][0], sources.index(name)] = 1.0
     if fractions:
         response = np.linalg.solve(matrix, np.broadcast_to(unit_supply, (batch, n, len(sources))))
     else:  # one topology, one response: solve once
         response = np.broadcast_to(np.linalg.solve(matrix[0], unit_supply), (batch, n, len(sources)))
-    makeup = response * supplies[:, None, :]
+    # flow of each segment from each supply, (batch, segments, supplies), made only as a view
+    makeup = response * supplies[:, None, :] if fractions else _ScaledRows(response[0], supplies)
     net.makeup = makeup
-    net.flow = makeup.sum(axis=2)
-    net.fluids = [segment_fluid(net.case, sources, makeup[:, s, :]) for s in range(n)]
+    net.flow = np.asfortranarray(np.einsum("bsk,bk->bs", response, supplies) if fractions else supplies @ response[0].T)
+    carried = np.any(response > 0.0, axis=0) & np.any(supplies > 0.0, axis=0)  # (segments, supplies)
+    net.fluids = [segment_fluid(net.case, sources, makeup[:, s, :], carried[s]) for s in range(n)]
+
+
+class _ScaledRows:
+    """``response[None] * supplies[:, None, :]`` indexed one segment at a time without building
+    the (batch, segments, supplies) array: one topology's response, each scenario's supplies."""
+
+    def __init__(self, response, supplies):
+        self.response, self.supplies = response, supplies
+
+    def __getitem__(self, index):
+        _, segment, _ = index
+        return self.supplies * self.response[segment]

@@ -203,24 +203,9 @@ def _read_pressure_drop(f: Fields, spec: ExchangerSpec, limits):
 
 def _drop_model(f: Fields, spec, part, reference):
     if reference is None:
-        b = spec.thermal.bundle
-        if part == "tube":
-            return lambda m, t, fluid: hydraulics.tube_side_pressure_drop(
-                m, b.tubes, b.tube_passes, b.tube_inner_diameter, b.tube_length, fluid.density(t), fluid.viscosity(t))
-        return lambda m, t, fluid: hydraulics.kern_shell_pressure_drop(
-            m, b.shell_inner_diameter, b.baffle_spacing, b.baffles, b.tube_pitch, b.tube_outer_diameter,
-            fluid.density(t), fluid.viscosity(t), b.layout)
+        return hydraulics.BundleDrop(spec.thermal.bundle, part)
     film = getattr(spec.thermal, part, None)
     if film is None:
         raise f.error("pressure_drop", "a reference pressure drop needs 'reference_flow' (give U by 'clean_u' or "
                                        "'film' with reference flows)")
-    per_shell = reference / spec.shells
-    t_ref = film.reference_temperature
-
-    def model(m, t, fluid, per_shell=per_shell, m_ref=film.reference_flow, t_ref=t_ref):
-        rho, rho_ref = fluid.density(t), (fluid.density(t_ref) if t_ref is not None else None)
-        if rho is None or rho_ref is None:
-            rho = rho_ref = 1.0
-        return hydraulics.scaled_pressure_drop(per_shell, m, m_ref, 1.8, rho, rho_ref)
-
-    return model
+    return hydraulics.ScaledDrop(reference / spec.shells, film.reference_flow, film.reference_temperature)

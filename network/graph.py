@@ -58,7 +58,8 @@ class Network:
     flow: np.ndarray
     """Mass flow of each segment, kg/s."""
     makeup: np.ndarray
-    """(segments, supply streams) mass flow of each segment coming from each supply stream."""
+    """(segments, supply streams) mass flow of each segment coming from each supply stream (in a
+    batch: indexed [scenario, segment, supply])."""
     fluids: list
     """Fluid model of each segment (a blend where supplies of different fluids have mixed)."""
 
@@ -187,10 +188,15 @@ def solve_flows(net: Network):
     net.fluids = [segment_fluid(net.case, sources, row) for row in makeup]
 
 
-def segment_fluid(case: Case, sources, makeup):
+def segment_fluid(case: Case, sources, makeup, carried=None):
     """The fluid of a segment: its supplies' fluids blended by mass. ``makeup`` holds the
-    segment's flow from each supply on its last axis (a row, or one row per scenario). A segment
-    without flow takes the first supply's fluid: with no flow its properties enter no balance."""
+    segment's flow from each supply on its last axis (a row, or one row per scenario); ``carried``
+    optionally says already which supplies reach the segment in any scenario. A segment without
+    flow takes the first supply's fluid: with no flow its properties enter no balance."""
+    if carried is not None:
+        names = {case.streams[source]["fluid"] for source, reaches in zip(sources, carried) if reaches}
+        if len(names) <= 1:  # one fluid (or none): no blend, no per-scenario arithmetic
+            return case.fluids[names.pop() if names else case.streams[sources[0]]["fluid"]]
     makeup = np.asarray(makeup, dtype=float)
     by_fluid: dict = {}
     for j, source in enumerate(sources):

@@ -2,18 +2,23 @@
 
 Stages, switched for the whole batch when progress stops:
 
-1. Wegstein's bounded secant acceleration, per tear variable (Wegstein 1958, Comm. ACM 1(6)):
+1. Quasi-Newton on the residual F(x) = g(x) - x: a forward-difference Jacobian (one extra sweep
+   per tear), then Broyden's rank-one update after every step (Broyden 1965, Math. Comp. 19), a
+   fresh Jacobian whenever a step gains less than :data:`REFRESH_RATIO`, and step halving where a
+   full step does not lower the residual. With constant cp and fixed UA the sweep is affine in
+   the tears and the first full step is the answer; with cp(T) and U(T) it is nearly so. Used
+   first when a block has at most :data:`NEWTON_FIRST_TEARS` tears (its Jacobian is cheap).
+2. Wegstein's bounded secant acceleration, per tear variable (Wegstein 1958, Comm. ACM 1(6)):
    ``s = Δg/Δx``, ``q = s/(s - 1)`` bounded to [Q_MIN, Q_MAX], ``x' = q·x + (1 - q)·g(x)``.
    Negative q accelerates a monotone approach; positive q damps an oscillation. The bounds are
-   common practice, not from a source.
-2. Damped direct substitution, ``x' = x + DAMPING·(g(x) - x)``, when Wegstein stalls or diverges.
-3. Newton's method on the residual g(x) - x with a forward-difference Jacobian (all scenarios at
-   once, one extra sweep per tear) and step halving: the quasi-Newton fallback for strongly
-   coupled blocks.
+   common practice, not from a source. Used first on blocks with many tears.
+3. Damped direct substitution, ``x' = x + DAMPING·(g(x) - x)``, when Wegstein stalls or diverges.
+4. The quasi-Newton stage again, as the last resort for strongly coupled blocks.
 
 Every scenario's convergence is tracked on its own; converged scenarios stop moving. After
 convergence one Newton step polishes the answer (kept only if it lowers the residual), so that
-energy balances close to round-off rather than to the tolerance.
+energy balances close to round-off rather than to the tolerance; scenarios already far inside
+the tolerance are left as they are.
 """
 
 from __future__ import annotations
@@ -27,6 +32,17 @@ DAMPING = 0.5
 STALL_WINDOW = 15
 DAMPED_LIMIT = 40
 MAX_POLISH_TEARS = 64
+NEWTON_FIRST_TEARS = 16
+REFRESH_RATIO = 0.25
+HALVINGS = 6
+FD_STEP = 1e-2
+"""Relative forward-difference step. Large enough that on an affine sweep (constant cp, fixed
+UA) the Jacobian is exact to about 1e-13, so the first step lands on the answer; the curvature
+of a real sweep over a few kelvin only slows the quasi-Newton rate a little."""
+POLISH_BELOW = 1e-4
+"""A converged scenario whose next Newton step would move it less than this fraction of the
+tolerance is not polished (the step is the error estimate: it includes the amplification by a
+strong recycle, which the residual alone does not show)."""
 
 
 @dataclass
@@ -40,50 +56,75 @@ class TearResult:
     history: list = field(default_factory=list)
     """Per iteration, the largest |g(x) - x| of each tear over the scenarios still iterating."""
     methods: list = field(default_factory=list)
+    evaluations: int = 0
+    """Sweeps of the block (evaluations of g), Jacobian columns and step halvings included."""
 
     @property
     def success(self) -> bool:
         return bool(np.all(self.converged))
 
 
+class _Counted:
+    """g with a count of its evaluations."""
+
+    def __init__(self, evaluate):
+        self.evaluate, self.count = evaluate, 0
+
+    def __call__(self, x):
+        self.count += 1
+        return self.evaluate(x)
+
+
 def converge_tears(evaluate, x0, tolerance, max_iterations) -> TearResult:
     """Solve x = evaluate(x) for x of shape (batch, tears); see the module notes for the method."""
+    evaluate = _Counted(evaluate)
     x = np.array(x0, dtype=float)
     g = evaluate(x)
     residual = g - x
     active = ~_small(residual, tolerance)
-    history, methods = [], ["wegstein"]
+    stages = ["newton", "wegstein", "damped", "newton"] if x.shape[1] <= NEWTON_FIRST_TEARS else ["wegstein", "damped", "newton"]
+    history, methods = [], [stages[0]]
+    newton = _QuasiNewton()
     x_prev = g_prev = None
-    stage, stage_start, best = "wegstein", 0, np.inf
+    stage_start, best = 0, np.inf
     iteration = 0
     while np.any(active) and iteration < max_iterations:
         iteration += 1
         size = np.max(np.abs(residual[active]))
         history.append(np.max(np.abs(residual[active]), axis=0))
         best = min(best, size)
-        stalled = iteration - stage_start > STALL_WINDOW and size > 0.5 * np.max(history[-STALL_WINDOW])
-        diverging = size > 1e3 * best and np.isfinite(best)
-        if stage == "wegstein" and (stalled or diverging or not np.isfinite(size)):
-            stage, stage_start = "damped", iteration
-        elif stage == "damped" and (iteration - stage_start > DAMPED_LIMIT or (stalled and iteration - stage_start > STALL_WINDOW)):
-            stage, stage_start = "newton", iteration
-        if methods[-1] != stage:
-            methods.append(stage)
-        if stage == "wegstein":
+        if len(methods) < len(stages) and _stuck(methods[-1], iteration - stage_start, size, best, history, newton):
+            methods.append(stages[len(methods)])
+            stage_start, newton = iteration, _QuasiNewton()
+        stage = methods[-1]
+        g_new = None
+        if stage == "newton":
+            x_new, g_new = newton.step(evaluate, x, g, residual, active)
+        elif stage == "wegstein":
             x_new = _wegstein_step(x, g, x_prev, g_prev)
-        elif stage == "damped":
-            x_new = x + DAMPING * residual
         else:
-            x_new = _newton_step(evaluate, x, g, residual, active)
+            x_new = x + DAMPING * residual
         x_prev, g_prev = x, g
         x = np.where(active[:, None], x_new, x)
-        g = evaluate(x)
+        g = evaluate(x) if g_new is None else np.where(active[:, None], g_new, g)
         residual = g - x
         active = active & ~_small(residual, tolerance)
     converged = _small(residual, tolerance)
     if np.any(converged) and x.shape[1] <= MAX_POLISH_TEARS:
-        x, g, residual = _polish(evaluate, x, g, residual, converged)
-    return TearResult(x, converged, iteration, np.abs(residual), history, methods)
+        x, g, residual = _polish(evaluate, x, g, residual, converged, newton.matrix, POLISH_BELOW * tolerance)
+    return TearResult(x, converged, iteration, np.abs(residual), history, methods, evaluations=evaluate.count)
+
+
+def _stuck(stage, steps, size, best, history, newton):
+    """Whether the current stage has stopped making progress."""
+    if not np.isfinite(size) or (size > 1e3 * best and np.isfinite(best)):
+        return True
+    stalled = steps > STALL_WINDOW and size > 0.5 * np.max(history[-STALL_WINDOW])
+    if stage == "newton":
+        return newton.failed or stalled
+    if stage == "damped":
+        return steps > DAMPED_LIMIT or (stalled and steps > STALL_WINDOW)
+    return stalled
 
 
 def _small(residual, tolerance):
@@ -102,43 +143,75 @@ def _wegstein_step(x, g, x_prev, g_prev):
     return q * x + (1.0 - q) * g
 
 
-def _jacobian(evaluate, x, g):
-    """d g / d x by forward differences, shape (batch, tears, tears)."""
+def _newton_matrix(evaluate, x, g):
+    """I - dg/dx by forward differences, shape (batch, tears, tears): the Jacobian of -F."""
     n = x.shape[1]
     jac = np.empty(x.shape + (n,))
     for j in range(n):
-        step = 1e-6 * np.maximum(1.0, np.abs(x[:, j]))
+        step = FD_STEP * np.maximum(1.0, np.abs(x[:, j]))
         shifted = x.copy()
         shifted[:, j] += step
         jac[:, :, j] = (evaluate(shifted) - g) / step[:, None]
-    return jac
+    return np.eye(n)[None] - jac
 
 
-def _newton_direction(evaluate, x, g, residual):
-    system = np.eye(x.shape[1])[None] - _jacobian(evaluate, x, g)
+def _solve(matrix, residual):
+    """The Newton direction d with matrix·d = residual, per scenario; a singular matrix gets the
+    least-squares (pseudo-inverse) direction instead of stopping the batch."""
     try:
-        return np.linalg.solve(system, residual[..., None])[..., 0]
+        return np.linalg.solve(matrix, residual[..., None])[..., 0]
     except np.linalg.LinAlgError:
-        return DAMPING * residual  # singular Jacobian: damped substitution for this step
+        return (np.linalg.pinv(matrix) @ residual[..., None])[..., 0]
 
 
-def _newton_step(evaluate, x, g, residual, active):
-    direction = _newton_direction(evaluate, x, g, residual)
-    size = np.max(np.abs(residual), axis=1)
-    step = np.ones(x.shape[0])
-    for _ in range(6):  # halve the step where it does not lower the residual
-        trial = x + step[:, None] * direction
-        worse = np.max(np.abs(evaluate(trial) - trial), axis=1) >= size
-        worse &= active
-        if not np.any(worse):
-            break
-        step = np.where(worse, step / 2.0, step)
-    return x + step[:, None] * direction
+class _QuasiNewton:
+    """Newton steps with a Broyden-updated matrix and step halving; ``failed`` once a step from a
+    fresh Jacobian lowers no scenario's residual."""
+
+    def __init__(self):
+        self.matrix, self.fresh, self.failed, self.refresh = None, False, False, False
+
+    def step(self, evaluate, x, g, residual, active):
+        """(x', g(x')) after one step; scenarios no longer active stay where they are."""
+        if self.matrix is None or (self.refresh and not self.fresh):
+            self.matrix, self.fresh = _newton_matrix(evaluate, x, g), True
+        direction = _solve(self.matrix, residual)
+        size = np.max(np.abs(residual), axis=1)
+        step = np.ones(x.shape[0])
+        for _ in range(HALVINGS + 1):
+            trial = np.where(active[:, None], x + step[:, None] * direction, x)
+            g_trial = evaluate(trial)
+            trial_size = np.max(np.abs(g_trial - trial), axis=1)
+            worse = active & ~(trial_size < size)
+            if not np.any(worse):
+                break
+            step = np.where(worse, step / 2.0, step)
+        gained = active & (trial_size < size)
+        self.failed = self.fresh and not np.any(gained)
+        self.refresh = bool(np.any(active & (trial_size > REFRESH_RATIO * size)))
+        self._broyden(trial - x, (g_trial - trial) - residual, gained)
+        self.fresh = False
+        return trial, g_trial
+
+    def _broyden(self, s, y, where):
+        """Broyden's update of M ≈ I - dg/dx from the step s and the change y of F = g - x."""
+        ss = np.einsum("bi,bi->b", s, s)
+        use = where & (ss > 0.0)
+        correction = (y + np.einsum("bij,bj->bi", self.matrix, s)) / np.where(use, ss, 1.0)[:, None]
+        self.matrix = self.matrix - np.where(use[:, None, None], correction[:, :, None] * s[:, None, :], 0.0)
 
 
-def _polish(evaluate, x, g, residual, converged):
-    trial = x + _newton_direction(evaluate, x, g, residual)
-    trial = np.where(converged[:, None], trial, x)
+def _polish(evaluate, x, g, residual, converged, matrix, negligible):
+    """One Newton step from the converged x, kept where it lowers the residual. With a Newton
+    matrix at hand the step is known before any sweep: scenarios whose step is below
+    ``negligible`` (K) are already that close to the answer and are left alone; without one (the
+    Wegstein path) the Jacobian is made and every converged scenario is polished."""
+    known = matrix is not None
+    direction = _solve(matrix if known else _newton_matrix(evaluate, x, g), residual)
+    needed = converged & (np.max(np.abs(direction), axis=1) > negligible) if known else converged
+    if not np.any(needed):
+        return x, g, residual
+    trial = np.where(needed[:, None], x + direction, x)
     g_trial = evaluate(trial)
     r_trial = g_trial - trial
     better = np.max(np.abs(r_trial), axis=1) < np.max(np.abs(residual), axis=1)

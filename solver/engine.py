@@ -82,7 +82,8 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None, ra
     in ``TemperatureSolution.converged`` (their temperatures must not be reported)."""
     plan = plan if plan is not None else plan_calculation(net.graph)
     flow = np.broadcast_to(net.flow, (batch, len(net.segments)))  # (segments,) or per scenario
-    temperature = np.full((batch, len(net.segments)), np.nan)
+    # column-major: a unit reads and writes whole segments, each then contiguous over the batch
+    temperature = np.full((batch, len(net.segments)), np.nan, order="F")
     outcomes = []
     converged = np.ones(batch, bool)
     guess = initial_guess(net, batch)
@@ -93,18 +94,22 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None, ra
             continue
         slots = {seg: j for j, seg in enumerate(block.tears)}
 
-        def evaluate(x, block=block, slots=slots):
-            work = temperature.copy()
-            work[:, block.tears] = x
-            return _sweep(net, block.units, work, flow, slots)
+        last = {}
+
+        # every evaluation rewrites all of the block's segments from the tears and the blocks
+        # before it, so it may work in place; ``last`` says at which tears the array now is
+        def evaluate(x, block=block, slots=slots, last=last):
+            temperature[:, block.tears] = x
+            last["x"] = x
+            return _sweep(net, block.units, temperature, flow, slots)
 
         x0 = np.repeat(guess[:, None], len(block.tears), axis=1)
         result = converge_tears(evaluate, x0, tolerance, max_iterations)
         if not result.success and raise_on_failure:
             raise ConvergenceError(_failure_message(net, block, result, tolerance), _diagnostics(net, block, result))
         converged &= result.converged
-        temperature[:, block.tears] = result.x
-        _sweep(net, block.units, temperature, flow, {seg: j for j, seg in enumerate(block.tears)})
+        if not np.array_equal(last["x"], result.x):
+            evaluate(result.x)
         outcomes.append(BlockOutcome(block, result))
     return TemperatureSolution(temperature, outcomes, converged)
 

@@ -327,6 +327,22 @@ def test_version(capsys):
     assert out.startswith("hxtrain ")
 
 
+def test_benchmark_reports_both_forms_of_the_crude_train(capsys):
+    """A small run (not a timing): both forms, three rates each, agreement between the paths."""
+    code, out, err = run_inprocess(capsys, "benchmark", "--scenarios", 8, "--loop", 1, "--workers", 2)
+    assert code == 0, err
+    assert "as shipped: cp(T), film U" in out and "fixed properties: constant cp, fixed UA" in out
+    assert out.count("scenario-solves/s") == 6 and out.count("all converged: True") == 2
+    differences = [float(v) for v in re.findall(r"largest temperature difference from the batch: (\S+) K", out)]
+    assert len(differences) == 2 and max(differences) <= 1e-9
+
+
+@pytest.mark.parametrize("option", [("--scenarios", 1), ("--loop", 0), ("--workers", 0)])
+def test_benchmark_bad_options_are_exit_2(option, capsys):
+    code, out, err = run_inprocess(capsys, "benchmark", *option)
+    assert code == 2 and "Traceback" not in err
+
+
 # ----------------------------------------------------------------------------- atomic writes
 
 

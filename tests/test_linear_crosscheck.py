@@ -66,11 +66,11 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-import yaml
 from ht.hx import effectiveness_from_NTU, temperature_effectiveness_basic, temperature_effectiveness_TEMA_E
 
 from hxtrain.network import case_from_mapping, load_case
 from hxtrain.solver import simulate
+from hxtrain.solver.benchmark import fixed_property_variant
 
 from network_generator import RandomChooser, generate_case, unit_count
 
@@ -310,28 +310,6 @@ def disagreement(case, result=None):
 # --------------------------------------------------------------------------------------------
 # Tests
 # --------------------------------------------------------------------------------------------
-THERMAL_KEYS_KEPT = ("arrangement", "shells", "shells_in_parallel", "tube_passes", "shell_side", "mixed_side",
-                     "bypass", "design_temperature", "maximum_flow", "description")
-
-
-def linear_variant(path):
-    """The demo case with constant cp and fixed UA, for a demo whose own data are not linear
-    (temperature-dependent cp, U scaled with flow): each fluid gets the constant cp of its model at
-    the middle of its valid range (150 °C without one); each exchanger keeps its arrangement,
-    shells, passes, sides, bypass and limits, and gets as fixed ``ua`` the UA hxtrain reports for
-    it on the original case. Topology, flows, splits, recycles and heaters are unchanged."""
-    case = load_case(path)
-    original = simulate(case)
-    data = yaml.safe_load(Path(path).read_text(encoding="utf-8"))
-    for name in data["fluids"]:
-        model = case.fluids[name]
-        low, high = getattr(model, "valid_range", None) or (100.0, 200.0)
-        data["fluids"][name] = {"cp": float(np.asarray(model.cp(0.5 * (low + high))))}
-    for tag, entry in data["exchangers"].items():
-        kept = {k: v for k, v in entry.items() if k in THERMAL_KEYS_KEPT}
-        kept["ua"] = float(original.units.loc[tag, "ua_kw_per_k"])
-        data["exchangers"][tag] = kept
-    return case_from_mapping(data, f"{path} (constant cp, fixed UA)")
 
 
 @pytest.mark.parametrize("demo", DEMOS)
@@ -339,14 +317,16 @@ def test_demo_case_matches_direct_linear_solve(demo):
     """Demo case: every segment temperature within 1e-6 K of the direct solve of A·T = b
     (effectiveness from ht 1.2; shells in series after Shah & Sekulić 2003). A demo whose data
     are not linear (cp varying with temperature, U with flow) is checked as its constant-cp,
-    fixed-UA variant (:func:`linear_variant`); the printout says which."""
+    fixed-UA variant (:func:`hxtrain.solver.benchmark.fixed_property_variant`: each fluid's cp at
+    the middle of its range, each exchanger's UA from the original solution; only the input is
+    made by hxtrain, the solution it is checked against is this module's); the printout says which."""
     path = CASES / f"{demo}.yaml"
     case = load_case(path)
     try:
         linear_solution(case)
         what = demo
     except NotLinear as exc:
-        case = linear_variant(path)
+        case = fixed_property_variant(path)
         what = f"{demo} (constant-cp fixed-UA variant: {exc})"
     worst = disagreement(case)
     MEASURED[what] = worst

@@ -117,14 +117,18 @@ def test_recycle_flows_and_convergence(recycle):
 
 
 def test_non_convergence_is_an_error_naming_the_tears():
+    """One iteration is not enough for the crude demo (cp and U vary with temperature, so the
+    first quasi-Newton step is not the answer)."""
+    case = load_case(demo_case_path("crude_preheat"))
+    case.settings.max_iterations = 1
     with pytest.raises(ConvergenceError) as info:
-        simulate(coupled_case(max_iterations=2, ua=1e4, recycle=0.95))
+        simulate(case)
     text = str(info.value)
     assert "did not converge" in text and "->" in text and "No results are reported" in text
     assert info.value.diagnostics["history"]
 
 
-def test_wegstein_solves_a_linear_map_and_falls_back_when_it_stalls():
+def test_a_linear_map_is_solved():
     a = np.array([[0.2, 0.7], [0.75, 0.2]])  # spectral radius 0.92: slow for plain substitution
     b = np.array([10.0, -4.0])
     exact = np.linalg.solve(np.eye(2) - a, b)

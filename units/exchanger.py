@@ -134,10 +134,11 @@ def rate_exchanger(
     -------
     ExchangerRating
     """
-    t_hot_in, t_cold_in, c_hot_total, c_cold_total, ua, bypass_hot, bypass_cold = as_arrays(
-        t_hot_in, t_cold_in, c_hot, c_cold, ua, bypass_hot, bypass_cold)
-    c_hot = c_hot_total * (1.0 - bypass_hot)
-    c_cold = c_cold_total * (1.0 - bypass_cold)
+    t_hot_in, t_cold_in, c_hot, c_cold, ua = as_arrays(t_hot_in, t_cold_in, c_hot, c_cold, ua)
+    # most exchangers have no bypass: skip the arithmetic that would multiply by one
+    bypass_hot, bypass_cold = np.asarray(bypass_hot, dtype=float), np.asarray(bypass_cold, dtype=float)
+    c_hot = c_hot * (1.0 - bypass_hot) if bypass_hot.any() else c_hot
+    c_cold = c_cold * (1.0 - bypass_cold) if bypass_cold.any() else c_cold
 
     hot_is_min = c_hot <= c_cold
     c_min = np.minimum(c_hot, c_cold)
@@ -160,8 +161,8 @@ def rate_exchanger(
 
     t_hot_x = _outlet(t_hot_in, t_cold_in, c_hot, duty, ua)
     t_cold_x = _outlet(t_cold_in, t_hot_in, c_cold, -duty, ua)
-    t_hot_out = (1.0 - bypass_hot) * t_hot_x + bypass_hot * t_hot_in
-    t_cold_out = (1.0 - bypass_cold) * t_cold_x + bypass_cold * t_cold_in
+    t_hot_out = (1.0 - bypass_hot) * t_hot_x + bypass_hot * t_hot_in if bypass_hot.any() else t_hot_x
+    t_cold_out = (1.0 - bypass_cold) * t_cold_x + bypass_cold * t_cold_in if bypass_cold.any() else t_cold_x
     if not details:
         return ExchangerRating(t_hot_out, t_cold_out, t_hot_x, t_cold_x, duty, *([None] * 10))
 

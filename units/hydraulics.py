@@ -13,13 +13,15 @@ References
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from .arrays import as_arrays
-
 from .films import friction_factor_smooth
 
-__all__ = ["scaled_pressure_drop", "tube_side_pressure_drop", "kern_shell_friction_factor", "kern_shell_pressure_drop"]
+__all__ = ["scaled_pressure_drop", "tube_side_pressure_drop", "kern_shell_friction_factor", "kern_shell_pressure_drop",
+           "ScaledDrop", "BundleDrop"]
 
 
 
@@ -90,3 +92,39 @@ def kern_shell_pressure_drop(mass_flow, shell_diameter, baffle_spacing, baffles,
     re = np.maximum(g * de / mu, 1.0)
     f = kern_shell_friction_factor(re)
     return f * g**2 * ds * (nb + 1.0) / (2.0 * rho * de)
+
+
+@dataclass(frozen=True)
+class ScaledDrop:
+    """One shell's pressure drop scaled from a reference (:func:`scaled_pressure_drop`), as a
+    callable (mass flow through one shell kg/s, mean temperature °C, fluid) -> Pa. The density
+    correction applies where the fluid has a density; otherwise it is 1."""
+
+    reference_drop: float
+    reference_flow: float
+    reference_temperature: float | None = None
+
+    def __call__(self, mass_flow, temperature, fluid):
+        rho = fluid.density(temperature)
+        rho_ref = fluid.density(self.reference_temperature) if self.reference_temperature is not None else None
+        if rho is None or rho_ref is None:
+            rho = rho_ref = 1.0
+        return scaled_pressure_drop(self.reference_drop, mass_flow, self.reference_flow, 1.8, rho, rho_ref)
+
+
+@dataclass(frozen=True)
+class BundleDrop:
+    """One shell's pressure drop on the ``side`` ("tube" or "shell") of a tube bundle (any object
+    with the :class:`hxtrain.units.thermal.TubeBundle` fields), as a callable (mass flow through
+    one shell kg/s, mean temperature °C, fluid) -> Pa."""
+
+    bundle: object
+    side: str
+
+    def __call__(self, mass_flow, temperature, fluid):
+        b, rho, mu = self.bundle, fluid.density(temperature), fluid.viscosity(temperature)
+        if self.side == "tube":
+            return tube_side_pressure_drop(mass_flow, b.tubes, b.tube_passes, b.tube_inner_diameter, b.tube_length,
+                                           rho, mu)
+        return kern_shell_pressure_drop(mass_flow, b.shell_inner_diameter, b.baffle_spacing, b.baffles, b.tube_pitch,
+                                        b.tube_outer_diameter, rho, mu, b.layout)

@@ -17,6 +17,7 @@ to word messages.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Protocol
 
 import numpy as np
@@ -33,13 +34,25 @@ SEVERITIES = ("limit", "warning", "input")
 
 @dataclass
 class Finding:
-    """One check on one unit over the batch: where it is active and what to say there."""
+    """One check on one unit over the batch: where it is active and what to say there.
+
+    ``messages`` (one text per scenario, empty where inactive) are worded on first use: a batch
+    summary that only counts findings never pays for formatting thousands of texts."""
 
     kind: str
     severity: str
     active: np.ndarray
-    messages: np.ndarray
+    template: str
+    values: dict
     key: str
+
+    @cached_property
+    def messages(self) -> np.ndarray:
+        arrays = {k: np.broadcast_to(np.asarray(v), self.active.shape) for k, v in self.values.items()}
+        messages = np.full(self.active.shape, "", dtype=object)
+        for i in np.flatnonzero(self.active):
+            messages[i] = self.template.format(**{k: v[i] for k, v in arrays.items()})
+        return messages
 
 
 @dataclass
@@ -92,12 +105,7 @@ class UnitModel(Protocol):
 
 def check(kind, severity, active, key, template, **values):
     """A Finding whose message is ``template`` formatted with the values at each active scenario."""
-    active = np.atleast_1d(np.asarray(active, dtype=bool))
-    arrays = {k: np.broadcast_to(np.asarray(v), active.shape) for k, v in values.items()}
-    messages = np.full(active.shape, "", dtype=object)
-    for i in np.flatnonzero(active):
-        messages[i] = template.format(**{k: v[i] for k, v in arrays.items()})
-    return Finding(kind, severity, active, messages, key)
+    return Finding(kind, severity, np.atleast_1d(np.asarray(active, dtype=bool)), template, values, key)
 
 
 def design_temperature_findings(key, sides):

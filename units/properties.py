@@ -127,6 +127,9 @@ class ConstantCp(FluidModel):
     def cp(self, t):
         return np.full(np.shape(t), self.value)
 
+    def mean_cp(self, t1, t2):
+        return np.full(np.broadcast_shapes(np.shape(t1), np.shape(t2)), self.value)
+
     def enthalpy(self, t):
         return self.value * _t(t)
 

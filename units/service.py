@@ -4,7 +4,7 @@ The P–NTU relations (:func:`rate_exchanger`) need constant heat-capacity rates
 In service both depend on the outlet temperatures: cp through the fluids' enthalpy curves, U
 through the film coefficients at the side mean temperatures. This module iterates (successive
 substitution) on the exchanger's outlet temperatures until they change by less than
-:data:`OUTLET_TOLERANCE`:
+:data:`OUTLET_TOLERANCE` times (1 + |T_hot,in|):
 
 * each side's heat-capacity rate is ṁ times the *mean* cp over the side's actual temperature
   range, (h(T_in) - h(T_out)) / (T_in - T_out), so that the P–NTU duty equals the enthalpy
@@ -26,8 +26,10 @@ from .arrays import as_arrays
 from .exchanger import ExchangerRating, rate_exchanger
 from .thermal import Coefficients, FixedCoefficient
 
-OUTLET_TOLERANCE = 1e-10
+OUTLET_TOLERANCE = 1e-12
+"""Passes stop once both outlets move less than this times (1 + |T_hot,in|) in every scenario."""
 MAX_PASSES = 100
+
 
 
 @dataclass

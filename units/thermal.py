@@ -23,12 +23,20 @@ class Coefficients:
     """U and its parts at one operating point, arrays over the batch."""
 
     u_service: np.ndarray
-    u_clean: np.ndarray
+    clean: object
+    """The clean U, or a function giving it: it is worked out on first use of :attr:`u_clean`,
+    since only reports need it, not the iterations."""
     h_shell: np.ndarray | None = None
     h_tube: np.ndarray | None = None
     reynolds_tube: np.ndarray | None = None
     notes: dict = field(default_factory=dict)
     """name -> boolean array: conditions the report flags (e.g. "laminar_tube_side")."""
+
+    @property
+    def u_clean(self) -> np.ndarray:
+        if callable(self.clean):
+            self.clean = self.clean()
+        return self.clean
 
 
 class FixedCoefficient:
@@ -114,10 +122,11 @@ class ScaledFilms:
 
 
 def _combine(model, h_shell, h_tube, reynolds, notes):
-    clean_u = overall_coefficient(h_shell, h_tube, 0.0, 0.0, model.wall, model.diameter_ratio)
     service = overall_coefficient(h_shell, h_tube, model.fouling_shell, model.fouling_tube, model.wall,
                                   model.diameter_ratio)
-    return Coefficients(service, clean_u, h_shell, h_tube, reynolds, notes)
+    wall, ratio = model.wall, model.diameter_ratio
+    return Coefficients(service, lambda: overall_coefficient(h_shell, h_tube, 0.0, 0.0, wall, ratio),
+                        h_shell, h_tube, reynolds, notes)
 
 
 @dataclass
