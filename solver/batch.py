@@ -10,6 +10,7 @@ an answer.
 from __future__ import annotations
 
 import multiprocessing
+import sys
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass
 from pathlib import Path
@@ -70,10 +71,9 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
 
 
 def _process_context():
-    """Fork where the platform has it (the workers inherit the loaded modules: no start-up
-    import); spawn elsewhere."""
-    methods = multiprocessing.get_all_start_methods()
-    return multiprocessing.get_context("fork" if "fork" in methods else "spawn")
+    """Fork on Linux (the workers inherit the loaded modules: no start-up import); spawn
+    elsewhere, where forking a process that has used the system's maths libraries is unsafe."""
+    return multiprocessing.get_context("fork" if sys.platform.startswith("linux") else "spawn")
 
 
 def _solve_batch(case, values, tolerance, max_iterations) -> BatchResult:

@@ -102,12 +102,18 @@ def test_bad_batch_values_are_errors_naming_the_key():
         simulate_batch(path, {"exchangers.E-104.shells": np.array([1.0, 2.0])})
 
 
-def test_a_batch_split_over_processes_equals_one_batch(monkeypatch):
+@pytest.mark.parametrize("start", ["platform default", "spawn"])
+def test_a_batch_split_over_processes_equals_one_batch(start, monkeypatch):
     """``workers=2`` solves two halves in two processes: the same table and temperatures (each
-    scenario converges on its own; the halves differ only in batch-wide stage choices)."""
+    scenario converges on its own; the halves differ only in batch-wide stage choices). Spawned
+    workers (the start method off Linux) import everything afresh."""
+    import multiprocessing
+
     import hxtrain.solver.batch as batch_module
 
     monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 10)
+    if start == "spawn":
+        monkeypatch.setattr(batch_module, "_process_context", lambda: multiprocessing.get_context("spawn"))
     path = demo_case_path("crude_preheat")
     values = {"streams.crude.flow": np.linspace(70.0, 110.0, 30), "exchangers.E-110.bypass.cold": np.linspace(0, 0.3, 30)}
     whole = simulate_batch(path, values)
