@@ -131,7 +131,8 @@ def _batch_flows(net: Network, batch, fractions):
     makeup = response * supplies[:, None, :] if fractions else _ScaledRows(response[0], supplies)
     net.makeup = makeup
     net.flow = np.asfortranarray(np.einsum("bsk,bk->bs", response, supplies) if fractions else supplies @ response[0].T)
-    carried = np.any(response > 0.0, axis=0) & np.any(supplies > 0.0, axis=0)  # (segments, supplies)
+    reaches = np.any(response > 0.0, axis=0) if fractions else response[0] > 0.0
+    carried = reaches & np.any(supplies > 0.0, axis=0)  # (segments, supplies): in any scenario
     net.fluids = [segment_fluid(net.case, sources, makeup[:, s, :], carried[s]) for s in range(n)]
 
 
