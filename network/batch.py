@@ -123,26 +123,8 @@ def _batch_flows(net: Network, batch, fractions):
                 matrix[:, seg_out, seg_in] -= np.broadcast_to(coefficients[:, o, i], (rows,))
         if not unit.inlets:
             unit_supply[net.outlets[name][0], sources.index(name)] = 1.0
-    if fractions:
-        response = np.linalg.solve(matrix, np.broadcast_to(unit_supply, (batch, n, len(sources))))
-    else:  # one topology, one response: solve once
-        response = np.broadcast_to(np.linalg.solve(matrix[0], unit_supply), (batch, n, len(sources)))
-    # flow of each segment from each supply, (batch, segments, supplies), made only as a view
-    makeup = response * supplies[:, None, :] if fractions else _ScaledRows(response[0], supplies)
-    net.makeup = makeup
-    net.flow = np.asfortranarray(np.einsum("bsk,bk->bs", response, supplies) if fractions else supplies @ response[0].T)
-    reaches = np.any(response > 0.0, axis=0) if fractions else response[0] > 0.0
-    carried = reaches & np.any(supplies > 0.0, axis=0)  # (segments, supplies): in any scenario
-    net.fluids = [segment_fluid(net.case, sources, makeup[:, s, :], carried[s]) for s in range(n)]
-
-
-class _ScaledRows:
-    """``response[None] * supplies[:, None, :]`` indexed one segment at a time without building
-    the (batch, segments, supplies) array: one topology's response, each scenario's supplies."""
-
-    def __init__(self, response, supplies):
-        self.response, self.supplies = response, supplies
-
-    def __getitem__(self, index):
-        _, segment, _ = index
-        return self.supplies * self.response[segment]
+    # (rows, segments, supplies): each segment's share of each supply; rows broadcast over the batch
+    response = np.linalg.solve(matrix, np.broadcast_to(unit_supply, (rows, n, len(sources))))
+    net.flow = np.asfortranarray(np.matmul(response, supplies[:, :, None])[..., 0])
+    carried = np.any(response > 0.0, axis=0) & np.any(supplies > 0.0, axis=0)  # (segments, supplies): in any scenario
+    net.fluids = [segment_fluid(net.case, sources, response[:, s, :] * supplies, carried[s]) for s in range(n)]

@@ -57,9 +57,6 @@ class Network:
     outlets: dict[str, list[int]]
     flow: np.ndarray
     """Mass flow of each segment, kg/s."""
-    makeup: np.ndarray
-    """(segments, supply streams) mass flow of each segment coming from each supply stream (in a
-    batch: indexed [scenario, segment, supply])."""
     fluids: list
     """Fluid model of each segment (a blend where supplies of different fluids have mixed)."""
 
@@ -79,7 +76,7 @@ def build_network(case: Case) -> Network:
     for seg in segments:
         inlets[seg.target][units[seg.target].inlets.index(seg.target_port)] = seg.index
         outlets[seg.source][units[seg.source].outlets.index(seg.source_port)] = seg.index
-    net = Network(case, graph, units, segments, inlets, outlets, None, None, None)
+    net = Network(case, graph, units, segments, inlets, outlets, None, None)
     check_way_out(net)
     solve_flows(net)
     check_properties(net)
@@ -184,7 +181,6 @@ def solve_flows(net: Network):
     flow = makeup.sum(axis=1)
     _check_flow_balance(net, flow, sources)
     net.flow = flow
-    net.makeup = makeup
     net.fluids = [segment_fluid(net.case, sources, row) for row in makeup]
 
 

@@ -17,3 +17,9 @@ def as_arrays(*values):
     # filling from a scalar is several times cheaper than a general broadcast view
     return [a if a.shape == shape else (np.full(shape, a.item()) if a.ndim == 0 else np.broadcast_to(a, shape))
             for a in arrays]
+
+
+def as_floats(*values):
+    """Float64 arrays of the values, each keeping its own shape: for pure arithmetic, where numpy
+    broadcasts anyway and filling scalars out to the batch shape would only cost time."""
+    return [np.asarray(v, dtype=float) for v in values]

@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import pntu
-from .arrays import as_arrays
+from .arrays import as_arrays, as_floats
 
 ARRANGEMENTS = ("counterflow", "parallel_flow", "tema_e", "crossflow", "double_pipe")
 """Flow arrangements. ``double_pipe`` is rated as counterflow (hairpins piped in counterflow)."""
@@ -136,7 +136,7 @@ def rate_exchanger(
     """
     t_hot_in, t_cold_in, c_hot, c_cold, ua = as_arrays(t_hot_in, t_cold_in, c_hot, c_cold, ua)
     # most exchangers have no bypass: skip the arithmetic that would multiply by one
-    bypass_hot, bypass_cold = np.asarray(bypass_hot, dtype=float), np.asarray(bypass_cold, dtype=float)
+    bypass_hot, bypass_cold = as_floats(bypass_hot, bypass_cold)
     c_hot = c_hot * (1.0 - bypass_hot) if bypass_hot.any() else c_hot
     c_cold = c_cold * (1.0 - bypass_cold) if bypass_cold.any() else c_cold
 

@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .arrays import as_arrays
+from .arrays import as_arrays, as_floats
 
 __all__ = [
     "LAMINAR_LIMIT",
@@ -203,9 +203,7 @@ def scaled_film_coefficient(h_ref, mass_flow, reference_flow, exponent, property
     >>> round(float(scaled_film_coefficient(1000.0, 12.0, 10.0, 0.8)), 6)
     1157.031005
     """
-    # plain numpy broadcasting: scalars (reference values, exponent) stay scalars
-    h_ref, m, m_ref, n, phi = (np.asarray(v, dtype=float) for v in (h_ref, mass_flow, reference_flow, exponent,
-                                                                  property_ratio))
+    h_ref, m, m_ref, n, phi = as_floats(h_ref, mass_flow, reference_flow, exponent, property_ratio)
     return h_ref * np.power(np.maximum(m, 0.0) / m_ref, n) * phi
 
 
@@ -218,6 +216,6 @@ def property_correction(exponent, viscosity, reference_viscosity, cp=1.0, refere
     >>> round(float(property_correction(0.8, 2e-3, 1e-3)), 6)
     0.723635
     """
-    n, mu, mu_ref, cp, cp_ref, k, k_ref = (np.asarray(v, dtype=float) for v in (
-        exponent, viscosity, reference_viscosity, cp, reference_cp, conductivity, reference_conductivity))
+    n, mu, mu_ref, cp, cp_ref, k, k_ref = as_floats(exponent, viscosity, reference_viscosity, cp, reference_cp,
+                                                    conductivity, reference_conductivity)
     return (mu / mu_ref) ** (1.0 / 3.0 - n) * np.cbrt(cp / cp_ref) * (k / k_ref) ** (2.0 / 3.0)

@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .arrays import as_arrays
+from .arrays import as_arrays, as_floats
 
 __all__ = ["wall_resistance", "overall_coefficient", "films_from_clean_coefficient"]
 
@@ -47,8 +47,7 @@ def overall_coefficient(h_shell, h_tube, fouling_shell=0.0, fouling_tube=0.0, wa
     >>> round(float(overall_coefficient(1000.0, 2000.0, 0.0002, 0.0001, 5e-5, 1.25)), 6)
     500.0
     """
-    hs, ht, rfs, rft, rw, ratio = (np.asarray(v, dtype=float) for v in (h_shell, h_tube, fouling_shell, fouling_tube,
-                                                                     wall, diameter_ratio))
+    hs, ht, rfs, rft, rw, ratio = as_floats(h_shell, h_tube, fouling_shell, fouling_tube, wall, diameter_ratio)
     with np.errstate(divide="ignore"):
         total = 1.0 / hs + rfs + rw + rft * ratio + ratio / ht
     return np.where((hs > 0.0) & (ht > 0.0), 1.0 / total, 0.0)
