@@ -18,12 +18,9 @@ import copy
 
 import numpy as np
 
-from hxtrain.units.thermal import FixedCoefficient
-
 from .case import case_from_document
-from .changes import apply_change, rescaled_branches, value_changes
+from .changes import apply_change, value_changes
 from .errors import CaseError
-from .graph import Network, build_network, segment_fluid
 from .reading import Document
 
 BATCHABLE = (
@@ -58,73 +55,3 @@ def check_values(document: Document, values: dict, where=()):
             for change in value_changes(data, path, float(extreme), where):
                 apply_change(data, change, where)
             case_from_document(Document(data, document.file, document.lines))
-
-
-def batch_network(case, values: dict) -> tuple[Network, int]:
-    """A network of ``case`` whose unit parameters hold one value per scenario, with flows and
-    segment fluids per scenario. Returns (network, number of scenarios)."""
-    sizes = {len(np.atleast_1d(v)) for v in values.values()}
-    if len(sizes) != 1:
-        raise CaseError(f"every varied value needs the same number of scenarios; got {sorted(sizes)}")
-    batch = sizes.pop()
-    net = build_network(case)
-    fractions = {}
-    for path, array in values.items():
-        _set(net, path, np.asarray(array, dtype=float), fractions)
-    _batch_flows(net, batch, fractions)
-    return net, batch
-
-
-def _set(net: Network, path, array, fractions):
-    parts = path.split(".")
-    section, name, rest = parts[0], parts[1], parts[2:]
-    unit = net.units[name]
-    if section == "streams":
-        setattr(unit, "flow" if rest == ["flow"] else "temperature", array)
-    elif section == "exchangers":
-        spec = unit.spec
-        if rest == ["ua"]:
-            if spec.ua is None:
-                raise CaseError(f"exchanger '{name}' has no 'ua' to vary", path=("exchangers", name))
-            spec.ua = array
-        elif rest == ["u"]:
-            if not isinstance(spec.thermal, FixedCoefficient):
-                raise CaseError(f"exchanger '{name}' has no fixed 'u' to vary", path=("exchangers", name))
-            spec.thermal.u = array
-        elif rest[0] == "fouling":
-            if not hasattr(spec.thermal, "bundle") and not hasattr(spec.thermal, "shell"):
-                raise CaseError(f"exchanger '{name}' has no fouling resistances to vary", path=("exchangers", name))
-            setattr(spec.thermal, f"fouling_{rest[1]}", array)
-        else:
-            setattr(spec, f"bypass_{rest[1]}", array)
-    elif section in ("heaters", "coolers"):
-        field = "target" if rest == ["outlet_temperature"] else "duty"
-        if getattr(unit, field) is None:
-            raise CaseError(f"{section[:-1]} '{name}' is not set by its {rest[0]}; vary what it is set by",
-                            path=(section, name))
-        setattr(unit, field, array)
-    else:
-        shares = rescaled_branches(dict(zip(unit.outlets, unit.fractions)), rest[1], array)
-        fractions[name] = np.stack([np.broadcast_to(shares[b], array.shape) for b in unit.outlets], axis=1)
-
-
-def _batch_flows(net: Network, batch, fractions):
-    """Flows (batch, segments) and segment fluids per scenario."""
-    sources = [n for n, u in net.units.items() if not u.inlets]
-    n = len(net.segments)
-    supplies = np.stack([np.broadcast_to(np.asarray(net.units[s].flow, float), (batch,)) for s in sources], axis=1)
-    rows = batch if fractions else 1  # one topology and fixed splits: one matrix serves all
-    matrix = np.broadcast_to(np.eye(n), (rows, n, n)).copy()
-    unit_supply = np.zeros((n, len(sources)))
-    for name, unit in net.units.items():
-        coefficients = fractions[name][:, :, None] if name in fractions else np.asarray(unit.flow_coefficients())[None]
-        for o, seg_out in enumerate(net.outlets[name]):
-            for i, seg_in in enumerate(net.inlets[name]):
-                matrix[:, seg_out, seg_in] -= np.broadcast_to(coefficients[:, o, i], (rows,))
-        if not unit.inlets:
-            unit_supply[net.outlets[name][0], sources.index(name)] = 1.0
-    # (rows, segments, supplies): each segment's share of each supply; rows broadcast over the batch
-    response = np.linalg.solve(matrix, np.broadcast_to(unit_supply, (rows, n, len(sources))))
-    net.flow = np.asfortranarray(np.matmul(response, supplies[:, :, None])[..., 0])
-    carried = np.any(response > 0.0, axis=0) & np.any(supplies > 0.0, axis=0)  # (segments, supplies): in any scenario
-    net.fluids = [segment_fluid(net.case, sources, response[:, s, :] * supplies, carried[s]) for s in range(n)]

@@ -11,6 +11,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 from . import quantities as q
+from hxtrain.units.models import HEAT_SOURCES
+
 from .errors import CaseError
 from .exchangers import SIDES, read_exchanger
 from .fields import Fields
@@ -94,6 +96,9 @@ def case_from_mapping(data, name="<case>") -> Case:
 
 def case_from_document(doc: Document) -> Case:
     top = Fields(doc, (), doc.data, "a mapping at the top level (title, fluids, streams, exchangers, ...)")
+    if "base" in doc.data:
+        raise doc.error(("base",), "this looks like a study file (it has 'base'), not a case file; "
+                                   "use hxtrain compare or hxtrain sweep on a study file")
     title = top.text("title", default="") or ""
     top.text("description")
     settings = _settings(top.mapping("settings"))
@@ -105,8 +110,9 @@ def case_from_document(doc: Document) -> Case:
     for name, f in top.named_entries("streams", "stream names to their supply"):
         case.streams[name] = {
             "fluid": f.choice("fluid", sorted(fluids)),
-            "flow": f.quantity("flow", q.MASS_FLOW, above=0.0, maximum=1e5),
-            "supply_temperature": f.quantity("supply_temperature", q.TEMPERATURE, maximum=2000.0),
+            "flow": f.quantity("flow", q.MASS_FLOW),
+            "supply_temperature": f.quantity("supply_temperature", q.TEMPERATURE),
+            "utility": f.flag("utility"),
         }
         origins.append(Origin(name, f.path, _path(f), name, "out"))
         f.text("description")
@@ -115,7 +121,7 @@ def case_from_document(doc: Document) -> Case:
         case.exchangers[name] = read_exchanger(f)
     for section, table in (("heaters", case.heaters), ("coolers", case.coolers)):
         for name, f in top.named_entries(section, f"{section[:-1]} tags to their data"):
-            table[name] = _heater(f)
+            table[name] = _heater(f, heater=section == "heaters")
     for name, f in top.named_entries("mixers", "mixer names to their outlet path"):
         case.mixers[name] = {}
         origins.append(Origin(name, f.path, _path(f), name, "out"))
@@ -140,23 +146,25 @@ def _settings(f: Fields | None) -> Settings:
     if f is None:
         return Settings()
     settings = Settings(
-        minimum_approach=f.quantity("minimum_approach", q.TEMPERATURE_DIFFERENCE, False, DEFAULT_MINIMUM_APPROACH, minimum=0.0, maximum=500.0),
-        minimum_f=f.quantity("minimum_f", q.NUMBER, False, DEFAULT_MINIMUM_F, minimum=0.0, maximum=1.0),
-        tolerance=f.quantity("tolerance", q.TEMPERATURE_DIFFERENCE, False, DEFAULT_TOLERANCE, above=0.0, maximum=1.0),
+        minimum_approach=f.quantity("minimum_approach", q.TEMPERATURE_DIFFERENCE, False, DEFAULT_MINIMUM_APPROACH),
+        minimum_f=f.quantity("minimum_f", q.CORRECTION_FACTOR, False, DEFAULT_MINIMUM_F),
+        tolerance=f.quantity("tolerance", q.TOLERANCE, False, DEFAULT_TOLERANCE),
         max_iterations=f.integer("max_iterations", DEFAULT_MAX_ITERATIONS, 1, 100_000),
     )
     f.finish()
     return settings
 
 
-def _heater(f: Fields) -> dict:
+def _heater(f: Fields, heater: bool) -> dict:
     if f.has("duty") == f.has("outlet_temperature"):
         raise f.error(None, "give exactly one of 'duty' (kW) and 'outlet_temperature' (°C)")
     data = {
-        "duty": f.quantity("duty", q.DUTY, required=False, minimum=0.0, maximum=1e8),
-        "outlet_temperature": f.quantity("outlet_temperature", q.TEMPERATURE, required=False, maximum=2000.0),
-        "design_temperature": f.quantity("design_temperature", q.TEMPERATURE, required=False, maximum=2000.0),
+        "duty": f.quantity("duty", q.DUTY, required=False),
+        "outlet_temperature": f.quantity("outlet_temperature", q.TEMPERATURE, required=False),
+        "design_temperature": f.quantity("design_temperature", q.TEMPERATURE, required=False),
     }
+    if heater:
+        data["heat_source"] = f.choice("heat_source", HEAT_SOURCES, required=False, default="fired")
     f.text("description")
     f.finish()
     return data
@@ -168,7 +176,7 @@ def _splitter(f: Fields, origins) -> dict:
         raise f.error("branches", "a splitter needs at least one branch")
     fractions = {}
     for branch, b in branches:
-        fractions[branch] = b.quantity("fraction", q.FRACTION, minimum=0.0, maximum=1.0)
+        fractions[branch] = b.quantity("fraction", q.FRACTION)
         origins.append(Origin(f"{f.path[-1]}.{branch}", b.path, _path(b), f.path[-1], branch))
         b.text("description")
         b.finish()
@@ -188,6 +196,8 @@ def _path(f: Fields) -> list[Step]:
         items = [item.strip() for item in raw]
     else:
         raise f.error("path", 'expected a path such as "E-101.cold -> E-102.cold -> crude_split" (or a list of steps)')
+    if not items:
+        raise f.error("path", "an empty path: a path names at least the product, mixer or splitter it ends at")
     steps = []
     for item in items:
         if not item:
@@ -239,6 +249,30 @@ def check_connections(case: Case, doc: Document):
             port = f"{unit}.{side}" if side else unit
             raise doc.error(key, f"{port} is on no path: every exchanger side, heater, cooler, mixer, splitter and "
                                  "product must be fed by exactly one path (a mixer by one or more)")
+    check_supply_reaches_every_unit(case, doc)
+
+
+def check_supply_reaches_every_unit(case: Case, doc: Document):
+    """Refuse a mixer or splitter that no supply stream reaches: the paths that start there carry
+    only what circulates in a loop that nothing enters, so their flows are zero and their
+    temperatures undefined. Uses the paths alone (no flows): a branch with fraction 0 is fine."""
+    downstream = {}  # origin name -> the mixer or splitter its path ends at (None: a product)
+    for origin in case.origins:
+        last = origin.path[-1].unit
+        downstream[origin.name] = last if last in case.mixers or last in case.splitters else None
+    reached, frontier = set(), [o.name for o in case.origins if o.name in case.streams]
+    while frontier:
+        name = frontier.pop()
+        unit = downstream[name]
+        if unit is not None and unit not in reached:
+            reached.add(unit)
+            frontier += [o.name for o in case.origins if o.unit == unit]
+    unfed = [o for o in case.origins if o.name not in case.streams and o.unit not in reached]
+    if unfed:
+        names = sorted({o.unit for o in unfed})
+        raise doc.error(unfed[0].key + ("path",),
+                        f"no supply stream reaches {', '.join(names[:5])}: the units on this path are fed only by a "
+                        "loop that nothing enters (route a supply stream's path into it)")
 
 
 def _check_through_step(case, doc, key, step, terminals):
@@ -271,7 +305,7 @@ def without_fouling(case: Case, exchangers=None) -> Case:
     for tag in chosen:
         if tag not in clean.exchangers:
             raise CaseError(f"no exchanger '{tag}' in the case", file=case.file, path=("exchangers",))
-        thermal = clean.exchangers[tag]["spec"].thermal
-        if thermal is not None and hasattr(thermal, "fouling_shell"):
-            thermal.fouling_shell = thermal.fouling_tube = 0.0
+        spec = clean.exchangers[tag]["spec"]
+        for part in spec.fouling:
+            spec.set_fouling(part, 0.0)
     return clean

@@ -1,4 +1,6 @@
-"""The one error type for bad input: it names the file, the key path and (where known) the line."""
+"""hxtrain's errors: one root, :class:`HxtrainError`, and the error for bad input,
+:class:`CaseError`, which names the file, the key path and (where known) the line. Each error
+class carries the exit code the command line gives for it."""
 
 from __future__ import annotations
 
@@ -16,8 +18,16 @@ def format_path(path) -> str:
     return text
 
 
-class CaseError(Exception):
+class HxtrainError(Exception):
+    """The root of every error hxtrain raises on purpose (anything else is a bug)."""
+
+    exit_code = 1
+
+
+class CaseError(HxtrainError):
     """Bad input. ``str()`` is one short paragraph: file, key path, line, what is wrong."""
+
+    exit_code = 2
 
     def __init__(self, message, *, file=None, path=(), line=None):
         self.message = message

@@ -36,9 +36,21 @@ class Fields:
         self.allowed.add(key)
         if key not in self.value or self.value[key] is None:
             if required:
+                misspelt = self._misspelling_of(key)
+                if misspelt is not None:
+                    raise self.error(misspelt, f"missing key '{key}'; found unknown key {shorten(misspelt)} — did you "
+                                               f"mean '{key}'?")
                 raise self.doc.error(self.path, f"missing key '{key}'")
             return default
         return self.value[key]
+
+    def _misspelling_of(self, key):
+        """A key of this mapping, not read so far, that looks like a misspelling of ``key``."""
+        unread = [k for k in self.value if isinstance(k, str) and k not in self.allowed]
+        for candidate in difflib.get_close_matches(key, unread, n=3):
+            if is_misspelling(candidate, key):
+                return candidate
+        return None
 
     def quantity(self, key, kind: Kind, required=True, default=None, minimum=None, maximum=None, above=None):
         value = self.raw(key, required, None)
@@ -48,7 +60,7 @@ class Fields:
             number = to_default_unit(value, kind)
         except QuantityError as exc:
             raise self.error(key, str(exc)) from None
-        unit = "" if kind.unit == "dimensionless" else f" {kind.unit.replace('delta_', '')}"
+        unit = f" {kind.shown_unit}" if kind.shown_unit else ""
         if minimum is not None and number < minimum:
             raise self.error(key, f"{shorten(value)} is below the smallest allowed value, {minimum}{unit}")
         if above is not None and number <= above:
@@ -63,7 +75,14 @@ class Fields:
         if isinstance(value, bool) or not isinstance(value, int):
             raise self.error(key, f"expected a whole number, got {describe(value)}")
         if not minimum <= value <= maximum:
-            raise self.error(key, f"expected a whole number from {minimum} to {maximum}, got {value}")
+            raise self.error(key, f"expected a whole number from {minimum} to {maximum}, got {shorten(value)}")
+        return value
+
+    def flag(self, key, default=False) -> bool:
+        """An optional true/false key."""
+        value = self.raw(key, required=False, default=default)
+        if not isinstance(value, bool):
+            raise self.error(key, f"expected true or false, got {describe(value)}")
         return value
 
     def text(self, key, required=False, default=None):
@@ -105,6 +124,32 @@ class Fields:
             if key not in self.allowed:
                 known = sorted(self.allowed)
                 raise self.error(key, f"unknown key {shorten(key)}{nearest(key, known)}; known keys here: {', '.join(known)}")
+
+
+def is_misspelling(word: str, meant: str) -> bool:
+    """Is ``word`` ``meant`` with a slip of the keyboard: at most one edit (insertion, deletion,
+    substitution or swap of neighbours) in a key of up to five letters, two in a longer one?
+    Tighter than difflib's likeness, so that a different key of similar spelling
+    (tube_inner_diameter against tube_outer_diameter) is not taken for a misspelling."""
+    return edit_distance(word.lower(), meant.lower()) <= (1 if len(meant) <= 5 else 2)
+
+
+def edit_distance(a: str, b: str) -> int:
+    """Edits (insert, delete, substitute, swap two neighbours) that turn ``a`` into ``b``
+    (the optimal string alignment distance).
+
+    >>> edit_distance("arangement", "arrangement"), edit_distance("flwo", "flow")
+    (1, 1)
+    """
+    previous2, previous = None, list(range(len(b) + 1))
+    for i, char_a in enumerate(a, 1):
+        current = [i] + [0] * len(b)
+        for j, char_b in enumerate(b, 1):
+            current[j] = min(previous[j] + 1, current[j - 1] + 1, previous[j - 1] + (char_a != char_b))
+            if i > 1 and j > 1 and char_a == b[j - 2] and a[i - 2] == char_b:
+                current[j] = min(current[j], previous2[j - 2] + 1)
+        previous2, previous = previous, current
+    return previous[-1]
 
 
 def nearest(word, options) -> str:

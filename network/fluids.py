@@ -15,17 +15,17 @@ lets the run go on with a warning.
 
 from __future__ import annotations
 
-import math
-
 from hxtrain.units import properties as props
 
 from . import quantities as q
 from .fields import Fields, describe
 from .quantities import QuantityError, to_default_unit
 
-VISCOSITY = q.Kind("a viscosity", "Pa*s", '"2.5 cP" or 0.0025')
-CONDUCTIVITY = q.Kind("a thermal conductivity", "W/m/delta_degC", '0.12 or "0.07 Btu/h/ft/degF"')
-DENSITY = q.Kind("a density", "kg/m^3", '850 or "53 lb/ft^3"')
+DEFAULT_SPAN = (-50.0, 600.0)
+"""°C: where a cp given without ``valid_range`` must be plausible (a polynomial has no span of its
+own): the temperatures of process heat exchange, with margin (common practice)."""
+MAX_COEFFICIENTS = 10
+"""cp fits in data books have up to five terms; more is not a fit but a pasted list."""
 
 
 def read_fluid(f: Fields) -> props.FluidModel:
@@ -33,23 +33,16 @@ def read_fluid(f: Fields) -> props.FluidModel:
     model.name = f.path[-1]
     range_key = "valid_range" if f.has("valid_range") else "cp"
     model.range_key = ".".join(map(str, f.path + (range_key,)))
-    model.extrapolate = bool(_flag(f, "extrapolate"))
+    model.extrapolate = f.flag("extrapolate")
     f.finish()
     return model
-
-
-def _flag(f: Fields, key):
-    value = f.raw(key, required=False, default=False)
-    if not isinstance(value, bool):
-        raise f.error(key, f"expected true or false, got {describe(value)}")
-    return value
 
 
 def _read_model(f: Fields) -> props.FluidModel:
     transport = {
         "viscosity": _viscosity(f),
-        "conductivity": f.quantity("conductivity", CONDUCTIVITY, required=False, above=0.0, maximum=1e3),
-        "density": f.quantity("density", DENSITY, required=False, above=0.0, maximum=3e4),
+        "conductivity": f.quantity("conductivity", q.FLUID_CONDUCTIVITY, required=False),
+        "density": f.quantity("density", q.DENSITY, required=False),
         "valid_range": _range(f),
     }
     f.text("description")
@@ -59,27 +52,39 @@ def _read_model(f: Fields) -> props.FluidModel:
         model = _petroleum(f.mapping("petroleum"), transport)
     else:
         model = _cp(f, transport)
-    _check_positive_cp(f, model)
+    _check_over_span(f, model)
     return model
 
 
 def _cp(f: Fields, transport):
     raw = f.raw("cp")
     if not isinstance(raw, dict):
-        return props.ConstantCp(f.quantity("cp", q.SPECIFIC_HEAT, above=0.0, maximum=100.0), **transport)
+        return props.ConstantCp(f.quantity("cp", q.SPECIFIC_HEAT), **transport)
     form = Fields(f.doc, f.path + ("cp",), raw)
     if form.has("polynomial") == form.has("table"):
         raise form.error(None, "give exactly one of 'polynomial' (coefficients) and 'table' ([[T, cp], ...])")
     if form.has("polynomial"):
-        values = form.raw("polynomial")
-        if not isinstance(values, list) or not values or not all(_is_number(v) for v in values):
-            raise form.error("polynomial", f"expected a list of numbers a0, a1, ... (cp = a0 + a1·T + ..., kJ/kg·K, "
-                                           f"T in °C), got {describe(values)}")
-        model = props.PolynomialCp(values, **transport)
+        model = props.PolynomialCp(_coefficients(form), **transport)
     else:
         model = props.TabulatedCp(_table(form), **{k: v for k, v in transport.items() if v is not None})
     form.finish()
     return model
+
+
+def _coefficients(form: Fields) -> list[float]:
+    values = form.raw("polynomial")
+    if (not isinstance(values, list) or not 1 <= len(values) <= MAX_COEFFICIENTS
+            or not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in values)):
+        raise form.error("polynomial", f"expected a list of 1 to {MAX_COEFFICIENTS} numbers a0, a1, ... (cp = a0 + "
+                                       f"a1·T + ..., kJ/kg·K, T in °C), got {describe(values)}")
+    coefficients = []
+    for i, value in enumerate(values):
+        try:
+            coefficients.append(q.as_float(value))
+            q.check_plausible(coefficients[-1], q.NUMBER, value)
+        except QuantityError as exc:
+            raise form.doc.error(form.path + ("polynomial", i), str(exc)) from None
+    return coefficients
 
 
 def _table(form: Fields):
@@ -104,10 +109,10 @@ def _petroleum(f: Fields, transport):
     if f.has("api_gravity") == f.has("specific_gravity"):
         raise f.error(None, "give exactly one of 'api_gravity' and 'specific_gravity'")
     if f.has("api_gravity"):
-        sg = float(props.api_to_specific_gravity(f.quantity("api_gravity", q.NUMBER, minimum=-5.0, maximum=100.0)))
+        sg = float(props.api_to_specific_gravity(f.quantity("api_gravity", q.API_GRAVITY)))
     else:
-        sg = f.quantity("specific_gravity", q.NUMBER, minimum=0.55, maximum=1.2)
-    k = f.quantity("watson_k", q.NUMBER, minimum=9.5, maximum=13.5)
+        sg = f.quantity("specific_gravity", q.SPECIFIC_GRAVITY)
+    k = f.quantity("watson_k", q.WATSON_K)
     f.finish()
     return props.petroleum_fraction(sg, k, **transport)
 
@@ -117,18 +122,18 @@ def _viscosity(f: Fields):
     if raw is None:
         return None
     if not isinstance(raw, dict):
-        value = f.quantity("viscosity", VISCOSITY, above=0.0, maximum=1e4)
-        return lambda t, value=value: value + 0.0 * t
+        value = f.quantity("viscosity", q.VISCOSITY)
+        return props.AndradeViscosity((0.0, value), (100.0, value))  # constant: picklable, unlike a lambda
     v = Fields(f.doc, f.path + ("viscosity",), raw)
     points = v.raw("points")
     if not isinstance(points, list) or len(points) != 2 or not all(isinstance(p, list) and len(p) == 2 for p in points):
         raise v.error("points", "expected two [temperature, viscosity] pairs, e.g. [[40, \"8 cP\"], [150, \"1.1 cP\"]]")
     try:
-        pairs = [(to_default_unit(t, q.TEMPERATURE), to_default_unit(mu, VISCOSITY)) for t, mu in points]
+        pairs = [(to_default_unit(t, q.TEMPERATURE), to_default_unit(mu, q.VISCOSITY)) for t, mu in points]
     except QuantityError as exc:
         raise v.error("points", str(exc)) from None
-    if pairs[0][0] == pairs[1][0] or min(p[1] for p in pairs) <= 0.0:
-        raise v.error("points", "the two temperatures must differ and the viscosities be positive")
+    if pairs[0][0] == pairs[1][0]:
+        raise v.error("points", "the two temperatures must differ")
     v.finish()
     return props.AndradeViscosity(*pairs)
 
@@ -148,14 +153,28 @@ def _range(f: Fields):
     return (low, high)
 
 
-def _check_positive_cp(f: Fields, model):
+def _check_over_span(f: Fields, model):
+    """cp plausible (the table's range) over the fluid's valid range, or over DEFAULT_SPAN when it
+    has none; viscosity from two points plausible over the valid range where one is given. A
+    polynomial's extremes are found exactly (the roots of its derivative), not only on a grid."""
     import numpy as np
 
-    low, high = model.valid_range or (-50.0, 600.0)
+    low, high = model.valid_range or DEFAULT_SPAN
     grid = np.linspace(low, high, 101)
-    if np.any(model.cp(grid) <= 0.0):
-        raise f.error("cp", f"cp is not positive everywhere between {low:g} and {high:g} °C")
-
-
-def _is_number(value):
-    return isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
+    coefficients = getattr(model, "coefficients", None)
+    if coefficients is not None and len(coefficients) > 2:
+        turning = np.roots(np.polyder(coefficients[::-1]))
+        turning = turning.real[(np.abs(turning.imag) < 1e-9) & (turning.real > low) & (turning.real < high)]
+        grid = np.sort(np.concatenate([grid, turning]))
+    with np.errstate(all="ignore"):
+        checks = [("cp", q.SPECIFIC_HEAT, model.cp(grid), "check the coefficients (T in °C) or give 'valid_range', "
+                                                          "the temperatures where they hold")]
+        if isinstance(model.viscosity_model, props.AndradeViscosity) and model.valid_range:
+            checks.append(("viscosity", q.VISCOSITY, model.viscosity(grid), "check the two points"))
+    for key, kind, values, advice in checks:
+        bad = ~np.isfinite(values) | (values < kind.low) | (values > kind.high)
+        if np.any(bad):
+            t, value = grid[bad][0], values[bad][0]
+            raise f.error(key, f"{key} is {value:.4g} {kind.shown_unit} at {t:g} °C, outside the plausible "
+                               f"{kind.low:g} to {kind.high:g} {kind.shown_unit} ({kind.basis}) between {low:g} "
+                               f"and {high:g} °C; {advice}")

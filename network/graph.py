@@ -13,8 +13,6 @@ from dataclasses import dataclass
 
 import networkx as nx
 import numpy as np
-import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
 from hxtrain.units import models
 from hxtrain.units.exchanger_unit import Exchanger
@@ -22,6 +20,7 @@ from hxtrain.units.properties import Blend
 from hxtrain.units.thermal import GeometryFilms
 
 from .case import Case, Origin
+from .flows import solve_flows
 
 
 @dataclass(frozen=True)
@@ -46,7 +45,8 @@ def _port_label(unit, port):
 
 @dataclass
 class Network:
-    """A case as a graph with unit models on the nodes and its solved flows."""
+    """A case as a graph with unit models on the nodes and its solved flows, for a batch of one
+    or more scenarios (one value per scenario wherever :func:`build_network` was given values)."""
 
     case: Case
     graph: nx.MultiDiGraph
@@ -55,15 +55,30 @@ class Network:
     inlets: dict[str, list[int]]
     """Segment index feeding each inlet port of each unit, in the unit's port order."""
     outlets: dict[str, list[int]]
-    flow: np.ndarray
-    """Mass flow of each segment, kg/s."""
-    fluids: list
+    flow: np.ndarray | None = None
+    """(batch, segments) mass flow of each segment, kg/s."""
+    fluids: list | None = None
     """Fluid model of each segment (a blend where supplies of different fluids have mixed)."""
+    batch: int = 1
+    valid: np.ndarray | None = None
+    """(batch,) the scenario's values are within bounds and its flows balance."""
+    message: np.ndarray | None = None
+    """(batch,) why a scenario is not valid ("" where it is)."""
+    reason_key: np.ndarray | None = None
+    """(batch,) the case-file key path (a tuple) the reason is about, None where valid."""
+    utility: np.ndarray | None = None
+    """(segments,) the segment carries only utility streams (cooling water, steam, hot oil)."""
 
 
-def build_network(case: Case) -> Network:
-    """Unit models, graph, segments and flows of a checked case; raises CaseError on flows that
-    cannot balance (a loop with no way out)."""
+def build_network(case: Case, values: dict | None = None) -> Network:
+    """Unit models, graph, segments and flows of a checked case.
+
+    ``values`` (key path -> one value per scenario, see :mod:`.scenarios`) makes a batch: each
+    unit parameter named is set per scenario and checked against its bounds, and a scenario
+    whose values or flows are impossible is marked not valid with its reason. Without values
+    (a batch of one from the case as written) impossible flows raise :class:`CaseError`."""
+    from .scenarios import apply_values
+
     segments, mixer_inlets = _segments(case)
     units = _unit_models(case, mixer_inlets)
     graph = nx.MultiDiGraph()
@@ -76,9 +91,12 @@ def build_network(case: Case) -> Network:
     for seg in segments:
         inlets[seg.target][units[seg.target].inlets.index(seg.target_port)] = seg.index
         outlets[seg.source][units[seg.source].outlets.index(seg.source_port)] = seg.index
-    net = Network(case, graph, units, segments, inlets, outlets, None, None)
+    net = Network(case, graph, units, segments, inlets, outlets)
     check_way_out(net)
-    solve_flows(net)
+    net.batch, net.valid, net.message, net.reason_key = apply_values(net, values or {})
+    _solve_flows(net)
+    if values is None and not net.valid[0]:
+        raise case.error(net.reason_key[0], net.message[0])
     check_properties(net)
     return net
 
@@ -155,33 +173,28 @@ def check_way_out(net: Network):
         )
 
 
-def solve_flows(net: Network):
-    """Solve the linear flow balance for every segment and every supply stream at once."""
-    n = len(net.segments)
-    sources = [name for name, u in net.units.items() if not u.inlets]
-    rows, cols, vals = list(range(n)), list(range(n)), [1.0] * n
-    supply = np.zeros((n, len(sources)))
+def _solve_flows(net: Network):
+    """Flows of every scenario (:func:`.flows.solve_flows`), each segment's fluid blended from
+    the supplies it carries, and which segments carry only utility streams."""
+    solution = solve_flows(net.units, net.inlets, net.outlets, len(net.segments), net.batch)
+    bad = net.valid & ~solution.valid
+    if np.any(bad):
+        key = _recycle_key(net)
+        for k in np.flatnonzero(bad):
+            net.message[k], net.reason_key[k] = solution.message[k], key
+    net.valid = net.valid & solution.valid
+    net.flow = solution.flow
+    sources = [n for n, u in net.units.items() if not u.inlets]
+    response = np.nan_to_num(solution.response)
+    # (segments, supplies): which supplies reach each segment in any scenario
+    carried = np.any(response > 0.0, axis=0) & np.any(solution.supplies > 0.0, axis=0)
+    net.fluids = [segment_fluid(net.case, sources, response[:, s, :] * solution.supplies, carried[s])
+                  for s in range(len(net.segments))]
+    is_utility = np.array([bool(net.case.streams[s].get("utility")) for s in sources])
+    net.utility = np.array([bool(np.any(row)) and bool(np.all(is_utility[row])) for row in carried])
     for name, unit in net.units.items():
-        coefficients = np.asarray(unit.flow_coefficients(), dtype=float)
-        supplied = np.asarray(unit.supplied_flow(), dtype=float)
-        for o, seg_out in enumerate(net.outlets[name]):
-            for i, seg_in in enumerate(net.inlets[name]):
-                if coefficients[o, i] != 0.0:
-                    rows.append(seg_out)
-                    cols.append(seg_in)
-                    vals.append(-coefficients[o, i])
-            if supplied[o] != 0.0:
-                supply[seg_out, sources.index(name)] = supplied[o]
-    matrix = sp.csc_matrix((vals, (rows, cols)), shape=(n, n))
-    try:
-        makeup = np.asarray(spla.splu(matrix).solve(supply)).reshape(n, len(sources))
-    except RuntimeError:  # exactly singular: a recycle that returns everything, to round-off
-        raise net.case.error(_recycle_key(net), "the flows cannot be balanced: a recycle returns all of its flow "
-                                                "(check the splitter fractions)") from None
-    flow = makeup.sum(axis=1)
-    _check_flow_balance(net, flow, sources)
-    net.flow = flow
-    net.fluids = [segment_fluid(net.case, sources, row) for row in makeup]
+        if hasattr(unit, "utility_sides"):
+            unit.utility_sides = frozenset(port for port, seg in zip(unit.inlets, net.inlets[name]) if net.utility[seg])
 
 
 def segment_fluid(case: Case, sources, makeup, carried=None):
@@ -229,14 +242,3 @@ def _recycle_key(net: Network):
             if len(component) > 1 and net.units[name].kind == "splitter":
                 return tuple(net.case.keys[name]) + ("branches",)
     return ("splitters",)
-
-
-def _check_flow_balance(net: Network, flow, sources):
-    supplied = sum(net.case.streams[s]["flow"] for s in sources)
-    delivered = sum(flow[net.inlets[n][0]] for n, u in net.units.items() if not u.outlets)
-    if not np.all(np.isfinite(flow)) or np.any(flow < -1e-9 * supplied) or abs(delivered - supplied) > 1e-9 * supplied:
-        raise net.case.error(
-            _recycle_key(net),
-            f"the flows do not balance: {supplied:.6g} kg/s supplied, {delivered:.6g} kg/s delivered to "
-            "products (a recycle that returns nearly everything?)",
-        )

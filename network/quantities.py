@@ -13,29 +13,113 @@ import re
 from dataclasses import dataclass
 from functools import lru_cache
 
+from hxtrain.units.properties import PHYSICAL_RANGE
+
 
 @dataclass(frozen=True)
 class Kind:
-    """A kind of quantity: its name in messages, its default unit and an example."""
+    """A kind of quantity: its name in messages, its default unit, an example, and the range of
+    values that are plausible for it in a case file (in the default unit; see the table below)."""
 
     name: str
     unit: str
     example: str
     level_temperature: bool = False
+    low: float = -math.inf
+    high: float = math.inf
+    basis: str = ""
+    """Where the range comes from: a named source, physics, or "common practice"."""
+    least_nonzero: float = 0.0
+    """Smallest magnitude accepted other than exactly 0 (a smaller one is a rounding error)."""
+
+    @property
+    def shown_unit(self) -> str:
+        """The default unit as messages show it ("kJ/kg/K", "m²·K/W")."""
+        text = self.unit.replace("delta_degC", "K").replace("degC", "°C").replace("^2", "²").replace("^3", "³")
+        return "" if text == "dimensionless" else text.replace("*", "·")
 
 
-TEMPERATURE = Kind("a temperature", "degC", '350 or "660 degF"', level_temperature=True)
-TEMPERATURE_DIFFERENCE = Kind("a temperature difference", "delta_degC", '10 or "18 delta_degF"')
-MASS_FLOW = Kind("a mass flow", "kg/s", '85 or "310 t/h"')
-SPECIFIC_HEAT = Kind("a specific heat capacity", "kJ/kg/delta_degC", '2.3 or "0.55 Btu/lb/degF"')
-DUTY = Kind("a heat duty", "kW", '2500 or "25 MW"')
-HEAT_TRANSFER_COEFFICIENT = Kind("a heat-transfer coefficient", "W/m^2/delta_degC", '350 or "60 Btu/h/ft^2/degF"')
-AREA = Kind("an area", "m^2", '250 or "2700 ft^2"')
-CONDUCTANCE = Kind("a conductance UA", "kW/delta_degC", '85 or "160000 Btu/h/degF"')
-FRACTION = Kind("a fraction", "dimensionless", '0.4 or "40 %"')
+# ----------------------------------------------------------------------------- the plausibility table
+# The one table of plausible ranges for every physical value of the case format, in the default
+# units. A value outside its range is refused naming the key: a range is chosen so that no real
+# plant lies outside it and a slip (a wrong unit, a missing exponent, a denormal) lands outside.
+# Each range says where it comes from; "from memory" marks published values recalled rather than
+# looked up, "common practice" a rule of thumb without a single source.
+
+_COLDEST, _HOTTEST = PHYSICAL_RANGE
+TEMPERATURE = Kind("a temperature", "degC", '350 or "660 degF"', level_temperature=True, low=_COLDEST, high=_HOTTEST,
+                   basis="absolute zero to 2000 °C, above any process stream, flue gases included: common practice")
+TEMPERATURE_DIFFERENCE = Kind("a temperature difference", "delta_degC", '10 or "18 delta_degF"', low=0.0, high=500.0,
+                              basis="an approach beyond 500 K is no approach: common practice")
+TOLERANCE = Kind("a convergence tolerance", "delta_degC", '1e-6 or "1e-6 delta_degF"', low=1e-9, high=1.0,
+                 basis="below 1e-9 K round-off decides the test; above 1 K the answer is not converged: common practice")
+MASS_FLOW = Kind("a mass flow", "kg/s", '85 or "310 t/h"', low=1e-6, high=1e5,
+                 basis="3.6 g/h to 360 000 t/h: below any process stream and above the largest cooling-water "
+                       "circuit, and far from floating-point underflow: common practice")
+SPECIFIC_HEAT = Kind("a specific heat capacity", "kJ/kg/delta_degC", '2.3 or "0.55 Btu/lb/degF"', low=0.1, high=20.0,
+                     basis="liquid metals ~0.14 (mercury) to hydrogen gas ~14.3 kJ/kg·K, from memory")
+DUTY = Kind("a heat duty", "kW", '2500 or "25 MW"', low=0.0, high=1e6,
+            basis="1 GW: above the largest fired heaters, ~100-300 MW: common practice")
+HEAT_TRANSFER_COEFFICIENT = Kind("a heat-transfer coefficient U", "W/m^2/delta_degC", '350 or "60 Btu/h/ft^2/degF"',
+                                 low=0.0, high=3e4, basis="condensing steam against boiling water reaches "
+                                                          "~5000-10 000 W/m²·K: common practice")
+CLEAN_COEFFICIENT = Kind("a clean heat-transfer coefficient U", "W/m^2/delta_degC", '450 or "80 Btu/h/ft^2/degF"',
+                         low=1.0, high=3e4, basis="gas to gas ~5-35 to condensing steam against boiling water "
+                                                  "~5000-10 000 W/m²·K: common practice")
+FILM_COEFFICIENT = Kind("a film coefficient", "W/m^2/delta_degC", '1500 or "250 Btu/h/ft^2/degF"', low=1.0, high=1e6,
+                        basis="free convection in gases ~2-25 to dropwise condensation ~1e5 W/m²·K "
+                              "(Incropera, Table 1.1, from memory)")
+AREA = Kind("an area", "m^2", '250 or "2700 ft^2"', low=0.01, high=5e4,
+            basis="a small hairpin ~0.5 m² to the largest shells, a few thousand m²: common practice")
+CONDUCTANCE = Kind("a conductance UA", "kW/delta_degC", '85 or "160000 Btu/h/degF"', low=0.0, high=1e6,
+                   basis="100 times the largest exchanger banks (~1e4 kW/K): common practice")
+FRACTION = Kind("a fraction", "dimensionless", '0.4 or "40 %"', low=0.0, high=1.0, basis="a share lies from 0 to 1",
+                least_nonzero=2.2e-16)
+"""A share below the spacing of floating-point numbers at 1 vanishes against its complement
+(1 - 1e-20 == 1) and, as a flow, runs into denormal numbers: write 0."""
 NUMBER = Kind("a number", "dimensionless", "1e-6")
+FOULING = Kind("a fouling resistance", "m^2*delta_degC/W", '0.00035 or "0.002 h*ft^2*degF/Btu"', low=0.0, high=0.02,
+               basis="ten times the largest of TEMA's recommended resistances (~0.002 m²·K/W, from memory)")
+TUBE_DIAMETER = Kind("a tube diameter", "m", '0.01905 or "19.05 mm" or "0.75 in"', low=1e-3, high=0.6,
+                     basis="1 mm (micro-tube bundles) to 0.6 m (a double pipe's 24 in inner pipe): common practice")
+TUBE_LENGTH = Kind("a tube length", "m", '6.1 or "20 ft"', low=0.1, high=30.0,
+                   basis="TEMA's standard lengths run 2.4-7.3 m, long feed-effluent bundles ~20 m: common practice")
+SHELL_DIAMETER = Kind("a shell diameter", "m", '0.75 or "29 in"', low=0.05, high=5.0,
+                      basis="TEMA's scope reaches 2.5 m (from memory); 5 m is above any shell: common practice")
+SPACING = Kind("a tube pitch or baffle spacing", "m", '0.0254 or "1 in"', low=1e-3, high=30.0,
+               basis="from a tube diameter to a tube length: the consistency checks of the geometry do the rest")
+WALL_CONDUCTIVITY = Kind("a tube-wall conductivity", "W/m/delta_degC", '45 or "26 Btu/h/ft/degF"', low=0.1, high=500.0,
+                         basis="PTFE ~0.25 to copper ~400 W/m·K, from memory")
+FLUID_CONDUCTIVITY = Kind("a fluid's thermal conductivity", "W/m/delta_degC", '0.12 or "0.07 Btu/h/ft/degF"',
+                          low=0.003, high=100.0, basis="heavy vapours ~0.006 to liquid sodium ~80 W/m·K, from memory")
+VISCOSITY = Kind("a viscosity", "Pa*s", '"2.5 cP" or 0.0025', low=1e-6, high=1e5,
+                 basis="gases ~1e-5 Pa·s (hydrogen 9e-6) to bitumen ~1e5 Pa·s, from memory")
+DENSITY = Kind("a density", "kg/m^3", '850 or "53 lb/ft^3"', low=1e-3, high=2e4,
+               basis="vapours under vacuum ~0.01 to mercury 13 500 kg/m³, from memory")
+PRESSURE_DROP = Kind("a pressure drop", "Pa", '"0.7 bar" or 70000 or "10 psi"', low=1.0, high=1e7,
+                     basis="exchangers run ~1e3-2e5 Pa; 100 bar is above any: common practice")
+FLOW_EXPONENT = Kind("a film exponent on flow", "dimensionless", "0.6 or 0.8", low=0.2, high=1.0,
+                     basis="laminar 1/3 to turbulent 0.8; the model's range")
+REYNOLDS = Kind("a Reynolds number", "dimensionless", "12000", low=1.0, high=1e8,
+                basis="creeping flow of heavy oil to fast gas in large pipes: common practice")
+SHELL_SHARE = Kind("a share of the film resistance", "dimensionless", "0.5", low=0.001, high=0.999,
+                   basis="each side keeps some film resistance")
+CORRECTION_FACTOR = Kind("an F factor", "dimensionless", "0.75", low=0.0, high=1.0, basis="F lies in [0, 1]")
+API_GRAVITY = Kind("an API gravity", "dimensionless", "31", low=-5.0, high=100.0,
+                   basis="residues to natural gasolines: the petroleum cp correlation's inputs")
+SPECIFIC_GRAVITY = Kind("a specific gravity", "dimensionless", "0.86", low=0.55, high=1.2,
+                        basis="light naphtha to vacuum residue: the petroleum cp correlation's inputs")
+WATSON_K = Kind("a Watson K", "dimensionless", "11.9", low=9.5, high=13.5,
+                basis="aromatic to paraffinic fractions: the petroleum cp correlation's inputs")
 
 _DIFFERENCE = re.compile(r"(?<![A-Za-z_])deg(C|F)\b")
+_DEGREE_WORDS = re.compile(r"(?:[°º]\s*|(?<![A-Za-z_])deg(?:ree)?s?\s+)(C|F|[Cc]elsius|[Ff]ahrenheit)(?![A-Za-z_])")
+"""Degrees written in words or with the sign before a separate letter ("°F", "deg F", "degrees
+C", "° C"): unambiguous, so read as degC/degF."""
+_DEGREE_SIGNS = {"\u2103": "degC", "\u2109": "degF"}
+"""The single characters ℃ and ℉."""
+_BARE_DEGREE = re.compile(r"(?<![A-Za-z_°])(C|F)(?![A-Za-z_])")
+"""A bare C or F: to pint the coulomb and the farad, never meant in a case file."""
 
 
 @lru_cache(maxsize=1)
@@ -51,7 +135,8 @@ class QuantityError(ValueError):
 
 
 def to_default_unit(value, kind: Kind) -> float:
-    """Convert a case-file value to a float in ``kind``'s default unit.
+    """Convert a case-file value to a float in ``kind``'s default unit, refusing values outside
+    the kind's plausible range (:func:`check_plausible`).
 
     >>> round(to_default_unit("212 degF", TEMPERATURE), 9)
     100.0
@@ -59,35 +144,69 @@ def to_default_unit(value, kind: Kind) -> float:
     100.0
     >>> to_default_unit(2.1, SPECIFIC_HEAT)
     2.1
+    >>> round(to_default_unit("90 °F", TEMPERATURE), 9)
+    32.222222222
     """
     if isinstance(value, bool) or value is None:
         raise QuantityError(f"expected {kind.name} such as {kind.example}, got {shorten(value)}")
     if isinstance(value, (int, float)):
-        number = float(value)
+        number = as_float(value, kind)
     elif isinstance(value, str):
         number = _parse(value, kind)
     else:
         raise QuantityError(f"expected {kind.name} such as {kind.example}, got {type(value).__name__} {shorten(value)}")
-    if not math.isfinite(number):
-        raise QuantityError(f"expected a finite value for {kind.name}, got {shorten(value)}")
-    if kind.level_temperature and number < -273.15:
-        raise QuantityError(f"{shorten(value)} °C is below absolute zero")
+    check_plausible(number, kind, value)
     return number
 
 
+def as_float(value, kind: Kind = NUMBER) -> float:
+    """A YAML number as a float; a whole number beyond the floating-point range is refused."""
+    try:
+        return float(value)
+    except OverflowError:
+        raise QuantityError(f"expected {kind.name} such as {kind.example}; {shorten(value)} is beyond the range "
+                            "of numbers") from None
+
+
+def check_plausible(number: float, kind: Kind, value=None) -> None:
+    """Refuse ``number`` (in ``kind``'s default unit; ``value`` as written, for the message)
+    when it is not finite or lies outside the kind's plausible range."""
+    shown = shorten(number if value is None else value)
+    noun = kind.name.split(" ", 1)[1] if kind.name.startswith(("a ", "an ")) else kind.name
+    unit = f" {kind.shown_unit}" if kind.shown_unit else ""
+    if not math.isfinite(number):
+        raise QuantityError(f"expected a finite value for {kind.name}, got {shown}")
+    if kind.level_temperature and number < kind.low:
+        raise QuantityError(f"{shown} is below absolute zero ({kind.low:g} °C)")
+    if number < kind.low == 0.0:
+        raise QuantityError(f"{shown}: {kind.name} cannot be negative")
+    if number < kind.low:
+        raise QuantityError(f"{shown} is below the smallest plausible {noun}, {kind.low:g}{unit} ({kind.basis})")
+    if number > kind.high:
+        raise QuantityError(f"{shown} is above the largest plausible {noun}, {kind.high:g}{unit} ({kind.basis})")
+    if 0.0 < abs(number) < kind.least_nonzero:
+        raise QuantityError(f"{shown} is too small for {kind.name} to mean anything (its complement rounds to 1): "
+                            f"write 0, or at least {kind.least_nonzero:g}")
+
+
 def shorten(value, limit=60) -> str:
-    """repr of a value for a message, cut to ``limit`` characters."""
+    """repr of a value for a message, cut to ``limit`` characters (a huge whole number is
+    described by its length: its decimal text may not even be computable)."""
+    if isinstance(value, int) and not isinstance(value, bool) and value.bit_length() > 200:
+        return f"a whole number of about {int(value.bit_length() * math.log10(2)) + 1} digits"
     text = repr(value)
     return text if len(text) <= limit else text[: limit - 15] + f"... ({len(text)} characters)"
 
 
-_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+NUMBER_AT_START = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+MAX_UNIT_CHARACTERS = 80
+"""Units longer than this are not units (and would only cost the parser time)."""
 
 
 def _parse(text: str, kind: Kind) -> float:
     import pint
 
-    match = _NUMBER.match(text)
+    match = NUMBER_AT_START.match(text)
     if not match:
         raise QuantityError(f"expected {kind.name} such as {kind.example}; {shorten(text)} does not start with a number")
     magnitude, unit_text = float(match.group(1)), match.group(2)
@@ -95,16 +214,34 @@ def _parse(text: str, kind: Kind) -> float:
         return magnitude
     if unit_text == "%":
         unit_text = "percent"
+    unit_text = _spell_degrees(unit_text)
     if not kind.level_temperature:
         unit_text = _DIFFERENCE.sub(r"delta_deg\1", unit_text)
     ureg = registry()
     try:
+        if len(unit_text) > MAX_UNIT_CHARACTERS:
+            raise ValueError("too long")
         quantity = ureg.Quantity(magnitude, ureg.parse_units(unit_text))
         number = float(quantity.to(kind.unit).magnitude)
     except pint.DimensionalityError:
-        raise QuantityError(
-            f"expected {kind.name} such as {kind.example}, got {shorten(text)}, whose units are not of that kind"
-        ) from None
+        raise QuantityError(f"expected {kind.name} such as {kind.example}, got {shorten(text)}, whose units are not "
+                            f"of that kind{_degree_hint(text)}") from None
     except Exception:  # pint's expression parser fails in many ways (even AssertionError) on junk
-        raise QuantityError(f"expected {kind.name} such as {kind.example}; cannot read the units of {shorten(text)}") from None
+        raise QuantityError(f"expected {kind.name} such as {kind.example}; cannot read the units of "
+                            f"{shorten(text)}{_degree_hint(text)}") from None
     return number
+
+
+def _spell_degrees(unit_text: str) -> str:
+    """'°F', '° C', 'deg F', 'degrees Celsius', '℃' -> degF / degC (pint's names)."""
+    for sign, name in _DEGREE_SIGNS.items():
+        unit_text = unit_text.replace(sign, name)
+    return _DEGREE_WORDS.sub(lambda m: "deg" + m.group(1)[0].upper(), unit_text)
+
+
+def _degree_hint(text: str) -> str:
+    """For '90 F' or '2.1 kJ/kg/C': the bare letter is the farad or the coulomb to pint."""
+    if not _BARE_DEGREE.search(NUMBER_AT_START.match(text).group(2)):
+        return ""
+    suggestion = _BARE_DEGREE.sub(r"deg\1", text)
+    return f" (a bare C or F is the coulomb or the farad: write {suggestion!r})"

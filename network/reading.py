@@ -21,6 +21,10 @@ MAX_FILE_BYTES = 4 * 1024 * 1024
 MAX_NODES = 200_000
 """Node budget after alias expansion: far above any real case, far below an alias bomb."""
 
+COMPOSER = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
+"""libyaml's parser where PyYAML has it (several times faster; it also caps flow nesting at
+1000 levels); the scalars are built by the Python safe constructor either way."""
+
 
 @dataclass
 class Document:
@@ -64,7 +68,16 @@ class _Builder:
             return self._mapping(node, path)
         if isinstance(node, yaml.SequenceNode):
             return [self.build(item, path + (i,)) for i, item in enumerate(node.value)]
-        return self.scalars.construct_object(node, deep=True)
+        return self.scalar(node, path)
+
+    def scalar(self, node, path):
+        """A scalar's value; a whole number too long for Python to read (over 4300 digits) is an
+        error at its line, not a crash."""
+        try:
+            return self.scalars.construct_object(node, deep=True)
+        except ValueError:
+            raise CaseError(f"a number of {len(node.value)} characters: far beyond any value a case file needs",
+                            file=self.file, path=path, line=node.start_mark.line + 1) from None
 
     def _mapping(self, node, path):
         result = {}
@@ -75,7 +88,7 @@ class _Builder:
             if not isinstance(key_node, yaml.ScalarNode):
                 raise CaseError("a key must be a plain name", file=self.file, path=path,
                                 line=key_node.start_mark.line + 1)
-            key = self.scalars.construct_object(key_node)
+            key = self.scalar(key_node, path)
             key = str(key) if isinstance(key, (int, float)) and not isinstance(key, bool) else key
             if not isinstance(key, str):
                 raise CaseError(f"a key must be a plain name, got {type(key).__name__}", file=self.file, path=path,
@@ -125,13 +138,17 @@ def parse_yaml(text, name) -> Document:
     if not text.strip():
         raise CaseError("the file is empty", file=name)
     try:
-        nodes = list(yaml.compose_all(text, Loader=yaml.SafeLoader))
+        nodes = list(yaml.compose_all(text, Loader=COMPOSER))
     except RecursionError:
         raise CaseError("the document nests too deeply to be a case file", file=name) from None
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
         problem = " ".join(str(p) for p in (exc.context, exc.problem) if p)
-        raise CaseError(f"not valid YAML: {problem}", file=name, line=mark.line + 1 if mark else None) from None
+        if "nesting depth" in problem:  # libyaml's cap on nesting
+            problem = "the document nests too deeply to be a case file"
+        else:
+            problem = f"not valid YAML: {problem}"
+        raise CaseError(problem, file=name, line=mark.line + 1 if mark else None) from None
     except yaml.YAMLError as exc:
         raise CaseError(f"not valid YAML: {exc}", file=name) from None
     nodes = [n for n in nodes if n is not None]

@@ -4,10 +4,44 @@
 >>> result = simulate(demo_case_path("crude_preheat"))
 >>> result.converged
 True
+
+The names below are imported on first use (PEP 562), so that importing the package, or the
+``hxtrain`` command's module, loads no numerical library: start-up stays short and an
+interrupt during it is handled by the command like any other.
 """
 
-from .engine import ConvergenceError
-from .results import CAUTION, SimulationResult, simulate
-from .demos import demo_case_path, DEMO_CASES
+from importlib import import_module
 
-__all__ = ["simulate", "SimulationResult", "ConvergenceError", "CAUTION", "demo_case_path", "DEMO_CASES"]
+_EXPORTS = {
+    "simulate": ".results",
+    "SimulationResult": ".results",
+    "CAUTION": ".results",
+    "ConvergenceError": ".engine",
+    "demo_case_path": ".demos",
+    "DEMO_CASES": ".demos",
+}
+
+__all__ = ["simulate", "SimulationResult", "ConvergenceError", "CAUTION", "demo_case_path", "DEMO_CASES",
+           "package_version"]
+
+
+def __getattr__(name):
+    if name not in _EXPORTS:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(import_module(_EXPORTS[name], __name__), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__():
+    return sorted({*globals(), *_EXPORTS})
+
+
+def package_version() -> str:
+    """The installed hxtrain version, or "unknown" when running from a source tree."""
+    from importlib.metadata import PackageNotFoundError, version
+
+    try:
+        return version("hxtrain")
+    except PackageNotFoundError:  # pragma: no cover - running from a source tree
+        return "unknown"

@@ -13,27 +13,23 @@ import multiprocessing
 import sys
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from hxtrain.network import Case
-from hxtrain.network.case import case_from_document
-from hxtrain.network.batch import batch_network, check_values
-from hxtrain.network.reading import read_document
+from hxtrain.network.scenarios import scenario_count
 
-from .checks import enthalpy_balance, out_of_range
-from .engine import inlets_of, solve_temperatures
-from .sequencing import plan_calculation
+from .evaluation import NOT_CONVERGED, NOT_VALID, STATUS_NAMES, SUCCESS, as_case, evaluate
+from .results import scenario_summary
 
 
 @dataclass
 class BatchResult:
     table: pd.DataFrame
-    """One row per scenario: the varied values, ``converged``, ``valid``, ``message`` and the key
-    outputs (heat recovered, heater and cooler duties, heater inlet temperatures, limits
-    violated, warnings, relative energy imbalance)."""
+    """One row per scenario (see :func:`scenario_table`): the varied values, ``success``,
+    ``status``, ``converged``, ``valid``, ``message`` and the key outputs (the totals, heater
+    inlet temperatures, limits violated, warnings, relative energy imbalance); NaN outputs
+    where a scenario is not a success."""
     iterations: int
     temperature: np.ndarray
     """(scenarios, segments) °C, NaN where a scenario is not converged or not valid; segments in
@@ -48,19 +44,15 @@ the crude demo as shipped gains from a second process, its fixed-property form d
 
 def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, workers=1) -> BatchResult:
     """Simulate the scenarios given by ``values`` (key path -> array, one value per scenario;
-    see :mod:`hxtrain.network.batch` for the paths that may vary).
+    see :mod:`hxtrain.network.scenarios` for the paths that may vary) of ``case`` (a file, a
+    mapping or a Case): the evaluation's view as one row per scenario.
 
     ``workers`` > 1 splits the scenarios into that many contiguous parts, each solved as a batch
     of its own in a separate process (at least :data:`PROCESS_MINIMUM` scenarios a part; fewer
     scenarios use fewer processes). Every scenario converges on its own either way; ``iterations``
     is then the largest over the parts."""
-    if not isinstance(case, Case):
-        document = read_document(Path(case))
-        check_values(document, values)
-        case = case_from_document(document)
-    tolerance = tolerance if tolerance is not None else case.settings.tolerance
-    max_iterations = max_iterations if max_iterations is not None else case.settings.max_iterations
-    scenarios = len(np.atleast_1d(next(iter(values.values())))) if values else 1
+    case = as_case(case)
+    scenarios = scenario_count(values)
     parts = max(1, min(int(workers), scenarios // PROCESS_MINIMUM))
     if parts == 1:
         return _solve_batch(case, values, tolerance, max_iterations)
@@ -79,63 +71,25 @@ def _process_context():
 
 
 def _solve_batch(case, values, tolerance, max_iterations) -> BatchResult:
-    net, batch = batch_network(case, values)
-    solution = solve_temperatures(net, tolerance=tolerance, max_iterations=max_iterations, batch=batch,
-                                  plan=plan_calculation(net.graph), raise_on_failure=False)
-    outputs, valid, messages = summarize(net, solution.temperature)
-    ok = solution.converged & valid
-    table = pd.DataFrame({path: np.asarray(v, dtype=float) for path, v in values.items()})
-    table["converged"] = solution.converged
-    table["valid"] = valid
-    table["message"] = np.where(solution.converged, messages, "temperatures did not converge")
-    for name, column in outputs.items():
-        table[name] = np.where(ok, column, np.nan)
-    temperature = np.where(ok[:, None], solution.temperature, np.nan)
-    return BatchResult(table, solution.iterations, temperature)
+    evaluation = evaluate(case, values, tolerance=tolerance, max_iterations=max_iterations)
+    table = pd.DataFrame({path: np.broadcast_to(np.asarray(v, dtype=float).reshape(-1), (evaluation.batch,))
+                          for path, v in values.items()})
+    table = pd.concat([table, scenario_table(evaluation)], axis=1)
+    return BatchResult(table, evaluation.iterations, evaluation.temperature)
 
 
-def summarize(net, temperature):
-    """Key outputs per scenario from the units' reports, as in ``key_outputs`` of one run."""
-    batch = temperature.shape[0]
-    flow = np.broadcast_to(net.flow, temperature.shape)
-    totals = {"exchanger": np.zeros(batch), "heater": np.zeros(batch), "cooler": np.zeros(batch)}
-    inlets, limits, warnings = {}, np.zeros(batch), np.zeros(batch)
-    valid, messages = np.ones(batch, bool), np.full(batch, "", dtype=object)
-    heat_added = np.zeros(batch)
-    for name, unit in net.units.items():
-        report = unit.report(inlets_of(net, name, temperature, flow))
-        if unit.kind in totals:
-            totals[unit.kind] = totals[unit.kind] + report.quantities["duty"]
-        if unit.kind == "heater":
-            inlets[f"{name}_inlet_c"] = report.quantities["t_cold_in"]
-        heat_added = heat_added + report.heat_added
-        for finding in report.findings:
-            if finding.severity == "limit":
-                limits += finding.active
-            elif finding.severity == "warning":
-                warnings += finding.active
-            else:
-                _invalidate(valid, messages, finding.active, finding.messages, finding.key)
-    extrapolated = _range_checks(net, temperature, flow, valid, messages)
-    outputs = {"heat_recovered_kw": totals["exchanger"], "heater_duty_kw": totals["heater"],
-               "cooler_duty_kw": totals["cooler"], **inlets, "limit_violations": limits,
-               "warnings": warnings + extrapolated,
-               "relative_imbalance": enthalpy_balance(net, temperature, flow, heat_added)["relative_imbalance"]}
-    return outputs, valid, messages
-
-
-def _invalidate(valid, messages, active, texts, key):
-    for i in np.flatnonzero(active & valid):
-        messages[i] = f"{key}: {texts[i]}"
-    valid &= ~active
-
-
-def _range_checks(net, temperature, flow, valid, messages):
-    warned = np.zeros(temperature.shape[0])
-    for seg, member, outside in out_of_range(net, temperature, flow):
-        if member.extrapolate:
-            warned += outside
-        else:
-            texts = np.full(len(outside), f"segment {seg.label} outside fluid '{member.name}' data range", object)
-            _invalidate(valid, messages, outside, texts, member.range_key)
-    return warned
+def scenario_table(evaluation) -> pd.DataFrame:
+    """One row per scenario of an evaluation, the same columns for every batch: ``success``,
+    ``status`` (0 success, 1 not converged, 2 not valid, 3 a check failed: see
+    :mod:`.evaluation`), ``status_text``, ``converged``, ``valid``, ``message``, then the
+    headline numbers (NaN where the scenario is not a success)."""
+    status = evaluation.status
+    table = pd.DataFrame({"success": status == SUCCESS, "status": status,
+                          "status_text": [STATUS_NAMES[int(s)] for s in status],
+                          "converged": evaluation.solution.converged & (status != NOT_CONVERGED),
+                          "valid": status != NOT_VALID,
+                          "message": [evaluation.reason(k) for k in range(evaluation.batch)]})
+    for name, column in scenario_summary(evaluation).items():
+        table[name] = column
+    table["relative_imbalance"] = evaluation.balance["relative_imbalance"]
+    return table

@@ -1,23 +1,31 @@
 """The ``hxtrain`` command.
 
 Exit codes: 0 done; 2 bad input (case file, output path, usage); 3 temperatures did not converge;
-1 an internal error (a bug: please report it with the case file; ``--debug`` shows the traceback).
+1 an internal error (a bug: please report it with the case file; ``--debug`` shows the traceback);
+130 interrupted (Ctrl-C); 143 stopped by SIGTERM; 141 the standard output was closed before the
+report was printed in full (``... | head``): output files are written before the report, so they
+are complete. An interrupt or SIGTERM prints one line and removes any temporary file.
+
+Start-up is light: at import this module loads only the standard library (and the lazy
+:mod:`hxtrain.solver` package); the numerical libraries are imported inside :func:`main`, so an
+interrupt at any moment is handled. Numerical RuntimeWarnings are not shown (their sources are
+guarded where they arise; ``--debug`` or Python's ``-W`` option shows any that remain).
 """
 
 from __future__ import annotations
 
 import argparse
+import os
+import signal
 import sys
 import traceback
-from importlib.metadata import PackageNotFoundError, version
+import warnings
 
-from hxtrain.network import CaseError, load_case
-
-from .demos import DEMO_CASES, demo_case_path
-from .engine import ConvergenceError
-from .results import CAUTION
+from . import package_version
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT, EXIT_NOT_CONVERGED = 0, 1, 2, 3
+EXIT_INTERRUPTED, EXIT_BROKEN_PIPE, EXIT_TERMINATED = 130, 141, 143
+"""128 + the signal's number, as a shell reports a process ended by SIGINT, SIGPIPE, SIGTERM."""
 
 DESCRIPTION = """\
 Rate a network of heat exchangers, heaters, coolers, mixers and splitters described in a YAML
@@ -27,7 +35,8 @@ with qualified engineers and the applicable codes and standards."""
 
 EPILOG = """\
 exit codes: 0 done, 2 bad input (message names the file and key path), 3 did not converge,
-1 internal error.
+1 internal error, 130 interrupted (Ctrl-C), 143 stopped by SIGTERM, 141 standard output closed
+early (e.g. by "| head"; files given with --out are written first and complete).
 examples:
   hxtrain run                          run the bundled crude preheat demo
   hxtrain run --demo feed_effluent     run another bundled demo
@@ -38,17 +47,18 @@ examples:
   hxtrain cleaning plant.yaml          rank exchangers by what cleaning each gains"""
 
 
-def _package_version():
-    try:
-        return version("hxtrain")
-    except PackageNotFoundError:  # pragma: no cover - running from a source tree
-        return "unknown"
+class Terminated(BaseException):
+    """Raised by the SIGTERM handler :func:`main` installs, so that a SIGTERM unwinds like Ctrl-C:
+    ``finally`` blocks run and temporary files are removed (not an Exception: no handler for
+    errors catches it)."""
 
 
 def build_parser() -> argparse.ArgumentParser:
+    from .demos import DEMO_CASES
+
     parser = argparse.ArgumentParser(prog="hxtrain", description=DESCRIPTION, epilog=EPILOG,
                                      formatter_class=argparse.RawDescriptionHelpFormatter)
-    parser.add_argument("--version", action="version", version=f"hxtrain {_package_version()}")
+    parser.add_argument("--version", action="version", version=f"hxtrain {package_version()}")
     commands = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
 
     run = commands.add_parser("run", help="simulate a case and print the results",
@@ -58,8 +68,9 @@ def build_parser() -> argparse.ArgumentParser:
                      help=f"run a bundled demo case instead of a file (default with no CASE: {DEMO_CASES[0]})")
     run.add_argument("--out", metavar="PATH",
                      help="also write the results: .csv (one file per table: PATH, PATH_streams.csv, "
-                          "PATH_findings.csv, PATH_tears.csv, PATH_summary.csv), .xlsx (one sheet per table) "
-                          "or .json (one document)")
+                          "PATH_findings.csv, PATH_tears.csv, PATH_summary.csv, listed in .PATH.sha256), .xlsx "
+                          "(an about sheet, then one sheet per table) or .json (one document); written before "
+                          "the report is printed")
     run.add_argument("--against-clean", action="store_true",
                      help="also rate the case with every fouling resistance at zero and show what fouling costs "
                           "per exchanger and at the furnace")
@@ -102,38 +113,62 @@ def _subcommand(commands, name, summary, description, target, out=False):
 
 
 def _case_path(args):
+    from .demos import DEMO_CASES, demo_case_path
+
     if args.case and args.demo:
+        from hxtrain.network import CaseError
+
         raise CaseError("give either a case file or --demo, not both")
     if args.case:
         return args.case
     return demo_case_path(args.demo or DEMO_CASES[0])
 
 
+def _study_inputs(study) -> dict:
+    return {"study file": study.file, "base case": study.base.file}
+
+
+def _write(tables, args, notes, inputs):
+    """Write the tables when --out was given (before anything is printed); the files written."""
+    if not args.out:
+        return None
+    from .output import write_tables
+
+    return write_tables(tables, args.out, notes, inputs)
+
+
+def _say_written(written):
+    if written is not None:
+        print(f"\n{written.describe()}")
+
+
 def _run(args) -> int:
-    from .output import check_output_path, write_results
+    from .output import RUN_TABLES, check_output_path, write_results
     from .report import text_report
-    from .results import simulate
 
     path = _case_path(args)
+    inputs = {"case file": path}
     if args.out:
-        check_output_path(args.out)
+        check_output_path(args.out, inputs, RUN_TABLES)
     if args.against_clean:
         from .fouling import compare_clean_and_fouled, comparison_text
 
         comparison = compare_clean_and_fouled(path)
         result = comparison.fouled
-        print(text_report(result, comparison_text(comparison)))
+        report = text_report(result, comparison_text(comparison))
     else:
+        from .results import simulate
+
         result = simulate(path)
-        print(text_report(result))
-    if args.out:
-        written = write_results(result, args.out)
-        print(f"\nwrote {', '.join(str(p) for p in written)}")
+        report = text_report(result)
+    written = write_results(result, args.out, inputs) if args.out else None
+    print(report)
+    _say_written(written)
     return EXIT_OK
 
 
 def _check(args) -> int:
-    from hxtrain.network import build_network
+    from hxtrain.network import build_network, load_case
 
     case = load_case(args.case)
     net = build_network(case)
@@ -142,70 +177,82 @@ def _check(args) -> int:
     return EXIT_OK
 
 
-def _write(tables, args, notes):
-    from .output import write_tables
-
-    if args.out:
-        written = write_tables(tables, args.out, notes)
-        print(f"\nwrote {', '.join(str(p) for p in written)}")
-
-
-def _compare(args) -> int:
+def _load_study_for(args, table_names):
+    """The study, with --out checked first on its own and then against the study's files."""
     from hxtrain.network.study import load_study
 
     from .output import check_output_path
-    from .studies import compare, solve_specification, specification_table, study_text
 
     if args.out:
         check_output_path(args.out)
     study = load_study(args.study)
+    if args.out:
+        check_output_path(args.out, _study_inputs(study), table_names(study))
+    return study
+
+
+def _compare(args) -> int:
+    from .results import CAUTION
+    from .studies import compare, solve_specification, specification_table, study_text
+
+    study = _load_study_for(args, lambda s: ["comparison", "findings"] + (["specifications"] if s.specifications else []))
     comparison = compare(study)
     specifications = [solve_specification(study, spec) for spec in study.specifications]
-    print(study_text(study, comparison, specifications))
     tables = {"comparison": comparison.table, "findings": comparison.findings}
     if specifications:
         tables["specifications"] = specification_table(specifications)
-    _write(tables, args, {"study": study.file, "title": study.title, "caution": CAUTION})
+    written = _write(tables, args, {"study": study.file, "title": study.title, "caution": CAUTION},
+                     _study_inputs(study))
+    print(study_text(study, comparison, specifications))
+    _say_written(written)
     return EXIT_OK
 
 
 def _sweep(args) -> int:
-    from hxtrain.network.study import load_study
+    from hxtrain.network import CaseError
 
-    from .output import check_output_path
+    from .output import with_whole_counts
+    from .results import CAUTION
     from .studies import run_sweep
 
-    if args.out:
-        check_output_path(args.out)
-    study = load_study(args.study)
+    study = _load_study_for(args, lambda s: [sweep.name for sweep in s.sweeps])
     if not study.sweeps:
         raise CaseError("the study has no sweeps", file=study.file, path=("sweeps",))
-    tables = {}
-    for sweep in study.sweeps:
-        tables[sweep.name] = run_sweep(study, sweep)
-        print(f"\nSweep {sweep.name}\n{'-' * (6 + len(sweep.name))}")
-        print(tables[sweep.name].to_string(index=False, float_format=lambda v: f"{v:,.3f}"))
+    tables = {sweep.name: run_sweep(study, sweep) for sweep in study.sweeps}
+    written = _write(tables, args, {"study": study.file, "title": study.title, "caution": CAUTION},
+                     _study_inputs(study))
+    for name, table in tables.items():
+        print(f"\nSweep {name}\n{'-' * (6 + len(name))}")
+        print(with_whole_counts(table).to_string(index=False, float_format=lambda v: f"{v:,.3f}", na_rep="NaN"))
     print(f"\nNOTE: {CAUTION}")
-    _write(tables, args, {"study": study.file, "title": study.title, "caution": CAUTION})
+    _say_written(written)
     return EXIT_OK
 
 
 def _cleaning(args) -> int:
+    from hxtrain.network import load_case
+
+    from .demos import DEMO_CASES, demo_case_path
     from .output import check_output_path
+    from .results import CAUTION
     from .studies import cleaning_ranking
 
-    if args.out:
-        check_output_path(args.out)
     path = args.case or demo_case_path(DEMO_CASES[0])
+    inputs = {"case file": path}
+    if args.out:
+        check_output_path(args.out, inputs, ["ranking"])
     ranking = cleaning_ranking(load_case(path))
+    written = _write({"ranking": ranking}, args, {"case_file": str(path), "caution": CAUTION}, inputs)
     print(f"Cleaning one exchanger at a time: {path}")
     print(ranking.to_string(float_format=lambda v: f"{v:,.2f}") if len(ranking) else "no exchanger has fouling")
     print(f"\nNOTE: {CAUTION}")
-    _write({"ranking": ranking}, args, {"case_file": str(path), "caution": CAUTION})
+    _say_written(written)
     return EXIT_OK
 
 
 def _benchmark(args) -> int:
+    from hxtrain.network import CaseError
+
     from .benchmark import benchmark_text, run_benchmark
 
     if args.scenarios < 2 or args.loop < 1 or (args.workers is not None and args.workers < 1):
@@ -219,18 +266,48 @@ COMMANDS = {"run": _run, "check": _check, "compare": _compare, "sweep": _sweep, 
 
 
 def main(argv=None) -> int:
-    args = build_parser().parse_args(argv)
+    """Run the command; returns the exit code (``--help``, ``--version`` and usage errors exit
+    through argparse's SystemExit)."""
+    args = sigterm = None
     try:
-        return COMMANDS[args.command](args)
+        sigterm = _raise_on_sigterm()
+        args = build_parser().parse_args(argv)
+        code = _dispatch(args)
+        sys.stdout.flush()  # here, not at exit: a reader that has gone away is handled below
+        return code
+    except KeyboardInterrupt:
+        return _stop(args, "interrupted", EXIT_INTERRUPTED)
+    except Terminated:
+        return _stop(args, "terminated (SIGTERM)", EXIT_TERMINATED)
+    except BrokenPipeError:
+        _discard_stdout()
+        return EXIT_BROKEN_PIPE
+    except SystemExit:
+        if _stdout_gone():
+            return EXIT_BROKEN_PIPE
+        raise
+    finally:
+        _restore_sigterm(sigterm)
+
+
+def _dispatch(args) -> int:
+    from hxtrain.network import CaseError
+
+    from .engine import ConvergenceError
+
+    try:
+        with warnings.catch_warnings():
+            if not sys.warnoptions and not args.debug:
+                warnings.simplefilter("ignore", RuntimeWarning)
+            return COMMANDS[args.command](args)
     except CaseError as exc:
         _complain(args, f"error: {exc}")
         return EXIT_BAD_INPUT
     except ConvergenceError as exc:
         _complain(args, f"not converged: {exc}")
         return EXIT_NOT_CONVERGED
-    except KeyboardInterrupt:
-        _complain(args, "interrupted")
-        return 130
+    except BrokenPipeError:
+        raise
     except Exception as exc:  # a bug: say so plainly; --debug gives the traceback
         _complain(args, f"internal error ({type(exc).__name__}: {exc}). This is a fault in hxtrain, not in the "
                         "case; please report it with the case file. Run with --debug for the traceback.")
@@ -241,6 +318,51 @@ def _complain(args, message):
     if getattr(args, "debug", False):
         traceback.print_exc()
     print(message, file=sys.stderr)
+
+
+def _stop(args, message, code) -> int:
+    _complain(args, message)
+    return code
+
+
+def _raise_on_sigterm():
+    """Make SIGTERM raise :class:`Terminated`; returns what to restore (None where signals cannot
+    be set: not the main thread, or no SIGTERM on this platform)."""
+    try:
+        previous = signal.signal(signal.SIGTERM, _terminated)
+    except (AttributeError, ValueError, OSError):
+        return None
+    return signal.SIG_DFL if previous is None else previous
+
+
+def _terminated(signum, frame):
+    raise Terminated()
+
+
+def _restore_sigterm(previous):
+    if previous is not None:
+        signal.signal(signal.SIGTERM, previous)
+
+
+def _stdout_gone() -> bool:
+    """Flush the standard output; True when its reader has gone away (the rest is discarded)."""
+    try:
+        sys.stdout.flush()
+    except BrokenPipeError:
+        _discard_stdout()
+        return True
+    return False
+
+
+def _discard_stdout():
+    """Point the standard output at the null device, so that what is left in its buffer does not
+    fail again when Python flushes it at exit (Python's documented treatment of a closed pipe)."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (AttributeError, OSError, ValueError):  # not a real file (a test's capture)
+        pass
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -11,18 +11,22 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from hxtrain.network.errors import HxtrainError
 from hxtrain.units.models import Inlets
 
 from .convergence import TearResult, converge_tears
 from .sequencing import Block, plan_calculation
 
 
-class ConvergenceError(RuntimeError):
-    """The tears of a block did not converge; carries the diagnostic, never the numbers."""
+class ConvergenceError(HxtrainError):
+    """No answer: the tears of a block did not converge, or the converged answer failed a check
+    (its energy balance does not close). Carries the diagnostic, never the numbers."""
 
-    def __init__(self, message, diagnostics):
+    exit_code = 3
+
+    def __init__(self, message, diagnostics=None):
         super().__init__(message)
-        self.diagnostics = diagnostics
+        self.diagnostics = diagnostics or {}
 
 
 @dataclass
@@ -76,10 +80,10 @@ def initial_guess(net, batch):
     return np.mean(supplies, axis=0)
 
 
-def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None, raise_on_failure=True) -> TemperatureSolution:
-    """Temperatures of every segment over the batch. A block that fails raises
-    :class:`ConvergenceError`, or with ``raise_on_failure=False`` marks its scenarios unconverged
-    in ``TemperatureSolution.converged`` (their temperatures must not be reported)."""
+def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None) -> TemperatureSolution:
+    """Temperatures of every segment over the batch. A block that fails marks its scenarios
+    unconverged in ``TemperatureSolution.converged`` (their temperatures must not be reported;
+    :func:`convergence_error` words the diagnosis)."""
     plan = plan if plan is not None else plan_calculation(net.graph)
     flow = np.broadcast_to(net.flow, (batch, len(net.segments)))  # (segments,) or per scenario
     # column-major: a unit reads and writes whole segments, each then contiguous over the batch
@@ -105,13 +109,20 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None, ra
 
         x0 = np.repeat(guess[:, None], len(block.tears), axis=1)
         result = converge_tears(evaluate, x0, tolerance, max_iterations)
-        if not result.success and raise_on_failure:
-            raise ConvergenceError(_failure_message(net, block, result, tolerance), _diagnostics(net, block, result))
         converged &= result.converged
         if not np.array_equal(last["x"], result.x):
             evaluate(result.x)
         outcomes.append(BlockOutcome(block, result))
     return TemperatureSolution(temperature, outcomes, converged)
+
+
+def convergence_error(net, solution: TemperatureSolution, tolerance) -> ConvergenceError:
+    """The diagnosis of the first block whose tears did not converge, as an exception."""
+    for outcome in solution.blocks:
+        if outcome.tears is not None and not outcome.tears.success:
+            return ConvergenceError(_failure_message(net, outcome.block, outcome.tears, tolerance),
+                                    _diagnostics(net, outcome.block, outcome.tears))
+    return ConvergenceError("the temperatures did not converge")
 
 
 def tear_labels(net, block):

@@ -1,15 +1,19 @@
 """The case as fouled and as clean, side by side: what fouling costs per exchanger and at the
-furnace."""
+furnace, with the limits each state violates (cleaning can push a downstream exchanger past
+its design temperature or into a temperature cross)."""
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from pathlib import Path
 
 import pandas as pd
 
-from hxtrain.network import Case, load_case, without_fouling
+from hxtrain.network import CaseError, without_fouling
+from hxtrain.units.models import FIRED_HEATERS, TOTALS
 
+from .engine import ConvergenceError
+from .evaluation import as_case
+from .report import boxed
 from .results import SimulationResult, simulate
 
 
@@ -18,43 +22,74 @@ class FoulingComparison:
     fouled: SimulationResult
     clean: SimulationResult
     exchangers: pd.DataFrame
-    """Per exchanger: duty and U fouled and clean, the duty lost to fouling."""
-    totals: pd.Series
-    """Heat recovered, heater (furnace) and cooler duties fouled and clean; heater inlet temperatures."""
+    """Per exchanger: duty and U fouled and clean; ``duty_lost_to_fouling_kw`` = clean - fouled
+    (negative where fouling upstream moves duty onto this exchanger)."""
+    totals: pd.DataFrame
+    """Rows: the totals and furnace inlet temperatures, limits and warnings; columns ``fouled``,
+    ``clean`` and ``clean - fouled``."""
+    limits: pd.DataFrame
+    """Every limit violated and warning, with the state (``fouled``/``clean``) it belongs to."""
+
+    @property
+    def fired_duty_penalty_kw(self) -> float:
+        """Fired-heater duty that fouling costs: fouled minus clean, kW."""
+        return float(-self.totals.loc[FIRED_HEATERS, "clean - fouled"])
+
+    def tables(self) -> dict:
+        """The comparison's tables for file output."""
+        return {"fouling_by_exchanger": self.exchangers, "fouling_totals": self.totals, "fouling_findings": self.limits}
 
 
 def compare_clean_and_fouled(case) -> FoulingComparison:
     """Simulate ``case`` as it is (fouled) and with every fouling resistance at zero (clean)."""
-    if not isinstance(case, Case):
-        case = load_case(Path(case))
+    case = as_case(case)
     fouled = simulate(case)
-    clean = simulate(without_fouling(case))
-    f = fouled.units[fouled.units["type"] == "exchanger"]
-    c = clean.units.loc[f.index]
+    clean = simulate_state(without_fouling(case), "clean (every fouling resistance at zero)")
+    exchangers = fouled.units.index[fouled.units["group"] == "exchangers"]
+    f, c = fouled.units.loc[exchangers], clean.units.loc[exchangers]
     table = pd.DataFrame({"duty_fouled_kw": f["duty_kw"], "duty_clean_kw": c["duty_kw"]})
-    table["duty_lost_kw"] = table["duty_clean_kw"] - table["duty_fouled_kw"]
+    table["duty_lost_to_fouling_kw"] = table["duty_clean_kw"] - table["duty_fouled_kw"]
     for column in ("u_service_w_m2k", "u_clean_w_m2k"):
         if column in f:
             table[column] = f[column]
-    table = table.rename_axis("exchanger")
-    totals = {}
-    for key in fouled.summary.index:
-        if key.endswith("_kw") or key.endswith("_inlet_c"):
-            totals[f"{key}_fouled"] = fouled.summary[key]
-            totals[f"{key}_clean"] = clean.summary[key]
-    totals["heater_duty_penalty_kw"] = fouled.summary["heater_duty_kw"] - clean.summary["heater_duty_kw"]
-    return FoulingComparison(fouled, clean, table, pd.Series(totals))
+    table["limits_fouled"] = [_limit_text(fouled, tag) for tag in exchangers]
+    table["limits_clean"] = [_limit_text(clean, tag) for tag in exchangers]
+    keys = [k for k in fouled.summary.index if k in TOTALS or k.endswith("_inlet_c")] + ["limit_violations", "warnings"]
+    totals = pd.DataFrame({"fouled": fouled.summary[keys].astype(float), "clean": clean.summary[keys].astype(float)})
+    totals["clean - fouled"] = totals["clean"] - totals["fouled"]
+    limits = pd.concat([fouled.findings.assign(state="fouled"), clean.findings.assign(state="clean")],
+                       ignore_index=True)
+    return FoulingComparison(fouled, clean, table.rename_axis("exchanger"), totals.rename_axis("quantity"),
+                             limits[["state", *fouled.findings.columns]])
+
+
+def simulate_state(case, name: str) -> SimulationResult:
+    """Simulate a derived case; an error names the scenario it comes from."""
+    try:
+        return simulate(case)
+    except CaseError as exc:
+        raise CaseError(f"scenario '{name}': {exc.message}", file=exc.file, path=exc.path, line=exc.line) from None
+    except ConvergenceError as exc:
+        raise ConvergenceError(f"scenario '{name}': {exc}", exc.diagnostics) from None
+
+
+def _limit_text(result: SimulationResult, unit: str) -> str:
+    limits = result.limits
+    return "; ".join(limits.loc[limits["unit"] == unit, "message"])
 
 
 def comparison_text(comparison: FoulingComparison) -> str:
-    t = comparison.totals
+    """Printed form: per exchanger, the totals, and each state's violated limits."""
+    exchangers = comparison.exchangers.drop(columns=["limits_fouled", "limits_clean"])
     lines = ["", "Fouled against clean (every fouling resistance set to zero)",
              "-----------------------------------------------------------",
-             comparison.exchangers.to_string(float_format=lambda v: f"{v:,.1f}", na_rep=""),
-             f"  heater (furnace) duty: fouled {t['heater_duty_kw_fouled']:,.1f} kW, clean {t['heater_duty_kw_clean']:,.1f} kW;"
-             f" fouling costs {t['heater_duty_penalty_kw']:,.1f} kW"]
-    for key in t.index:
-        if key.endswith("_inlet_c_fouled"):
-            name = key.removesuffix("_inlet_c_fouled")
-            lines.append(f"  {name} inlet temperature: fouled {t[key]:.2f} °C, clean {t[name + '_inlet_c_clean']:.2f} °C")
+             "duty_lost_to_fouling_kw = clean - fouled: positive where fouling costs duty; negative where fouling "
+             "upstream leaves more duty to this exchanger.",
+             exchangers.to_string(float_format=lambda v: f"{v:,.1f}", na_rep=""), "",
+             comparison.totals.to_string(float_format=lambda v: f"{v:,.2f}"),
+             f"  fouling costs {comparison.fired_duty_penalty_kw:,.1f} kW of fired-heater duty"]
+    clean_limits = comparison.limits[(comparison.limits["state"] == "clean") & (comparison.limits["severity"] == "limit")]
+    lines += boxed("LIMITS VIOLATED WHEN CLEAN", (f"{r.unit}: {r.message}  [{r.key}]" for r in clean_limits.itertuples()))
+    if not len(clean_limits):
+        lines.append("  clean: no limit violated")
     return "\n".join(lines)

@@ -8,6 +8,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from hxtrain.units.models import TOTALS
+
 from .results import SimulationResult
 
 EXCHANGER_COLUMNS = {
@@ -37,7 +39,8 @@ SERVICE_COLUMNS = {
     "dp_shell_kpa": "dp shell kPa",
     "dp_tube_kpa": "dp tube kPa",
 }
-ONE_STREAM_COLUMNS = {"type": "type", "duty_kw": "duty kW", "in_c": "inlet °C", "out_c": "outlet °C", "findings": "findings"}
+ONE_STREAM_COLUMNS = {"type": "type", "heat_source": "heat source", "duty_kw": "duty kW", "in_c": "inlet °C",
+                      "out_c": "outlet °C", "findings": "findings"}
 STREAM_COLUMNS = {"segment": "segment", "flow_kg_s": "flow kg/s", "heat_capacity_rate_kw_per_k": "m·cp kW/K",
                   "temperature_c": "temperature °C"}
 
@@ -50,16 +53,20 @@ def _section(title: str) -> str:
     return f"\n{title}\n{'-' * len(title)}"
 
 
+def in_group(result: SimulationResult, group: str) -> pd.DataFrame:
+    """The rows of the units table that their units show in section ``group``."""
+    return result.units[result.units["group"] == group]
+
+
 def exchanger_table(result: SimulationResult) -> pd.DataFrame:
-    units = result.units
-    table = units[units["type"] == "exchanger"]
+    table = in_group(result, "exchangers")
     table = table[[c for c in EXCHANGER_COLUMNS if c in table]].rename(columns=EXCHANGER_COLUMNS)
     return table.rename_axis("exchanger")
 
 
 def service_table(result: SimulationResult) -> pd.DataFrame:
     """U (W/m²·K), fouling (m²·K/W), films and pressure drops, for exchangers that have them."""
-    units = result.units[result.units["type"] == "exchanger"]
+    units = in_group(result, "exchangers")
     columns = [c for c in SERVICE_COLUMNS if c in units and c != "u_source"]
     if not columns:
         return pd.DataFrame()
@@ -71,24 +78,27 @@ def service_table(result: SimulationResult) -> pd.DataFrame:
 
 
 def one_stream_table(result: SimulationResult) -> pd.DataFrame:
-    units = result.units
-    table = units[units["type"].isin(["heater", "cooler"])].copy()
-    heater = table["type"] == "heater"
-    table["in_c"] = np.where(heater, table.get("cold_in_c"), table.get("hot_in_c"))
-    table["out_c"] = np.where(heater, table.get("cold_out_c"), table.get("hot_out_c"))
-    return table[list(ONE_STREAM_COLUMNS)].rename(columns=ONE_STREAM_COLUMNS).rename_axis("unit")
+    table = in_group(result, "heaters_and_coolers").copy()
+    heated = table["cold_in_c"].notna() if "cold_in_c" in table else pd.Series(False, index=table.index)
+    table["in_c"] = np.where(heated, table.get("cold_in_c"), table.get("hot_in_c"))
+    table["out_c"] = np.where(heated, table.get("cold_out_c"), table.get("hot_out_c"))
+    columns = [c for c in ONE_STREAM_COLUMNS if c in table]
+    return table[columns].rename(columns=ONE_STREAM_COLUMNS).rename_axis("unit").fillna("")
+
+
+def boxed(title: str, lines) -> list[str]:
+    """A block of lines framed so that it stands out at the end of a report (violated limits)."""
+    lines = list(lines)
+    if not lines:
+        return []
+    return ["", "!" * 78, f"!! {title}: {len(lines)}", "!" * 78, *(f"!! {line}" for line in lines), "!" * 78]
 
 
 def findings_box(result: SimulationResult) -> str:
     findings = result.findings
     limits = findings[findings["severity"] == "limit"]
     warnings = findings[findings["severity"] == "warning"]
-    lines = []
-    if len(limits):
-        banner = f"LIMITS VIOLATED: {len(limits)}"
-        lines += ["", "!" * 78, f"!! {banner}", "!" * 78]
-        lines += [f"!! {row.unit}: {row.message}  [{row.key}]" for row in limits.itertuples()]
-        lines.append("!" * 78)
+    lines = boxed("LIMITS VIOLATED", (f"{row.unit}: {row.message}  [{row.key}]" for row in limits.itertuples()))
     if len(warnings):
         lines += ["", f"Warnings: {len(warnings)}"]
         lines += [f"  * {row.unit}: {row.message}" for row in warnings.itertuples()]
@@ -123,13 +133,14 @@ def text_report(result: SimulationResult, extra: str = "") -> str:
     if len(result.tears):
         tears = result.tears[["tear_stream", "iterations", "accelerators", "final_residual_k"]]
         parts += [_section("Tear streams"), tears.to_string(index=False, float_format=lambda v: f"{v:.2e}")]
+    width = max(len(text) for text in TOTALS.values()) + 1
+    total_lines = [f"  {(text + ':').ljust(width)} {s[key]:>12,.1f} kW" for key, text in TOTALS.items()
+                   if key in s and (s[key] != 0.0 or key in ("fired_heater_duty_kw", "heat_recovered_kw"))]
     heater_lines = [f"  {k.removesuffix('_inlet_c')} inlet temperature: {v:,.2f} °C" for k, v in s.items()
                     if k.endswith("_inlet_c")]
     parts += [
         _section("Totals"),
-        f"  heat recovered in exchangers: {s['heat_recovered_kw']:,.1f} kW",
-        f"  heater (furnace) duty:        {s['heater_duty_kw']:,.1f} kW",
-        f"  cooler duty:                  {s['cooler_duty_kw']:,.1f} kW",
+        *total_lines,
         *heater_lines,
         f"  energy balance: in {b['enthalpy_in_supplies_kw']:,.1f} kW + added {b['heat_added_net_kw']:,.1f} kW"
         f" - out {b['enthalpy_out_products_kw']:,.1f} kW = {b['imbalance_kw']:.3g} kW"

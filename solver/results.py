@@ -14,10 +14,11 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from hxtrain.network import Case, Network, build_network, load_case
+from hxtrain.network import Network
+from hxtrain.units.models import TOTALS
 
-from .checks import enthalpy_balance, out_of_range
-from .engine import TemperatureSolution, inlets_of, solve_temperatures, tear_labels
+from .engine import ConvergenceError, TemperatureSolution, convergence_error, tear_labels
+from .evaluation import CHECK_FAILED, NOT_CONVERGED, SUCCESS, Evaluation, evaluate
 
 UNIT_COLUMNS = {
     "duty": "duty_kw",
@@ -46,9 +47,11 @@ UNIT_COLUMNS = {
     "t_in": "inlet_c",
     "t_out": "outlet_c",
 }
+"""Report quantity -> column of the units table (P, R and NTU on the hot-side basis)."""
 SCALE = {"dp_shell": 1e-3, "dp_tube": 1e-3}
 """Report quantities converted for the table (Pa -> kPa)."""
-"""Report quantity -> column of the units table (P, R and NTU on the hot-side basis)."""
+COUNTS = ("limit_violations", "warnings", "iterations")
+"""Summary entries that are counts (whole numbers in every output)."""
 
 CAUTION = (
     "Screening estimates. Mechanical limits, safety and operating decisions rest with qualified "
@@ -58,7 +61,7 @@ CAUTION = (
 
 @dataclass
 class SimulationResult:
-    """Result of one converged simulation (a failed one raises instead; see :func:`simulate`)."""
+    """Result of one successful simulation (one that is not raises instead; see :func:`simulate`)."""
 
     converged: bool
     message: str
@@ -73,6 +76,9 @@ class SimulationResult:
     case_file: str = ""
     caution: str = CAUTION
     network: Network | None = field(default=None, repr=False)
+    metrics: dict = field(default_factory=dict, repr=False)
+    """Named results a study may target, ``TAG.duty``, ``TAG.cold_out``, ``TAG.inlet``, ... ->
+    value (each unit declares its own)."""
 
     @property
     def success(self) -> bool:
@@ -80,120 +86,117 @@ class SimulationResult:
 
     @property
     def limits(self) -> pd.DataFrame:
-        """Only the violated limits (design temperature, temperature cross)."""
+        """Only the violated limits (design temperature, temperature cross, ...)."""
         return self.findings[self.findings["severity"] == "limit"]
 
 
 def simulate(case, *, tolerance=None, max_iterations=None) -> SimulationResult:
-    """Simulate a case (a path to a YAML file, or a :class:`Case`).
+    """Simulate a case (a path to a YAML file, a mapping with the case-file keys, or a
+    :class:`Case`): the evaluation of a batch of one.
 
-    Raises :class:`CaseError` for bad input (including a target no unit can meet) and
-    :class:`~.engine.ConvergenceError` when a block's tears do not converge.
-    """
-    if not isinstance(case, Case):
-        case = load_case(Path(case))
-    net = build_network(case)
-    tolerance = tolerance if tolerance is not None else case.settings.tolerance
-    max_iterations = max_iterations if max_iterations is not None else case.settings.max_iterations
-    solution = solve_temperatures(net, tolerance=tolerance, max_iterations=max_iterations)
-    return tabulate(net, solution, tolerance)
+    Raises :class:`CaseError` for bad input (including a scenario that asks for the impossible)
+    and :class:`~.engine.ConvergenceError` when the tears do not converge or the answer fails
+    its energy balance: no numbers are returned that failed a check."""
+    evaluation = evaluate(case, tolerance=tolerance, max_iterations=max_iterations)
+    raise_unless_success(evaluation, 0)
+    return tabulate(evaluation, 0)
 
 
-def tabulate(net: Network, solution: TemperatureSolution, tolerance) -> SimulationResult:
-    """Fill the result tables from a solved network (scenario 0 of the batch)."""
-    t = solution.temperature
-    flow = np.broadcast_to(net.flow, t.shape)
-    rows, findings, heat_added = {}, [], 0.0
+def raise_unless_success(evaluation: Evaluation, k: int, scenario: str = ""):
+    """Raise the error that scenario ``k`` of an evaluation stands for, if it is not a success;
+    ``scenario`` names it in the message (a study's variant)."""
+    status = int(evaluation.status[k])
+    if status == SUCCESS:
+        return
+    net = evaluation.net
+    prefix = f"scenario '{scenario}': " if scenario else ""
+    if status == NOT_CONVERGED:
+        error = convergence_error(net, evaluation.solution, evaluation.tolerance)
+        if evaluation.batch > 1 or scenario:
+            error = ConvergenceError(prefix + evaluation.message[k], error.diagnostics)
+        raise error
+    if status == CHECK_FAILED:
+        raise ConvergenceError(prefix + evaluation.message[k])
+    raise net.case.error(evaluation.reason_key[k] or (), prefix + evaluation.message[k])
+
+
+def scenario_summary(evaluation: Evaluation) -> dict:
+    """The headline numbers of every scenario (arrays over the batch): the totals, the units'
+    highlights (furnace inlet temperatures), counts of limits and warnings, the iterations."""
+    limits = sum((f.active for _, f in evaluation.findings if f.severity == "limit"), np.zeros(evaluation.batch))
+    warnings = sum((f.active for _, f in evaluation.findings if f.severity == "warning"), np.zeros(evaluation.batch))
+    ok = evaluation.success
+    return {**evaluation.totals, **evaluation.highlights,
+            "limit_violations": np.where(ok, limits, np.nan), "warnings": np.where(ok, warnings, np.nan),
+            "iterations": np.full(evaluation.batch, evaluation.iterations)}
+
+
+def tabulate(evaluation: Evaluation, k: int = 0) -> SimulationResult:
+    """The result tables of scenario ``k`` of a successful evaluation."""
+    net = evaluation.net
+    t = evaluation.solution.temperature[k]
+    rows, findings = {}, []
     for name, unit in net.units.items():
-        report = unit.report(inlets_of(net, name, t, flow))
-        row = {"type": unit.kind, **report.labels}
+        report = evaluation.reports[name]
+        row = {"type": unit.kind, "group": unit.group, **report.labels}
         for quantity, column in UNIT_COLUMNS.items():
             if quantity in report.quantities:
-                row[column] = float(np.asarray(report.quantities[quantity])[0]) * SCALE.get(quantity, 1.0)
-        notes = []
-        for finding in report.findings:
-            if finding.active[0]:
-                findings.append({"unit": name, "severity": finding.severity, "kind": finding.kind,
-                                 "key": finding.key, "message": finding.messages[0]})
-                notes.append(finding.kind)
-        row["findings"] = ", ".join(notes)
+                value = np.broadcast_to(report.quantities[quantity], (evaluation.batch,))[k]
+                row[column] = float(value) * SCALE.get(quantity, 1.0)
         rows[name] = row
-        heat_added += float(np.asarray(report.heat_added).reshape(-1)[0])
-    findings += _extrapolation_findings(net, t, flow)
-    _stop_on_bad_input(net, findings)
-    units = pd.DataFrame.from_dict(rows, orient="index", columns=["type", "u_source", *UNIT_COLUMNS.values(), "findings"])
+    notes = {name: [] for name in net.units}
+    for name, finding in evaluation.findings:
+        if finding.active[k]:
+            findings.append({"unit": name, "severity": finding.severity, "kind": finding.kind,
+                             "key": finding.key, "message": finding.messages[k]})
+            notes.setdefault(name, []).append(finding.kind)
+    for name, row in rows.items():
+        row["findings"] = ", ".join(notes.get(name, []))
+    columns = ["type", "group", "u_source", "heat_source", *UNIT_COLUMNS.values(), "findings"]
+    units = pd.DataFrame.from_dict(rows, orient="index", columns=columns).dropna(axis=1, how="all")
     units.index.name = "unit"
-    units = units.dropna(axis=1, how="all")
-    streams = _stream_table(net, t[0])
-    balance = _balance(net, t, flow, heat_added)
-    tears = _tear_table(net, solution)
     findings_table = pd.DataFrame(findings, columns=["unit", "severity", "kind", "key", "message"])
-    findings_table = findings_table.sort_values("severity", key=lambda s: s.map({"limit": 0, "warning": 1}), kind="stable")
-    summary = _summary(units, balance, solution, findings_table)
-    message = (f"converged: {len(tears)} tear stream(s), {solution.iterations} iterations, "
+    findings_table = findings_table.sort_values("severity", key=lambda s: s.map({"limit": 0, "warning": 1}),
+                                                kind="stable").reset_index(drop=True)
+    balance = pd.Series({key: float(v[k]) for key, v in evaluation.balance.items()})
+    summary = pd.Series({key: (int(v[k]) if key in COUNTS else float(v[k]))
+                         for key, v in scenario_summary(evaluation).items()}, dtype=object)
+    tears = _tear_table(net, evaluation.solution, k)
+    message = (f"converged: {len(tears)} tear stream(s), {evaluation.iterations} iterations, "
                f"energy balance closes to {balance['relative_imbalance']:.1e}")
-    return SimulationResult(True, message, solution.iterations, units, streams, tears,
-                            findings_table.reset_index(drop=True), balance, summary,
-                            net.case.title, net.case.file, network=net)
+    metrics = {f"{name}.{m}": float(np.broadcast_to(v, (evaluation.batch,))[k])
+               for name, r in evaluation.reports.items() for m, v in r.metrics.items()}
+    return SimulationResult(True, message, evaluation.iterations, units, _stream_table(net, t, k), tears,
+                            findings_table, balance, summary, net.case.title, net.case.file, network=net,
+                            metrics=metrics)
 
 
-def _stop_on_bad_input(net, findings):
-    for f in findings:
-        if f["severity"] == "input":
-            raise net.case.error(tuple(f["key"].split(".")), f["message"])
-
-
-def _extrapolation_findings(net: Network, t, flow):
-    """A segment whose temperature lies outside a fluid's data range is refused (bad input, naming
-    the fluid's range) unless that fluid allows extrapolation, which is then flagged, never silent."""
-    found = []
-    for seg, member, where in out_of_range(net, t, flow):
-        if not where[0]:
-            continue
-        low, high = member.valid_range
-        message = (f"segment {seg.label} reaches {t[0, seg.index]:.1f} °C, outside the data range "
-                   f"{low:g} to {high:g} °C of fluid '{member.name}'")
-        if member.extrapolate:
-            found.append({"unit": seg.target, "severity": "warning", "kind": "property_extrapolation",
-                          "key": member.range_key, "message": message + ": properties extrapolated"})
-        else:
-            found.append({"unit": seg.target, "severity": "input", "kind": "property_range",
-                          "key": member.range_key, "message": message + "; widen the data (or set "
-                          "'extrapolate: true' on the fluid to accept extrapolated properties)"})
-    return found
-
-
-def _capacity_rates(net: Network, t):
-    return np.array([m * fluid.cp(temperature) for m, fluid, temperature in zip(net.flow, net.fluids, t)])
-
-
-def _stream_table(net: Network, t) -> pd.DataFrame:
+def _stream_table(net: Network, t, k) -> pd.DataFrame:
+    flow = net.flow[k]
     table = pd.DataFrame(
         {
             "segment": [s.label for s in net.segments],
             "path_of": [s.origin for s in net.segments],
             "from_unit": [s.source for s in net.segments],
             "to_unit": [s.target for s in net.segments],
-            "flow_kg_s": net.flow,
-            "heat_capacity_rate_kw_per_k": _capacity_rates(net, t),
+            "flow_kg_s": flow,
+            "heat_capacity_rate_kw_per_k": [float(m * np.broadcast_to(fluid.cp(np.full(net.batch, temperature)),
+                                                                          (net.batch,))[k])
+                                            for m, fluid, temperature in zip(flow, net.fluids, t)],
             "temperature_c": t,
+            "utility": net.utility,
         }
     )
     table.index.name = "segment_id"
     return table
 
 
-def _balance(net: Network, t, flow, heat_added) -> pd.Series:
-    """Overall enthalpy balance (reference 0 °C) from the stream table and the external duties."""
-    return pd.Series({k: float(np.asarray(v).reshape(-1)[0]) for k, v in enthalpy_balance(net, t, flow, heat_added).items()})
-
-
-def _tear_table(net: Network, solution: TemperatureSolution) -> pd.DataFrame:
+def _tear_table(net: Network, solution: TemperatureSolution, k) -> pd.DataFrame:
     rows = []
     for outcome in solution.blocks:
         if outcome.tears is None:
             continue
-        for label, seg, residual in zip(tear_labels(net, outcome.block), outcome.block.tears, outcome.tears.residual[0]):
+        for label, seg, residual in zip(tear_labels(net, outcome.block), outcome.block.tears, outcome.tears.residual[k]):
             rows.append({"tear_stream": label, "segment_id": seg, "block_units": len(outcome.block.units),
                          "tear_method": outcome.block.method, "iterations": outcome.tears.iterations,
                          "accelerators": " -> ".join(outcome.tears.methods), "final_residual_k": float(residual)})
@@ -201,21 +204,5 @@ def _tear_table(net: Network, solution: TemperatureSolution) -> pd.DataFrame:
                                        "accelerators", "final_residual_k"])
 
 
-def _summary(units, balance, solution, findings) -> pd.Series:
-    def total(kind):
-        return float(units.loc[units["type"] == kind, "duty_kw"].sum()) if "duty_kw" in units else 0.0
-
-    heaters = units[units["type"] == "heater"]
-    furnace_inlet = heaters["cold_in_c"].to_dict() if "cold_in_c" in heaters else {}
-    return pd.Series(
-        {
-            "heat_recovered_kw": total("exchanger"),
-            "heater_duty_kw": total("heater"),
-            "cooler_duty_kw": total("cooler"),
-            **{f"{name}_inlet_c": value for name, value in furnace_inlet.items()},
-            "limit_violations": int((findings["severity"] == "limit").sum()),
-            "warnings": int((findings["severity"] == "warning").sum()),
-            "iterations": solution.iterations,
-            "relative_imbalance": balance["relative_imbalance"],
-        }
-    )
+__all__ = ["SimulationResult", "simulate", "tabulate", "raise_unless_success", "scenario_summary", "CAUTION",
+           "UNIT_COLUMNS", "TOTALS"]

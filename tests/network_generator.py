@@ -412,7 +412,7 @@ def _exchanger_data(ch, c_min):
     bypass = {}
     for side in ("hot", "cold"):
         if ch.chance(0.2):
-            bypass[side] = ch.real(0.0, 0.5)
+            bypass[side] = round(ch.real(0.0, 0.5), 6)  # a case writes a fraction, not a denormal
     if bypass:
         data["bypass"] = bypass
     return data

@@ -16,17 +16,19 @@ UNITS_MAY_NOT_USE = {"yaml", "pint", "networkx", "pandas", "pathlib", "open", "o
 
 
 def imported_modules(path: Path):
-    """(module name, line) of every import; relative imports resolved within hxtrain."""
+    """(module name, line) of every import; relative imports resolved within hxtrain (a
+    subpackage's ``from ..x import y`` stays in its layer; one that climbs above the layer's
+    folder is reported as ``hxtrain.<parent>``)."""
     tree = ast.parse(path.read_text(encoding="utf-8"))
-    layer = path.parent.name
+    package = path.relative_to(ROOT).parts[:-1]  # e.g. ("solver", "simulation")
     for node in ast.walk(tree):
         if isinstance(node, ast.Import):
             for alias in node.names:
                 yield alias.name, node.lineno
         elif isinstance(node, ast.ImportFrom):
             if node.level:
-                # from . import x / from .x import y stays in the same layer; level 2 goes up
-                yield (f"hxtrain.{layer}" if node.level == 1 else "hxtrain.<parent>"), node.lineno
+                base = package[: len(package) - node.level + 1]
+                yield ("hxtrain." + ".".join(base) if base else "hxtrain.<parent>"), node.lineno
             else:
                 yield node.module or "", node.lineno
 
@@ -68,6 +70,34 @@ def test_the_check_sees_every_layer():
     """Guard against a vacuous pass: the rules above must have looked at real files."""
     assert {p.relative_to(ROOT).parts[0] for p in SOURCES} == set(LAYERS)
     assert len(SOURCES) >= 10
+
+
+UNIT_KIND_EXPRESSIONS = (".kind", "['type']", '["type"]', ".type")
+
+
+@pytest.mark.parametrize("path", sorted((ROOT / "solver").rglob("*.py")), ids=lambda p: str(p.relative_to(ROOT)))
+def test_solver_never_compares_unit_kinds_to_names(path):
+    """Units say what they are (their totals, metrics, group and parameters); the solver never
+    asks ``unit.kind == "heater"`` or filters a table by ``type == "exchanger"``."""
+    tree = ast.parse(path.read_text(encoding="utf-8"))
+    for node in ast.walk(tree):
+        if not isinstance(node, ast.Compare):
+            continue
+        sides = [node.left, *node.comparators]
+        texts = [ast.unparse(side) for side in sides]
+        literal = any(isinstance(side, ast.Constant) and isinstance(side.value, str) for side in sides) or any(
+            isinstance(side, (ast.List, ast.Tuple, ast.Set)) and side.elts
+            and all(isinstance(e, ast.Constant) and isinstance(e.value, str) for e in side.elts) for side in sides)
+        about_kind = any(text.endswith(UNIT_KIND_EXPRESSIONS) for text in texts)
+        assert not (literal and about_kind), f"{path}:{node.lineno}: compares a unit kind to a name: {ast.unparse(node)}"
+
+
+def test_the_kind_check_would_catch_a_switch():
+    """The rule above is not vacuous: it flags the forms it is meant to flag."""
+    for source in ('if unit.kind == "heater": pass', 'x = table["type"] == "exchanger"', 'y = u.kind in ("a", "b")'):
+        node = next(n for n in ast.walk(ast.parse(source)) if isinstance(n, ast.Compare))
+        texts = [ast.unparse(side) for side in (node.left, *node.comparators)]
+        assert any(text.endswith(UNIT_KIND_EXPRESSIONS) for text in texts)
 
 
 def test_solver_reaches_units_only_through_the_protocol():

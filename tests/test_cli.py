@@ -173,7 +173,7 @@ def test_out_csv_writes_one_readable_file_per_table(tmp_path, capsys):
     target = tmp_path / "results.csv"
     code, out, err = run_inprocess(capsys, "run", "--out", target)
     assert code == 0, err
-    expected = ["results.csv"] + [f"results_{name}.csv" for name in CSV_TABLES]
+    expected = ["results.csv"] + [f"results_{name}.csv" for name in CSV_TABLES] + [".results.csv.sha256"]
     assert sorted(p.name for p in tmp_path.iterdir()) == sorted(expected)
     units = pd.read_csv(target, index_col=0)
     assert set(CRUDE_TAGS) <= set(units.index)
@@ -346,26 +346,44 @@ def test_benchmark_bad_options_are_exit_2(option, capsys):
 # ----------------------------------------------------------------------------- atomic writes
 
 
-def _fail_midway(real):
-    """A writer that writes part of the real output, then fails (a full disk, a killed process)."""
+class _FailingHandle:
+    """A temporary file whose writes fail after ``limit`` bytes (a full disk, a killed process)."""
 
-    def writer(*args):
-        handle = args[-1]  # the writers take the file handle last
-        handle.write(b'{"partial": ')
-        raise OSError(28, "No space left on device")
+    def __init__(self, handle, limit):
+        self.handle, self.limit, self.written = handle, limit, 0
 
-    return writer
+    def write(self, data):
+        if self.written + len(data) > self.limit:
+            self.handle.write(data[:max(0, self.limit - self.written)])
+            raise OSError(28, "No space left on device")
+        self.written += len(data)
+        return self.handle.write(data)
+
+    def __getattr__(self, name):
+        return getattr(self.handle, name)
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        return self.handle.__exit__(*exc)
 
 
-@pytest.mark.parametrize("suffix,writer", [(".json", "_write_json"), (".xlsx", "_write_xlsx")])
-def test_failure_while_writing_leaves_the_old_file(suffix, writer, tmp_path, capsys, monkeypatch):
+def fail_writes_after(monkeypatch, limit):
+    """Make every temporary output file fail once ``limit`` bytes are written to it."""
+    real = os.fdopen
+    monkeypatch.setattr(output_module.os, "fdopen", lambda *a, **k: _FailingHandle(real(*a, **k), limit))
+
+
+@pytest.mark.parametrize("suffix", [".json", ".xlsx"])
+def test_failure_while_writing_leaves_the_old_file(suffix, tmp_path, capsys, monkeypatch):
     target = tmp_path / f"results{suffix}"
     target.write_bytes(b"old results\n")
     before = snapshot(tmp_path)
-    monkeypatch.setattr(output_module, writer, _fail_midway(getattr(output_module, writer)))
+    fail_writes_after(monkeypatch, 100)
     code, out, err = run_inprocess(capsys, "run", "--demo", "feed_effluent", "--out", target)
-    assert code != 0
-    assert "Traceback" not in err
+    assert code == 2, err
+    assert "Traceback" not in err and "cannot be written" in err
     assert snapshot(tmp_path) == before, "the old output changed or a temporary file was left behind"
 
 
@@ -399,7 +417,7 @@ def test_write_results_failure_cleans_up_directly(tmp_path, monkeypatch):
     result = simulate(demo_case_path("feed_effluent"))
     target = tmp_path / "results.json"
     target.write_bytes(b"keep me")
-    monkeypatch.setattr(output_module, "_write_json", _fail_midway(output_module._write_json))
+    fail_writes_after(monkeypatch, 100)
     with pytest.raises(CaseError, match="cannot be written"):
         output_module.write_results(result, target)
     assert snapshot(tmp_path) == {"results.json": b"keep me"}

@@ -65,7 +65,7 @@ def test_demo_furnace_inlet_temperatures_for_the_record(demo_runs, capsys):
         for state in ("fouled", "clean"):
             summary = demo_runs[scale][state].summary
             row[f"F-101_inlet_c_{state}"] = summary["F-101_inlet_c"]
-            row[f"furnace_duty_kw_{state}"] = summary["heater_duty_kw"]
+            row[f"furnace_duty_kw_{state}"] = summary["fired_heater_duty_kw"]
         rows.append(row)
     table = pd.DataFrame(rows).set_index("crude_flow_pct")
     with capsys.disabled():
@@ -156,7 +156,7 @@ def test_demo_service_u_follows_its_films(demo_runs):
 def test_demo_furnace_inlet_falls_and_duty_rises_with_crude_flow(demo_runs):
     for state in ("fouled", "clean"):
         inlet = [demo_runs[s][state].summary["F-101_inlet_c"] for s in SCALES]
-        duty = [demo_runs[s][state].summary["heater_duty_kw"] for s in SCALES]
+        duty = [demo_runs[s][state].summary["fired_heater_duty_kw"] for s in SCALES]
         assert inlet[0] > inlet[1] > inlet[2], (state, inlet)
         assert duty[0] < duty[1] < duty[2], (state, duty)
 
@@ -211,7 +211,7 @@ def test_clean_u_is_at_least_service_u_and_furnace_duty_falls_when_clean(demo_ru
     assert (f["u_clean_w_m2k"] > f["u_service_w_m2k"]).all()  # every demo exchanger has fouling
     np.testing.assert_allclose(c["u_service_w_m2k"], c["u_clean_w_m2k"], rtol=1e-12)
     assert (c["fouling_shell_m2k_w"] == 0).all() and (c["fouling_tube_m2k_w"] == 0).all()
-    assert clean.summary["heater_duty_kw"] <= fouled.summary["heater_duty_kw"]
+    assert clean.summary["fired_heater_duty_kw"] <= fouled.summary["fired_heater_duty_kw"]
     assert clean.summary["heat_recovered_kw"] >= fouled.summary["heat_recovered_kw"]
     assert clean.summary["F-101_inlet_c"] >= fouled.summary["F-101_inlet_c"]
 
@@ -221,23 +221,23 @@ def test_compare_clean_and_fouled_agrees_with_two_simulations(demo_runs):
     comparison = compare_clean_and_fouled(case)
     fouled, clean = demo_runs[1.00]["fouled"], demo_runs[1.00]["clean"]
     totals = comparison.totals
-    for key in ("heat_recovered_kw", "heater_duty_kw", "cooler_duty_kw", "F-101_inlet_c"):
-        assert totals[f"{key}_fouled"] == pytest.approx(fouled.summary[key], rel=1e-12)
-        assert totals[f"{key}_clean"] == pytest.approx(clean.summary[key], rel=1e-12)
-    assert totals["heater_duty_penalty_kw"] == pytest.approx(
-        fouled.summary["heater_duty_kw"] - clean.summary["heater_duty_kw"], rel=1e-12)
-    assert totals["heater_duty_penalty_kw"] > 0
+    for key in ("heat_recovered_kw", "fired_heater_duty_kw", "cooler_duty_kw", "F-101_inlet_c"):
+        assert totals.loc[key, "fouled"] == pytest.approx(fouled.summary[key], rel=1e-12)
+        assert totals.loc[key, "clean"] == pytest.approx(clean.summary[key], rel=1e-12)
+    assert comparison.fired_duty_penalty_kw == pytest.approx(
+        fouled.summary["fired_heater_duty_kw"] - clean.summary["fired_heater_duty_kw"], rel=1e-12)
+    assert comparison.fired_duty_penalty_kw > 0
     table = comparison.exchangers
     np.testing.assert_allclose(table["duty_fouled_kw"], exchangers_of(fouled)["duty_kw"], rtol=1e-12)
     np.testing.assert_allclose(table["duty_clean_kw"], exchangers_of(clean).loc[table.index, "duty_kw"], rtol=1e-12)
-    np.testing.assert_allclose(table["duty_lost_kw"], table["duty_clean_kw"] - table["duty_fouled_kw"], rtol=1e-12)
+    np.testing.assert_allclose(table["duty_lost_to_fouling_kw"], table["duty_clean_kw"] - table["duty_fouled_kw"], rtol=1e-12)
     # the case passed in is left fouled
-    assert simulate(case).summary["heater_duty_kw"] == pytest.approx(fouled.summary["heater_duty_kw"], rel=1e-12)
+    assert simulate(case).summary["fired_heater_duty_kw"] == pytest.approx(fouled.summary["fired_heater_duty_kw"], rel=1e-12)
 
 
 def test_compare_clean_and_fouled_accepts_a_path():
     comparison = compare_clean_and_fouled(demo_case_path("crude_preheat"))
-    assert comparison.totals["heater_duty_kw_clean"] < comparison.totals["heater_duty_kw_fouled"]
+    assert comparison.totals.loc["fired_heater_duty_kw", "clean"] < comparison.totals.loc["fired_heater_duty_kw", "fouled"]
 
 
 # ============================================================================ small cases

@@ -550,11 +550,13 @@ def test_scale_a_plain_number_and_scale_twice(crude_doc):
     assert crude_doc.data["exchangers"]["E-101"]["area_per_shell"] == 110
 
 
-def test_scale_a_temperature_string_scales_degrees_celsius(crude_doc):
+def test_scale_a_temperature_is_refused(crude_doc):
+    """A temperature level has no meaningful multiple (86 °F × 2 is not 60 °C); see
+    tests/test_defects_studies.py for the message."""
     data = copy.deepcopy(crude_doc.data)
     data["streams"]["crude"]["supply_temperature"] = "86 degF"  # 30 °C
-    changed = apply_changes(data, [{"scale": "streams.crude.supply_temperature", "by": 2}])
-    assert changed["streams"]["crude"]["supply_temperature"] == pytest.approx(60.0, rel=1e-9)
+    with pytest.raises(CaseError, match="use set"):
+        apply_changes(data, [{"scale": "streams.crude.supply_temperature", "by": 2}])
 
 
 def test_bypass_changes_an_existing_bypass(crude_doc):
@@ -884,7 +886,7 @@ def test_one_dimensional_sweep_rows_equal_individual_runs(tmp_path):
     for _, row in table.iterrows():
         direct = key_outputs(simulate_data(cooling_data(cw_flow=float(row["streams.cooling_water.flow"]))))
         assert_same_outputs(row[direct.index], direct)
-    assert table["heat_recovered_kw"].is_monotonic_increasing  # more water, more heat taken
+    assert table["heat_to_utilities_kw"].is_monotonic_increasing  # more water, more heat taken
 
 
 def test_two_dimensional_sweep_rows_equal_individual_runs(tmp_path):
@@ -901,7 +903,7 @@ def test_two_dimensional_sweep_rows_equal_individual_runs(tmp_path):
                             first=float(row[CW_FIRST]))
         direct = key_outputs(simulate_data(data))
         assert_same_outputs(row[direct.index], direct)
-    assert table["heat_recovered_kw"].nunique() == 6
+    assert table["heat_to_utilities_kw"].nunique() == 6
 
 
 def test_sweep_with_scale_multiplies_the_base_value(tmp_path):
@@ -915,7 +917,7 @@ def test_sweep_with_scale_multiplies_the_base_value(tmp_path):
         assert_same_outputs(row[direct.index], direct)
     # and not the plain value: 1.2 kg/s of naphtha would be quite another case
     plain = key_outputs(simulate_data(cooling_data(naphtha_flow=1.2)))
-    assert not np.isclose(table.iloc[2]["heat_recovered_kw"], plain["heat_recovered_kw"], rtol=1e-3)
+    assert not np.isclose(table.iloc[2]["heat_to_utilities_kw"], plain["heat_to_utilities_kw"], rtol=1e-3)
 
 
 def test_scaled_two_dimensional_sweep_of_a_branch_fraction(tmp_path):
@@ -932,10 +934,10 @@ def test_scaled_two_dimensional_sweep_of_a_branch_fraction(tmp_path):
 
 
 def test_sweep_point_making_the_case_invalid_is_an_error(tmp_path):
-    study = _sweep_study(tmp_path, "streams.naphtha.flow: [20, -5]")
-    with pytest.raises(CaseError) as info:
+    with pytest.raises(CaseError) as info:  # found when the study is read, before anything runs
+        study = _sweep_study(tmp_path, "streams.naphtha.flow: [20, -5]")
         run_sweep(study, study.sweeps[0])
-    assert str(study.file) in str(info.value) and "sweeps.s" in str(info.value)
+    assert str(tmp_path / "study.yaml") in str(info.value) and "sweeps.s" in str(info.value)
 
 
 # ============================================================================= 6. cleaning ranking
@@ -946,14 +948,14 @@ def _check_ranking(case, ranking, fouled_tags):
     heaters = [k for k in fouled.summary.index if k.endswith("_inlet_c")]
     assert sorted(ranking["exchanger"]) == sorted(fouled_tags)
     assert list(ranking.index) == list(range(1, len(fouled_tags) + 1))
-    saved = ranking["heater_duty_saved_kw"].to_numpy()
+    saved = ranking["fired_duty_saved_kw"].to_numpy()
     assert np.all(np.diff(saved) <= 0), "not sorted by the duty saved, descending"
     for _, row in ranking.iterrows():
         tag = row["exchanger"]
         clean = simulate(without_fouling(case, [tag]))
-        expected = fouled.summary["heater_duty_kw"] - clean.summary["heater_duty_kw"]
-        assert row["heater_duty_saved_kw"] == pytest.approx(expected, rel=1e-9, abs=1e-9)
-        assert row["duty_gained_kw"] == pytest.approx(
+        expected = fouled.summary["fired_heater_duty_kw"] - clean.summary["fired_heater_duty_kw"]
+        assert row["fired_duty_saved_kw"] == pytest.approx(expected, rel=1e-9, abs=1e-9)
+        assert row["exchanger_duty_gained_kw"] == pytest.approx(
             clean.units.loc[tag, "duty_kw"] - fouled.units.loc[tag, "duty_kw"], rel=1e-9, abs=1e-9)
         for h in heaters:
             gain = clean.summary[h] - fouled.summary[h]
@@ -972,9 +974,9 @@ def test_cleaning_ranking_on_a_small_fouled_case(tmp_path):
         data = document_data(path)
         data["exchangers"][row["exchanger"]]["fouling"] = {"shell": 0.0, "tube": 0.0}
         clean = simulate_data(data)
-        assert row["heater_duty_saved_kw"] == pytest.approx(
-            fouled.summary["heater_duty_kw"] - clean.summary["heater_duty_kw"], rel=1e-9)
-        assert row["heater_duty_saved_kw"] > 0
+        assert row["fired_duty_saved_kw"] == pytest.approx(
+            fouled.summary["fired_heater_duty_kw"] - clean.summary["fired_heater_duty_kw"], rel=1e-9)
+        assert row["fired_duty_saved_kw"] > 0
     assert cleaning_ranking(path).equals(ranking)  # a path works as well as a case
 
 
@@ -1129,10 +1131,10 @@ def test_cleaning_command_prints_and_writes_the_ranking(tmp_path, capsys):
     order = [out.index(f" {tag} ") for tag in expected["exchanger"]]
     assert order == sorted(order) and len(order) == 2
     assert "E-2 " not in out and "E-4 " not in out
-    assert f"{expected['heater_duty_saved_kw'].iloc[0]:,.2f}" in out
+    assert f"{expected['fired_duty_saved_kw'].iloc[0]:,.2f}" in out
     written = pd.read_csv(out_file, index_col=0)
     assert list(written["exchanger"]) == list(expected["exchanger"])
-    np.testing.assert_allclose(written["heater_duty_saved_kw"], expected["heater_duty_saved_kw"], rtol=1e-12)
+    np.testing.assert_allclose(written["fired_duty_saved_kw"], expected["fired_duty_saved_kw"], rtol=1e-12)
 
 
 def test_cleaning_command_on_a_case_without_fouling(capsys):

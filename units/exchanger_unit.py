@@ -4,7 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from .models import UnitReport, _Base, check, design_temperature_findings
+from .models import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, UnitReport, _Base, check, \
+    design_temperature_findings
+from .thermal import FixedCoefficient
 from .service import ExchangerSpec, rate_in_service
 
 __all__ = ["Exchanger"]
@@ -19,14 +21,51 @@ class Exchanger(_Base):
     """
 
     kind = "exchanger"
+    group = "exchangers"
     inlets = ("hot", "cold")
     outlets = ("hot", "cold")
 
-    def __init__(self, name, key, spec: ExchangerSpec, *, minimum_approach, minimum_f, limits=None):
+    def __init__(self, name, key, spec: ExchangerSpec, *, minimum_approach, minimum_f, limits=None,
+                 utility_sides=()):
         self.name, self.key, self.spec = name, key, spec
         self.minimum_approach, self.minimum_f = minimum_approach, minimum_f
         self.limits = limits or {}
+        self.utility_sides = frozenset(utility_sides)
+        """Sides ("hot"/"cold") carrying a utility stream: the duty then counts as heat to (or
+        from) utilities rather than heat recovered between process streams."""
         self._last_outlets = None  # warm start of the in-service iteration (speed only)
+
+    @property
+    def total(self):
+        """Which run total the duty counts in (None: utility on both sides, in no total)."""
+        hot, cold = "hot" in self.utility_sides, "cold" in self.utility_sides
+        return {(False, False): HEAT_RECOVERED, (False, True): HEAT_TO_UTILITIES,
+                (True, False): HEAT_FROM_UTILITIES}.get((hot, cold))
+
+    def parameters(self):
+        spec = self.spec
+        found = [Parameter(f"bypass.{side}", "fraction", 0.0, 1.0) for side in ("hot", "cold")]
+        if spec.ua is not None:
+            found.append(Parameter("ua", "conductance", 0.0))
+        elif isinstance(spec.thermal, FixedCoefficient):
+            found.append(Parameter("u", "heat_transfer_coefficient", 0.0))
+        found += [Parameter(f"fouling.{part}", "fouling_resistance", 0.0) for part in spec.fouling]
+        return tuple(found)
+
+    def set_parameter(self, name, values):
+        values = np.asarray(values, dtype=float)
+        if name not in {p.name for p in self.parameters()}:
+            return super().set_parameter(name, values)
+        group, _, part = name.partition(".")
+        if group == "bypass":
+            setattr(self.spec, f"bypass_{part}", values)
+        elif group == "ua":
+            self.spec.ua = values
+        elif group == "u":
+            self.spec.thermal.u = values
+        else:
+            self.spec.set_fouling(part, values)
+        self._last_outlets = None
 
     def rate(self, inlets, details=True):
         service = rate_in_service(self.spec, inlets.t[:, 0], inlets.t[:, 1], inlets.m[:, 0], inlets.m[:, 1],
@@ -54,14 +93,15 @@ class Exchanger(_Base):
                 quantities.update(h_shell=coefficients.h_shell, h_tube=coefficients.h_tube)
             if coefficients.reynolds_tube is not None:
                 quantities["re_tube"] = coefficients.reynolds_tube
-            thermal = self.spec.thermal
-            quantities.update(fouling_shell=np.full(x.duty.shape, thermal.fouling_shell),
-                              fouling_tube=np.full(x.duty.shape, thermal.fouling_tube))
+            for part, resistance in self.spec.fouling.items():
+                quantities[f"fouling_{part}"] = np.broadcast_to(resistance, x.duty.shape)
         for side, drop in service.pressure_drop.items():
             quantities[f"dp_{side}"] = drop
         labels = {"u_source": "fixed UA" if self.spec.ua is not None else self.spec.thermal.source}
         findings = self._limit_findings(inlets, service) + self._rating_findings(x, coefficients, t_hot, t_cold)
-        return UnitReport(quantities, findings, labels=labels)
+        totals = {} if self.total is None else {self.total: x.duty}
+        metrics = {"duty": x.duty, "hot_in": t_hot, "hot_out": x.t_hot_out, "cold_in": t_cold, "cold_out": x.t_cold_out}
+        return UnitReport(quantities, findings, labels=labels, totals=totals, metrics=metrics)
 
     def _limit_findings(self, inlets, service):
         x, key = service.rating, self.key

@@ -23,13 +23,61 @@ from typing import Protocol
 import numpy as np
 
 from . import balances
-from .properties import Blend
+from .properties import PHYSICAL_RANGE, Blend
 
-__all__ = ["UnitModel", "Inlets", "Finding", "UnitReport", "Source", "Sink", "Heater", "Mixer", "Splitter", "check"]
+__all__ = ["UnitModel", "Inlets", "Finding", "UnitReport", "Parameter", "Source", "Sink", "Heater", "Mixer", "Splitter",
+           "check", "rescaled_fractions", "TOTALS", "HEAT_SOURCES"]
 
 SEVERITIES = ("limit", "warning", "input")
 """``limit``: a design limit violated (shown prominently); ``warning``: worth a look;
-``input``: the case asks for something impossible (the run stops as bad input)."""
+``input``: the case asks for something impossible (that scenario is not valid)."""
+
+HEAT_RECOVERED = "heat_recovered_kw"
+FIRED_HEATERS = "fired_heater_duty_kw"
+OTHER_HEATERS = "other_heater_duty_kw"
+COOLERS = "cooler_duty_kw"
+HEAT_TO_UTILITIES = "heat_to_utilities_kw"
+HEAT_FROM_UTILITIES = "heat_from_utilities_kw"
+TOTALS = {
+    HEAT_RECOVERED: "heat recovered, process to process",
+    FIRED_HEATERS: "fired heaters (furnaces)",
+    OTHER_HEATERS: "other heaters (utility heat, heat of reaction)",
+    COOLERS: "coolers",
+    HEAT_TO_UTILITIES: "heat to utility streams in exchangers",
+    HEAT_FROM_UTILITIES: "heat from utility streams in exchangers",
+}
+"""The totals a run reports, each fed by the units that declare a contribution to it in their
+report (:attr:`UnitReport.totals`): the solver adds them up without knowing unit types."""
+
+HEAT_SOURCES = ("fired", "utility", "reaction")
+"""What a heater's heat is: burnt fuel (a furnace or fired heater), a bought utility (steam,
+hot oil, electricity), or heat released in the process itself (a reaction)."""
+
+
+@dataclass(frozen=True)
+class Parameter:
+    """A value of a unit that a scenario may vary: its key below the unit's case-file entry
+    (``flow``, ``fouling.shell``, ``branches.north.fraction``), the kind of quantity (a name such
+    as ``mass_flow``, ``temperature``, ``fraction``) and its physical bounds."""
+
+    name: str
+    quantity: str
+    low: float = -np.inf
+    high: float = np.inf
+    low_open: bool = False
+    """True where ``low`` itself is excluded (a flow must be above 0)."""
+
+    def outside(self, values) -> np.ndarray:
+        """True where a value is not finite or lies outside the bounds."""
+        v = np.asarray(values, dtype=float)
+        below = v <= self.low if self.low_open else v < self.low
+        return ~np.isfinite(v) | below | (v > self.high)
+
+    def bounds_text(self) -> str:
+        low = f"above {self.low:g}" if self.low_open else f"at least {self.low:g}"
+        if np.isinf(self.low):
+            return f"at most {self.high:g}"
+        return low if np.isinf(self.high) else f"{low} and at most {self.high:g}"
 
 
 @dataclass
@@ -63,6 +111,12 @@ class UnitReport:
     """Heat put into the process streams from outside (kW): heaters +, coolers -."""
     labels: dict[str, str] = field(default_factory=dict)
     """Fixed descriptions for the results table (e.g. how U is found)."""
+    totals: dict[str, np.ndarray] = field(default_factory=dict)
+    """This unit's contribution to the run's totals (keys of :data:`TOTALS`), kW."""
+    metrics: dict[str, np.ndarray] = field(default_factory=dict)
+    """Named results a study may target: ``duty``, ``hot_out``, ``inlet``, ``outlet``, ..."""
+    highlights: dict[str, np.ndarray] = field(default_factory=dict)
+    """Headline numbers of the run this unit gives (a furnace's inlet temperature)."""
 
 
 @dataclass
@@ -90,17 +144,29 @@ class Inlets:
 class UnitModel(Protocol):
     name: str
     kind: str
+    """What the unit is, in words for the results table ("exchanger", "heater", ...)."""
+    group: str
+    """The results section it is shown in: ``exchangers``, ``heaters_and_coolers``, ``products``
+    or ``nodes`` (supplies, mixers, splitters)."""
     key: str
     inlets: tuple[str, ...]
     outlets: tuple[str, ...]
 
-    def flow_coefficients(self) -> np.ndarray: ...
+    def flow_coefficients(self) -> np.ndarray:
+        """(outlets, inlets), or (batch, outlets, inlets) where a scenario varies them."""
 
-    def supplied_flow(self) -> np.ndarray: ...
+    def supplied_flow(self) -> np.ndarray:
+        """(outlets,), or (batch, outlets)."""
 
     def outlet_temperatures(self, inlets: Inlets) -> np.ndarray: ...
 
     def report(self, inlets: Inlets) -> UnitReport: ...
+
+    def parameters(self) -> tuple[Parameter, ...]:
+        """The values a scenario may vary."""
+
+    def set_parameter(self, name: str, values: np.ndarray) -> None:
+        """Give parameter ``name`` one value per scenario (mutates the unit)."""
 
 
 def check(kind, severity, active, key, template, **values):
@@ -135,6 +201,7 @@ def design_temperature_findings(key, sides):
 class _Base:
     inlets: tuple[str, ...] = ("in",)
     outlets: tuple[str, ...] = ("out",)
+    group = "nodes"
 
     def flow_coefficients(self):
         return np.eye(len(self.outlets), len(self.inlets))
@@ -142,11 +209,18 @@ class _Base:
     def supplied_flow(self):
         return np.zeros(len(self.outlets))
 
+    def parameters(self) -> tuple[Parameter, ...]:
+        return ()
+
+    def set_parameter(self, name, values):
+        known = ", ".join(p.name for p in self.parameters()) or "none"
+        raise KeyError(f"{self.key} has no parameter '{name}' that a scenario may vary (it has: {known})")
+
 
 class Source(_Base):
     """A supply of one fluid at a fixed flow (kg/s) and temperature (°C)."""
 
-    kind = "source"
+    kind = "supply"
     inlets = ()
 
     def __init__(self, name, key, flow, temperature):
@@ -155,19 +229,33 @@ class Source(_Base):
         self.temperature = np.asarray(temperature, dtype=float)
 
     def supplied_flow(self):
-        return np.atleast_1d(self.flow)
+        return self.flow[..., None]
+
+    def parameters(self):
+        return (Parameter("flow", "mass_flow", 0.0, low_open=True),
+                Parameter("supply_temperature", "temperature", PHYSICAL_RANGE[0], PHYSICAL_RANGE[1]))
+
+    def set_parameter(self, name, values):
+        if name == "flow":
+            self.flow = np.asarray(values, dtype=float)
+        elif name == "supply_temperature":
+            self.temperature = np.asarray(values, dtype=float)
+        else:
+            super().set_parameter(name, values)
 
     def outlet_temperatures(self, inlets):
         return np.broadcast_to(self.temperature, (inlets.batch,))[:, None].copy()
 
     def report(self, inlets):
-        return UnitReport({"t_out": self.outlet_temperatures(inlets)[:, 0]})
+        t = self.outlet_temperatures(inlets)[:, 0]
+        return UnitReport({"t_out": t}, metrics={"outlet": t})
 
 
 class Sink(_Base):
     """Where a stream leaves the network; an optional target temperature is reported as a deviation."""
 
     kind = "product"
+    group = "products"
     outlets = ()
 
     def __init__(self, name, key, target_temperature=None):
@@ -181,7 +269,7 @@ class Sink(_Base):
         quantities = {"t_in": inlets.t[:, 0]}
         if self.target_temperature is not None:
             quantities["deviation"] = inlets.t[:, 0] - self.target_temperature
-        return UnitReport(quantities)
+        return UnitReport(quantities, metrics={"inlet": inlets.t[:, 0]})
 
 
 class Mixer(_Base):
@@ -200,11 +288,13 @@ class Mixer(_Base):
         return mix(inlets)[:, None]
 
     def report(self, inlets):
-        return UnitReport({"t_out": mix(inlets)})
+        t = mix(inlets)
+        return UnitReport({"t_out": t}, metrics={"outlet": t})
 
 
 class Splitter(_Base):
-    """Splits one inlet into branches by fixed fractions (which sum to one)."""
+    """Splits one inlet into branches by fractions that sum to one. A scenario may set one
+    branch's fraction; the other branches then share the rest in their base proportions."""
 
     kind = "splitter"
 
@@ -214,38 +304,89 @@ class Splitter(_Base):
         self.fractions = np.array([fractions[b] for b in self.outlets], dtype=float)
 
     def flow_coefficients(self):
-        return self.fractions[:, None]
+        return self.fractions[..., None]
+
+    def parameters(self):
+        return tuple(Parameter(f"branches.{b}.fraction", "fraction", 0.0, 1.0) for b in self.outlets)
+
+    def set_parameter(self, name, values):
+        branch = name.removeprefix("branches.").removesuffix(".fraction")
+        if branch not in self.outlets or not name.endswith(".fraction"):
+            return super().set_parameter(name, values)
+        self.fractions = np.stack(rescaled_fractions(self.outlets, self.fractions, branch, values), axis=-1)
 
     def outlet_temperatures(self, inlets):
         return np.repeat(inlets.t, len(self.outlets), axis=1)
 
     def report(self, inlets):
-        return UnitReport({"t_out": inlets.t[:, 0]})
+        return UnitReport({"t_out": inlets.t[:, 0]}, metrics={"outlet": inlets.t[:, 0]})
+
+
+def rescaled_fractions(branches, fractions, branch, value):
+    """Branch fractions with ``branch`` set to ``value`` (a number or an array) and the other
+    branches rescaled in proportion to ``fractions`` (their base values), so that they still
+    sum to one; with no base share left, the others share the rest equally.
+
+    >>> [round(float(f), 12) for f in rescaled_fractions(("a", "b", "c"), [0.5, 0.3, 0.2], "a", 0.8)]
+    [0.8, 0.12, 0.08]
+    """
+    fractions = np.asarray(fractions, dtype=float)
+    value = np.asarray(value, dtype=float)
+    chosen = list(branches).index(branch)
+    base = fractions[..., [j for j in range(len(branches)) if j != chosen]]
+    rest = base.sum(axis=-1, keepdims=True)
+    shares = np.where(rest > 0.0, base / np.where(rest > 0.0, rest, 1.0), 1.0 / max(1, base.shape[-1]))
+    others = iter(np.moveaxis((1.0 - value)[..., None] * shares, -1, 0))
+    return [np.broadcast_to(value, np.shape(value)) * 1.0 if j == chosen else next(others) for j in range(len(branches))]
 
 
 class Heater(_Base):
-    """A heater (furnace, trim heater) or cooler on one stream: fixed duty or target outlet.
+    """A heater (furnace, trim heater, steam heater, a reactor's heat release) or a cooler on one
+    stream: fixed duty or target outlet temperature.
 
     ``duty`` is the heat added (heater) or removed (cooler), kW, >= 0; or ``outlet_temperature``
-    sets the outlet and the duty follows. A target on the wrong side of the inlet is bad input.
+    sets the outlet and the duty follows. A heater whose inlet is already at or above its target
+    (a cooler: at or below) idles, as its control valve would close: zero duty, the outlet at the
+    inlet temperature, and a "target not reached" warning. ``heat_source`` (heaters) says which
+    total its duty counts in (see :data:`HEAT_SOURCES`).
     """
 
-    def __init__(self, name, key, *, cooler=False, duty=None, outlet_temperature=None, design_temperature=None):
+    group = "heaters_and_coolers"
+
+    def __init__(self, name, key, *, cooler=False, duty=None, outlet_temperature=None, design_temperature=None,
+                 heat_source="fired"):
         if (duty is None) == (outlet_temperature is None):
             raise ValueError("give exactly one of duty and outlet_temperature")
         self.name, self.key = name, key
         self.kind = "cooler" if cooler else "heater"
         self.sign = -1.0 if cooler else 1.0
-        self.duty, self.target = duty, outlet_temperature
+        self.duty = None if duty is None else np.asarray(duty, dtype=float)
+        self.target = None if outlet_temperature is None else np.asarray(outlet_temperature, dtype=float)
         self.design_temperature = design_temperature
+        self.heat_source = None if cooler else heat_source
+        self.total = COOLERS if cooler else (FIRED_HEATERS if heat_source == "fired" else OTHER_HEATERS)
+
+    def parameters(self):
+        if self.target is not None:
+            return (Parameter("outlet_temperature", "temperature", PHYSICAL_RANGE[0], PHYSICAL_RANGE[1]),)
+        return (Parameter("duty", "duty", 0.0),)
+
+    def set_parameter(self, name, values):
+        if name == "outlet_temperature" and self.target is not None:
+            self.target = np.asarray(values, dtype=float)
+        elif name == "duty" and self.duty is not None:
+            self.duty = np.asarray(values, dtype=float)
+        else:
+            super().set_parameter(name, values)
 
     def _heat_added(self, inlets):
         """Heat added (kW, negative for a cooler) and the outlet temperature."""
         t, m, fluid = inlets.t[:, 0], inlets.m[:, 0], inlets.fluids[0]
         if self.target is not None:
-            t_out = np.broadcast_to(np.asarray(self.target, float), t.shape).copy()
+            target = np.broadcast_to(self.target, t.shape)
+            t_out = np.maximum(target, t) if self.sign > 0 else np.minimum(target, t)
             return m * (fluid.enthalpy(t_out) - fluid.enthalpy(t)), t_out
-        added = np.broadcast_to(self.sign * np.asarray(self.duty, dtype=float), t.shape)
+        added = np.broadcast_to(self.sign * self.duty, t.shape)
         flows = m > 0.0
         h_out = fluid.enthalpy(t) + added / np.where(flows, m, 1.0)
         return added, np.where(flows, fluid.temperature(h_out, guess=t), t)
@@ -257,37 +398,34 @@ class Heater(_Base):
         t, m = inlets.t[:, 0], inlets.m[:, 0]
         added, t_out = self._heat_added(inlets)
         side = "cold" if self.kind == "heater" else "hot"
-        quantities = {"duty": self.sign * added, f"t_{side}_in": t, f"t_{side}_out": t_out}
+        duty = self.sign * added
+        quantities = {"duty": duty, f"t_{side}_in": t, f"t_{side}_out": t_out}
         findings = design_temperature_findings(self.key, {"the stream ": (self.design_temperature, t, t_out)})
         if self.target is not None:
+            target = np.broadcast_to(self.target, t.shape)
+            past = self.sign * (t - target) > 1e-9 * (1.0 + np.abs(target))
             findings.append(
-                check(
-                    "target_wrong_side",
-                    "input",
-                    self.sign * added < 0.0,
-                    f"{self.key}.outlet_temperature",
-                    f"the {self.kind}'s outlet temperature {{target:.2f}} °C is "
-                    + ("below" if self.kind == "heater" else "above")
-                    + " its inlet temperature {t:.2f} °C: a "
-                    + self.kind
-                    + " cannot do that; use "
-                    + ("a cooler" if self.kind == "heater" else "a heater")
-                    + " or change the target",
-                    target=self.target,
-                    t=t,
-                )
-            )
+                check("target_not_reached", "warning", past & (m > 0.0), f"{self.key}.outlet_temperature",
+                      f"target not reached: the stream enters at {{t:.2f}} °C, already "
+                      + ("above" if self.kind == "heater" else "below")
+                      + f" the {self.kind}'s outlet temperature of {{target:.2f}} °C, so the {self.kind} idles "
+                        "at zero duty", target=target, t=t))
         else:
             findings.append(
                 check(
                     "duty_without_flow",
                     "input",
-                    (m <= 0.0) & (np.asarray(self.duty) != 0.0),
+                    (m <= 0.0) & (np.broadcast_to(self.duty, t.shape) != 0.0),
                     f"{self.key}.duty",
                     f"the {self.kind} has a fixed duty but no flow through it",
                 )
             )
-        return UnitReport(quantities, findings, heat_added=np.where(m > 0.0, added, 0.0))
+        heat_added = np.where(m > 0.0, added, 0.0)
+        labels = {"heat_source": self.heat_source} if self.heat_source else {}
+        return UnitReport(quantities, findings, heat_added=heat_added, labels=labels,
+                          totals={self.total: np.where(m > 0.0, duty, 0.0)},
+                          metrics={"duty": duty, "inlet": t, "outlet": t_out},
+                          highlights={f"{self.name}_inlet_c": t} if self.total == FIRED_HEATERS else {})
 
 
 def mix(inlets: Inlets):

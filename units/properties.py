@@ -30,8 +30,12 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["FluidModel", "ConstantCp", "PolynomialCp", "TabulatedCp", "petroleum_fraction", "api_to_specific_gravity",
+__all__ = ["PHYSICAL_RANGE", "FluidModel", "ConstantCp", "PolynomialCp", "TabulatedCp", "petroleum_fraction", "api_to_specific_gravity",
            "AndradeViscosity", "Blend"]
+
+PHYSICAL_RANGE = (-273.15, 2000.0)
+"""Temperatures (°C) any stream may take: absolute zero to 2000 °C, the highest temperature a
+case file accepts anywhere (no process stream in a heat-exchanger network comes near it)."""
 
 BTU_PER_LB_F = 4.1868
 """kJ/kg·K in one Btu/lb·°F (International Table Btu)."""
@@ -91,21 +95,34 @@ class FluidModel:
         return np.where(close, self.cp(0.5 * (t1 + t2)), mean)
 
     def temperature(self, h, guess=None):
-        """Temperature (°C) at enthalpy ``h`` (kJ/kg): Newton steps, bisection as a safeguard."""
+        """Temperature (°C) at enthalpy ``h`` (kJ/kg): Newton steps, bisection as a safeguard,
+        within :data:`PHYSICAL_RANGE`. Where no temperature in that range has the enthalpy
+        ``h`` (a duty that would take the stream below absolute zero or past the range), or the
+        search does not meet ``h``, the result is NaN: never a clamped value posing as an answer."""
         h = _t(h)
+        low_limit, high_limit = PHYSICAL_RANGE
         t = h / self.cp(0.0) if guess is None else np.broadcast_to(_t(guess), h.shape).copy()
-        low, high = np.full(h.shape, -273.15), np.full(h.shape, 5000.0)
+        t = np.where(np.isfinite(t), np.clip(t, low_limit, high_limit), 0.0)
+        low, high = np.full(h.shape, low_limit), np.full(h.shape, high_limit)
         tolerance = 1e-13 * np.maximum(1.0, np.abs(h))
+        met = np.zeros(h.shape, bool)
         for _ in range(200):
             error = self.enthalpy(t) - h
-            if np.all(np.abs(error) <= tolerance):
+            met = np.abs(error) <= tolerance
+            if np.all(met):
                 break
             high = np.where(error > 0, np.minimum(high, t), high)
             low = np.where(error <= 0, np.maximum(low, t), low)
-            t_new = t - error / self.cp(t)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                t_new = t - error / self.cp(t)
             outside = (t_new <= low) | (t_new >= high) | ~np.isfinite(t_new)
-            t = np.where(np.abs(error) <= tolerance, t, np.where(outside, 0.5 * (low + high), t_new))
-        return t
+            t = np.where(met, t, np.where(outside, 0.5 * (low + high), t_new))
+        else:
+            met = np.abs(self.enthalpy(t) - h) <= tolerance
+        # bisection converges to a bound when h lies beyond it; a point within 1e-9 K of the
+        # true root may still miss the 1e-13 relative target on a steep cp: accept those
+        reached = met | (np.abs(self.enthalpy(t) - h) <= 1e-9 * np.abs(self.cp(t)) + tolerance)
+        return np.where(reached & np.isfinite(h), t, np.nan)
 
 
 class ConstantCp(FluidModel):
@@ -134,7 +151,9 @@ class ConstantCp(FluidModel):
         return self.value * _t(t)
 
     def temperature(self, h, guess=None):
-        return _t(h) / self.value
+        t = _t(h) / self.value
+        low, high = PHYSICAL_RANGE
+        return np.where((t >= low) & (t <= high), t, np.nan)
 
 
 class PolynomialCp(FluidModel):

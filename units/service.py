@@ -58,6 +58,21 @@ class ExchangerSpec:
     def total_area(self):
         return None if self.area_per_shell is None else self.area_per_shell * self.shells * self.shells_in_parallel
 
+    @property
+    def fouling(self) -> dict:
+        """Fouling resistances (m²·K/W) by part, ``shell`` and ``tube``; empty where U takes no
+        fouling (a fixed UA or a fixed service U)."""
+        if self.ua is not None or not getattr(self.thermal, "takes_fouling", False):
+            return {}
+        return {"shell": self.thermal.fouling_shell, "tube": self.thermal.fouling_tube}
+
+    def set_fouling(self, part, value):
+        """Replace the fouling resistance of ``part`` (``shell`` or ``tube``), m²·K/W: a number
+        or one value per scenario."""
+        if part not in self.fouling:
+            raise KeyError(f"no {part}-side fouling resistance here (U is not built from films)")
+        setattr(self.thermal, f"fouling_{part}", value)
+
 
 @dataclass
 class ServiceRating:

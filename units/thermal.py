@@ -43,6 +43,7 @@ class FixedCoefficient:
     """U given directly; it does not change with flow or temperature (the results say so)."""
 
     source = "fixed U"
+    takes_fouling = False
     fouling_shell = fouling_tube = 0.0
 
     def __init__(self, u):
@@ -93,6 +94,7 @@ class ScaledFilms:
     """
 
     source = "films scaled from reference"
+    takes_fouling = True
 
     def __init__(self, shell: SideFilm, tube: SideFilm, fouling_shell=0.0, fouling_tube=0.0, wall=0.0, diameter_ratio=1.0):
         self.shell, self.tube = shell, tube
@@ -160,6 +162,7 @@ class GeometryFilms:
     ratio (wall) factors are taken as 1. Needs cp, viscosity and conductivity of both fluids."""
 
     source = "films from geometry"
+    takes_fouling = True
 
     def __init__(self, bundle: TubeBundle, fouling_shell=0.0, fouling_tube=0.0, wall=0.0):
         self.bundle = bundle
