@@ -194,6 +194,20 @@ LENGTH_TO_SHELL = (0.5, 300.0)
 numbers are a slip, not a design."""
 
 
+def most_tubes(shell_diameter, pitch, layout) -> float:
+    """Upper bound on the tubes of one pitch and layout a shell can hold (m, m).
+
+    Each tube owns one lattice cell (LAYOUT_CELL · pitch²); the cells of tubes centred inside the
+    shell lie within shell_diameter/2 + pitch/√2 of its axis (a cell's farthest corner), so they
+    cannot outnumber that disc's area over a cell's. Clearances and pass lanes only lower the
+    real count (geometry; a bound, not an estimate of the count).
+
+    >>> round(most_tubes(0.75, 0.0254, "square"))
+    752
+    """
+    return math.pi * (shell_diameter / 2.0 + pitch / math.sqrt(2.0)) ** 2 / (LAYOUT_CELL[layout] * pitch**2)
+
+
 def _check_bundle(g: Fields, b: thermal.TubeBundle):
     """Refuse a bundle that cannot be built: tubes that do not fit the shell, baffles longer than
     the tubes, pitch, baffle spacing or proportions outside what any shell-and-tube design uses."""
@@ -206,9 +220,7 @@ def _check_bundle(g: Fields, b: thermal.TubeBundle):
                                     f"{MINIMUM_PITCH_RATIO} diameters apart (TEMA RCB-2.5, from memory)")
     if ds <= do:
         raise g.error("shell_inner_diameter", "must be larger than tube_outer_diameter")
-    # Each tube owns one lattice cell; the cells of tubes centred inside the shell lie within
-    # ds/2 + pitch/√2 of its axis (a cell's farthest corner), so they cannot outnumber that disc.
-    most = math.pi * (ds / 2.0 + pitch / math.sqrt(2.0)) ** 2 / (LAYOUT_CELL[b.layout] * pitch**2)
+    most = most_tubes(ds, pitch, b.layout)
     if b.tubes > most:
         raise g.error("tubes", f"{b.tubes} tubes on a {pitch * 1000:.4g} mm {b.layout} pitch cannot fit a "
                                f"{ds:.4g} m shell: even with no clearance and no pass lanes at most {most:.0f} fit")

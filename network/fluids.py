@@ -161,20 +161,35 @@ def _check_over_span(f: Fields, model):
 
     low, high = model.valid_range or DEFAULT_SPAN
     grid = np.linspace(low, high, 101)
-    coefficients = getattr(model, "coefficients", None)
-    if coefficients is not None and len(coefficients) > 2:
-        turning = np.roots(np.polyder(coefficients[::-1]))
-        turning = turning.real[(np.abs(turning.imag) < 1e-9) & (turning.real > low) & (turning.real < high)]
-        grid = np.sort(np.concatenate([grid, turning]))
     with np.errstate(all="ignore"):
+        grid = np.sort(np.concatenate([grid, _turning_points(getattr(model, "coefficients", None), low, high)]))
         checks = [("cp", q.SPECIFIC_HEAT, model.cp(grid), "check the coefficients (T in °C) or give 'valid_range', "
                                                           "the temperatures where they hold")]
         if isinstance(model.viscosity_model, props.AndradeViscosity) and model.valid_range:
             checks.append(("viscosity", q.VISCOSITY, model.viscosity(grid), "check the two points"))
     for key, kind, values, advice in checks:
-        bad = ~np.isfinite(values) | (values < kind.low) | (values > kind.high)
+        slack = 1e-9 * np.maximum(np.abs(values), 1e-300)  # a constant rebuilt as exp(log(v)) may differ by an ulp
+        bad = ~np.isfinite(values) | (values < kind.low - slack) | (values > kind.high + slack)
         if np.any(bad):
             t, value = grid[bad][0], values[bad][0]
             raise f.error(key, f"{key} is {value:.4g} {kind.shown_unit} at {t:g} °C, outside the plausible "
                                f"{kind.low:g} to {kind.high:g} {kind.shown_unit} ({kind.basis}) between {low:g} "
                                f"and {high:g} °C; {advice}")
+
+
+def _turning_points(coefficients, low, high):
+    """Where a cp polynomial (a0, a1, ...) has its extremes inside (low, high) °C. Terms too small
+    to matter anywhere in the span are dropped first (a denormal leading coefficient would
+    overflow the root finder)."""
+    import numpy as np
+
+    if coefficients is None or len(coefficients) < 3:
+        return np.empty(0)
+    derivative = np.polynomial.polynomial.polyder(np.asarray(coefficients, dtype=float))
+    scale = max(abs(low), abs(high), 1.0)
+    sizes = np.abs(derivative) * scale ** np.arange(len(derivative))
+    kept = derivative[: np.nonzero(sizes > 1e-15 * sizes.max())[0].max() + 1] if sizes.max() > 0 else derivative[:1]
+    if len(kept) < 2:
+        return np.empty(0)
+    roots = np.polynomial.polynomial.polyroots(kept)
+    return roots.real[(np.abs(roots.imag) < 1e-9) & (roots.real > low) & (roots.real < high)]

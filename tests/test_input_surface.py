@@ -9,8 +9,8 @@ limits, pressure drops, a fixed-duty heater, every setting). For every value in 
 * a number (or a list element, or a quantity with units) is replaced by 0, a negative number,
   1e-300, 5e-324 (the smallest denormal), 1e300, a 400-digit integer, the texts "NaN" and "inf",
   a quantity with units of the wrong kind, a list, a mapping, ``true`` and ``null``;
-* a text (a name, a path, a choice) by a number and by a list;
-* a mapping or a list by a scalar and by a list or mapping.
+* a text (a name, a path, a choice) by a number, a list, an empty text and an empty list;
+* a mapping or a list by a text, a list, a mapping with an unknown key and an empty one.
 
 Each changed case goes through ``hxtrain check`` and, when check accepts it, ``hxtrain run``,
 in-process under a time limit. The run must end with exit 0 or 2 — never an internal error
@@ -19,21 +19,34 @@ and exit 2 must come with one short message naming the file and the key path of 
 (or of its mapping). Exit 0 is allowed only where the new value is plausible for its key: the
 rules are in :func:`may_accept` (zero fouling or bypass, a temperature of −10 °C, ...), written
 here independently of the readers' own plausibility table.
+
+Further down: every quantity set to the ends of its plausible range (accepted and safe to run)
+and just past them (refused naming the key); property tests (hypothesis) of the quantity reader,
+of split fractions down to denormals and of cp polynomials; the degree spellings; misspelt keys;
+the tube-count bound against a brute-force count.
 """
 
 from __future__ import annotations
 
 import copy
+import functools
+import math
 import re
 import signal
 from dataclasses import dataclass
 from pathlib import Path
 
+import numpy as np
 import pytest
 import yaml
-from hypothesis import given, settings
+from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+import hxtrain.solver.cli as cli
+from hxtrain.network import CaseError, case_from_mapping
+from hxtrain.network import quantities as q
+from hxtrain.network.exchangers import LAYOUT_CELL, most_tubes
+from hxtrain.network.fields import Fields
 from hxtrain.solver.cli import main
 
 HERE = Path(__file__).parent
@@ -274,6 +287,15 @@ def sweep_items():
 # ----------------------------------------------------------------------------- the tests
 
 
+@pytest.fixture(autouse=True, scope="module")
+def one_argument_parser():
+    """``main`` builds its argument parser on every call (~10 ms, more than checking a small
+    case); over a few thousand calls build it once. The parser keeps no state between calls."""
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(cli, "build_parser", functools.lru_cache(maxsize=1)(cli.build_parser))
+        yield
+
+
 @pytest.mark.parametrize("variant", VARIANTS)
 def test_swept_cases_are_valid_as_given(variant, tmp_path, capsys):
     """Each replacement breaks one value of a case that passes check and run unchanged."""
@@ -294,3 +316,227 @@ def test_every_replacement_is_refused_cleanly_or_plausible(variant, path, tmp_pa
         case_file.write_text(dump(replaced(data, path, new)), encoding="utf-8")
         failures += problems_with(capsys, case_file, path, family, label)
     assert not failures, "\n".join(failures)
+
+
+# ----------------------------------------------------------------------------- the ends of every range
+
+
+def quantities_read(data) -> dict:
+    """Key path -> Kind of every value the readers read with ``Fields.quantity`` in ``data``."""
+    seen = {}
+    original = Fields.quantity
+
+    def recording(self, key, kind, *args, **kwargs):
+        if isinstance(self.value.get(key), (int, float, str)):
+            seen[self.path + (key,)] = kind
+        return original(self, key, kind, *args, **kwargs)
+
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(Fields, "quantity", recording)
+        case_from_mapping(copy.deepcopy(data))
+    return seen
+
+
+def range_items():
+    items = []
+    for variant in ("rich", "other_forms"):
+        for path, kind in quantities_read(VARIANTS[variant]()).items():
+            items.append(pytest.param(variant, path, kind, id=f"{variant}:{'.'.join(map(str, path))}"))
+    return items
+
+
+def just_outside(kind) -> list[float]:
+    values = []
+    if math.isfinite(kind.low):
+        values.append(kind.low - max(abs(kind.low) * 1e-3, 1e-3 * (kind.high - kind.low), 1e-12))
+    if math.isfinite(kind.high):
+        values.append(kind.high * (1.0 + 1e-3) + 1e-12)
+    return values
+
+
+@pytest.mark.parametrize("variant,path,kind", range_items())
+def test_ends_of_the_plausible_range_run_and_beyond_them_are_refused(variant, path, kind, tmp_path, capsys):
+    """The readers apply the plausibility table to every quantity: its ends are accepted as read
+    (whatever else they then make impossible is reported cleanly, exit 2; a run never crashes,
+    hangs or fails to converge on them), and a value just past an end is refused naming the key."""
+    data = VARIANTS[variant]()
+    key = ".".join(map(str, path))
+    case_file = tmp_path / "case.yaml"
+    for end in (kind.low, kind.high):
+        if not math.isfinite(end):
+            continue
+        case_file.write_text(dump(replaced(data, path, end)), encoding="utf-8")
+        check = run_command(capsys, "check", case_file)
+        outcome = check if check.code != 0 else run_command(capsys, "run", case_file)
+        assert outcome.code in (0, 2), f"{end}: exit {outcome.code}: {outcome.err[:400]}"
+        refused = re.search(r"(smallest|largest|outside the) plausible", outcome.err.split(case_file.name)[-1])
+        assert not (key in outcome.err and refused), f"{end} refused as implausible: {outcome.err}"
+    for beyond in just_outside(kind):
+        case_file.write_text(dump(replaced(data, path, beyond)), encoding="utf-8")
+        outcome = run_command(capsys, "check", case_file)
+        assert outcome.code == 2 and key in outcome.err, f"{beyond}: exit {outcome.code}: {outcome.err[:400]}"
+
+
+def test_every_bounded_kind_says_where_its_range_comes_from():
+    """The table's rule: each range names its source, or says it is common practice."""
+    kinds = [k for k in vars(q).values() if isinstance(k, q.Kind)]
+    assert len(kinds) >= 25
+    for kind in kinds:
+        if math.isfinite(kind.low) or math.isfinite(kind.high):
+            assert kind.low < kind.high and kind.basis, kind
+
+
+# ----------------------------------------------------------------------------- properties (hypothesis)
+
+BOUNDED_KINDS = [k for k in vars(q).values() if isinstance(k, q.Kind)]
+UNIT_WORDS = ["", "kg/s", "t/h", "degC", "degF", "°F", "deg C", "K", "kW", "MW", "W/m^2/K", "Btu/h/ft^2/degF",
+              "m", "mm", "in", "ft", "cP", "Pa*s", "bar", "psi", "%", "F", "C", "kJ/kg/C", "m**99", "(", "kg/s/s",
+              "1e308 kg", "inch**-1e308", "℃"]
+
+
+@settings(max_examples=300)
+@given(kind=st.sampled_from(BOUNDED_KINDS),
+       value=st.one_of(st.floats(allow_nan=True, allow_infinity=True, allow_subnormal=True),
+                       st.integers(min_value=-(10**600), max_value=10**600),
+                       st.text(max_size=40),
+                       st.builds(lambda x, u: f"{x!r} {u}", st.floats(allow_subnormal=True),
+                                 st.sampled_from(UNIT_WORDS))))
+def test_the_quantity_reader_returns_a_plausible_number_or_says_why_not(kind, value):
+    try:
+        number = q.to_default_unit(value, kind)
+    except q.QuantityError as exc:
+        assert str(exc) and len(str(exc)) < 600
+        return
+    assert isinstance(number, float) and math.isfinite(number)
+    assert kind.low <= number <= kind.high
+
+
+@settings(max_examples=25, suppress_health_check=[HealthCheck.function_scoped_fixture])  # capsys is read per run
+@given(share=st.one_of(st.floats(min_value=0.0, max_value=1.0, allow_subnormal=True),
+                       st.sampled_from([5e-324, 1e-310, 2.2e-16, 1e-15, 1.0 - 1e-16])))
+def test_a_split_anywhere_down_to_denormals_runs_or_is_refused(share, tmp_path_factory, capsys):
+    """A branch fraction and its complement (they sum to one) from the whole float range."""
+    data = base_case()
+    branches = data["splitters"]["feed_split"]["branches"]
+    branches["through"]["fraction"], branches["around"]["fraction"] = share, 1.0 - share
+    case_file = tmp_path_factory.mktemp("split") / "split.yaml"
+    case_file.write_text(dump(data), encoding="utf-8")
+    check = run_command(capsys, "check", case_file)
+    outcome = check if check.code != 0 else run_command(capsys, "run", case_file)
+    assert outcome.code in (0, 2), f"exit {outcome.code}: {outcome.err[:400]}"
+    if 0.0 < share < q.FRACTION.least_nonzero:
+        assert outcome.code == 2 and "splitters.feed_split.branches.through.fraction" in outcome.err
+
+
+@settings(max_examples=150)
+@given(coefficients=st.lists(st.floats(min_value=-1e30, max_value=1e30, allow_subnormal=True), min_size=1,
+                             max_size=4))
+def test_a_cp_polynomial_is_refused_or_plausible_everywhere_it_will_be_used(coefficients):
+    """Checked on a grid 20 times finer than the reader's: where no valid_range is given the
+    reader's span is -50 to 600 °C."""
+    data = base_case()
+    data["fluids"]["crude"] = {"cp": {"polynomial": coefficients}}
+    try:
+        case = case_from_mapping(data)
+    except CaseError as exc:
+        assert exc.path[:3] == ("fluids", "crude", "cp")
+        return
+    cp = case.fluids["crude"].cp(np.linspace(-50.0, 600.0, 2001))
+    assert np.all(cp >= q.SPECIFIC_HEAT.low * (1 - 1e-9)) and np.all(cp <= q.SPECIFIC_HEAT.high * (1 + 1e-9))
+
+
+# ----------------------------------------------------------------------------- degrees, misspelt keys
+
+
+@pytest.mark.parametrize("text,kind,expected", [
+    ("90 °F", q.TEMPERATURE, (90 - 32) / 1.8), ("90 ° F", q.TEMPERATURE, (90 - 32) / 1.8),
+    ("90 deg F", q.TEMPERATURE, (90 - 32) / 1.8), ("90 degrees F", q.TEMPERATURE, (90 - 32) / 1.8),
+    ("90 degree Fahrenheit", q.TEMPERATURE, (90 - 32) / 1.8), ("90 ℉", q.TEMPERATURE, (90 - 32) / 1.8),
+    ("90 °C", q.TEMPERATURE, 90.0), ("90 degrees Celsius", q.TEMPERATURE, 90.0), ("90 ℃", q.TEMPERATURE, 90.0),
+    ("18 °F", q.TEMPERATURE_DIFFERENCE, 10.0), ("10 deg C", q.TEMPERATURE_DIFFERENCE, 10.0),
+    ("0.5 Btu/lb/°F", q.SPECIFIC_HEAT, 0.5 * 4.1868), ("0.5 Btu/lb/deg F", q.SPECIFIC_HEAT, 0.5 * 4.1868),
+])
+def test_degrees_written_out_or_with_the_sign_are_read(text, kind, expected):
+    """°F/°C as data sheets print them. 1 Btu/lb·°F = 4.1868 kJ/kg·K with the International Table
+    Btu; pint's Btu is 1055.056 J, 1.4e-7 above it, hence the tolerance."""
+    assert q.to_default_unit(text, kind) == pytest.approx(expected, rel=1e-6)
+
+
+@pytest.mark.parametrize("text,kind,hint", [
+    ("90 F", q.TEMPERATURE, "write '90 degF'"), ("90 C", q.TEMPERATURE, "write '90 degC'"),
+    ("0.5 Btu/lb/F", q.SPECIFIC_HEAT, "write '0.5 Btu/lb/degF'"),
+    ("60 Btu/h/ft^2/F", q.HEAT_TRANSFER_COEFFICIENT, "write '60 Btu/h/ft^2/degF'"),
+])
+def test_a_bare_c_or_f_is_refused_with_the_spelling_to_use(text, kind, hint):
+    with pytest.raises(q.QuantityError, match=re.escape(hint)):
+        q.to_default_unit(text, kind)
+
+
+def geometry_case(**geometry_changes):
+    data = rich_case()
+    geometry = data["exchangers"]["E-1"]["geometry"]
+    for key, value in geometry_changes.items():
+        if value is None:
+            del geometry[key]
+        else:
+            geometry[key] = value
+    return data
+
+
+def test_a_different_key_of_similar_spelling_is_not_taken_for_a_misspelling():
+    """tube_inner_diameter is read after tube_outer_diameter and differs from it by three
+    letters: with the outer diameter missing the message must not suggest renaming the inner."""
+    with pytest.raises(CaseError) as raised:
+        case_from_mapping(geometry_case(tube_outer_diameter=None))
+    assert "missing key 'tube_outer_diameter'" in str(raised.value)
+    assert "did you mean" not in str(raised.value)
+
+
+def test_a_misspelt_required_key_is_named_with_the_key_meant():
+    with pytest.raises(CaseError) as raised:
+        case_from_mapping(geometry_case(tubes=None, tubse=400))
+    assert raised.value.path[-1] == "tubse"
+    assert "missing key 'tubes'; found unknown key 'tubse' — did you mean 'tubes'?" in str(raised.value)
+
+
+# ----------------------------------------------------------------------------- geometry
+
+
+def lattice_count(shell_diameter, pitch, layout, outer_diameter, offsets=8) -> int:
+    """Most tubes of the layout whose circles lie inside the shell, by trying lattice offsets."""
+    limit = (shell_diameter - outer_diameter) / 2.0
+    n = int(limit / pitch) + 2
+    i, j = np.meshgrid(np.arange(-n, n + 1), np.arange(-n, n + 1))
+    if layout == "square":
+        x, y = i * pitch, j * pitch
+    else:
+        x, y = (i + 0.5 * j) * pitch, j * pitch * math.sqrt(3.0) / 2.0
+    best = 0
+    for a in np.linspace(0.0, pitch, offsets, endpoint=False):
+        for b in np.linspace(0.0, pitch, offsets, endpoint=False):
+            best = max(best, int(np.sum(np.hypot(x + a, y + b) <= limit)))
+    return best
+
+
+@pytest.mark.parametrize("layout", list(LAYOUT_CELL))
+@pytest.mark.parametrize("diameters", [2, 3, 5, 8, 13, 21, 34, 55])
+def test_the_tube_count_bound_holds_against_a_brute_force_count(layout, diameters):
+    """most_tubes is an upper bound (never below what fits, counted tube by tube on the lattice
+    with tubes 1/1.25 of the pitch across) and, for a real shell of 20 pitches or more, within 35 %
+    of it: tight enough to catch a bundle that cannot exist."""
+    pitch = 0.0254
+    shell = diameters * pitch
+    counted = lattice_count(shell, pitch, layout, pitch / 1.25)
+    bound = most_tubes(shell, pitch, layout)
+    assert bound >= counted
+    if diameters >= 20:
+        assert bound <= 1.35 * counted
+
+
+def test_a_real_recycle_is_not_taken_for_a_loop_without_supply():
+    """The bundled feed-effluent demo recycles part of its effluent to the feed mixer."""
+    from hxtrain.network import load_case
+    from hxtrain.solver.demos import demo_case_path
+
+    case = load_case(demo_case_path("feed_effluent"))
+    assert case.mixers and case.splitters
