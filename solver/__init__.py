@@ -18,10 +18,12 @@ _EXPORTS = {
     "CAUTION": ".results",
     "ConvergenceError": ".engine",
     "demo_case_path": ".demos",
+    "simulate_batch": ".batch",
+    "evaluate": ".evaluation",
     "DEMO_CASES": ".demos",
 }
 
-__all__ = ["simulate", "SimulationResult", "ConvergenceError", "CAUTION", "demo_case_path", "DEMO_CASES",
+__all__ = ["simulate", "simulate_batch", "evaluate", "SimulationResult", "ConvergenceError", "CAUTION", "demo_case_path", "DEMO_CASES",
            "package_version"]
 
 

@@ -146,22 +146,24 @@ def _run(args) -> int:
     from .output import RUN_TABLES, check_output_path, write_results
     from .report import text_report
 
+    from .fouling import FOULING_TABLES, compare_clean_and_fouled, comparison_text
+
     path = _case_path(args)
     inputs = {"case file": path}
     if args.out:
-        check_output_path(args.out, inputs, RUN_TABLES)
+        check_output_path(args.out, inputs, RUN_TABLES + (FOULING_TABLES if args.against_clean else ()))
+    extra = None
     if args.against_clean:
-        from .fouling import compare_clean_and_fouled, comparison_text
-
         comparison = compare_clean_and_fouled(path)
         result = comparison.fouled
         report = text_report(result, comparison_text(comparison))
+        extra = comparison.tables()
     else:
         from .results import simulate
 
         result = simulate(path)
         report = text_report(result)
-    written = write_results(result, args.out, inputs) if args.out else None
+    written = write_results(result, args.out, inputs, extra) if args.out else None
     print(report)
     _say_written(written)
     return EXIT_OK

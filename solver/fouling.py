@@ -17,6 +17,10 @@ from .report import boxed
 from .results import SimulationResult, simulate
 
 
+FOULING_TABLES = ("fouling_by_exchanger", "fouling_totals", "fouling_findings")
+"""The comparison's tables, as named in output files."""
+
+
 @dataclass
 class FoulingComparison:
     fouled: SimulationResult
@@ -37,7 +41,7 @@ class FoulingComparison:
 
     def tables(self) -> dict:
         """The comparison's tables for file output."""
-        return {"fouling_by_exchanger": self.exchangers, "fouling_totals": self.totals, "fouling_findings": self.limits}
+        return dict(zip(FOULING_TABLES, (self.exchangers, self.totals, self.limits)))
 
 
 def compare_clean_and_fouled(case) -> FoulingComparison:

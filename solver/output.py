@@ -265,13 +265,15 @@ def _stamped(notes: dict) -> dict:
     return {**front, "written": now, "hxtrain_version": package_version(), **notes}
 
 
-def write_results(result: SimulationResult, path, inputs=None) -> WrittenSet:
-    """Write the result tables to ``path`` by its extension."""
+def write_results(result: SimulationResult, path, inputs=None, extra=None) -> WrittenSet:
+    """Write the result tables, and the named ``extra`` tables after them (a fouling
+    comparison), to ``path`` by its extension."""
     notes = {"title": result.title, "case_file": result.case_file, "caution": result.caution,
              "converged": result.converged, "message": result.message,
              "summary": summary_values(result), "balance": _plain(result.balance.to_dict())}
     tables = dict(zip(RUN_TABLES, (result.units, result.streams, result.findings, result.tears,
                                    summary_table(result))))
+    tables.update(extra or {})
     return write_tables(tables, path, notes, inputs)
 
 

@@ -257,3 +257,15 @@ def test_every_batch_has_the_same_columns():
     assert list(a.columns)[1:] == list(b.columns)[1:]
     assert {"success", "status", "message"} <= set(a.columns)
     assert (a["status"] == SUCCESS).all()
+
+
+def test_against_clean_writes_the_fouling_tables(tmp_path, capsys):
+    """Item 5: the fouling penalty goes into the --out file beside the run's tables."""
+    import pandas as pd
+
+    target = tmp_path / "fc.xlsx"
+    assert main(["run", "--against-clean", "--out", str(target)]) == 0
+    sheets = pd.read_excel(target, sheet_name=None)
+    assert {"fouling_by_exchanger", "fouling_totals", "fouling_findings"} <= set(sheets)
+    assert "duty_lost_to_fouling_kw" in sheets["fouling_by_exchanger"].columns
+    assert (sheets["fouling_findings"]["state"] == "clean").any()
