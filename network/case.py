@@ -11,7 +11,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 from . import quantities as q
-from hxtrain.units.models import HEAT_SOURCES
+from hxtrain.units.protocol import HEAT_SOURCES
 
 from .errors import CaseError
 from .exchangers import SIDES, read_exchanger

@@ -12,9 +12,9 @@ from __future__ import annotations
 
 import math
 
-from hxtrain.units import hydraulics, resistances, thermal
-from hxtrain.units.exchanger import ARRANGEMENTS
-from hxtrain.units.service import ExchangerSpec
+from hxtrain.units import hydraulics, resistances, u_models
+from hxtrain.units.pntu_rating import ARRANGEMENTS
+from hxtrain.units.service_rating import ExchangerSpec
 
 from . import quantities as q
 from .fields import Fields
@@ -113,13 +113,13 @@ def _read_thermal(f: Fields, spec: ExchangerSpec, shell_side_given):
         bundle, wall = _geometry(f, spec)
         spec.area_per_shell = bundle.area
         fouling = _fouling(f)
-        spec.thermal = thermal.GeometryFilms(bundle, fouling["shell"], fouling["tube"], wall)
+        spec.thermal = u_models.GeometryFilms(bundle, fouling["shell"], fouling["tube"], wall)
         return
     spec.area_per_shell = f.quantity("area_per_shell", q.AREA)
     if form == "u":
         if f.has("fouling"):
             raise f.error("fouling", "fouling needs U from 'clean_u', 'film' or 'geometry'; a plain 'u' is the service U")
-        spec.thermal = thermal.FixedCoefficient(f.quantity("u", q.HEAT_TRANSFER_COEFFICIENT))
+        spec.thermal = u_models.FixedCoefficient(f.quantity("u", q.HEAT_TRANSFER_COEFFICIENT))
         return
     wall, ratio = _tube_wall(f)
     fouling = _fouling(f)
@@ -138,9 +138,9 @@ def _read_thermal(f: Fields, spec: ExchangerSpec, shell_side_given):
     temps = _per_part(f, "reference_temperature", q.TEMPERATURE, required=False) or {}
     reynolds = f.quantity("reference_reynolds_tube", q.REYNOLDS, required=False)
     per_shell = 1.0 / spec.shells_in_parallel
-    sides = {part: thermal.SideFilm(h[part], flows[part] * per_shell, exponents[part], temps.get(part),
+    sides = {part: u_models.SideFilm(h[part], flows[part] * per_shell, exponents[part], temps.get(part),
                                     reynolds if part == "tube" else None) for part in PARTS}
-    spec.thermal = thermal.ScaledFilms(sides["shell"], sides["tube"], fouling["shell"], fouling["tube"], wall, ratio)
+    spec.thermal = u_models.ScaledFilms(sides["shell"], sides["tube"], fouling["shell"], fouling["tube"], wall, ratio)
 
 
 def _fouling(f: Fields) -> dict:
@@ -165,7 +165,7 @@ def _tube_wall(f: Fields):
 def _geometry(f: Fields, spec: ExchangerSpec):
     g = f.mapping("geometry", required=True)
     lengths = {key: g.quantity(key, kind) for key, kind in GEOMETRY_LENGTHS.items()}
-    bundle = thermal.TubeBundle(
+    bundle = u_models.TubeBundle(
         lengths["tube_outer_diameter"], lengths["tube_inner_diameter"], lengths["tube_length"],
         g.integer("tubes", None, 1, 100_000), spec.tube_passes, lengths["tube_pitch"],
         g.choice("tube_layout", tuple(LAYOUT_CELL)), lengths["baffle_spacing"], g.integer("baffles", None, 0, 1000),
@@ -208,7 +208,7 @@ def most_tubes(shell_diameter, pitch, layout) -> float:
     return math.pi * (shell_diameter / 2.0 + pitch / math.sqrt(2.0)) ** 2 / (LAYOUT_CELL[layout] * pitch**2)
 
 
-def _check_bundle(g: Fields, b: thermal.TubeBundle):
+def _check_bundle(g: Fields, b: u_models.TubeBundle):
     """Refuse a bundle that cannot be built: tubes that do not fit the shell, baffles longer than
     the tubes, pitch, baffle spacing or proportions outside what any shell-and-tube design uses."""
     do, ds, pitch, spacing = b.tube_outer_diameter, b.shell_inner_diameter, b.tube_pitch, b.baffle_spacing
@@ -245,7 +245,7 @@ def _read_pressure_drop(f: Fields, spec: ExchangerSpec, limits):
     section = f.mapping("pressure_drop", what="a mapping with 'shell' and/or 'tube'")
     if section is None:
         return
-    geometry = isinstance(spec.thermal, thermal.GeometryFilms)
+    geometry = isinstance(spec.thermal, u_models.GeometryFilms)
     for part in PARTS:
         side = section.mapping(part, what="a mapping with 'reference' (at reference_flow) and/or 'allowable'")
         if side is None:

@@ -14,10 +14,10 @@ from dataclasses import dataclass
 import networkx as nx
 import numpy as np
 
-from hxtrain.units import models
-from hxtrain.units.exchanger_unit import Exchanger
+from hxtrain.units import protocol, stream_units
+from hxtrain.units.exchanger_model import Exchanger
 from hxtrain.units.properties import Blend
-from hxtrain.units.thermal import GeometryFilms
+from hxtrain.units.u_models import GeometryFilms
 
 from .case import Case, Origin
 from .flows import solve_flows
@@ -50,7 +50,7 @@ class Network:
 
     case: Case
     graph: nx.MultiDiGraph
-    units: dict[str, models.UnitModel]
+    units: dict[str, protocol.UnitModel]
     segments: list[Segment]
     inlets: dict[str, list[int]]
     """Segment index feeding each inlet port of each unit, in the unit's port order."""
@@ -125,23 +125,23 @@ def _segments(case: Case):
     return segments, mixer_inlets
 
 
-def _unit_models(case: Case, mixer_inlets) -> dict[str, models.UnitModel]:
+def _unit_models(case: Case, mixer_inlets) -> dict[str, protocol.UnitModel]:
     s = case.settings
-    units: dict[str, models.UnitModel] = {}
+    units: dict[str, protocol.UnitModel] = {}
     for name, d in case.streams.items():
-        units[name] = models.Source(name, _key(case, name), d["flow"], d["supply_temperature"])
+        units[name] = stream_units.Source(name, _key(case, name), d["flow"], d["supply_temperature"])
     for name, d in case.exchangers.items():
         units[name] = Exchanger(name, _key(case, name), d["spec"], minimum_approach=s.minimum_approach,
                                 minimum_f=s.minimum_f, limits=d["limits"])
     for table, cooler in ((case.heaters, False), (case.coolers, True)):
         for name, d in table.items():
-            units[name] = models.Heater(name, _key(case, name), cooler=cooler, **d)
+            units[name] = stream_units.Heater(name, _key(case, name), cooler=cooler, **d)
     for name in case.mixers:
-        units[name] = models.Mixer(name, _key(case, name), mixer_inlets[name])
+        units[name] = stream_units.Mixer(name, _key(case, name), mixer_inlets[name])
     for name, d in case.splitters.items():
-        units[name] = models.Splitter(name, _key(case, name), d["fractions"])
+        units[name] = stream_units.Splitter(name, _key(case, name), d["fractions"])
     for name, d in case.products.items():
-        units[name] = models.Sink(name, _key(case, name), d["target_temperature"])
+        units[name] = stream_units.Sink(name, _key(case, name), d["target_temperature"])
     return units
 
 

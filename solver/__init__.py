@@ -13,13 +13,13 @@ interrupt during it is handled by the command like any other.
 from importlib import import_module
 
 _EXPORTS = {
-    "simulate": ".results",
-    "SimulationResult": ".results",
-    "CAUTION": ".results",
-    "ConvergenceError": ".engine",
+    "simulate": ".simulation.results",
+    "SimulationResult": ".simulation.results",
+    "CAUTION": ".simulation.results",
+    "ConvergenceError": ".simulation.engine",
     "demo_case_path": ".demos",
-    "simulate_batch": ".batch",
-    "evaluate": ".evaluation",
+    "simulate_batch": ".simulation.batch",
+    "evaluate": ".simulation.evaluation",
     "DEMO_CASES": ".demos",
 }
 

@@ -12,4 +12,4 @@ def hxtrain_command() -> list[str]:
         script = bindir / name
         if script.is_file() and os.access(script, os.X_OK):
             return [str(script)]
-    return [sys.executable, "-m", "hxtrain.solver.cli"]
+    return [sys.executable, "-m", "hxtrain.solver.cli.main"]

@@ -111,3 +111,15 @@ def test_solver_reaches_units_only_through_the_protocol():
                 assert not names & concrete, f"{path}: imports concrete unit models {names & concrete}"
             if isinstance(node, ast.Call) and isinstance(node.func, ast.Name) and node.func.id == "isinstance":
                 assert "units" not in ast.unparse(node), f"{path}: isinstance check on a unit type"
+
+
+def test_pyproject_installs_every_subpackage():
+    """Every folder with an __init__.py under the code folders is a package pyproject installs:
+    a subpackage missing from the list would be absent from a (non-editable) install."""
+    tomllib = pytest.importorskip("tomllib")  # Python 3.11+
+
+    listed = set(tomllib.loads((ROOT / "pyproject.toml").read_text())["tool"]["setuptools"]["packages"])
+    found = {"hxtrain." + ".".join(p.parent.relative_to(ROOT).parts)
+             for layer in LAYERS for p in (ROOT / layer).rglob("__init__.py")}
+    assert found <= listed, f"pyproject.toml does not install {sorted(found - listed)}"
+    assert len(found) >= 3

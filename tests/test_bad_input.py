@@ -7,7 +7,7 @@ thing broken, or a YAML-level defect (empty, not UTF-8, alias bomb, several docu
 Edge cases that cannot sensibly be committed (a directory, a missing file, a file over the size
 limit, a special file, a huge value) are made in tmp_path here.
 
-Most checks call ``hxtrain.solver.cli.main`` in-process (fast); a representative subset goes
+Most checks call ``hxtrain.solver.cli.main.main`` in-process (fast); a representative subset goes
 through the installed console script in a subprocess to see real exit codes and stderr.
 """
 
@@ -23,7 +23,7 @@ import pytest
 from cli_helpers import hxtrain_command
 import yaml
 
-from hxtrain.solver.cli import main
+from hxtrain.solver.cli.main import main
 
 HERE = Path(__file__).parent
 MALFORMED = HERE / "malformed"

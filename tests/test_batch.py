@@ -7,7 +7,7 @@ import pytest
 from hxtrain.network import CaseError, load_case
 from hxtrain.network.batch import is_batchable
 from hxtrain.solver import demo_case_path, simulate
-from hxtrain.solver.batch import simulate_batch
+from hxtrain.solver.simulation.batch import simulate_batch
 from hxtrain.solver.studies import key_outputs
 
 
@@ -123,7 +123,7 @@ def test_a_batch_split_over_processes_equals_one_batch(start, monkeypatch):
     workers (the start method off Linux) import everything afresh."""
     import multiprocessing
 
-    import hxtrain.solver.batch as batch_module
+    import hxtrain.solver.simulation.batch as batch_module
 
     monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 10)
     if start == "spawn":
@@ -139,7 +139,7 @@ def test_a_batch_split_over_processes_equals_one_batch(start, monkeypatch):
 
 
 def test_a_small_batch_stays_in_one_process(monkeypatch):
-    import hxtrain.solver.batch as batch_module
+    import hxtrain.solver.simulation.batch as batch_module
 
     def refuse(*args, **kwargs):
         raise AssertionError("a process pool was started for a small batch")

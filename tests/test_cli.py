@@ -1,7 +1,7 @@
 """The ``hxtrain`` command: demos, output files, exit codes, help, the limit banner, atomic writes.
 
 Exit codes (solver/cli.py): 0 done, 2 bad input, 3 not converged, 1 internal error. Most tests call
-``hxtrain.solver.cli.main`` in-process; the default demo run and one failure go through the real
+``hxtrain.solver.cli.main.main`` in-process; the default demo run and one failure go through the real
 console script in a subprocess.
 """
 
@@ -19,8 +19,8 @@ from cli_helpers import hxtrain_command
 
 from hxtrain.network import CaseError
 
-from hxtrain.solver import output as output_module
-from hxtrain.solver.cli import main
+from hxtrain.solver.reporting import files as output_module
+from hxtrain.solver.cli.main import main
 from hxtrain.solver.demos import DEMO_CASES, demo_case_path
 
 CRUDE_TAGS = [f"E-{n}" for n in range(101, 113)]
@@ -412,7 +412,7 @@ def test_failure_in_the_third_csv_leaves_the_whole_old_set(tmp_path, capsys, mon
 def test_write_results_failure_cleans_up_directly(tmp_path, monkeypatch):
     """Same through the library call: the failure surfaces as bad output (CaseError, exit 2 in
     the CLI) and nothing is left behind."""
-    from hxtrain.solver.results import simulate
+    from hxtrain.solver.simulation.results import simulate
 
     result = simulate(demo_case_path("feed_effluent"))
     target = tmp_path / "results.json"

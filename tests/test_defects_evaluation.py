@@ -20,13 +20,13 @@ import yaml
 
 from hxtrain.network import CaseError, case_from_mapping, load_case
 from hxtrain.solver import ConvergenceError, demo_case_path, simulate
-from hxtrain.solver.batch import simulate_batch
-from hxtrain.solver.cli import main
-from hxtrain.solver.evaluation import CHECK_FAILED, NOT_VALID, SUCCESS, evaluate
-from hxtrain.solver.fouling import compare_clean_and_fouled
+from hxtrain.solver.simulation.batch import simulate_batch
+from hxtrain.solver.cli.main import main
+from hxtrain.solver.simulation.evaluation import CHECK_FAILED, NOT_VALID, SUCCESS, evaluate
+from hxtrain.solver.studies.clean_vs_fouled import compare_clean_and_fouled
 from hxtrain.solver.studies import cleaning_ranking, compare
 from hxtrain.network.study import load_study
-from hxtrain.units import models
+from hxtrain.units import stream_units
 
 ONE_COOLER = {
     "fluids": {"oil": {"cp": 2.0}},
@@ -89,14 +89,14 @@ def test_the_command_line_exits_2_on_a_duty_past_absolute_zero(tmp_path, capsys)
 def test_an_energy_balance_that_does_not_close_is_never_an_answer(monkeypatch):
     """A unit that reports 1 kW more heat than it put in: the evaluation's own balance check
     marks the scenario (status 3) and simulate raises (exit 3), never returning numbers."""
-    original = models.Heater.report
+    original = stream_units.Heater.report
 
     def leaky(self, inlets):
         report = original(self, inlets)
         report.heat_added = np.asarray(report.heat_added) + 1000.0
         return report
 
-    monkeypatch.setattr(models.Heater, "report", leaky)
+    monkeypatch.setattr(stream_units.Heater, "report", leaky)
     evaluation = evaluate(demo_case_path("crude_preheat"))
     assert evaluation.status[0] == CHECK_FAILED and "energy balance does not close" in evaluation.message[0]
     assert np.isnan(evaluation.totals["fired_heater_duty_kw"][0])

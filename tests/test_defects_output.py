@@ -25,8 +25,8 @@ import pytest
 from cli_helpers import hxtrain_command
 
 from hxtrain.network.reading import read_document
-from hxtrain.solver import output as output_module
-from hxtrain.solver.cli import main
+from hxtrain.solver.reporting import files as output_module
+from hxtrain.solver.cli.main import main
 from hxtrain.solver.demos import DEMO_CASES, demo_case_path
 
 COOLING = demo_case_path("product_cooling")
@@ -338,7 +338,7 @@ def test_piped_into_head(tmp_path):
 
 def test_importing_the_command_loads_no_numerical_library():
     """Start-up light: Ctrl-C before main's try could only print a traceback while these load."""
-    code = ("import sys, hxtrain.solver.cli\n"
+    code = ("import sys, hxtrain.solver.cli.main\n"
             "heavy = sorted(m for m in ('numpy', 'pandas', 'scipy', 'networkx', 'pint', 'yaml') if m in sys.modules)\n"
             "print(heavy)\n"
             "from hxtrain.solver import simulate, demo_case_path\n"
@@ -366,8 +366,8 @@ def test_ctrl_c_at_start_up_prints_one_line():
 
 HELPER = """
 import os, signal, sys
-from hxtrain.solver import output
-from hxtrain.solver.cli import main
+from hxtrain.solver.reporting import files as output
+from hxtrain.solver.cli.main import main
 
 real = os.fdopen
 
@@ -486,8 +486,8 @@ def test_a_failed_workbook_write_leaves_no_unclosed_archive(tmp_path, capsys, mo
 @pytest.mark.parametrize("demo", DEMO_CASES)
 def test_the_demos_raise_no_runtime_warning(demo):
     """Every demo, clean against fouled and the cleaning ranking, with RuntimeWarnings as errors."""
-    from hxtrain.solver.fouling import compare_clean_and_fouled
-    from hxtrain.solver.results import simulate
+    from hxtrain.solver.studies.clean_vs_fouled import compare_clean_and_fouled
+    from hxtrain.solver.simulation.results import simulate
     from hxtrain.solver.studies import cleaning_ranking
 
     assert simulate(demo_case_path(demo)).converged
@@ -515,8 +515,8 @@ def test_a_runtime_warning_never_reaches_stderr(tmp_path):
     script.write_text(textwrap.dedent("""
         import sys
         import numpy as np
-        from hxtrain.solver import results
-        from hxtrain.solver.cli import main
+        from hxtrain.solver.simulation import results
+        from hxtrain.solver.cli.main import main
 
         real = results.simulate
 

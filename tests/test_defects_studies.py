@@ -770,19 +770,27 @@ def test_run_sweep_checks_the_point_count_too(tmp_path, monkeypatch):
         run_sweep(study, study.sweeps[0])
 
 
-def test_an_error_found_while_solving_a_sweep_point_names_the_study_and_point(folder, capsys):
+def test_a_point_found_impossible_while_solving_gets_a_row_that_names_it(folder, capsys):
     """A point-by-point sweep (area is not varied within a batch) whose second point heats the
-    crude beyond its data range: found only when solving."""
-    message = refused(capsys, write(folder, """
+    crude beyond its data range: found only when solving. Every sweep is a batch (issue: one
+    evaluation path), so that point is a row that is not valid, with its reason naming the point
+    and the key path, while the first point is answered."""
+    study_file = write(folder, """
         base: every_key.yaml
         sweeps:
           s:
             grid:
               exchangers.E-5.area_per_shell: [60]
               heaters.H-2.outlet_temperature: [315, 450]
-        """), "sweep")
-    assert "sweeps.s.grid" in message and "heaters.H-2.outlet_temperature = 450" in message
-    assert "fluids.crude.valid_range" in message
+        """)
+    study = load_study(study_file)
+    table = run_sweep(study, study.sweeps[0])
+    assert list(table["success"]) == [True, False] and list(table["status"]) == [0, 2]
+    message = table["message"].iloc[1]
+    assert "heaters.H-2.outlet_temperature = 450" in message and "fluids.crude.valid_range" in message
+    assert np.isnan(table["heat_recovered_kw"].iloc[1]) and np.isfinite(table["heat_recovered_kw"].iloc[0])
+    code, out, err = run_cli(capsys, "sweep", study_file)
+    assert code == 0 and "WITH NO ANSWER" in out and "point 2:" in out
 
 
 # ----------------------------------------------------------------------------- the study surface, swept

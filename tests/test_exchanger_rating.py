@@ -1,4 +1,4 @@
-"""Tests of ``hxtrain.units.exchanger.rate_exchanger``: conservation, second law, limits,
+"""Tests of ``hxtrain.units.pntu_rating.rate_exchanger``: conservation, second law, limits,
 identities, the F factor, the temperature-cross flag, the choice of the C_min basis, and
 hand-worked numbers.
 

@@ -42,12 +42,12 @@ import yaml
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-import hxtrain.solver.cli as cli
+import hxtrain.solver.cli.main as cli
 from hxtrain.network import CaseError, case_from_mapping
 from hxtrain.network import quantities as q
 from hxtrain.network.exchangers import LAYOUT_CELL, most_tubes
 from hxtrain.network.fields import Fields
-from hxtrain.solver.cli import main
+from hxtrain.solver.cli.main import main
 
 HERE = Path(__file__).parent
 BASE_CASE = HERE / "valid" / "small_train.yaml"

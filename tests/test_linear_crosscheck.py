@@ -70,7 +70,7 @@ from ht.hx import effectiveness_from_NTU, temperature_effectiveness_basic, tempe
 
 from hxtrain.network import case_from_mapping, load_case
 from hxtrain.solver import simulate
-from hxtrain.solver.benchmark import fixed_property_variant
+from hxtrain.solver.simulation.benchmark import fixed_property_variant
 
 from network_generator import RandomChooser, generate_case, unit_count
 
@@ -317,7 +317,7 @@ def test_demo_case_matches_direct_linear_solve(demo):
     """Demo case: every segment temperature within 1e-6 K of the direct solve of A·T = b
     (effectiveness from ht 1.2; shells in series after Shah & Sekulić 2003). A demo whose data
     are not linear (cp varying with temperature, U with flow) is checked as its constant-cp,
-    fixed-UA variant (:func:`hxtrain.solver.benchmark.fixed_property_variant`: each fluid's cp at
+    fixed-UA variant (:func:`hxtrain.solver.simulation.benchmark.fixed_property_variant`: each fluid's cp at
     the middle of its range, each exchanger's UA from the original solution; only the input is
     made by hxtrain, the solution it is checked against is this module's); the printout says which."""
     path = CASES / f"{demo}.yaml"

@@ -22,13 +22,13 @@ import yaml
 
 from hxtrain.network import CaseError, case_from_mapping, load_case, without_fouling
 from hxtrain.solver import demo_case_path, simulate
-from hxtrain.solver.cli import main
-from hxtrain.solver.fouling import compare_clean_and_fouled
+from hxtrain.solver.cli.main import main
+from hxtrain.solver.studies.clean_vs_fouled import compare_clean_and_fouled
 from hxtrain.units import resistances
-from hxtrain.units.exchanger import rate_exchanger
+from hxtrain.units.pntu_rating import rate_exchanger
 from hxtrain.units.properties import ConstantCp, PolynomialCp, petroleum_fraction
-from hxtrain.units.service import ExchangerSpec, rate_in_service
-from hxtrain.units.thermal import FixedCoefficient, ScaledFilms, SideFilm
+from hxtrain.units.service_rating import ExchangerSpec, rate_in_service
+from hxtrain.units.u_models import FixedCoefficient, ScaledFilms, SideFilm
 
 SCALES = (0.70, 1.00, 1.15)
 CLOSURE = 1e-9

@@ -8,8 +8,8 @@ import pytest
 
 from hxtrain.network import CaseError, build_network, case_from_mapping, load_case
 from hxtrain.solver import ConvergenceError, demo_case_path, simulate
-from hxtrain.solver.convergence import converge_tears
-from hxtrain.solver.sequencing import _depth_first_tears, choose_tears, edge_cycles, plan_calculation
+from hxtrain.solver.simulation.convergence import converge_tears
+from hxtrain.solver.simulation.sequencing import _depth_first_tears, choose_tears, edge_cycles, plan_calculation
 
 
 def coupled_case(ua=200.0, recycle=None, max_iterations=500, hot_flow=20.0):

@@ -28,7 +28,7 @@ from hxtrain.network.changes import apply_changes
 from hxtrain.network.reading import read_document
 from hxtrain.network.study import load_study
 from hxtrain.solver import demo_case_path, simulate
-from hxtrain.solver.cli import main
+from hxtrain.solver.cli.main import main
 from hxtrain.solver.studies import (adjust_changes, cleaning_ranking, compare, key_outputs, metric, run_sweep,
                                     solve_specification, study_text)
 

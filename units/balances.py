@@ -1,5 +1,5 @@
 """Energy balance of adiabatic mixing at constant cp (the fast path of the mixer; with cp(T) the
-mixer balances enthalpy through its fluids, see :func:`hxtrain.units.models.mix`).
+mixer balances enthalpy through its fluids, see :func:`hxtrain.units.protocol.mix`).
 
 Enthalpy is referred to 0 °C (h = cp·T), so a heat-capacity rate C = m·cp in kW/K times a
 temperature in °C is an enthalpy flow in kW. Every function works on numpy arrays with a

@@ -115,7 +115,7 @@ class ScaledDrop:
 @dataclass(frozen=True)
 class BundleDrop:
     """One shell's pressure drop on the ``side`` ("tube" or "shell") of a tube bundle (any object
-    with the :class:`hxtrain.units.thermal.TubeBundle` fields), as a callable (mass flow through
+    with the :class:`hxtrain.units.u_models.TubeBundle` fields), as a callable (mass flow through
     one shell kg/s, mean temperature °C, fluid) -> Pa."""
 
     bundle: object

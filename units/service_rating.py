@@ -23,8 +23,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .arrays import as_arrays
-from .exchanger import ExchangerRating, rate_exchanger
-from .thermal import Coefficients, FixedCoefficient
+from .pntu_rating import ExchangerRating, rate_exchanger
+from .u_models import Coefficients, FixedCoefficient
 
 OUTLET_TOLERANCE = 1e-12
 """Passes stop once both outlets move less than this times (1 + |T_hot,in|) in every scenario."""

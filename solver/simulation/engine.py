@@ -2,7 +2,7 @@
 
 Blocks (see :mod:`.sequencing`) are solved in order. An acyclic block is one sweep of its units;
 a cyclic block is converged on its tear segments (see :mod:`.convergence`). Units are reached
-only through the :class:`hxtrain.units.models.UnitModel` protocol.
+only through the :class:`hxtrain.units.protocol.UnitModel` protocol.
 """
 
 from __future__ import annotations
@@ -12,10 +12,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from hxtrain.network.errors import HxtrainError
-from hxtrain.units.models import Inlets
+from hxtrain.units.protocol import Inlets
 
-from .convergence import TearResult, converge_tears
-from .sequencing import Block, plan_calculation
+from hxtrain.solver.simulation.convergence import TearResult, converge_tears
+from hxtrain.solver.simulation.sequencing import Block, plan_calculation
 
 
 class ConvergenceError(HxtrainError):

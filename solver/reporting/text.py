@@ -8,9 +8,9 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from hxtrain.units.models import TOTALS
+from hxtrain.units.protocol import TOTALS
 
-from .results import SimulationResult
+from hxtrain.solver.simulation.results import SimulationResult
 
 EXCHANGER_COLUMNS = {
     "duty_kw": "duty kW",

@@ -15,10 +15,10 @@ import numpy as np
 import pandas as pd
 
 from hxtrain.network import Network
-from hxtrain.units.models import TOTALS
+from hxtrain.units.protocol import TOTALS
 
-from .engine import ConvergenceError, TemperatureSolution, convergence_error, tear_labels
-from .evaluation import CHECK_FAILED, NOT_CONVERGED, SUCCESS, Evaluation, evaluate
+from hxtrain.solver.simulation.engine import ConvergenceError, TemperatureSolution, convergence_error, tear_labels
+from hxtrain.solver.simulation.evaluation import CHECK_FAILED, NOT_CONVERGED, SUCCESS, Evaluation, evaluate
 
 UNIT_COLUMNS = {
     "duty": "duty_kw",

@@ -21,7 +21,7 @@ import sys
 import traceback
 import warnings
 
-from . import package_version
+from hxtrain.solver import package_version
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT, EXIT_NOT_CONVERGED = 0, 1, 2, 3
 EXIT_INTERRUPTED, EXIT_BROKEN_PIPE, EXIT_TERMINATED = 130, 141, 143
@@ -54,7 +54,7 @@ class Terminated(BaseException):
 
 
 def build_parser() -> argparse.ArgumentParser:
-    from .demos import DEMO_CASES
+    from hxtrain.solver.demos import DEMO_CASES
 
     parser = argparse.ArgumentParser(prog="hxtrain", description=DESCRIPTION, epilog=EPILOG,
                                      formatter_class=argparse.RawDescriptionHelpFormatter)
@@ -113,7 +113,7 @@ def _subcommand(commands, name, summary, description, target, out=False):
 
 
 def _case_path(args):
-    from .demos import DEMO_CASES, demo_case_path
+    from hxtrain.solver.demos import DEMO_CASES, demo_case_path
 
     if args.case and args.demo:
         from hxtrain.network import CaseError
@@ -132,7 +132,7 @@ def _write(tables, args, notes, inputs):
     """Write the tables when --out was given (before anything is printed); the files written."""
     if not args.out:
         return None
-    from .output import write_tables
+    from hxtrain.solver.reporting.files import write_tables
 
     return write_tables(tables, args.out, notes, inputs)
 
@@ -143,10 +143,10 @@ def _say_written(written):
 
 
 def _run(args) -> int:
-    from .output import RUN_TABLES, check_output_path, write_results
-    from .report import text_report
+    from hxtrain.solver.reporting.files import RUN_TABLES, check_output_path, write_results
+    from hxtrain.solver.reporting.text import text_report
 
-    from .fouling import FOULING_TABLES, compare_clean_and_fouled, comparison_text
+    from hxtrain.solver.studies.clean_vs_fouled import FOULING_TABLES, compare_clean_and_fouled, comparison_text
 
     path = _case_path(args)
     inputs = {"case file": path}
@@ -159,7 +159,7 @@ def _run(args) -> int:
         report = text_report(result, comparison_text(comparison))
         extra = comparison.tables()
     else:
-        from .results import simulate
+        from hxtrain.solver.simulation.results import simulate
 
         result = simulate(path)
         report = text_report(result)
@@ -183,7 +183,7 @@ def _load_study_for(args, table_names):
     """The study, with --out checked first on its own and then against the study's files."""
     from hxtrain.network.study import load_study
 
-    from .output import check_output_path
+    from hxtrain.solver.reporting.files import check_output_path
 
     if args.out:
         check_output_path(args.out)
@@ -194,8 +194,8 @@ def _load_study_for(args, table_names):
 
 
 def _compare(args) -> int:
-    from .results import CAUTION
-    from .studies import compare, solve_specification, specification_table, study_text
+    from hxtrain.solver.simulation.results import CAUTION
+    from hxtrain.solver.studies import compare, solve_specification, specification_table, study_text
 
     study = _load_study_for(args, lambda s: ["comparison", "findings"] + (["specifications"] if s.specifications else []))
     comparison = compare(study)
@@ -213,9 +213,10 @@ def _compare(args) -> int:
 def _sweep(args) -> int:
     from hxtrain.network import CaseError
 
-    from .output import with_whole_counts
-    from .results import CAUTION
-    from .studies import run_sweep
+    from hxtrain.solver.reporting.files import with_whole_counts
+    from hxtrain.solver.reporting.text import boxed
+    from hxtrain.solver.simulation.results import CAUTION
+    from hxtrain.solver.studies import run_sweep
 
     study = _load_study_for(args, lambda s: [sweep.name for sweep in s.sweeps])
     if not study.sweeps:
@@ -225,7 +226,11 @@ def _sweep(args) -> int:
                      _study_inputs(study))
     for name, table in tables.items():
         print(f"\nSweep {name}\n{'-' * (6 + len(name))}")
-        print(with_whole_counts(table).to_string(index=False, float_format=lambda v: f"{v:,.3f}", na_rep="NaN"))
+        shown = with_whole_counts(table.drop(columns=["message", "status_text"]))
+        print(shown.to_string(index=False, float_format=lambda v: f"{v:,.3f}", na_rep="NaN"))
+        failed = table[~table["success"].astype(bool)]
+        print("\n".join(boxed(f"POINTS OF SWEEP {name} WITH NO ANSWER",
+                               (f"point {k + 1}: {m}" for k, m in zip(failed.index, failed["message"])))))
     print(f"\nNOTE: {CAUTION}")
     _say_written(written)
     return EXIT_OK
@@ -234,10 +239,10 @@ def _sweep(args) -> int:
 def _cleaning(args) -> int:
     from hxtrain.network import load_case
 
-    from .demos import DEMO_CASES, demo_case_path
-    from .output import check_output_path
-    from .results import CAUTION
-    from .studies import cleaning_ranking
+    from hxtrain.solver.demos import DEMO_CASES, demo_case_path
+    from hxtrain.solver.reporting.files import check_output_path
+    from hxtrain.solver.simulation.results import CAUTION
+    from hxtrain.solver.studies import cleaning_ranking
 
     path = args.case or demo_case_path(DEMO_CASES[0])
     inputs = {"case file": path}
@@ -255,7 +260,7 @@ def _cleaning(args) -> int:
 def _benchmark(args) -> int:
     from hxtrain.network import CaseError
 
-    from .benchmark import benchmark_text, run_benchmark
+    from hxtrain.solver.simulation.benchmark import benchmark_text, run_benchmark
 
     if args.scenarios < 2 or args.loop < 1 or (args.workers is not None and args.workers < 1):
         raise CaseError("--scenarios must be at least 2, --loop and --workers at least 1")
@@ -295,7 +300,7 @@ def main(argv=None) -> int:
 def _dispatch(args) -> int:
     from hxtrain.network import CaseError
 
-    from .engine import ConvergenceError
+    from hxtrain.solver.simulation.engine import ConvergenceError
 
     try:
         with warnings.catch_warnings():

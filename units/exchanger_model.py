@@ -4,15 +4,15 @@ from __future__ import annotations
 
 import numpy as np
 
-from .models import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, UnitReport, _Base, check, \
+from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, UnitReport, UnitBase, check, \
     design_temperature_findings
-from .thermal import FixedCoefficient
-from .service import ExchangerSpec, rate_in_service
+from .u_models import FixedCoefficient
+from .service_rating import ExchangerSpec, rate_in_service
 
 __all__ = ["Exchanger"]
 
 
-class Exchanger(_Base):
+class Exchanger(UnitBase):
     """A two-stream exchanger rated by P–NTU in service (:func:`rate_in_service`).
 
     ``limits`` may hold ``design_temperature`` {"hot"/"cold": °C}, ``maximum_flow``

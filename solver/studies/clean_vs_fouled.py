@@ -9,12 +9,12 @@ from dataclasses import dataclass
 import pandas as pd
 
 from hxtrain.network import CaseError, without_fouling
-from hxtrain.units.models import FIRED_HEATERS, TOTALS
+from hxtrain.units.protocol import FIRED_HEATERS, TOTALS
 
-from .engine import ConvergenceError
-from .evaluation import as_case
-from .report import boxed
-from .results import SimulationResult, simulate
+from hxtrain.solver.simulation.engine import ConvergenceError
+from hxtrain.solver.simulation.evaluation import as_case
+from hxtrain.solver.reporting.text import boxed
+from hxtrain.solver.simulation.results import SimulationResult, simulate
 
 
 FOULING_TABLES = ("fouling_by_exchanger", "fouling_totals", "fouling_findings")

@@ -30,11 +30,11 @@ from pathlib import Path
 import numpy as np
 
 from hxtrain.network import Case, Network, build_network, case_from_mapping, load_case
-from hxtrain.units.models import TOTALS, Finding, check
+from hxtrain.units.protocol import TOTALS, Finding, check
 from hxtrain.units.properties import PHYSICAL_RANGE
 
-from .engine import TemperatureSolution, inlets_of, solve_temperatures
-from .sequencing import plan_calculation
+from hxtrain.solver.simulation.engine import TemperatureSolution, inlets_of, solve_temperatures
+from hxtrain.solver.simulation.sequencing import plan_calculation
 
 SUCCESS, NOT_CONVERGED, NOT_VALID, CHECK_FAILED = 0, 1, 2, 3
 STATUS_NAMES = {SUCCESS: "success", NOT_CONVERGED: "not converged", NOT_VALID: "not valid",

@@ -27,9 +27,9 @@ from hxtrain.network import load_case
 from hxtrain.network.case import case_from_document
 from hxtrain.network.reading import Document, read_document
 
-from .batch import simulate_batch
-from .demos import demo_case_path
-from .results import simulate
+from hxtrain.solver.simulation.batch import simulate_batch
+from hxtrain.solver.demos import demo_case_path
+from hxtrain.solver.simulation.results import simulate
 
 KEPT_WITH_FIXED_UA = ("arrangement", "shells", "shells_in_parallel", "tube_passes", "shell_side", "mixed_side",
                       "bypass", "design_temperature", "maximum_flow", "description")

@@ -19,8 +19,8 @@ import pandas as pd
 
 from hxtrain.network.scenarios import scenario_count
 
-from .evaluation import NOT_CONVERGED, NOT_VALID, STATUS_NAMES, SUCCESS, as_case, evaluate
-from .results import scenario_summary
+from hxtrain.solver.simulation.evaluation import NOT_CONVERGED, NOT_VALID, STATUS_NAMES, SUCCESS, as_case, evaluate
+from hxtrain.solver.simulation.results import scenario_summary
 
 
 @dataclass

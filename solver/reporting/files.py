@@ -35,8 +35,8 @@ import pandas as pd
 
 from hxtrain.network import CaseError
 
-from . import package_version
-from .results import SimulationResult
+from hxtrain.solver import package_version
+from hxtrain.solver.simulation.results import SimulationResult
 
 FORMATS = (".csv", ".xlsx", ".json")
 RUN_TABLES = ("units", "streams", "findings", "tears", "summary")

@@ -1,0 +1,1 @@
+"""The ``hxtrain`` command (:mod:`.main`)."""

@@ -1,0 +1,49 @@
+"""The cleaning ranking: each fouled exchanger cleaned alone, ranked by the fired-heater duty saved,
+with the limits each cleaned case violates beside its numbers."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from hxtrain.network import without_fouling
+from hxtrain.solver.simulation.evaluation import as_case
+from hxtrain.solver.simulation.results import simulate
+from hxtrain.units.protocol import FIRED_HEATERS
+
+from .compare import try_scenario
+
+
+def cleaning_ranking(case) -> pd.DataFrame:
+    """For each fouled exchanger, what cleaning it alone gains: fired-heater (furnace) duty saved,
+    the exchanger's own duty gained and the heater inlet temperatures gained, with the limits
+    the cleaned case violates; ranked by the duty saved. A cleaned case with no answer stays in
+    the table, last, with its reason."""
+    case = as_case(case)
+    fouled = simulate(case)
+    heaters = [k for k in fouled.summary.index if k.endswith("_inlet_c")]
+    rows = []
+    for tag, data in case.exchangers.items():
+        if not any(data["spec"].fouling.values()):
+            continue
+        clean, reason = try_scenario(f"{tag} clean", lambda tag=tag: without_fouling(case, [tag]))
+        row = {"exchanger": tag}
+        if clean is None:
+            rows.append({**row, "answer": reason})
+            continue
+        row.update({"fired_duty_saved_kw": fouled.summary[FIRED_HEATERS] - clean.summary[FIRED_HEATERS],
+                    "exchanger_duty_gained_kw": clean.units.loc[tag, "duty_kw"] - fouled.units.loc[tag, "duty_kw"]})
+        row.update({f"{h.removesuffix('_inlet_c')}_inlet_gain_k": clean.summary[h] - fouled.summary[h] for h in heaters})
+        new_limits = clean.limits[~clean.limits["message"].isin(fouled.limits["message"])]
+        row["limits_when_clean"] = int(len(clean.limits))
+        row["new_limits_when_clean"] = "; ".join(f"{r.unit}: {r.message}" for r in new_limits.itertuples())
+        row["answer"] = "ok"
+        rows.append(row)
+    table = pd.DataFrame(rows)
+    if table.empty:
+        return table
+    if "fired_duty_saved_kw" in table:
+        table = table.sort_values("fired_duty_saved_kw", ascending=False, na_position="last", kind="stable")
+    table = table.reset_index(drop=True)
+    table.index = np.arange(1, len(table) + 1)
+    return table.rename_axis("rank")

@@ -1,0 +1,116 @@
+"""Variants side by side: the base case and each variant of a study simulated, with the
+differences from the base, every scenario's limits and warnings, and the scenarios with no answer.
+
+Every scenario is the base case with changes applied by key path (see
+:mod:`hxtrain.network.changes`), checked like a case file and simulated.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import pandas as pd
+
+from hxtrain.network import CaseError
+from hxtrain.network.study import Study
+from hxtrain.solver.reporting.text import boxed
+from hxtrain.solver.simulation.engine import ConvergenceError
+from hxtrain.solver.simulation.results import CAUTION, SimulationResult, simulate
+
+
+def metric(result: SimulationResult, name: str) -> float:
+    """A named result: ``TAG.duty``, ``TAG.hot_out``, ... ``TAG.inlet``/``TAG.outlet`` (the process
+    stream of a heater or cooler, or a product's inlet), as the unit declares them."""
+    tag = name.rpartition(".")[0]
+    if name in result.metrics:
+        return result.metrics[name]
+    if tag not in result.units.index:
+        raise CaseError(f"no unit '{tag}' in the results (for '{name}')")
+    offered = ", ".join(m for m in result.metrics if m.startswith(tag + ".")) or "none"
+    raise CaseError(f"'{name}' is not a result of {tag} (a {result.units.loc[tag, 'type']}; it has {offered})")
+
+
+def key_outputs(result: SimulationResult) -> pd.Series:
+    """The headline numbers of a run: the totals, heater inlet temperatures, limits violated and
+    warnings."""
+    s = result.summary
+    keys = [k for k in s.index if k not in ("iterations",)]
+    return s[keys].astype(float)
+
+
+@dataclass
+class Comparison:
+    results: dict
+    """scenario name -> SimulationResult (the base first), or None where it has no answer."""
+    table: pd.DataFrame
+    """Rows: key outputs, then each unit's duty and outlet temperatures; columns: scenarios and
+    their differences from the base."""
+    findings: pd.DataFrame
+    """Every scenario's limits and warnings."""
+    failures: dict = None
+    """scenario name -> why it has no answer (a variant asking for the impossible, or one that
+    did not converge): the other scenarios are still compared."""
+
+
+def _unit_rows(result: SimulationResult) -> pd.Series:
+    units = result.units[result.units["group"].isin(["exchangers", "heaters_and_coolers"])]
+    rows = {}
+    for tag, row in units.iterrows():
+        for column in ("duty_kw", "hot_out_c", "cold_out_c"):
+            if column in row and not pd.isna(row[column]):
+                rows[f"{tag} {column}"] = row[column]
+    return pd.Series(rows, dtype=float)
+
+
+def try_scenario(name: str, build):
+    """Simulate the case ``build()`` makes, as scenario ``name`` of a study: (result, None), or
+    (None, reason) where the scenario has no answer. Errors in the study itself (a change that
+    does not apply) still raise, naming the study file and key path."""
+    case = build()
+    try:
+        return simulate(case), None
+    except (CaseError, ConvergenceError) as exc:
+        return None, f"scenario '{name}': {exc}"
+
+
+def compare(study: Study) -> Comparison:
+    """The base case and every variant, simulated and tabulated side by side; a variant with no
+    answer is reported as such, beside the others."""
+    results, failures = {}, {}
+    builds = {"base": study.case}
+    builds.update({name: (lambda changes=changes, key=key: study.case(changes, key))
+                   for name, (_, changes, key) in study.variants.items()})
+    for name, build in builds.items():
+        results[name], reason = try_scenario(name, build)
+        if reason:
+            failures[name] = reason
+    answered = {n: r for n, r in results.items() if r is not None}
+    columns = {name: (pd.concat([key_outputs(r), _unit_rows(r)]) if r is not None else pd.Series(dtype=float))
+               for name, r in results.items()}
+    table = pd.DataFrame(columns)
+    for name in study.variants:
+        table[f"{name} - base"] = table[name] - table["base"]
+    columns = ["scenario", "unit", "severity", "kind", "key", "message"]
+    findings = pd.concat([r.findings.assign(scenario=n) for n, r in answered.items()] or [pd.DataFrame(columns=columns)],
+                         ignore_index=True)
+    return Comparison(results, table.rename_axis("quantity"), findings[columns], failures)
+
+
+def study_text(study: Study, comparison: Comparison, specifications) -> str:
+    """Printed form of a comparison: the table, each scenario's limits and warnings, specifications."""
+    lines = [f"hxtrain study: {study.title or study.file}", f"NOTE: {CAUTION}", ""]
+    for name, (description, _, _) in study.variants.items():
+        lines.append(f"  {name}: {description}" if description else f"  {name}")
+    lines += ["", comparison.table.to_string(float_format=lambda v: f"{v:,.2f}")]
+    for spec in specifications:
+        lines += ["", f"Specification {spec.name}: {'met' if spec.success else 'NOT MET'} - {spec.message}"
+                      f" ({spec.evaluations} simulations)"]
+    findings = comparison.findings
+    limits = findings[findings["severity"] == "limit"]
+    warnings = findings[findings["severity"] == "warning"]
+    if len(warnings):
+        lines += ["", f"Warnings: {len(warnings)}"]
+        lines += [f"  * [{r.scenario}] {r.unit}: {r.message}" for r in warnings.itertuples()]
+    lines += boxed("SCENARIOS WITH NO ANSWER", (comparison.failures or {}).values())
+    lines += boxed("LIMITS VIOLATED", (f"[{r.scenario}] {r.unit}: {r.message}  [{r.key}]" for r in limits.itertuples()))
+    return "\n".join(lines)

@@ -1,0 +1,218 @@
+"""Unit models behind one small protocol, :class:`UnitModel`, which is all the solver sees.
+
+A unit has named inlet and outlet ports. The solver asks it two things:
+
+* flows — ``flow_coefficients()`` (outlet mass flow = coefficients @ inlet mass flow) and
+  ``supplied_flow()`` (what the unit feeds in itself: a source's supply). Flows are linear in
+  each other and independent of temperature, so they are solved once, before temperatures.
+* temperatures — ``outlet_temperatures(inlets)`` from an :class:`Inlets` (inlet temperatures
+  and mass flows shaped (batch, inlets), and each inlet's fluid model); returns
+  (batch, outlets). ``report(inlets)`` gives the quantities for the results table and the
+  findings (limits, warnings, bad input).
+
+Nothing here reads files or knows the graph; ``key`` is the case-file path of the unit, used only
+to word messages.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from functools import cached_property
+from typing import Protocol
+
+import numpy as np
+
+
+__all__ = ["UnitModel", "UnitBase", "Inlets", "Finding", "UnitReport", "Parameter", "check", "design_temperature_findings",
+           "TOTALS", "HEAT_SOURCES"]
+
+SEVERITIES = ("limit", "warning", "input")
+"""``limit``: a design limit violated (shown prominently); ``warning``: worth a look;
+``input``: the case asks for something impossible (that scenario is not valid)."""
+
+HEAT_RECOVERED = "heat_recovered_kw"
+FIRED_HEATERS = "fired_heater_duty_kw"
+OTHER_HEATERS = "other_heater_duty_kw"
+COOLERS = "cooler_duty_kw"
+HEAT_TO_UTILITIES = "heat_to_utilities_kw"
+HEAT_FROM_UTILITIES = "heat_from_utilities_kw"
+TOTALS = {
+    HEAT_RECOVERED: "heat recovered, process to process",
+    FIRED_HEATERS: "fired heaters (furnaces)",
+    OTHER_HEATERS: "other heaters (utility heat, heat of reaction)",
+    COOLERS: "coolers",
+    HEAT_TO_UTILITIES: "heat to utility streams in exchangers",
+    HEAT_FROM_UTILITIES: "heat from utility streams in exchangers",
+}
+"""The totals a run reports, each fed by the units that declare a contribution to it in their
+report (:attr:`UnitReport.totals`): the solver adds them up without knowing unit types."""
+
+HEAT_SOURCES = ("fired", "utility", "reaction")
+"""What a heater's heat is: burnt fuel (a furnace or fired heater), a bought utility (steam,
+hot oil, electricity), or heat released in the process itself (a reaction)."""
+
+
+@dataclass(frozen=True)
+class Parameter:
+    """A value of a unit that a scenario may vary: its key below the unit's case-file entry
+    (``flow``, ``fouling.shell``, ``branches.north.fraction``), the kind of quantity (a name such
+    as ``mass_flow``, ``temperature``, ``fraction``) and its physical bounds."""
+
+    name: str
+    quantity: str
+    low: float = -np.inf
+    high: float = np.inf
+    low_open: bool = False
+    """True where ``low`` itself is excluded (a flow must be above 0)."""
+
+    def outside(self, values) -> np.ndarray:
+        """True where a value is not finite or lies outside the bounds."""
+        v = np.asarray(values, dtype=float)
+        below = v <= self.low if self.low_open else v < self.low
+        return ~np.isfinite(v) | below | (v > self.high)
+
+    def bounds_text(self) -> str:
+        low = f"above {self.low:g}" if self.low_open else f"at least {self.low:g}"
+        if np.isinf(self.low):
+            return f"at most {self.high:g}"
+        return low if np.isinf(self.high) else f"{low} and at most {self.high:g}"
+
+
+@dataclass
+class Finding:
+    """One check on one unit over the batch: where it is active and what to say there.
+
+    ``messages`` (one text per scenario, empty where inactive) are worded on first use: a batch
+    summary that only counts findings never pays for formatting thousands of texts."""
+
+    kind: str
+    severity: str
+    active: np.ndarray
+    template: str
+    values: dict
+    key: str
+
+    @cached_property
+    def messages(self) -> np.ndarray:
+        arrays = {k: np.broadcast_to(np.asarray(v), self.active.shape) for k, v in self.values.items()}
+        messages = np.full(self.active.shape, "", dtype=object)
+        for i in np.flatnonzero(self.active):
+            messages[i] = self.template.format(**{k: v[i] for k, v in arrays.items()})
+        return messages
+
+
+@dataclass
+class UnitReport:
+    quantities: dict[str, np.ndarray]
+    findings: list[Finding] = field(default_factory=list)
+    heat_added: np.ndarray | float = 0.0
+    """Heat put into the process streams from outside (kW): heaters +, coolers -."""
+    labels: dict[str, str] = field(default_factory=dict)
+    """Fixed descriptions for the results table (e.g. how U is found)."""
+    totals: dict[str, np.ndarray] = field(default_factory=dict)
+    """This unit's contribution to the run's totals (keys of :data:`TOTALS`), kW."""
+    metrics: dict[str, np.ndarray] = field(default_factory=dict)
+    """Named results a study may target: ``duty``, ``hot_out``, ``inlet``, ``outlet``, ..."""
+    highlights: dict[str, np.ndarray] = field(default_factory=dict)
+    """Headline numbers of the run this unit gives (a furnace's inlet temperature)."""
+
+
+@dataclass
+class Inlets:
+    """What enters a unit: temperatures (°C) and mass flows (kg/s), each (batch, inlets), and the
+    fluid model of each inlet (a blend where streams of several fluids have mixed)."""
+
+    t: np.ndarray
+    m: np.ndarray
+    fluids: tuple
+
+    @property
+    def batch(self) -> int:
+        return self.t.shape[0]
+
+    def enthalpy_flow(self, j):
+        """ṁ·h of inlet j, kW (enthalpy referred to 0 °C)."""
+        return self.m[:, j] * self.fluids[j].enthalpy(self.t[:, j])
+
+    def capacity(self, j):
+        """ṁ·cp of inlet j at its inlet temperature, kW/K."""
+        return self.m[:, j] * self.fluids[j].cp(self.t[:, j])
+
+
+class UnitModel(Protocol):
+    name: str
+    kind: str
+    """What the unit is, in words for the results table ("exchanger", "heater", ...)."""
+    group: str
+    """The results section it is shown in: ``exchangers``, ``heaters_and_coolers``, ``products``
+    or ``nodes`` (supplies, mixers, splitters)."""
+    key: str
+    inlets: tuple[str, ...]
+    outlets: tuple[str, ...]
+
+    def flow_coefficients(self) -> np.ndarray:
+        """(outlets, inlets), or (batch, outlets, inlets) where a scenario varies them."""
+
+    def supplied_flow(self) -> np.ndarray:
+        """(outlets,), or (batch, outlets)."""
+
+    def outlet_temperatures(self, inlets: Inlets) -> np.ndarray: ...
+
+    def report(self, inlets: Inlets) -> UnitReport: ...
+
+    def parameters(self) -> tuple[Parameter, ...]:
+        """The values a scenario may vary."""
+
+    def set_parameter(self, name: str, values: np.ndarray) -> None:
+        """Give parameter ``name`` one value per scenario (mutates the unit)."""
+
+
+def check(kind, severity, active, key, template, **values):
+    """A Finding whose message is ``template`` formatted with the values at each active scenario."""
+    return Finding(kind, severity, np.atleast_1d(np.asarray(active, dtype=bool)), template, values, key)
+
+
+def design_temperature_findings(key, sides):
+    """Limit findings for sides whose highest temperature exceeds their design temperature.
+
+    ``sides`` maps a label to (design temperature or None, inlet T, outlet T).
+    """
+    findings = []
+    for label, (design, t_in, t_out) in sides.items():
+        if design is None:
+            continue
+        peak = np.maximum(t_in, t_out)
+        findings.append(
+            check(
+                "design_temperature",
+                "limit",
+                peak > design,
+                f"{key}.design_temperature",
+                label + "reaches {peak:.1f} °C, above its design temperature of {design:.1f} °C",
+                peak=peak,
+                design=design,
+            )
+        )
+    return findings
+
+
+class UnitBase:
+    """Defaults for a unit with one inlet and one outlet that passes its flow through and has
+    nothing a scenario may vary; concrete units override what differs."""
+
+    inlets: tuple[str, ...] = ("in",)
+    outlets: tuple[str, ...] = ("out",)
+    group = "nodes"
+
+    def flow_coefficients(self):
+        return np.eye(len(self.outlets), len(self.inlets))
+
+    def supplied_flow(self):
+        return np.zeros(len(self.outlets))
+
+    def parameters(self) -> tuple[Parameter, ...]:
+        return ()
+
+    def set_parameter(self, name, values):
+        known = ", ".join(p.name for p in self.parameters()) or "none"
+        raise KeyError(f"{self.key} has no parameter '{name}' that a scenario may vary (it has: {known})")
