@@ -14,12 +14,11 @@ from dataclasses import dataclass
 import networkx as nx
 import numpy as np
 
-from hxtrain.units import protocol, stream_units
-from hxtrain.units.exchanger_model import Exchanger
+from hxtrain.units import protocol
 from hxtrain.units.properties import Blend
-from hxtrain.units.u_models import GeometryFilms
 
 from .case import Case, Origin
+from .sections import UNIT_SECTIONS, Building
 from .flows import solve_flows
 
 
@@ -102,9 +101,11 @@ def build_network(case: Case, values: dict | None = None) -> Network:
 
 
 def _segments(case: Case):
-    """Walk every path; return the segments and each mixer's inlet port names in order."""
+    """Walk every path; return the segments and, for each unit that several paths end at (a
+    mixer), its inlet port names in path order."""
     segments: list[Segment] = []
-    mixer_inlets: dict[str, list[str]] = {m: [] for m in case.mixers}
+    many = [s.name for s in UNIT_SECTIONS if s.path_end == "many"]
+    mixer_inlets: dict[str, list[str]] = {m: [] for section in many for m in case.section(section)}
 
     def connect(origin: Origin, source, source_port, target, target_port):
         segments.append(Segment(len(segments), source, source_port, target, target_port, origin.name))
@@ -125,24 +126,11 @@ def _segments(case: Case):
     return segments, mixer_inlets
 
 
-def _unit_models(case: Case, mixer_inlets) -> dict[str, protocol.UnitModel]:
-    s = case.settings
-    units: dict[str, protocol.UnitModel] = {}
-    for name, d in case.streams.items():
-        units[name] = stream_units.Source(name, _key(case, name), d["flow"], d["supply_temperature"])
-    for name, d in case.exchangers.items():
-        units[name] = Exchanger(name, _key(case, name), d["spec"], minimum_approach=s.minimum_approach,
-                                minimum_f=s.minimum_f, limits=d["limits"])
-    for table, cooler in ((case.heaters, False), (case.coolers, True)):
-        for name, d in table.items():
-            units[name] = stream_units.Heater(name, _key(case, name), cooler=cooler, **d)
-    for name in case.mixers:
-        units[name] = stream_units.Mixer(name, _key(case, name), mixer_inlets[name])
-    for name, d in case.splitters.items():
-        units[name] = stream_units.Splitter(name, _key(case, name), d["fractions"])
-    for name, d in case.products.items():
-        units[name] = stream_units.Sink(name, _key(case, name), d["target_temperature"])
-    return units
+def _unit_models(case: Case, path_inlets) -> dict[str, protocol.UnitModel]:
+    """Each unit's model, built by its section's factory (:data:`.sections.UNIT_SECTIONS`)."""
+    building = Building(case, path_inlets)
+    return {name: section.build(name, _key(case, name), data, building)
+            for section in UNIT_SECTIONS for name, data in case.section(section.name).items()}
 
 
 def _key(case, name):
@@ -193,8 +181,7 @@ def _solve_flows(net: Network):
     is_utility = np.array([bool(net.case.streams[s].get("utility")) for s in sources])
     net.utility = np.array([bool(np.any(row)) and bool(np.all(is_utility[row])) for row in carried])
     for name, unit in net.units.items():
-        if hasattr(unit, "utility_sides"):
-            unit.utility_sides = frozenset(port for port, seg in zip(unit.inlets, net.inlets[name]) if net.utility[seg])
+        unit.carry_utility(port for port, seg in zip(unit.inlets, net.inlets[name]) if net.utility[seg])
 
 
 def segment_fluid(case: Case, sources, makeup, carried=None):
@@ -220,25 +207,28 @@ def segment_fluid(case: Case, sources, makeup, carried=None):
 
 
 def check_properties(net: Network):
-    """Exchangers rated from geometry (and geometry pressure drops) need transport properties."""
+    """Every unit gets the fluid properties it declares it needs (rating from geometry needs
+    viscosity and conductivity, say) on each inlet."""
     for name, unit in net.units.items():
-        spec = getattr(unit, "spec", None)
-        if spec is None or not isinstance(spec.thermal, GeometryFilms):
+        need = unit.required_properties()
+        if need is None:
             continue
-        needed = ("viscosity", "conductivity") + (("density",) if spec.pressure_drop else ())
         for port, seg in zip(unit.inlets, net.inlets[name]):
             fluid = net.fluids[seg]
-            missing = [p for p in needed if getattr(fluid, p)(20.0) is None]
+            missing = [p for p in need.properties if getattr(fluid, p)(20.0) is None]
             if missing:
-                raise net.case.error(tuple(net.case.keys[name]) + ("geometry",),
-                                     f"rating from geometry needs the {' and '.join(missing)} of the fluid on the "
+                raise net.case.error(tuple(net.case.keys[name]) + (need.key,),
+                                     f"{need.reason} needs the {' and '.join(missing)} of the fluid on the "
                                      f"{port} side (segment {net.segments[seg].label}); add it to its fluid")
 
 
 def _recycle_key(net: Network):
-    """Key path of the first splitter inside a loop (the likely culprit of an unbalanced flow)."""
+    """Key path of the first unit inside a loop that divides its one inlet by fractions (a
+    splitter: the likely culprit of an unbalanced flow), down to those fractions' key."""
     for component in nx.strongly_connected_components(net.graph):
         for name in sorted(component):
-            if len(component) > 1 and net.units[name].kind == "splitter":
-                return tuple(net.case.keys[name]) + ("branches",)
-    return ("splitters",)
+            unit = net.units[name]
+            fractions = [p.name for p in unit.parameters() if p.quantity == "fraction"]
+            if len(component) > 1 and len(unit.inlets) == 1 and len(unit.outlets) > 1 and fractions:
+                return tuple(net.case.keys[name]) + (fractions[0].split(".")[0],)
+    return ("streams",)

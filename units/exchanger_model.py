@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, UnitReport, UnitBase, check, \
+from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, PropertyNeed, UnitReport, UnitBase, check, \
     design_temperature_findings
-from .u_models import FixedCoefficient
+from .u_models import FixedCoefficient, GeometryFilms
 from .service_rating import ExchangerSpec, rate_in_service
 
 __all__ = ["Exchanger"]
@@ -26,11 +26,11 @@ class Exchanger(UnitBase):
     outlets = ("hot", "cold")
 
     def __init__(self, name, key, spec: ExchangerSpec, *, minimum_approach, minimum_f, limits=None,
-                 utility_sides=()):
+                 utility_inlets=()):
         self.name, self.key, self.spec = name, key, spec
         self.minimum_approach, self.minimum_f = minimum_approach, minimum_f
         self.limits = limits or {}
-        self.utility_sides = frozenset(utility_sides)
+        self.utility_inlets = frozenset(utility_inlets)
         """Sides ("hot"/"cold") carrying a utility stream: the duty then counts as heat to (or
         from) utilities rather than heat recovered between process streams."""
         self._last_outlets = None  # warm start of the in-service iteration (speed only)
@@ -38,9 +38,17 @@ class Exchanger(UnitBase):
     @property
     def total(self):
         """Which run total the duty counts in (None: utility on both sides, in no total)."""
-        hot, cold = "hot" in self.utility_sides, "cold" in self.utility_sides
+        hot, cold = "hot" in self.utility_inlets, "cold" in self.utility_inlets
         return {(False, False): HEAT_RECOVERED, (False, True): HEAT_TO_UTILITIES,
                 (True, False): HEAT_FROM_UTILITIES}.get((hot, cold))
+
+    def required_properties(self):
+        """Rated from geometry, the films need viscosity and conductivity, and a pressure drop
+        from geometry needs density."""
+        if not isinstance(self.spec.thermal, GeometryFilms):
+            return None
+        needed = ("viscosity", "conductivity") + (("density",) if self.spec.pressure_drop else ())
+        return PropertyNeed(needed, "geometry", "rating from geometry")
 
     def parameters(self):
         spec = self.spec

@@ -23,7 +23,7 @@ from typing import Protocol
 import numpy as np
 
 
-__all__ = ["UnitModel", "UnitBase", "Inlets", "Finding", "UnitReport", "Parameter", "check", "design_temperature_findings",
+__all__ = ["UnitModel", "UnitBase", "Inlets", "Finding", "UnitReport", "Parameter", "PropertyNeed", "check", "design_temperature_findings",
            "TOTALS", "HEAT_SOURCES"]
 
 SEVERITIES = ("limit", "warning", "input")
@@ -76,6 +76,16 @@ class Parameter:
         if np.isinf(self.low):
             return f"at most {self.high:g}"
         return low if np.isinf(self.high) else f"{low} and at most {self.high:g}"
+
+
+@dataclass(frozen=True)
+class PropertyNeed:
+    """Fluid properties a unit needs besides cp (``viscosity``, ``conductivity``, ``density``),
+    the key below the unit's entry that makes it need them, and why, for the message."""
+
+    properties: tuple[str, ...]
+    key: str
+    reason: str
 
 
 @dataclass
@@ -166,6 +176,12 @@ class UnitModel(Protocol):
     def set_parameter(self, name: str, values: np.ndarray) -> None:
         """Give parameter ``name`` one value per scenario (mutates the unit)."""
 
+    def carry_utility(self, ports) -> None:
+        """Which inlet ports carry utility streams only (mutates the unit)."""
+
+    def required_properties(self) -> PropertyNeed | None:
+        """Fluid properties besides cp needed on every inlet, and why."""
+
 
 def check(kind, severity, active, key, template, **values):
     """A Finding whose message is ``template`` formatted with the values at each active scenario."""
@@ -210,8 +226,20 @@ class UnitBase:
     def supplied_flow(self):
         return np.zeros(len(self.outlets))
 
+    utility_inlets: frozenset = frozenset()
+    """Inlet ports fed by utility streams only (cooling water, steam, hot oil), as the network
+    found them: a unit whose duty counts as heat to or from utilities says so in its totals."""
+
     def parameters(self) -> tuple[Parameter, ...]:
         return ()
+
+    def carry_utility(self, ports) -> None:
+        """Tell the unit which of its inlet ports carry utility streams only (mutates the unit)."""
+        self.utility_inlets = frozenset(ports)
+
+    def required_properties(self) -> PropertyNeed | None:
+        """Fluid properties besides cp the unit needs on every inlet: the case must give them."""
+        return None
 
     def set_parameter(self, name, values):
         known = ", ".join(p.name for p in self.parameters()) or "none"

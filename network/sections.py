@@ -1,0 +1,190 @@
+"""The registry of a case file's unit sections: for each section, how one entry is read, how its
+unit model is built, and how paths pass through or end at its units.
+
+Adding a unit type is one reader (a function of the entry's :class:`~.fields.Fields`, returning
+the entry's data), one class in :mod:`hxtrain.units` behind the unit protocol, and one line in
+:data:`UNIT_SECTIONS` naming both. Nothing else in the case model or the solver names unit types:
+reading, name registration, path checks and graph building all walk this table.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Callable
+
+from hxtrain.units import stream_units
+from hxtrain.units.exchanger_model import Exchanger
+from hxtrain.units.protocol import HEAT_SOURCES, UnitModel
+
+from . import quantities as q
+from .exchangers import SIDES, read_exchanger
+from .fields import Fields
+from .paths import Origin, read_path
+
+
+@dataclass
+class Reading:
+    """What a reader may use and add to besides its own entry: the case's settings and fluids,
+    and the list of origins (where streams start) that readers of path-starting units extend."""
+
+    settings: object
+    fluids: dict
+    origins: list = field(default_factory=list)
+
+    def starts_path(self, name: str, f: Fields, unit: str, port: str):
+        """The entry ``f`` starts a stream called ``name`` at ``unit``'s outlet ``port``: read its
+        ``path``."""
+        self.origins.append(Origin(name, f.path, read_path(f), unit, port))
+
+
+@dataclass
+class Building:
+    """What a factory may use besides the entry's data: the case, and for units that many
+    paths end at (mixers) the names of their inlet ports in path order."""
+
+    case: object
+    path_inlets: dict
+
+
+@dataclass(frozen=True)
+class UnitSection:
+    """One section of a case file holding units of one type."""
+
+    name: str
+    """The case-file key of the section (``heaters``)."""
+    word: str
+    """What one of its units is called in messages (``heater``)."""
+    entries: str
+    """What the section maps, for messages (``heater tags to their data``)."""
+    read: Callable[[Fields, Reading], dict]
+    """Reads one entry (its name is ``f.path[-1]``); returns its data, kept in the case."""
+    build: Callable[[str, str, dict, Building], UnitModel]
+    """(name, key path text, data, building context) -> the unit model."""
+    through: tuple = ()
+    """The sides a path passes through: ``("hot", "cold")`` for an exchanger, ``(None,)`` for a
+    unit with one side, ``()`` for a unit no path passes through."""
+    path_end: str = ""
+    """``"one"``: exactly one path ends here (a product, a splitter); ``"many"``: one or more (a
+    mixer); ``""``: no path ends here."""
+    feeds_itself: bool = False
+    """Its units supply flow of their own (a supply stream), so what they feed is reached."""
+
+
+def _read_stream(f: Fields, reading: Reading) -> dict:
+    name = f.path[-1]
+    data = {
+        "fluid": f.choice("fluid", sorted(reading.fluids)),
+        "flow": f.quantity("flow", q.MASS_FLOW),
+        "supply_temperature": f.quantity("supply_temperature", q.TEMPERATURE),
+        "utility": f.flag("utility"),
+    }
+    reading.starts_path(name, f, name, "out")
+    f.text("description")
+    f.finish()
+    return data
+
+
+def _build_stream(name, key, data, building):
+    return stream_units.Source(name, key, data["flow"], data["supply_temperature"])
+
+
+def _read_exchanger(f: Fields, reading: Reading) -> dict:
+    return read_exchanger(f)
+
+
+def _build_exchanger(name, key, data, building):
+    s = building.case.settings
+    return Exchanger(name, key, data["spec"], minimum_approach=s.minimum_approach, minimum_f=s.minimum_f,
+                     limits=data["limits"])
+
+
+def _read_one_side_unit(f: Fields, heater: bool) -> dict:
+    if f.has("duty") == f.has("outlet_temperature"):
+        raise f.error(None, "give exactly one of 'duty' (kW) and 'outlet_temperature' (°C)")
+    data = {
+        "duty": f.quantity("duty", q.DUTY, required=False),
+        "outlet_temperature": f.quantity("outlet_temperature", q.TEMPERATURE, required=False),
+        "design_temperature": f.quantity("design_temperature", q.TEMPERATURE, required=False),
+    }
+    if heater:
+        data["heat_source"] = f.choice("heat_source", HEAT_SOURCES, required=False, default="fired")
+    f.text("description")
+    f.finish()
+    return data
+
+
+def _read_heater(f: Fields, reading: Reading) -> dict:
+    return _read_one_side_unit(f, heater=True)
+
+
+def _read_cooler(f: Fields, reading: Reading) -> dict:
+    return _read_one_side_unit(f, heater=False)
+
+
+def _build_heater(name, key, data, building):
+    return stream_units.Heater(name, key, **data)
+
+
+def _build_cooler(name, key, data, building):
+    return stream_units.Heater(name, key, cooler=True, **data)
+
+
+def _read_mixer(f: Fields, reading: Reading) -> dict:
+    reading.starts_path(f.path[-1], f, f.path[-1], "out")
+    f.text("description")
+    f.finish()
+    return {}
+
+
+def _build_mixer(name, key, data, building):
+    return stream_units.Mixer(name, key, building.path_inlets[name])
+
+
+def _read_splitter(f: Fields, reading: Reading) -> dict:
+    branches = f.named_entries("branches", "branch names to their fraction and path")
+    if not branches:
+        raise f.error("branches", "a splitter needs at least one branch")
+    fractions = {}
+    for branch, b in branches:
+        fractions[branch] = b.quantity("fraction", q.FRACTION)
+        reading.starts_path(f"{f.path[-1]}.{branch}", b, f.path[-1], branch)
+        b.text("description")
+        b.finish()
+    total = sum(fractions.values())
+    if abs(total - 1.0) > 1e-6:
+        raise f.error("branches", f"the branch fractions sum to {total:.6g}, not 1 (tolerance 1e-6)")
+    f.text("description")
+    f.finish()
+    return {"fractions": {k: v / total for k, v in fractions.items()}}
+
+
+def _build_splitter(name, key, data, building):
+    return stream_units.Splitter(name, key, data["fractions"])
+
+
+def _read_product(f: Fields, reading: Reading) -> dict:
+    data = {"target_temperature": f.quantity("target_temperature", q.TEMPERATURE, required=False)}
+    f.text("description")
+    f.finish()
+    return data
+
+
+def _build_product(name, key, data, building):
+    return stream_units.Sink(name, key, data["target_temperature"])
+
+
+UNIT_SECTIONS = (
+    UnitSection("streams", "supply stream", "stream names to their supply", _read_stream, _build_stream,
+                feeds_itself=True),
+    UnitSection("exchangers", "exchanger", "exchanger tags to their data", _read_exchanger, _build_exchanger,
+                through=SIDES),
+    UnitSection("heaters", "heater", "heater tags to their data", _read_heater, _build_heater, through=(None,)),
+    UnitSection("coolers", "cooler", "cooler tags to their data", _read_cooler, _build_cooler, through=(None,)),
+    UnitSection("mixers", "mixer", "mixer names to their outlet path", _read_mixer, _build_mixer, path_end="many"),
+    UnitSection("splitters", "splitter", "splitter names to their branches", _read_splitter, _build_splitter,
+                path_end="one"),
+    UnitSection("products", "product", "product names", _read_product, _build_product, path_end="one"),
+)
+"""Every unit section of a case file, in the order they are read (and shown in ``check``)."""
+
+SECTION_NAMES = tuple(s.name for s in UNIT_SECTIONS)
