@@ -15,7 +15,8 @@ from .fields import Fields
 from .fluids import read_fluid
 from .paths import Origin, Step, check_connections
 from .reading import Document, read_document
-from .sections import SECTION_NAMES, UNIT_SECTIONS, Reading
+from . import sections as registry
+from .sections import Reading
 
 __all__ = ["Case", "Settings", "Step", "Origin", "load_case", "case_from_mapping", "case_from_document",
            "without_fouling"]
@@ -44,7 +45,7 @@ class Case:
     title: str
     settings: Settings
     fluids: dict
-    sections: dict = field(default_factory=lambda: {name: {} for name in SECTION_NAMES})
+    sections: dict = field(default_factory=lambda: {name: {} for name in registry.section_names()})
     origins: list[Origin] = field(default_factory=list)
     keys: dict[str, tuple] = field(default_factory=dict)
     """Case-file key path of every unit by name."""
@@ -70,7 +71,7 @@ class Case:
 
     def feeds_itself(self, unit: str) -> bool:
         """The unit supplies flow of its own (a supply stream)."""
-        return next(s for s in UNIT_SECTIONS if s.name == self.section_of(unit)).feeds_itself
+        return next(s for s in registry.UNIT_SECTIONS if s.name == self.section_of(unit)).feeds_itself
 
     def error(self, path, message):
         """A CaseError at ``path``, with the line where the file had that key."""
@@ -101,7 +102,7 @@ def case_from_document(doc: Document) -> Case:
         raise doc.error(("fluids",), "the case defines no fluids: add a 'fluids' section with each fluid's cp")
     case = Case(doc.file, title, settings, fluids, lines=doc.lines)
     reading = Reading(settings, fluids)
-    for section in UNIT_SECTIONS:
+    for section in registry.UNIT_SECTIONS:
         table = case.sections[section.name]
         for name, f in top.named_entries(section.name, section.entries):
             table[name] = section.read(f, reading)
@@ -110,7 +111,7 @@ def case_from_document(doc: Document) -> Case:
     if not case.streams:
         raise doc.error(("streams",), "the case has no supply streams: nothing flows")
     case.origins = reading.origins
-    check_connections(case, doc, UNIT_SECTIONS)
+    check_connections(case, doc, registry.UNIT_SECTIONS)
     return case
 
 
@@ -128,7 +129,7 @@ def _settings(f: Fields | None) -> Settings:
 
 
 def _register_names(case: Case, top: Fields):
-    for section in SECTION_NAMES:
+    for section in registry.section_names():
         for name in case.sections[section]:
             if name in case.keys:
                 first = ".".join(case.keys[name])

@@ -18,7 +18,8 @@ from hxtrain.units import protocol
 from hxtrain.units.properties import Blend
 
 from .case import Case, Origin
-from .sections import UNIT_SECTIONS, Building
+from . import sections as registry
+from .sections import Building
 from .flows import solve_flows
 
 
@@ -104,7 +105,7 @@ def _segments(case: Case):
     """Walk every path; return the segments and, for each unit that several paths end at (a
     mixer), its inlet port names in path order."""
     segments: list[Segment] = []
-    many = [s.name for s in UNIT_SECTIONS if s.path_end == "many"]
+    many = [s.name for s in registry.UNIT_SECTIONS if s.path_end == "many"]
     mixer_inlets: dict[str, list[str]] = {m: [] for section in many for m in case.section(section)}
 
     def connect(origin: Origin, source, source_port, target, target_port):
@@ -130,7 +131,7 @@ def _unit_models(case: Case, path_inlets) -> dict[str, protocol.UnitModel]:
     """Each unit's model, built by its section's factory (:data:`.sections.UNIT_SECTIONS`)."""
     building = Building(case, path_inlets)
     return {name: section.build(name, _key(case, name), data, building)
-            for section in UNIT_SECTIONS for name, data in case.section(section.name).items()}
+            for section in registry.UNIT_SECTIONS for name, data in case.section(section.name).items()}
 
 
 def _key(case, name):

@@ -187,4 +187,8 @@ UNIT_SECTIONS = (
 )
 """Every unit section of a case file, in the order they are read (and shown in ``check``)."""
 
-SECTION_NAMES = tuple(s.name for s in UNIT_SECTIONS)
+
+
+def section_names() -> tuple[str, ...]:
+    """The case-file keys of the unit sections, in registry order."""
+    return tuple(s.name for s in UNIT_SECTIONS)

@@ -39,7 +39,7 @@ import numpy as np
 
 from . import quantities as q
 from .case import Case, case_from_document
-from .sections import SECTION_NAMES
+from . import sections as registry
 from .changes import (WHOLE_NUMBER, apply_change, apply_changes, existing_number, is_branch_fraction, key_kind,
                       locate, refuse_temperature_multiple, study_number, value_changes, written_path)
 from .demos import DEMO_CASES, demo_case_path
@@ -48,7 +48,7 @@ from .fields import Fields, describe
 from .reading import Document, read_document
 
 METRIC_FIELDS = ("duty", "hot_in", "hot_out", "cold_in", "cold_out", "inlet", "outlet")
-CASE_SECTIONS = ("fluids",) + SECTION_NAMES
+CASE_SECTIONS = ("fluids",) + registry.section_names()
 TARGET_DUTY = q.Kind("a heat duty", "kW", '2500 or "25 MW"')
 TARGET_DIFFERENCE = q.Kind("a temperature difference", "delta_degC", '0, 5 or "9 delta_degF"')
 """What a target equals besides a temperature: a duty, or a difference of two temperatures or two
