@@ -81,6 +81,13 @@ class Exchanger(UnitBase):
         self._last_outlets = (service.rating.t_hot_out_exchanger, service.rating.t_cold_out_exchanger)
         return service
 
+    def balance_identities(self):
+        return (("flow", "hot", "hot"), ("flow", "cold", "cold"))
+
+    def balances(self, states, unknowns):
+        """Energy: the hot side gives what the cold side takes (both sides' enthalpy flows)."""
+        return (states.enthalpy_out() - states.enthalpy_in())[:, None]
+
     def outlet_temperatures(self, inlets):
         x = self.rate(inlets, details=False).rating
         return np.stack([x.t_hot_out, x.t_cold_out], axis=1)

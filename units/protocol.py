@@ -23,7 +23,7 @@ from typing import Protocol
 import numpy as np
 
 
-__all__ = ["UnitModel", "UnitBase", "Inlets", "Finding", "UnitReport", "Parameter", "PropertyNeed", "check", "design_temperature_findings",
+__all__ = ["UnitModel", "UnitBase", "Inlets", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
            "TOTALS", "HEAT_SOURCES"]
 
 SEVERITIES = ("limit", "warning", "input")
@@ -149,6 +149,27 @@ class Inlets:
         return self.m[:, j] * self.fluids[j].cp(self.t[:, j])
 
 
+@dataclass
+class PortStates:
+    """Temperatures (°C) and mass flows (kg/s) at every port of a unit, as measured or reconciled
+    rather than rated: inlets and outlets each (batch, ports), with each port's fluid model."""
+
+    t_in: np.ndarray
+    m_in: np.ndarray
+    t_out: np.ndarray
+    m_out: np.ndarray
+    fluids_in: tuple
+    fluids_out: tuple
+
+    def enthalpy_in(self):
+        """ṁ·h summed over the inlets, kW (enthalpy referred to 0 °C)."""
+        return sum(self.m_in[:, j] * f.enthalpy(self.t_in[:, j]) for j, f in enumerate(self.fluids_in))
+
+    def enthalpy_out(self):
+        """ṁ·h summed over the outlets, kW."""
+        return sum(self.m_out[:, j] * f.enthalpy(self.t_out[:, j]) for j, f in enumerate(self.fluids_out))
+
+
 class UnitModel(Protocol):
     name: str
     kind: str
@@ -175,6 +196,19 @@ class UnitModel(Protocol):
 
     def set_parameter(self, name: str, values: np.ndarray) -> None:
         """Give parameter ``name`` one value per scenario (mutates the unit)."""
+
+    def balance_identities(self) -> tuple:
+        """Port quantities that are equal whatever the unit's settings: (quantity, inlet port,
+        outlet port) with quantity ``flow`` or ``temperature`` (an exchanger side passes its
+        flow through; a splitter's branches leave at its inlet temperature)."""
+
+    def balance_unknowns(self) -> tuple[str, ...]:
+        """The unit's own unknowns in its balances (a heater's duty, kW)."""
+
+    def balances(self, states: PortStates, unknowns: np.ndarray) -> np.ndarray:
+        """Residuals (batch, equations) of the conservation laws that hold whatever the unit's
+        settings, beyond its identities: mass (kg/s), energy (kW). Used to reconcile plant
+        data; ``unknowns`` is (batch, len(balance_unknowns()))."""
 
     def carry_utility(self, ports) -> None:
         """Which inlet ports carry utility streams only (mutates the unit)."""
@@ -232,6 +266,17 @@ class UnitBase:
 
     def parameters(self) -> tuple[Parameter, ...]:
         return ()
+
+    def balance_identities(self) -> tuple:
+        return ()
+
+    def balance_unknowns(self) -> tuple[str, ...]:
+        return ()
+
+    def balances(self, states: PortStates, unknowns: np.ndarray) -> np.ndarray:
+        """Adiabatic by default: total mass and total enthalpy in equal those out."""
+        mass = states.m_out.sum(axis=1) - states.m_in.sum(axis=1)
+        return np.stack([mass, states.enthalpy_out() - states.enthalpy_in()], axis=1)
 
     def carry_utility(self, ports) -> None:
         """Tell the unit which of its inlet ports carry utility streams only (mutates the unit)."""

@@ -46,6 +46,9 @@ class Source(UnitBase):
         t = self.outlet_temperatures(inlets)[:, 0]
         return UnitReport({"t_out": t}, metrics={"outlet": t})
 
+    def balances(self, states, unknowns):
+        return np.empty((states.t_out.shape[0], 0))  # a supply's flow and temperature are free
+
 
 class Sink(UnitBase):
     """Where a stream leaves the network; an optional target temperature is reported as a deviation."""
@@ -60,6 +63,9 @@ class Sink(UnitBase):
 
     def outlet_temperatures(self, inlets):
         return np.empty((inlets.batch, 0))
+
+    def balances(self, states, unknowns):
+        return np.empty((states.t_in.shape[0], 0))  # what leaves the network is free
 
     def report(self, inlets):
         quantities = {"t_in": inlets.t[:, 0]}
@@ -113,6 +119,13 @@ class Splitter(UnitBase):
 
     def outlet_temperatures(self, inlets):
         return np.repeat(inlets.t, len(self.outlets), axis=1)
+
+    def balance_identities(self):
+        return tuple(("temperature", "in", branch) for branch in self.outlets)
+
+    def balances(self, states, unknowns):
+        """Mass only: the branches leave at the inlet temperature (an identity)."""
+        return (states.m_out.sum(axis=1) - states.m_in[:, 0])[:, None]
 
     def report(self, inlets):
         return UnitReport({"t_out": inlets.t[:, 0]}, metrics={"outlet": inlets.t[:, 0]})
@@ -174,6 +187,17 @@ class Heater(UnitBase):
             self.duty = np.asarray(values, dtype=float)
         else:
             super().set_parameter(name, values)
+
+    def balance_identities(self):
+        return (("flow", "in", "out"),)
+
+    def balance_unknowns(self):
+        return ("duty",)
+
+    def balances(self, states, unknowns):
+        """Energy: the outlet's enthalpy flow less the inlet's is the duty added (a heater) or
+        removed (a cooler), kW."""
+        return (states.enthalpy_out() - states.enthalpy_in() - self.sign * unknowns[:, 0])[:, None]
 
     def _heat_added(self, inlets):
         """Heat added (kW, negative for a cooler) and the outlet temperature."""
