@@ -9,6 +9,7 @@ reading, name registration, path checks and graph building all walk this table.
 
 from __future__ import annotations
 
+import copy
 from dataclasses import dataclass, field
 from typing import Callable
 
@@ -93,8 +94,10 @@ def _read_exchanger(f: Fields, reading: Reading) -> dict:
 
 
 def _build_exchanger(name, key, data, building):
+    # the unit gets its own copy of the spec: a scenario's values are set on the unit, and must
+    # never change the case it was built from (the next network built from it starts afresh)
     s = building.case.settings
-    return Exchanger(name, key, data["spec"], minimum_approach=s.minimum_approach, minimum_f=s.minimum_f,
+    return Exchanger(name, key, copy.deepcopy(data["spec"]), minimum_approach=s.minimum_approach, minimum_f=s.minimum_f,
                      limits=data["limits"])
 
 

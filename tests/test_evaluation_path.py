@@ -124,3 +124,13 @@ def test_without_the_registry_line_the_section_is_unknown():
     with pytest.raises(CaseError) as info:
         case_from_mapping(CASE_WITH_A_LOSS)
     assert "heat_losses" in str(info.value)
+
+
+def test_a_batch_never_changes_the_case_it_was_given():
+    """Scenario values are set on the network's units, not on the Case: after a batch varying
+    fouling, the same Case object simulates as before."""
+    case = load_case(demo_case_path("crude_preheat"))
+    before = simulate(case).summary["fired_heater_duty_kw"]
+    simulate_batch(case, {"exchangers.E-104.fouling.shell": np.array([0.0, 0.004])})
+    assert case.exchangers["E-104"]["spec"].fouling["shell"] == pytest.approx(0.0009)
+    assert simulate(case).summary["fired_heater_duty_kw"] == pytest.approx(before, rel=1e-12)

@@ -7,6 +7,7 @@ import numpy as np
 from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, PropertyNeed, UnitReport, UnitBase, check, \
     design_temperature_findings
 from .u_models import FixedCoefficient, GeometryFilms
+from .back_calculation import back_calculate
 from .service_rating import ExchangerSpec, rate_in_service
 
 __all__ = ["Exchanger"]
@@ -87,6 +88,26 @@ class Exchanger(UnitBase):
     def balances(self, states, unknowns):
         """Energy: the hot side gives what the cold side takes (both sides' enthalpy flows)."""
         return (states.enthalpy_out() - states.enthalpy_in())[:, None]
+
+    def condition(self, states):
+        """Duty, UA, service and clean U and fouling resistance from the terminal temperatures
+        and flows (:func:`.back_calculation.back_calculate`)."""
+        c = back_calculate(self.spec, states.t_in[:, 0], states.t_out[:, 0], states.t_in[:, 1], states.t_out[:, 1],
+                           states.m_in[:, 0], states.m_in[:, 1], states.fluids_in[0], states.fluids_in[1])
+        return {"duty": c.duty, "ua": c.ua, "u_service": c.u_service, "u_clean": c.u_clean, "fouling": c.fouling,
+                "p": c.p_hot, "r": c.r_hot, **c.films, "reason": c.reason}
+
+    def settings_from_states(self, states, unknowns):
+        """The back-calculated fouling resistance, all referred to the outside area and so set
+        as shell-side fouling with none on the tube side (a total cannot be split between the
+        sides from terminal temperatures); a negative value is set as zero (the caller reports
+        it); NaN where it could not be found, which makes that scenario not valid. Nothing where
+        U takes no fouling."""
+        if not self.spec.fouling:
+            return {}
+        fouling = self.condition(states)["fouling"]
+        return {"fouling.shell": np.where(np.isnan(fouling), np.nan, np.maximum(fouling, 0.0)),
+                "fouling.tube": np.zeros_like(fouling)}
 
     def outlet_temperatures(self, inlets):
         x = self.rate(inlets, details=False).rating

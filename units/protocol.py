@@ -210,6 +210,17 @@ class UnitModel(Protocol):
         settings, beyond its identities: mass (kg/s), energy (kW). Used to reconcile plant
         data; ``unknowns`` is (batch, len(balance_unknowns()))."""
 
+    def condition(self, states: PortStates) -> dict | None:
+        """What measured or reconciled port states say about the unit's condition (an
+        exchanger's duty, UA, service and clean U, fouling resistance), arrays over the batch
+        keyed by result column, with ``reason`` text where a value cannot be found; None for a
+        unit with nothing to say."""
+
+    def settings_from_states(self, states: PortStates, unknowns: np.ndarray) -> dict:
+        """The unit's parameter values (names of :meth:`parameters`) that reproduce these port
+        states in a simulation: a supply's flow and temperature, a heater's outlet temperature,
+        a splitter's fractions, an exchanger's fouling."""
+
     def carry_utility(self, ports) -> None:
         """Which inlet ports carry utility streams only (mutates the unit)."""
 
@@ -277,6 +288,12 @@ class UnitBase:
         """Adiabatic by default: total mass and total enthalpy in equal those out."""
         mass = states.m_out.sum(axis=1) - states.m_in.sum(axis=1)
         return np.stack([mass, states.enthalpy_out() - states.enthalpy_in()], axis=1)
+
+    def condition(self, states: PortStates) -> dict | None:
+        return None
+
+    def settings_from_states(self, states: PortStates, unknowns: np.ndarray) -> dict:
+        return {}
 
     def carry_utility(self, ports) -> None:
         """Tell the unit which of its inlet ports carry utility streams only (mutates the unit)."""

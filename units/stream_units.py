@@ -10,7 +10,7 @@ from .properties import PHYSICAL_RANGE, Blend
 from .protocol import COOLERS, FIRED_HEATERS, OTHER_HEATERS, Inlets, Parameter, UnitBase, UnitReport, check, \
     design_temperature_findings
 
-__all__ = ["Source", "Sink", "Mixer", "Splitter", "Heater", "mix", "rescaled_fractions"]
+__all__ = ["Source", "Sink", "Mixer", "Splitter", "Heater", "mix", "shared_fractions"]
 
 
 class Source(UnitBase):
@@ -48,6 +48,9 @@ class Source(UnitBase):
 
     def balances(self, states, unknowns):
         return np.empty((states.t_out.shape[0], 0))  # a supply's flow and temperature are free
+
+    def settings_from_states(self, states, unknowns):
+        return {"flow": states.m_out[:, 0], "supply_temperature": states.t_out[:, 0]}
 
 
 class Sink(UnitBase):
@@ -95,15 +98,17 @@ class Mixer(UnitBase):
 
 
 class Splitter(UnitBase):
-    """Splits one inlet into branches by fractions that sum to one. A scenario may set one
-    branch's fraction; the other branches then share the rest in their base proportions."""
+    """Splits one inlet into branches by fractions that sum to one. A scenario may set one or
+    more branches' fractions; the branches not set share the rest in their base proportions."""
 
     kind = "splitter"
 
     def __init__(self, name, key, fractions):
         self.name, self.key = name, key
         self.outlets = tuple(fractions)
-        self.fractions = np.array([fractions[b] for b in self.outlets], dtype=float)
+        self.base = np.array([fractions[b] for b in self.outlets], dtype=float)
+        self.fractions = self.base.copy()
+        self.given = {}
 
     def flow_coefficients(self):
         return self.fractions[..., None]
@@ -115,7 +120,8 @@ class Splitter(UnitBase):
         branch = name.removeprefix("branches.").removesuffix(".fraction")
         if branch not in self.outlets or not name.endswith(".fraction"):
             return super().set_parameter(name, values)
-        self.fractions = np.stack(rescaled_fractions(self.outlets, self.fractions, branch, values), axis=-1)
+        self.given[branch] = np.asarray(values, dtype=float)
+        self.fractions = np.stack(shared_fractions(self.outlets, self.base, self.given), axis=-1)
 
     def outlet_temperatures(self, inlets):
         return np.repeat(inlets.t, len(self.outlets), axis=1)
@@ -127,26 +133,39 @@ class Splitter(UnitBase):
         """Mass only: the branches leave at the inlet temperature (an identity)."""
         return (states.m_out.sum(axis=1) - states.m_in[:, 0])[:, None]
 
+    def settings_from_states(self, states, unknowns):
+        """Each branch's share of the flows leaving."""
+        total = states.m_out.sum(axis=1)
+        shares = states.m_out / np.where(total > 0.0, total, 1.0)[:, None]
+        return {f"branches.{b}.fraction": shares[:, j] for j, b in enumerate(self.outlets)}
+
     def report(self, inlets):
         return UnitReport({"t_out": inlets.t[:, 0]}, metrics={"outlet": inlets.t[:, 0]})
 
 
-def rescaled_fractions(branches, fractions, branch, value):
-    """Branch fractions with ``branch`` set to ``value`` (a number or an array) and the other
-    branches rescaled in proportion to ``fractions`` (their base values), so that they still
-    sum to one; with no base share left, the others share the rest equally.
+def shared_fractions(branches, base, given):
+    """Branch fractions with the branches in ``given`` (branch -> a number or an array) at their
+    values and the others sharing the rest in proportion to ``base`` (the case's fractions), or
+    equally where their base shares are all zero. Where the given values leave nothing (or less
+    than nothing) to share, or every branch is given, all are divided by their sum, so that the
+    fractions always add up to one.
 
-    >>> [round(float(f), 12) for f in rescaled_fractions(("a", "b", "c"), [0.5, 0.3, 0.2], "a", 0.8)]
+    >>> [round(float(f), 12) for f in shared_fractions(("a", "b", "c"), [0.5, 0.3, 0.2], {"a": 0.8})]
     [0.8, 0.12, 0.08]
+    >>> [round(float(f), 12) for f in shared_fractions(("a", "b", "c"), [0.5, 0.3, 0.2], {"a": 0.6, "c": 0.1})]
+    [0.6, 0.3, 0.1]
     """
-    fractions = np.asarray(fractions, dtype=float)
-    value = np.asarray(value, dtype=float)
-    chosen = list(branches).index(branch)
-    base = fractions[..., [j for j in range(len(branches)) if j != chosen]]
-    rest = base.sum(axis=-1, keepdims=True)
-    shares = np.where(rest > 0.0, base / np.where(rest > 0.0, rest, 1.0), 1.0 / max(1, base.shape[-1]))
-    others = iter(np.moveaxis((1.0 - value)[..., None] * shares, -1, 0))
-    return [np.broadcast_to(value, np.shape(value)) * 1.0 if j == chosen else next(others) for j in range(len(branches))]
+    base = np.asarray(base, dtype=float)
+    values = {b: np.asarray(v, dtype=float) for b, v in given.items()}
+    free = [j for j, b in enumerate(branches) if b not in values]
+    taken = sum(values.values()) if values else np.zeros(())
+    rest = np.maximum(1.0 - taken, 0.0)
+    free_base = base[free].sum()
+    shares = {j: (base[j] / free_base if free_base > 0.0 else 1.0 / len(free)) for j in free}
+    fractions = [values[b] * 1.0 if b in values else rest * shares[j] for j, b in enumerate(branches)]
+    total = sum(np.broadcast_arrays(*fractions))
+    scale = np.where(total > 0.0, total, 1.0)
+    return [np.asarray(f / scale) for f in np.broadcast_arrays(*fractions)]
 
 
 class Heater(UnitBase):
@@ -198,6 +217,12 @@ class Heater(UnitBase):
         """Energy: the outlet's enthalpy flow less the inlet's is the duty added (a heater) or
         removed (a cooler), kW."""
         return (states.enthalpy_out() - states.enthalpy_in() - self.sign * unknowns[:, 0])[:, None]
+
+    def settings_from_states(self, states, unknowns):
+        """Its outlet temperature where the unit is set by one, else its duty."""
+        if self.target is not None:
+            return {"outlet_temperature": states.t_out[:, 0]}
+        return {"duty": self.sign * (states.enthalpy_out() - states.enthalpy_in())}
 
     def _heat_added(self, inlets):
         """Heat added (kW, negative for a cooler) and the outlet temperature."""

@@ -89,7 +89,7 @@ class NetworkBalances:
         """Column of the merged variable for every slot (T of segments, m of segments, unknowns)."""
         self.segments = segments
         probe = np.ones((1, len(self.variables)))
-        self.units = [(name, unit) for name, unit in units if self._unit_residuals(name, unit, probe).shape[1]]
+        self.units = [(name, unit) for name, unit in units if self.unit_residuals(name, probe, unit).shape[1]]
         self.tag_column = np.array([self.column(m) for m in measured], dtype=int)
         first = {}
         self.ties = []  # (tag index, tag index measuring the same variable first)
@@ -101,7 +101,7 @@ class NetworkBalances:
         self.primary = np.array(sorted(first.values()), dtype=int)
         """Tags that stand for their variable (the first tag measuring it)."""
         self.unmeasured = np.array([c for c in range(len(self.variables)) if c not in first], dtype=int)
-        self._local = [self._local_columns(name, unit) for name, unit in self.units]
+        self._local = [self.local_columns(name) for name, unit in self.units]
         self.equations = self.constraints(np.ones((1, len(self.tag_column))), np.ones((1, len(self.unmeasured)))).shape[1]
 
     def column(self, measured) -> int:
@@ -111,7 +111,9 @@ class NetworkBalances:
             return int(self.slot_column[self._unknown_slot[(measured[1], measured[2])]])
         return int(self.slot_column[measured[1] + (0 if kind == TEMPERATURE else self.segments)])
 
-    def _local_columns(self, name, unit):
+    def local_columns(self, name):
+        """Columns of the variables unit ``name``'s balances depend on (its ports, its unknowns)."""
+        unit = self.net.units[name]
         ins, outs = self.net.inlets[name], self.net.outlets[name]
         seg = list(ins) + list(outs)
         t = [self.slot_column[s] for s in seg]
@@ -119,8 +121,10 @@ class NetworkBalances:
         own = [self.slot_column[self._unknown_slot[(name, k)]] for k in unit.balance_unknowns()]
         return np.array(t + m + own, dtype=int)
 
-    def _unit_residuals(self, name, unit, z):
+    def unit_residuals(self, name, z, unit=None):
+        """Residuals of unit ``name``'s balances at the variables ``z`` (W, N)."""
         net = self.net
+        unit = net.units[name] if unit is None else unit
         ins, outs = net.inlets[name], net.outlets[name]
         t = lambda segs: z[:, self.slot_column[list(segs)]] if segs else np.empty((z.shape[0], 0))  # noqa: E731
         m = lambda segs: z[:, self.slot_column[[self.segments + s for s in segs]]] if segs else np.empty((z.shape[0], 0))  # noqa: E731
@@ -145,7 +149,7 @@ class NetworkBalances:
 
     def constraints(self, x, u) -> np.ndarray:
         z = self.full(x, u)
-        parts = [self._unit_residuals(name, unit, z) for name, unit in self.units]
+        parts = [self.unit_residuals(name, z, unit) for name, unit in self.units]
         parts += [(x[:, i] - x[:, j])[:, None] for i, j in self.ties]
         return np.concatenate(parts, axis=1) if parts else np.empty((z.shape[0], 0))
 
@@ -157,15 +161,15 @@ class NetworkBalances:
         dz = np.zeros((windows, self.equations, columns))
         row = 0
         for (name, unit), local in zip(self.units, self._local):
-            base = self._unit_residuals(name, unit, z)
+            base = self.unit_residuals(name, z, unit)
             rows = slice(row, row + base.shape[1])
             for c in np.unique(local):
                 step = FD_STEP * np.maximum(np.abs(z[:, c]), 1.0)
                 up, down = z.copy(), z.copy()
                 up[:, c] += step
                 down[:, c] -= step
-                dz[:, rows, c] = (self._unit_residuals(name, unit, up)
-                                  - self._unit_residuals(name, unit, down)) / (2.0 * step[:, None])
+                dz[:, rows, c] = (self.unit_residuals(name, up, unit)
+                                  - self.unit_residuals(name, down, unit)) / (2.0 * step[:, None])
             row += base.shape[1]
         jx = np.zeros((windows, self.equations, len(self.tag_column)))
         jx[:, :, self.primary] = dz[:, :, self.tag_column[self.primary]]
