@@ -112,6 +112,13 @@ SPECIFIC_GRAVITY = Kind("a specific gravity", "dimensionless", "0.86", low=0.55,
                         basis="light naphtha to vacuum residue: the petroleum cp correlation's inputs")
 WATSON_K = Kind("a Watson K", "dimensionless", "11.9", low=9.5, high=13.5,
                 basis="aromatic to paraffinic fractions: the petroleum cp correlation's inputs")
+DURATION = Kind("a duration", "s", '"1 day" or "6 h"', low=1.0, high=100 * 365.25 * 86400.0,
+                basis="a one-second sample to a century of projection: common practice")
+"""Averaging windows and projection horizons of plant data. Monitoring files ask for the unit
+("1 day", "6 h"): a bare number here would be seconds, which nobody means."""
+EMISSION_FACTOR = Kind("an emission factor", "kg/GJ", '56.1 or "0.0561 t/GJ"', low=0.0, high=500.0,
+                       basis="natural gas ~56, fuel oil ~77, coal ~95-100 kg CO2 per GJ (IPCC 2006 "
+                             "defaults, from memory); 500 is above any fuel")
 
 _DIFFERENCE = re.compile(r"(?<![A-Za-z_])deg(C|F)\b")
 _DEGREE_WORDS = re.compile(r"(?:[°º]\s*|(?<![A-Za-z_])deg(?:ree)?s?\s+)(C|F|[Cc]elsius|[Ff]ahrenheit)(?![A-Za-z_])")

@@ -1,0 +1,378 @@
+"""Monitoring files: how a plant's historian tags map onto a case, read and checked key by key.
+
+A monitoring file (YAML, keys of our own) names the base case, the historian export (CSV or
+XLSX), the averaging window and the steady-state test, and maps each tag to what it measures:
+
+.. code-block:: yaml
+
+    case: crude_preheat.yaml          # relative to this file, or {demo: crude_preheat}
+    data: crude_history.csv           # relative to this file (.csv or .xlsx)
+    window: 1 day
+    tags:
+      FI-1001: {flow: crude, unit: t/h}
+      TI-1011: {temperature: E-101.cold_out, unit: degF, uncertainty: 0.9 degF}
+      JI-1201: {duty: F-101, unit: MW, uncertainty: 3 %}
+
+A tag measures a ``temperature`` or a ``flow`` at a point (a stream segment: see
+:func:`resolve_point`), or the ``duty`` of a heater or cooler named by its tag. Its ``unit`` is
+the unit of the historian's numbers and must fit the quantity. Uncertainties are ONE standard
+deviation, absolute ("0.5", "1 K", "0.9 degF": a temperature *difference*; a bare number is in
+the default unit K, kg/s or kW, as everywhere in case files) or relative ("2 %" of the reading),
+per tag or per instrument kind (``uncertainty:`` at the top), with the defaults below.
+
+Every key is read through :class:`~.fields.Fields` (unknown keys refused with the nearest known
+one), and every error names the monitoring file, the key path and the line; errors inside the
+case name the case file. Units follow :mod:`.quantities`, with one addition for the trade's fuel
+and duty unit: "MMBtu" is a million Btu; "MBtu" (a thousand to some, a million to others) is
+refused as ambiguous.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable, NamedTuple
+
+import pandas as pd
+
+from . import quantities as q
+from .case import Case, load_case
+from .demos import DEMO_CASES, demo_case_path
+from .errors import CaseError
+from .fields import Fields, describe, is_misspelling, nearest
+from .graph import Network, build_network
+from .measurement_points import (DUTY_PARAMETERS, QUANTITIES, Tag, read_uncertainty, resolve_duty_unit,
+                                 resolve_point, trade_units, unit_conversion, unit_points)
+from .quantities import shorten
+from .reading import Document, read_document
+
+__all__ = ["MonitoringFile", "Tag", "SteadyState", "Projection", "load_monitoring", "monitoring_from_mapping",
+           "monitoring_from_document", "resolve_point", "resolve_duty_unit", "unit_points", "unit_conversion",
+           "read_uncertainty", "QUANTITIES", "DUTY_PARAMETERS"]
+
+# ----------------------------------------------------------------------------- defaults and their basis
+DEFAULT_TIME_COLUMN = "time"
+DEFAULT_WINDOW = pd.Timedelta(days=1)
+"""Daily averages: the usual resolution of fouling monitoring, whose trends run over weeks and
+months, while a day averages out control-loop swings (common practice)."""
+DEFAULT_FLOW_CHANGE = 0.03
+"""A window is transient when a flow moves by more than 3 % of its mean (common practice)."""
+DEFAULT_TEMPERATURE_CHANGE = 3.0
+"""... or a temperature by more than 3 K (common practice)."""
+DEFAULT_MINIMUM_SAMPLES = 1
+DEFAULT_UNCERTAINTY = {"temperature": (1.0, None), "flow": (None, 0.02), "duty": (None, 0.05)}
+"""(absolute sigma, relative sigma) per instrument kind, one standard deviation: thermocouples and
+RTDs in service 1 K; orifice and other differential-pressure flow meters 2 % of reading; a heater
+duty from fuel metering times an efficiency 5 % of reading (all common practice)."""
+DEFAULT_SIGNIFICANCE = 0.05
+"""Of the gross-error tests: the usual level of the global and measurement tests (common practice)."""
+MAX_SIGNIFICANCE = 0.5
+DEFAULT_HORIZON = pd.Timedelta(days=180)
+DEFAULT_STEP = pd.Timedelta(days=7)
+"""Projection: half a year ahead in weekly steps, the span of cleaning planning (common practice)."""
+DEFAULT_FURNACE_EFFICIENCY = 0.85
+"""Fired duty over fuel energy (LHV basis): refinery fired heaters run about 0.80-0.92 (common
+practice)."""
+DEFAULT_CO2_PER_FUEL = 56.1
+"""kg CO2 per GJ of fuel: the IPCC 2006 default for natural gas (from memory)."""
+DEFAULT_CO2_PRICE = 0.0
+"""No carbon price unless the file gives one."""
+DATA_SUFFIXES = (".csv", ".xlsx")
+TOP_KEYS = ("title", "description", "case", "data", "time_column", "window", "steady_state", "uncertainty",
+            "tags", "cleanings", "economics", "limits", "projection", "significance")
+
+
+class SteadyState(NamedTuple):
+    flow_change: float = DEFAULT_FLOW_CHANGE
+    """Fraction of a flow tag's mean."""
+    temperature_change: float = DEFAULT_TEMPERATURE_CHANGE
+    """K."""
+    minimum_samples: int = DEFAULT_MINIMUM_SAMPLES
+
+
+class Projection(NamedTuple):
+    horizon: pd.Timedelta = DEFAULT_HORIZON
+    step: pd.Timedelta = DEFAULT_STEP
+
+
+@dataclass
+class MonitoringFile:
+    """A checked monitoring file. ``cleanings`` is a list of (exchanger, time), sorted by time;
+    ``economics`` None or a dict (fuel_price per GJ of fuel and co2_price per tonne, both in
+    ``currency``; furnace_efficiency; co2_per_fuel kg/GJ); ``limits`` a dict of
+    ``fired_duty`` (kW) and ``inlet_temperature`` (°C), each heater tag -> value; ``projection``
+    None or (horizon, step); ``network`` the case as built by ``build_network(case)``, which
+    the tags' ``segment`` indices refer to."""
+
+    file: str
+    title: str
+    case: Case
+    data_path: Path
+    time_column: str
+    window: pd.Timedelta
+    steady_state: SteadyState
+    tags: dict[str, Tag]
+    cleanings: list[tuple[str, pd.Timestamp]]
+    economics: dict | None
+    limits: dict
+    projection: Projection | None
+    significance: float
+    lines: dict[tuple, int] = field(default_factory=dict, repr=False)
+    network: Network | None = field(default=None, repr=False)
+
+    def error(self, path, message) -> CaseError:
+        """A CaseError at key path ``path`` of the monitoring file, with its line."""
+        return Document(None, self.file, self.lines).error(tuple(path), message)
+
+    def tags_of(self, quantity: str) -> list[Tag]:
+        return [t for t in self.tags.values() if t.quantity == quantity]
+
+
+def load_monitoring(path) -> MonitoringFile:
+    """Read, parse and check a monitoring file; raises :class:`CaseError` on any bad input."""
+    return monitoring_from_document(read_document(path), Path(path).parent)
+
+
+def monitoring_from_mapping(data, file="<monitoring>", folder=".") -> MonitoringFile:
+    """Check a monitoring file given as plain Python data; relative paths start at ``folder``."""
+    return monitoring_from_document(Document(data, str(file)), Path(folder))
+
+
+def monitoring_from_document(doc: Document, folder: Path) -> MonitoringFile:
+    top = Fields(doc, (), doc.data, "a mapping at the top level (case, data, tags, ...)")
+    case_like = [k for k in ("streams", "exchangers", "fluids", "base") if k in top.value]
+    if case_like:
+        raise doc.error((case_like[0],), f"this looks like a case or study file (it has '{case_like[0]}'), not a "
+                                         "monitoring file; a monitoring file names its case under 'case'")
+    top.allowed.update(TOP_KEYS)
+    top.finish()
+    case = _case(top, folder)
+    net = build_network(case)
+    data = top.text("data", required=True)
+    if not data.strip():
+        raise top.error("data", "expected the historian export's file name (.csv or .xlsx), got empty text")
+    data_path = _relative(folder, data)
+    if data_path.suffix.lower() not in DATA_SUFFIXES:
+        hint = ": save the workbook as .xlsx" if data_path.suffix.lower() == ".xls" else ""
+        raise top.error("data", f"expected a .csv or .xlsx file, got {shorten(data)}{hint}")
+    time_column = top.text("time_column", default=DEFAULT_TIME_COLUMN)
+    if not time_column.strip():
+        raise top.error("time_column", "expected the name of the data's time column, got empty text")
+    window = _duration(top, "window", DEFAULT_WINDOW)
+    tags = _tags(top, net, _default_uncertainties(top.mapping("uncertainty")), time_column)
+    projection = None
+    if top.has("projection"):
+        f = top.mapping("projection")
+        projection = Projection(_duration(f, "horizon", DEFAULT_HORIZON), _duration(f, "step", DEFAULT_STEP))
+        if projection.step > projection.horizon:
+            raise f.error("step", f"the step ({projection.step}) is longer than the horizon ({projection.horizon})")
+        f.finish()
+    significance = _quantity(top, "significance", q.FRACTION, default=DEFAULT_SIGNIFICANCE, above=0.0)
+    if significance > MAX_SIGNIFICANCE:
+        raise top.error("significance", f"{significance:g} is above {MAX_SIGNIFICANCE}: a test that fails good "
+                                        "data more often than not (0.05 is usual)")
+    return MonitoringFile(
+        file=doc.file, title=top.text("title", default="") or "", case=case, data_path=data_path,
+        time_column=time_column, window=window, steady_state=_steady_state(top.mapping("steady_state")), tags=tags,
+        cleanings=_cleanings(top, case), economics=_economics(top.mapping("economics")),
+        limits=_limits(top.mapping("limits"), net), projection=projection, significance=significance,
+        lines=doc.lines, network=net)
+
+
+# ----------------------------------------------------------------------------- sections
+
+
+def _relative(folder: Path, text: str) -> Path:
+    path = Path(text)
+    return path if path.is_absolute() else folder / path
+
+
+def _case(top: Fields, folder: Path) -> Case:
+    raw = top.raw("case")
+    if isinstance(raw, dict):
+        demo = Fields(top.doc, ("case",), raw)
+        path = demo_case_path(demo.choice("demo", DEMO_CASES))
+        demo.finish()
+    elif isinstance(raw, str) and raw.strip():
+        path = _relative(folder, raw)
+    else:
+        raise top.error("case", f"expected the case file's path (relative to this file) or {{demo: NAME}}, "
+                                f"got {describe(raw)}")
+    if not path.is_file():
+        raise top.error("case", f"the case file {path} does not exist" if not path.exists()
+                        else f"{path} is not a case file (a directory?)")
+    return load_case(path)  # its errors name the case file
+
+
+def _default_uncertainties(f: Fields | None) -> dict:
+    if f is None:
+        return dict(DEFAULT_UNCERTAINTY)
+    result = {kind: read_uncertainty(f, kind, kind, DEFAULT_UNCERTAINTY[kind]) for kind in QUANTITIES}
+    f.finish()
+    return result
+
+
+def _steady_state(f: Fields | None) -> SteadyState:
+    if f is None:
+        return SteadyState()
+    result = SteadyState(
+        _quantity(f, "flow_change", q.FRACTION, default=DEFAULT_FLOW_CHANGE, above=0.0),
+        _quantity(f, "temperature_change", q.TEMPERATURE_DIFFERENCE, default=DEFAULT_TEMPERATURE_CHANGE, above=0.0),
+        f.integer("minimum_samples", DEFAULT_MINIMUM_SAMPLES, 1, 1_000_000))
+    f.finish()
+    return result
+
+
+def _tags(top: Fields, net: Network, defaults: dict, time_column: str) -> dict[str, Tag]:
+    entries = top.named_entries("tags", "tag names to what they measure")
+    if not entries:
+        raise top.doc.error(("tags",), "the monitoring file maps no tags: add 'tags', e.g. "
+                                       "FI-1001: {flow: crude, unit: t/h}")
+    tags: dict[str, Tag] = {}
+    columns: dict[str, str] = {}
+    for name, f in entries:
+        quantity = _measured_quantity(f)
+        fail = _error_at(f, quantity)
+        point = f.text(quantity, required=True)
+        segment = None
+        if quantity == "duty":
+            resolve_duty_unit(net, point, fail)
+        else:
+            segment = resolve_point(net, point, fail)
+        unit = f.raw("unit")
+        try:
+            scale, offset = unit_conversion(unit, quantity)
+        except q.QuantityError as exc:
+            raise f.error("unit", str(exc)) from None
+        sigma, relative = read_uncertainty(f, "uncertainty", quantity, defaults[quantity])
+        column = f.text("column", default=name)
+        if not column.strip():
+            raise f.error("column", "expected the data column's name, got empty text")
+        if column in columns or column == time_column:
+            other = f"tag {columns[column]}" if column in columns else "the time"
+            raise f.error("column", f"column {column!r} already holds {other}; each tag needs a column of its own")
+        columns[column] = name
+        f.text("description")
+        f.finish()
+        tags[name] = Tag(name, quantity, point, unit, sigma, relative, f.path, column, segment, scale, offset)
+    return tags
+
+
+def _measured_quantity(f: Fields) -> str:
+    given = [k for k in QUANTITIES if f.has(k)]
+    if len(given) == 1:
+        return given[0]
+    if not given:
+        for key in f.value:
+            meant = [k for k in QUANTITIES if isinstance(key, str) and is_misspelling(key, k)]
+            if meant:
+                raise f.error(key, f"unknown key {shorten(key)} (did you mean '{meant[0]}'?)")
+    raise f.error(None, f"give exactly one of {', '.join(QUANTITIES)} (what the tag measures, and where); "
+                        f"got {', '.join(given) if given else 'none'}")
+
+
+def _cleanings(top: Fields, case: Case) -> list:
+    raw = top.raw("cleanings", required=False)
+    if raw is None:
+        return []
+    if not isinstance(raw, list):
+        raise top.error("cleanings", f"expected a list of {{exchanger: TAG, date: YYYY-MM-DD}}, got {describe(raw)}")
+    seen = {}
+    for i, item in enumerate(raw):
+        f = Fields(top.doc, ("cleanings", i), item, "a cleaning: {exchanger: TAG, date: YYYY-MM-DD}")
+        tag = f.text("exchanger", required=True)
+        if tag not in case.exchangers:
+            raise f.error("exchanger", f"no exchanger {shorten(tag)} in the case{nearest(tag, case.exchangers)}")
+        when = _timestamp(f, "date")
+        if (tag, when) in seen:
+            raise f.error(None, f"the cleaning of {tag} on {when} is listed twice (also at "
+                                f"cleanings[{seen[tag, when]}])")
+        seen[tag, when] = i
+        f.text("description")
+        f.finish()
+    return sorted(seen, key=lambda c: (c[1], c[0]))
+
+
+def _economics(f: Fields | None) -> dict | None:
+    if f is None:
+        return None
+    result = {
+        "fuel_price": _quantity(f, "fuel_price", q.NUMBER, required=True, minimum=0.0),
+        "currency": f.text("currency", required=True),
+        "furnace_efficiency": _quantity(f, "furnace_efficiency", q.FRACTION, default=DEFAULT_FURNACE_EFFICIENCY,
+                                        above=0.0),
+        "co2_per_fuel": _quantity(f, "co2_per_fuel", q.EMISSION_FACTOR, default=DEFAULT_CO2_PER_FUEL),
+        "co2_price": _quantity(f, "co2_price", q.NUMBER, default=DEFAULT_CO2_PRICE, minimum=0.0),
+    }
+    if not result["currency"].strip() or len(result["currency"]) > 12:
+        raise f.error("currency", f"expected a currency's short name such as USD or EUR, got "
+                                  f"{shorten(result['currency'])}")
+    f.finish()
+    return result
+
+
+def _limits(f: Fields | None, net: Network) -> dict:
+    limits = {"fired_duty": {}, "inlet_temperature": {}}
+    if f is None:
+        return limits
+    for key, kind in (("fired_duty", q.DUTY), ("inlet_temperature", q.TEMPERATURE)):
+        section = f.mapping(key, what="a mapping of heater tags to their limit")
+        for unit in list(section.value) if section is not None else ():
+            resolve_duty_unit(net, unit, _error_at(section, unit))
+            limits[key][unit] = _quantity(section, unit, kind, required=True, above=0.0 if kind is q.DUTY else None)
+        if section is not None:
+            section.finish()
+    f.finish()
+    return limits
+
+
+# ----------------------------------------------------------------------------- values
+
+
+def _error_at(f: Fields, key) -> Callable[[str], CaseError]:
+    return lambda message: f.error(key, message)
+
+
+def _quantity(f: Fields, key, kind: q.Kind, required=False, default=None, above=None, minimum=None):
+    """Fields.quantity, with the trade's MMBtu understood."""
+    raw = f.raw(key, required, None)
+    if raw is None:
+        return default
+    try:
+        number = q.to_default_unit(trade_units(raw) if isinstance(raw, str) else raw, kind)
+    except q.QuantityError as exc:
+        raise f.error(key, str(exc)) from None
+    unit = f" {kind.shown_unit}" if kind.shown_unit else ""
+    if above is not None and number <= above:
+        raise f.error(key, f"{shorten(raw)} must be greater than {above:g}{unit}")
+    if minimum is not None and number < minimum:
+        raise f.error(key, f"{shorten(raw)} cannot be below {minimum:g}{unit}")
+    return number
+
+
+def _duration(f: Fields, key, default) -> pd.Timedelta:
+    raw = f.raw(key, required=False)
+    if raw is None:
+        return default
+    match = q.NUMBER_AT_START.match(raw) if isinstance(raw, str) else None
+    if match is None or not match.group(2):
+        raise f.error(key, f"expected a duration with its unit such as '1 day', '6 h' or '15 min', got {describe(raw)}")
+    try:
+        seconds = q.to_default_unit(raw, q.DURATION)
+    except q.QuantityError as exc:
+        raise f.error(key, str(exc)) from None
+    return pd.Timedelta(seconds=round(seconds, 6))
+
+
+def _timestamp(f: Fields, key) -> pd.Timestamp:
+    raw = f.raw(key)
+    expected = "a date such as 2026-03-14 or a time such as '2026-03-14 06:00'"
+    if isinstance(raw, bool) or not hasattr(raw, "year") and not isinstance(raw, str):
+        raise f.error(key, f"expected {expected}, got {describe(raw)}")
+    try:
+        when = pd.Timestamp(raw)
+    except (ValueError, TypeError, OverflowError):
+        raise f.error(key, f"expected {expected}; cannot read {shorten(raw)}") from None
+    if pd.isna(when):
+        raise f.error(key, f"expected {expected}, got {shorten(raw)}")
+    return when.tz_convert(None) if when.tzinfo is not None else when
