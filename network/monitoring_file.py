@@ -146,35 +146,35 @@ def monitoring_from_document(doc: Document, folder: Path) -> MonitoringFile:
                                          "monitoring file; a monitoring file names its case under 'case'")
     top.allowed.update(TOP_KEYS)
     top.finish()
-    case = _case(top, folder)
+    case = read_base_case(top, folder)
     net = build_network(case)
     data = top.text("data", required=True)
     if not data.strip():
         raise top.error("data", "expected the historian export's file name (.csv or .xlsx), got empty text")
-    data_path = _relative(folder, data)
+    data_path = relative_path(folder, data)
     if data_path.suffix.lower() not in DATA_SUFFIXES:
         hint = ": save the workbook as .xlsx" if data_path.suffix.lower() == ".xls" else ""
         raise top.error("data", f"expected a .csv or .xlsx file, got {shorten(data)}{hint}")
     time_column = top.text("time_column", default=DEFAULT_TIME_COLUMN)
     if not time_column.strip():
         raise top.error("time_column", "expected the name of the data's time column, got empty text")
-    window = _duration(top, "window", DEFAULT_WINDOW)
+    window = read_duration(top, "window", DEFAULT_WINDOW)
     tags = _tags(top, net, _default_uncertainties(top.mapping("uncertainty")), time_column)
     projection = None
     if top.has("projection"):
         f = top.mapping("projection")
-        projection = Projection(_duration(f, "horizon", DEFAULT_HORIZON), _duration(f, "step", DEFAULT_STEP))
+        projection = Projection(read_duration(f, "horizon", DEFAULT_HORIZON), read_duration(f, "step", DEFAULT_STEP))
         if projection.step > projection.horizon:
             raise f.error("step", f"the step ({projection.step}) is longer than the horizon ({projection.horizon})")
         f.finish()
-    significance = _quantity(top, "significance", q.FRACTION, default=DEFAULT_SIGNIFICANCE, above=0.0)
+    significance = read_quantity(top, "significance", q.FRACTION, default=DEFAULT_SIGNIFICANCE, above=0.0)
     if significance > MAX_SIGNIFICANCE:
         raise top.error("significance", f"{significance:g} is above {MAX_SIGNIFICANCE}: a test that fails good "
                                         "data more often than not (0.05 is usual)")
     return MonitoringFile(
         file=doc.file, title=top.text("title", default="") or "", case=case, data_path=data_path,
         time_column=time_column, window=window, steady_state=_steady_state(top.mapping("steady_state")), tags=tags,
-        cleanings=_cleanings(top, case), economics=_economics(top.mapping("economics")),
+        cleanings=_cleanings(top, case), economics=read_economics(top.mapping("economics")),
         limits=_limits(top.mapping("limits"), net), projection=projection, significance=significance,
         lines=doc.lines, network=net)
 
@@ -182,19 +182,19 @@ def monitoring_from_document(doc: Document, folder: Path) -> MonitoringFile:
 # ----------------------------------------------------------------------------- sections
 
 
-def _relative(folder: Path, text: str) -> Path:
+def relative_path(folder: Path, text: str) -> Path:
     path = Path(text)
     return path if path.is_absolute() else folder / path
 
 
-def _case(top: Fields, folder: Path) -> Case:
+def read_base_case(top: Fields, folder: Path) -> Case:
     raw = top.raw("case")
     if isinstance(raw, dict):
         demo = Fields(top.doc, ("case",), raw)
         path = demo_case_path(demo.choice("demo", DEMO_CASES))
         demo.finish()
     elif isinstance(raw, str) and raw.strip():
-        path = _relative(folder, raw)
+        path = relative_path(folder, raw)
     else:
         raise top.error("case", f"expected the case file's path (relative to this file) or {{demo: NAME}}, "
                                 f"got {describe(raw)}")
@@ -216,8 +216,8 @@ def _steady_state(f: Fields | None) -> SteadyState:
     if f is None:
         return SteadyState()
     result = SteadyState(
-        _quantity(f, "flow_change", q.FRACTION, default=DEFAULT_FLOW_CHANGE, above=0.0),
-        _quantity(f, "temperature_change", q.TEMPERATURE_DIFFERENCE, default=DEFAULT_TEMPERATURE_CHANGE, above=0.0),
+        read_quantity(f, "flow_change", q.FRACTION, default=DEFAULT_FLOW_CHANGE, above=0.0),
+        read_quantity(f, "temperature_change", q.TEMPERATURE_DIFFERENCE, default=DEFAULT_TEMPERATURE_CHANGE, above=0.0),
         f.integer("minimum_samples", DEFAULT_MINIMUM_SAMPLES, 1, 1_000_000))
     f.finish()
     return result
@@ -232,7 +232,7 @@ def _tags(top: Fields, net: Network, defaults: dict, time_column: str) -> dict[s
     columns: dict[str, str] = {}
     for name, f in entries:
         quantity = _measured_quantity(f)
-        fail = _error_at(f, quantity)
+        fail = error_at(f, quantity)
         point = f.text(quantity, required=True)
         segment = None
         if quantity == "duty":
@@ -283,7 +283,7 @@ def _cleanings(top: Fields, case: Case) -> list:
         tag = f.text("exchanger", required=True)
         if tag not in case.exchangers:
             raise f.error("exchanger", f"no exchanger {shorten(tag)} in the case{nearest(tag, case.exchangers)}")
-        when = _timestamp(f, "date")
+        when = read_timestamp(f, "date")
         if (tag, when) in seen:
             raise f.error(None, f"the cleaning of {tag} on {when} is listed twice (also at "
                                 f"cleanings[{seen[tag, when]}])")
@@ -293,16 +293,16 @@ def _cleanings(top: Fields, case: Case) -> list:
     return sorted(seen, key=lambda c: (c[1], c[0]))
 
 
-def _economics(f: Fields | None) -> dict | None:
+def read_economics(f: Fields | None) -> dict | None:
     if f is None:
         return None
     result = {
-        "fuel_price": _quantity(f, "fuel_price", q.NUMBER, required=True, minimum=0.0),
+        "fuel_price": read_quantity(f, "fuel_price", q.NUMBER, required=True, minimum=0.0),
         "currency": f.text("currency", required=True),
-        "furnace_efficiency": _quantity(f, "furnace_efficiency", q.FRACTION, default=DEFAULT_FURNACE_EFFICIENCY,
+        "furnace_efficiency": read_quantity(f, "furnace_efficiency", q.FRACTION, default=DEFAULT_FURNACE_EFFICIENCY,
                                         above=0.0),
-        "co2_per_fuel": _quantity(f, "co2_per_fuel", q.EMISSION_FACTOR, default=DEFAULT_CO2_PER_FUEL),
-        "co2_price": _quantity(f, "co2_price", q.NUMBER, default=DEFAULT_CO2_PRICE, minimum=0.0),
+        "co2_per_fuel": read_quantity(f, "co2_per_fuel", q.EMISSION_FACTOR, default=DEFAULT_CO2_PER_FUEL),
+        "co2_price": read_quantity(f, "co2_price", q.NUMBER, default=DEFAULT_CO2_PRICE, minimum=0.0),
     }
     if not result["currency"].strip() or len(result["currency"]) > 12:
         raise f.error("currency", f"expected a currency's short name such as USD or EUR, got "
@@ -318,8 +318,8 @@ def _limits(f: Fields | None, net: Network) -> dict:
     for key, kind in (("fired_duty", q.DUTY), ("inlet_temperature", q.TEMPERATURE)):
         section = f.mapping(key, what="a mapping of heater tags to their limit")
         for unit in list(section.value) if section is not None else ():
-            resolve_duty_unit(net, unit, _error_at(section, unit))
-            limits[key][unit] = _quantity(section, unit, kind, required=True, above=0.0 if kind is q.DUTY else None)
+            resolve_duty_unit(net, unit, error_at(section, unit))
+            limits[key][unit] = read_quantity(section, unit, kind, required=True, above=0.0 if kind is q.DUTY else None)
         if section is not None:
             section.finish()
     f.finish()
@@ -329,11 +329,11 @@ def _limits(f: Fields | None, net: Network) -> dict:
 # ----------------------------------------------------------------------------- values
 
 
-def _error_at(f: Fields, key) -> Callable[[str], CaseError]:
+def error_at(f: Fields, key) -> Callable[[str], CaseError]:
     return lambda message: f.error(key, message)
 
 
-def _quantity(f: Fields, key, kind: q.Kind, required=False, default=None, above=None, minimum=None):
+def read_quantity(f: Fields, key, kind: q.Kind, required=False, default=None, above=None, minimum=None):
     """Fields.quantity, with the trade's MMBtu understood."""
     raw = f.raw(key, required, None)
     if raw is None:
@@ -350,7 +350,7 @@ def _quantity(f: Fields, key, kind: q.Kind, required=False, default=None, above=
     return number
 
 
-def _duration(f: Fields, key, default) -> pd.Timedelta:
+def read_duration(f: Fields, key, default) -> pd.Timedelta:
     raw = f.raw(key, required=False)
     if raw is None:
         return default
@@ -364,7 +364,7 @@ def _duration(f: Fields, key, default) -> pd.Timedelta:
     return pd.Timedelta(seconds=round(seconds, 6))
 
 
-def _timestamp(f: Fields, key) -> pd.Timestamp:
+def read_timestamp(f: Fields, key) -> pd.Timestamp:
     raw = f.raw(key)
     expected = "a date such as 2026-03-14 or a time such as '2026-03-14 06:00'"
     if isinstance(raw, bool) or not hasattr(raw, "year") and not isinstance(raw, str):
