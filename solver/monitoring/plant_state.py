@@ -20,7 +20,7 @@ import pandas as pd
 
 from hxtrain.units.protocol import PortStates
 
-from .gross_errors import DEFAULT_ALPHA, global_test, serial_elimination
+from .gross_errors import DEFAULT_ALPHA, global_test, measurement_test, serial_elimination, sidak_critical_value
 from .network_balances import FLOW, TEMPERATURE, UNKNOWN, NetworkBalances
 from .reconciliation import reconcile_nonlinear
 
@@ -34,6 +34,13 @@ STEP_TOLERANCE = 1e-7
 """A window has converged when, besides every balance closing to 1e-9 (scaled), the next step
 moves no variable by more than this share of its size plus its measurement's standard deviation:
 a ten-millionth of a standard deviation changes no conclusion drawn from the data."""
+PERSISTENCE_ROUNDS = 8
+"""Rounds of leaving out persistently biased measurements (one per window per round)."""
+PERSISTENCE_SPAN = 28
+"""Windows over which a measurement's disagreements are averaged to find a persistent bias (two
+weeks of daily windows; common practice for a drift to be told from noise)."""
+MIN_PERSISTENCE = 7
+"""Fewest of those windows a measurement must have been tested in."""
 DELTA_STEP = 1e-6
 """Relative step of the central differences that carry the covariance through a condition."""
 
@@ -57,6 +64,12 @@ class WindowStates:
     """Per window, the eliminated measurements (gross_errors.Elimination) in order."""
     adjustments: np.ndarray
     """(W, tags) measurement minus reconciled value; NaN for eliminated or missing ones."""
+    standardized: np.ndarray
+    """(W, tags) each measurement's standardized disagreement with the others: its standardized
+    adjustment, or for a measurement left out its reading less the others' estimate over that
+    difference's standard deviation; NaN where it was not measured or not redundant."""
+    withheld: np.ndarray
+    """(W, tags) left out of the window for reading persistently off the others."""
 
 
 def start_values(net, evaluation) -> np.ndarray:
@@ -83,32 +96,58 @@ def start_values(net, evaluation) -> np.ndarray:
     return z[0]
 
 
-def reconcile_windows(net, evaluation, measured, values, sigma, alpha=DEFAULT_ALPHA) -> WindowStates:
+def reconcile_windows(net, evaluation, measured, values, sigma, alpha=DEFAULT_ALPHA, persistence=True) -> WindowStates:
     """Reconcile every window of ``values`` (W, tags; NaN where a tag has no reading) with
     standard deviations ``sigma`` (W, tags) against the balances of ``net``; ``measured`` gives
     each tag's variable (see :class:`NetworkBalances`). ``evaluation`` is the base case's (for
-    start values)."""
+    start values).
+
+    Each window's gross errors are removed by serial elimination; with ``persistence``, the
+    measurements that read off the others persistently (:func:`persistence_statistic`) are then
+    left out where they do, one per window per round, worst first, and those windows reconciled
+    again, until none is left (at most :data:`PERSISTENCE_ROUNDS` rounds): a biased instrument
+    smears its error over the measurements it shares balances with, so only the worst is taken
+    each round, as serial elimination does within one window."""
     balances = NetworkBalances(net, measured)
     z0 = start_values(net, evaluation)
-    x0, u0 = balances.split(z0[None, :])
+    start = balances.split(z0[None, :])
     values, sigma = np.atleast_2d(values).astype(float), np.atleast_2d(sigma).astype(float)
     windows, variables = values.shape[0], len(balances.variables)
     out = WindowStates(balances, np.full((windows, variables), np.nan), np.full((windows, variables, variables), np.nan),
                        np.zeros(windows, bool), np.full(windows, "", dtype=object), np.full(windows, np.nan),
                        np.zeros(windows, int), np.zeros(windows, bool), [[] for _ in range(windows)],
-                       np.full(values.shape, np.nan))
-    for start in range(0, windows, CHUNK):
-        rows = np.arange(start, min(start + CHUNK, windows))
-        _reconcile_chunk(out, balances, rows, values[rows], sigma[rows], x0, u0, alpha)
+                       np.full(values.shape, np.nan), np.full(values.shape, np.nan), np.zeros(values.shape, bool))
+    _reconcile_rows(out, np.arange(windows), values, sigma, start, alpha)
+    for _ in range(PERSISTENCE_ROUNDS if persistence else 0):
+        statistic, critical = persistence_statistic(out, alpha=alpha)
+        over = (statistic > critical[:, None]) & ~out.withheld & np.isfinite(values)
+        rows = np.flatnonzero(over.any(axis=1))
+        if not rows.size:
+            break
+        worst = np.argmax(np.where(over[rows], statistic[rows], -np.inf), axis=1)
+        out.withheld[rows, worst] = True
+        _reconcile_rows(out, rows, values, sigma, start, alpha)
     return out
 
 
-def _reconcile_chunk(out, balances, rows, values, sigma, x0, u0, alpha):
+def _reconcile_rows(out, rows, values, sigma, start, alpha):
+    for first in range(0, rows.size, CHUNK):
+        part = rows[first:first + CHUNK]
+        _reconcile_chunk(out, part, values[part], np.where(out.withheld[part], np.nan, values[part]), sigma[part],
+                         start, alpha)
+
+
+def _reconcile_chunk(out, rows, readings, used, sigma, start, alpha):
+    """Reconcile windows ``rows`` with the measurements ``used`` (``readings`` with the withheld
+    ones blanked) and store what was found."""
+    balances = out.balances
+    x0, u0 = start
+
     def reconcile(measurements, picked):
         return reconcile_nonlinear(measurements, sigma[picked], balances.constraints, balances.jacobian, u0,
                                    measured_start=x0, step_tolerance=STEP_TOLERANCE)
 
-    found = serial_elimination(reconcile, values, alpha)
+    found = serial_elimination(reconcile, used, alpha)
     result = found.result
     test = global_test(result, alpha)
     n = len(balances.tag_column)
@@ -127,9 +166,42 @@ def _reconcile_chunk(out, balances, rows, values, sigma, x0, u0, alpha):
     out.statistic[rows] = test.statistic
     out.degrees_of_freedom[rows] = test.degrees_of_freedom
     out.passed[rows] = success & ~test.rejected
-    out.adjustments[rows] = np.where(np.asarray(result["measured"], bool), result["adjustments"], np.nan)
+    measured = np.asarray(result["measured"], bool)
+    out.adjustments[rows] = np.where(measured, result["adjustments"], np.nan)
+    standardized = measurement_test(result, alpha).standardized_adjustments
+    # a measurement left out (withheld, or eliminated here): its reading against the value the
+    # others give, over the standard deviation of that difference
+    variance = np.diagonal(result["x_covariance"], axis1=1, axis2=2)
+    spread = np.sqrt(sigma ** 2 + np.where(np.isfinite(variance), variance, np.inf))
+    left_out = np.isfinite(readings) & ~measured
+    with np.errstate(invalid="ignore"):
+        standardized = np.where(left_out, (readings - result["x"]) / spread, standardized)
     for i, row in enumerate(rows):
         out.eliminated[row] = found.eliminated[i]
+    out.standardized[rows] = standardized
+
+
+def persistence_statistic(states: WindowStates, span=None, alpha=DEFAULT_ALPHA):
+    """((W, tags) statistic, (W,) critical value): how far each measurement has read off the
+    others, in the same direction, over the ``span`` windows ending at each window. The mean of
+    n standardized disagreements has standard deviation 1/sqrt(n) for a sound instrument, so
+    |sum| / sqrt(n) is a standard normal statistic, and a bias of a fraction of a standard
+    deviation, too small for any one window's test, shows once it persists (a drifting
+    thermocouple, a flow meter out of calibration). The critical value is Šidák's over the tags
+    tested in the window, as in the measurement test."""
+    span = PERSISTENCE_SPAN if span is None else span
+    z = states.standardized
+    present = np.isfinite(z)
+    filled = np.where(present, z, 0.0)
+    cumulative = np.vstack([np.zeros((1, z.shape[1])), np.cumsum(filled, axis=0)])
+    counts = np.vstack([np.zeros((1, z.shape[1])), np.cumsum(present, axis=0)])
+    ends = np.arange(1, z.shape[0] + 1)
+    starts = np.maximum(ends - span, 0)
+    total, n = cumulative[ends] - cumulative[starts], counts[ends] - counts[starts]
+    tested = (n >= MIN_PERSISTENCE) & present
+    statistic = np.where(tested, np.abs(total) / np.sqrt(np.maximum(n, 1)), 0.0)
+    critical = sidak_critical_value(alpha, np.maximum(tested.sum(axis=1), 1))
+    return statistic, critical
 
 
 def unit_states(states: WindowStates, name: str, z=None) -> PortStates:
@@ -159,7 +231,8 @@ def conditions(states: WindowStates, index) -> pd.DataFrame:
         reason = np.where(states.success, found["reason"], "no reconciled data in this window")
         if sigma is not None:
             table["fouling_sigma"] = sigma
-            clean_resistance = 1.0 / table["u_clean"].to_numpy()
+            with np.errstate(divide="ignore"):
+                clean_resistance = 1.0 / table["u_clean"].to_numpy()
             identifiable = sigma <= IDENTIFIABLE_SHARE * clean_resistance
             table["identifiable"] = identifiable
             status = np.where(reason != "", reason, np.where(~identifiable, "not identifiable",

@@ -1,0 +1,229 @@
+"""``monitor(path)``: the state of the train from its plant data, in one call.
+
+The monitoring file (:mod:`hxtrain.network.monitoring_file`) names the case, the historian data
+and what each tag measures. The data are read and averaged over windows, transient windows set
+aside (:mod:`.historian`, :mod:`.windows`); the steady windows are reconciled against the
+network's balances with gross errors removed (:mod:`.plant_state`); every exchanger's duty,
+UA, U and fouling is back-calculated with its uncertainty; the network is simulated in every
+window as fouled and as clean for what fouling costs (:mod:`.fouling_cost`); fouling models are
+fitted to each exchanger's history since its last cleaning (:mod:`.fouling_fits`) and the train
+is projected forward with them (:mod:`.projection`).
+
+Every table is a DataFrame indexed by time (window start) where it has a time axis.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from hxtrain.network.monitoring_file import MonitoringFile, load_monitoring
+from hxtrain.solver.simulation.evaluation import evaluate
+
+from .fouling_cost import fouling_cost
+from .fouling_fits import fit_fouling
+from .historian import History, read_history
+from .network_balances import FLOW, TEMPERATURE, UNKNOWN
+from .plant_state import WindowStates, conditions, reconcile_windows
+from .projection import DEFAULT_HORIZON, DEFAULT_STEP, project
+
+EXPANDED_COVERAGE = 2.0
+"""Coverage factor of the expanded uncertainty reported beside each fouling resistance: k = 2,
+about 95 % for a normal distribution (GUM, JCGM 100:2008, from memory)."""
+
+
+@dataclass
+class MonitoringResult:
+    """Everything ``monitor`` found. Tables with a time axis are indexed by window start."""
+
+    monitoring: MonitoringFile
+    history: History
+    windows: pd.DataFrame
+    """Per window: samples, steady (and why not), reconciled, global test statistic, degrees of
+    freedom, passed, measurements eliminated."""
+    state: pd.DataFrame
+    """Per (window, unit): duty, UA, U in service and clean, fouling with its standard and
+    expanded uncertainty, identifiable, status."""
+    flagged: pd.DataFrame
+    """Per (window, tag) a measurement removed as a gross error: its statistic and estimated bias."""
+    instruments: pd.DataFrame
+    """Per tag: windows flagged, first and last time, median bias: the instruments to check."""
+    cost: pd.DataFrame
+    """Per window: fired duty fouled and clean, the penalty, fuel, money and CO₂."""
+    shares: pd.DataFrame
+    """Per exchanger at the last answered window: fired duty saved by cleaning it alone, and its
+    share of the total fouling penalty."""
+    drifts: pd.DataFrame = field(default_factory=pd.DataFrame)
+    """Per (tag, period): a measurement that read persistently off the others (a drift or a
+    calibration error too small for one window's test), its mean bias; left out of the
+    reconciliation over that period."""
+    fits: pd.DataFrame = field(default_factory=pd.DataFrame)
+    cleanings: pd.DataFrame = field(default_factory=pd.DataFrame)
+    projection: pd.DataFrame = field(default_factory=pd.DataFrame)
+    limit_dates: pd.DataFrame = field(default_factory=pd.DataFrame)
+
+    def today(self) -> pd.DataFrame:
+        """The state of each exchanger at the last reconciled window."""
+        done = self.windows.index[self.windows["reconciled"]]
+        if not len(done) or self.state.empty:
+            return pd.DataFrame()
+        last = self.state.loc[self.state.index == done[-1]]
+        return last.set_index("unit")
+
+
+def monitor(path_or_monitoring, *, progress=None) -> MonitoringResult:
+    """Read a monitoring file (or take a loaded one) and its data; reconcile, back-calculate,
+    cost, fit and project. ``progress`` is an optional callable taking a text (a stage name)."""
+    say = progress or (lambda text: None)
+    monitoring = (path_or_monitoring if isinstance(path_or_monitoring, MonitoringFile)
+                  else load_monitoring(path_or_monitoring))
+    say("reading the plant data")
+    history = read_history(monitoring)
+    windows = history.windows(monitoring)
+    tags = list(monitoring.tags.values())
+    steady = windows.steady.to_numpy()
+    index = windows.mean.index[steady]
+    say(f"reconciling {int(steady.sum())} steady windows")
+    base = evaluate(monitoring.case)
+    net = base.net
+    measured = [_measured_variable(t) for t in tags]
+    columns = [t.name for t in tags]
+    values = windows.mean[columns].to_numpy()[steady]
+    sigma = windows.sigma[columns].to_numpy()[steady]
+    states = reconcile_windows(net, base, measured, values, sigma, monitoring.significance)
+    drifts = _persistent_table(states.withheld, values, states, index, columns)
+    say("back-calculating every exchanger")
+    state = _state_table(conditions(states, index))
+    flagged = _flagged(states, index, columns)
+    say("simulating each window fouled and clean")
+    days = np.full(len(index), monitoring.window / pd.Timedelta(days=1))
+    cost = fouling_cost(monitoring.case, states, index, days, monitoring.economics)
+    shares = _cost_shares(monitoring.case, states, cost)
+    result = MonitoringResult(monitoring, history, _window_table(windows, steady, states), state, flagged,
+                              _instruments(flagged, drifts), cost, shares, drifts=drifts)
+    _fit_and_project(result, states, index, say)
+    return result
+
+
+def _measured_variable(tag):
+    if tag.quantity == "temperature":
+        return (TEMPERATURE, tag.segment)
+    if tag.quantity == "flow":
+        return (FLOW, tag.segment)
+    return (UNKNOWN, tag.point, "duty")
+
+
+def _state_table(table: pd.DataFrame) -> pd.DataFrame:
+    if table.empty or "fouling_sigma" not in table:
+        return table
+    position = table.columns.get_loc("fouling_sigma") + 1
+    table.insert(position, "fouling_expanded", EXPANDED_COVERAGE * table["fouling_sigma"])
+    return table
+
+
+def _window_table(windows, steady, states: WindowStates) -> pd.DataFrame:
+    table = pd.DataFrame({"samples": windows.count.sum(axis=1), "steady": windows.steady,
+                          "not_steady_because": windows.reason}, index=windows.mean.index)
+    for column in ("reconciled", "passed"):
+        table[column] = False
+    table["statistic"] = np.nan
+    table["degrees_of_freedom"] = 0
+    table["eliminated"] = 0
+    rows = np.flatnonzero(steady)
+    table.iloc[rows, table.columns.get_loc("reconciled")] = states.success
+    table.iloc[rows, table.columns.get_loc("passed")] = states.passed
+    table.iloc[rows, table.columns.get_loc("statistic")] = states.statistic
+    table.iloc[rows, table.columns.get_loc("degrees_of_freedom")] = states.degrees_of_freedom
+    table.iloc[rows, table.columns.get_loc("eliminated")] = [len(e) for e in states.eliminated]
+    return table.rename_axis("time")
+
+
+def _flagged(states: WindowStates, index, columns) -> pd.DataFrame:
+    rows = [{"time": index[w], "tag": columns[e.measurement], "statistic": e.statistic, "bias": e.bias,
+             "bias_sigma": e.bias_std,
+             "indistinguishable_from": ", ".join(columns[j] for j in e.indistinguishable_from)}
+            for w, eliminated in enumerate(states.eliminated) for e in eliminated]
+    frame = pd.DataFrame(rows, columns=["time", "tag", "statistic", "bias", "bias_sigma", "indistinguishable_from"])
+    return frame.set_index("time")
+
+
+def _persistent_table(biased, values, states: WindowStates, index, columns) -> pd.DataFrame:
+    """One row per tag and period it read persistently off: from, to, windows, mean bias (the
+    reading less the value the others give)."""
+    rows = []
+    estimate = states.values[:, states.balances.tag_column]
+    for j, tag in enumerate(columns):
+        flagged = biased[:, j]
+        edges = np.flatnonzero(np.diff(np.concatenate([[0], flagged.astype(int), [0]])))
+        for first, stop in zip(edges[::2], edges[1::2]):
+            bias = values[first:stop, j] - estimate[first:stop, j]
+            rows.append({"tag": tag, "from": index[first], "to": index[stop - 1], "windows": int(stop - first),
+                         "mean_bias": float(np.nanmean(bias)) if np.isfinite(bias).any() else np.nan,
+                         "last_bias": float(bias[np.isfinite(bias)][-1]) if np.isfinite(bias).any() else np.nan})
+    return pd.DataFrame(rows, columns=["tag", "from", "to", "windows", "mean_bias", "last_bias"])
+
+
+def _instruments(flagged: pd.DataFrame, drifts: pd.DataFrame) -> pd.DataFrame:
+    """The instruments to check, most windows first: those serial elimination removed (a gross
+    error in a window) and those that read persistently off (over a period)."""
+    columns = ["windows_eliminated", "windows_persistently_off", "first", "last", "median_bias"]
+    frames = []
+    if not flagged.empty:
+        grouped = flagged.reset_index().groupby("tag")
+        frames.append(pd.DataFrame({"windows_eliminated": grouped.size(), "first": grouped["time"].min(),
+                                    "last": grouped["time"].max(), "median_bias": grouped["bias"].median()}))
+    if not drifts.empty:
+        grouped = drifts.groupby("tag")
+        frames.append(pd.DataFrame({"windows_persistently_off": grouped["windows"].sum(), "first": grouped["from"].min(),
+                                    "last": grouped["to"].max(), "median_bias": grouped["mean_bias"].median()}))
+    if not frames:
+        return pd.DataFrame(columns=columns)
+    table = pd.concat(frames).groupby(level=0).agg({"windows_eliminated": "max", "windows_persistently_off": "max",
+                                                   "first": "min", "last": "max", "median_bias": "first"})
+    table = table.reindex(columns=columns).fillna({"windows_eliminated": 0, "windows_persistently_off": 0})
+    table = table.astype({"windows_eliminated": int, "windows_persistently_off": int})
+    order = table["windows_eliminated"] + table["windows_persistently_off"]
+    return table.loc[order.sort_values(ascending=False).index].rename_axis("tag")
+
+
+def _cost_shares(case, states: WindowStates, cost: pd.DataFrame) -> pd.DataFrame:
+    """At the last window with a cost: the fired duty each exchanger's fouling costs (the fouled
+    window against the same window with that exchanger alone clean) and its share of the sum."""
+    from hxtrain.solver.simulation.batch import simulate_batch
+    from hxtrain.units.protocol import FIRED_HEATERS
+
+    from .fouling_cost import window_settings
+
+    answered = np.flatnonzero(cost["answer"].to_numpy() == "ok")
+    if not answered.size:
+        return pd.DataFrame(columns=["fired_duty_saved_kw", "share"])
+    last = answered[-1]
+    values, fouling, _ = window_settings(states)
+    exchangers = sorted({path.split(".")[1] for path in fouling})
+    scenarios = 1 + len(exchangers)
+    batch = {k: np.repeat(v[last], scenarios) for k, v in values.items()}
+    for i, tag in enumerate(exchangers, start=1):
+        for path in fouling:
+            if path.split(".")[1] == tag:
+                batch[path][i] = 0.0
+    table = simulate_batch(case, batch).table
+    fired = table[FIRED_HEATERS].to_numpy()
+    saved = fired[0] - fired[1:]
+    total = np.nansum(np.clip(saved, 0.0, None))
+    return pd.DataFrame({"fired_duty_saved_kw": saved, "share": saved / total if total > 0 else np.nan},
+                        index=pd.Index(exchangers, name="exchanger"))
+
+
+def _fit_and_project(result: MonitoringResult, states: WindowStates, index, say):
+    """Fouling models fitted to each exchanger's history, and the projection forward (the
+    monitoring file's horizon and step, or half a year in weekly steps)."""
+    monitoring = result.monitoring
+    say("fitting fouling models")
+    found = fit_fouling(result.state, monitoring.cleanings, states.balances.net)
+    result.fits, result.cleanings = found.fits, found.cleanings
+    horizon, step = monitoring.projection or (DEFAULT_HORIZON, DEFAULT_STEP)
+    say("projecting forward")
+    ahead = project(monitoring.case, states, index, found, monitoring.limits, horizon, step)
+    result.projection, result.limit_dates = ahead.steps, ahead.limits
