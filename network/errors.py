@@ -9,6 +9,8 @@ def format_path(path) -> str:
     """('exchangers', 'E-101', 'area') -> 'exchangers.E-101.area'; list indices as [i]."""
     text = ""
     for part in path:
+        if isinstance(part, str) and not part.isprintable():
+            part = repr(part)[1:-1]  # a key with control characters must not act on the terminal
         if isinstance(part, str) and len(part) > 60:
             part = part[:45] + f"...({len(part)} characters)"
         if isinstance(part, int):

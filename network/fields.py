@@ -13,6 +13,9 @@ from .reading import Document
 NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_\-]*$")
 """Tags and names: letters, digits, '-' and '_' (E-101, crude_split); no dots or spaces, which
 the path notation uses."""
+CONTROL_CHARACTERS = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f]")
+"""Control characters other than tab and line breaks: a terminal acts on them (colours, a bell)
+and a workbook cannot hold them."""
 
 
 class Fields:
@@ -89,6 +92,10 @@ class Fields:
         value = self.raw(key, required, default)
         if value is not None and not isinstance(value, str):
             raise self.error(key, f"expected text, got {describe(value)}")
+        if value is not None and CONTROL_CHARACTERS.search(value):
+            character = CONTROL_CHARACTERS.search(value).group()
+            raise self.error(key, f"the text holds the control character {character!r}: write plain text (tabs and "
+                                  "line breaks are fine)")
         return value
 
     def choice(self, key, options, required=True, default=None):

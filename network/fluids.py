@@ -8,8 +8,9 @@ cp takes one of four forms::
     petroleum: {api_gravity: 31, watson_k: 11.9}          # or specific_gravity; Watson–Nelson cp
 
 plus optional ``viscosity`` (a value, or ``points`` through two temperatures), ``conductivity``
-(W/m·K), ``density`` (kg/m³) and ``valid_range`` ([low, high] °C: where the data hold; a table's
-span by default). A stream outside its fluid's range is bad input unless ``extrapolate: true``
+(W/m·K), ``density`` (kg/m³) and ``valid_range`` ([low, high] °C: where the data hold; by
+default a table's span, −50 to 600 °C for a polynomial or the petroleum correlation, and
+everywhere for a constant). A stream outside its fluid's range is bad input unless ``extrapolate: true``
 lets the run go on with a warning.
 """
 
@@ -22,8 +23,14 @@ from .fields import Fields, describe
 from .quantities import QuantityError, to_default_unit
 
 DEFAULT_SPAN = (-50.0, 600.0)
-"""°C: where a cp given without ``valid_range`` must be plausible (a polynomial has no span of its
-own): the temperatures of process heat exchange, with margin (common practice)."""
+"""°C: the valid range of a cp polynomial (given, or the petroleum correlation) without
+``valid_range``: the temperatures of process heat exchange, with margin (common practice). A
+polynomial has no span of its own, and a fit is good only near the data it was fitted to: far
+outside, any polynomial of degree one or more leaves every plausible cp, and below zero it makes
+the enthalpy fall as temperature rises (no temperature follows from it). So the span where the
+polynomial is checked is the span where it may be used: a stream outside it is outside the
+fluid's data range, refused unless ``extrapolate: true`` (then used, with a warning). A
+constant cp holds everywhere (there is nothing to extrapolate); a table spans its rows."""
 MAX_COEFFICIENTS = 10
 """cp fits in data books have up to five terms; more is not a fit but a pasted list."""
 
@@ -52,6 +59,8 @@ def _read_model(f: Fields) -> props.FluidModel:
         model = _petroleum(f.mapping("petroleum"), transport)
     else:
         model = _cp(f, transport)
+    if model.valid_range is None and isinstance(model, props.PolynomialCp):
+        model.valid_range = DEFAULT_SPAN
     _check_over_span(f, model)
     return model
 

@@ -74,10 +74,27 @@ class _Builder:
         """A scalar's value; a whole number too long for Python to read (over 4300 digits) is an
         error at its line, not a crash."""
         try:
-            return self.scalars.construct_object(node, deep=True)
+            value = self.scalars.construct_object(node, deep=True)
         except ValueError:
             raise CaseError(f"a number of {len(node.value)} characters: far beyond any value a case file needs",
                             file=self.file, path=path, line=node.start_mark.line + 1) from None
+        if isinstance(value, (int, float)) and not isinstance(value, bool) and isinstance(node.value, str):
+            self._refuse_yaml11_number(node, value, path)
+        return value
+
+    def _refuse_yaml11_number(self, node, value, path):
+        """YAML 1.1 (PyYAML's schema) reads '040' as octal 32 and '1:20' in base 60 as 80, where a
+        person reading the file (and YAML 1.2) sees 40 and a time: refused rather than guessed."""
+        text = node.value.strip().lstrip("+-").replace("_", "")
+        if ":" in text:
+            reading = "base 60, as a time; write the number meant"
+        elif len(text) > 1 and text[0] == "0" and text.isdigit() and int(text, 10) != value:
+            sign = "-" if node.value.strip().startswith("-") else ""
+            reading = f"octal, for the leading zero; write {sign}{int(text, 10)}"
+        else:
+            return
+        raise CaseError(f"{node.value!r} is read by YAML as {value!r} ({reading})", file=self.file, path=path,
+                        line=node.start_mark.line + 1)
 
     def _mapping(self, node, path):
         result = {}

@@ -17,7 +17,9 @@ import difflib
 
 import numpy as np
 
+from .changes import key_kind
 from .errors import CaseError
+from .quantities import QuantityError, check_plausible
 
 
 def scenario_count(values: dict) -> int:
@@ -90,9 +92,33 @@ def apply_values(net, values: dict):
             message[k] = f"{array[k]:g} is not a possible value (it must be {parameter.bounds_text()})"
             key[k] = tuple(path.split("."))
         valid &= ~outside
+        implausible = _implausible(path, array, valid, message, key)
+        outside |= implausible
+        valid &= ~implausible
         safe = np.where(outside, _inside(parameter), array)  # keep the arithmetic of bad rows finite
         unit.set_parameter(parameter.name, safe)
     return batch, valid, message, key
+
+
+def _implausible(path, array, valid, message, key) -> np.ndarray:
+    """Rows (among those still valid) whose value a case file would refuse: outside the
+    plausibility range of the key path's kind (:mod:`.quantities`), or a share too small to mean
+    anything. A batch takes only what a case file takes (a flow of 1e-300 kg/s, or a denormal,
+    would otherwise reach the exchanger relations); the reason goes into ``message``."""
+    try:
+        kind = key_kind(path)
+    except CaseError:
+        return np.zeros(array.shape, bool)
+    with np.errstate(invalid="ignore"):
+        bad = (array < kind.low) | (array > kind.high) | ((array != 0.0) & (np.abs(array) < kind.least_nonzero))
+    bad &= valid
+    for k in np.flatnonzero(bad):
+        try:
+            check_plausible(float(array[k]), kind)
+        except QuantityError as exc:
+            message[k] = str(exc)
+        key[k] = tuple(path.split("."))
+    return bad
 
 
 def _inside(parameter):

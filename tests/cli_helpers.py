@@ -13,3 +13,17 @@ def hxtrain_command() -> list[str]:
         if script.is_file() and os.access(script, os.X_OK):
             return [str(script)]
     return [sys.executable, "-m", "hxtrain.solver.cli.main"]
+
+
+def run_in_process(capsys, *args) -> tuple[int, str, str]:
+    """``hxtrain ARGS`` in this process: (exit code, stdout, stderr); argparse's usage errors,
+    --help and --version give their SystemExit code."""
+    from hxtrain.solver.cli.main import main
+
+    capsys.readouterr()
+    try:
+        code = main([str(a) for a in args])
+    except SystemExit as exc:
+        code = exc.code
+    captured = capsys.readouterr()
+    return code, captured.out, captured.err

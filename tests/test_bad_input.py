@@ -20,10 +20,9 @@ import sys
 from pathlib import Path
 
 import pytest
-from cli_helpers import hxtrain_command
+from cli_helpers import hxtrain_command, run_in_process
 import yaml
 
-from hxtrain.solver.cli.main import main
 
 HERE = Path(__file__).parent
 MALFORMED = HERE / "malformed"
@@ -46,15 +45,7 @@ def run_subprocess(*args, timeout=120, **kwargs) -> subprocess.CompletedProcess:
                           encoding="utf-8", errors="replace", timeout=timeout, env=env, **kwargs)
 
 
-def run_inprocess(capsys, *args) -> tuple[int, str, str]:
-    """``hxtrain ARGS`` in this process; returns (exit code, stdout, stderr)."""
-    capsys.readouterr()
-    try:
-        code = main([str(a) for a in args])
-    except SystemExit as exc:  # argparse usage errors
-        code = exc.code
-    captured = capsys.readouterr()
-    return code, captured.out, captured.err
+run_inprocess = run_in_process
 
 
 def snapshot(folder: Path) -> dict[str, bytes]:

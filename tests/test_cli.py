@@ -15,12 +15,11 @@ from pathlib import Path
 
 import pandas as pd
 import pytest
-from cli_helpers import hxtrain_command
+from cli_helpers import hxtrain_command, run_in_process
 
 from hxtrain.network import CaseError
 
 from hxtrain.solver.reporting import files as output_module
-from hxtrain.solver.cli.main import main
 from hxtrain.solver.demos import DEMO_CASES, demo_case_path
 
 CRUDE_TAGS = [f"E-{n}" for n in range(101, 113)]
@@ -40,14 +39,7 @@ def run_subprocess(*args, cwd=None, timeout=180) -> subprocess.CompletedProcess:
                           encoding="utf-8", errors="replace", timeout=timeout, env=env, cwd=cwd)
 
 
-def run_inprocess(capsys, *args) -> tuple[int, str, str]:
-    capsys.readouterr()
-    try:
-        code = main([str(a) for a in args])
-    except SystemExit as exc:
-        code = exc.code
-    captured = capsys.readouterr()
-    return code, captured.out, captured.err
+run_inprocess = run_in_process
 
 
 def snapshot(folder: Path) -> dict[str, bytes]:

@@ -86,17 +86,23 @@ def test_the_command_line_exits_2_on_a_duty_past_absolute_zero(tmp_path, capsys)
     assert str(path) in err and "no possible temperature" in err and "Traceback" not in err
 
 
-def test_an_energy_balance_that_does_not_close_is_never_an_answer(monkeypatch):
-    """A unit that reports 1 kW more heat than it put in: the evaluation's own balance check
-    marks the scenario (status 3) and simulate raises (exit 3), never returning numbers."""
+def heaters_report_extra_heat(monkeypatch, kw):
+    """Every heater reports ``kw`` more heat added than it put into its stream: a unit that does
+    not meet its own balance."""
     original = stream_units.Heater.report
 
     def leaky(self, inlets):
         report = original(self, inlets)
-        report.heat_added = np.asarray(report.heat_added) + 1000.0
+        report.heat_added = np.asarray(report.heat_added) + kw
         return report
 
     monkeypatch.setattr(stream_units.Heater, "report", leaky)
+
+
+def test_an_energy_balance_that_does_not_close_is_never_an_answer(monkeypatch):
+    """A unit that reports 1000 kW more heat than it put in: the evaluation's own balance check
+    marks the scenario (status 3) and simulate raises (exit 3), never returning numbers."""
+    heaters_report_extra_heat(monkeypatch, 1000.0)
     evaluation = evaluate(demo_case_path("crude_preheat"))
     assert evaluation.status[0] == CHECK_FAILED and "energy balance does not close" in evaluation.message[0]
     assert np.isnan(evaluation.totals["fired_heater_duty_kw"][0])

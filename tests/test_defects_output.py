@@ -22,11 +22,10 @@ from pathlib import Path
 import openpyxl
 import pandas as pd
 import pytest
-from cli_helpers import hxtrain_command
+from cli_helpers import hxtrain_command, run_in_process
 
 from hxtrain.network.reading import read_document
 from hxtrain.solver.reporting import files as output_module
-from hxtrain.solver.cli.main import main
 from hxtrain.solver.demos import DEMO_CASES, demo_case_path
 
 COOLING = demo_case_path("product_cooling")
@@ -34,14 +33,7 @@ CRUDE_STUDY = demo_case_path("crude_preheat").with_name("crude_preheat_study.yam
 ENV = {**os.environ, "PYTHONIOENCODING": "utf-8"}
 
 
-def run_cli(capsys, *args) -> tuple[int, str, str]:
-    capsys.readouterr()
-    try:
-        code = main([str(a) for a in args])
-    except SystemExit as exc:
-        code = exc.code
-    captured = capsys.readouterr()
-    return code, captured.out, captured.err
+run_cli = run_in_process
 
 
 def snapshot(folder: Path) -> dict[str, bytes]:

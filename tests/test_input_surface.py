@@ -29,7 +29,6 @@ the tube-count bound against a brute-force count.
 from __future__ import annotations
 
 import copy
-import functools
 import math
 import re
 import signal
@@ -42,7 +41,6 @@ import yaml
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-import hxtrain.solver.cli.main as cli
 from hxtrain.network import CaseError, case_from_mapping
 from hxtrain.network import quantities as q
 from hxtrain.network.exchangers import LAYOUT_CELL, most_tubes
@@ -287,15 +285,6 @@ def sweep_items():
 # ----------------------------------------------------------------------------- the tests
 
 
-@pytest.fixture(autouse=True, scope="module")
-def one_argument_parser():
-    """``main`` builds its argument parser on every call (~10 ms, more than checking a small
-    case); over a few thousand calls build it once. The parser keeps no state between calls."""
-    with pytest.MonkeyPatch.context() as patch:
-        patch.setattr(cli, "build_parser", functools.lru_cache(maxsize=1)(cli.build_parser))
-        yield
-
-
 @pytest.mark.parametrize("variant", VARIANTS)
 def test_swept_cases_are_valid_as_given(variant, tmp_path, capsys):
     """Each replacement breaks one value of a case that passes check and run unchanged."""
@@ -433,7 +422,10 @@ def test_a_split_anywhere_down_to_denormals_runs_or_is_refused(share, tmp_path_f
                              max_size=4))
 def test_a_cp_polynomial_is_refused_or_plausible_everywhere_it_will_be_used(coefficients):
     """Checked on a grid 20 times finer than the reader's: where no valid_range is given the
-    reader's span is -50 to 600 °C."""
+    reader's span is -50 to 600 °C, which is then the fluid's valid range (it is used nowhere
+    else: tests/test_defects_review.py)."""
+    from hxtrain.network.fluids import DEFAULT_SPAN
+
     data = base_case()
     data["fluids"]["crude"] = {"cp": {"polynomial": coefficients}}
     try:
@@ -441,6 +433,7 @@ def test_a_cp_polynomial_is_refused_or_plausible_everywhere_it_will_be_used(coef
     except CaseError as exc:
         assert exc.path[:3] == ("fluids", "crude", "cp")
         return
+    assert case.fluids["crude"].valid_range == DEFAULT_SPAN == (-50.0, 600.0)
     cp = case.fluids["crude"].cp(np.linspace(-50.0, 600.0, 2001))
     assert np.all(cp >= q.SPECIFIC_HEAT.low * (1 - 1e-9)) and np.all(cp <= q.SPECIFIC_HEAT.high * (1 + 1e-9))
 

@@ -28,6 +28,7 @@ from hxtrain.network.changes import apply_changes
 from hxtrain.network.reading import read_document
 from hxtrain.network.study import load_study
 from hxtrain.solver import demo_case_path, simulate
+from cli_helpers import run_in_process
 from hxtrain.solver.cli.main import main
 from hxtrain.solver.studies import (adjust_changes, cleaning_ranking, compare, key_outputs, metric, run_sweep,
                                     solve_specification, study_text)
@@ -108,14 +109,7 @@ def write(folder: Path, text: str, name="study.yaml") -> Path:
     return path
 
 
-def run_cli(capsys, *args) -> tuple[int, str, str]:
-    capsys.readouterr()
-    try:
-        code = main([str(a) for a in args])
-    except SystemExit as exc:  # argparse
-        code = exc.code
-    captured = capsys.readouterr()
-    return code, captured.out, captured.err
+run_cli = run_in_process
 
 
 def document_data(path) -> dict:

@@ -81,8 +81,9 @@ def exchanger_proper_outlet(fluid, t_in, t_mixed, bypass):
     t_in, t_mixed, bypass = as_arrays(t_in, t_mixed, bypass)
     if np.all(bypass == 0.0):
         return t_mixed
-    h = (fluid.enthalpy(t_mixed) - bypass * fluid.enthalpy(t_in)) / (1.0 - bypass)
-    return fluid.temperature(h, guess=t_mixed)
+    through = bypass < 1.0  # a side bypassed whole has no exchanger outlet: NaN
+    h = (fluid.enthalpy(t_mixed) - bypass * fluid.enthalpy(t_in)) / np.where(through, 1.0 - bypass, 1.0)
+    return np.where(through, fluid.temperature(h, guess=t_mixed), np.nan)
 
 
 def back_calculate(spec, t_hot_in, t_hot_out, t_cold_in, t_cold_out, m_hot, m_cold, fluid_hot, fluid_cold):

@@ -24,6 +24,22 @@ ARRANGEMENTS = ("counterflow", "parallel_flow", "tema_e", "crossflow", "double_p
 
 SIDES = ("hot", "cold")
 
+HEAT_CAPACITY_RATE_FLOOR = 1e-30
+"""kW/K. A side whose heat-capacity rate is below this is rated as a side without flow: the
+limit C -> 0 of every arrangement (NTU -> inf, P -> 1: it leaves at the other inlet temperature
+when UA > 0), with zero duty. Why this value:
+
+* it is far below any real stream: the smallest rate a case file admits is 1e-6 kg/s times
+  0.1 kJ/kg·K = 1e-7 kW/K, and one split of that by the smallest meaningful fraction (2.2e-16)
+  is 2.2e-23 kW/K; only chains of such splits, or a bypass of all but a rounding error, go
+  lower;
+* the heat it can carry across the whole temperature range (under 2300 K) is below 3e-27 kW,
+  nothing against the energy-balance check (1e-6 relative) of any case;
+* it keeps every product of the relations (NTU = UA/C up to 1e36 for the largest UA, C·ΔT, the
+  ratio of two rates) a normal floating-point number: a denormal C (below 2.2e-308) carries a
+  few significant digits at most, and would put its stream at a temperature that is wrong by a
+  sizeable part of the inlet difference."""
+
 
 @dataclass(frozen=True)
 class ExchangerRating:
@@ -78,6 +94,17 @@ def p_one_unit(ntu, r, arrangement, *, basis_is_shell=None, basis_is_mixed=None,
             pntu.p_crossflow_one_mixed(ntu, r, side1_mixed=False),
         )
     raise ValueError(f"unknown arrangement {arrangement!r}; expected one of {ARRANGEMENTS}")
+
+
+def carried(c):
+    """Heat-capacity rates with those below :data:`HEAT_CAPACITY_RATE_FLOOR` set to 0 (no flow).
+
+    >>> carried(np.array([2.5, 1e-31, 5e-324, 0.0])).tolist()
+    [2.5, 0.0, 0.0, 0.0]
+    """
+    c = np.asarray(c, dtype=float)
+    below = c < HEAT_CAPACITY_RATE_FLOOR
+    return np.where(below, 0.0, c) if below.any() else c
 
 
 def _outlet(t_in, t_other_in, c, duty_out, ua):
@@ -137,8 +164,8 @@ def rate_exchanger(
     t_hot_in, t_cold_in, c_hot, c_cold, ua = as_arrays(t_hot_in, t_cold_in, c_hot, c_cold, ua)
     # most exchangers have no bypass: skip the arithmetic that would multiply by one
     bypass_hot, bypass_cold = as_floats(bypass_hot, bypass_cold)
-    c_hot = c_hot * (1.0 - bypass_hot) if bypass_hot.any() else c_hot
-    c_cold = c_cold * (1.0 - bypass_cold) if bypass_cold.any() else c_cold
+    c_hot = carried(c_hot * (1.0 - bypass_hot) if bypass_hot.any() else c_hot)
+    c_cold = carried(c_cold * (1.0 - bypass_cold) if bypass_cold.any() else c_cold)
 
     hot_is_min = c_hot <= c_cold
     c_min = np.minimum(c_hot, c_cold)

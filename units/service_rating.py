@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .arrays import as_arrays
-from .pntu_rating import ExchangerRating, rate_exchanger
+from .pntu_rating import ExchangerRating, carried, rate_exchanger
 from .u_models import Coefficients, FixedCoefficient
 
 OUTLET_TOLERANCE = 1e-12
@@ -127,7 +127,9 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
         t_hot_x, t_cold_x = rating.t_hot_out_exchanger, rating.t_cold_out_exchanger
         if simple or np.all(change <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot_in))):
             break
-    rating = _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot, fluid_cold, spec, simple)
+    flowing = (carried(c_hot * (1.0 - spec.bypass_hot)) > 0.0, carried(c_cold * (1.0 - spec.bypass_cold)) > 0.0)
+    rating = _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot, fluid_cold, spec, simple,
+                                flowing)
     if not details:
         return ServiceRating(rating, coefficients, ua, {}, passes)
     t_mean = {"hot": 0.5 * (t_hot_in + rating.t_hot_out_exchanger), "cold": 0.5 * (t_cold_in + rating.t_cold_out_exchanger)}
@@ -140,19 +142,23 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
     return ServiceRating(rating, coefficients, ua, drops, passes)
 
 
-def _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot, fluid_cold, spec, simple):
+def _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot, fluid_cold, spec, simple,
+                       flowing):
     """Duty from the hot side's enthalpy change; cold outlet from the cold side's enthalpy;
-    bypass re-mixed on enthalpy. Constant-cp, fixed-U exchangers keep the closed-form result."""
+    bypass re-mixed on enthalpy. Constant-cp, fixed-U exchangers keep the closed-form result.
+    ``flowing`` (hot, cold): where each side's heat-capacity rate is above the floor of
+    :func:`rate_exchanger` (elsewhere its zero-flow result stands)."""
     if simple:
         return rating
-    duty = m_hot_x * (fluid_hot.enthalpy(t_hot_in) - fluid_hot.enthalpy(rating.t_hot_out_exchanger))
-    cold_flows = m_cold_x > 0.0
+    hot_flows, cold_flows = flowing
+    enthalpy_drop = fluid_hot.enthalpy(t_hot_in) - fluid_hot.enthalpy(rating.t_hot_out_exchanger)
+    duty = np.where(hot_flows, m_hot_x * enthalpy_drop, rating.duty)
     h_cold = fluid_cold.enthalpy(t_cold_in) + duty / np.where(cold_flows, m_cold_x, 1.0)
     t_cold_x = np.where(cold_flows, fluid_cold.temperature(h_cold, guess=rating.t_cold_out_exchanger),
                         rating.t_cold_out_exchanger)
     t_hot_out = _remix(fluid_hot, t_hot_in, rating.t_hot_out_exchanger, spec.bypass_hot)
     t_cold_out = _remix(fluid_cold, t_cold_in, t_cold_x, spec.bypass_cold)
-    return ExchangerRating(**{**rating.__dict__, "duty": np.where(m_hot_x > 0.0, duty, rating.duty),
+    return ExchangerRating(**{**rating.__dict__, "duty": duty,
                               "t_cold_out_exchanger": t_cold_x, "t_hot_out": t_hot_out, "t_cold_out": t_cold_out})
 
 

@@ -6,20 +6,21 @@ Exit codes: 0 done; 2 bad input (case file, output path, usage); 3 temperatures 
 report was printed in full (``... | head``): output files are written before the report, so they
 are complete. An interrupt or SIGTERM prints one line and removes any temporary file.
 
-Start-up is light: at import this module loads only the standard library (and the lazy
-:mod:`hxtrain.solver` package); the numerical libraries are imported inside :func:`main`, so an
-interrupt at any moment is handled. Numerical RuntimeWarnings are not shown (their sources are
+Start-up is light: at import this module loads only ``os`` and ``sys`` (both loaded with the
+interpreter) and the lazy :mod:`hxtrain.solver` package; argparse, the numerical libraries and
+the case model are imported inside :func:`main`, so an interrupt from there on is handled, and
+an error that an interrupt causes inside a library's import (numpy turns it into an ImportError)
+is reported as the interrupt. What comes before this module runs is Python's own start-up (a
+few tens of milliseconds), where Python itself answers Ctrl-C. ``--help`` and ``--version`` load
+neither numpy nor the case model. Numerical RuntimeWarnings are not shown (their sources are
 guarded where they arise; ``--debug`` or Python's ``-W`` option shows any that remain).
 """
 
 from __future__ import annotations
 
-import argparse
 import os
-import signal
 import sys
-import traceback
-import warnings
+import functools
 
 from hxtrain.solver import package_version
 
@@ -44,7 +45,9 @@ examples:
   hxtrain check plant.yaml             validate only
   hxtrain compare study.yaml           variants side by side, specifications
   hxtrain sweep study.yaml --out s.csv sweeps over one or two key paths
-  hxtrain cleaning plant.yaml          rank exchangers by what cleaning each gains"""
+  hxtrain cleaning plant.yaml          rank exchangers by what cleaning each gains
+  hxtrain monitor plant_monitoring.yaml   fouling from plant data, its cost, instruments, projection
+  hxtrain schedule cleaning_plan.yaml     the cleaning plan of least cost against baselines"""
 
 
 class Terminated(BaseException):
@@ -53,8 +56,28 @@ class Terminated(BaseException):
     errors catches it)."""
 
 
-def build_parser() -> argparse.ArgumentParser:
-    from hxtrain.solver.demos import DEMO_CASES
+class _DemoNames:
+    """The choices of ``--demo``, looked up when argparse first needs them (``run --help``, or
+    checking a given name), so that building the parser loads no part of the case model."""
+
+    @staticmethod
+    def _names():
+        from hxtrain.solver.demos import DEMO_CASES
+
+        return DEMO_CASES
+
+    def __contains__(self, name):
+        return name in self._names()
+
+    def __iter__(self):
+        return iter(self._names())
+
+
+@functools.lru_cache(maxsize=1)
+def build_parser():
+    """The argument parser, built once per process (~4 ms a build; argparse keeps no state
+    between parses, and a test suite calls :func:`main` thousands of times)."""
+    import argparse
 
     parser = argparse.ArgumentParser(prog="hxtrain", description=DESCRIPTION, epilog=EPILOG,
                                      formatter_class=argparse.RawDescriptionHelpFormatter)
@@ -64,8 +87,9 @@ def build_parser() -> argparse.ArgumentParser:
     run = commands.add_parser("run", help="simulate a case and print the results",
                               description="Simulate a case, print its tables, optionally write them to a file.")
     run.add_argument("case", nargs="?", metavar="CASE", help="case file (YAML); omit to run a bundled demo")
-    run.add_argument("--demo", choices=DEMO_CASES, default=None,
-                     help=f"run a bundled demo case instead of a file (default with no CASE: {DEMO_CASES[0]})")
+    run.add_argument("--demo", choices=_DemoNames(), default=None, metavar="NAME",  # a metavar: not listed at build
+                     help="run a bundled demo case instead of a file: %(choices)s (with no CASE and no --demo: "
+                          "the first)")
     run.add_argument("--out", metavar="PATH",
                      help="also write the results: .csv (one file per table: PATH, PATH_streams.csv, "
                           "PATH_findings.csv, PATH_tears.csv, PATH_summary.csv, listed in .PATH.sha256), .xlsx "
@@ -98,6 +122,9 @@ def build_parser() -> argparse.ArgumentParser:
     bench.add_argument("--debug", action="store_true", help="show tracebacks on errors")
     _subcommand(commands, "check", "validate a case file without simulating it",
                 "Read and check a case file: keys, values, units and connections.", ("case", None, "case file (YAML)"))
+    from .plant_commands import add_parsers
+
+    add_parsers(commands, _subcommand)
     return parser
 
 
@@ -268,24 +295,46 @@ def _benchmark(args) -> int:
     return EXIT_OK
 
 
+def _monitor(args) -> int:
+    from .plant_commands import monitor_command
+
+    return monitor_command(args, _write, _say_written)
+
+
+def _schedule(args) -> int:
+    from .plant_commands import schedule_command
+
+    return schedule_command(args, _write, _say_written)
+
+
 COMMANDS = {"run": _run, "check": _check, "compare": _compare, "sweep": _sweep, "cleaning": _cleaning,
-            "benchmark": _benchmark}
+            "benchmark": _benchmark, "monitor": _monitor, "schedule": _schedule}
+
+
+HANDLER_PROCESS: list = []
+"""The process that set the signal handlers (forked workers inherit them)."""
+SIGNALS_RECEIVED: list = []
+"""SIGINT and SIGTERM caught while :func:`main` runs, in order. An error raised while one unwinds
+the program (numpy turns an interrupt during its import into an ImportError) is reported as
+that signal, never as a fault in hxtrain."""
 
 
 def main(argv=None) -> int:
     """Run the command; returns the exit code (``--help``, ``--version`` and usage errors exit
     through argparse's SystemExit)."""
-    args = sigterm = None
+    args = handlers = None
+    SIGNALS_RECEIVED.clear()
+    unraisable_hook = sys.unraisablehook
     try:
-        sigterm = _raise_on_sigterm()
+        handlers = _catch_signals()
+        sys.unraisablehook = functools.partial(_unraisable, unraisable_hook, lambda: handlers is not None)
         args = build_parser().parse_args(argv)
         code = _dispatch(args)
+        _stop_if_signalled()
         sys.stdout.flush()  # here, not at exit: a reader that has gone away is handled below
         return code
-    except KeyboardInterrupt:
-        return _stop(args, "interrupted", EXIT_INTERRUPTED)
-    except Terminated:
-        return _stop(args, "terminated (SIGTERM)", EXIT_TERMINATED)
+    except (KeyboardInterrupt, Terminated):
+        return _stopped(args)
     except BrokenPipeError:
         _discard_stdout()
         return EXIT_BROKEN_PIPE
@@ -293,29 +342,40 @@ def main(argv=None) -> int:
         if _stdout_gone():
             return EXIT_BROKEN_PIPE
         raise
+    except BaseException:
+        if SIGNALS_RECEIVED:
+            return _stopped(args)
+        raise
     finally:
-        _restore_sigterm(sigterm)
+        _restore_signals(handlers)
+        handlers = None
+        sys.unraisablehook = unraisable_hook
 
 
 def _dispatch(args) -> int:
+    import warnings
+
     from hxtrain.network import CaseError
 
+    from hxtrain.solver.simulation import results  # noqa: F401  (the numerical libraries, loaded here)
     from hxtrain.solver.simulation.engine import ConvergenceError
 
+    _stop_if_signalled()
     try:
         with warnings.catch_warnings():
             if not sys.warnoptions and not args.debug:
                 warnings.simplefilter("ignore", RuntimeWarning)
             return COMMANDS[args.command](args)
-    except CaseError as exc:
-        _complain(args, f"error: {exc}")
-        return EXIT_BAD_INPUT
-    except ConvergenceError as exc:
-        _complain(args, f"not converged: {exc}")
-        return EXIT_NOT_CONVERGED
-    except BrokenPipeError:
-        raise
-    except Exception as exc:  # a bug: say so plainly; --debug gives the traceback
+    except Exception as exc:
+        if SIGNALS_RECEIVED or isinstance(exc, BrokenPipeError):
+            raise  # main reports the signal, or the closed standard output
+        if isinstance(exc, CaseError):
+            _complain(args, f"error: {exc}")
+            return EXIT_BAD_INPUT
+        if isinstance(exc, ConvergenceError):
+            _complain(args, f"not converged: {exc}")
+            return EXIT_NOT_CONVERGED
+        # a bug: say so plainly; --debug gives the traceback
         _complain(args, f"internal error ({type(exc).__name__}: {exc}). This is a fault in hxtrain, not in the "
                         "case; please report it with the case file. Run with --debug for the traceback.")
         return EXIT_INTERNAL
@@ -323,32 +383,104 @@ def _dispatch(args) -> int:
 
 def _complain(args, message):
     if getattr(args, "debug", False):
+        import traceback
+
         traceback.print_exc()
     print(message, file=sys.stderr)
 
 
-def _stop(args, message, code) -> int:
-    _complain(args, message)
-    return code
+def _stopped(args) -> int:
+    """One line for the signal that stopped the run (Ctrl-C when none was noted: an interrupt
+    raised before the handlers were set, or by other code)."""
+    if SIGNALS_RECEIVED and _is_sigterm(SIGNALS_RECEIVED[-1]):
+        _complain(args, "terminated (SIGTERM)")
+        return EXIT_TERMINATED
+    _complain(args, "interrupted")
+    return EXIT_INTERRUPTED
 
 
-def _raise_on_sigterm():
-    """Make SIGTERM raise :class:`Terminated`; returns what to restore (None where signals cannot
-    be set: not the main thread, or no SIGTERM on this platform)."""
-    try:
-        previous = signal.signal(signal.SIGTERM, _terminated)
-    except (AttributeError, ValueError, OSError):
-        return None
-    return signal.SIG_DFL if previous is None else previous
+def _catch_signals() -> dict:
+    """Note SIGINT and SIGTERM and raise KeyboardInterrupt and :class:`Terminated` for them;
+    returns the handlers to restore. SIGINT is taken over only from Python's default handler
+    (an ignored SIGINT, as in a background job, stays ignored); nothing is set where signals
+    cannot be (not the main thread, or a platform without SIGTERM)."""
+    import signal
+
+    previous = {}
+    HANDLER_PROCESS[:] = [os.getpid()]
+    for name, handler in (("SIGINT", _interrupted), ("SIGTERM", _terminated)):
+        number = getattr(signal, name, None)
+        try:
+            if number is None or (name == "SIGINT" and signal.getsignal(number) is not signal.default_int_handler):
+                continue
+            previous[number] = signal.signal(number, handler)
+        except (ValueError, OSError):
+            continue
+    return previous
+
+
+def _stop_if_signalled():
+    """Stop now if a signal was caught but its exception went nowhere: a C extension's module
+    initialisation that runs Python code (numpy's, scipy's) can clear it, and the import goes on."""
+    if SIGNALS_RECEIVED:
+        raise Terminated() if _is_sigterm(SIGNALS_RECEIVED[-1]) else KeyboardInterrupt()
+
+
+def _is_sigterm(number) -> bool:
+    import signal
+
+    return number == getattr(signal, "SIGTERM", None)
+
+
+def _interrupted(signum, frame):
+    _leave_quietly_if_worker(EXIT_INTERRUPTED)
+    SIGNALS_RECEIVED.append(signum)
+    raise KeyboardInterrupt
 
 
 def _terminated(signum, frame):
+    _leave_quietly_if_worker(EXIT_TERMINATED)
+    SIGNALS_RECEIVED.append(signum)
     raise Terminated()
 
 
-def _restore_sigterm(previous):
-    if previous is not None:
-        signal.signal(signal.SIGTERM, previous)
+def _leave_quietly_if_worker(code):
+    """In a worker process forked from the command (a batch split over processes), which
+    inherits these handlers: end it without a traceback; the command itself, which gets the same
+    Ctrl-C from the terminal, reports it once."""
+    if HANDLER_PROCESS and os.getpid() != HANDLER_PROCESS[-1]:
+        raise SystemExit(code)
+
+
+def _interrupt_again(signum, handlers_in_place):
+    """The signal once more, to the main thread, while :func:`main`'s handlers are in place."""
+    import _thread
+
+    if handlers_in_place():
+        _thread.interrupt_main(signum)
+
+
+def _unraisable(hook, handlers_in_place, unraisable):
+    """An interrupt raised where Python cannot pass it on (a weakref callback, a ``__del__``)
+    would be lost, and printed as "Exception ignored in ...": deliver it to the main thread again
+    instead, from another thread a moment later (from here it would be raised inside this hook
+    and lost again); the handler then runs at the main thread's next ordinary step. Anything
+    else goes to ``hook``, the hook in place before :func:`main`."""
+    if isinstance(unraisable.exc_value, (KeyboardInterrupt, Terminated)) and SIGNALS_RECEIVED:
+        import threading
+
+        again = threading.Timer(0.01, _interrupt_again, (SIGNALS_RECEIVED[-1], handlers_in_place))
+        again.daemon = True
+        again.start()
+        return
+    hook(unraisable)
+
+
+def _restore_signals(previous):
+    import signal
+
+    for number, handler in (previous or {}).items():
+        signal.signal(number, signal.SIG_DFL if handler is None else handler)
 
 
 def _stdout_gone() -> bool:

@@ -102,7 +102,7 @@ def monitor(path_or_monitoring, *, progress=None) -> MonitoringResult:
     cost = fouling_cost(monitoring.case, states, index, days, monitoring.economics)
     shares = _cost_shares(monitoring.case, states, cost)
     result = MonitoringResult(monitoring, history, _window_table(windows, steady, states), state, flagged,
-                              _instruments(flagged, drifts), cost, shares, drifts=drifts)
+                              _instruments(states, values, index, columns), cost, shares, drifts=drifts)
     _fit_and_project(result, states, index, say)
     return result
 
@@ -165,27 +165,32 @@ def _persistent_table(biased, values, states: WindowStates, index, columns) -> p
     return pd.DataFrame(rows, columns=["tag", "from", "to", "windows", "mean_bias", "last_bias"])
 
 
-def _instruments(flagged: pd.DataFrame, drifts: pd.DataFrame) -> pd.DataFrame:
+def _instruments(states: WindowStates, values, index, columns) -> pd.DataFrame:
     """The instruments to check, most windows first: those serial elimination removed (a gross
-    error in a window) and those that read persistently off (over a period)."""
-    columns = ["windows_eliminated", "windows_persistently_off", "first", "last", "median_bias"]
-    frames = []
-    if not flagged.empty:
-        grouped = flagged.reset_index().groupby("tag")
-        frames.append(pd.DataFrame({"windows_eliminated": grouped.size(), "first": grouped["time"].min(),
-                                    "last": grouped["time"].max(), "median_bias": grouped["bias"].median()}))
-    if not drifts.empty:
-        grouped = drifts.groupby("tag")
-        frames.append(pd.DataFrame({"windows_persistently_off": grouped["windows"].sum(), "first": grouped["from"].min(),
-                                    "last": grouped["to"].max(), "median_bias": grouped["mean_bias"].median()}))
-    if not frames:
-        return pd.DataFrame(columns=columns)
-    table = pd.concat(frames).groupby(level=0).agg({"windows_eliminated": "max", "windows_persistently_off": "max",
-                                                   "first": "min", "last": "max", "median_bias": "first"})
-    table = table.reindex(columns=columns).fillna({"windows_eliminated": 0, "windows_persistently_off": 0})
-    table = table.astype({"windows_eliminated": int, "windows_persistently_off": int})
+    error in a window) and those that read persistently off (over a period), with the median of
+    their bias (reading less the others' estimate) over those windows."""
+    bias = np.full(values.shape, np.nan)
+    removed = np.zeros(values.shape, bool)
+    for w, eliminated in enumerate(states.eliminated):
+        for e in eliminated:
+            removed[w, e.measurement] = True
+            bias[w, e.measurement] = e.bias
+    off = states.withheld
+    estimate = states.values[:, states.balances.tag_column]
+    bias = np.where(off, values - estimate, bias)
+    counted = removed | off
+    rows = []
+    for j in np.flatnonzero(counted.any(axis=0)):
+        when = index[counted[:, j]]
+        finite = bias[counted[:, j], j]
+        finite = finite[np.isfinite(finite)]
+        rows.append({"tag": columns[j], "windows_eliminated": int(removed[:, j].sum()),
+                     "windows_persistently_off": int(off[:, j].sum()), "first": when.min(), "last": when.max(),
+                     "median_bias": float(np.median(finite)) if finite.size else np.nan})
+    table = pd.DataFrame(rows, columns=["tag", "windows_eliminated", "windows_persistently_off", "first", "last",
+                                        "median_bias"]).set_index("tag")
     order = table["windows_eliminated"] + table["windows_persistently_off"]
-    return table.loc[order.sort_values(ascending=False).index].rename_axis("tag")
+    return table.loc[order.sort_values(ascending=False, kind="stable").index]
 
 
 def _cost_shares(case, states: WindowStates, cost: pd.DataFrame) -> pd.DataFrame:

@@ -49,6 +49,8 @@ RESERVED_SHEETS = ("about", "History")
 """Sheet names not available to tables: ours for the notes, Excel's own."""
 UNSAFE_CHARACTERS = re.compile(r'[\[\]:*?/\\<>"|\x00-\x1f]')
 """Characters Excel forbids in sheet names and file systems in file names."""
+WORKBOOK_ILLEGAL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f]")
+"""Control characters a worksheet cell cannot hold (openpyxl refuses them)."""
 NOTE_WORDS = {"case_file": "case file", "study": "study file", "written": "date written",
               "hxtrain_version": "hxtrain version"}
 UNIT_WORDS = (("_kw_per_k", "kW/K"), ("_kg_s", "kg/s"), ("_kw", "kW"), ("_c", "°C"), ("_k", "K"))
@@ -190,6 +192,7 @@ def _plain(value, name=""):
 
 
 def _records(frame: pd.DataFrame) -> list[dict]:
+    frame = with_whole_counts(frame)
     keep_index = not (isinstance(frame.index, pd.RangeIndex) and frame.index.name is None)
     rows = (frame.reset_index() if keep_index else frame).astype(object).to_dict(orient="records")
     return [{k: _plain(v, k) for k, v in row.items()} for row in rows]
@@ -217,10 +220,13 @@ def words(name: str) -> str:
 
 
 def about_table(notes: dict, sheets) -> pd.DataFrame:
-    """The notes as rows of (item, value) in words: one row per note, one per summary value,
-    and one per sheet whose name had to differ from its table's."""
+    """The notes as rows of (item, value) in words: one row per note (none for an empty one, such
+    as a study without a title), one per summary value, and one per sheet whose name had to
+    differ from its table's."""
     rows = []
     for key, value in notes.items():
+        if value is None or value == "":
+            continue
         entries = value.items() if isinstance(value, dict) else [(key, value)]
         for name, entry in entries:
             entry = _plain(entry, name)
@@ -242,14 +248,29 @@ def _json_bytes(tables, notes) -> bytes:
     return json.dumps(document, indent=2, allow_nan=False, default=str).encode("utf-8")
 
 
+def _cell_safe(frame: pd.DataFrame) -> pd.DataFrame:
+    """Text a workbook can hold: control characters (refused in case files, but a message may
+    quote anything) written as escapes such as '\\x07' instead of failing the whole write."""
+    def clean(value):
+        return WORKBOOK_ILLEGAL.sub(lambda m: repr(m.group())[1:-1], value) if isinstance(value, str) else value
+
+    frame = frame.copy()
+    for position, dtype in enumerate(frame.dtypes):
+        if pd.api.types.is_object_dtype(dtype) or pd.api.types.is_string_dtype(dtype):
+            frame.isetitem(position, frame.iloc[:, position].map(clean))
+    if not pd.api.types.is_numeric_dtype(frame.index):
+        frame.index = frame.index.map(clean)
+    return frame.rename(columns=clean)
+
+
 def _xlsx_bytes(tables, notes) -> bytes:
     """The workbook, built in memory (closed only when complete: an error leaves no open archive)."""
     sheets = unique_names(tables, SHEET_NAME_LIMIT, RESERVED_SHEETS)
     buffer = io.BytesIO()
     writer = pd.ExcelWriter(buffer, engine="openpyxl")
-    about_table(notes, zip(tables, sheets)).to_excel(writer, sheet_name="about", index=False)
+    _cell_safe(about_table(notes, zip(tables, sheets))).to_excel(writer, sheet_name="about", index=False)
     for frame, sheet in zip(tables.values(), sheets):
-        _readable(frame).to_excel(writer, sheet_name=sheet)
+        _cell_safe(_readable(frame)).to_excel(writer, sheet_name=sheet)
     writer.close()
     return buffer.getvalue()
 

@@ -46,7 +46,18 @@ STREAM_COLUMNS = {"segment": "segment", "flow_kg_s": "flow kg/s", "heat_capacity
 
 
 def _formatted(frame: pd.DataFrame, digits=2) -> str:
-    return frame.to_string(float_format=lambda v: f"{v:,.{digits}f}", na_rep="")
+    return frame.to_string(float_format=lambda v: fixed(v, digits), na_rep="")
+
+
+def fixed(value: float, digits: int) -> str:
+    """``value`` with ``digits`` decimals and thousands separators; a value that rounds to zero
+    is shown without a sign (an idle cooler's duty is -0.0 in floating point, "0.0" to a reader).
+
+    >>> fixed(-0.0, 1), fixed(-0.004, 2), fixed(-1234.5, 1)
+    ('0.0', '0.00', '-1,234.5')
+    """
+    text = f"{value:,.{digits}f}"
+    return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
 
 
 def _section(title: str) -> str:
@@ -86,12 +97,14 @@ def one_stream_table(result: SimulationResult) -> pd.DataFrame:
     return table[columns].rename(columns=ONE_STREAM_COLUMNS).rename_axis("unit").fillna("")
 
 
-def boxed(title: str, lines) -> list[str]:
-    """A block of lines framed so that it stands out at the end of a report (violated limits)."""
+def boxed(title: str, lines, count=None) -> list[str]:
+    """A block of lines framed so that it stands out at the end of a report (violated limits);
+    the title gives ``count`` (default: the number of lines)."""
     lines = list(lines)
     if not lines:
         return []
-    return ["", "!" * 78, f"!! {title}: {len(lines)}", "!" * 78, *(f"!! {line}" for line in lines), "!" * 78]
+    count = len(lines) if count is None else count
+    return ["", "!" * 78, f"!! {title}: {count}", "!" * 78, *(f"!! {line}" for line in lines), "!" * 78]
 
 
 def findings_box(result: SimulationResult) -> str:

@@ -13,6 +13,7 @@ from hxtrain.units.protocol import FIRED_HEATERS, TOTALS
 
 from hxtrain.solver.simulation.engine import ConvergenceError
 from hxtrain.solver.simulation.evaluation import as_case
+from hxtrain.solver.reporting.files import with_whole_counts
 from hxtrain.solver.reporting.text import boxed
 from hxtrain.solver.simulation.results import SimulationResult, simulate
 
@@ -90,7 +91,7 @@ def comparison_text(comparison: FoulingComparison) -> str:
              "duty_lost_to_fouling_kw = clean - fouled: positive where fouling costs duty; negative where fouling "
              "upstream leaves more duty to this exchanger.",
              exchangers.to_string(float_format=lambda v: f"{v:,.1f}", na_rep=""), "",
-             comparison.totals.to_string(float_format=lambda v: f"{v:,.2f}"),
+             with_whole_counts(comparison.totals).to_string(float_format=lambda v: f"{v:,.2f}"),
              f"  fouling costs {comparison.fired_duty_penalty_kw:,.1f} kW of fired-heater duty"]
     clean_limits = comparison.limits[(comparison.limits["state"] == "clean") & (comparison.limits["severity"] == "limit")]
     lines += boxed("LIMITS VIOLATED WHEN CLEAN", (f"{r.unit}: {r.message}  [{r.key}]" for r in clean_limits.itertuples()))

@@ -13,6 +13,7 @@ import pandas as pd
 
 from hxtrain.network import CaseError
 from hxtrain.network.study import Study
+from hxtrain.solver.reporting.files import with_whole_counts
 from hxtrain.solver.reporting.text import boxed
 from hxtrain.solver.simulation.engine import ConvergenceError
 from hxtrain.solver.simulation.results import CAUTION, SimulationResult, simulate
@@ -101,7 +102,7 @@ def study_text(study: Study, comparison: Comparison, specifications) -> str:
     lines = [f"hxtrain study: {study.title or study.file}", f"NOTE: {CAUTION}", ""]
     for name, (description, _, _) in study.variants.items():
         lines.append(f"  {name}: {description}" if description else f"  {name}")
-    lines += ["", comparison.table.to_string(float_format=lambda v: f"{v:,.2f}")]
+    lines += ["", with_whole_counts(comparison.table).to_string(float_format=lambda v: f"{v:,.2f}")]
     for spec in specifications:
         lines += ["", f"Specification {spec.name}: {'met' if spec.success else 'NOT MET'} - {spec.message}"
                       f" ({spec.evaluations} simulations)"]

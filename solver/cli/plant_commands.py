@@ -1,0 +1,78 @@
+"""``hxtrain monitor`` and ``hxtrain schedule``: the train's state from plant data, and the
+cleaning plan of least cost. Both print a report, write their tables with ``--out`` before
+printing, and show their stages on standard error when it is a terminal."""
+
+from __future__ import annotations
+
+import sys
+import time
+
+MONITOR_TABLES = ("today", "state", "windows", "instruments", "persistently_off", "removed", "cost", "cost_shares",
+                  "fouling_laws", "cleanings", "projection", "limit_dates", "skipped_rows")
+SCHEDULE_TABLES = ("plan", "plan_by_month", "comparison", "steps", "fouling_laws", "search", "limits")
+
+
+def add_parsers(commands, subcommand):
+    """The two commands' parsers (``subcommand``: the CLI's helper for a one-file command)."""
+    subcommand(commands, "monitor", "the state of the train from plant data: fouling, its cost, instruments, "
+                                    "projection",
+               "Read a monitoring file and its historian data; reconcile every steady window against the network's "
+               "balances (gross errors and persistently biased instruments removed); back-calculate each "
+               "exchanger's U and fouling with its uncertainty; cost the fouling at the furnace; fit fouling laws "
+               "and project the train forward to the dates its limits are reached.",
+               ("monitoring", None, "monitoring file (YAML), e.g. cases/plant_data/crude_monitoring.yaml"), out=True)
+    subcommand(commands, "schedule", "the cleaning plan of least total cost over a horizon, against baselines",
+               "Read a schedule file; march the train through its horizon under cleaning plans; find the plan of "
+               "least total cost (a cycle MILP about the trajectory, then local search on the network) and compare "
+               "it with no cleaning, fixed intervals, a fouling threshold and the one-step ranking applied "
+               "greedily.", ("schedule", None, "schedule file (YAML), e.g. cases/crude_schedule.yaml"), out=True)
+
+
+def _progress():
+    """Stage lines on standard error when it is a terminal; nothing otherwise."""
+    if not sys.stderr.isatty():
+        return None
+    started = time.perf_counter()
+
+    def say(stage, *more):
+        detail = " ".join(str(m) for m in more if m not in (None, 0))
+        print(f"  [{time.perf_counter() - started:6.1f} s] {stage} {detail}".rstrip(), file=sys.stderr, flush=True)
+
+    return say
+
+
+def _file_command(args, write, say_written, loaded, inputs, table_names, compute, report, tables, notes) -> int:
+    """The shape both commands share: check the output path against the inputs, compute, write
+    the tables (before printing), print the report."""
+    from hxtrain.solver.reporting.files import check_output_path
+    from hxtrain.solver.simulation.results import CAUTION
+
+    if args.out:
+        check_output_path(args.out, inputs, list(table_names))
+    result = compute(loaded, progress=_progress())
+    written = write(tables(result), args, {**notes, "caution": CAUTION}, inputs)
+    print(report(result))
+    say_written(written)
+    return 0
+
+
+def monitor_command(args, write, say_written) -> int:
+    from hxtrain.network.monitoring_file import load_monitoring
+    from hxtrain.solver.monitoring.monitor import monitor
+    from hxtrain.solver.reporting.monitoring_text import monitoring_report, monitoring_tables
+
+    m = load_monitoring(args.monitoring)
+    inputs = {"monitoring file": m.file, "plant data": m.data_path, "case file": m.case.file}
+    return _file_command(args, write, say_written, m, inputs, MONITOR_TABLES, monitor, monitoring_report,
+                         monitoring_tables, {"monitoring_file": m.file, "title": m.title})
+
+
+def schedule_command(args, write, say_written) -> int:
+    from hxtrain.network.schedule_file import load_schedule
+    from hxtrain.solver.reporting.schedule_text import schedule_report, schedule_tables
+    from hxtrain.solver.scheduling.plan_cleanings import plan_cleanings
+
+    s = load_schedule(args.schedule)
+    inputs = {"schedule file": s.file, "case file": s.case.file, "monitoring file": s.monitoring_file}
+    return _file_command(args, write, say_written, s, inputs, SCHEDULE_TABLES, plan_cleanings, schedule_report,
+                         schedule_tables, {"schedule_file": s.file, "title": s.title})

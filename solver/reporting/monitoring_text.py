@@ -1,0 +1,221 @@
+"""The console report of ``hxtrain monitor``, and its tables for ``--out``: today's state of each
+exchanger, what fouling costs, the instruments to check, the fouling laws found, and the
+projected dates of limits, with the violated and projected limits last, in a box."""
+
+from __future__ import annotations
+
+import textwrap
+
+import numpy as np
+import pandas as pd
+
+from hxtrain.solver.simulation.results import CAUTION
+
+from .text import boxed
+
+TREND_DAYS = 30
+"""The fouling trend is the least-squares slope over the last this many days of identifiable
+windows since the exchanger's last cleaning, per 30 days."""
+
+
+def fouling_trend(state: pd.DataFrame, cleanings: pd.DataFrame, days=TREND_DAYS) -> pd.Series:
+    """m²·K/W per 30 days for each exchanger, NaN with fewer than 3 usable windows."""
+    trends = {}
+    for unit, rows in state.groupby("unit"):
+        rows = rows[rows["status"].isin(["ok", "negative fouling"])]
+        if not rows.empty:
+            since = _last_cleaning(cleanings, unit)
+            rows = rows[rows.index >= max(rows.index[-1] - pd.Timedelta(days=days), since)]
+        if len(rows) < 3:
+            trends[unit] = np.nan
+            continue
+        t = (rows.index - rows.index[0]) / pd.Timedelta(days=1)
+        trends[unit] = np.polyfit(np.asarray(t, float), rows["fouling"].to_numpy(), 1)[0] * 30.0
+    return pd.Series(trends, name="trend_per_30_days")
+
+
+def _last_cleaning(cleanings, unit):
+    if cleanings is None or cleanings.empty or "exchanger" not in cleanings:
+        return pd.Timestamp.min
+    mine = cleanings[(cleanings["exchanger"] == unit) & cleanings.get("lasting", True)]
+    return mine["time"].max() if len(mine) else pd.Timestamp.min
+
+
+WIDTH = 118
+"""Console lines are kept within 120 columns."""
+HEADINGS = {"duty_kw": "duty kW", "u_w_m2k": "U", "u_clean_w_m2k": "U clean", "fouling_m2k_w": "R_f",
+            "plus_minus_95": "± (95 %)", "trend_per_30_days": "trend/30 d", "law": "law",
+            "share_of_cost": "cost share", "status": "status"}
+
+
+def today_table(result) -> pd.DataFrame:
+    """Each exchanger at the last reconciled window: duty, U, clean U, fouling with its expanded
+    uncertainty, the trend, the chosen law, its share of the fouling cost and its status."""
+    today = result.today()
+    if today.empty:
+        return today
+    table = pd.DataFrame(index=today.index)
+    table["duty_kw"] = today["duty"]
+    table["u_w_m2k"] = today["u_service"]
+    table["u_clean_w_m2k"] = today["u_clean"]
+    table["fouling_m2k_w"] = today["fouling"]
+    table["plus_minus_95"] = today.get("fouling_expanded")
+    table["trend_per_30_days"] = fouling_trend(result.state, result.cleanings).reindex(table.index)
+    if not result.fits.empty:
+        chosen = result.fits[result.fits["chosen"]].set_index("exchanger")["model"]
+        table["law"] = chosen.reindex(table.index).fillna("none determined")
+    if not result.shares.empty:
+        table["share_of_cost"] = result.shares["share"].reindex(table.index)
+    table["status"] = today["status"]
+    return table.rename_axis("exchanger")
+
+
+def monitoring_report(result) -> str:
+    """The printed report."""
+    m, history = result.monitoring, result.history
+    windows = result.windows
+    currency = (m.economics or {}).get("currency", "")
+    parts = [f"hxtrain monitor: {m.title or m.file}", f"monitoring file: {m.file}",
+             *textwrap.wrap(f"NOTE: {CAUTION}", WIDTH, subsequent_indent="      "), "",
+             f"Plant data: {m.data_path} — {len(history.samples)} rows from {_day(history.samples.index.min())} "
+             f"to {_day(history.samples.index.max())}"]
+    parts += _skipped_lines(history.skipped)
+    steady = int(windows["steady"].sum())
+    parts.append(f"Windows of {_duration(m.window)}: {len(windows)}; steady {steady}; reconciled "
+                 f"{int(windows['reconciled'].sum())}; global test passed in {int(windows['passed'].sum())} "
+                 f"(significance {m.significance:g})")
+    today = today_table(result)
+    if not today.empty:
+        parts += ["", f"Exchangers at {_day(_last(result))} "
+                      "(fouling on the outside area; ± is the 95 % expanded uncertainty, k = 2)",
+                  "(U in W/m²·K; R_f, its uncertainty and trend in m²·K/W; cost share: of the fired duty fouling costs)",
+                  _table(today.rename(columns=HEADINGS).assign(**{"cost share": _percent(today.get("share_of_cost"))}))]
+    parts += _cost_lines(result, currency)
+    if not result.instruments.empty:
+        units = {t.name: {"temperature": "K", "flow": "kg/s", "duty": "kW"}[t.quantity] for t in m.tags.values()}
+        instruments = result.instruments.rename(columns={"windows_eliminated": "windows removed",
+                                                         "windows_persistently_off": "windows off", "median_bias": "bias"})
+        instruments["unit"] = [units.get(tag, "") for tag in instruments.index]
+        parts += ["", "Instruments to check (removed as a gross error in a window, or reading persistently off",
+                  "the others; bias: the reading less the others' estimate, median over those windows)",
+                  _table(instruments)]
+    if not result.cleanings.empty:
+        shown = result.cleanings[["exchanger", "time", "source", "drop", "lasting"]]
+        parts += ["", "Cleanings (logged, found in the data as a lasting drop, or both)",
+                  shown.to_string(index=False, float_format=lambda v: f"{v:.3g}")]
+    parts += _projection_lines(result)
+    limits = _limit_lines(result)
+    wrapped = [part for line in limits for part in textwrap.wrap(line, WIDTH - 3, subsequent_indent="   ")]
+    parts += boxed("LIMITS VIOLATED OR PROJECTED", wrapped, count=len(limits))
+    return "\n".join(parts)
+
+
+def _skipped_lines(skipped: pd.DataFrame) -> list[str]:
+    """What the reader left out, by reason: whole rows and single cells."""
+    if skipped is None or skipped.empty:
+        return []
+    lines = []
+    for reason, rows in skipped.groupby("reason", sort=False):
+        cells = rows["column"].notna() & (rows["column"] != "")
+        whole = rows.loc[~cells, "row"].nunique()
+        parts = ([f"{whole} rows"] if whole else []) + ([f"{int(cells.sum())} cells"] if cells.any() else [])
+        lines.append(f"  left out ({reason}): {' and '.join(parts)}")
+    return lines
+
+
+def _last(result):
+    done = result.windows.index[result.windows["reconciled"]]
+    return done[-1] if len(done) else result.windows.index[-1]
+
+
+def _percent(shares):
+    if shares is None:
+        return ""
+    return shares.map(lambda v: f"{100 * v:.1f} %" if np.isfinite(v) else "")
+
+
+def _day(when) -> str:
+    return "" if pd.isna(when) else pd.Timestamp(when).strftime("%Y-%m-%d")
+
+
+def _duration(delta: pd.Timedelta) -> str:
+    days = delta / pd.Timedelta(days=1)
+    return f"{days:g} day" + ("s" if days != 1 else "") if days >= 1 else f"{delta / pd.Timedelta(hours=1):g} h"
+
+
+def _table(frame: pd.DataFrame) -> str:
+    def fmt(v):
+        if isinstance(v, (float, np.floating)):
+            if not np.isfinite(v):
+                return ""
+            return f"{v:,.1f}" if abs(v) >= 10 else f"{v:.3g}"
+        if isinstance(v, pd.Timestamp):
+            return _day(v)
+        return str(v)
+    return frame.apply(lambda c: c.map(fmt)).to_string()
+
+
+def _cost_lines(result, currency):
+    cost = result.cost
+    answered = cost[cost["answer"] == "ok"]
+    if answered.empty:
+        return ["", "What fouling costs: no window with an answer"]
+    last = answered.iloc[-1]
+    lines = ["", f"What fouling costs at {_day(answered.index[-1])}: fired duty {last['fired_duty_fouled_kw']:,.0f} kW "
+                 f"as fouled against {last['fired_duty_clean_kw']:,.0f} kW clean: {last['fouling_penalty_kw']:,.0f} kW"]
+    if "cost_per_day" in cost:
+        lines.append(f"  fuel {last['fuel_gj_per_day']:,.1f} GJ/day, {last['cost_per_day']:,.0f} {currency}/day, "
+                     f"CO2 {last['co2_t_per_day']:,.2f} t/day")
+        lines.append(f"  over the data ({len(answered)} windows with an answer): {answered['cost_cumulative'].iloc[-1]:,.0f} "
+                     f"{currency}, CO2 {answered['co2_t_cumulative'].iloc[-1]:,.0f} t")
+    unanswered = len(cost) - len(answered)
+    if unanswered:
+        lines.append(f"  {unanswered} windows have no cost: {cost.loc[cost['answer'] != 'ok', 'answer'].iloc[0]}")
+    mismatch = cost["model_mismatch_k"].dropna()
+    if len(mismatch):
+        lines.append(f"  the fouled simulation reproduces the reconciled temperatures to {mismatch.median():.2f} K "
+                     f"(median window), {mismatch.max():.2f} K at worst")
+    return lines
+
+
+def _projection_lines(result):
+    steps = result.projection
+    if steps is None or steps.empty:
+        return []
+    first, last = steps.index[0], steps.index[-1]
+    lines = ["", f"Projection from {_day(first)} to {_day(last)} with each exchanger's fitted law, conditions held "
+                 "at the last window"]
+    for column in steps.columns:
+        if column.endswith(".fired_duty_kw") or column.endswith(".inlet_c"):
+            unit, what = column.split(".", 1)
+            label = "fired duty" if what == "fired_duty_kw" else "inlet temperature"
+            scale, text = (1e-3, "MW") if what == "fired_duty_kw" else (1.0, "°C")
+            lines.append(f"  {unit} {label}: {steps[column].iloc[0] * scale:,.2f} {text} -> "
+                         f"{steps[column].iloc[-1] * scale:,.2f} {text}")
+    return lines
+
+
+def _limit_lines(result):
+    lines = []
+    dates = result.limit_dates
+    if dates is not None and not dates.empty:
+        reached = dates[dates["date"].notna()]
+        for row in reached.itertuples():
+            when = f"already at {_day(row.date)}" if row.at_start else f"projected for {_day(row.date)}"
+            lines.append(f"{row.unit}: {row.limit} — {when}  [{row.key}]")
+    return lines
+
+
+def monitoring_tables(result) -> dict:
+    """The tables ``--out`` writes, by name."""
+    fits = result.fits.copy()
+    for column in ("parameters", "standard_errors"):
+        if column in fits:
+            fits[column] = fits[column].map(lambda d: "; ".join(f"{k} = {v:.6g}" for k, v in d.items())
+                                            if isinstance(d, dict) else d)
+    if "held" in fits:
+        fits["held"] = fits["held"].map(lambda h: ", ".join(h) if isinstance(h, (tuple, list)) else h)
+    return {"today": today_table(result), "state": result.state, "windows": result.windows,
+            "instruments": result.instruments, "persistently_off": result.drifts, "removed": result.flagged,
+            "cost": result.cost, "cost_shares": result.shares, "fouling_laws": fits, "cleanings": result.cleanings,
+            "projection": result.projection, "limit_dates": result.limit_dates, "skipped_rows": result.history.skipped}

@@ -1,0 +1,134 @@
+"""From a checked schedule file to what the march needs: each exchanger's fouling law (written in
+the file, or fitted to plant data by :func:`hxtrain.solver.monitoring.monitor`), the operating
+plan per step, and the cleaning terms as arrays.
+
+A law fitted to plant data starts from the fitted fouling at the data's last window. Its
+parameters hold until the exchanger's first cleaning in the plan; after a cleaning the exchanger
+starts clean: ``r_f0`` (where the law's curve starts) becomes the fouling just after a cleaning —
+the fitted ``r_f0`` where the fitted history itself began at a cleaning, else zero. An exchanger
+whose plant data determine no law keeps its last back-calculated fouling (a linear law of rate
+zero), and says so.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from hxtrain.network.changes import existing_number
+from hxtrain.network.errors import CaseError
+from hxtrain.network.reading import read_document
+from hxtrain.network.schedule_file import ScheduleFile
+
+from .horizon import ExchangerLaw, Horizon
+
+
+def fitted_laws(schedule: ScheduleFile, progress=None) -> tuple[dict, pd.DataFrame]:
+    """Laws from the plant data the schedule names (exchanger -> ExchangerLaw), and a table of
+    where each came from."""
+    from hxtrain.solver.monitoring.monitor import monitor
+
+    result = monitor(schedule.monitoring_file, progress=progress)
+    laws, rows = {}, []
+    chosen = result.fits[result.fits["chosen"]].set_index("exchanger") if not result.fits.empty else pd.DataFrame()
+    today = result.today()
+    logged = result.cleanings
+    for name in today.index:
+        if name in chosen.index:
+            row = chosen.loc[name]
+            before = dict(row["parameters"])
+            began_clean = _history_began_at_cleaning(logged, name, row["since"])
+            after = {**before, "r_f0": before.get("r_f0", 0.0) if began_clean else 0.0}
+            laws[name] = ExchangerLaw(row["model"], before, after, float(row["fouling_now"]))
+            rows.append((name, row["model"], "fitted to plant data", float(row["fouling_now"])))
+        elif np.isfinite(today.loc[name, "fouling"]):
+            held = {"r_f0": 0.0, "rate": 0.0}
+            laws[name] = ExchangerLaw("linear", held, held, float(max(today.loc[name, "fouling"], 0.0)))
+            rows.append((name, "held", "no law determined by the plant data: its last fouling held",
+                         float(today.loc[name, "fouling"])))
+    return laws, pd.DataFrame(rows, columns=["exchanger", "model", "source", "initial"])
+
+
+def _history_began_at_cleaning(cleanings: pd.DataFrame, name, since) -> bool:
+    if cleanings is None or cleanings.empty:
+        return False
+    mine = cleanings[cleanings["exchanger"] == name]
+    return bool((mine["time"] == since).any())
+
+
+def written_laws(schedule: ScheduleFile) -> dict:
+    """The laws the schedule file writes: ``r_f0`` is the fouling just after a cleaning, and the
+    law starts from ``initial``."""
+    return {name: ExchangerLaw(law.model, dict(law.parameters), dict(law.parameters), float(law.initial))
+            for name, law in schedule.fouling.items()}
+
+
+def operating_settings(schedule: ScheduleFile) -> dict:
+    """key path -> (steps,) value in force at each step's start: the operating plan, each key at
+    the case's own value until an entry sets it (the furnace's throughput key always, so that a
+    cut can scale it)."""
+    keys = sorted({k for _, values in schedule.operation for k in values}
+                  | ({schedule.furnace.throughput} if schedule.furnace is not None else set()))
+    if not keys:
+        return {}
+    data = read_document(schedule.case.file).data if schedule.case.file else None
+    starts = schedule.start + np.arange(schedule.steps) * schedule.step
+    settings = {}
+    for key in keys:
+        current = _case_value(data, key)
+        series = np.full(schedule.steps, current, dtype=float)
+        for when, values in schedule.operation:
+            if key in values:
+                series[starts >= when] = values[key]
+        if np.isnan(series).any():
+            raise CaseError(f"the operating plan sets '{key}' only from a later date, and the case gives no value "
+                            "for it before", file=schedule.file, path=("operation",))
+        settings[key] = series
+    return settings
+
+
+def _case_value(data, key):
+    try:
+        return existing_number(data, key, ())[3]
+    except (CaseError, TypeError, KeyError):
+        return np.nan
+
+
+def build_horizon(schedule: ScheduleFile, progress=None) -> tuple[Horizon, pd.DataFrame]:
+    """The :class:`Horizon` of a schedule, and the table of where each law came from."""
+    laws, sources = ({}, pd.DataFrame(columns=["exchanger", "model", "source", "initial"]))
+    if schedule.monitoring_file is not None:
+        laws, sources = fitted_laws(schedule, progress)
+    written = written_laws(schedule)
+    laws.update(written)
+    if written:
+        sources = pd.concat([sources[~sources["exchanger"].isin(list(written))],
+                             pd.DataFrame([(n, law.model, "written in the schedule file", law.initial)
+                                           for n, law in written.items()], columns=sources.columns)],
+                            ignore_index=True)
+    exchangers = [name for name in schedule.case.exchangers if name in laws]
+    terms = [schedule.cleaning.get(name) for name in exchangers]
+    duration = np.array([t.duration_steps if t is not None else 1 for t in terms])
+    cost = np.array([t.cost if t is not None else 0.0 for t in terms], dtype=float)
+    horizon = Horizon(schedule.case, exchangers, laws, duration, cost, schedule.step / pd.Timedelta(days=1),
+                      schedule.steps, operating_settings(schedule), dict(schedule.economics), schedule.furnace,
+                      schedule.start)
+    return horizon, sources.set_index("exchanger")
+
+
+def allowed_starts(schedule: ScheduleFile, horizon: Horizon) -> np.ndarray:
+    """(E, S) True where a cleaning of each exchanger may start: the exchanger may be cleaned and
+    its whole cleaning lies inside the horizon and outside every period with no cleaning."""
+    steps = horizon.steps
+    blocked = np.zeros(steps, bool)
+    for first, last, _ in schedule.not_allowed:
+        blocked[max(first, 0):min(last, steps - 1) + 1] = True
+    allowed = np.zeros((len(horizon.exchangers), steps), bool)
+    for e, name in enumerate(horizon.exchangers):
+        terms = schedule.cleaning.get(name)
+        if terms is None or not terms.allowed:
+            continue
+        d = int(horizon.duration[e])
+        for s in range(steps - d + 1):
+            allowed[e, s] = not blocked[s:s + d].any()
+    return allowed

@@ -1,0 +1,158 @@
+"""Cleaning schedules (issue 12): the march through the horizon, the rules every plan keeps, and
+the optimiser against the exhaustive optimum on small instances (every plan enumerated and
+marched through the same network)."""
+
+import itertools
+import textwrap
+
+import numpy as np
+import pytest
+
+from hxtrain.network import case_from_mapping
+from hxtrain.network.schedule_file import load_schedule
+from hxtrain.solver.scheduling.baselines import baseline_plans
+from hxtrain.solver.scheduling.horizon import march, scenario_values
+from hxtrain.solver.scheduling.optimiser import feasible, optimise
+from hxtrain.solver.scheduling.setup import allowed_starts, build_horizon
+from hxtrain.solver.simulation.evaluation import evaluate
+
+SMALL_CASE = """
+title: three-exchanger train for schedule tests (invented)
+fluids:
+  crude: {cp: {polynomial: [1.75, 0.0037]}}
+  gas_oil: {cp: {polynomial: [1.85, 0.0034]}}
+  residue: {cp: {polynomial: [1.80, 0.0033]}}
+streams:
+  crude: {fluid: crude, flow: 80, supply_temperature: 40, path: "X-1.cold -> X-2.cold -> X-3.cold -> H-1 -> hot_crude"}
+  gas_oil: {fluid: gas_oil, flow: 35, supply_temperature: 230, path: "X-2.hot -> X-1.hot -> gas_oil_out"}
+  residue: {fluid: residue, flow: 30, supply_temperature: 330, path: "X-3.hot -> residue_out"}
+exchangers:
+  X-1: &hx
+    arrangement: tema_e
+    shell_side: hot
+    area_per_shell: 250
+    film: {shell: 900, tube: 800}
+    reference_flow: {shell: 35, tube: 80}
+    fouling: {shell: 0.0003, tube: 0.0}
+    tubes: {outer_diameter: 19.05 mm, inner_diameter: 14.83 mm, wall_conductivity: 45}
+  X-2: *hx
+  X-3: *hx
+heaters:
+  H-1: {outlet_temperature: 300}
+products:
+  hot_crude: {}
+  gas_oil_out: {}
+  residue_out: {}
+"""
+
+
+def small_schedule(tmp_path, exchangers, steps, at_once=1, durations=None, not_allowed=(), furnace=None):
+    (tmp_path / "small.yaml").write_text(SMALL_CASE)
+    laws = {"X-1": "{model: linear, rate: 8.0e-6, initial: 0.0004}",
+            "X-2": "{model: asymptotic, r_inf: 0.0020, tau: 60 days, initial: 0.0005}",
+            "X-3": "{model: linear, rate: 1.2e-5, initial: 0.0006}"}
+    cleaning = "\n".join(f"    {name}: {{cost: {20000 + 5000 * k}, duration: {(durations or {}).get(name, 1)} weeks}}"
+                         for k, name in enumerate(exchangers))
+    forbidden = "".join(f"\n    - {{from: {a}, to: {b}, why: test}}" for a, b in not_allowed)
+    text = textwrap.dedent(f"""
+        title: small schedule
+        case: small.yaml
+        start: 2027-01-04
+        horizon: {steps} weeks
+        step: 1 week
+        fouling:
+          exchangers:
+        """) + "\n".join(f"    {n}: {laws[n]}" for n in exchangers) + textwrap.dedent(f"""
+        economics: {{fuel_price: 9.0, currency: USD, furnace_efficiency: 0.88, co2_price: 80}}
+        cleaning:
+          default: {{cost: 30000, duration: 1 week}}
+          exchangers:
+        """) + cleaning + f"\n  at_most_at_once: {at_once}\n" + (f"  not_allowed:{forbidden}\n" if not_allowed else "")
+    if furnace:
+        text += f"furnace: {{heater: H-1, maximum_duty: {furnace}, throughput: streams.crude.flow, lost_throughput_value: 15}}\n"
+    (tmp_path / "schedule.yaml").write_text(text)
+    return load_schedule(tmp_path / "schedule.yaml")
+
+
+def every_plan(allowed, duration, at_once):
+    """All plans that keep the rules (brute force over every subset of starts)."""
+    exchangers, steps = allowed.shape
+    options = list(itertools.product([False, True], repeat=exchangers * steps))
+    plans = np.array(options, bool).reshape(-1, exchangers, steps)
+    return plans[feasible(plans, allowed, duration, at_once)]
+
+
+@pytest.mark.parametrize("setting", [
+    dict(exchangers=("X-1", "X-2"), steps=6, at_once=1),
+    dict(exchangers=("X-1", "X-2", "X-3"), steps=4, at_once=1, durations={"X-3": 2}),
+    dict(exchangers=("X-2", "X-3"), steps=6, at_once=2, not_allowed=[("2027-01-18", "2027-01-24")]),
+    dict(exchangers=("X-1", "X-3"), steps=6, at_once=1, furnace="28.7 MW"),
+], ids=["2x6", "3x4 with a 2-step cleaning", "2x6 with a period closed", "2x6 with a furnace limit"])
+def test_the_optimiser_finds_the_exhaustive_optimum(tmp_path, setting):
+    """Exhaustive reference: every plan that keeps the rules marched through the same network;
+    the optimiser's plan costs the least of them (to 1e-9 relative)."""
+    schedule = small_schedule(tmp_path, **setting)
+    horizon, _ = build_horizon(schedule)
+    allowed = allowed_starts(schedule, horizon)
+    plans = every_plan(allowed, horizon.duration, schedule.at_most_at_once)
+    assert len(plans) > 50
+    totals = march(horizon, plans).costs["total_cost"].to_numpy()
+    found = optimise(horizon, allowed, schedule.at_most_at_once)
+    assert found.outcome.costs["total_cost"].iloc[0] == pytest.approx(totals.min(), rel=1e-9)
+    assert feasible(found.plan[None], allowed, horizon.duration, schedule.at_most_at_once)[0]
+
+
+def test_every_plan_keeps_the_rules(tmp_path):
+    """The optimised plan and every baseline: at most k cleanings at once, none in a closed period
+    (the allowed starts already exclude cleanings that would overlap one)."""
+    schedule = small_schedule(tmp_path, ("X-1", "X-2", "X-3"), 12, at_once=1, durations={"X-2": 2},
+                              not_allowed=[("2027-02-01", "2027-02-14")])
+    horizon, _ = build_horizon(schedule)
+    allowed = allowed_starts(schedule, horizon)
+    closed = np.zeros(horizon.steps, bool)
+    closed[4:6] = True
+    assert not allowed[:, 4:6].any() and not allowed[1, 3]  # X-2's two-week cleaning from step 3 would overlap
+    found = optimise(horizon, allowed, 1)
+    plans = [found.plan, *baseline_plans(horizon, allowed, 1, [4], {n: 0.0008 for n in horizon.exchangers}).values()]
+    for plan in plans:
+        assert feasible(plan[None], allowed, horizon.duration, 1)[0]
+        busy = march(horizon, plan[None]).out_of_service[0]
+        assert busy.sum(axis=0).max() <= 1 and not busy[:, closed].any()
+
+
+def test_a_horizon_without_fouling_equals_steady_simulations(tmp_path):
+    """Zero fouling growth and no cleaning: every step's fired duty equals a steady simulation of
+    the case at that step's settings and fouling; every step's energy balance closes to 1e-9."""
+    schedule = small_schedule(tmp_path, ("X-1", "X-3"), 5)
+    horizon, _ = build_horizon(schedule)
+    for name in horizon.exchangers:
+        law = horizon.laws[name]
+        horizon.laws[name] = type(law)("linear", {"r_f0": 0.0, "rate": 0.0}, {"r_f0": 0.0, "rate": 0.0}, law.initial)
+    plan = np.zeros((1, 2, 5), bool)
+    outcome = march(horizon, plan)
+    for s in range(5):
+        data = case_from_mapping(__import__("yaml").safe_load(SMALL_CASE))
+        for name in horizon.exchangers:
+            data.exchangers[name]["spec"].set_fouling("shell", horizon.laws[name].initial)
+            data.exchangers[name]["spec"].set_fouling("tube", 0.0)
+        steady = evaluate(data)
+        assert outcome.fired[0, s] == pytest.approx(float(steady.totals["fired_heater_duty_kw"][0]), rel=1e-10)
+    values = scenario_values(horizon, outcome.fouling, outcome.out_of_service)
+    assert np.max(evaluate(horizon.case, values).balance["relative_imbalance"]) < 1e-9
+
+
+def test_cleaning_resets_fouling_and_bypasses_the_exchanger(tmp_path):
+    """While out of service the exchanger's duty is zero (both sides bypassed) and its fouling does
+    not grow; it comes back clean (the law's value after a cleaning, zero here)."""
+    schedule = small_schedule(tmp_path, ("X-1",), 6, durations={"X-1": 2})
+    horizon, _ = build_horizon(schedule)
+    plan = np.zeros((1, 1, 6), bool)
+    plan[0, 0, 2] = True
+    outcome = march(horizon, plan)
+    assert outcome.out_of_service[0, 0].tolist() == [False, False, True, True, False, False]
+    rate, dt = 8.0e-6, 7.0
+    assert outcome.fouling[0, 0, 4] == pytest.approx(rate * dt / 2, rel=1e-12)  # clean at step 4's start
+    assert outcome.fouling[0, 0, 2] == outcome.fouling[0, 0, 3]
+    values = scenario_values(horizon, outcome.fouling, outcome.out_of_service)
+    duty = evaluate(horizon.case, values).reports["X-1"].metrics["duty"]
+    assert duty[2] == 0.0 and duty[3] == 0.0 and duty[1] > 0.0
