@@ -80,7 +80,7 @@ def build_network(case: Case, values: dict | None = None) -> Network:
     from .scenarios import apply_values
 
     segments, mixer_inlets = _segments(case)
-    units = _unit_models(case, mixer_inlets)
+    units = _unit_models(case, mixer_inlets, varied=bool(values))
     graph = nx.MultiDiGraph()
     for name, unit in units.items():
         graph.add_node(name, kind=unit.kind, key=case.keys[name] if name in case.keys else (name,))
@@ -127,9 +127,9 @@ def _segments(case: Case):
     return segments, mixer_inlets
 
 
-def _unit_models(case: Case, path_inlets) -> dict[str, protocol.UnitModel]:
+def _unit_models(case: Case, path_inlets, varied=True) -> dict[str, protocol.UnitModel]:
     """Each unit's model, built by its section's factory (:data:`.sections.UNIT_SECTIONS`)."""
-    building = Building(case, path_inlets)
+    building = Building(case, path_inlets, varied)
     return {name: section.build(name, _key(case, name), data, building)
             for section in registry.UNIT_SECTIONS for name, data in case.section(section.name).items()}
 

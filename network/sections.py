@@ -40,11 +40,13 @@ class Reading:
 
 @dataclass
 class Building:
-    """What a factory may use besides the entry's data: the case, and for units that many
-    paths end at (mixers) the names of their inlet ports in path order."""
+    """What a factory may use besides the entry's data: the case, for units that many paths end
+    at (mixers) the names of their inlet ports in path order, and whether scenario values will be
+    set on the units (then a unit must not share mutable data with the case)."""
 
     case: object
     path_inlets: dict
+    varied: bool = True
 
 
 @dataclass(frozen=True)
@@ -94,11 +96,11 @@ def _read_exchanger(f: Fields, reading: Reading) -> dict:
 
 
 def _build_exchanger(name, key, data, building):
-    # the unit gets its own copy of the spec: a scenario's values are set on the unit, and must
+    # where scenario values will be set on the unit it gets its own copy of the spec: they must
     # never change the case it was built from (the next network built from it starts afresh)
     s = building.case.settings
-    return Exchanger(name, key, copy.deepcopy(data["spec"]), minimum_approach=s.minimum_approach, minimum_f=s.minimum_f,
-                     limits=data["limits"])
+    spec = copy.deepcopy(data["spec"]) if building.varied else data["spec"]
+    return Exchanger(name, key, spec, minimum_approach=s.minimum_approach, minimum_f=s.minimum_f, limits=data["limits"])
 
 
 def _read_one_side_unit(f: Fields, heater: bool) -> dict:
