@@ -1,0 +1,91 @@
+"""``hxtrain monitor`` and ``hxtrain schedule`` as a user runs them: the reports, the files
+``--out`` writes, and bad input (exit 2 naming the file and key path, nothing written)."""
+
+import json
+import shutil
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+from cli_helpers import run_in_process
+from test_scheduling import small_schedule
+
+ROOT = Path(__file__).resolve().parents[1]
+MONITORING = ROOT / "cases" / "plant_data" / "crude_monitoring.yaml"
+
+
+@pytest.fixture(scope="module")
+def monitor_run(tmp_path_factory):
+    """One run of the demo shared by the tests that read its report and files."""
+    import contextlib
+    import io
+
+    from hxtrain.solver.cli.main import main
+
+    out = tmp_path_factory.mktemp("monitor") / "state.xlsx"
+    stdout, stderr = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(stdout), contextlib.redirect_stderr(stderr):
+        code = main(["monitor", str(MONITORING), "--out", str(out)])
+    return (code, stdout.getvalue(), stderr.getvalue()), out
+
+
+def test_monitor_prints_the_state_cost_instruments_and_limits(monitor_run):
+    (code, out, err), _ = monitor_run
+    assert code == 0, err
+    assert "Screening estimates" in out
+    for heading in ("Exchangers at 2026-12-31", "What fouling costs", "Instruments to check", "Cleanings",
+                    "Projection from", "LIMITS VIOLATED OR PROJECTED"):
+        assert heading in out, heading
+    instruments = out[out.index("Instruments to check"):out.index("Cleanings")]
+    assert instruments.splitlines()[4].split()[0] == "TI-206"  # the drifting thermocouple heads the list
+    assert out.rstrip().splitlines()[-1].startswith("wrote")
+    assert max(len(line) for line in out.splitlines() if not line.startswith("wrote")) <= 120
+
+
+def test_monitor_writes_its_tables(monitor_run):
+    (code, _, _), path = monitor_run
+    sheets = pd.read_excel(path, sheet_name=None)
+    for name in ("today", "state", "windows", "instruments", "cost", "fouling_laws", "cleanings", "projection",
+                 "limit_dates", "skipped_rows"):
+        assert any(s.startswith(name) for s in sheets), name
+
+
+def test_monitor_refuses_to_write_over_its_inputs(tmp_path, capsys):
+    folder = tmp_path / "plant"
+    shutil.copytree(MONITORING.parent, folder)
+    code, out, err = run_in_process(capsys, "monitor", folder / "crude_monitoring.yaml", "--out",
+                                    folder / "crude_history.csv")
+    assert code == 2 and "would replace an input" in err and "plant data" in err
+    assert (folder / "crude_history.csv").read_bytes() == (MONITORING.parent / "crude_history.csv").read_bytes()
+
+
+def test_monitor_names_the_file_and_key_of_bad_input(tmp_path, capsys):
+    text = MONITORING.read_text().replace("furnace_efficiency: 0.88", "furnace_efficiency: 1.7")
+    assert "1.7" in text
+    bad = tmp_path / "bad_monitoring.yaml"
+    bad.write_text(text.replace("data: crude_history.csv", f"data: {MONITORING.parent / 'crude_history.csv'}"))
+    code, out, err = run_in_process(capsys, "monitor", bad, "--out", tmp_path / "x.json")
+    assert code == 2 and str(bad) in err and "economics.furnace_efficiency" in err
+    assert "Traceback" not in err and not (tmp_path / "x.json").exists()
+
+
+def test_schedule_prints_the_plan_and_the_baselines(tmp_path, capsys):
+    schedule = small_schedule(tmp_path, ("X-1", "X-2", "X-3"), 10, durations={"X-2": 2})
+    out_file = tmp_path / "plan.json"
+    code, out, err = run_in_process(capsys, "schedule", schedule.file, "--out", out_file)
+    assert code == 0, err
+    for heading in ("Optimised plan", "Costs over the horizon", "no cleaning", "fouling threshold",
+                    "one-step ranking, greedily", "Search:"):
+        assert heading in out, heading
+    comparison = pd.DataFrame(json.loads(out_file.read_text())["comparison"]).set_index("plan")
+    assert comparison.index[0] == "optimised" and len(comparison) >= 4  # fixed intervals longer than 10 weeks drop out
+    assert comparison["total_cost"].min() == pytest.approx(comparison.loc["optimised", "total_cost"])
+
+
+def test_schedule_names_the_file_and_key_of_bad_input(tmp_path, capsys):
+    schedule = small_schedule(tmp_path, ("X-1", "X-2"), 6)
+    path = Path(schedule.file)
+    path.write_text(path.read_text().replace("at_most_at_once: 1", "at_most_at_once: 0"))
+    code, out, err = run_in_process(capsys, "schedule", path)
+    assert code == 2 and str(path) in err and "cleaning.at_most_at_once" in err and "Traceback" not in err
