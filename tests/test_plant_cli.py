@@ -89,3 +89,10 @@ def test_schedule_names_the_file_and_key_of_bad_input(tmp_path, capsys):
     path.write_text(path.read_text().replace("at_most_at_once: 1", "at_most_at_once: 0"))
     code, out, err = run_in_process(capsys, "schedule", path)
     assert code == 2 and str(path) in err and "cleaning.at_most_at_once" in err and "Traceback" not in err
+
+
+def test_the_plant_data_benchmark_runs_and_reports_its_ratio(capsys):
+    """A smoke run (not a timed test): the figures are printed, every window reconciled."""
+    code, out, err = run_in_process(capsys, "benchmark", "--plant-data", "--windows", "60")
+    assert code == 0, err
+    assert "60 hourly windows" in out and "x the batch solve" in out and "windows reconciled: 60" in out

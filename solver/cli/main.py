@@ -119,6 +119,10 @@ def build_parser():
     bench.add_argument("--loop", type=int, default=5, help="single solves timed in the loop (default 5)")
     bench.add_argument("--workers", type=int, default=None,
                        help="processes for the split batch (default: the machine's CPU count)")
+    bench.add_argument("--plant-data", action="store_true",
+                       help="instead: reconcile and back-calculate a year of hourly plant-data windows of the crude "
+                            "demo, timed beside the batch solve of the same windows")
+    bench.add_argument("--windows", type=int, default=8760, help="windows for --plant-data (default 8760)")
     bench.add_argument("--debug", action="store_true", help="show tracebacks on errors")
     _subcommand(commands, "check", "validate a case file without simulating it",
                 "Read and check a case file: keys, values, units and connections.", ("case", None, "case file (YAML)"))
@@ -289,8 +293,13 @@ def _benchmark(args) -> int:
 
     from hxtrain.solver.simulation.benchmark import benchmark_text, run_benchmark
 
-    if args.scenarios < 2 or args.loop < 1 or (args.workers is not None and args.workers < 1):
-        raise CaseError("--scenarios must be at least 2, --loop and --workers at least 1")
+    if args.scenarios < 2 or args.loop < 1 or (args.workers is not None and args.workers < 1) or args.windows < 30:
+        raise CaseError("--scenarios must be at least 2, --loop and --workers at least 1, --windows at least 30")
+    if args.plant_data:
+        from hxtrain.solver.monitoring.benchmark import plant_data_benchmark_text, run_plant_data_benchmark
+
+        print(plant_data_benchmark_text(run_plant_data_benchmark(args.windows)))
+        return EXIT_OK
     print(benchmark_text(run_benchmark(args.scenarios, args.loop, args.workers)))
     return EXIT_OK
 

@@ -142,10 +142,18 @@ def _reconcile_chunk(out, rows, readings, used, sigma, start, alpha):
     ones blanked) and store what was found."""
     balances = out.balances
     x0, u0 = start
+    warm = {}
 
     def reconcile(measurements, picked):
-        return reconcile_nonlinear(measurements, sigma[picked], balances.constraints, balances.jacobian, u0,
-                                   measured_start=x0, step_tolerance=STEP_TOLERANCE)
+        # windows reconciled again after an elimination start from their last solution: only the
+        # eliminated measurement's neighbourhood moves, so a step or two finishes them
+        u_start = np.where(np.isfinite(warm["u"][picked]), warm["u"][picked], u0) if warm else u0
+        x_start = np.where(np.isfinite(warm["x"][picked]), warm["x"][picked], x0) if warm else x0
+        result = reconcile_nonlinear(measurements, sigma[picked], balances.constraints, balances.jacobian, u_start,
+                                     measured_start=x_start, step_tolerance=STEP_TOLERANCE)
+        if not warm:
+            warm.update(x=np.array(result["x"]), u=np.array(result["u"]))
+        return result
 
     found = serial_elimination(reconcile, used, alpha)
     result = found.result
