@@ -13,25 +13,31 @@ from hxtrain.solver.simulation.results import CAUTION
 
 from .text import boxed
 
-TREND_DAYS = 30
-"""The fouling trend is the least-squares slope over the last this many days of identifiable
-windows since the exchanger's last cleaning, per 30 days."""
+TREND_DAYS = 90
+"""The fouling trend is the weighted least-squares slope over the last this many days of
+identifiable windows since the exchanger's last cleaning, given per 30 days with its expanded
+uncertainty (k = 2): over a shorter span the noise of daily back-calculated fouling swamps it."""
 
 
-def fouling_trend(state: pd.DataFrame, cleanings: pd.DataFrame, days=TREND_DAYS) -> pd.Series:
-    """m²·K/W per 30 days for each exchanger, NaN with fewer than 3 usable windows."""
-    trends = {}
-    for unit, rows in state.groupby("unit"):
-        rows = rows[rows["status"].isin(["ok", "negative fouling"])]
-        if not rows.empty:
+def fouling_trend(state: pd.DataFrame, cleanings: pd.DataFrame, days=TREND_DAYS) -> pd.DataFrame:
+    """Per exchanger: ``trend_per_30_days`` (m²·K/W) and ``trend_plus_minus`` (k = 2), NaN with
+    fewer than 4 usable windows."""
+    rows = {}
+    for unit, table in state.groupby("unit"):
+        table = table[table["status"].isin(["ok", "negative fouling"])]
+        if not table.empty:
             since = _last_cleaning(cleanings, unit)
-            rows = rows[rows.index >= max(rows.index[-1] - pd.Timedelta(days=days), since)]
-        if len(rows) < 3:
-            trends[unit] = np.nan
+            table = table[table.index >= max(table.index[-1] - pd.Timedelta(days=days), since)]
+        if len(table) < 4:
+            rows[unit] = (np.nan, np.nan)
             continue
-        t = (rows.index - rows.index[0]) / pd.Timedelta(days=1)
-        trends[unit] = np.polyfit(np.asarray(t, float), rows["fouling"].to_numpy(), 1)[0] * 30.0
-    return pd.Series(trends, name="trend_per_30_days")
+        t = np.asarray((table.index - table.index[0]) / pd.Timedelta(days=1), float)
+        w = 1.0 / table["fouling_sigma"].to_numpy() ** 2
+        tm = np.sum(w * t) / np.sum(w)
+        sxx = np.sum(w * (t - tm) ** 2)
+        slope = np.sum(w * (t - tm) * table["fouling"].to_numpy()) / sxx
+        rows[unit] = (30.0 * slope, 2.0 * 30.0 / np.sqrt(sxx))
+    return pd.DataFrame.from_dict(rows, orient="index", columns=["trend_per_30_days", "trend_plus_minus"])
 
 
 def _last_cleaning(cleanings, unit):
@@ -44,7 +50,7 @@ def _last_cleaning(cleanings, unit):
 WIDTH = 118
 """Console lines are kept within 120 columns."""
 HEADINGS = {"duty_kw": "duty kW", "u_w_m2k": "U", "u_clean_w_m2k": "U clean", "fouling_m2k_w": "R_f",
-            "plus_minus_95": "± (95 %)", "trend_per_30_days": "trend/30 d", "law": "law",
+            "plus_minus_95": "± (95 %)", "trend_per_30_days": "trend/30 d", "trend_plus_minus": "±", "law": "law",
             "share_of_cost": "cost share", "status": "status"}
 
 
@@ -60,7 +66,9 @@ def today_table(result) -> pd.DataFrame:
     table["u_clean_w_m2k"] = today["u_clean"]
     table["fouling_m2k_w"] = today["fouling"]
     table["plus_minus_95"] = today.get("fouling_expanded")
-    table["trend_per_30_days"] = fouling_trend(result.state, result.cleanings).reindex(table.index)
+    trend = fouling_trend(result.state, result.cleanings).reindex(table.index)
+    table["trend_per_30_days"] = trend["trend_per_30_days"]
+    table["trend_plus_minus"] = trend["trend_plus_minus"]
     if not result.fits.empty:
         chosen = result.fits[result.fits["chosen"]].set_index("exchanger")["model"]
         table["law"] = chosen.reindex(table.index).fillna("none determined")
@@ -88,7 +96,8 @@ def monitoring_report(result) -> str:
     if not today.empty:
         parts += ["", f"Exchangers at {_day(_last(result))} "
                       "(fouling on the outside area; ± is the 95 % expanded uncertainty, k = 2)",
-                  "(U in W/m²·K; R_f, its uncertainty and trend in m²·K/W; cost share: of the fired duty fouling costs)",
+                  "(U in W/m²·K; R_f, ± and its trend over the last 90 days in m²·K/W; cost share: of the fired duty "
+                  "fouling costs)",
                   _table(today.rename(columns=HEADINGS).assign(**{"cost share": _percent(today.get("share_of_cost"))}))]
     parts += _cost_lines(result, currency)
     if not result.instruments.empty:
