@@ -41,12 +41,12 @@ def schedule_report(result) -> str:
     cleanable = int(sum(1 for n in horizon.exchangers if n in schedule.cleaning and schedule.cleaning[n].allowed))
     parts = [f"hxtrain schedule: {schedule.title or schedule.file}", f"schedule file: {schedule.file}",
              *textwrap.wrap(f"NOTE: {CAUTION}", WIDTH, subsequent_indent="      "), "",
-             f"Horizon: {_day(horizon.times[0])} to {_day(end)}, {horizon.steps} steps of {horizon.step_days:g} days; "
-             f"{len(horizon.exchangers)} exchangers with fouling laws, {cleanable} may be cleaned, at most "
+             f"Horizon: {_day(horizon.times[0])} to {_day(end)}, {horizon.steps} steps of {horizon.step_days:g} days",
+             f"  {len(horizon.exchangers)} exchangers with fouling laws, {cleanable} may be cleaned, at most "
              f"{schedule.at_most_at_once} at once"]
     for first, last, why in schedule.not_allowed:
-        parts.append(f"  no cleaning from {_day(horizon.start + first * schedule.step)} to "
-                     f"{_day(horizon.start + (last + 1) * schedule.step - pd.Timedelta(days=1))}: {why}")
+        parts.append(f"  no cleaning in the steps from {_day(horizon.start + first * schedule.step)} to "
+                     f"{_day(horizon.start + (last + 1) * schedule.step - pd.Timedelta(days=1))} (whole steps): {why}")
     if schedule.furnace is not None:
         f = schedule.furnace
         parts.append(f"  {f.heater} fires at most {f.maximum_duty / 1000:,.2f} MW; beyond it {f.throughput} is cut, "
@@ -61,8 +61,8 @@ def schedule_report(result) -> str:
     parts += ["", f"Costs over the horizon ({currency}; saves: the optimised plan's total less the plan's; share: "
                   "of that plan's cost of fouling)", _cost_text(result.comparison)]
     history = result.search
-    parts += ["", f"Search: {int(history['plans_marched'].sum())} plans marched in {result.seconds:,.0f} s "
-                  f"({len(history)} rounds: cycle MILP about the trajectory, then local search on the network)"]
+    parts += ["", f"Search: {int(history['plans_marched'].sum())} plans marched in {result.seconds:,.0f} s, "
+                  f"{len(history)} rounds", "  (cycle MILP about each trajectory, then local search on the network)"]
     parts += boxed("LIMITS THE OPTIMISED PLAN VIOLATES", _limit_lines(result), count=len(result.limits))
     return "\n".join(parts)
 
