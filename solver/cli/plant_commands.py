@@ -1,13 +1,12 @@
 """``hxtrain monitor`` and ``hxtrain schedule``: the train's state from plant data, and the
 cleaning plan of least cost. Both print a report, write their tables with ``--out`` before
-printing, and show their stages on standard error when it is a terminal."""
+printing, and show a progress bar on standard error when it is a terminal."""
 
 from __future__ import annotations
 
 import sys
-import time
 
-MONITOR_TABLES = ("today", "state", "windows", "instruments", "persistently_off", "removed", "cost", "cost_shares",
+MONITOR_TABLES = ("today", "state", "windows", "measurements", "unmeasured", "instruments", "persistently_off", "removed", "cost", "cost_shares",
                   "fouling_laws", "cleanings", "projection", "limit_dates", "skipped_rows")
 SCHEDULE_TABLES = ("plan", "plan_by_month", "comparison", "steps", "fouling_laws", "search", "limits")
 
@@ -28,17 +27,27 @@ def add_parsers(commands, subcommand):
                "greedily.", ("schedule", None, "schedule file (YAML), e.g. cases/crude_schedule.yaml"), out=True)
 
 
+class _Progress:
+    """A progress bar on standard error when it is a terminal (tqdm): each stage or search round
+    moves it on and names itself, with the best cost so far where there is one."""
+
+    def __init__(self):
+        from tqdm import tqdm
+
+        self.bar = tqdm(total=None, desc="starting", unit=" step", leave=False, file=sys.stderr)
+
+    def __call__(self, stage, *more):
+        self.bar.set_description(str(stage))
+        detail = [m for m in more if m not in (None, 0)]
+        self.bar.set_postfix_str(" ".join(f"{m:,.0f}" if isinstance(m, float) else str(m) for m in detail))
+        self.bar.update(1)
+
+    def close(self):
+        self.bar.close()
+
+
 def _progress():
-    """Stage lines on standard error when it is a terminal; nothing otherwise."""
-    if not sys.stderr.isatty():
-        return None
-    started = time.perf_counter()
-
-    def say(stage, *more):
-        detail = " ".join(str(m) for m in more if m not in (None, 0))
-        print(f"  [{time.perf_counter() - started:6.1f} s] {stage} {detail}".rstrip(), file=sys.stderr, flush=True)
-
-    return say
+    return _Progress() if sys.stderr.isatty() else None
 
 
 def _file_command(args, write, say_written, loaded, inputs, table_names, compute, report, tables, notes) -> int:
@@ -49,7 +58,12 @@ def _file_command(args, write, say_written, loaded, inputs, table_names, compute
 
     if args.out:
         check_output_path(args.out, inputs, list(table_names))
-    result = compute(loaded, progress=_progress())
+    progress = _progress()
+    try:
+        result = compute(loaded, progress=progress)
+    finally:
+        if progress is not None:
+            progress.close()
     written = write(tables(result), args, {**notes, "caution": CAUTION}, inputs)
     print(report(result))
     say_written(written)

@@ -59,6 +59,12 @@ class MonitoringResult:
     """Per (tag, period): a measurement that read persistently off the others (a drift or a
     calibration error too small for one window's test), its mean bias; left out of the
     reconciliation over that period."""
+    measurements: pd.DataFrame = field(default_factory=pd.DataFrame)
+    """Per tag: what it measures, windows used, the share of them in which the balances check it
+    (redundant), its mean adjustment and mean standardised adjustment."""
+    unmeasured: pd.DataFrame = field(default_factory=pd.DataFrame)
+    """Per variable no tag measures: the share of windows in which the balances determine it
+    (observable)."""
     fits: pd.DataFrame = field(default_factory=pd.DataFrame)
     cleanings: pd.DataFrame = field(default_factory=pd.DataFrame)
     projection: pd.DataFrame = field(default_factory=pd.DataFrame)
@@ -102,7 +108,8 @@ def monitor(path_or_monitoring, *, progress=None) -> MonitoringResult:
     cost = fouling_cost(monitoring.case, states, index, days, monitoring.economics)
     shares = _cost_shares(monitoring.case, states, cost)
     result = MonitoringResult(monitoring, history, _window_table(windows, steady, states), state, flagged,
-                              _instruments(states, values, index, columns), cost, shares, drifts=drifts)
+                              _instruments(states, values, index, columns), cost, shares, drifts=drifts,
+                              measurements=_measurement_table(states, tags), unmeasured=_unmeasured_table(states))
     _fit_and_project(result, states, index, say)
     return result
 
@@ -147,6 +154,35 @@ def _flagged(states: WindowStates, index, columns) -> pd.DataFrame:
             for w, eliminated in enumerate(states.eliminated) for e in eliminated]
     frame = pd.DataFrame(rows, columns=["time", "tag", "statistic", "bias", "bias_sigma", "indistinguishable_from"])
     return frame.set_index("time")
+
+
+def _measurement_table(states: WindowStates, tags) -> pd.DataFrame:
+    """Redundancy by tag (module text of :class:`MonitoringResult`)."""
+    used = np.isfinite(states.adjustments)
+    windows = used.sum(axis=0)
+    with np.errstate(invalid="ignore"):
+        table = pd.DataFrame({
+            "quantity": [t.quantity for t in tags], "point": [t.point for t in tags], "windows_used": windows,
+            "redundant_share": np.where(windows > 0, (states.redundant & used).sum(axis=0) / np.maximum(windows, 1),
+                                        np.nan),
+            "mean_adjustment": np.nanmean(np.where(used, states.adjustments, np.nan), axis=0),
+            "mean_standardised": np.nanmean(np.where(used, states.standardized, np.nan), axis=0)},
+            index=pd.Index([t.name for t in tags], name="tag"))
+    return table
+
+
+def _unmeasured_table(states: WindowStates) -> pd.DataFrame:
+    """Observability of every variable no tag measures: a segment's temperature or flow (named
+    by the segment) or a unit's own unknown (a heater's duty)."""
+    balances, net = states.balances, states.balances.net
+    rows = []
+    for c in balances.unmeasured:
+        variable = balances.variables[c]
+        what = (f"{variable.unit} {variable.name}" if variable.kind == UNKNOWN
+                else f"{variable.kind} of {net.segments[variable.index].label}")
+        determined = np.isfinite(states.values[:, c]) & states.success
+        rows.append({"variable": what, "observable_share": float(determined.mean()) if determined.size else np.nan})
+    return pd.DataFrame(rows, columns=["variable", "observable_share"]).set_index("variable")
 
 
 def _persistent_table(biased, values, states: WindowStates, index, columns) -> pd.DataFrame:

@@ -70,6 +70,8 @@ class WindowStates:
     difference's standard deviation; NaN where it was not measured or not redundant."""
     withheld: np.ndarray
     """(W, tags) left out of the window for reading persistently off the others."""
+    redundant: np.ndarray = None
+    """(W, tags) the balances check the measurement (it could be adjusted): redundant."""
 
 
 def start_values(net, evaluation) -> np.ndarray:
@@ -116,7 +118,8 @@ def reconcile_windows(net, evaluation, measured, values, sigma, alpha=DEFAULT_AL
     out = WindowStates(balances, np.full((windows, variables), np.nan), np.full((windows, variables, variables), np.nan),
                        np.zeros(windows, bool), np.full(windows, "", dtype=object), np.full(windows, np.nan),
                        np.zeros(windows, int), np.zeros(windows, bool), [[] for _ in range(windows)],
-                       np.full(values.shape, np.nan), np.full(values.shape, np.nan), np.zeros(values.shape, bool))
+                       np.full(values.shape, np.nan), np.full(values.shape, np.nan), np.zeros(values.shape, bool),
+                       np.zeros(values.shape, bool))
     _reconcile_rows(out, np.arange(windows), values, sigma, start, alpha)
     for _ in range(PERSISTENCE_ROUNDS if persistence else 0):
         statistic, critical = persistence_statistic(out, alpha=alpha)
@@ -175,6 +178,7 @@ def _reconcile_chunk(out, rows, readings, used, sigma, start, alpha):
     out.degrees_of_freedom[rows] = test.degrees_of_freedom
     out.passed[rows] = success & ~test.rejected
     measured = np.asarray(result["measured"], bool)
+    out.redundant[rows] = np.asarray(result["redundant"], bool)
     out.adjustments[rows] = np.where(measured, result["adjustments"], np.nan)
     standardized = measurement_test(result, alpha).standardized_adjustments
     # a measurement left out (withheld, or eliminated here): its reading against the value the

@@ -92,6 +92,7 @@ def monitoring_report(result) -> str:
     parts.append(f"Windows of {_duration(m.window)}: {len(windows)}; steady {steady}; reconciled "
                  f"{int(windows['reconciled'].sum())}; global test passed in {int(windows['passed'].sum())} "
                  f"(significance {m.significance:g})")
+    parts += _redundancy_lines(result)
     today = today_table(result)
     if not today.empty:
         parts += ["", f"Exchangers at {_day(_last(result))} "
@@ -117,6 +118,26 @@ def monitoring_report(result) -> str:
     wrapped = [part for line in limits for part in textwrap.wrap(line, WIDTH - 3, subsequent_indent="   ")]
     parts += boxed("LIMITS VIOLATED OR PROJECTED", wrapped, count=len(limits))
     return "\n".join(parts)
+
+
+def _redundancy_lines(result) -> list[str]:
+    """Which measurements the balances check and which unmeasured values they determine."""
+    table, unmeasured = result.measurements, result.unmeasured
+    if table is None or table.empty:
+        return []
+    checked = table["redundant_share"] >= 0.5
+    lines = [f"Redundancy: the balances check {int(checked.sum())} of {len(table)} tags in most windows"]
+    lone = table.index[~checked]
+    if len(lone):
+        lines += textwrap.wrap("  not checked (nothing else measures what they feed, so a fault there cannot be "
+                               "seen): " + ", ".join(lone), WIDTH, subsequent_indent="    ")
+    if unmeasured is not None and not unmeasured.empty:
+        hidden = unmeasured.index[unmeasured["observable_share"] < 0.5]
+        lines.append(f"  unmeasured values: {len(unmeasured)}, determined by the balances in most windows: "
+                     f"{len(unmeasured) - len(hidden)}")
+        if len(hidden):
+            lines += textwrap.wrap("  not determined: " + "; ".join(hidden), WIDTH, subsequent_indent="    ")
+    return lines
 
 
 def _skipped_lines(skipped: pd.DataFrame) -> list[str]:
@@ -225,6 +246,7 @@ def monitoring_tables(result) -> dict:
     if "held" in fits:
         fits["held"] = fits["held"].map(lambda h: ", ".join(h) if isinstance(h, (tuple, list)) else h)
     return {"today": today_table(result), "state": result.state, "windows": result.windows,
+            "measurements": result.measurements, "unmeasured": result.unmeasured,
             "instruments": result.instruments, "persistently_off": result.drifts, "removed": result.flagged,
             "cost": result.cost, "cost_shares": result.shares, "fouling_laws": fits, "cleanings": result.cleanings,
             "projection": result.projection, "limit_dates": result.limit_dates, "skipped_rows": result.history.skipped}

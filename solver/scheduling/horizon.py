@@ -293,23 +293,30 @@ def _cut_throughput(horizon, fouling, busy, throughput, rating: Rating):
 
 
 def plan_costs(horizon: Horizon, plans, fired, throughput, limits, success) -> pd.DataFrame:
-    """The cost lines of each plan over the horizon (NaN for a plan without an answer)."""
-    economics, days = horizon.economics, horizon.step_days
-    seconds = days * 86_400.0
-    fuel = np.nansum(fired, axis=1) * seconds / 1e6 / economics["furnace_efficiency"]
-    co2 = fuel * economics["co2_per_fuel"] / 1000.0
+    """The cost lines of each plan over the horizon (NaN for a plan without an answer): each
+    step's lines (:func:`step_lines`) added up, and the cleanings."""
+    lines = step_lines(horizon, fired, throughput)
     cleanings = plans.sum(axis=2)
-    cleaning_cost = (cleanings * horizon.cleaning_cost[None, :]).sum(axis=1)
-    lost = np.zeros(plans.shape[0])
-    if horizon.furnace is not None:
-        planned = np.asarray(horizon.settings.get(horizon.furnace.throughput, np.zeros(plans.shape[2])), float)
-        lost = ((1.0 - throughput) * planned[None, :]).sum(axis=1) * seconds / 1000.0
-    lost_value = horizon.furnace.lost_value if horizon.furnace is not None else 0.0
-    table = pd.DataFrame({
-        "cleanings": cleanings.sum(axis=1), "cleaning_cost": cleaning_cost, "fuel_gj": fuel,
-        "fuel_cost": fuel * economics["fuel_price"], "co2_t": co2, "co2_cost": co2 * economics.get("co2_price", 0.0),
-        "lost_throughput_t": lost, "lost_throughput_cost": lost * lost_value,
-        "limit_steps": (limits > 0).sum(axis=1)})
+    table = pd.DataFrame({"cleanings": cleanings.sum(axis=1),
+                          "cleaning_cost": (cleanings * horizon.cleaning_cost[None, :]).sum(axis=1),
+                          **{k: np.nansum(v, axis=1) for k, v in lines.items()},
+                          "limit_steps": (limits > 0).sum(axis=1)})
     table["total_cost"] = table[["cleaning_cost", "fuel_cost", "co2_cost", "lost_throughput_cost"]].sum(axis=1)
     table.loc[~np.asarray(success), ["fuel_gj", "fuel_cost", "co2_t", "co2_cost", "total_cost"]] = np.nan
     return table
+
+
+def step_lines(horizon: Horizon, fired, throughput) -> dict:
+    """Each step's fuel (GJ) and its cost, CO₂ (t) and its cost, the throughput not processed (t)
+    and its value: arrays shaped like ``fired`` (plans, steps)."""
+    economics, seconds = horizon.economics, horizon.step_days * 86_400.0
+    fuel = np.asarray(fired, float) * seconds / 1e6 / economics["furnace_efficiency"]
+    co2 = fuel * economics["co2_per_fuel"] / 1000.0
+    lost = np.zeros_like(fuel)
+    if horizon.furnace is not None:
+        planned = np.asarray(horizon.settings.get(horizon.furnace.throughput, np.zeros(fuel.shape[-1])), float)
+        lost = (1.0 - np.asarray(throughput)) * planned * seconds / 1000.0
+    lost_value = horizon.furnace.lost_value if horizon.furnace is not None else 0.0
+    return {"fuel_gj": fuel, "fuel_cost": fuel * economics["fuel_price"], "co2_t": co2,
+            "co2_cost": co2 * economics.get("co2_price", 0.0), "lost_throughput_t": lost,
+            "lost_throughput_cost": lost * lost_value}

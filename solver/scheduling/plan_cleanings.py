@@ -20,7 +20,7 @@ from hxtrain.network.schedule_file import ScheduleFile, load_schedule
 from hxtrain.units.protocol import FIRED_HEATERS
 
 from .baselines import baseline_plans
-from .horizon import ExchangerLaw, Horizon, march, scenario_values
+from .horizon import ExchangerLaw, Horizon, march, scenario_values, step_lines
 from .linearised_costs import _conditions_of
 from .optimiser import Search, optimise
 from .setup import allowed_starts, build_horizon
@@ -126,6 +126,8 @@ def _step_table(horizon: Horizon, search: Search) -> pd.DataFrame:
             table[f"{name}.fired_duty_kw"] = report.metrics["duty"]
             table[f"{name}.inlet_c"] = report.metrics["inlet"]
     table["throughput_share"] = outcome.throughput[0]
+    for column, values in step_lines(horizon, outcome.fired[:1], outcome.throughput[:1]).items():
+        table[column] = values[0]
     table["limits_violated"] = outcome.limits[0]
     rows = []
     for unit, finding in evaluation.findings:
