@@ -31,7 +31,7 @@ DAYS = np.arange(365.0)
 START = pd.Timestamp("2026-01-01")
 
 
-def history_table(series: dict, sigma=5e-5, status="ok") -> pd.DataFrame:
+def history_table(series: dict, sigma=5e-5, status="identified") -> pd.DataFrame:
     """Rows as plant_state.conditions gives them: one per (day, exchanger)."""
     index = START + pd.to_timedelta(DAYS, unit="D")
     frames = [pd.DataFrame({"unit": name, "fouling": values, "fouling_sigma": sigma, "identifiable": True,
@@ -158,15 +158,18 @@ def test_cleanings_logged_detected_both_and_passing_outliers():
 
 
 def test_windows_left_out_are_counted_by_reason():
-    """Rows not identifiable or without a fouling value are left out and counted; negative
-    values are kept (leaving them out would bias a fit near a cleaning upward)."""
+    """Rows without a fouling value are left out and counted; negative values and rows the
+    instruments resolve poorly (not identifiable) are kept, weighted by their uncertainty (leaving
+    them out would bias a fit near a cleaning upward, or select windows by their noise)."""
     table = history_table({"A": linear_fouling(DAYS, 2e-6, 0.0)})
     table.iloc[:10, table.columns.get_loc("status")] = "negative fouling"
+    table.iloc[10:15, table.columns.get_loc("status")] = "not identifiable"
     table.iloc[10:15, table.columns.get_loc("identifiable")] = False
     table.iloc[15:17, table.columns.get_loc("status")] = "no reconciled data in this window"
+    table.iloc[17:19, table.columns.get_loc("fouling_sigma")] = np.nan
     row = fit_fouling(table, models=("linear",)).fits.iloc[0]
-    assert row["points"] == 365 - 7
-    assert row["left_out"] == "5 not identifiable, 2 no reconciled data in this window"
+    assert row["points"] == 365 - 4
+    assert row["left_out"] == "2 no reconciled data in this window, 2 no uncertainty"
 
 
 def test_tube_side_conditions_against_outside_relations():

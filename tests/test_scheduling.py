@@ -96,9 +96,9 @@ def test_the_optimiser_finds_the_exhaustive_optimum(tmp_path, setting):
     allowed = allowed_starts(schedule, horizon)
     plans = every_plan(allowed, horizon.duration, schedule.at_most_at_once)
     assert len(plans) > 50
-    totals = march(horizon, plans).costs["total_cost"].to_numpy()
-    found = optimise(horizon, allowed, schedule.at_most_at_once)
-    assert found.outcome.costs["total_cost"].iloc[0] == pytest.approx(totals.min(), rel=1e-9)
+    found = optimise(horizon, allowed, schedule.at_most_at_once)  # sets the reference of new limit violations
+    objective = march(horizon, plans).costs["objective"].to_numpy()
+    assert found.outcome.costs["objective"].iloc[0] == pytest.approx(objective.min(), rel=1e-9)
     assert feasible(found.plan[None], allowed, horizon.duration, schedule.at_most_at_once)[0]
 
 
@@ -156,3 +156,34 @@ def test_cleaning_resets_fouling_and_bypasses_the_exchanger(tmp_path):
     values = scenario_values(horizon, outcome.fouling, outcome.out_of_service)
     duty = evaluate(horizon.case, values).reports["X-1"].metrics["duty"]
     assert duty[2] == 0.0 and duty[3] == 0.0 and duty[1] > 0.0
+
+
+def test_a_cleaning_that_breaks_a_design_limit_is_refused(tmp_path):
+    """X-3's cold side may not pass a design temperature that the fouled train keeps but a clean
+    X-3 would break: with new limit violations refused (the default) the plan never cleans X-3;
+    allowing new violations, a cheaper plan that cleans X-3 is taken."""
+    schedule = small_schedule(tmp_path, ("X-1", "X-3"), 26)
+    horizon, _ = build_horizon(schedule)
+    horizon.cleaning_cost = np.array([100.0, 100.0])  # cheap cleanings: cleaning X-3 pays unless refused
+    allowed = allowed_starts(schedule, horizon)
+    fouled = march(horizon, np.zeros((1,) + allowed.shape, bool))
+    clean_x3 = np.zeros((1,) + allowed.shape, bool)
+    clean_x3[0, 1, 0] = True
+    cleaned = march(horizon, clean_x3)
+    # a design temperature between X-3's hottest cold outlet fouled and cleaned
+    t_fouled = _hottest_cold_outlet(horizon, fouled, "X-3")
+    t_clean = _hottest_cold_outlet(horizon, cleaned, "X-3")
+    assert t_clean > t_fouled + 1.0
+    spec = horizon.case.exchangers["X-3"]
+    spec["limits"]["design_temperature"] = {"cold": 0.5 * (t_fouled + t_clean)}
+    refused = optimise(horizon, allowed, 1)
+    assert not refused.plan[1].any() and refused.outcome.costs["new_limit_steps"].iloc[0] == 0
+    horizon.new_limits_allowed = True
+    allowed_plan = optimise(horizon, allowed, 1)
+    assert allowed_plan.plan[1].any()
+    assert allowed_plan.outcome.costs["total_cost"].iloc[0] < refused.outcome.costs["total_cost"].iloc[0]
+
+
+def _hottest_cold_outlet(horizon, outcome, name):
+    values = scenario_values(horizon, outcome.fouling, outcome.out_of_service)
+    return float(np.max(evaluate(horizon.case, values).reports[name].metrics["cold_out"]))

@@ -2,8 +2,10 @@ r"""Fouling models fitted to each exchanger's back-calculated fouling history si
 cleaning, and the cleanings themselves: logged, and found in the data as steps.
 
 **Data.** Rows as :func:`.plant_state.conditions` gives them. A window is fitted when its
-fouling was found (status ``ok`` or ``negative fouling``) and is identifiable; the others are
-counted by reason. Negative values stay in: after a cleaning noise scatters the fouling about
+fouling was found with a finite uncertainty (status ``identified``, ``negative fouling`` or
+``not identifiable``), weighted by that uncertainty: a window the instruments resolve poorly
+counts little, and leaving it out would select windows by their noise; the others are counted by
+reason. Negative values stay in: after a cleaning noise scatters the fouling about
 zero, and leaving out the negative half would bias the fit upward.
 
 **Cleanings.** Logged in the monitoring file, or detected as a *step*: a fall between consecutive
@@ -19,8 +21,11 @@ within the bounds of :data:`hxtrain.units.fouling_models.MODELS`), residuals
 :math:`(R_{model}(t_k) - R_k)/\sigma_k`, t in days since the cleaning, ``r_f0`` the fouling then;
 parameters scaled by typical sizes from the data, several starts, the best kept. Covariance
 :math:`s^2 (J^TJ)^{-1}`, J the Jacobian of the weighted residuals at the solution, :math:`s^2` the
-reduced chi-square where it exceeds 1 (more scatter than the stated uncertainties: they are
-scaled up), else 1 [1]_. A parameter is *determined* when its standard error is finite, it is
+reduced chi-square: the weights fix the windows' relative uncertainties, the scatter about the
+fit their scale (``absolute_sigma=False`` of ``scipy.optimize.curve_fit``, its default [1]_) — the
+stated instrument uncertainties include calibration errors that do not scatter from window to
+window, so they overstate the scatter of a fouling history, and taken as absolute they would
+leave well-determined laws looking undetermined. A parameter is *determined* when its standard error is finite, it is
 not at a bound and (``r_f0`` apart) it lies :data:`DETERMINED_T` standard errors from zero. The
 model **chosen** has the smallest :math:`AIC_c = n\ln(\chi^2/n) + 2k + 2k(k+1)/(n-k-1)`, k = fitted
 parameters + 1, among models whose fitted parameters are all determined [2]_ [3]_.
@@ -83,7 +88,7 @@ service for days, and the log may carry the day the work was booked (common prac
 DETERMINED_T = 2.0
 """A parameter is determined when it is at least this many standard errors from zero (about
 95 % two-sided, common practice)."""
-FITTED_STATUSES = ("ok", "negative fouling")
+FITTED_STATUSES = ("identified", "negative fouling", "not identifiable")
 HELD = {"ebert_panchal": {"beta": -0.66, "activation_energy": 68e3}, "polley": {"activation_energy": 68e3}}
 """Held at published values unless freed: Ebert & Panchal's beta = -0.66 and E = 68 kJ/mol (from
 memory); Polley's form with the same E (an assumption: a year of data rarely separates E)."""
@@ -264,7 +269,7 @@ def fit_history(name, days, r_f, sigma, grid=None, conditions=None, hold=None) -
                               method="trf", x_scale="jac")
         best = found if best is None or found.cost < best.cost else best
     x, chi2 = best.x * form.scale, 2.0 * best.cost
-    s2 = max(chi2 / (n - p), 1.0)
+    s2 = chi2 / (n - p)
     _, singular, vt = np.linalg.svd(best.jac.T @ best.jac)
     kept = singular > 1e-10 * singular[0]
     covariance = s2 * (vt[kept].T / singular[kept]) @ vt[kept]  # in the scaled variables z
@@ -282,8 +287,12 @@ def fit_history(name, days, r_f, sigma, grid=None, conditions=None, hold=None) -
     determined = not at_bound and all(np.isfinite(internal_se[i]) and (
         form.names[i] == "r_f0" or abs(x[i]) >= DETERMINED_T * internal_se[i]) for i in range(p))
     fitted, k = form.curve(x, days), p + 1
+    weak = [f"{form.names[i]} ({abs(x[i]) / internal_se[i]:.1f} standard errors from zero)"
+            if np.isfinite(internal_se[i]) else f"{form.names[i]} (not fixed by the data)"
+            for i in range(p) if form.names[i] != "r_f0" and not (
+                np.isfinite(internal_se[i]) and abs(x[i]) >= DETERMINED_T * internal_se[i])]
     notes = [f"at a bound: {', '.join(at_bound)}" if at_bound else "",
-             f"standard errors scaled by the reduced chi-square {chi2 / (n - p):.2f}" if s2 > 1.0 else "",
+             f"not determined: {', '.join(weak)}" if weak else "",
              "alpha's standard error is linearized through exp(E/RT): with E free it understates the spread"
              if "activation_energy" in form.names else ""]
     out.update(held=form.held, parameters={n: float(v) for n, v in params.items()},
@@ -316,8 +325,8 @@ class FoulingFits:
 
 
 def _usable(table: pd.DataFrame) -> np.ndarray:
-    return (table["status"].isin(FITTED_STATUSES) & table["identifiable"].astype(bool)
-            & np.isfinite(table["fouling"]) & (table["fouling_sigma"] > 0)).to_numpy()
+    return (table["status"].isin(FITTED_STATUSES) & np.isfinite(table["fouling"])
+            & np.isfinite(table["fouling_sigma"]) & (table["fouling_sigma"] > 0)).to_numpy()
 
 
 def find_cleanings(table: pd.DataFrame, logged=(), step_sigmas=STEP_SIGMAS, match_days=MATCH_DAYS) -> pd.DataFrame:
@@ -383,8 +392,9 @@ def fit_fouling(table: pd.DataFrame, logged=(), net=None, models=tuple(MODELS), 
         since = starts.max() if len(starts) else times.min()
         segment = mine & (table.index >= since)
         part, used = table[segment], usable[segment]
-        reasons = np.where(~part["identifiable"].astype(bool) & part["status"].isin(FITTED_STATUSES),
-                           "not identifiable", part["status"].astype(str))
+        fitted_status = part["status"].isin(FITTED_STATUSES).to_numpy()
+        reasons = np.where(~fitted_status, part["status"].astype(str).to_numpy(),
+                           np.where(np.isfinite(part["fouling"].to_numpy(float)), "no uncertainty", "no value"))
         left_out = ", ".join(f"{v} {k}" for k, v in pd.Series(reasons[~used]).value_counts().items())
         all_days = ((part.index - since) / day).to_numpy(float)
         days, r_f, sigma = all_days[used], part["fouling"].to_numpy(float)[used], part["fouling_sigma"].to_numpy(float)[used]

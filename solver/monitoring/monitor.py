@@ -19,6 +19,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from hxtrain.network.errors import CaseError
 from hxtrain.network.monitoring_file import MonitoringFile, load_monitoring
 from hxtrain.solver.simulation.evaluation import evaluate
 
@@ -69,6 +70,8 @@ class MonitoringResult:
     cleanings: pd.DataFrame = field(default_factory=pd.DataFrame)
     projection: pd.DataFrame = field(default_factory=pd.DataFrame)
     limit_dates: pd.DataFrame = field(default_factory=pd.DataFrame)
+    notes: list = field(default_factory=list)
+    """What could not be done, and why (shown in the report)."""
 
     def today(self) -> pd.DataFrame:
         """The state of each exchanger at the last reconciled window."""
@@ -91,6 +94,12 @@ def monitor(path_or_monitoring, *, progress=None) -> MonitoringResult:
     tags = list(monitoring.tags.values())
     steady = windows.steady.to_numpy()
     index = windows.mean.index[steady]
+    if not steady.any():
+        reasons = windows.reason[windows.reason != ""].value_counts()
+        why = "; ".join(f"{count} {reason}" for reason, count in reasons.head(3).items())
+        raise monitoring.error(("steady_state",), f"no steady window among {len(steady)} windows of "
+                                                  f"{monitoring.window}: nothing to reconcile ({why}); check the "
+                                                  "window and the steady_state thresholds against the data")
     say(f"reconciling {int(steady.sum())} steady windows")
     base = evaluate(monitoring.case)
     net = base.net
@@ -266,5 +275,12 @@ def _fit_and_project(result: MonitoringResult, states: WindowStates, index, say)
     result.fits, result.cleanings = found.fits, found.cleanings
     horizon, step = monitoring.projection or (DEFAULT_HORIZON, DEFAULT_STEP)
     say("projecting forward")
-    ahead = project(monitoring.case, states, index, found, monitoring.limits, horizon, step)
+    try:
+        ahead = project(monitoring.case, states, index, found, monitoring.limits, horizon, step)
+    except CaseError as exc:  # the state is still answered; only the projection has no start
+        result.notes.append(f"no projection: {exc.message}")
+        return
     result.projection, result.limit_dates = ahead.steps, ahead.limits
+    if not (result.fits.empty or result.fits["chosen"].any()):
+        result.notes.append("no fouling law was determined by the data: the projection holds every exchanger's "
+                            "last fouling")

@@ -27,9 +27,10 @@ from .reconciliation import reconcile_nonlinear
 CHUNK = 1024
 """Windows reconciled together: the stacked Jacobians and covariances of a chunk stay small."""
 IDENTIFIABLE_SHARE = 0.25
-"""An exchanger's fouling is identifiable when its standard uncertainty is at most this share of
-its clean resistance 1/U_clean (common practice: past it the instruments cannot tell a fouled
-exchanger from a clean one within a quarter of its U)."""
+"""An exchanger's fouling is identified when its expanded uncertainty (k = 2, about 95 %) is at
+most this share of its clean resistance 1/U_clean (common practice: past it the instruments
+cannot tell a fouled exchanger from a clean one within a quarter of its U)."""
+IDENTIFIED = "identified"
 STEP_TOLERANCE = 1e-7
 """A window has converged when, besides every balance closing to 1e-9 (scaled), the next step
 moves no variable by more than this share of its size plus its measurement's standard deviation:
@@ -230,7 +231,7 @@ def unit_states(states: WindowStates, name: str, z=None) -> PortStates:
 def conditions(states: WindowStates, index) -> pd.DataFrame:
     """Every unit's condition in every window (units that have one), one row per (time, unit):
     its values, the fouling's standard uncertainty and whether it is identifiable, and a status:
-    ``ok``, ``negative fouling`` (reported, never clipped: the clean model is optimistic or an
+    ``identified``, ``negative fouling`` (reported, never clipped: the clean model is optimistic or an
     instrument is wrong), ``not identifiable``, or the reason it has no value."""
     net = states.balances.net
     frames = []
@@ -245,12 +246,12 @@ def conditions(states: WindowStates, index) -> pd.DataFrame:
             table["fouling_sigma"] = sigma
             with np.errstate(divide="ignore"):
                 clean_resistance = 1.0 / table["u_clean"].to_numpy()
-            identifiable = sigma <= IDENTIFIABLE_SHARE * clean_resistance
+            identifiable = 2.0 * sigma <= IDENTIFIABLE_SHARE * clean_resistance
             table["identifiable"] = identifiable
             status = np.where(reason != "", reason, np.where(~identifiable, "not identifiable",
-                              np.where(table["fouling"] < 0.0, "negative fouling", "ok")))
+                              np.where(table["fouling"] < 0.0, "negative fouling", IDENTIFIED)))
         else:
-            status = np.where(reason != "", reason, "ok")
+            status = np.where(reason != "", reason, IDENTIFIED)
         table["status"] = status
         table.insert(0, "unit", name)
         frames.append(table)

@@ -38,6 +38,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from hxtrain.network.errors import CaseError
 from hxtrain.solver.simulation.evaluation import as_case, evaluate
 from hxtrain.units.fouling_models import MODELS
 from hxtrain.units.protocol import FIRED_HEATERS, PortStates
@@ -256,7 +257,10 @@ def project(case, states, index, fits, limits=None, horizon=DEFAULT_HORIZON, ste
     for v in values.values():
         complete &= np.isfinite(v)
     if not complete.any():
-        raise ValueError("no window has every setting determined by the plant data: nothing to project from")
+        first = next((u for u in undetermined if u), "")
+        raise CaseError("no window has every setting the simulation needs determined by the plant data, so the "
+                        "train cannot be projected" + (f" (for example {first}: measure it, or give it in the case)"
+                                                       if first else " (no window was reconciled)"))
     last = int(np.flatnonzero(complete)[-1])
     settings = {k: float(v[last]) for k, v in values.items()}
     start = pd.Timestamp(index[last])

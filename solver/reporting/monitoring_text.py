@@ -24,7 +24,7 @@ def fouling_trend(state: pd.DataFrame, cleanings: pd.DataFrame, days=TREND_DAYS)
     fewer than 4 usable windows."""
     rows = {}
     for unit, table in state.groupby("unit"):
-        table = table[table["status"].isin(["ok", "negative fouling"])]
+        table = table[table["status"].isin(["identified", "negative fouling"])]
         if not table.empty:
             since = _last_cleaning(cleanings, unit)
             table = table[table.index >= max(table.index[-1] - pd.Timedelta(days=days), since)]
@@ -89,7 +89,7 @@ def monitoring_report(result) -> str:
              f"to {_day(history.samples.index.max())}"]
     parts += _skipped_lines(history.skipped)
     steady = int(windows["steady"].sum())
-    parts.append(f"Windows of {_duration(m.window)}: {len(windows)}; steady {steady}; reconciled "
+    parts.append(f"Windows of {_duration(m.window)}: {len(windows):,}; steady {steady:,}; reconciled "
                  f"{int(windows['reconciled'].sum())}; global test passed in {int(windows['passed'].sum())} "
                  f"(significance {m.significance:g})")
     parts += _redundancy_lines(result)
@@ -97,8 +97,8 @@ def monitoring_report(result) -> str:
     if not today.empty:
         parts += ["", f"Exchangers at {_day(_last(result))} "
                       "(fouling on the outside area; ± is the 95 % expanded uncertainty, k = 2)",
-                  "(U in W/m²·K; R_f, ± and its trend over the last 90 days in m²·K/W; cost share: of the fired duty "
-                  "fouling costs)",
+                  "(U in W/m²·K; R_f, ± and its trend over the last 90 days in m²·K/W; cost share: the fired duty "
+                  "cleaning it alone saves,", " as a share of the sum of those savings)",
                   _table(today.rename(columns=HEADINGS).assign(**{"cost share": _percent(today.get("share_of_cost"))}))]
     parts += _cost_lines(result, currency)
     if not result.instruments.empty:
@@ -114,6 +114,8 @@ def monitoring_report(result) -> str:
         parts += ["", "Cleanings (logged, found in the data as a lasting drop, or both)",
                   shown.to_string(index=False, float_format=lambda v: f"{v:.3g}")]
     parts += _projection_lines(result)
+    for note in getattr(result, "notes", []):
+        parts += [""] + textwrap.wrap(f"Note: {note}", WIDTH)
     limits = _limit_lines(result)
     wrapped = [part for line in limits for part in textwrap.wrap(line, WIDTH - 3, subsequent_indent="   ")]
     parts += boxed("LIMITS VIOLATED OR PROJECTED", wrapped, count=len(limits))
@@ -158,6 +160,11 @@ def _last(result):
     return done[-1] if len(done) else result.windows.index[-1]
 
 
+def _count(n, word) -> str:
+    """``1 window``, ``2 windows``."""
+    return f"{n:,} {word}" + ("" if n == 1 else "s")
+
+
 def _percent(shares):
     if shares is None:
         return ""
@@ -186,7 +193,7 @@ def _table(frame: pd.DataFrame) -> str:
 
 
 def _cost_lines(result, currency):
-    cost = result.cost
+    cost, windows = result.cost, len(result.windows)
     answered = cost[cost["answer"] == "ok"]
     if answered.empty:
         return ["", "What fouling costs: no window with an answer"]
@@ -194,13 +201,14 @@ def _cost_lines(result, currency):
     lines = ["", f"What fouling costs at {_day(answered.index[-1])}: fired duty {last['fired_duty_fouled_kw']:,.0f} kW "
                  f"as fouled against {last['fired_duty_clean_kw']:,.0f} kW clean: {last['fouling_penalty_kw']:,.0f} kW"]
     if "cost_per_day" in cost:
-        lines.append(f"  fuel {last['fuel_gj_per_day']:,.1f} GJ/day, {last['cost_per_day']:,.0f} {currency}/day, "
-                     f"CO2 {last['co2_t_per_day']:,.2f} t/day")
-        lines.append(f"  over the data ({len(answered)} windows with an answer): {answered['cost_cumulative'].iloc[-1]:,.0f} "
-                     f"{currency}, CO2 {answered['co2_t_cumulative'].iloc[-1]:,.0f} t")
+        lines.append(f"  fuel {last['fuel_gj_per_day']:,.1f} GJ/day; {last['cost_per_day']:,.0f} {currency}/day for fuel "
+                     f"and CO2; CO2 {last['co2_t_per_day']:,.2f} t/day")
+        lines.append(f"  over the {_count(len(answered), 'steady window')} with an answer: "
+                     f"{answered['cost_cumulative'].iloc[-1]:,.0f} {currency}, CO2 {answered['co2_t_cumulative'].iloc[-1]:,.0f} t")
+        lines.append(f"  (of {_count(windows, 'window')} in the data: transient windows are not costed)")
     unanswered = len(cost) - len(answered)
     if unanswered:
-        lines.append(f"  {unanswered} windows have no cost: {cost.loc[cost['answer'] != 'ok', 'answer'].iloc[0]}")
+        lines.append(f"  {_count(unanswered, 'window')} without a cost: {cost.loc[cost['answer'] != 'ok', 'answer'].iloc[0]}")
     mismatch = cost["model_mismatch_k"].dropna()
     if len(mismatch):
         lines.append(f"  the fouled simulation reproduces the reconciled temperatures to {mismatch.median():.2f} K "

@@ -11,13 +11,13 @@ import pandas as pd
 
 from hxtrain.solver.simulation.results import CAUTION
 
-from .monitoring_text import WIDTH
+from .monitoring_text import WIDTH, _count
 from .text import boxed
 
 COST_HEADINGS = {"cleanings": "cleanings", "cleaning_cost": "cleaning", "fuel_gj": "fuel GJ", "fuel_cost": "fuel",
                  "co2_t": "CO2 t", "co2_cost": "CO2", "lost_throughput_t": "lost t", "lost_throughput_cost": "lost",
                  "total_cost": "total", "optimised_saves": "saves", "saving_share_of_fouling_cost": "share",
-                 "limit_steps": "limit steps"}
+                 "limit_steps": "limit steps", "new_limit_steps": "new"}
 
 
 def plan_grid(result) -> pd.DataFrame:
@@ -41,7 +41,8 @@ def schedule_report(result) -> str:
     cleanable = int(sum(1 for n in horizon.exchangers if n in schedule.cleaning and schedule.cleaning[n].allowed))
     parts = [f"hxtrain schedule: {schedule.title or schedule.file}", f"schedule file: {schedule.file}",
              *textwrap.wrap(f"NOTE: {CAUTION}", WIDTH, subsequent_indent="      "), "",
-             f"Horizon: {_day(horizon.times[0])} to {_day(end)}, {horizon.steps} steps of {horizon.step_days:g} days",
+             f"Horizon: {_day(horizon.times[0])} to {_day(end)}, {_count(horizon.steps, 'step')} of "
+             f"{_count(horizon.step_days, 'day') if horizon.step_days == int(horizon.step_days) else f'{horizon.step_days:g} days'}",
              f"  {len(horizon.exchangers)} exchangers with fouling laws, {cleanable} may be cleaned, at most "
              f"{schedule.at_most_at_once} at once"]
     for first, last, why in schedule.not_allowed:
@@ -52,17 +53,20 @@ def schedule_report(result) -> str:
         parts.append(f"  {f.heater} fires at most {f.maximum_duty / 1000:,.2f} MW; beyond it {f.throughput} is cut, "
                      f"{f.lost_value:g} {currency} a tonne not processed")
     parts += ["", "Fouling laws", result.laws.to_string(float_format=lambda v: f"{v:.3g}")]
-    parts += ["", f"Optimised plan: {len(result.plan)} cleanings ({result.plan['cost'].sum():,.0f} {currency}); "
+    parts += ["", f"Optimised plan: {_count(len(result.plan), 'cleaning')} ({result.plan['cost'].sum():,.0f} {currency}); "
                   "## = out of service for cleaning in that month", _grid_text(plan_grid(result))]
     if len(result.plan):
         shown = result.plan.assign(start=result.plan["start"].map(_day),
                                    back_in_service=result.plan["back_in_service"].map(_day))
         parts += ["", shown.to_string(index=False, float_format=lambda v: f"{v:,.0f}")]
-    parts += ["", f"Costs over the horizon ({currency}; saves: the optimised plan's total less the plan's; share: "
-                  "of that plan's cost of fouling)", _cost_text(result.comparison)]
+    rule = ("new limit violations are refused: a plan may not break a limit where the train with no cleaning "
+            "keeps it" if not horizon.new_limits_allowed else "new limit violations are allowed and only counted")
+    parts += ["", f"Costs over the horizon ({currency}; saves: the plan's total less the optimised plan's; share: "
+                  "of that plan's cost of fouling;", f"limit steps: steps with a limit violated; new: of them, "
+                  f"where no cleaning keeps the limit — {rule})", _cost_text(result.comparison)]
     history = result.search
-    parts += ["", f"Search: {int(history['plans_marched'].sum())} plans marched in {result.seconds:,.0f} s, "
-                  f"{len(history)} rounds", "  (cycle MILP about each trajectory, then local search on the network)"]
+    parts += ["", f"Search: {_count(int(history['plans_marched'].sum()), 'plan')} marched in {result.seconds:,.0f} s, "
+                  f"{_count(len(history), 'round')}", "  (cycle MILP about each trajectory, then local search on the network)"]
     parts += boxed("LIMITS THE OPTIMISED PLAN VIOLATES", _limit_lines(result), count=len(result.limits))
     return "\n".join(parts)
 
@@ -86,7 +90,7 @@ def _cost_text(comparison: pd.DataFrame) -> str:
     def fmt(value, column):
         if column == "share":
             return f"{100 * value:.0f} %" if np.isfinite(value) else ""
-        if column in ("cleanings", "limit steps"):
+        if column in ("cleanings", "limit steps", "new"):
             return f"{int(value)}"
         return f"{value / 1e6:,.2f} M" if abs(value) >= 1e6 else f"{value:,.0f}"
     shown = pd.DataFrame({c: [fmt(v, c) for v in table[c]] for c in table.columns}, index=table.index)

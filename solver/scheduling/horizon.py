@@ -80,6 +80,17 @@ class Horizon:
     economics: dict
     furnace: object = None
     start: pd.Timestamp = pd.Timestamp("2027-01-01")
+    new_limits_allowed: bool = False
+    """False: a plan may not violate a limit (a design temperature, a temperature cross, an
+    allowable pressure drop ...) at a step where the train with no cleaning does not — a cleaning
+    that breaks a design limit is no saving; such plans are ranked after every plan that keeps
+    the rule. True: limits are only counted."""
+    reference: dict = None
+    """Limit -> (S,) bool: where the train with no cleaning violates each limit (set by
+    :func:`set_reference`)."""
+    penalty: float = 0.0
+    """Money added to a plan's objective per step with a new limit violation: ten times the
+    no-cleaning plan's total cost where new violations are refused (set by :func:`set_reference`)."""
 
     @property
     def times(self) -> pd.DatetimeIndex:
@@ -101,6 +112,9 @@ class Outcome:
     """(P, S) share of the planned throughput processed (1 without a cut)."""
     limits: np.ndarray
     """(P, S) limits violated in the step."""
+    new_limits: np.ndarray
+    """(P, S) limits violated in the step that the train with no cleaning does not violate there
+    (all of them before a reference is set)."""
     success: np.ndarray
     """(P,) every step of the plan has an answer."""
     message: np.ndarray
@@ -109,6 +123,8 @@ class Outcome:
     total_cost, limit_steps."""
     conditions: dict = None
     """Threshold laws' conditions along each plan: exchanger -> name -> (P, S)."""
+    violations: dict = None
+    """Limit -> (P, S) bool: where each plan violates it."""
 
 
 def out_of_service(plans: np.ndarray, duration: np.ndarray) -> np.ndarray:
@@ -178,6 +194,8 @@ class Rating:
     success: np.ndarray
     message: np.ndarray
     conditions: dict
+    violations: dict = None
+    """Limit (unit, key path, kind, occurrence) -> (N,) bool: where it is violated."""
 
 
 def _adaptive(horizon) -> list:
@@ -193,12 +211,14 @@ def _rate(horizon: Horizon, values) -> Rating:
     adaptive = _adaptive(horizon)
     out = Rating(np.full(n, np.nan), np.zeros(n, int), np.zeros(n, bool), np.full(n, "", dtype=object),
                  {name: {q.name: np.full(n, np.nan) for q in MODELS[horizon.laws[name].model].conditions}
-                  for name in adaptive})
+                  for name in adaptive}, {})
     for start in range(0, n, CHUNK):
         part = slice(start, min(start + CHUNK, n))
         ev = evaluate(horizon.case, {k: v[part] for k, v in values.items()})
         out.fired[part] = np.where(ev.success, ev.totals[FIRED_HEATERS], np.nan)
         out.limits[part] = sum(f.active.astype(int) for _, f in ev.findings if f.severity == "limit") if ev.findings else 0
+        for name, active in _limit_activity(ev).items():
+            out.violations.setdefault(name, np.zeros(n, bool))[part] = active
         out.success[part], out.message[part] = ev.success, [ev.reason(k) for k in range(ev.batch)]
         if adaptive:
             table = evaluation_conditions(ev, adaptive)
@@ -208,6 +228,41 @@ def _rate(horizon: Horizon, values) -> Rating:
                 for key, array in out.conditions[name].items():
                     array[part] = rows[key].to_numpy()
     return out
+
+
+def _limit_activity(evaluation) -> dict:
+    """Each limit finding of an evaluation (named by unit, key path, kind and its occurrence: a
+    check may appear once per side) -> where it is active."""
+    found, seen = {}, {}
+    for unit, finding in evaluation.findings:
+        if finding.severity == "limit":
+            name = (unit, finding.key, finding.kind)
+            seen[name] = seen.get(name, -1) + 1
+            found[name + (seen[name],)] = np.asarray(finding.active, bool)
+    return found
+
+
+def new_violations(violations: dict, reference, count, steps) -> np.ndarray:
+    """(P, S) the limits violated where the reference (the train with no cleaning) keeps them."""
+    new = np.zeros((count, steps), int)
+    for name, active in violations.items():
+        kept = ~reference[name][None, :] if reference is not None and name in reference else True
+        new += (active.reshape(count, steps) & kept).astype(int)
+    return new
+
+
+def set_reference(horizon: Horizon, plan, outcome_of_no_cleaning) -> Outcome:
+    """Make the no-cleaning plan's violations the reference of new ones and set the penalty
+    (mutates ``horizon``); returns that plan's outcome scored against it."""
+    from dataclasses import replace
+
+    outcome = outcome_of_no_cleaning
+    horizon.reference = {k: v[0] for k, v in outcome.violations.items()}
+    total = float(outcome.costs["total_cost"].iloc[0])
+    horizon.penalty = 0.0 if horizon.new_limits_allowed else 10.0 * abs(total)
+    new = np.zeros_like(outcome.new_limits)
+    return replace(outcome, new_limits=new, costs=plan_costs(horizon, np.asarray(plan, bool)[None], outcome.fired,
+                                                             outcome.throughput, outcome.limits, outcome.success, new))
 
 
 def march(horizon: Horizon, plans) -> Outcome:
@@ -224,13 +279,15 @@ def march(horizon: Horizon, plans) -> Outcome:
     if horizon.furnace is not None:
         throughput = _cut_throughput(horizon, fouling, busy, throughput, rating)
     fired, limits = rating.fired.reshape(count, steps), rating.limits.reshape(count, steps)
+    new = new_violations(rating.violations, horizon.reference, count, steps)
     ok = rating.success.reshape(count, steps)
     why = rating.message.reshape(count, steps)
     plan_ok = ok.all(axis=1)
     plan_message = np.array([next((f"step {s + 1}: {why[p, s]}" for s in range(steps) if not ok[p, s]), "")
                              for p in range(count)], dtype=object)
-    return Outcome(fouling, busy, fired, throughput, limits, plan_ok, plan_message,
-                   plan_costs(horizon, plans, fired, throughput, limits, plan_ok), conditions)
+    return Outcome(fouling, busy, fired, throughput, limits, new, plan_ok, plan_message,
+                   plan_costs(horizon, plans, fired, throughput, limits, plan_ok, new), conditions,
+                   {k: v.reshape(count, steps) for k, v in rating.violations.items()})
 
 
 def _shaped(conditions, count, steps):
@@ -279,6 +336,8 @@ def _cut_throughput(horizon, fouling, busy, throughput, rating: Rating):
         found = _rate(horizon, {k: v[over] for k, v in values.items()})
         f = found.fired
         rating.fired[over], rating.limits[over] = f, found.limits
+        for name, active in found.violations.items():
+            rating.violations.setdefault(name, np.zeros(rating.fired.size, bool))[over] = active
         rating.success[over], rating.message[over] = found.success, found.message
         done = ~found.success | (np.abs(f - maximum) <= FURNACE_TOLERANCE * maximum)
         moved = share[over] != previous_share
@@ -292,17 +351,22 @@ def _cut_throughput(horizon, fouling, busy, throughput, rating: Rating):
     return share.reshape(throughput.shape)
 
 
-def plan_costs(horizon: Horizon, plans, fired, throughput, limits, success) -> pd.DataFrame:
+def plan_costs(horizon: Horizon, plans, fired, throughput, limits, success, new=None) -> pd.DataFrame:
     """The cost lines of each plan over the horizon (NaN for a plan without an answer): each
-    step's lines (:func:`step_lines`) added up, and the cleanings."""
+    step's lines (:func:`step_lines`) added up, the cleanings, the steps with limits violated
+    and with new ones, and the ``objective`` the optimiser ranks by: the total cost plus
+    :attr:`Horizon.penalty` per step with a new violation (so that where new violations are
+    refused a plan keeping the rule always ranks first)."""
     lines = step_lines(horizon, fired, throughput)
     cleanings = plans.sum(axis=2)
+    new = np.zeros_like(limits) if new is None else new
     table = pd.DataFrame({"cleanings": cleanings.sum(axis=1),
                           "cleaning_cost": (cleanings * horizon.cleaning_cost[None, :]).sum(axis=1),
                           **{k: np.nansum(v, axis=1) for k, v in lines.items()},
-                          "limit_steps": (limits > 0).sum(axis=1)})
+                          "limit_steps": (limits > 0).sum(axis=1), "new_limit_steps": (new > 0).sum(axis=1)})
     table["total_cost"] = table[["cleaning_cost", "fuel_cost", "co2_cost", "lost_throughput_cost"]].sum(axis=1)
     table.loc[~np.asarray(success), ["fuel_gj", "fuel_cost", "co2_t", "co2_cost", "total_cost"]] = np.nan
+    table["objective"] = table["total_cost"] + horizon.penalty * table["new_limit_steps"]
     return table
 
 

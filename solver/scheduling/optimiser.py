@@ -2,6 +2,13 @@
 
 Method (named, with its sources in :mod:`.cycle_milp`):
 
+Limits: where new limit violations are refused (the default: a plan may not break a design
+temperature, make a temperature cross or pass an allowable pressure drop where the train with no
+cleaning keeps them), a step with a new violation adds a penalty larger than any saving to the
+objective the search minimises (:func:`.horizon.plan_costs`); the MILP does not see limits, the
+local search mends what its plans break, and no cleaning is the answer where nothing else keeps
+the rule.
+
 1. **Successive linearisation with a cycle MILP.** About the trajectory of the current plan
    (first: no cleaning) the network's costs are made separable (:mod:`.linearised_costs`) and
    the plan of least separable cost is found exactly by HiGHS (:mod:`.cycle_milp`: each
@@ -27,7 +34,7 @@ import numpy as np
 import pandas as pd
 
 from .cycle_milp import plan_from_cycles
-from .horizon import Horizon, march, out_of_service
+from .horizon import Horizon, march, out_of_service, set_reference
 from .linearised_costs import cycle_costs
 
 LINEARISATIONS = 4
@@ -98,9 +105,10 @@ def optimise(horizon: Horizon, allowed, at_once, progress=None) -> Search:
     say = progress or (lambda *a: None)
     exchangers, steps = len(horizon.exchangers), horizon.steps
     plan = np.zeros((exchangers, steps), bool)
-    outcome = march(horizon, plan[None])
-    best, best_outcome = plan, outcome
-    rows = [("no cleaning", 0, float(outcome.costs["total_cost"].iloc[0]), 0, 1)]
+    outcome = set_reference(horizon, plan, march(horizon, plan[None]))
+    idle, idle_outcome = plan, outcome
+    best, best_outcome = plan, outcome  # the start of the local search: the lowest total cost so far
+    rows = [("no cleaning", 0, _objective(outcome, 0), 0, 1)]
     marched, messages = 1, []
     seen = {plan.tobytes()}
     for round_ in range(1, LINEARISATIONS + 1):
@@ -115,22 +123,23 @@ def optimise(horizon: Horizon, allowed, at_once, progress=None) -> Search:
         seen.add(candidate.tobytes())
         outcome = march(horizon, candidate[None])
         marched += 1
-        total = float(outcome.costs["total_cost"].iloc[0])
-        rows.append(("cycle MILP", round_, total, int(candidate.sum()), 1))
+        rows.append(("cycle MILP", round_, _objective(outcome, 0), int(candidate.sum()), 1))
         plan = candidate
-        if outcome.success[0] and total < float(best_outcome.costs["total_cost"].iloc[0]):
+        # the MILP knows no limits: rank its plans by their cost alone, and let the local search
+        # mend a plan that breaks a limit (its moves lower the penalised objective first)
+        if outcome.success[0] and _total(outcome, 0) < _total(best_outcome, 0):
             best, best_outcome = candidate, outcome
         else:
             break
     for round_ in range(1, MAX_SEARCH_ROUNDS + 1):
-        current = float(best_outcome.costs["total_cost"].iloc[0])
+        current = _objective(best_outcome, 0)
         say("local search", round_, current)
         options = neighbours(best, allowed, horizon.duration, at_once)
         if not len(options):
             break
         trial = march(horizon, options)
         marched += len(options)
-        totals = np.where(trial.success, trial.costs["total_cost"].to_numpy(), np.inf)
+        totals = np.where(trial.success, trial.costs["objective"].to_numpy(), np.inf)
         k = int(np.argmin(totals))
         if not totals[k] < current * (1.0 - 1e-9):
             rows.append(("local search", round_, current, int(best.sum()), len(options)))
@@ -140,13 +149,26 @@ def optimise(horizon: Horizon, allowed, at_once, progress=None) -> Search:
         if combined is not None:
             together = march(horizon, combined[None])
             marched += 1
-            if together.success[0] and together.costs["total_cost"].iloc[0] < totals[k]:
+            if together.success[0] and _objective(together, 0) < totals[k]:
                 chosen, chosen_outcome = combined, together
         best, best_outcome = chosen, chosen_outcome
-        rows.append(("local search", round_, float(best_outcome.costs["total_cost"].iloc[0]), int(best.sum()),
+        rows.append(("local search", round_, _objective(best_outcome, 0), int(best.sum()),
                      len(options)))
-    return Search(best, best_outcome, pd.DataFrame(rows, columns=["stage", "round", "total_cost", "cleanings",
+    if not _objective(best_outcome, 0) <= _objective(idle_outcome, 0):
+        best, best_outcome = idle, idle_outcome
+        messages.append("no plan found that keeps the limits and costs less than no cleaning")
+    return Search(best, best_outcome, pd.DataFrame(rows, columns=["stage", "round", "objective", "cleanings",
                                                                   "plans_marched"]), marched, messages)
+
+
+def _total(outcome, k) -> float:
+    return float(outcome.costs["total_cost"].iloc[k]) if outcome.success[k] else np.inf
+
+
+def _objective(outcome, k) -> float:
+    """What the search minimises for plan ``k``: its total cost, plus the penalty for steps with
+    new limit violations where those are refused (:func:`.horizon.plan_costs`)."""
+    return float(outcome.costs["objective"].iloc[k]) if outcome.success[k] else np.inf
 
 
 def _combined(plan, options, totals, current, allowed, duration, at_once):
@@ -174,5 +196,6 @@ def _one(outcome, k):
     conditions = {n: {q: v[pick] for q, v in c.items()} for n, c in (outcome.conditions or {}).items()}
     return replace(outcome, fouling=outcome.fouling[pick], out_of_service=outcome.out_of_service[pick],
                    fired=outcome.fired[pick], throughput=outcome.throughput[pick], limits=outcome.limits[pick],
-                   success=outcome.success[pick], message=outcome.message[pick],
-                   costs=outcome.costs.iloc[pick].reset_index(drop=True), conditions=conditions)
+                   new_limits=outcome.new_limits[pick], success=outcome.success[pick], message=outcome.message[pick],
+                   costs=outcome.costs.iloc[pick].reset_index(drop=True), conditions=conditions,
+                   violations={n: v[pick] for n, v in (outcome.violations or {}).items()})

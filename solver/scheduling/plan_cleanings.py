@@ -67,7 +67,7 @@ def plan_cleanings(path_or_schedule, progress=None) -> ScheduleResult:
     baselines = baseline_plans(horizon, allowed, schedule.at_most_at_once, schedule.baselines["fixed_intervals"],
                                schedule.baselines["fouling_threshold"], conditions)
     names = list(baselines)
-    outcome = march(horizon, np.array([baselines[n] for n in names]))
+    outcome = march(horizon, np.array([baselines[n] for n in names]))  # scored against the reference the search set
     clean = _never_fouling(horizon)
     comparison = _comparison(search, outcome, names, clean)
     plans = {OPTIMISED: search.plan, **baselines}
