@@ -14,7 +14,7 @@ from .errors import CaseError
 from .fields import Fields
 from .fluids import read_fluid
 from .paths import Origin, Step, check_connections
-from .reading import Document, read_document
+from .reading import Document, read_document, refuse_other_kind
 from . import sections as registry
 from .sections import Reading
 
@@ -33,6 +33,16 @@ class Settings:
     minimum_f: float = DEFAULT_MINIMUM_F
     tolerance: float = DEFAULT_TOLERANCE
     max_iterations: int = DEFAULT_MAX_ITERATIONS
+    display_units: dict = field(default_factory=dict)
+    """Quantity (a key of :data:`DISPLAY_KINDS`) -> the unit reports show it in, as written."""
+
+
+DISPLAY_KINDS = {"temperature": q.TEMPERATURE, "temperature_difference": q.TEMPERATURE_DIFFERENCE,
+                 "duty": q.DUTY, "mass_flow": q.MASS_FLOW, "heat_capacity_rate": q.CONDUCTANCE,
+                 "heat_transfer_coefficient": q.HEAT_TRANSFER_COEFFICIENT, "fouling": q.FOULING,
+                 "pressure_drop": q.PRESSURE_DROP, "area": q.AREA}
+"""The quantities ``settings.display_units`` may set a unit for, and their kinds (the units a
+value may be shown in); reports (``hxtrain.solver.reporting.display_units``) show each in it."""
 
 
 @dataclass
@@ -91,9 +101,7 @@ def case_from_mapping(data, name="<case>") -> Case:
 
 def case_from_document(doc: Document) -> Case:
     top = Fields(doc, (), doc.data, "a mapping at the top level (title, fluids, streams, exchangers, ...)")
-    if "base" in doc.data:
-        raise doc.error(("base",), "this looks like a study file (it has 'base'), not a case file; "
-                                   "use hxtrain compare or hxtrain sweep on a study file")
+    refuse_other_kind(doc, "case file")
     title = top.text("title", default="") or ""
     top.text("description")
     settings = _settings(top.mapping("settings"))
@@ -123,9 +131,27 @@ def _settings(f: Fields | None) -> Settings:
         minimum_f=f.quantity("minimum_f", q.CORRECTION_FACTOR, False, DEFAULT_MINIMUM_F),
         tolerance=f.quantity("tolerance", q.TOLERANCE, False, DEFAULT_TOLERANCE),
         max_iterations=f.integer("max_iterations", DEFAULT_MAX_ITERATIONS, 1, 100_000),
+        display_units=_display_units(f.mapping("display_units", what="a mapping of quantities to units, e.g. "
+                                                                    "{temperature: degF, duty: MMBtu/h}")),
     )
     f.finish()
     return settings
+
+
+def _display_units(f: Fields | None) -> dict:
+    if f is None:
+        return {}
+    units = {}
+    for name, kind in DISPLAY_KINDS.items():
+        text = f.text(name)
+        if text is not None:
+            try:
+                q.conversion_to(text, kind)
+            except q.QuantityError as exc:
+                raise f.error(name, str(exc)) from None
+            units[name] = text.strip()
+    f.finish()
+    return units
 
 
 def _register_names(case: Case, top: Fields):

@@ -10,13 +10,12 @@ scale with flow; they take ``fouling`` resistances.
 
 from __future__ import annotations
 
-import math
-
 from hxtrain.units import hydraulics, resistances, u_models
-from hxtrain.units.pntu_rating import ARRANGEMENTS
+from hxtrain.units.arrangements import ARRANGEMENTS, FLOWS, arranged, setting_problem
 from hxtrain.units.service_rating import ExchangerSpec
 
 from . import quantities as q
+from .exchanger_geometry import LAYOUT_CELL, most_tubes, read_geometry  # noqa: F401 -- LAYOUT_CELL, most_tubes: public here
 from .fields import Fields
 
 SIDES = ("hot", "cold")
@@ -25,31 +24,23 @@ DEFAULT_EXPONENT = {"shell": 0.6, "tube": 0.8}
 """Film exponents on flow: tube side turbulent (Dittus–Boelter form), shell side crossflow over
 tube banks (Kern's Re^0.55 rounded): common practice."""
 THERMAL_KEYS = ("clean_u", "film", "geometry")
+NO_BUNDLE = {"plate": "a plate exchanger has no tube bundle",
+             "air_cooler": "an air-cooled bundle's air-side film is not the shell side of a baffled bundle"}
+"""Arrangements that the geometry path (a baffled shell's tube bundle) does not describe."""
+STATED = {"air_cooler": ("tube_rows", "tube_passes")}
+"""Keys an arrangement requires although the registry has defaults for them (an air-cooled
+bundle's rows and passes are stated, never assumed)."""
 
 
 def read_exchanger(f: Fields) -> dict:
-    arrangement = f.choice("arrangement", ARRANGEMENTS)
-    data = {"arrangement": arrangement, "shells": f.integer("shells", 1, 1, 50),
-            "shells_in_parallel": f.integer("shells_in_parallel", 1, 1, 50), "tube_passes": 1, "mixed_side": None}
+    arranged_as, passes, shell_side, mixed_side = _read_arrangement(f)
     shell_side_given = f.has("shell_side")
-    if arrangement == "tema_e":
-        data["tube_passes"] = f.integer("tube_passes", 2, 2, 16)
-        if data["tube_passes"] % 2:
-            raise f.error("tube_passes", f"a TEMA E shell here has an even number of tube passes; got {data['tube_passes']}")
-    elif f.has("tube_passes"):
-        # the other arrangements' P–NTU relations are single-pass: more passes would be another relation
-        raise f.error("tube_passes", f"'tube_passes' applies to arrangement tema_e only; {arrangement} is rated as "
-                                     "one tube pass")
-    needs_side = (arrangement == "tema_e" and data["tube_passes"] > 2) or any(f.has(k) for k in THERMAL_KEYS)
-    data["shell_side"] = f.choice("shell_side", SIDES, required=needs_side, default="hot")
-    if arrangement == "crossflow":
-        mixed = f.choice("mixed_side", ("none", "hot", "cold"))
-        data["mixed_side"] = None if mixed == "none" else mixed
-    elif f.has("mixed_side"):
-        raise f.error("mixed_side", "'mixed_side' applies to arrangement crossflow only")
-    bypass = _by_side(f, "bypass", q.FRACTION, data["shell_side"], shell_side_given)
-    spec = ExchangerSpec(arrangement, shells=data["shells"], shells_in_parallel=data["shells_in_parallel"],
-                         tube_passes=data["tube_passes"], shell_side=data["shell_side"], mixed_side=data["mixed_side"],
+    data = {"arrangement": arranged_as.name, "shells": f.integer("shells", 1, 1, 50),
+            "shells_in_parallel": f.integer("shells_in_parallel", 1, 1, 50), "tube_passes": passes,
+            "mixed_side": mixed_side, "shell_side": shell_side}
+    bypass = _by_side(f, "bypass", q.FRACTION, shell_side, shell_side_given)
+    spec = ExchangerSpec(arranged_as, shells=data["shells"], shells_in_parallel=data["shells_in_parallel"],
+                         tube_passes=passes, shell_side=shell_side, mixed_side=mixed_side,
                          bypass_hot=bypass.get("hot", 0.0), bypass_cold=bypass.get("cold", 0.0))
     _read_thermal(f, spec, shell_side_given)
     limits = {
@@ -62,6 +53,80 @@ def read_exchanger(f: Fields) -> dict:
     f.finish()
     data.update(spec=spec, limits=limits)
     return data
+
+
+OPTION_KEYS = {"tube_flow", "shell_inlets", "shell_fluid_mixed", "overall_flow", "channel_flow", "tube_rows", "passes"}
+"""Case-file keys of the arrangements' own options (registry ``options``; crossflow's ``both_mixed``
+is read from ``mixed_side: both``)."""
+
+
+def _arrangements_taking(key) -> str:
+    names = [name for name, line in ARRANGEMENTS.items() if key in line.options]
+    return " and ".join(names) if len(names) < 3 else ", ".join(names)
+
+
+def _read_arrangement(f: Fields):
+    """The arrangement with its options, its tube passes, the shell side and crossflow's mixed
+    side, each checked against the registry (an error names the key)."""
+    name = f.choice("arrangement", tuple(ARRANGEMENTS))
+    line = ARRANGEMENTS[name]
+    if line.tube_passes == (1,):
+        if f.has("tube_passes"):
+            # a single-pass relation: more passes would be another relation
+            raise f.error("tube_passes", f"'tube_passes' does not apply to arrangement {name}: it is rated as one tube pass")
+        passes = 1
+    else:
+        passes = f.integer("tube_passes", None if "tube_passes" in STATED.get(name, ()) else line.tube_passes[0], 1, 16)
+        problem = setting_problem(name, passes)
+        if problem and problem[0] == "tube_passes":
+            raise f.error("tube_passes", problem[1])
+    options = {}
+    for key in sorted(OPTION_KEYS):
+        if key not in line.options:
+            if f.has(key):
+                raise f.error(key, f"'{key}' applies to arrangement {_arrangements_taking(key)} only")
+            continue
+        allowed = line.options[key]
+        if key == "passes":
+            options[key] = _plate_passes(f)
+        elif isinstance(allowed[0], bool):
+            if f.has(key):
+                options[key] = f.flag(key)
+        elif isinstance(allowed[0], int):
+            if f.has(key) or key in STATED.get(name, ()):
+                value = f.integer(key, None, min(allowed), max(allowed))
+                if value not in allowed:
+                    raise f.error(key, f"expected one of {', '.join(map(str, allowed))}; got {value}")
+                options[key] = value
+        elif f.has(key):
+            options[key] = f.choice(key, allowed)
+    mixed_side = None
+    if name == "crossflow":
+        mixed = f.choice("mixed_side", ("none", "hot", "cold", "both"))
+        if mixed == "both":
+            options["both_mixed"] = True
+        mixed_side = None if mixed in ("none", "both") else mixed
+    elif f.has("mixed_side"):
+        raise f.error("mixed_side", "'mixed_side' applies to arrangement crossflow only")
+    shells_flow = f.choice("shells_flow", FLOWS, required=False, default="counterflow")
+    probe = arranged(name, **{k: v for k, v in options.items() if k != "passes"})
+    needs_side = line.sided(passes, probe.options) or any(f.has(k) for k in THERMAL_KEYS)
+    shell_side = f.choice("shell_side", SIDES, required=needs_side, default="hot")
+    if "passes" in options:  # a plate's passes as (the shell_side stream's, the other's)
+        options["passes"] = (options["passes"][shell_side], options["passes"][_other(shell_side)])
+    arranged_as = arranged(name, shells_flow=shells_flow, **options)
+    problem = setting_problem(arranged_as, passes)
+    if problem:
+        key, message = problem
+        raise f.error(key, message)
+    return arranged_as, passes, shell_side, mixed_side
+
+
+def _plate_passes(f: Fields) -> dict:
+    section = f.mapping("passes", required=True, what="a mapping with 'hot' and 'cold': the passes of each stream")
+    passes = {side: section.integer(side, None, 1, 6) for side in SIDES}
+    section.finish()
+    return passes
 
 
 def _by_side(f: Fields, key, kind, shell_side, shell_side_given, **limits) -> dict:
@@ -110,7 +175,9 @@ def _read_thermal(f: Fields, spec: ExchangerSpec, shell_side_given):
         spec.ua = f.quantity("ua", q.CONDUCTANCE)
         return
     if form == "geometry":
-        bundle, wall = _geometry(f, spec)
+        if spec.arrangement.name in NO_BUNDLE:
+            raise f.error("geometry", f"{NO_BUNDLE[spec.arrangement.name]}: give U by 'ua', 'u', 'clean_u' or 'film'")
+        bundle, wall = read_geometry(f, spec)
         spec.area_per_shell = bundle.area
         fouling = _fouling(f)
         spec.thermal = u_models.GeometryFilms(bundle, fouling["shell"], fouling["tube"], wall)
@@ -160,85 +227,6 @@ def _tube_wall(f: Fields):
         raise tubes.error("inner_diameter", "the inner diameter must be smaller than the outer diameter")
     tubes.finish()
     return float(resistances.wall_resistance(do, di, k)), do / di
-
-
-def _geometry(f: Fields, spec: ExchangerSpec):
-    g = f.mapping("geometry", required=True)
-    lengths = {key: g.quantity(key, kind) for key, kind in GEOMETRY_LENGTHS.items()}
-    bundle = u_models.TubeBundle(
-        lengths["tube_outer_diameter"], lengths["tube_inner_diameter"], lengths["tube_length"],
-        g.integer("tubes", None, 1, 100_000), spec.tube_passes, lengths["tube_pitch"],
-        g.choice("tube_layout", tuple(LAYOUT_CELL)), lengths["baffle_spacing"], g.integer("baffles", None, 0, 1000),
-        lengths["shell_inner_diameter"])
-    _check_bundle(g, bundle)
-    k = g.quantity("wall_conductivity", q.WALL_CONDUCTIVITY)
-    g.finish()
-    wall = float(resistances.wall_resistance(bundle.tube_outer_diameter, bundle.tube_inner_diameter, k))
-    return bundle, wall
-
-
-GEOMETRY_LENGTHS = {"tube_outer_diameter": q.TUBE_DIAMETER, "tube_inner_diameter": q.TUBE_DIAMETER,
-                    "tube_length": q.TUBE_LENGTH, "tube_pitch": q.SPACING, "baffle_spacing": q.SPACING,
-                    "shell_inner_diameter": q.SHELL_DIAMETER}
-LAYOUT_CELL = {"triangular": math.sqrt(3.0) / 2.0, "square": 1.0}
-"""Area of one tube's lattice cell in units of pitch²: a triangular (60°) layout packs tubes at
-√3/2·p² each, a square one at p² (geometry)."""
-MINIMUM_PITCH_RATIO = 1.25
-"""TEMA's smallest tube pitch: 1.25 tube outer diameters (TEMA RCB-2.5, from memory)."""
-BAFFLE_SPACING_LIMITS = (0.2, 0.0508, 2.0)
-"""Smallest baffle spacing: a fifth of the shell diameter or 2 in, whichever is larger (TEMA
-RCB-4.51, from memory); largest: twice the shell diameter (Kern's method rests on spacings up to
-about the shell diameter: common practice)."""
-LENGTH_TO_SHELL = (0.5, 300.0)
-"""Tube length over shell diameter: bundles run ~3-15 (common practice); outside 0.5-300 the
-numbers are a slip, not a design."""
-
-
-def most_tubes(shell_diameter, pitch, layout) -> float:
-    """Upper bound on the tubes of one pitch and layout a shell can hold (m, m).
-
-    Each tube owns one lattice cell (LAYOUT_CELL · pitch²); the cells of tubes centred inside the
-    shell lie within shell_diameter/2 + pitch/√2 of its axis (a cell's farthest corner), so they
-    cannot outnumber that disc's area over a cell's. Clearances and pass lanes only lower the
-    real count (geometry; a bound, not an estimate of the count).
-
-    >>> round(most_tubes(0.75, 0.0254, "square"))
-    752
-    """
-    return math.pi * (shell_diameter / 2.0 + pitch / math.sqrt(2.0)) ** 2 / (LAYOUT_CELL[layout] * pitch**2)
-
-
-def _check_bundle(g: Fields, b: u_models.TubeBundle):
-    """Refuse a bundle that cannot be built: tubes that do not fit the shell, baffles longer than
-    the tubes, pitch, baffle spacing or proportions outside what any shell-and-tube design uses."""
-    do, ds, pitch, spacing = b.tube_outer_diameter, b.shell_inner_diameter, b.tube_pitch, b.baffle_spacing
-    if b.tube_inner_diameter >= do:
-        raise g.error("tube_inner_diameter", "must be smaller than tube_outer_diameter")
-    # rounding of a quoted pitch (15/16 in on 3/4 in tubes is 1.25 exactly) is let through
-    if pitch < 0.995 * MINIMUM_PITCH_RATIO * do:
-        raise g.error("tube_pitch", f"{pitch * 1000:.4g} mm is {pitch / do:.3g} tube diameters; tubes are at least "
-                                    f"{MINIMUM_PITCH_RATIO} diameters apart (TEMA RCB-2.5, from memory)")
-    if ds <= do:
-        raise g.error("shell_inner_diameter", "must be larger than tube_outer_diameter")
-    most = most_tubes(ds, pitch, b.layout)
-    if b.tubes > most:
-        raise g.error("tubes", f"{b.tubes} tubes on a {pitch * 1000:.4g} mm {b.layout} pitch cannot fit a "
-                               f"{ds:.4g} m shell: even with no clearance and no pass lanes at most {most:.0f} fit")
-    baffled = spacing * (b.baffles + 1)
-    if baffled > b.tube_length * (1.0 + 1e-9):
-        raise g.error("baffles", f"{b.baffles} baffles at {spacing:.4g} m make {b.baffles + 1} spaces, "
-                                 f"{baffled:.4g} m: longer than the {b.tube_length:.4g} m tubes")
-    share, inches, most_diameters = BAFFLE_SPACING_LIMITS
-    smallest = max(share * ds, inches)
-    if spacing < 0.995 * smallest or spacing > most_diameters * ds:
-        raise g.error("baffle_spacing", f"{spacing:.4g} m is outside {smallest:.4g} m (a fifth of the shell diameter or "
-                                        f"2 in, TEMA RCB-4.51, from memory) to {most_diameters * ds:.4g} m (twice the "
-                                        "shell diameter: common practice)")
-    low, high = LENGTH_TO_SHELL
-    if not low <= b.tube_length / ds <= high:
-        raise g.error("tube_length", f"{b.tube_length:.4g} m tubes in a {ds:.4g} m shell: a length of "
-                                     f"{b.tube_length / ds:.3g} shell diameters, outside {low:g} to {high:g} "
-                                     "(common practice)")
 
 
 def _read_pressure_drop(f: Fields, spec: ExchangerSpec, limits):

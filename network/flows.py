@@ -1,116 +1,208 @@
 """Flows of every segment for one scenario or many, before any temperature.
 
 Flows are linear in the supplies and independent of temperature: each segment's flow is its
-unit's flow coefficients times the unit's inlet flows, plus what the unit supplies. With
-``A`` the segment-to-segment coefficient matrix and ``S`` each supply's entry point, the share of
-each supply in each segment is ``R = (I - A)^-1 S``; the flows are ``R`` times the supply flows,
-and ``R`` also gives each segment's make-up by supply (its fluid, whether it is a utility).
+unit's flow coefficients times the unit's inlet flows, plus what the unit supplies. With ``A``
+the segment-to-segment coefficient matrix and ``S`` each supply's entry point, the flows are
+``(I - A)^-1 S s`` for the supply flows ``s``.
 
-When no scenario changes a flow coefficient (split fractions fixed), one sparse factorization
-serves every scenario. When split fractions vary, each scenario has its own matrix, solved in
-one stacked dense solve (per scenario where the stack is singular). A scenario whose matrix is
-singular (a recycle returning all of its flow) or whose flows do not balance is marked not
-valid with its reason; nothing is raised here.
+Supplies come in groups (the network groups them by fluid and by whether they are utility
+streams); besides the total flows this module says which groups reach each segment and, where
+more than one does, how much of each (a blend's make-up). Everything is sparse, so the cost
+grows with the number of segments and coefficients, not with their square:
+
+* split fractions fixed: one sparse LU factorization of ``I - A`` serves every scenario; a large
+  network solves it for one right-hand side per group (its supplies at their fixed flows) and
+  one per supply whose flow varies by scenario (scaled afterwards): a handful of solves however
+  many supplies (a small one keeps each supply's share, up to :data:`SHARE_LIMIT` numbers);
+* split fractions varied: each scenario has its own matrix; the scenarios' matrices are solved
+  together as one block-diagonal sparse system (in chunks), never as a dense matrix.
+
+A scenario whose matrix is singular (a recycle returning all of its flow) or whose flows do not
+balance is marked not valid with its reason; nothing is raised here.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
-import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
 BALANCE_TOLERANCE = 1e-9
 """Relative tolerance on supplied against delivered flow, and on negative flows."""
+SHARE_LIMIT = 20_000
+"""Largest segments x supplies block kept whole (each supply's share of each segment)."""
+CHUNK_UNKNOWNS = 400_000
+"""Most unknowns (segments times scenarios) in one block-diagonal factorization of varied splits."""
 
 
 @dataclass
 class FlowSolution:
     flow: np.ndarray
     """(batch, segments) kg/s, Fortran order (a unit reads whole segments)."""
-    response: np.ndarray
-    """(rows, segments, supplies): each segment's share of each supply; rows is 1 where one
-    matrix serves every scenario, else the batch."""
-    supplies: np.ndarray
-    """(batch, supplies) kg/s."""
+    carried: np.ndarray
+    """(segments, groups) whether supplies of each group reach the segment in any scenario."""
     valid: np.ndarray
     """(batch,) the flows of that scenario exist and balance."""
     message: np.ndarray
     """(batch,) why a scenario's flows are not valid ("" where they are)."""
+    makeup: dict = field(default_factory=dict)
+    """segment -> (batch, groups) flow of each group, for the segments that more than one group
+    reaches (a blend)."""
 
 
-def solve_flows(units, inlets, outlets, segments: int, batch: int) -> FlowSolution:
+def solve_flows(units, inlets, outlets, segments: int, batch: int, groups=None) -> FlowSolution:
     """Flows of every segment in every scenario through the units' flow coefficients.
 
     ``units`` maps names to unit models; ``inlets``/``outlets`` give each unit's segment
-    indices in port order. A unit without inlets is a supply."""
+    indices in port order. A unit without inlets is a supply; ``groups`` gives each supply (in
+    the order of ``units``) a group number (all 0 without it)."""
     sources = [name for name, u in units.items() if not u.inlets]
+    groups = np.zeros(len(sources), int) if groups is None else np.asarray(groups, int)
     supplies = np.stack([np.broadcast_to(np.asarray(units[s].supplied_flow(), float)[..., 0], (batch,))
                          for s in sources], axis=1)
-    entry = np.zeros((segments, len(sources)))
-    for j, name in enumerate(sources):
-        entry[outlets[name][0], j] = 1.0
+    entry = np.array([outlets[s][0] for s in sources], int)  # the segment each supply feeds
     coefficients = {name: np.asarray(u.flow_coefficients(), dtype=float) for name, u in units.items()}
-    varied = any(c.ndim == 3 for c in coefficients.values())
+    rows, cols, values = _pattern(coefficients, inlets, outlets, segments, batch)
     valid = np.ones(batch, bool)
     message = np.full(batch, "", dtype=object)
-    if varied:
-        response = _stacked_response(coefficients, inlets, outlets, segments, batch, entry, valid, message)
+    if values.ndim == 1:
+        flow, carried, makeup = _fixed_splits(rows, cols, values, segments, entry, supplies, groups, valid, message)
     else:
-        response = _sparse_response(coefficients, inlets, outlets, segments, entry)
-        if response is None:
-            response = np.full((1, segments, len(sources)), np.nan)
-            valid[:] = False
-            message[:] = _SINGULAR
-    flow = np.asfortranarray(np.matmul(response, supplies[:, :, None])[..., 0])
+        flow, carried, makeup = _varied_splits(rows, cols, values, segments, entry, supplies, groups, valid, message)
+    flow = np.asfortranarray(flow)
     _check_balance(units, inlets, flow, supplies, valid, message)
-    return FlowSolution(flow, response, supplies, valid, message)
+    return FlowSolution(flow, carried, valid, message, makeup)
 
 
 _SINGULAR = "the flows cannot be balanced: a recycle returns all of its flow (check the splitter fractions)"
 
 
-def _entries(coefficients, inlets, outlets):
-    """(outlet segment, inlet segment, coefficient array) of every unit's flow coefficients."""
+def _pattern(coefficients, inlets, outlets, n, batch):
+    """The entries of ``I - A``: rows, columns and values (one value per entry, or (batch,
+    entries) where some coefficient varies by scenario)."""
+    rows, cols, vals = list(range(n)), list(range(n)), [np.ones(())] * n
     for name, c in coefficients.items():
         for o, seg_out in enumerate(outlets[name]):
             for i, seg_in in enumerate(inlets[name]):
-                yield seg_out, seg_in, c[..., o, i]
+                value = c[..., o, i]
+                if np.any(value != 0.0):
+                    rows.append(seg_out)
+                    cols.append(seg_in)
+                    vals.append(-value)
+    varied = any(np.ndim(v) > 0 for v in vals)
+    values = np.stack([np.broadcast_to(v, (batch,)) for v in vals], axis=1) if varied else np.array(vals, float)
+    return np.array(rows, int), np.array(cols, int), values
 
 
-def _sparse_response(coefficients, inlets, outlets, n, entry):
-    rows, cols, vals = list(range(n)), list(range(n)), [1.0] * n
-    for seg_out, seg_in, c in _entries(coefficients, inlets, outlets):
-        if c != 0.0:
-            rows.append(seg_out)
-            cols.append(seg_in)
-            vals.append(-float(c))
-    matrix = sp.csc_matrix((vals, (rows, cols)), shape=(n, n))
+def _fixed_splits(rows, cols, values, n, entry, supplies, groups, valid, message):
+    """One sparse factorization for every scenario. A small network keeps each supply's share
+    of each segment (a dense segments x supplies block: the arithmetic of earlier versions, to
+    the last digit); a large one is solved for few right-hand sides: each group's fixed supplies
+    together, and each supply whose flow varies by scenario on its own (scaled afterwards)."""
+    import scipy.sparse as sp
+    import scipy.sparse.linalg as spla
+
+    batch, count = supplies.shape[0], groups.max(initial=0) + 1
+    per_supply = n * supplies.shape[1] <= SHARE_LIMIT
+    varies = np.flatnonzero(np.ptp(supplies, axis=0) > 0.0) if batch > 1 and not per_supply else np.array([], int)
+    fixed = np.setdiff1d(np.arange(supplies.shape[1]), varies)
+    if per_supply:
+        columns = [np.bincount(entry[j:j + 1], minlength=n).astype(float) for j in range(supplies.shape[1])]
+    else:
+        columns = [np.bincount(entry[fixed], np.where(groups[fixed] == g, supplies[0, fixed], 0.0), minlength=n)
+                   for g in range(count)] + [np.bincount(entry[j:j + 1], minlength=n).astype(float) for j in varies]
     try:
         with np.errstate(all="ignore"):
-            response = np.asarray(spla.splu(matrix).solve(entry)).reshape(n, entry.shape[1])
+            lu = spla.splu(sp.csc_matrix((values, (rows, cols)), shape=(n, n)))
+            solved = np.asarray(lu.solve(np.stack(columns, axis=1))).reshape(n, len(columns))
     except RuntimeError:  # exactly singular
-        return None
-    return response[None]
+        valid[:] = False
+        message[:] = _SINGULAR
+        return np.full((batch, n), np.nan), np.zeros((n, count), bool), {}
+    if per_supply:
+        return _from_shares(solved, supplies, groups, count)
+    by_group, varying = solved[:, :count], solved[:, count:]  # (segments, groups), (segments, varying)
+    flow = np.broadcast_to(by_group.sum(axis=1), (batch, n)) + supplies[:, varies] @ varying.T
+    with np.errstate(invalid="ignore"):
+        carried = by_group > 0.0
+        for v, j in enumerate(varies):
+            carried[:, groups[j]] |= (varying[:, v] > 0.0) & bool(np.any(supplies[:, j] > 0.0))
+    makeup = {}
+    for s in np.flatnonzero(carried.sum(axis=1) > 1):
+        shares = np.repeat(by_group[s][None], batch, axis=0)
+        for v, j in enumerate(varies):
+            shares[:, groups[j]] += varying[s, v] * supplies[:, j]
+        makeup[int(s)] = shares
+    return flow, carried, makeup
 
 
-def _stacked_response(coefficients, inlets, outlets, n, batch, entry, valid, message):
-    matrix = np.broadcast_to(np.eye(n), (batch, n, n)).copy()
-    for seg_out, seg_in, c in _entries(coefficients, inlets, outlets):
-        matrix[:, seg_out, seg_in] -= np.broadcast_to(c, (batch,))
-    right = np.broadcast_to(entry, (batch, n, entry.shape[1]))
+def _from_shares(share, supplies, groups, count):
+    """Flows, groups carried and blends' make-up from each supply's share of each segment."""
+    share = np.nan_to_num(share)
+    flow = np.matmul(share[None], supplies[:, :, None])[..., 0]
+    reaches = (share > 0.0) & np.any(supplies > 0.0, axis=0)  # (segments, supplies)
+    carried = np.zeros((share.shape[0], count), bool)
+    for j, g in enumerate(groups):
+        carried[:, g] |= reaches[:, j]
+    makeup = {}
+    for s in np.flatnonzero(carried.sum(axis=1) > 1):
+        by_group = [0.0] * count
+        for j, g in enumerate(groups):  # supply by supply, in order: the sums of earlier versions
+            by_group[g] = by_group[g] + share[s, j] * supplies[:, j]
+        makeup[int(s)] = np.stack([np.broadcast_to(v, supplies.shape[:1]) for v in by_group], axis=1)
+    return flow, carried, makeup
+
+
+def _varied_splits(rows, cols, values, n, entry, supplies, groups, valid, message):
+    """Each scenario's own matrix, solved with the others as one block-diagonal sparse system;
+    one right-hand side per group."""
+    count = groups.max(initial=0) + 1
+    by_group = np.zeros((supplies.shape[0], n, count))
+    by_group[:, entry, groups] = supplies  # each supply feeds a segment of its own
+    flows, singular = solve_block_diagonal(rows, cols, values, n, by_group)
+    for k in np.flatnonzero(singular & valid):
+        message[k] = _SINGULAR
+    valid &= ~singular
+    flow = flows.sum(axis=2)
+    with np.errstate(invalid="ignore"):
+        carried = np.any(flows > 0.0, axis=0)
+    blends = np.flatnonzero(carried.sum(axis=1) > 1)
+    return flow, carried, {int(s): flows[:, s, :] for s in blends}
+
+
+def solve_block_diagonal(rows, cols, values, n, right, chunk=CHUNK_UNKNOWNS):
+    """Solve k sparse systems of one pattern together: system j has the entries ``values[j]``
+    at (``rows``, ``cols``) of an n x n matrix and right-hand sides ``right[j]`` (n, r). They
+    are factorized as one block-diagonal matrix, in chunks of at most ``chunk`` unknowns.
+    Returns (solutions (k, n, r), singular (k,)); a singular system gets NaN."""
+    k = values.shape[0]
+    solution = np.full(right.shape, np.nan)
+    singular = np.zeros(k, bool)
+    size = max(1, chunk // max(n, 1))
+    for start in range(0, k, size):
+        part = slice(start, min(k, start + size))
+        _solve_part(rows, cols, values[part], n, right[part], solution[part], singular[part])
+    return solution, singular
+
+
+def _solve_part(rows, cols, values, n, right, solution, singular):
+    """One chunk into ``solution`` and ``singular`` (views of the caller's arrays); a chunk
+    with a singular system is halved until that system is found."""
+    import scipy.sparse as sp
+    import scipy.sparse.linalg as spla
+
+    k = values.shape[0]
+    offset = (np.arange(k) * n)[:, None]
+    matrix = sp.csc_matrix((values.ravel(), ((rows + offset).ravel(), (cols + offset).ravel())), shape=(k * n, k * n))
     try:
-        return np.linalg.solve(matrix, right)
-    except np.linalg.LinAlgError:  # some scenario is singular: solve them one by one
-        response = np.full((batch, n, entry.shape[1]), np.nan)
-        for k in range(batch):
-            try:
-                response[k] = np.linalg.solve(matrix[k], entry)
-            except np.linalg.LinAlgError:
-                valid[k] = False
-                message[k] = _SINGULAR
-        return response
+        with np.errstate(all="ignore"):
+            solution[...] = np.asarray(spla.splu(matrix).solve(right.reshape(k * n, -1))).reshape(right.shape)
+    except RuntimeError:  # exactly singular somewhere
+        if k == 1:
+            singular[0] = True
+            return
+        for half in (slice(0, k // 2), slice(k // 2, k)):
+            _solve_part(rows, cols, values[half], n, right[half], solution[half], singular[half])
 
 
 def _check_balance(units, inlets, flow, supplies, valid, message):

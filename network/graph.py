@@ -3,15 +3,14 @@ the flows of every segment (solved before any temperature).
 
 Flows are linear in the supplies and independent of temperature: each segment's flow is its
 unit's flow coefficients times the unit's inlet flows, plus what the unit supplies. Solving that
-linear system once per source gives each segment's flow and its make-up by source, hence its cp
-(the supplies' fluids blended by mass). Recycles need no iteration here.
+linear system (:mod:`.flows`) gives each segment's flow and which supplies it carries, hence its
+cp (the supplies' fluids blended by mass). Recycles need no iteration here.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
-import networkx as nx
 import numpy as np
 
 from hxtrain.units import protocol
@@ -46,10 +45,12 @@ def _port_label(unit, port):
 @dataclass
 class Network:
     """A case as a graph with unit models on the nodes and its solved flows, for a batch of one
-    or more scenarios (one value per scenario wherever :func:`build_network` was given values)."""
+    or more scenarios (one value per scenario wherever :func:`build_network` was given values).
+
+    ``graph`` (a networkx MultiDiGraph, units as nodes, segments as edges keyed by index) is
+    built on first use: checking a case needs no graph library."""
 
     case: Case
-    graph: nx.MultiDiGraph
     units: dict[str, protocol.UnitModel]
     segments: list[Segment]
     inlets: dict[str, list[int]]
@@ -68,6 +69,21 @@ class Network:
     """(batch,) the case-file key path (a tuple) the reason is about, None where valid."""
     utility: np.ndarray | None = None
     """(segments,) the segment carries only utility streams (cooling water, steam, hot oil)."""
+    _graph: object = field(default=None, repr=False)
+
+    @property
+    def graph(self):
+        """The unit graph (networkx MultiDiGraph), built once on first use."""
+        if self._graph is None:
+            import networkx as nx
+
+            graph = nx.MultiDiGraph()
+            for name, unit in self.units.items():
+                graph.add_node(name, kind=unit.kind, key=self.case.keys[name] if name in self.case.keys else (name,))
+            for seg in self.segments:
+                graph.add_edge(seg.source, seg.target, key=seg.index, segment=seg)
+            self._graph = graph
+        return self._graph
 
 
 def build_network(case: Case, values: dict | None = None) -> Network:
@@ -81,17 +97,12 @@ def build_network(case: Case, values: dict | None = None) -> Network:
 
     segments, mixer_inlets = _segments(case)
     units = _unit_models(case, mixer_inlets, varied=bool(values))
-    graph = nx.MultiDiGraph()
-    for name, unit in units.items():
-        graph.add_node(name, kind=unit.kind, key=case.keys[name] if name in case.keys else (name,))
-    for seg in segments:
-        graph.add_edge(seg.source, seg.target, key=seg.index, segment=seg)
     inlets = {name: [None] * len(u.inlets) for name, u in units.items()}
     outlets = {name: [None] * len(u.outlets) for name, u in units.items()}
     for seg in segments:
         inlets[seg.target][units[seg.target].inlets.index(seg.target_port)] = seg.index
         outlets[seg.source][units[seg.source].outlets.index(seg.source_port)] = seg.index
-    net = Network(case, graph, units, segments, inlets, outlets)
+    net = Network(case, units, segments, inlets, outlets)
     check_way_out(net)
     net.batch, net.valid, net.message, net.reason_key = apply_values(net, values or {})
     _solve_flows(net)
@@ -140,19 +151,22 @@ def _key(case, name):
 
 def check_way_out(net: Network):
     """Every unit must reach a product through ports that carry flow (coefficient > 0);
-    otherwise what enters a loop of mixers and splitters could never leave."""
-    flowing = nx.DiGraph()
-    flowing.add_nodes_from(net.units)
+    otherwise what enters a loop of mixers and splitters could never leave. One search backwards
+    from all products at once: linear in the size of the network."""
+    feeders = {name: [] for name in net.units}  # unit -> units feeding it through a flowing port
     for name, unit in net.units.items():
         coefficients = np.asarray(unit.flow_coefficients())
         supplied = np.asarray(unit.supplied_flow())
         for out_index, seg_index in enumerate(net.outlets[name]):
             if supplied[out_index] > 0.0 or np.any(coefficients[out_index] > 0.0):
-                flowing.add_edge(name, net.segments[seg_index].target)
-    sinks = [n for n, u in net.units.items() if not u.outlets]
-    can_leave = set(sinks)
-    for sink in sinks:
-        can_leave |= nx.ancestors(flowing, sink)
+                feeders[net.segments[seg_index].target].append(name)
+    can_leave = {n for n, u in net.units.items() if not u.outlets}
+    frontier = list(can_leave)
+    while frontier:
+        for feeder in feeders[frontier.pop()]:
+            if feeder not in can_leave:
+                can_leave.add(feeder)
+                frontier.append(feeder)
     trapped = [n for n in net.units if n not in can_leave]
     if trapped:
         raise net.case.error(
@@ -164,8 +178,13 @@ def check_way_out(net: Network):
 
 def _solve_flows(net: Network):
     """Flows of every scenario (:func:`.flows.solve_flows`), each segment's fluid blended from
-    the supplies it carries, and which segments carry only utility streams."""
-    solution = solve_flows(net.units, net.inlets, net.outlets, len(net.segments), net.batch)
+    the supplies it carries, and which segments carry only utility streams. Supplies are grouped
+    by fluid and utility, so the work grows with the segments, not with segments x supplies."""
+    sources = [n for n, u in net.units.items() if not u.inlets]
+    labels: dict = {}
+    groups = [labels.setdefault((net.case.streams[s]["fluid"], bool(net.case.streams[s].get("utility"))),
+                                len(labels)) for s in sources]
+    solution = solve_flows(net.units, net.inlets, net.outlets, len(net.segments), net.batch, groups)
     bad = net.valid & ~solution.valid
     if np.any(bad):
         key = _recycle_key(net)
@@ -173,38 +192,33 @@ def _solve_flows(net: Network):
             net.message[k], net.reason_key[k] = solution.message[k], key
     net.valid = net.valid & solution.valid
     net.flow = solution.flow
-    sources = [n for n, u in net.units.items() if not u.inlets]
-    response = np.nan_to_num(solution.response)
-    # (segments, supplies): which supplies reach each segment in any scenario
-    carried = np.any(response > 0.0, axis=0) & np.any(solution.supplies > 0.0, axis=0)
-    net.fluids = [segment_fluid(net.case, sources, response[:, s, :] * solution.supplies, carried[s])
-                  for s in range(len(net.segments))]
-    is_utility = np.array([bool(net.case.streams[s].get("utility")) for s in sources])
-    net.utility = np.array([bool(np.any(row)) and bool(np.all(is_utility[row])) for row in carried])
+    group_fluids = [fluid for fluid, _ in labels]
+    fallback = net.case.streams[sources[0]]["fluid"]
+    net.fluids = [segment_fluid(net.case, group_fluids, row, solution.makeup.get(s), fallback)
+                  for s, row in enumerate(solution.carried)]
+    is_utility = np.array([utility for _, utility in labels])
+    net.utility = np.array([bool(np.any(row)) and bool(np.all(is_utility[row])) for row in solution.carried])
     for name, unit in net.units.items():
         unit.carry_utility(port for port, seg in zip(unit.inlets, net.inlets[name]) if net.utility[seg])
 
 
-def segment_fluid(case: Case, sources, makeup, carried=None):
-    """The fluid of a segment: its supplies' fluids blended by mass. ``makeup`` holds the
-    segment's flow from each supply on its last axis (a row, or one row per scenario); ``carried``
-    optionally says already which supplies reach the segment in any scenario. A segment without
-    flow takes the first supply's fluid: with no flow its properties enter no balance."""
-    if carried is not None:
-        names = {case.streams[source]["fluid"] for source, reaches in zip(sources, carried) if reaches}
-        if len(names) <= 1:  # one fluid (or none): no blend, no per-scenario arithmetic
-            return case.fluids[names.pop() if names else case.streams[sources[0]]["fluid"]]
+def segment_fluid(case: Case, group_fluids, carried, makeup=None, fallback=None):
+    """The fluid of a segment: its supplies' fluids blended by mass. ``group_fluids`` names the
+    fluid of each supply group, ``carried`` says which groups reach the segment in any scenario
+    and ``makeup`` (where several do) holds the segment's flow from each group on its last axis
+    (one row per scenario). A segment without flow takes ``fallback``: with no flow its
+    properties enter no balance."""
+    names = list(dict.fromkeys(f for f, reaches in zip(group_fluids, carried) if reaches))
+    if len(names) <= 1 or makeup is None:  # one fluid (or none): no blend, no per-scenario arithmetic
+        return case.fluids[names[0] if names else fallback]
     makeup = np.asarray(makeup, dtype=float)
     by_fluid: dict = {}
-    for j, source in enumerate(sources):
-        name = case.streams[source]["fluid"]
-        by_fluid[name] = by_fluid.get(name, 0.0) + makeup[..., j]
-    carried = {k: v for k, v in by_fluid.items() if np.any(v > 0.0)}
-    if len(carried) <= 1:
-        return case.fluids[next(iter(carried))] if carried else case.fluids[case.streams[sources[0]]["fluid"]]
-    total = sum(carried.values())
+    for j, name in enumerate(group_fluids):
+        if carried[j]:
+            by_fluid[name] = by_fluid.get(name, 0.0) + makeup[..., j]
+    total = sum(by_fluid.values())
     safe = np.where(total > 0.0, total, 1.0)
-    return Blend([case.fluids[k] for k in carried], [v / safe for v in carried.values()])
+    return Blend([case.fluids[k] for k in by_fluid], [v / safe for v in by_fluid.values()])
 
 
 def check_properties(net: Network):
@@ -226,6 +240,8 @@ def check_properties(net: Network):
 def _recycle_key(net: Network):
     """Key path of the first unit inside a loop that divides its one inlet by fractions (a
     splitter: the likely culprit of an unbalanced flow), down to those fractions' key."""
+    import networkx as nx
+
     for component in nx.strongly_connected_components(net.graph):
         for name in sorted(component):
             unit = net.units[name]

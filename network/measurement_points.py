@@ -140,18 +140,21 @@ def resolve_point(net: Network, text, error: Callable[[str], CaseError] | None =
     return points[text]
 
 
-def resolve_duty_unit(net: Network, text, error: Callable[[str], CaseError] | None = None) -> str:
+def resolve_duty_unit(net: Network, text, error: Callable[[str], CaseError] | None = None,
+                      word="heater or cooler") -> str:
     """``text`` if it names a unit with a duty of its own (a heater or cooler: a unit declaring
-    one of :data:`DUTY_PARAMETERS`); else ``error(message)`` naming the candidates."""
+    one of :data:`DUTY_PARAMETERS`); else ``error(message)`` naming the candidates (``word``:
+    what the caller asks for, in the message)."""
     fail = error or CaseError
     candidates = [n for n, u in net.units.items() if any(p.name in DUTY_PARAMETERS for p in u.parameters())]
+    listed = f"the case's heaters and coolers: {', '.join(candidates)}" if candidates else "the case has none"
     if isinstance(text, str) and text in candidates:
         return text
     if isinstance(text, str) and text in net.units:
-        raise fail(f"{text} has no duty of its own to measure: name a heater or cooler "
-                   f"({', '.join(candidates) or 'the case has none'})")
-    raise fail(f"expected the tag of a heater or cooler, got {describe(text)}"
-               f"{nearest(text, candidates)}; the case has {', '.join(candidates) or 'none'}")
+        raise fail(f"{text} has no duty of its own to measure: name a {word} ({listed})")
+    if isinstance(text, str) and text.strip():
+        raise fail(f"no {word} {shorten(text)} in the case{nearest(text, candidates)}; {listed}")
+    raise fail(f"expected the tag of a {word}, got {describe(text)}; {listed}")
 
 
 # ----------------------------------------------------------------------------- units of readings

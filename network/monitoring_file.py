@@ -18,7 +18,15 @@ A tag measures a ``temperature`` or a ``flow`` at a point (a stream segment: see
 the unit of the historian's numbers and must fit the quantity. Uncertainties are ONE standard
 deviation, absolute ("0.5", "1 K", "0.9 degF": a temperature *difference*; a bare number is in
 the default unit K, kg/s or kW, as everywhere in case files) or relative ("2 %" of the reading),
-per tag or per instrument kind (``uncertainty:`` at the top), with the defaults below.
+per tag or per instrument kind (``uncertainty:`` at the top), with the defaults below. The
+uncertainty is that of the instrument's error in a window MEAN (its accuracy: a calibration error
+does not average out over a window); where the readings inside a window scatter more than that,
+the window uses the larger scatter (:mod:`hxtrain.solver.monitoring.windows`).
+
+Times are ISO 8601 (2026-03-14, 2026-03-14 06:00, with or without seconds, 'T' allowed), without
+a time-zone offset, unless ``time_format`` gives the data's format in strftime codes (such as
+'%d/%m/%Y %H:%M'): 04/01/2026 is April to some and January to others, so a day-first or other
+form is never guessed. The projection's horizon is a whole number of its steps.
 
 Every key is read through :class:`~.fields.Fields` (unknown keys refused with the nearest known
 one), and every error names the monitoring file, the key path and the line; errors inside the
@@ -29,7 +37,9 @@ refused as ambiguous.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
+from datetime import datetime
 from pathlib import Path
 from typing import Callable, NamedTuple
 
@@ -44,7 +54,7 @@ from .graph import Network, build_network
 from .measurement_points import (DUTY_PARAMETERS, QUANTITIES, Tag, read_uncertainty, resolve_duty_unit,
                                  resolve_point, trade_units, unit_conversion, unit_points)
 from .quantities import shorten
-from .reading import Document, read_document
+from .reading import Document, read_document, refuse_other_kind
 
 __all__ = ["MonitoringFile", "Tag", "SteadyState", "Projection", "load_monitoring", "monitoring_from_mapping",
            "monitoring_from_document", "resolve_point", "resolve_duty_unit", "unit_points", "unit_conversion",
@@ -67,7 +77,7 @@ duty from fuel metering times an efficiency 5 % of reading (all common practice)
 DEFAULT_SIGNIFICANCE = 0.05
 """Of the gross-error tests: the usual level of the global and measurement tests (common practice)."""
 MAX_SIGNIFICANCE = 0.5
-DEFAULT_HORIZON = pd.Timedelta(days=180)
+DEFAULT_HORIZON = pd.Timedelta(weeks=26)  # 26 whole steps of the default week
 DEFAULT_STEP = pd.Timedelta(days=7)
 """Projection: half a year ahead in weekly steps, the span of cleaning planning (common practice)."""
 DEFAULT_FURNACE_EFFICIENCY = 0.85
@@ -78,8 +88,13 @@ DEFAULT_CO2_PER_FUEL = 56.1
 DEFAULT_CO2_PRICE = 0.0
 """No carbon price unless the file gives one."""
 DATA_SUFFIXES = (".csv", ".xlsx")
-TOP_KEYS = ("title", "description", "case", "data", "time_column", "window", "steady_state", "uncertainty",
-            "tags", "cleanings", "economics", "limits", "projection", "significance")
+TOP_KEYS = ("title", "description", "case", "data", "time_column", "time_format", "window", "steady_state",
+            "uncertainty", "tags", "cleanings", "economics", "limits", "projection", "significance")
+ISO_TIME = re.compile(r"\d{4}-\d{2}-\d{2}(?:[ T]\d{2}:\d{2}(?::\d{2}(?:\.\d+)?)?)?")
+"""A date or time as ISO 8601 writes it, without an offset (matched whole, after stripping)."""
+ISO_EXAMPLE = "an ISO date such as 2026-03-14 (YYYY-MM-DD; a time as '2026-03-14 06:00' if needed)"
+FORMAT_SAMPLE = datetime(2026, 3, 14, 6, 30, 15)
+"""A moment every date code can write distinctly (day 14 > 12): a time_format must read it back."""
 
 
 class SteadyState(NamedTuple):
@@ -101,8 +116,10 @@ class MonitoringFile:
     ``economics`` None or a dict (fuel_price per GJ of fuel and co2_price per tonne, both in
     ``currency``; furnace_efficiency; co2_per_fuel kg/GJ); ``limits`` a dict of
     ``fired_duty`` (kW) and ``inlet_temperature`` (°C), each heater tag -> value; ``projection``
-    None or (horizon, step); ``network`` the case as built by ``build_network(case)``, which
-    the tags' ``segment`` indices refer to."""
+    None or (horizon, step), the horizon a whole number of steps; ``network`` the case as built
+    by ``build_network(case)``, which the tags' ``segment`` indices refer to; ``time_format``
+    strftime codes of the data's times (None: ISO 8601); ``cleaning_keys`` (exchanger, time) of
+    each cleaning -> its key path in the file."""
 
     file: str
     title: str
@@ -119,6 +136,10 @@ class MonitoringFile:
     significance: float
     lines: dict[tuple, int] = field(default_factory=dict, repr=False)
     network: Network | None = field(default=None, repr=False)
+    time_format: str | None = None
+    """strftime codes of the data's times; None: ISO 8601."""
+    cleaning_keys: dict = field(default_factory=dict, repr=False)
+    """(exchanger, time) of each cleaning -> its key path in the file (for messages)."""
 
     def error(self, path, message) -> CaseError:
         """A CaseError at key path ``path`` of the monitoring file, with its line."""
@@ -140,10 +161,7 @@ def monitoring_from_mapping(data, file="<monitoring>", folder=".") -> Monitoring
 
 def monitoring_from_document(doc: Document, folder: Path) -> MonitoringFile:
     top = Fields(doc, (), doc.data, "a mapping at the top level (case, data, tags, ...)")
-    case_like = [k for k in ("streams", "exchangers", "fluids", "base") if k in top.value]
-    if case_like:
-        raise doc.error((case_like[0],), f"this looks like a case or study file (it has '{case_like[0]}'), not a "
-                                         "monitoring file; a monitoring file names its case under 'case'")
+    refuse_other_kind(doc, "monitoring file")
     top.allowed.update(TOP_KEYS)
     top.finish()
     case = read_base_case(top, folder)
@@ -163,20 +181,21 @@ def monitoring_from_document(doc: Document, folder: Path) -> MonitoringFile:
     projection = None
     if top.has("projection"):
         f = top.mapping("projection")
-        projection = Projection(read_duration(f, "horizon", DEFAULT_HORIZON), read_duration(f, "step", DEFAULT_STEP))
-        if projection.step > projection.horizon:
-            raise f.error("step", f"the step ({projection.step}) is longer than the horizon ({projection.horizon})")
+        step = read_duration(f, "step", DEFAULT_STEP)
+        horizon = read_duration(f, "horizon", DEFAULT_HORIZON)
+        projection = Projection(step * whole_steps(f, "horizon", horizon, step, step_key="step"), step)
         f.finish()
     significance = read_quantity(top, "significance", q.FRACTION, default=DEFAULT_SIGNIFICANCE, above=0.0)
     if significance > MAX_SIGNIFICANCE:
         raise top.error("significance", f"{significance:g} is above {MAX_SIGNIFICANCE}: a test that fails good "
                                         "data more often than not (0.05 is usual)")
+    cleaning_keys = _cleanings(top, case)
     return MonitoringFile(
         file=doc.file, title=top.text("title", default="") or "", case=case, data_path=data_path,
         time_column=time_column, window=window, steady_state=_steady_state(top.mapping("steady_state")), tags=tags,
-        cleanings=_cleanings(top, case), economics=read_economics(top.mapping("economics")),
+        cleanings=sorted(cleaning_keys, key=lambda c: (c[1], c[0])), economics=read_economics(top.mapping("economics")),
         limits=_limits(top.mapping("limits"), net), projection=projection, significance=significance,
-        lines=doc.lines, network=net)
+        lines=doc.lines, network=net, time_format=_time_format(top), cleaning_keys=cleaning_keys)
 
 
 # ----------------------------------------------------------------------------- sections
@@ -271,10 +290,11 @@ def _measured_quantity(f: Fields) -> str:
                         f"got {', '.join(given) if given else 'none'}")
 
 
-def _cleanings(top: Fields, case: Case) -> list:
+def _cleanings(top: Fields, case: Case) -> dict:
+    """(exchanger, time) -> key path of each logged cleaning."""
     raw = top.raw("cleanings", required=False)
     if raw is None:
-        return []
+        return {}
     if not isinstance(raw, list):
         raise top.error("cleanings", f"expected a list of {{exchanger: TAG, date: YYYY-MM-DD}}, got {describe(raw)}")
     seen = {}
@@ -290,7 +310,26 @@ def _cleanings(top: Fields, case: Case) -> list:
         seen[tag, when] = i
         f.text("description")
         f.finish()
-    return sorted(seen, key=lambda c: (c[1], c[0]))
+    return {cleaning: ("cleanings", i, "date") for cleaning, i in seen.items()}
+
+
+def _time_format(top: Fields) -> str | None:
+    """The data's time format in strftime codes: it must write a date (year, month and day) that
+    it reads back, and carry no time zone (times are the plant's clock)."""
+    text = top.text("time_format")
+    if text is None:
+        return None
+    example = "strftime codes such as '%d/%m/%Y %H:%M' (day/month/year hour:minute)"
+    if re.search(r"%[zZ]", text):
+        raise top.error("time_format", f"{shorten(text)}: times are read as the plant's clock shows them, without a "
+                                       "time zone; leave out %z and %Z (and export the times without an offset)")
+    try:
+        read_back = datetime.strptime(FORMAT_SAMPLE.strftime(text), text)
+    except ValueError:
+        read_back = None
+    if read_back is None or read_back.date() != FORMAT_SAMPLE.date():
+        raise top.error("time_format", f"expected {example} that write and read back a whole date; got {shorten(text)}")
+    return text
 
 
 def read_economics(f: Fields | None) -> dict | None:
@@ -318,7 +357,7 @@ def _limits(f: Fields | None, net: Network) -> dict:
     for key, kind in (("fired_duty", q.DUTY), ("inlet_temperature", q.TEMPERATURE)):
         section = f.mapping(key, what="a mapping of heater tags to their limit")
         for unit in list(section.value) if section is not None else ():
-            resolve_duty_unit(net, unit, error_at(section, unit))
+            resolve_duty_unit(net, unit, error_at(section, unit), word="heater")
             limits[key][unit] = read_quantity(section, unit, kind, required=True, above=0.0 if kind is q.DUTY else None)
         if section is not None:
             section.finish()
@@ -365,14 +404,47 @@ def read_duration(f: Fields, key, default) -> pd.Timedelta:
 
 
 def read_timestamp(f: Fields, key) -> pd.Timestamp:
+    """A date or time of the file: ISO 8601 only (:data:`ISO_TIME`), without a time-zone offset."""
     raw = f.raw(key)
-    expected = "a date such as 2026-03-14 or a time such as '2026-03-14 06:00'"
     if isinstance(raw, bool) or not hasattr(raw, "year") and not isinstance(raw, str):
-        raise f.error(key, f"expected {expected}, got {describe(raw)}")
+        raise f.error(key, f"expected {ISO_EXAMPLE}, got {describe(raw)}")
+    if isinstance(raw, str) and not ISO_TIME.fullmatch(raw.strip()):
+        raise f.error(key, f"expected {ISO_EXAMPLE}, got {shorten(raw)}: 04/01/2027 is April to some and January "
+                           "to others")
     try:
-        when = pd.Timestamp(raw)
+        when = pd.Timestamp(raw.strip() if isinstance(raw, str) else raw)
     except (ValueError, TypeError, OverflowError):
-        raise f.error(key, f"expected {expected}; cannot read {shorten(raw)}") from None
-    if pd.isna(when):
-        raise f.error(key, f"expected {expected}, got {shorten(raw)}")
-    return when.tz_convert(None) if when.tzinfo is not None else when
+        raise f.error(key, f"expected {ISO_EXAMPLE}; cannot read {shorten(raw)}") from None
+    if pd.isna(when) or when.tzinfo is not None:
+        raise f.error(key, f"expected {ISO_EXAMPLE} without a time-zone offset, got {shorten(str(raw))}")
+    return when
+
+
+def shown_duration(duration: pd.Timedelta) -> str:
+    """A duration as a person writes it: '3 weeks', '10 days', else pandas' text.
+
+    >>> shown_duration(pd.Timedelta(days=21)), shown_duration(pd.Timedelta(days=1))
+    ('3 weeks', '1 day')
+    """
+    for unit, length in (("week", pd.Timedelta(weeks=1)), ("day", pd.Timedelta(days=1))):
+        if duration % length == pd.Timedelta(0):
+            count = duration // length
+            return f"{count} {unit}{'s' * (count != 1)}"
+    return str(duration)
+
+
+def whole_steps(f: Fields, key, duration: pd.Timedelta, step: pd.Timedelta, step_key=None) -> int:
+    """``duration`` (read at ``key`` of ``f``) as a whole number of ``step``s. Part steps are
+    refused naming the nearest whole numbers; a duration shorter than one step too, at
+    ``step_key`` (where the step was read) if given, else at ``key``."""
+    whole, rest = divmod(duration, step)
+    if whole < 1 and step_key is not None:
+        raise f.error(step_key, f"the step ({shown_duration(step)}) is longer than the {key} "
+                                f"({shown_duration(duration)})")
+    if whole < 1:
+        raise f.error(key, f"{shown_duration(duration)} is shorter than one step ({shown_duration(step)})")
+    if rest:
+        raise f.error(key, f"{shown_duration(duration)} is {duration / step:.4g} steps of {shown_duration(step)}, not "
+                           f"a whole number: use {shown_duration(whole * step)} ({whole} step{'s' * (whole != 1)}) or "
+                           f"{shown_duration((whole + 1) * step)} ({whole + 1} steps)")
+    return int(whole)

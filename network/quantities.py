@@ -138,7 +138,9 @@ def registry():
     """The one pint registry (built lazily: it takes a moment to load)."""
     import pint
 
-    return pint.UnitRegistry(autoconvert_offset_to_baseunit=False)
+    ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=False)
+    ureg.define("MMBtu = 1e6 * Btu")  # the trade's million Btu (pint alone reads MM as mega-mega)
+    return ureg
 
 
 class QuantityError(ValueError):
@@ -224,24 +226,80 @@ def _parse(text: str, kind: Kind) -> float:
     magnitude, unit_text = float(match.group(1)), match.group(2)
     if not unit_text:
         return magnitude
-    if unit_text == "%":
-        unit_text = "percent"
-    unit_text = _spell_degrees(unit_text)
-    if not kind.level_temperature:
-        unit_text = _DIFFERENCE.sub(r"delta_deg\1", unit_text)
+    density = None
+    if kind is MASS_FLOW and _AT_DENSITY.search(unit_text):
+        unit_text, density_text = _AT_DENSITY.split(unit_text, maxsplit=1)
+        density = to_default_unit(density_text, DENSITY)
+    unit_text = unit_spelling(unit_text, kind)
     ureg = registry()
     try:
         if len(unit_text) > MAX_UNIT_CHARACTERS:
             raise ValueError("too long")
         quantity = ureg.Quantity(magnitude, ureg.parse_units(unit_text))
+        if density is not None:
+            quantity = quantity.to("m^3/s") * ureg.Quantity(density, "kg/m^3")
         number = float(quantity.to(kind.unit).magnitude)
     except pint.DimensionalityError:
+        if kind is MASS_FLOW and density is None and _is_volume_flow(ureg, unit_text):
+            raise QuantityError(f"expected {kind.name}, got {shorten(text)}, whose units are not of that kind: a "
+                                f"volume flow; give the density after it, e.g. '{text.strip()} at 870 kg/m^3'") from None
         raise QuantityError(f"expected {kind.name} such as {kind.example}, got {shorten(text)}, whose units are not "
                             f"of that kind{_degree_hint(text)}") from None
     except Exception:  # pint's expression parser fails in many ways (even AssertionError) on junk
         raise QuantityError(f"expected {kind.name} such as {kind.example}; cannot read the units of "
                             f"{shorten(text)}{_degree_hint(text)}") from None
     return number
+
+
+_AT_DENSITY = re.compile(r"\s+at\s+")
+"""'50000 bbl/d at 870 kg/m^3': a volume flow with the density that makes it a mass flow."""
+_TYPESET = {"\u00b7": "*", "\u22c5": "*", "\u00b2": "^2", "\u00b3": "^3"}
+"""Data sheets' middle dot and superscripts ('Btu/h·ft²·°F') in pint's spelling."""
+
+
+def unit_spelling(unit_text: str, kind: Kind) -> str:
+    """Units as written ('°F', 'Btu/h·ft²·°F', '%') in pint's spelling; outside temperature
+    levels a degree is a difference (delta_degF)."""
+    if unit_text == "%":
+        return "percent"
+    over, slash, under = unit_text.partition("/")
+    if slash and "/" not in under and any(dot in under for dot in "\u00b7\u22c5"):
+        unit_text = f"{over}/({under})"  # 'Btu/h·ft²·°F': the dotted units after the slash are all below it
+    for sign, spelt in _TYPESET.items():
+        unit_text = unit_text.replace(sign, spelt)
+    unit_text = _spell_degrees(unit_text)
+    return unit_text if kind.level_temperature else _DIFFERENCE.sub(r"delta_deg\1", unit_text)
+
+
+def _is_volume_flow(ureg, unit_text: str) -> bool:
+    try:
+        return ureg.parse_units(unit_text).dimensionality == ureg.parse_units("m^3/s").dimensionality
+    except Exception:  # pint's parser fails in many ways on junk
+        return False
+
+
+def conversion_to(unit_text: str, kind: Kind) -> tuple[float, float]:
+    """(scale, offset) with value in ``kind``'s default unit = scale · value in ``unit_text`` +
+    offset: how reports show values in a chosen unit (settings.display_units). Raises
+    :class:`QuantityError` for a unit that is not of that kind.
+
+    >>> [round(v, 6) for v in conversion_to("degF", TEMPERATURE)]
+    [0.555556, -17.777778]
+    >>> round(conversion_to("MMBtu/h", DUTY)[0], 6)
+    293.071111
+    """
+    import pint
+
+    ureg = registry()
+    try:
+        units = ureg.parse_units(unit_spelling(str(unit_text).strip(), kind))
+        zero, one = (float(ureg.Quantity(v, units).to(kind.unit).magnitude) for v in (0.0, 1.0))
+    except pint.DimensionalityError:
+        raise QuantityError(f"{shorten(unit_text)} is not a unit of {kind.name} (such as "
+                            f"{kind.example}){_degree_hint('1 ' + str(unit_text))}") from None
+    except Exception:  # pint's expression parser fails in many ways on junk
+        raise QuantityError(f"cannot read the unit {shorten(unit_text)}{_degree_hint('1 ' + str(unit_text))}") from None
+    return one - zero, zero
 
 
 def _spell_degrees(unit_text: str) -> str:

@@ -129,7 +129,7 @@ def read_text(path) -> tuple[str, str]:
     name = str(path)
     try:
         if path.is_dir():
-            raise CaseError("this is a directory, not a case file", file=name)
+            raise CaseError("this is a directory, not a file", file=name)
         if path.exists() and not stat.S_ISREG(path.stat().st_mode):
             raise CaseError("this is not a regular file (a device or a pipe?); give a case file", file=name)
         with path.open("rb") as handle:
@@ -188,3 +188,25 @@ def read_document(path) -> Document:
     """Read and parse a YAML case file."""
     text, name = read_text(path)
     return parse_yaml(text, name)
+
+
+FILE_KINDS = (("case file", ("streams", "fluids", "exchangers"), "hxtrain run or hxtrain check"),
+              ("study file", ("base",), "hxtrain compare, sweep or uncertainty"),
+              ("monitoring file", ("tags", "data"), "hxtrain monitor"),
+              ("schedule file", ("horizon", "cleaning"), "hxtrain schedule"))
+"""Each kind of input file, the top-level keys only it has, and the command that takes it."""
+
+
+def refuse_other_kind(doc: Document, expected: str):
+    """A CaseError when ``doc`` (read as an ``expected`` kind of :data:`FILE_KINDS`) has none of
+    that kind's own keys and a key of another kind: the wrong kind of file was given, and the
+    message says which kind it looks like and which command takes it."""
+    if not isinstance(doc.data, dict):
+        return
+    own = {kind: [k for k in keys if k in doc.data] for kind, keys, _ in FILE_KINDS}
+    if own[expected]:
+        return
+    for kind, _, command in FILE_KINDS:
+        if own[kind]:
+            raise doc.error((own[kind][0],), f"this looks like a {kind} (it has '{own[kind][0]}'), not a {expected}: "
+                                             f"{command} takes it")

@@ -13,10 +13,12 @@ m²·K/W per day, J/mol), bounded by that table; ``initial`` (the resistance at 
 defaults to the case's fouling of that exchanger. Conditions of threshold models (film
 temperature, Reynolds number, shear) are set by the network, never in the file.
 
-Time: a cleaning's duration is rounded UP to whole steps (10 days with weekly steps takes 2
-steps: an exchanger cannot be back in service part-way through a step); fixed baseline intervals
-are rounded to the nearest whole step. A ``not_allowed`` period is inclusive: a ``to`` date (at
-midnight) includes that whole day; it becomes the indices of every step it overlaps. An
+Time: dates are ISO 8601. The horizon and fixed baseline intervals are whole numbers of steps
+(part steps are refused, naming the nearest whole numbers), the horizon at most
+:data:`MAX_STEPS`; a cleaning's duration is rounded UP to whole steps (10 days with weekly steps
+takes 2 steps: an exchanger cannot be back in service part-way through a step). A
+``not_allowed`` period is inclusive: a ``to`` date (at midnight) includes that whole day; it
+becomes the indices of every step it overlaps (widened to whole steps; the report says so). An
 operating-plan entry holds from its date until the next entry's (the case's values before the
 first); its key paths are those a scenario may vary (:func:`.scenarios.varied_paths`).
 
@@ -27,7 +29,6 @@ case file.
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import NamedTuple
@@ -42,10 +43,10 @@ from .changes import key_kind, study_number
 from .errors import CaseError
 from .fields import Fields, describe, nearest
 from .graph import Network, build_network
-from .monitoring_file import (DEFAULT_STEP, read_base_case, read_duration, read_economics, error_at, read_quantity, relative_path,
-                              read_timestamp, load_monitoring)
+from .monitoring_file import (DEFAULT_STEP, read_base_case, read_duration, read_economics, error_at, read_quantity,
+                              relative_path, read_timestamp, load_monitoring, shown_duration, whole_steps)
 from .quantities import shorten
-from .reading import Document, read_document
+from .reading import Document, read_document, refuse_other_kind
 from .scenarios import unit_parameter
 from .sections import UNIT_SECTIONS
 
@@ -58,15 +59,13 @@ DEFAULT_AT_MOST_AT_ONCE = 1
 DEFAULT_FIXED_INTERVALS = tuple(pd.Timedelta(weeks=w) for w in (26, 39, 52, 78))
 """Fixed cleaning intervals of the baselines: half-yearly to every eighteen months, the span of
 crude preheat cleaning cycles (common practice); those not shorter than the horizon are left out."""
-MAX_STEPS = 10_000
-"""A horizon of more steps is a slip (27 years of days): nobody plans cleanings that finely."""
+MAX_STEPS = 520
+"""The most steps a horizon may have (ten years of weeks): the optimiser's cycle MILP has a
+variable per exchanger and pair of (start, end) steps, so it grows with the square of the steps
+(5,000 weekly steps grew to 17 GB of memory); plan longer horizons with longer steps."""
 TOP_KEYS = ("title", "description", "case", "start", "horizon", "step", "fouling", "operation", "economics",
             "cleaning", "furnace", "baselines")
-OTHER_FILES = {"streams": "a case file", "fluids": "a case file", "base": "a study file", "tags": "a monitoring file",
-               "data": "a monitoring file"}
 DAY = pd.Timedelta(days=1)
-ISO_DATE = re.compile(r"^\d{4}-\d{2}-\d{2}(?:[ T]\d{2}:\d{2}(?::\d{2})?)?$")
-"""Dates as ISO 8601 writes them: 04/01/2027 is April to some and January to others."""
 
 
 class FoulingLaw(NamedTuple):
@@ -184,16 +183,13 @@ def schedule_from_mapping(data, file="<schedule>", folder=".") -> ScheduleFile:
 
 def schedule_from_document(doc: Document, folder: Path) -> ScheduleFile:
     top = Fields(doc, (), doc.data, "a mapping at the top level (case, start, horizon, fouling, cleaning, ...)")
-    for key, what in OTHER_FILES.items():
-        if key in top.value:
-            raise doc.error((key,), f"this looks like {what} (it has '{key}'), not a schedule file; a schedule "
-                                    "file names its case under 'case'")
+    refuse_other_kind(doc, "schedule file")
     top.allowed.update(TOP_KEYS)
     top.finish()
     top.text("description")
     case = read_base_case(top, folder)
     net = build_network(case)
-    start = _date(top, "start")
+    start = read_timestamp(top, "start")
     step, steps = _horizon(top)
     laws, monitoring = _fouling(top, case, folder)
     cleanable = [t for t, data in case.exchangers.items() if t in laws or (monitoring and data["spec"].fouling)]
@@ -214,44 +210,23 @@ def schedule_from_document(doc: Document, folder: Path) -> ScheduleFile:
 # ----------------------------------------------------------------------------- sections
 
 
-def _date(f: Fields, key) -> pd.Timestamp:
-    raw = f.raw(key)
-    if isinstance(raw, str) and not ISO_DATE.match(raw.strip()):
-        raise f.error(key, f"expected an ISO date such as 2027-01-04 (YYYY-MM-DD, a time as '2027-01-04 06:00' "
-                           f"if needed), got {shorten(raw)}")
-    return read_timestamp(f, key)
-
-
 def _day(when: pd.Timestamp) -> str:
     return str(when.date()) if when == when.normalize() else str(when)
 
 
-def _shown(duration: pd.Timedelta) -> str:
-    if duration % pd.Timedelta(weeks=1) == pd.Timedelta(0):
-        weeks = duration // pd.Timedelta(weeks=1)
-        return f"{weeks} week{'s' * (weeks != 1)}"
-    if duration % DAY == pd.Timedelta(0):
-        return f"{duration // DAY} day{'s' * (duration != DAY)}"
-    return str(duration)
-
-
 def _horizon(top: Fields) -> tuple[pd.Timedelta, int]:
     top.raw("horizon")  # required (with the misspelling hint)
-    horizon, step = read_duration(top, "horizon", None), read_duration(top, "step", DEFAULT_STEP)
-    if step > horizon:
-        raise top.error("step", f"the step ({_shown(step)}) is longer than the horizon ({_shown(horizon)})")
-    whole, rest = divmod(horizon, step)
-    if rest:
-        raise top.error("horizon", f"{_shown(horizon)} is {horizon / step:.4g} steps of {_shown(step)}, not a whole "
-                                   f"number: use {_shown(whole * step)} ({whole} steps) or "
-                                   f"{_shown((whole + 1) * step)} ({whole + 1} steps)")
-    if whole > MAX_STEPS:
-        raise top.error("horizon", f"{whole} steps of {_shown(step)}: more than {MAX_STEPS} (use a longer step)")
-    return step, int(whole)
+    step = read_duration(top, "step", DEFAULT_STEP)
+    steps = whole_steps(top, "horizon", read_duration(top, "horizon", None), step, step_key="step")
+    if steps > MAX_STEPS:
+        raise top.error("horizon", f"{steps:,} steps of {shown_duration(step)}: more than the {MAX_STEPS} the optimiser "
+                                   "plans (its cycle MILP grows with the square of the steps); use a longer step or a "
+                                   "shorter horizon")
+    return step, steps
 
 
 def _nearest_steps(interval: pd.Timedelta, step: pd.Timedelta) -> int:
-    return max(1, int(interval / step + 0.5))  # half up, at least one step
+    return max(1, int(interval / step + 0.5))  # half up, at least one step (the defaults only)
 
 
 def _unit_in(case: Case, tag, section: str, fail):
@@ -309,9 +284,23 @@ def _law(e: Fields, spec) -> FoulingLaw:
     parameters = {p.name: e.quantity(p.name, parameter_kind(name, p.name), required=p.name != "r_f0", default=0.0)
                   for p in MODELS[name].parameters}
     initial = e.quantity("initial", q.FOULING, required=False, default=lumped_fouling(spec))
+    if name == "asymptotic":
+        _below_asymptote(e, parameters, initial)
     e.text("description")
     e.finish()
     return FoulingLaw(name, parameters, initial)
+
+
+def _below_asymptote(e: Fields, parameters: dict, initial: float):
+    """An asymptotic law's start must not lie above its asymptote r_f0 + r_inf: the usual slip is
+    writing the asymptote itself as r_inf, which is the rise above r_f0."""
+    r_f0, r_inf = parameters["r_f0"], parameters["r_inf"]
+    if initial <= (r_f0 + r_inf) * (1.0 + 1e-12):
+        return
+    start = "initial" if e.has("initial") else "the case's fouling (the default initial)"
+    raise e.error("r_inf", f"{start} {initial:.4g} m²·K/W lies above the asymptote r_f0 + r_inf = {r_f0:.4g} + "
+                           f"{r_inf:.4g} = {r_f0 + r_inf:.4g} m²·K/W: r_inf is the rise above r_f0, not the asymptote "
+                           f"itself (an asymptote of {initial:.4g} or more needs r_inf >= {initial - r_f0:.4g})")
 
 
 def _cleaning_terms(f: Fields, case: Case, cleanable: list, step, steps) -> dict:
@@ -343,7 +332,7 @@ def _terms(f: Fields, default: CleaningTerms | None, step, steps) -> CleaningTer
     fallback = default or CleaningTerms(0.0, 0, allowed)
     count = fallback.duration_steps if duration is None else steps_covering(duration, step)
     if allowed and count >= steps:
-        raise f.error("duration", f"a cleaning of {count} steps of {_shown(step)} (its duration rounded up to whole "
+        raise f.error("duration", f"a cleaning of {count} steps of {shown_duration(step)} (its duration rounded up to whole "
                                   f"steps) does not fit in the horizon of {steps} steps")
     return CleaningTerms(fallback.cost if cost is None else cost, count, allowed)
 
@@ -358,7 +347,7 @@ def _not_allowed(f: Fields, start, step, steps) -> list:
     end, periods = start + steps * step, []
     for i, item in enumerate(raw):
         p = Fields(f.doc, f.path + ("not_allowed", i), item, "a period: {from: DATE, to: DATE, why: TEXT}")
-        begin, until = _date(p, "from"), _date(p, "to")
+        begin, until = read_timestamp(p, "from"), read_timestamp(p, "to")
         if until < begin:
             raise p.error("to", f"the period ends ({_day(until)}) before it begins ({_day(begin)})")
         stop = until + DAY if until == until.normalize() else until  # a date: to the end of that day
@@ -381,7 +370,7 @@ def _operation(top: Fields, net: Network, laws: dict, monitoring, start, horizon
     entries = []
     for i, item in enumerate(raw):
         f = Fields(top.doc, ("operation", i), item, "an operating period: {from: DATE, set: {KEY PATH: VALUE}}")
-        when = _date(f, "from")
+        when = read_timestamp(f, "from")
         if not start <= when < start + horizon:
             raise f.error("from", f"{_day(when)} lies outside the horizon ({start.date()} to "
                                   f"{(start + horizon - DAY).date()})")
@@ -460,9 +449,9 @@ def _baselines(top: Fields, step, steps, design: dict) -> dict:
         for i in items.value:
             interval = read_duration(items, i, None)
             if interval is None or interval >= step * steps:
-                raise items.error(i, f"expected a duration shorter than the horizon ({_shown(step * steps)}), got "
-                                     f"{describe(raw[i])}")
-            intervals.append(_nearest_steps(interval, step))
+                raise items.error(i, f"expected a duration shorter than the horizon ({shown_duration(step * steps)}), "
+                                     f"got {describe(raw[i])}")
+            intervals.append(whole_steps(items, i, interval, step))
     threshold = None if f is None else read_quantity(f, "fouling_threshold", q.FOULING, above=0.0)
     if f is not None:
         f.finish()

@@ -18,6 +18,7 @@ from hxtrain.units.exchanger_model import Exchanger
 from hxtrain.units.protocol import HEAT_SOURCES, UnitModel
 
 from . import quantities as q
+from .air_coolers import build_air_cooler, read_air_cooler
 from .exchangers import SIDES, read_exchanger
 from .fields import Fields
 from .paths import Origin, read_path
@@ -185,6 +186,8 @@ UNIT_SECTIONS = (
                 through=SIDES),
     UnitSection("heaters", "heater", "heater tags to their data", _read_heater, _build_heater, through=(None,)),
     UnitSection("coolers", "cooler", "cooler tags to their data", _read_cooler, _build_cooler, through=(None,)),
+    UnitSection("air_coolers", "air cooler", "air cooler tags to their data", read_air_cooler, build_air_cooler,
+                through=(None,)),
     UnitSection("mixers", "mixer", "mixer names to their outlet path", _read_mixer, _build_mixer, path_end="many"),
     UnitSection("splitters", "splitter", "splitter names to their branches", _read_splitter, _build_splitter,
                 path_end="one"),

@@ -15,6 +15,10 @@
         target: {value: METRIC, equals: VALUE}      # °C for a temperature, kW for a duty, or with units
                 # or {difference: [METRIC, METRIC], equals: VALUE}    # K (or kW) for a difference
         changes: [...]                # optional: applied before adjusting
+    uncertainty:                      # a Monte Carlo run: see uncertainty.py
+      samples: 1000
+      seed: 1
+      inputs: {KEY_PATH: {distribution: normal, mean: M, sd: S, between: [LOW, HIGH]}, ...}
     sweeps:
       NAME:
         grid: {KEY_PATH: [values...] or {from: A, to: B, steps: N}}   # one or two key paths
@@ -39,16 +43,15 @@ import numpy as np
 
 from . import quantities as q
 from .case import Case, case_from_document
-from . import sections as registry
 from .changes import (WHOLE_NUMBER, apply_change, apply_changes, existing_number, is_branch_fraction, key_kind,
                       locate, refuse_temperature_multiple, study_number, value_changes, written_path)
 from .demos import DEMO_CASES, demo_case_path
 from .errors import CaseError
 from .fields import Fields, describe
-from .reading import Document, read_document
+from .reading import Document, read_document, refuse_other_kind
+from .uncertainty import read_uncertainty
 
 METRIC_FIELDS = ("duty", "hot_in", "hot_out", "cold_in", "cold_out", "inlet", "outlet")
-CASE_SECTIONS = ("fluids",) + registry.section_names()
 TARGET_DUTY = q.Kind("a heat duty", "kW", '2500 or "25 MW"')
 TARGET_DIFFERENCE = q.Kind("a temperature difference", "delta_degC", '0, 5 or "9 delta_degF"')
 """What a target equals besides a temperature: a duty, or a difference of two temperatures or two
@@ -105,6 +108,8 @@ class Study:
     specifications: list = field(default_factory=list)
     sweeps: list = field(default_factory=list)
     lines: dict = field(default_factory=dict, repr=False)
+    uncertainty: object = None
+    """The ``uncertainty`` section (:class:`.uncertainty.Uncertainty`): inputs to sample, or None."""
 
     def error(self, path, message) -> CaseError:
         return Document(None, self.file, self.lines).error(tuple(path), message)
@@ -158,10 +163,7 @@ def _culprit(changes, case_path) -> tuple:
 def load_study(path) -> Study:
     doc = read_document(path)
     top = Fields(doc, (), doc.data, "a mapping with base, variants, specifications and sweeps")
-    found = [k for k in CASE_SECTIONS if k in doc.data]
-    if "base" not in doc.data and found:
-        raise doc.error((), f"this looks like a case file (it has '{found[0]}'), not a study file (with 'base'); "
-                            "use hxtrain run or hxtrain check on a case file")
+    refuse_other_kind(doc, "study file")
     base = _base(top, Path(doc.file))
     study = Study(doc.file, top.text("title", default="") or "", base, lines=doc.lines)
     top.text("description")
@@ -182,9 +184,10 @@ def load_study(path) -> Study:
     for name, f in _entries(top, "sweeps", "sweep names to their grids",
                             "'grid', one or two key paths with their values, e.g. {streams.crude.flow: [80, 90]}"):
         study.sweeps.append(_sweep(name, f))
+    study.uncertainty = read_uncertainty(top, base)
     top.finish()
-    if not (study.variants or study.specifications or study.sweeps):
-        raise doc.error((), "the study has no variants, specifications or sweeps")
+    if not (study.variants or study.specifications or study.sweeps or study.uncertainty):
+        raise doc.error((), "the study has no variants, specifications, sweeps or uncertainty")
     _check_before_running(study)
     return study
 

@@ -10,7 +10,7 @@ The names below are imported on first use (PEP 562), so that importing the packa
 interrupt during it is handled by the command like any other.
 """
 
-from importlib import import_module
+from hxtrain.units import lazy_exports
 
 _EXPORTS = {
     "simulate": ".simulation.results",
@@ -27,16 +27,7 @@ __all__ = ["simulate", "simulate_batch", "evaluate", "SimulationResult", "Conver
            "package_version"]
 
 
-def __getattr__(name):
-    if name not in _EXPORTS:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    value = getattr(import_module(_EXPORTS[name], __name__), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__():
-    return sorted({*globals(), *_EXPORTS})
+__getattr__, __dir__ = lazy_exports(__name__, _EXPORTS)
 
 
 def package_version() -> str:

@@ -48,6 +48,11 @@ import random
 from dataclasses import dataclass, field
 
 ARRANGEMENTS = ("counterflow", "parallel_flow", "tema_e", "crossflow", "double_pipe")
+"""The arrangements of the fixed-seed networks (``test_linear_crosscheck.py`` assembles its own
+linear system for these): the default, so that those seeds keep giving the same networks."""
+EVERY_ARRANGEMENT = ARRANGEMENTS + ("tema_f", "tema_g", "tema_h", "tema_j", "tema_x", "plate", "air_cooler")
+"""Every arrangement of the registry (``hxtrain.units.arrangements.ARRANGEMENTS``), with the
+options each takes drawn by :func:`_extended_options` (``generate_case(..., arrangements=...)``)."""
 
 SECTIONS = ("fluids", "streams", "exchangers", "heaters", "coolers", "mixers", "splitters", "products")
 
@@ -153,6 +158,7 @@ class _Builder:
     counter: dict = field(default_factory=dict)
     max_blocks: int = 6
     blocks: int = 0
+    arrangements: tuple = ARRANGEMENTS
 
     def name(self, prefix):
         self.counter[prefix] = self.counter.get(prefix, 0) + 1
@@ -263,9 +269,12 @@ def _split_budget(ch, total, parts, first_at_least_one=False):
     return budgets
 
 
-def generate_case(ch, *, max_exchangers=15, fixed_duty=True, title="generated network"):
-    """A valid case dict (keys as in a case file) built from the decisions of chooser ``ch``."""
+def generate_case(ch, *, max_exchangers=15, fixed_duty=True, title="generated network", arrangements=ARRANGEMENTS):
+    """A valid case dict (keys as in a case file) built from the decisions of chooser ``ch``;
+    exchangers take an arrangement of ``arrangements`` (beyond :data:`ARRANGEMENTS`, with the
+    options of :func:`_extended_options`)."""
     b = _Builder(ch, fixed_duty)
+    b.arrangements = tuple(arrangements)
     b.case = {"title": title, "fluids": {}, "streams": {}, "exchangers": {}, "heaters": {}, "coolers": {},
               "mixers": {}, "splitters": {}, "products": {}}
     n_fluids = ch.integer(1, 3)
@@ -385,11 +394,11 @@ def _pair_exchangers(b):
         tag = f"E-{101 + i}"
         cs, hs = cold[i], hot[order[i]]
         cs.label, hs.label = f"{tag}.cold", f"{tag}.hot"
-        b.case["exchangers"][tag] = _exchanger_data(ch, min(cs.c, hs.c))
+        b.case["exchangers"][tag] = _exchanger_data(ch, min(cs.c, hs.c), b.arrangements)
 
 
-def _exchanger_data(ch, c_min):
-    arrangement = ch.choice(list(ARRANGEMENTS))
+def _exchanger_data(ch, c_min, arrangements=ARRANGEMENTS):
+    arrangement = ch.choice(list(arrangements))
     shells = ch.integer(1, 4)
     ua = ch.real(0.1, 4.0) * c_min
     data = {"arrangement": arrangement, "shells": shells}
@@ -402,12 +411,14 @@ def _exchanger_data(ch, c_min):
             data["shells_in_parallel"] = parallel
     else:
         data["ua"] = ua
-    if arrangement == "tema_e":
+    if arrangements != ARRANGEMENTS:
+        data.update(_extended_options(ch, arrangement))
+    elif arrangement == "tema_e":
         passes = ch.choice([2, 4, 6, 8])
         if passes != 2 or ch.chance(0.3):
             data["tube_passes"] = passes
             data["shell_side"] = ch.choice(["hot", "cold"])
-    if arrangement == "crossflow":
+    if arrangement == "crossflow" and "mixed_side" not in data:
         data["mixed_side"] = ch.choice(["none", "hot", "cold"])
     bypass = {}
     for side in ("hot", "cold"):
@@ -415,6 +426,47 @@ def _exchanger_data(ch, c_min):
             bypass[side] = round(ch.real(0.0, 0.5), 6)  # a case writes a fraction, not a denormal
     if bypass:
         data["bypass"] = bypass
+    return data
+
+
+PLATE_PAIRS = ((1, 1), (1, 2), (2, 1), (1, 3), (3, 1), (1, 4), (4, 1), (2, 2), (3, 3), (4, 4), (2, 3), (3, 2),
+               (2, 4), (4, 2))
+AIR_COOLER_SETTINGS = ((1, 1), (3, 1), (6, 1), (2, 2), (4, 2), (3, 3), (4, 4), (5, 5))
+"""(tube rows, tube passes) of air-cooled bundles with a relation."""
+
+
+def _extended_options(ch, arrangement):
+    """The keys of one arrangement of :data:`EVERY_ARRANGEMENT`, drawn over every option it takes
+    (tube passes, the shell side, a J shell's inlets, an X shell's mixing, plate passes and flow
+    directions, air-cooler rows) and, now and then, shells joined in parallel flow."""
+    data = {"shell_side": ch.choice(["hot", "cold"])}
+    if ch.chance(0.25):
+        data["shells_flow"] = "parallel_flow"
+    if arrangement == "tema_e":
+        data["tube_passes"] = ch.choice([1, 2, 3, 4, 6, 8])
+        if data["tube_passes"] == 1:
+            data["tube_flow"] = ch.choice(["counterflow", "parallel_flow"])
+    elif arrangement == "tema_f":
+        data["tube_passes"] = ch.choice([2, 4, 8])
+    elif arrangement in ("tema_g", "tema_h"):
+        data["tube_passes"] = ch.choice([1, 2])
+    elif arrangement == "tema_j":
+        data["tube_passes"] = ch.choice([1, 2, 4])
+        data["shell_inlets"] = ch.choice([1, 2])
+    elif arrangement == "tema_x":
+        data["shell_fluid_mixed"] = ch.chance(0.5)
+    elif arrangement == "crossflow":
+        data["mixed_side"] = ch.choice(["none", "hot", "cold", "both"])
+    elif arrangement == "plate":
+        hot, cold = ch.choice(list(PLATE_PAIRS))
+        data["passes"] = {"hot": hot, "cold": cold}
+        low, high = sorted((hot, cold))
+        if low > 1 and (low == high or high in (3, 4)):
+            data["overall_flow"] = ch.choice(["counterflow", "parallel_flow"])
+        if low == high or (low, high) == (1, 3):
+            data["channel_flow"] = ch.choice(["counterflow", "parallel_flow"])
+    elif arrangement == "air_cooler":
+        data["tube_rows"], data["tube_passes"] = ch.choice(list(AIR_COOLER_SETTINGS))
     return data
 
 
@@ -472,6 +524,8 @@ def features(case):
     exchangers = case.get("exchangers", {})
     for data in exchangers.values():
         found.add(data["arrangement"])
+        if data.get("shells_flow") == "parallel_flow" and data.get("shells", 1) > 1:
+            found.add("shells in parallel flow")
         if data.get("bypass"):
             found.add("bypass")
         if data.get("shells", 1) > 1:

@@ -3,8 +3,10 @@
 Synthetic truth (the strongest test for plant data): each exchanger is rated by hxtrain with a
 known fouling resistance, and its outlet temperatures and flows are read back through the unit's
 ``condition``; the fouling must come back to 1e-8 relative for every arrangement the forward
-rating supports, with bypasses, shells in series and in parallel, either side in the shell, and
-at a throughput far from the design point (a flow change must never be read as fouling).
+rating supports (the registry's F, G, H, J and X shells, 1-1 and 1-3 E shells, plates, air-cooled
+bundles and crossflow with both fluids mixed included), with bypasses, shells in series (in
+counterflow and in parallel flow) and in parallel, either side in the shell, and at a throughput
+far from the design point (a flow change must never be read as fouling).
 """
 
 import itertools
@@ -33,6 +35,33 @@ ARRANGEMENTS = [
     ({"arrangement": "crossflow", "mixed_side": "cold"}, "crossflow, cold mixed"),
     ({"arrangement": "counterflow", "shells": 2, "bypass": {"cold": 0.2}}, "counterflow with a cold bypass"),
     ({"arrangement": "tema_e", "bypass": {"hot": 0.15, "cold": 0.1}}, "1-2 shell with both bypasses"),
+    # the arrangements of the registry added with issue 16 (inverse by search where no closed form)
+    ({"arrangement": "tema_e", "tube_passes": 1}, "1-1 shell, counterflow"),
+    ({"arrangement": "tema_e", "tube_passes": 1, "tube_flow": "parallel_flow"}, "1-1 shell, parallel flow"),
+    ({"arrangement": "tema_e", "tube_passes": 3}, "1-3 shell, hot in the shell"),
+    ({"arrangement": "tema_e", "tube_passes": 3, "shell_side": "cold"}, "1-3 shell, cold in the shell"),
+    ({"arrangement": "tema_f"}, "F shell, 4 tube passes"),
+    ({"arrangement": "tema_f", "tube_passes": 8, "shell_side": "cold"}, "F shell, 8 tube passes"),
+    ({"arrangement": "tema_g", "tube_passes": 1}, "G shell, 1 tube pass"),
+    ({"arrangement": "tema_g", "shell_side": "cold"}, "G shell, 2 tube passes"),
+    ({"arrangement": "tema_h", "tube_passes": 1, "shell_side": "cold"}, "H shell, 1 tube pass"),
+    ({"arrangement": "tema_h"}, "H shell, 2 tube passes"),
+    ({"arrangement": "tema_j", "tube_passes": 1}, "J shell, 1 tube pass"),
+    ({"arrangement": "tema_j", "shell_inlets": 2, "shell_side": "cold"}, "J shell, 2 inlets, 2 tube passes"),
+    ({"arrangement": "tema_j", "tube_passes": 4}, "J shell, 4 tube passes"),
+    ({"arrangement": "tema_x"}, "X shell, shell fluid unmixed"),
+    ({"arrangement": "tema_x", "shell_fluid_mixed": True, "shell_side": "cold"}, "X shell, shell fluid mixed"),
+    ({"arrangement": "crossflow", "mixed_side": "both"}, "crossflow, both mixed"),
+    ({"arrangement": "plate", "passes": {"hot": 2, "cold": 3}}, "plate 2-3, overall counterflow"),
+    ({"arrangement": "plate", "passes": {"hot": 4, "cold": 2}, "overall_flow": "parallel_flow"},
+     "plate 4-2, overall parallel flow"),
+    ({"arrangement": "plate", "passes": {"hot": 2, "cold": 2}, "overall_flow": "parallel_flow"},
+     "plate 2-2, overall parallel flow"),
+    ({"arrangement": "plate", "passes": {"hot": 1, "cold": 3}, "channel_flow": "parallel_flow"},
+     "plate 1-3, end passes in parallel flow"),
+    ({"arrangement": "air_cooler", "tube_rows": 4, "tube_passes": 2, "shell_side": "cold"}, "air-cooled bundle 4-2"),
+    ({"arrangement": "tema_g", "shells": 2, "shells_flow": "parallel_flow"}, "two G shells in parallel flow"),
+    ({"arrangement": "tema_j", "shells": 3}, "three J shells in counterflow"),
 ]
 
 

@@ -128,7 +128,7 @@ def test_bad_rows_are_skipped_with_a_reason_each(entry):
     assert history.samples.index.is_monotonic_increasing and history.samples.index.is_unique
     # a bad cell blanks that tag only: the rest of its row stays
     for e in entry["expect"]:
-        if e["column"] != "time" and e["reason"] != "missing value":
+        if e["column"] != "" and e["reason"] != "missing value":  # "": the whole row was skipped
             when = history.skipped.loc[history.skipped["row"] == e["row"], "time"].iloc[0]
             row = history.samples.loc[when]
             assert np.isnan(row[e["column"]]) and row.drop(e["column"]).notna().any()
@@ -138,7 +138,7 @@ FULL_BASE = {**yaml.safe_load((CORPUS / "base.yaml").read_text(encoding="utf-8")
              "time_column": "time", "significance": 0.05,
              "steady_state": {"flow_change": "3 %", "temperature_change": 3, "minimum_samples": 2},
              "uncertainty": {"temperature": 1.0, "flow": "2 %", "duty": "5 %"},
-             "projection": {"horizon": "180 days", "step": "7 days"}}
+             "projection": {"horizon": "26 weeks", "step": "7 days"}}
 REPLACEMENTS = [None, -7, 10**400, "NaN", "5 furlong/fortnight", [1, 2], {"value": 1}, True, ""]
 
 
@@ -225,7 +225,7 @@ def test_a_good_monitoring_file_is_read_with_its_defaults(tmp_path):
                                   {"exchanger": "E-101", "date": "2026-02-01"}],
                        economics={"fuel_price": 8.0, "currency": "USD", "furnace_efficiency": "88 %"},
                        limits={"fired_duty": {"F-101": "30 MW"}, "inlet_temperature": {"F-101": "500 degF"}},
-                       projection={"horizon": "90 days"})
+                       projection={"horizon": "13 weeks"})
     m = load_monitoring(path)
     assert m.file == str(path) and m.data_path == tmp_path / "history.csv" and m.time_column == "time"
     assert m.window == pd.Timedelta(hours=6) and m.steady_state.flow_change == DEFAULT_FLOW_CHANGE
@@ -235,7 +235,7 @@ def test_a_good_monitoring_file_is_read_with_its_defaults(tmp_path):
     assert m.economics["co2_per_fuel"] == DEFAULT_CO2_PER_FUEL
     assert m.limits["fired_duty"]["F-101"] == pytest.approx(30_000.0)  # identity: 1 MW = 1000 kW
     assert m.limits["inlet_temperature"]["F-101"] == pytest.approx((500 - 32) * 5 / 9)  # °C = (°F - 32)·5/9
-    assert m.projection.horizon == pd.Timedelta(days=90) and m.projection.step == pd.Timedelta(days=7)
+    assert m.projection.horizon == pd.Timedelta(days=91) and m.projection.step == pd.Timedelta(days=7)
     tags = m.tags
     assert tags["FI-1001"].relative_sigma == DEFAULT_UNCERTAINTY["flow"][1] and tags["FI-1001"].sigma is None
     assert tags["FI-1002"].sigma == pytest.approx(1 / 3.6)                # 1 t/h in kg/s (identity)
@@ -280,12 +280,14 @@ def test_an_xlsx_export_reads_as_the_same_csv_does(tmp_path):
     assert history.sheet == "Sheet1"
 
 
-def test_times_with_utc_offsets_are_read_in_utc(tmp_path):
+def test_times_with_utc_offsets_are_refused_naming_row_and_column(tmp_path):
+    """Daily windows run from the plant's midnight: times carrying a UTC offset are refused with
+    the row and column, not shifted silently."""
     data = hourly("2026-01-01", 3, **{"FI-1001": 342.0})
     data["time"] = ["2026-01-01T02:00+02:00", "2026-01-01T01:00+00:00", "2026-01-01T03:00+01:00"]
-    history = read_history(load_monitoring(write_plant(tmp_path, {"FI-1001": {"flow": "crude", "unit": "t/h"}}, data)))
-    assert list(history.samples.index) == list(pd.to_datetime(["2026-01-01 00:00", "2026-01-01 01:00",
-                                                               "2026-01-01 02:00"]))
+    monitoring = load_monitoring(write_plant(tmp_path, {"FI-1001": {"flow": "crude", "unit": "t/h"}}, data))
+    with pytest.raises(CaseError, match=r"history\.csv: row 2, column 'time': .*time-zone offset"):
+        read_history(monitoring)
 
 
 def test_a_case_file_beside_the_monitoring_file_is_found(tmp_path):
@@ -438,8 +440,11 @@ def test_window_sigma_is_the_instrument_sigma_not_divided_by_the_count(tmp_path)
     assert (windows.count["FI-1001"] == 6).all()
 
 
-def test_a_year_of_hourly_data_for_forty_tags_reads_and_averages_quickly(tmp_path, crude_network, capsys):
-    """Timing is printed, not asserted (run with -s to see it)."""
+def test_a_year_of_hourly_data_for_forty_tags_reads_and_averages_quickly(tmp_path, crude_network, capsys,
+                                                                          monkeypatch):
+    """Timing is printed, not asserted (run with -s to see it). The readings are noise about one
+    value, not the plant's, so the unit-slip screen (tested on its own) is left out here."""
+    monkeypatch.setattr("hxtrain.solver.monitoring.historian.screen_unit_slips", lambda history, monitoring: None)
     points = [p for unit in crude_network.units for p in unit_points(crude_network, unit)][:40]
     tags = {f"TI-{i}": {"temperature": p, "unit": "degF"} for i, p in enumerate(points[:30])}
     tags.update({f"FI-{i}": {"flow": p, "unit": "t/h"} for i, p in enumerate(points[30:])})

@@ -4,7 +4,10 @@ The networks come from ``network_generator.py`` (see its docstring): trains with
 mixers, exchanger bypasses, countercurrent couplings (hot streams meeting the cold train in the
 reverse order), true recycles (a splitter branch with fraction < 1 back to an upstream mixer,
 locally or around a whole feed-effluent loop), heaters (target outlet or fixed duty) and
-coolers, every exchanger arrangement; up to about 50 units (at most 12 exchangers and 6 split or
+coolers, every exchanger arrangement of the registry with the options each takes (TEMA E with 1,
+3 or 2-8 tube passes, F, G, H, J and X shells, crossflow mixed either way, plates by passes and
+flow directions, air-cooled bundles by rows and passes, shells in series in overall parallel
+flow: ``network_generator.EVERY_ARRANGEMENT``); up to about 50 units (at most 12 exchangers and 6 split or
 recycle blocks, to keep the default run near a minute). Every decision is a hypothesis draw,
 so a failing network shrinks to a small one.
 
@@ -33,13 +36,15 @@ from __future__ import annotations
 import random
 
 import numpy as np
+import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
 from hxtrain.network import case_from_mapping
 from hxtrain.solver import simulate
 
-from network_generator import DrawChooser, generate_case, has_fixed_duty, record, shuffled
+from network_generator import EVERY_ARRANGEMENT, DrawChooser, RandomChooser, generate_case, has_fixed_duty, record, \
+    shuffled
 
 ENERGY_CLOSURE = 1e-9
 """Largest relative imbalance accepted (the sequential-modular answer is polished to round-off)."""
@@ -50,15 +55,16 @@ SLACK_K = 1e-9
 @st.composite
 def networks(draw, fixed_duty=True):
     """A valid generated case dict (see network_generator.generate_case)."""
-    return generate_case(DrawChooser(draw), fixed_duty=fixed_duty)
+    return generate_case(DrawChooser(draw), fixed_duty=fixed_duty, arrangements=EVERY_ARRANGEMENT)
 
 
-def _run(data, test_name):
+def _run(data, test_name, events=True):
     """Simulate a generated case and check what every solved network must satisfy: convergence
-    without exception, energy closure and the second law in every exchanger."""
+    without exception, energy closure and the second law in every exchanger. ``events``: count
+    its features as hypothesis events (inside a hypothesis test only)."""
     case = case_from_mapping(data, "<generated>")
     result = simulate(case)
-    record(test_name, result, data)
+    record(test_name, result, data if events else None)
     check_converged_and_energy_closes(result)
     check_no_heat_flows_uphill(result, data)
     return case, result
@@ -115,7 +121,24 @@ def test_temperatures_stay_inside_supply_and_target_envelope(data):
 def test_result_does_not_depend_on_unit_order(data, seed):
     """The same network with every section, every splitter's branches and the top-level keys in
     another order gives the same temperature on every segment (matched by label) to 1e-9 K."""
-    _, first = _run(data, "order_independent")
+    check_order_independent(data, seed, "order_independent")
+
+
+@pytest.mark.parametrize("seed", [3, 8])
+@pytest.mark.parametrize("arrangement", EVERY_ARRANGEMENT)
+def test_every_arrangement_in_generated_networks(arrangement, seed):
+    """Each arrangement for certain (the draws above reach each only by chance): networks whose
+    every exchanger has it, its options drawn, pass the same three properties: convergence with
+    energy closure to 1e-9, no heat moved uphill, and order independence to 1e-9 K."""
+    chooser = RandomChooser(1000 * seed + EVERY_ARRANGEMENT.index(arrangement))
+    data = generate_case(chooser, max_exchangers=8, arrangements=(arrangement,))
+    check_order_independent(data, seed, f"arrangement {arrangement}", events=False)
+    assert {e["arrangement"] for e in data["exchangers"].values()} == {arrangement}
+
+
+def check_order_independent(data, seed, test_name, events=True):
+    """The checks of :func:`_run` and the same network shuffled (``seed``) matching it."""
+    _, first = _run(data, test_name, events)
     other = shuffled(data, random.Random(seed))
     second = simulate(case_from_mapping(other, "<shuffled>"))
     a = first.streams.set_index("segment")["temperature_c"]

@@ -203,7 +203,8 @@ def test_baselines_default_to_the_intervals_shorter_than_the_horizon():
 def test_cleaning_durations_round_up_to_whole_steps(duration, step, expected):
     """Identity: an exchanger out of service for any part of a step is out for the whole step,
     ceil(duration / step), counted by hand for each row."""
-    plan = schedule(step=step, cleaning={"default": {"cost": 1000, "duration": duration}})
+    # 26 weeks: in 12-hour steps a year would be more steps than the optimiser plans
+    plan = schedule(step=step, horizon="26 weeks", cleaning={"default": {"cost": 1000, "duration": duration}})
     assert plan.cleaning["E-104"].duration_steps == expected
     hours = {"h": 1, "day": 24, "days": 24, "week": 168, "weeks": 168}
     duration_h, step_h = (float(t.split()[0]) * hours[t.split()[1]] for t in (duration, step))

@@ -12,13 +12,20 @@
 - :mod:`.protocol`: the :class:`~.protocol.UnitModel` protocol the solver uses, with its
   reports, findings and parameters;
 - :mod:`.exchanger_model` and :mod:`.stream_units`: the units behind that protocol.
+
+The names below are imported on first use (PEP 562), so that importing one module of the
+package (the fluid models, say) does not load every relation and its special functions.
 """
 
-from .exchanger_model import Exchanger
-from .pntu_rating import ARRANGEMENTS, ExchangerRating, rate_exchanger
-from .protocol import Finding, Inlets, UnitModel, UnitReport
-from .service_rating import ExchangerSpec, rate_in_service
-from .stream_units import Heater, Mixer, Sink, Source, Splitter
+from importlib import import_module
+
+_EXPORTS = {
+    "Exchanger": ".exchanger_model", "ARRANGEMENTS": ".pntu_rating", "ExchangerRating": ".pntu_rating",
+    "rate_exchanger": ".pntu_rating", "Finding": ".protocol", "Inlets": ".protocol", "UnitModel": ".protocol",
+    "UnitReport": ".protocol", "ExchangerSpec": ".service_rating", "rate_in_service": ".service_rating",
+    "Heater": ".stream_units", "Mixer": ".stream_units", "Sink": ".stream_units", "Source": ".stream_units",
+    "Splitter": ".stream_units",
+}
 
 __all__ = [
     "ARRANGEMENTS",
@@ -37,3 +44,25 @@ __all__ = [
     "Heater",
     "Exchanger",
 ]
+
+
+def lazy_exports(module: str, exports: dict):
+    """``__getattr__`` and ``__dir__`` for a package whose names (``exports``: name -> submodule,
+    relative to ``module``) are imported on first use (PEP 562); the value is then cached in the
+    package. Shared by hxtrain.units, hxtrain.network and hxtrain.solver."""
+    import sys
+
+    def __getattr__(name):
+        if name not in exports:
+            raise AttributeError(f"module {module!r} has no attribute {name!r}")
+        value = getattr(import_module(exports[name], module), name)
+        setattr(sys.modules[module], name, value)
+        return value
+
+    def __dir__():
+        return sorted({*vars(sys.modules[module]), *exports})
+
+    return __getattr__, __dir__
+
+
+__getattr__, __dir__ = lazy_exports(__name__, _EXPORTS)

@@ -1,4 +1,5 @@
-r"""Pressure drop per exchanger side: scaled from a reference, or from geometry.
+r"""Pressure drop per exchanger side: scaled from a reference, or from geometry (tube side; shell
+side by Kern's method or, for a bundle rated by it, the Bell–Delaware method).
 
 SI units: Pa, kg/s, kg/m³, m, Pa·s.
 
@@ -17,6 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from . import bell_delaware
 from .arrays import as_arrays
 from .films import friction_factor_smooth
 
@@ -126,5 +128,9 @@ class BundleDrop:
         if self.side == "tube":
             return tube_side_pressure_drop(mass_flow, b.tubes, b.tube_passes, b.tube_inner_diameter, b.tube_length,
                                            rho, mu)
+        if getattr(b, "shell_side_method", "kern") == "bell_delaware":
+            cp, k = 1000.0 * fluid.cp(temperature), fluid.conductivity(temperature)
+            return bell_delaware.shell_side_bell_delaware(mass_flow, rho, mu, cp, 1.0 if k is None else k,
+                                                          b.baffled_shell).pressure_drop
         return kern_shell_pressure_drop(mass_flow, b.shell_inner_diameter, b.baffle_spacing, b.baffles, b.tube_pitch,
-                                        b.tube_outer_diameter, rho, mu, b.layout)
+                                        b.tube_outer_diameter, rho, mu, getattr(b, "kern_layout", b.layout))

@@ -4,7 +4,7 @@ Duty and the four terminal temperatures give P1 and R1 (heat-capacity rates from
 the relations here give the NTU1, and so UA = NTU1·C1, that the exchanger must have. The
 conventions are those of :mod:`.pntu` (side 1: ``ntu1 = UA/C1``, ``r1 = C1/C2``,
 ``P1 = (T1_in - T1_out)/(T1_in - T2_in)``) and the dispatch :func:`ntu_from_p` mirrors the
-rating's ``p_one_unit`` (``units/pntu_rating.py``), so that
+rating's ``p_one_unit`` (the registry, ``units/arrangements.py``), so that
 ``ntu_from_p(p_one_unit(ntu, r, arrangement, **f), r, arrangement, **f)`` gives ``ntu`` back.
 
 A P1 that the arrangement cannot reach at that R1 — at or above :func:`p_supremum` — has no
@@ -13,12 +13,16 @@ So is a negative P1 (heat flowing the other way, or measurement noise): no UA >=
 Within an ulp or two of the supremum, where rounding has already taken away what tells P1 from
 it (R1·P1 rounding to 1 in counterflow, say), the result may be NaN as well.
 
-Closed forms: counterflow (:func:`.pntu.ntu_counterflow`), parallel flow, the 1-2 TEMA E shell
-and crossflow with one fluid mixed (either side), N shells in series reduced to one shell.
-Root finding (:func:`.ntu_solver.solve_ntu`): crossflow with both fluids unmixed and the 1-N
-TEMA E shell with N >= 4. The latter passes through a maximum P1 at finite NTU1 (the
-parallel-flow tube passes start taking heat back): above the NTU1 -> inf limit a P1 is reached
-twice, and ``branch`` chooses the root.
+Closed forms: counterflow (:func:`.pntu.ntu_counterflow`) and what is counterflow unit by unit
+(the 1-1 E shell, the 1-1 plate, a plate with equal passes all in counterflow, the F shell with
+two tube passes), parallel flow and its like, the 1-2 TEMA E shell and crossflow with one fluid
+mixed (either side); N shells in series in overall counterflow reduced to one shell. Root
+finding (:func:`.ntu_solver.solve_ntu`): crossflow with both fluids unmixed and the 1-N TEMA E
+shell with N >= 4. Every other arrangement of the registry, and units joined in overall
+parallel flow, by the search of :mod:`.pntu_inverse_search`. Where P1 passes through a maximum
+at finite NTU1 (a temperature cross inside a shell, or in the next unit, sends heat back), a
+P1 above the NTU1 -> inf limit is reached twice, and ``branch`` chooses the root; the
+back-calculation takes the lower one and a P1 beyond the maximum has no NTU1 (NaN).
 
 References
 ----------
@@ -35,8 +39,10 @@ from __future__ import annotations
 import numpy as np
 
 from . import pntu
+from .arrangements import arranged, basic_equivalent, single_pass_aware
 from .arrays import as_arrays
 from .ntu_solver import p_maximum, solve_ntu
+from .pntu_inverse_search import ntu_by_search, supremum_by_search
 
 __all__ = [
     "ntu_from_p",
@@ -46,9 +52,8 @@ __all__ = [
     "ntu_crossflow_unmixed",
     "ntu_crossflow_one_mixed",
     "p_one_unit_of_series",
+    "reached_twice",
 ]
-
-COUNTERFLOW_LIKE = ("counterflow", "double_pipe")
 
 
 def _log_ratio(z):
@@ -241,28 +246,30 @@ def ntu_from_p(p1, r1, arrangement, *, basis_is_shell=None, basis_is_mixed=None,
     """NTU1 that gives P1 at R1 for ``arrangement``, on the basis side given by the flags.
 
     The inverse of the rating's ``p_one_unit`` (same arrangement names and flags) and, with
-    ``shells`` > 1, of ``p_shells_in_series`` on top of it: NTU1 is then that of all the shells
-    together (UA of the series over C1).
+    ``shells`` > 1, of the units joined in series on top of it (in overall counterflow, or in
+    parallel flow where the arrangement's ``shells_flow`` says so): NTU1 is then that of all the
+    shells together (UA of the series over C1).
 
     Parameters
     ----------
     p1, r1 : array_like
         Temperature effectiveness and heat-capacity ratio of the basis side (broadcast).
-    arrangement : str
-        ``counterflow``, ``double_pipe`` (as counterflow), ``parallel_flow``, ``tema_e`` or
-        ``crossflow``.
+    arrangement : str or Arranged
+        A name of the registry (``units/arrangements.py``), or an arrangement with its options.
     basis_is_shell : array_like of bool
-        ``tema_e`` with 4 or more tube passes: whether the basis side is the shell fluid
-        (required there; two tube passes are symmetric and ignore it).
+        Whether the basis side is the shell fluid (for a plate, the ``shell_side`` stream):
+        required where the relation is not symmetric in the sides.
     basis_is_mixed : array_like of bool or None
         ``crossflow``: whether the basis side is the mixed fluid; None for both fluids unmixed.
     tube_passes : int
-        Even number of tube passes per shell (``tema_e``).
+        Tube passes per shell, for the arrangements that take them.
     shells : int
-        Identical shells or units in series in overall counterflow.
+        Identical shells or units in series.
     branch : {"lower", "upper"}
-        Which root where P1 is reached at two NTU1 (``tema_e`` with 4 or more tube passes, see
-        :func:`ntu_tema_e`); ignored by the relations that rise monotonically.
+        Which root where P1 is reached at more than one NTU1 (the arrangements whose P1 passes
+        through a maximum at finite NTU1: see :func:`ntu_tema_e` and
+        :mod:`.pntu_inverse_search`): "lower" the smallest, "upper" the largest (NaN where P1
+        is reached only once); ignored by the relations that rise monotonically.
 
     Returns
     -------
@@ -275,34 +282,39 @@ def ntu_from_p(p1, r1, arrangement, *, basis_is_shell=None, basis_is_mixed=None,
     if branch not in ("lower", "upper"):
         raise ValueError(f"branch must be 'lower' or 'upper', got {branch!r}")
     p1, r1 = as_arrays(p1, r1)
+    a = arranged(arrangement)
+    passes = single_pass_aware(a, tube_passes)
+    flags = dict(basis_is_shell=basis_is_shell, basis_is_mixed=basis_is_mixed, tube_passes=passes)
+    if shells > 1 and a.shells_flow == "parallel_flow":
+        return ntu_by_search(p1, r1, a, units=shells, branch=branch, **flags)
     if shells > 1:
         p_unit = p_one_unit_of_series(p1, r1, shells)
-        flags = dict(basis_is_shell=basis_is_shell, basis_is_mixed=basis_is_mixed, tube_passes=tube_passes)
-        ntu = shells * ntu_from_p(p_unit, r1, arrangement, **flags, branch=branch)
+        ntu = shells * ntu_from_p(p_unit, r1, a, **flags, branch=branch)
         # the series P1 against the series supremum itself, so that P1 >= p_supremum gives NaN
         # also where the inverse of the series rounds the unit's P1 to just below its own
-        unit_sup, _ = _unit_supremum(r1, arrangement, flags, np.where(np.isfinite(ntu), p_unit, -np.inf))
+        unit_sup, _ = _unit_supremum(r1, a, flags, np.where(np.isfinite(ntu), p_unit, -np.inf))
         return np.where(p1 < pntu.p_shells_in_series(unit_sup, r1, shells), ntu, np.nan)
-    if arrangement in COUNTERFLOW_LIKE:
+    basic = basic_equivalent(a, passes)
+    if basic == "counterflow":
         with np.errstate(invalid="ignore", divide="ignore"):
             return _reachable(pntu.ntu_counterflow(p1, r1), p1, r1, _counterflow_sup(r1))
-    if arrangement == "parallel_flow":
+    if basic == "parallel_flow":
         return ntu_parallel_flow(p1, r1)
-    if arrangement == "tema_e":
-        if tube_passes == 2:
+    if a.name == "tema_e" and passes % 2 == 0:
+        if passes == 2:
             return ntu_tema_e(p1, r1, 2)
         if basis_is_shell is None:
             raise ValueError("tema_e with 4 or more tube passes needs basis_is_shell (the relation is not symmetric)")
         return _flag_split(basis_is_shell, p1, r1,
-                           lambda p, r: ntu_tema_e(p, r, tube_passes, "shell", branch),
-                           lambda p, r: ntu_tema_e(p, r, tube_passes, "tube", branch))
-    if arrangement == "crossflow":
+                           lambda p, r: ntu_tema_e(p, r, passes, "shell", branch),
+                           lambda p, r: ntu_tema_e(p, r, passes, "tube", branch))
+    if a.name == "crossflow" and not a.options["both_mixed"]:
         if basis_is_mixed is None:
             return ntu_crossflow_unmixed(p1, r1)
         return _flag_split(basis_is_mixed, p1, r1,
                            lambda p, r: ntu_crossflow_one_mixed(p, r, True),
                            lambda p, r: ntu_crossflow_one_mixed(p, r, False))
-    raise ValueError(f"unknown arrangement {arrangement!r}")
+    return ntu_by_search(p1, r1, a, branch=branch, **flags)
 
 
 def p_supremum(r1, arrangement, *, basis_is_shell=None, basis_is_mixed=None, tube_passes=2, shells=1,
@@ -312,9 +324,12 @@ def p_supremum(r1, arrangement, *, basis_is_shell=None, basis_is_mixed=None, tub
     Where P1 rises monotonically this is its limit as NTU1 -> inf, never reached: counterflow
     and crossflow unmixed :math:`\min(1, 1/R_1)`, parallel flow :math:`1/(1+R_1)`, the 1-2
     shell :math:`2/(1 + R_1 + \sqrt{1+R_1^2})`, crossflow with side 1 mixed
-    :math:`1 - e^{-1/R_1}` and with side 2 mixed :math:`(1 - e^{-R_1})/R_1`. The 1-N shell with
-    N >= 4 reaches its largest P1 at a finite NTU1 (found by :func:`.ntu_solver.p_maximum`);
-    that P1 is reached there. Shells in series: the series P1 of units at their supremum.
+    :math:`1 - e^{-1/R_1}` and with side 2 mixed :math:`(1 - e^{-R_1})/R_1`; for the other
+    arrangements the relation at NTU1 = 1e50. The 1-N shell with N >= 4 and the other
+    arrangements that pass through a maximum reach their largest P1 at a finite NTU1 (found by
+    :func:`.ntu_solver.p_maximum`, or by the scan of :mod:`.pntu_inverse_search`); that P1 is
+    reached there. Shells in series in counterflow: the series P1 of units at their supremum;
+    in parallel flow: the maximum of the series itself.
 
     With ``return_ntu``, also the NTU1 (of the series) where the supremum is reached, inf
     where it is the limit.
@@ -326,25 +341,33 @@ def p_supremum(r1, arrangement, *, basis_is_shell=None, basis_is_mixed=None, tub
     (0.569120996, 3.266)
     """
     (r1,) = as_arrays(r1)
-    flags = dict(basis_is_shell=basis_is_shell, basis_is_mixed=basis_is_mixed, tube_passes=tube_passes)
-    p, ntu = _unit_supremum(r1, arrangement, flags, np.inf)
-    if shells > 1:
-        p, ntu = pntu.p_shells_in_series(p, r1, shells), ntu * shells
+    a = arranged(arrangement)
+    flags = dict(basis_is_shell=basis_is_shell, basis_is_mixed=basis_is_mixed,
+                 tube_passes=single_pass_aware(a, tube_passes))
+    if shells > 1 and a.shells_flow == "parallel_flow":
+        p, ntu = supremum_by_search(r1, a, units=shells, **flags)
+    else:
+        p, ntu = _unit_supremum(r1, a, flags, np.inf)
+        if shells > 1:
+            p, ntu = pntu.p_shells_in_series(p, r1, shells), ntu * shells
     return (p, ntu) if return_ntu else p
 
 
-def _unit_supremum(r1, arrangement, flags, p_unit):
+def _unit_supremum(r1, a, flags, p_unit):
     """Supremum of one unit's P1 and where it is reached. The maximum at finite NTU of the 1-N
-    shell (N >= 4) is searched for only where ``p_unit`` is at or above the NTU -> inf limit;
-    elsewhere that limit is returned, which is all a P1 below it needs to be compared with."""
+    shell (N >= 4) and of the other peaked relations is searched for only where ``p_unit`` is at
+    or above the NTU -> inf limit; elsewhere that limit is returned, which is all a P1 below it
+    needs to be compared with."""
     tube_passes = flags["tube_passes"]
-    if arrangement in COUNTERFLOW_LIKE or (arrangement == "crossflow" and flags["basis_is_mixed"] is None):
+    basic = basic_equivalent(a, tube_passes)
+    if basic == "counterflow" or (a.name == "crossflow" and not a.options["both_mixed"]
+                                  and flags["basis_is_mixed"] is None):
         p = _counterflow_sup(r1)
-    elif arrangement == "parallel_flow":
+    elif basic == "parallel_flow":
         p = 1.0 / (1.0 + r1)
-    elif arrangement == "tema_e" and tube_passes == 2:
+    elif a.name == "tema_e" and tube_passes == 2:
         p = _one_two_shell_sup(r1)
-    elif arrangement == "tema_e":
+    elif a.name == "tema_e" and tube_passes % 2 == 0:
         if flags["basis_is_shell"] is None:
             raise ValueError("tema_e with 4 or more tube passes needs basis_is_shell (the relation is not symmetric)")
         shell, r1, p_unit = np.broadcast_arrays(np.asarray(flags["basis_is_shell"], dtype=bool), r1, p_unit)
@@ -355,9 +378,27 @@ def _unit_supremum(r1, arrangement, flags, p_unit):
             p_max, at = p_maximum(pntu.p_tema_e, r1[hump], tube_passes=tube_passes, side1=side)
             p[hump], ntu[hump] = np.maximum(p_max, p[hump]), np.where(p_max > p[hump], at, np.inf)
         return np.where(r1 >= 0.0, p, np.nan), ntu
-    elif arrangement == "crossflow":
+    elif a.name == "crossflow" and not a.options["both_mixed"]:
         mixed, r1 = np.broadcast_arrays(np.asarray(flags["basis_is_mixed"], dtype=bool), r1)
         p = np.where(mixed, _one_mixed_sup(r1, True), _one_mixed_sup(r1, False))
     else:
-        raise ValueError(f"unknown arrangement {arrangement!r}")
+        p_unit = None if np.all(np.isinf(p_unit)) else p_unit
+        p, ntu = supremum_by_search(r1, a, p1=p_unit, **flags)
+        return np.where(r1 >= 0.0, p, np.nan), ntu
     return np.where(r1 >= 0.0, p, np.nan), np.full(np.shape(p), np.inf)
+
+
+def reached_twice(p1, r1, arrangement, **flags):
+    """Where P1 is reached at two (or more) NTU1: between the NTU1 -> inf limit and the maximum
+    of an arrangement that passes through one (flags of :func:`ntu_from_p`). There the inverse
+    gives the lower root by default; an exchanger running past its maximum needs the upper one,
+    which the terminal temperatures alone cannot tell.
+
+    >>> bool(reached_twice(0.55, 1.0, "tema_e", tube_passes=4, basis_is_shell=True))
+    False
+    >>> bool(reached_twice(0.565, 1.0, "tema_e", tube_passes=4, basis_is_shell=True))
+    True
+    """
+    lower = ntu_from_p(p1, r1, arrangement, **flags)
+    upper = ntu_from_p(p1, r1, arrangement, branch="upper", **flags)
+    return np.isfinite(upper) & (upper > lower * (1.0 + 1e-9))

@@ -1,10 +1,13 @@
 """Rating of one two-stream heat exchanger from its inlet temperatures, flows and UA.
 
 The exchanger is rated on the basis of the side with the smaller heat-capacity rate (R <= 1),
-where every relation in :mod:`pntu` is well conditioned, and the results are then expressed on
-the hot-side basis for the report. Heat flows by temperature, not by label: when the stream on
-the ``hot`` side enters colder than the ``cold`` side stream, the duty comes out negative (heat
-flowing from the cold side to the hot side) and ``reversed`` is set.
+where every relation is well conditioned, and the results are then expressed on the hot-side
+basis for the report. Heat flows by temperature, not by label: when the stream on the ``hot``
+side enters colder than the ``cold`` side stream, the duty comes out negative (heat flowing from
+the cold side to the hot side) and ``reversed`` is set.
+
+The arrangements it rates are the registry :data:`ARRANGEMENTS` (:mod:`.arrangements`): one
+relation and one line each, re-exported here with its dispatch :func:`p_one_unit`.
 
 Units: temperatures in °C (or K: only differences matter), heat-capacity rates C = m·cp in kW/K,
 UA in kW/K, duty in kW.
@@ -17,10 +20,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import pntu
+from .arrangements import ARRANGEMENTS, Arranged, arranged, basic_equivalent, p_of_units, p_one_unit, \
+    single_pass_aware
 from .arrays import as_arrays, as_floats
 
-ARRANGEMENTS = ("counterflow", "parallel_flow", "tema_e", "crossflow", "double_pipe")
-"""Flow arrangements. ``double_pipe`` is rated as counterflow (hairpins piped in counterflow)."""
+__all__ = ["ARRANGEMENTS", "ExchangerRating", "rate_exchanger", "p_one_unit", "carried", "HEAT_CAPACITY_RATE_FLOOR"]
 
 SIDES = ("hot", "cold")
 
@@ -69,33 +73,6 @@ class ExchangerRating:
     reversed: np.ndarray
 
 
-def p_one_unit(ntu, r, arrangement, *, basis_is_shell=None, basis_is_mixed=None, tube_passes=2):
-    """P of one shell/unit of ``arrangement`` on a basis side given by the flags.
-
-    ``basis_is_shell`` (tema_e) and ``basis_is_mixed`` (crossflow with one fluid mixed) are
-    boolean arrays saying whether the basis side is the shell fluid / the mixed fluid;
-    ``basis_is_mixed=None`` for crossflow means both fluids unmixed.
-    """
-    if arrangement in ("counterflow", "double_pipe"):
-        return pntu.p_counterflow(ntu, r)
-    if arrangement == "parallel_flow":
-        return pntu.p_parallel_flow(ntu, r)
-    if arrangement == "tema_e":
-        shell = pntu.p_tema_e(ntu, r, tube_passes, side1="shell")
-        if tube_passes == 2:  # symmetric: both bases give the same P
-            return shell
-        return np.where(basis_is_shell, shell, pntu.p_tema_e(ntu, r, tube_passes, side1="tube"))
-    if arrangement == "crossflow":
-        if basis_is_mixed is None:
-            return pntu.p_crossflow_unmixed(ntu, r)
-        return np.where(
-            basis_is_mixed,
-            pntu.p_crossflow_one_mixed(ntu, r, side1_mixed=True),
-            pntu.p_crossflow_one_mixed(ntu, r, side1_mixed=False),
-        )
-    raise ValueError(f"unknown arrangement {arrangement!r}; expected one of {ARRANGEMENTS}")
-
-
 def carried(c):
     """Heat-capacity rates with those below :data:`HEAT_CAPACITY_RATE_FLOOR` set to 0 (no flow).
 
@@ -141,16 +118,19 @@ def rate_exchanger(
         Heat-capacity rates m·cp of the two streams, kW/K (>= 0; zero flow is allowed).
     ua : array_like
         Overall conductance of all shells together, kW/K (U × area per shell × shells).
-    arrangement : str
-        One of :data:`ARRANGEMENTS`.
+    arrangement : str or Arranged
+        A name of :data:`ARRANGEMENTS` (with its default options) or an :class:`Arranged`.
     shells : int
-        Identical shells (or units) in series in overall counterflow; each gets UA/shells.
+        Identical shells (or units) in series, in overall counterflow unless the arrangement's
+        ``shells_flow`` is ``"parallel_flow"``; each gets UA/shells.
     tube_passes : int
-        Even number of tube passes per shell (``tema_e`` only).
+        Tube passes per shell, for the arrangements that take them (see :data:`ARRANGEMENTS`);
+        single-pass relations ignore it.
     shell_side : {"hot", "cold"}
-        Which stream flows in the shell (``tema_e``; matters for 4 or more tube passes).
-    mixed_side : {None, "hot", "cold"}
-        Crossflow: the mixed fluid, or None for both fluids unmixed.
+        Which stream flows in the shell (for a plate: the stream whose passes come first in its
+        ``passes`` option); matters where the relation is not symmetric in the sides.
+    mixed_side : {None, "hot", "cold", "both"}
+        Crossflow: the mixed fluid, None for both fluids unmixed, "both" for both mixed.
     bypass_hot, bypass_cold : array_like
         Fraction of each side's flow routed around the exchanger and re-mixed at its outlet.
     details : bool
@@ -161,6 +141,9 @@ def rate_exchanger(
     -------
     ExchangerRating
     """
+    a = arranged(arrangement)
+    if mixed_side == "both":
+        a, mixed_side = Arranged(a.name, tuple(sorted(dict(a.given, both_mixed=True).items())), a.shells_flow), None
     t_hot_in, t_cold_in, c_hot, c_cold, ua = as_arrays(t_hot_in, t_cold_in, c_hot, c_cold, ua)
     # most exchangers have no bypass: skip the arithmetic that would multiply by one
     bypass_hot, bypass_cold = as_floats(bypass_hot, bypass_cold)
@@ -173,17 +156,16 @@ def rate_exchanger(
     has_flow = c_min > 0.0
     r = np.where(has_flow, c_min / np.where(has_flow, c_max, 1.0), 0.0)
     ntu = np.where(has_flow, ua / np.where(has_flow, c_min, 1.0), 0.0)
-    ntu_shell = ntu / shells
 
     p_shell = p_one_unit(
-        ntu_shell,
+        ntu / shells,
         r,
-        arrangement,
+        a,
         basis_is_shell=hot_is_min == (shell_side == "hot"),
         basis_is_mixed=None if mixed_side is None else hot_is_min == (mixed_side == "hot"),
         tube_passes=tube_passes,
     )
-    effectiveness = pntu.p_shells_in_series(p_shell, r, shells)
+    effectiveness = p_of_units(p_shell, r, shells, a.shells_flow)
     duty = effectiveness * c_min * (t_hot_in - t_cold_in)
 
     t_hot_x = _outlet(t_hot_in, t_cold_in, c_hot, duty, ua)
@@ -201,21 +183,27 @@ def rate_exchanger(
         r_hot = np.where(c_cold > 0.0, c_hot / np.where(c_cold > 0.0, c_cold, 1.0), np.inf)
         ntu_hot = np.where(hot_flows, ua / safe_hot, np.where(ua > 0.0, np.inf, 0.0))
     # counterflow is the F = 1 reference by definition; computing it would only add round-off
-    counterflow = arrangement in ("counterflow", "double_pipe")
+    series_in_parallel = shells > 1 and a.shells_flow == "parallel_flow"
+    counterflow = basic_equivalent(a, single_pass_aware(a, tube_passes)) == "counterflow" and not series_in_parallel
     f = np.ones_like(duty) if counterflow else pntu.f_factor(effectiveness, r, ntu)
 
     direction = np.where(t_hot_in >= t_cold_in, 1.0, -1.0)
     end_hot_in = t_hot_in - t_cold_x  # counterflow terminal differences on the exchanger proper
     end_hot_out = t_hot_x - t_cold_in
     mean_difference = pntu.lmtd(end_hot_in, end_hot_out)
-    if arrangement == "parallel_flow":
-        approach = direction * (t_hot_x - t_cold_x)
+    passes, options = single_pass_aware(a, tube_passes), a.options
+    if a.line.same_end(passes, options) or series_in_parallel:
+        approach = direction * (t_hot_x - t_cold_x)  # both streams leave at one end
     else:
         approach = np.minimum(direction * end_hot_in, direction * end_hot_out)
-    # a temperature cross inside one multipass shell: P_hot + P_cold > 1 for each shell (the
-    # same for every shell of a series, whose shells share P and R)
+    # a temperature cross inside one unit, P_hot + P_cold > 1 (the same for every unit of a
+    # series, whose units share P and R): heat flows back inside a multipass unit, or, in units
+    # joined in parallel flow, in the next unit
     shell_p_sum = p_shell * (1.0 + r)
-    cross = (shell_p_sum > 1.0 + 1e-12) if arrangement == "tema_e" else np.zeros_like(duty, bool)
+    if a.line.cross(passes, options) or series_in_parallel:
+        cross = shell_p_sum > 1.0 + 1e-12
+    else:
+        cross = np.zeros_like(duty, bool)
     return ExchangerRating(
         t_hot_out=t_hot_out,
         t_cold_out=t_cold_out,

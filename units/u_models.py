@@ -9,10 +9,11 @@ tube outside area; resistances m²·K/W.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 
-from . import films
+from . import bell_delaware, bell_delaware_geometry, films
 from .resistances import overall_coefficient
 
 __all__ = ["SideFilm", "FixedCoefficient", "ScaledFilms", "TubeBundle", "GeometryFilms", "Coefficients"]
@@ -133,7 +134,11 @@ def _combine(model, h_shell, h_tube, reynolds, notes):
 
 @dataclass
 class TubeBundle:
-    """Geometry of one shell (SI units)."""
+    """Geometry of one shell (SI units). ``layout``: triangular, square, rotated_triangular or
+    rotated_square. ``shell_side_method`` "kern" or "bell_delaware"; the fields after it are the
+    Bell–Delaware geometry (None: the defaults of
+    :func:`~hxtrain.units.bell_delaware_geometry.baffled_shell`, TEMA clearances and end spacings
+    equal to the central one)."""
 
     tube_outer_diameter: float
     tube_inner_diameter: float
@@ -145,6 +150,14 @@ class TubeBundle:
     baffle_spacing: float
     baffles: int
     shell_inner_diameter: float
+    shell_side_method: str = "kern"
+    baffle_cut: float | None = None
+    shell_baffle_clearance: float | None = None
+    tube_baffle_clearance: float | None = None
+    bundle_shell_clearance: float | None = None
+    sealing_strip_pairs: int = 0
+    inlet_baffle_spacing: float | None = None
+    outlet_baffle_spacing: float | None = None
 
     @property
     def tube_flow_area(self):
@@ -154,12 +167,45 @@ class TubeBundle:
     def area(self):
         return self.tubes * np.pi * self.tube_outer_diameter * self.tube_length
 
+    @property
+    def kern_layout(self):
+        """The lattice Kern's method rates: a rotated layout has its lattice's cell, and so its
+        equivalent diameter (Kern's method knows no layout angle)."""
+        return self.layout.removeprefix("rotated_")
+
+    @property
+    def end_spacings(self):
+        """Inlet and outlet baffle spacings (m), the central one where not given."""
+        return tuple(self.baffle_spacing if s is None else s for s in (self.inlet_baffle_spacing,
+                                                                        self.outlet_baffle_spacing))
+
+    def baffled_shell_limits(self) -> dict:
+        """The outer tube limit (m) the Bell–Delaware geometry works with."""
+        lbb = (bell_delaware_geometry.bundle_shell_clearance_fixed_tubesheet(self.shell_inner_diameter)
+               if self.bundle_shell_clearance is None else self.bundle_shell_clearance)
+        return {"outer_tube_limit": float(self.shell_inner_diameter - lbb)}
+
+    @cached_property
+    def baffled_shell(self):
+        """The Bell–Delaware geometry of the shell (:class:`~.bell_delaware_geometry.BaffledShell`)."""
+        inlet, outlet = self.end_spacings
+        return bell_delaware_geometry.baffled_shell(
+            self.shell_inner_diameter, self.tube_outer_diameter, self.tube_pitch, self.layout, self.baffle_spacing,
+            self.baffles, self.tubes, baffle_cut=self.baffle_cut, inlet_baffle_spacing=inlet,
+            outlet_baffle_spacing=outlet, shell_baffle_clearance=self.shell_baffle_clearance,
+            tube_baffle_clearance=self.tube_baffle_clearance,
+            outer_tube_limit=self.baffled_shell_limits()["outer_tube_limit"],
+            sealing_strip_pairs=self.sealing_strip_pairs, tube_passes=self.tube_passes)
+
 
 class GeometryFilms:
     """Film coefficients from geometry and fluid properties: tube side by
     :func:`films.nusselt_tube_side` (Gnielinski, with Gnielinski's laminar–turbulent
-    interpolation), shell side by Kern's method (:func:`films.nusselt_kern_shell`). Viscosity
-    ratio (wall) factors are taken as 1. Needs cp, viscosity and conductivity of both fluids."""
+    interpolation), shell side by Kern's method (:func:`films.nusselt_kern_shell`) or, with the
+    bundle's ``shell_side_method`` "bell_delaware", by the Bell–Delaware method
+    (:func:`.bell_delaware.shell_side_bell_delaware`: ideal tube bank times J_c J_l J_b J_s J_r).
+    Viscosity ratio (wall) factors are taken as 1. Needs cp, viscosity and conductivity of both
+    fluids."""
 
     source = "films from geometry"
     takes_fouling = True
@@ -176,11 +222,17 @@ class GeometryFilms:
         nu_t = films.nusselt_tube_side(re_t, films.prandtl(cp_t, mu_t, k_t), b.tube_inner_diameter, b.tube_length)
         h_tube = np.where(np.asarray(m_tube) > 0.0, nu_t * k_t / b.tube_inner_diameter, 0.0)
         mu_s, k_s, cp_s = fluid_shell.viscosity(t_shell), fluid_shell.conductivity(t_shell), 1000.0 * fluid_shell.cp(t_shell)
-        de = films.kern_equivalent_diameter(b.tube_pitch, b.tube_outer_diameter, b.layout)
-        area_s = films.kern_crossflow_area(b.shell_inner_diameter, b.tube_pitch, b.tube_outer_diameter, b.baffle_spacing)
-        re_s = films.reynolds(np.maximum(m_shell, 1e-12), de, area_s, mu_s)
-        nu_s = films.nusselt_kern_shell(re_s, films.prandtl(cp_s, mu_s, k_s))
-        h_shell = np.where(np.asarray(m_shell) > 0.0, nu_s * k_s / de, 0.0)
+        if b.shell_side_method == "bell_delaware":
+            # h does not depend on density (only the pressure drop does): any value serves here
+            h_shell = bell_delaware.shell_side_bell_delaware(m_shell, 1.0, mu_s, cp_s, k_s,
+                                                             b.baffled_shell).heat_transfer_coefficient
+        else:
+            de = films.kern_equivalent_diameter(b.tube_pitch, b.tube_outer_diameter, b.kern_layout)
+            area_s = films.kern_crossflow_area(b.shell_inner_diameter, b.tube_pitch, b.tube_outer_diameter,
+                                               b.baffle_spacing)
+            re_s = films.reynolds(np.maximum(m_shell, 1e-12), de, area_s, mu_s)
+            nu_s = films.nusselt_kern_shell(re_s, films.prandtl(cp_s, mu_s, k_s))
+            h_shell = np.where(np.asarray(m_shell) > 0.0, nu_s * k_s / de, 0.0)
         notes = {"laminar_tube_side": re_t < films.LAMINAR_LIMIT,
                  "transitional_tube_side": (re_t >= films.LAMINAR_LIMIT) & (re_t < films.TURBULENT_LIMIT)}
         return _combine(self, h_shell, h_tube, re_t, notes)

@@ -216,7 +216,7 @@ limits:
   fired_duty: {{F-101: 24 MW}}       # the furnace's firing limit (burners at their largest heat release)
   inlet_temperature: {{F-101: 283}}  # °C: colder, and the furnace misses its outlet temperature at that limit
 projection:
-  horizon: 180 days
+  horizon: 26 weeks
   step: 7 days
 significance: 0.05
 """

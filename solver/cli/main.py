@@ -45,9 +45,14 @@ examples:
   hxtrain check plant.yaml             validate only
   hxtrain compare study.yaml           variants side by side, specifications
   hxtrain sweep study.yaml --out s.csv sweeps over one or two key paths
+  hxtrain uncertainty study.yaml       Monte Carlo: P10/P50/P90 and what moves the furnace duty
+  hxtrain sweep study.yaml --scheduler tcp://host:8786   the batches on a Dask cluster
+  hxtrain benchmark --sizes            the size ladder: 10 to 10,000 units in four shapes
   hxtrain cleaning plant.yaml          rank exchangers by what cleaning each gains
   hxtrain monitor plant_monitoring.yaml   fouling from plant data, its cost, instruments, projection
-  hxtrain schedule cleaning_plan.yaml     the cleaning plan of least cost against baselines"""
+  hxtrain schedule cleaning_plan.yaml     the cleaning plan of least cost against baselines
+  hxtrain report plant.yaml --units us    one HTML file with pictures (--out report.html)
+  hxtrain schema case                     the JSON Schema of case files, for editors"""
 
 
 class Terminated(BaseException):
@@ -99,14 +104,23 @@ def build_parser():
                      help="also rate the case with every fouling resistance at zero and show what fouling costs "
                           "per exchanger and at the furnace")
     run.add_argument("--debug", action="store_true", help="show tracebacks on errors")
+    _display_options(run)
 
     study_help = "study file (YAML)"
     _subcommand(commands, "compare", "run a study's variants and specifications side by side",
                 "Simulate a study's base case and every variant, print them in columns with differences from the "
                 "base, and solve its specifications.", ("study", None, study_help), out=True)
-    _subcommand(commands, "sweep", "run a study's sweeps over one or two key paths",
-                "Simulate every point of each sweep in a study file; one row per point.",
-                ("study", None, study_help), out=True)
+    _cluster_options(_subcommand(commands, "sweep", "run a study's sweeps over one or two key paths",
+                                    "Simulate every point of each sweep in a study file; one row per point.",
+                                    ("study", None, study_help), out=True))
+    uncertainty = _subcommand(commands, "uncertainty", "Monte Carlo over a study's uncertain inputs",
+                              "Draw the study's 'uncertainty' inputs (normal, uniform or triangular, bounded), "
+                              "solve every sample in one batch, print P10/P50/P90 of the totals and of every "
+                              "unit's duty and outlets, and which input moves the furnace duty most.",
+                              ("study", None, study_help), out=True)
+    uncertainty.add_argument("--samples", type=int, help="samples to draw (default: the study's, or 1000)")
+    uncertainty.add_argument("--seed", type=int, help="seed of the draw (default: the study's, or 1)")
+    _cluster_options(uncertainty)
     _subcommand(commands, "cleaning", "rank exchangers by what cleaning each alone gains",
                 "For every fouled exchanger, simulate the case with that exchanger clean and rank them by the "
                 "furnace duty saved.", ("case", "?", "case file (YAML); omit for the crude preheat demo"), out=True)
@@ -123,13 +137,54 @@ def build_parser():
                        help="instead: reconcile and back-calculate a year of hourly plant-data windows of the crude "
                             "demo, timed beside the batch solve of the same windows")
     bench.add_argument("--windows", type=int, default=8760, help="windows for --plant-data (default 8760)")
+    bench.add_argument("--sizes", nargs="?", const="10,100,1000,3000,10000", metavar="N,N,...",
+                       help="instead: the size ladder, networks of these many units (default "
+                            "10,100,1000,3000,10000) in four shapes, seconds and peak memory per stage and the "
+                            "fitted exponent")
+    bench.add_argument("--properties", choices=("varying", "fixed"), default="varying",
+                       help="for --sizes: cp varying with temperature (default) or constant")
     bench.add_argument("--debug", action="store_true", help="show tracebacks on errors")
     _subcommand(commands, "check", "validate a case file without simulating it",
                 "Read and check a case file: keys, values, units and connections.", ("case", None, "case file (YAML)"))
     from .plant_commands import add_parsers
 
     add_parsers(commands, _subcommand)
+    report = _subcommand(commands, "report", "one self-contained HTML report of a case or a study, with pictures",
+                         "Simulate a case (or a study's base and variants) and write one HTML file that opens "
+                         "offline: the caution, violated limits first, totals, the network with its temperatures, "
+                         "temperature profiles, a T-Q picture per exchanger, the tables; for a study the variants "
+                         "side by side.", ("target", "?", "case or study file (YAML); omit for a bundled demo"))
+    report.add_argument("--demo", choices=_DemoNames(), default=None, metavar="NAME",
+                        help="report on a bundled demo case: %(choices)s")
+    report.add_argument("--out", metavar="PATH", help="the HTML file to write (default: report.html)")
+    _display_options(report, wide=False)
+    schema = commands.add_parser("schema", help="print the JSON Schema of a file kind (for editors)",
+                                 description="Print the JSON Schema of case, study, monitoring or schedule files, "
+                                             "for an editor's YAML language server (see README, Reports).")
+    schema.add_argument("kind", choices=("case", "study", "monitoring", "schedule"), metavar="KIND",
+                        help="case, study, monitoring or schedule")
+    schema.add_argument("--debug", action="store_true", help="show tracebacks on errors")
     return parser
+
+
+def _display_options(parser, wide=True):
+    """--units (and --wide) of the commands that show results."""
+    parser.add_argument("--units", choices=("si", "us"), default="si",
+                        help="show values in SI (default) or US customary units (°F, MMBtu/h, lb/h, psi, ...); a "
+                             "case's settings.display_units chooses per quantity")
+    if wide:
+        parser.add_argument("--wide", action="store_true",
+                            help="print every column of every table (by default tables fit 120 columns)")
+
+
+def _cluster_options(parser):
+    """--scheduler / --local-cluster of the commands that run batches (hxtrain.solver.studies.distributed)."""
+    group = parser.add_mutually_exclusive_group()
+    group.add_argument("--scheduler", metavar="ADDRESS",
+                       help="solve the batches on the Dask cluster of this scheduler (e.g. tcp://10.0.0.5:8786); "
+                            "needs pip install \"hxtrain[cluster]\"")
+    group.add_argument("--local-cluster", type=int, metavar="N",
+                       help="start a local Dask cluster of N worker processes for the batches, closed at the end")
 
 
 def _subcommand(commands, name, summary, description, target, out=False):
@@ -139,6 +194,7 @@ def _subcommand(commands, name, summary, description, target, out=False):
     parser.add_argument(dest, nargs=nargs, metavar=dest.upper(), help=text)
     if out:
         parser.add_argument("--out", metavar="PATH", help="also write the tables (.csv, .xlsx or .json)")
+        _display_options(parser)
     parser.add_argument("--debug", action="store_true", help="show tracebacks on errors")
     return parser
 
@@ -252,7 +308,10 @@ def _sweep(args) -> int:
     study = _load_study_for(args, lambda s: [sweep.name for sweep in s.sweeps])
     if not study.sweeps:
         raise CaseError("the study has no sweeps", file=study.file, path=("sweeps",))
-    tables = {sweep.name: run_sweep(study, sweep) for sweep in study.sweeps}
+    from hxtrain.solver.studies.distributed import cluster_for
+
+    with cluster_for(args):
+        tables = {sweep.name: run_sweep(study, sweep) for sweep in study.sweeps}
     written = _write(tables, args, {"study": study.file, "title": study.title, "caution": CAUTION},
                      _study_inputs(study))
     for name, table in tables.items():
@@ -300,8 +359,25 @@ def _benchmark(args) -> int:
 
         print(plant_data_benchmark_text(run_plant_data_benchmark(args.windows)))
         return EXIT_OK
+    if args.sizes:
+        from hxtrain.solver.simulation.size_benchmark import ladder, ladder_text
+
+        try:
+            sizes = [int(n) for n in args.sizes.split(",")]
+        except ValueError:
+            raise CaseError(f"--sizes takes whole numbers separated by commas, got {args.sizes!r}") from None
+        if not sizes or min(sizes) < 10:
+            raise CaseError("--sizes: each size must be at least 10 units")
+        print(ladder_text(ladder(sizes, properties=args.properties), args.properties))
+        return EXIT_OK
     print(benchmark_text(run_benchmark(args.scenarios, args.loop, args.workers)))
     return EXIT_OK
+
+
+def _uncertainty(args) -> int:
+    from hxtrain.solver.studies.monte_carlo import uncertainty_command
+
+    return uncertainty_command(args, _write, _say_written)
 
 
 def _monitor(args) -> int:
@@ -316,8 +392,22 @@ def _schedule(args) -> int:
     return schedule_command(args, _write, _say_written)
 
 
+def _report(args) -> int:
+    from hxtrain.solver.reporting.html_report import report_command
+
+    return report_command(args)
+
+
+def _schema(args) -> int:
+    from hxtrain.solver.reporting.schema import schema_text
+
+    print(schema_text(args.kind))
+    return EXIT_OK
+
+
 COMMANDS = {"run": _run, "check": _check, "compare": _compare, "sweep": _sweep, "cleaning": _cleaning,
-            "benchmark": _benchmark, "monitor": _monitor, "schedule": _schedule}
+            "benchmark": _benchmark, "monitor": _monitor, "schedule": _schedule, "report": _report,
+            "schema": _schema, "uncertainty": _uncertainty}
 
 
 HANDLER_PROCESS: list = []
@@ -366,15 +456,17 @@ def _dispatch(args) -> int:
 
     from hxtrain.network import CaseError
 
-    from hxtrain.solver.simulation import results  # noqa: F401  (the numerical libraries, loaded here)
-    from hxtrain.solver.simulation.engine import ConvergenceError
+    from hxtrain.solver.simulation.engine import ConvergenceError  # light: each command loads what it needs
 
     _stop_if_signalled()
     try:
         with warnings.catch_warnings():
             if not sys.warnoptions and not args.debug:
                 warnings.simplefilter("ignore", RuntimeWarning)
-            return COMMANDS[args.command](args)
+            from hxtrain.solver.reporting.display_units import Display, using
+
+            with using(Display(getattr(args, "units", "si"), wide=getattr(args, "wide", False))):
+                return COMMANDS[args.command](args)
     except Exception as exc:
         if SIGNALS_RECEIVED or isinstance(exc, BrokenPipeError):
             raise  # main reports the signal, or the closed standard output

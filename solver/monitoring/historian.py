@@ -5,8 +5,17 @@ header on row 1, a time column, one column per tag. :func:`read_history` convert
 column to the default unit (°C, kg/s, kW) through the tag's unit (temperatures as levels: degF
 -> °C with the offset).
 
+Times are ISO 8601 (2026-03-14, 2026-03-14 06:00, seconds optional, 'T' allowed) unless the
+monitoring file gives ``time_format`` (strftime codes); a workbook's date-time cells are read as
+they are. A time in another form (01/02/2026: the 1st of February to some, the 2nd of January to
+others) is never guessed: the file is refused naming the row and column, with the hint to write
+ISO times or give ``time_format``. A time with a time-zone offset (+01:00, Z) is refused too:
+times are taken as the plant's clock shows them, so that daily windows run from the plant's
+midnight (converting to UTC would shift every window by the offset).
+
 Bad data are skipped, never guessed, and every skip is reported in ``History.skipped`` (the file
-row, header = row 1; the time; the column; the reason, one of :data:`REASONS`; a detail):
+row, header = row 1; the time; the column, empty where the whole row was skipped; the reason,
+one of :data:`REASONS`; a detail):
 
 * a row whose time is missing, cannot be read, repeats an earlier row's time or goes back before
   it is skipped whole: its readings cannot be placed in time;
@@ -18,9 +27,12 @@ row, header = row 1; the time; the column; the reason, one of :data:`REASONS`; a
 Errors (:class:`CaseError`, exit 2) name the file and, where it applies, the row and column:
 a data file that is missing, unreadable or empty; no time column; a tag with no column in the
 data (named by the tag's key path in the monitoring file, with the data file); a tag's column
-with no usable value; more than :data:`MAX_BAD_SHARE` of the rows bad. Columns no tag names are
-ignored and listed in ``History.unused_columns``. Times with a UTC offset are converted to UTC;
-times without one are taken as written.
+with no usable value; more than :data:`MAX_BAD_SHARE` of the rows bad (with the likely cause: the
+time column's form or order, else a unit or the wrong file); a logged cleaning after the data's
+last time (``cleanings[i].date``: the data cannot show it; one before the data starts is kept, the
+exchanger's history starting there); a tag whose readings disagree grossly with the case (a unit
+slip, :func:`screen_unit_slips`). Columns no tag names are ignored and listed in
+``History.unused_columns``.
 """
 
 from __future__ import annotations
@@ -28,6 +40,7 @@ from __future__ import annotations
 import re
 import warnings
 from dataclasses import dataclass
+from datetime import date
 from pathlib import Path
 
 import numpy as np
@@ -36,12 +49,13 @@ import pandas as pd
 from hxtrain.network import quantities as q
 from hxtrain.network.errors import CaseError
 from hxtrain.network.fields import nearest
-from hxtrain.network.monitoring_file import MonitoringFile, Tag
+from hxtrain.network.monitoring_file import ISO_TIME, MonitoringFile, Tag
 from hxtrain.network.quantities import shorten
 
 from .windows import Windows, average_windows
 
-__all__ = ["History", "Windows", "read_history", "MAX_BAD_SHARE", "MAX_DATA_BYTES", "REASONS", "PHYSICAL_LIMITS"]
+__all__ = ["History", "Windows", "read_history", "screen_unit_slips", "MAX_BAD_SHARE", "MAX_DATA_BYTES", "REASONS",
+           "PHYSICAL_LIMITS", "SLIP_RATIO", "SLIP_KELVIN"]
 
 MAX_BAD_SHARE = 0.5
 """More than half the rows bad (skipped, or with a cell that is bad other than merely missing) is
@@ -52,6 +66,16 @@ PHYSICAL_LIMITS = {"temperature": (q.TEMPERATURE.low, q.TEMPERATURE.high), "flow
                    "duty": (0.0, q.DUTY.high)}
 """Readings outside these (default units) are impossible: absolute zero to 2000 °C, no negative
 flow or duty, nothing above the plausible maxima of the case format (network/quantities.py)."""
+SLIP_RATIO = 10.0
+"""Unit-slip screen (common practice): a flow or duty tag whose median reading lies outside
+[1/10, 10] times the base case's simulated value at its point is refused: wider than any turndown
+or case-to-plant gap, narrower than the usual slips (kcal/h for kW: x 0.001; lb/h for kg/s: x 8e3)."""
+SLIP_KELVIN = 150.0
+"""... and a temperature tag whose median lies more than 150 K from the simulated value (K read as
+°C is 273 K off; °F read as °C at 300 °C, 272 K; common practice)."""
+OFFSET = r"(?:Z|[+-]\d{2}(?::?\d{2})?)"
+OTHER_DATE = re.compile(r"\d{1,4}[/.\-]\d{1,2}[/.\-]\d{1,4}|(?i:jan|feb|mar|apr|may|jun|jul|aug|sep|oct|nov|dec)")
+"""A date in some form other than ISO 8601 (day/month/year, month names, ...)."""
 TIME_MISSING, TIME_UNREADABLE, TIME_REPEATED, TIME_BACKWARDS = (
     "time missing", "time unreadable", "time repeated", "time goes backwards")
 MISSING, NOT_A_NUMBER, NOT_FINITE, IMPOSSIBLE = "missing value", "not a number", "not a finite number", "impossible"
@@ -67,7 +91,7 @@ _SHOWN_UNIT = {"temperature": "°C", "flow": "kg/s", "duty": "kW"}
 class History:
     """Checked historian samples. ``samples``: DatetimeIndex (strictly increasing), one column
     per tag (named by tag) in default units, NaN where a cell was skipped; ``skipped``: one row
-    per row skipped whole (column: the time column) or per blanked cell, columns
+    per row skipped whole (column: empty) or per blanked cell (column: its data column), columns
     :data:`SKIPPED_COLUMNS`; ``rows``: data rows in the file; ``sheet``: the sheet read from a
     workbook."""
 
@@ -111,12 +135,12 @@ def read_history(monitoring: MonitoringFile) -> History:
     body = table.iloc[1:].reset_index(drop=True)
     filled = np.flatnonzero(body.notna().any(axis=1).to_numpy())
     body = body.iloc[: filled[-1] + 1 if filled.size else 0]  # blank lines at the end are no rows
-    position = _check_header(header, name, monitoring)
+    position = _check_header(header, name, monitoring, ",".join(map(str, body.iloc[0].dropna())) if len(body) else "")
     if body.empty:
         raise CaseError("the file has a header but no data rows", file=name)
     rows = np.arange(len(body)) + 2  # file rows: the header is row 1
     skips = _Skips()
-    times, keep = _times(body.iloc[:, position[monitoring.time_column]], rows, skips.column(monitoring.time_column))
+    times, keep = _times(body.iloc[:, position[monitoring.time_column]], rows, skips.column(""), monitoring, name)
     values = {tag.name: _readings(body.iloc[:, position[tag.column]], tag, keep, skips.column(tag.column))
               for tag in monitoring.tags.values()}
     skipped = skips.table(rows, times)
@@ -125,6 +149,8 @@ def read_history(monitoring: MonitoringFile) -> History:
     used = {monitoring.time_column, *(t.column for t in monitoring.tags.values())}
     history = History(name, samples, skipped, [h for h in header if h and h not in used], len(body), sheet)
     _check_bad_share(history, monitoring)
+    _check_cleanings(history, monitoring)
+    screen_unit_slips(history, monitoring)
     return history
 
 
@@ -165,8 +191,9 @@ def _read_table(path: Path) -> tuple[pd.DataFrame, str | None]:
     except pd.errors.ParserError as exc:
         match = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(exc))
         if match:
+            header, _, first = path.read_bytes()[:MAX_PEEK].decode("utf-8", "replace").partition("\n")
             raise CaseError(f"row {match.group(2)} has {match.group(3)} cells, more than the {match.group(1)} "
-                            "columns of the rows before it", file=name) from None
+                            f"columns of the rows before it{_separator_hint(header, first)}", file=name) from None
         raise CaseError(f"cannot be read as CSV ({shorten(str(exc), 160)})", file=name) from None
     except PermissionError:
         raise CaseError("the file cannot be read (permission denied)", file=name) from None
@@ -178,7 +205,7 @@ def _header_name(value) -> str:
     return "" if pd.isna(value) else str(value).strip()
 
 
-def _check_header(header: list[str], name: str, monitoring: MonitoringFile) -> dict[str, int]:
+def _check_header(header: list[str], name: str, monitoring: MonitoringFile, first_row="") -> dict[str, int]:
     """Column name -> position; errors for an empty or repeated name and missing columns."""
     if not any(header):
         raise CaseError("row 1 is empty: the header (the names of the time column and the tags) must be on "
@@ -194,7 +221,7 @@ def _check_header(header: list[str], name: str, monitoring: MonitoringFile) -> d
     if time not in position:
         raise CaseError(f"row 1: no column {time!r} holding the time (time_column in {monitoring.file})"
                         f"{nearest(time, named)}; the columns are {shorten(', '.join(named), 300)}"
-                        f"{_delimiter_hint(named)}", file=name)
+                        f"{_separator_hint(','.join(named), first_row) if len(named) <= 2 else ''}", file=name)
     for tag in monitoring.tags.values():
         if tag.column not in position:
             raise monitoring.error(tag.key, f"the data file {name} has no column {tag.column!r} for tag {tag.name}"
@@ -202,10 +229,15 @@ def _check_header(header: list[str], name: str, monitoring: MonitoringFile) -> d
     return position
 
 
-def _delimiter_hint(header: list[str]) -> str:
+def _separator_hint(header: str, row: str) -> str:
+    """Why a header read as one or two columns: another separator; with semicolons, decimal
+    commas in the numbers too (a European spreadsheet's CSV)."""
     for mark, word in ((";", "semicolons"), ("\t", "tabs"), ("|", "bars")):
-        if len(header) <= 2 and any(mark in h for h in header):
-            return f" (the file seems to separate its columns with {word}: export it with commas)"
+        if header.count(mark) > header.count(","):
+            commas = mark == ";" and re.search(r"\d,\d", row)
+            return (f" (the file seems to separate its columns with {word}"
+                    + (" and to write decimal commas: export it with commas between columns and points in numbers)"
+                       if commas else ": export it with commas)"))
     return ""
 
 
@@ -239,17 +271,49 @@ class _Skips:
         return table.iloc[np.argsort(index, kind="stable")].reset_index(drop=True)
 
 
-def _times(raw: pd.Series, rows: np.ndarray, skip):
+def _parse_times(raw: pd.Series, rows: np.ndarray, monitoring: MonitoringFile, name: str) -> np.ndarray:
+    """Each cell's time (datetime64[ns], NaT where unreadable): ISO 8601 text, or text in the
+    monitoring file's ``time_format``; a workbook's date-time cells as they are. Text in another
+    date form, or with a time-zone offset, refuses the file (module text)."""
+    column, fmt = monitoring.time_column, monitoring.time_format
+    text = raw.where(raw.map(lambda v: isinstance(v, str))).str.strip()
+    stamped = raw.where(raw.map(lambda v: isinstance(v, date)))  # datetime cells of a workbook
+    if fmt is None:
+        iso = text.str.fullmatch(ISO_TIME.pattern).fillna(False).to_numpy(bool)
+        offset = text.str.fullmatch(ISO_TIME.pattern + OFFSET).fillna(False).to_numpy(bool)
+        other = ~iso & ~offset & text.str.contains(OTHER_DATE).fillna(False).to_numpy(bool)
+        if offset.any():
+            k = np.flatnonzero(offset)[0]
+            raise CaseError(f"row {rows[k]}, column {column!r}: {shorten(text.iloc[k])} carries a time-zone offset; "
+                            "hxtrain takes times as the plant's clock shows them, so that daily windows run from "
+                            "the plant's midnight: export the times without the offset", file=name)
+        if other.any():
+            k = np.flatnonzero(other)[0]
+            raise CaseError(f"row {rows[k]}, column {column!r}: {shorten(text.iloc[k])} is not an ISO 8601 time such "
+                            "as 2026-03-14 06:00, and hxtrain does not guess the order of day and month (01/02/2026 "
+                            "is the 1st of February to some and the 2nd of January to others): write the times as "
+                            f"ISO 8601, or give their form as time_format in {monitoring.file} (strftime codes, "
+                            "e.g. '%d/%m/%Y %H:%M')", file=name)
+        parsed = pd.to_datetime(text.where(iso), errors="coerce", format="ISO8601")
+    else:
+        parsed = pd.to_datetime(text, errors="coerce", format=fmt)
+    times = parsed.to_numpy().astype("datetime64[ns]")
+    if stamped.notna().any():
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # mixed date and datetime objects are parsed cell by cell
+            cells = pd.to_datetime(stamped, errors="coerce")
+        if getattr(cells.dt, "tz", None) is not None:
+            raise CaseError(f"column {column!r}: the workbook's times carry a time zone; export them as the plant's "
+                            "clock shows them", file=name)
+        times = np.where(stamped.notna().to_numpy(), cells.to_numpy().astype("datetime64[ns]"), times)
+    return times
+
+
+def _times(raw: pd.Series, rows: np.ndarray, skip, monitoring: MonitoringFile, name: str):
     """(times, keep): the time of each row (NaT where unreadable) and the rows kept, whose
     times increase strictly; ``skip`` is told every other row. A row is compared with the
     latest time of the rows kept before it."""
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # pandas warns when it falls back to parsing cell by cell
-        parsed = pd.to_datetime(raw, errors="coerce", format="ISO8601", utc=True)
-        if parsed.notna().sum() < 0.5 * raw.notna().sum():  # not ISO 8601: a format pandas infers
-            inferred = pd.to_datetime(raw, errors="coerce", utc=True)
-            parsed = inferred if inferred.notna().sum() > parsed.notna().sum() else parsed
-    times = parsed.dt.tz_convert(None).to_numpy().astype("datetime64[ns]")
+    times = _parse_times(raw, rows, monitoring, name)
     missing = raw.isna().to_numpy()
     valid = ~np.isnat(times)
     lowest = np.iinfo(np.int64).min
@@ -261,8 +325,9 @@ def _times(raw: pd.Series, rows: np.ndarray, skip):
     unreadable = ~missing & ~valid
     text = raw.to_numpy(dtype=object)
     skip(missing, TIME_MISSING, [""] * int(missing.sum()))
-    skip(unreadable, TIME_UNREADABLE, [f"{shorten(str(t))} is not a date and time (ISO 8601 reads best: "
-                                       "2026-03-14 06:00)" for t in text[unreadable]])
+    expected = (f"does not follow time_format {monitoring.time_format!r}" if monitoring.time_format else
+                "is not a date and time (ISO 8601: 2026-03-14 06:00)")
+    skip(unreadable, TIME_UNREADABLE, [f"{shorten(str(t))} {expected}" for t in text[unreadable]])
     skip(repeated, TIME_REPEATED, [f"the time of row {rows[b]}" for b in latest_row[repeated]])
     skip(backwards, TIME_BACKWARDS, [f"before row {rows[b]}'s {pd.Timestamp(times[b])}"
                                      for b in latest_row[backwards]])
@@ -297,6 +362,64 @@ def _why(value: float, quantity: str) -> str:
     return f"above {high:g} {_SHOWN_UNIT[quantity]}"
 
 
+def _likely_cause(reason: str, monitoring: MonitoringFile) -> str:
+    """What a file mostly bad for ``reason`` probably has wrong."""
+    if reason == TIME_BACKWARDS:
+        return "the rows are not in time order (is the file newest first? sort it oldest first)"
+    if reason == TIME_REPEATED:
+        return "the times repeat (rows written twice, or times without their hours?)"
+    if reason in ROW_REASONS:
+        return (f"the times do not follow time_format {monitoring.time_format!r} in {monitoring.file}"
+                if monitoring.time_format else "the time column cannot be read: write ISO 8601 times "
+                f"(2026-03-14 06:00) or give their form as time_format in {monitoring.file}")
+    return f"probably a wrong unit in {monitoring.file} or the wrong file"
+
+
+def _check_cleanings(history: History, monitoring: MonitoringFile):
+    """A logged cleaning after the data's last time cannot be seen in them: a slip in its date,
+    or the wrong data file. (One before the data starts is kept: the history starts there.)"""
+    last = history.samples.index.max()
+    for (exchanger, when), key in monitoring.cleaning_keys.items():
+        if when > last:
+            raise monitoring.error(key, f"the cleaning of {exchanger} on {when:%Y-%m-%d %H:%M} lies after the data's "
+                                        f"last time ({last:%Y-%m-%d %H:%M}, in {Path(history.file).name}): the data "
+                                        "cannot show it; is the date or the data file wrong?")
+
+
+def screen_unit_slips(history: History, monitoring: MonitoringFile):
+    """Refuse a tag whose readings disagree grossly with the case: its median reading (default
+    unit) against the base case's simulated value at its point, flows and duties outside
+    [1/:data:`SLIP_RATIO`, :data:`SLIP_RATIO`] times it, temperatures more than
+    :data:`SLIP_KELVIN` from it (screens of common practice: a unit slip, or a tag on the wrong
+    point). Skipped where the base case does not solve or the simulated value is zero."""
+    from hxtrain.solver.simulation.evaluation import evaluate
+
+    base = evaluate(monitoring.case)
+    if not base.success[0]:
+        return
+    for tag in monitoring.tags.values():
+        median = float(np.nanmedian(history.samples[tag.name].to_numpy()))
+        if tag.quantity == "temperature":
+            simulated = float(base.solution.temperature[0, tag.segment])
+            off = abs(median - simulated) > SLIP_KELVIN
+            how = f"{abs(median - simulated):.0f} K from"
+        else:
+            simulated = abs(float(np.atleast_2d(base.net.flow)[0, tag.segment] if tag.quantity == "flow"
+                                  else base.reports[tag.point].metrics["duty"][0]))
+            ratio = median / simulated if simulated > 0.0 else 1.0
+            off = not 1.0 / SLIP_RATIO <= ratio <= SLIP_RATIO
+            how = f"{ratio:.3g} times"
+        if off:
+            unit = _SHOWN_UNIT[tag.quantity]
+            reading = tag.from_default_unit(median)
+            raise monitoring.error(tag.key, f"the median reading of {tag.name}, {reading:.6g} {tag.unit} = {median:.6g} "
+                                            f"{unit}, is {how} the base case's {tag.quantity} at {tag.point} "
+                                            f"({simulated:.6g} {unit}): a unit slip (check its unit), or the wrong "
+                                            f"point? (a screen of common practice: flows and duties within "
+                                            f"{1 / SLIP_RATIO:g} to {SLIP_RATIO:g} times the case, temperatures "
+                                            f"within {SLIP_KELVIN:g} K)")
+
+
 def _check_bad_share(history: History, monitoring: MonitoringFile):
     """Refuse a file with more than MAX_BAD_SHARE of its rows bad, or a tag with no usable value."""
     skipped, name = history.skipped, history.file
@@ -307,12 +430,11 @@ def _check_bad_share(history: History, monitoring: MonitoringFile):
         worst = bad[bad["column"] == column]
         reason = worst["reason"].value_counts().index[0]
         first = worst[worst["reason"] == reason].iloc[0]
-        hint = " (is the file newest first? sort it oldest first)" if reason == TIME_BACKWARDS else ""
+        where = f"in column {column!r}" if column else f"whole rows, for the time in column {monitoring.time_column!r}"
         raise CaseError(
             f"{bad_rows} of {history.rows} data rows ({bad_rows / history.rows:.0%}) are bad, more than the "
-            f"{MAX_BAD_SHARE:.0%} accepted: probably a wrong unit in {monitoring.file} or the wrong file. "
-            f"Most are in column {column!r}: {reason}, first at row {first['row']}"
-            f"{': ' + first['detail'] if first['detail'] else ''}{hint}", file=name)
+            f"{MAX_BAD_SHARE:.0%} accepted: {_likely_cause(reason, monitoring)}. Most are {where}: {reason}, first at "
+            f"row {first['row']}{': ' + first['detail'] if first['detail'] else ''}", file=name)
     for tag in monitoring.tags.values():
         if history.samples.empty or history.samples[tag.name].notna().sum() == 0:
             cells = skipped[skipped["column"] == tag.column]

@@ -39,6 +39,7 @@ import numpy as np
 import pandas as pd
 
 from hxtrain.network.errors import CaseError
+from hxtrain.network.monitoring_file import DEFAULT_HORIZON, DEFAULT_STEP  # half a year in weekly steps
 from hxtrain.solver.simulation.evaluation import as_case, evaluate
 from hxtrain.units.fouling_models import MODELS
 from hxtrain.units.protocol import FIRED_HEATERS, PortStates
@@ -49,9 +50,6 @@ from .fouling_fits import FoulingFits, fouling_side_conditions
 __all__ = ["Projection", "FoulingLaw", "project", "project_network", "evaluation_conditions", "crossing_date",
            "DEFAULT_HORIZON", "DEFAULT_STEP"]
 
-DEFAULT_HORIZON = pd.Timedelta(days=180)
-DEFAULT_STEP = pd.Timedelta(days=7)
-"""The monitoring file's defaults (half a year in weekly steps, common practice)."""
 LIMIT_VALUE_KEYS = ("lim", "design")
 """Names under which a unit's limit finding carries its limit (with the value it checks)."""
 DAY = pd.Timedelta(days=1)

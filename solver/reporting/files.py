@@ -20,7 +20,6 @@ from __future__ import annotations
 
 import datetime
 import hashlib
-import io
 import json
 import math
 import os
@@ -38,22 +37,16 @@ from hxtrain.network import CaseError
 from hxtrain.solver import package_version
 from hxtrain.solver.simulation.results import SimulationResult
 
+from .display_units import Display, current, difference_columns
+from .spreadsheet import RESERVED_SHEETS, SHEET_NAME_LIMIT, about_table, workbook_bytes, words  # noqa: F401
+
 FORMATS = (".csv", ".xlsx", ".json")
 RUN_TABLES = ("units", "streams", "findings", "tears", "summary")
 """The tables of one run, in file order (with .csv: PATH, then PATH_streams.csv, ...)."""
 COUNTS = ("limit_violations", "warnings", "iterations", "evaluations")
 """Quantities that are counts: written as whole numbers in every format."""
-SHEET_NAME_LIMIT = 31
-"""Excel's longest sheet name."""
-RESERVED_SHEETS = ("about", "History")
-"""Sheet names not available to tables: ours for the notes, Excel's own."""
 UNSAFE_CHARACTERS = re.compile(r'[\[\]:*?/\\<>"|\x00-\x1f]')
 """Characters Excel forbids in sheet names and file systems in file names."""
-WORKBOOK_ILLEGAL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f]")
-"""Control characters a worksheet cell cannot hold (openpyxl refuses them)."""
-NOTE_WORDS = {"case_file": "case file", "study": "study file", "written": "date written",
-              "hxtrain_version": "hxtrain version"}
-UNIT_WORDS = (("_kw_per_k", "kW/K"), ("_kg_s", "kg/s"), ("_kw", "kW"), ("_c", "°C"), ("_k", "K"))
 
 
 @dataclass
@@ -104,14 +97,15 @@ def output_files(path: Path, names) -> list[Path]:
     return [path] + [path.with_name(f"{path.stem}_{name}.csv") for name in unique_names(list(names)[1:])]
 
 
-def check_output_path(path, inputs=None, tables=None) -> Path:
+def check_output_path(path, inputs=None, tables=None, formats=FORMATS) -> Path:
     """Reject an output path that cannot be written before any work is done (exit 2).
 
     ``inputs``: role -> path of the run's input files (``{"case file": ...}``); with ``tables``
-    (the names of the tables to be written) every file of the set is checked against them."""
+    (the names of the tables to be written) every file of the set is checked against them.
+    ``formats``: the extensions allowed."""
     path = Path(path)
-    if path.suffix.lower() not in FORMATS:
-        raise CaseError(f"the output file must end in {', '.join(FORMATS)} (the format follows the extension)",
+    if path.suffix.lower() not in formats:
+        raise CaseError(f"the output file must end in {', '.join(formats)} (the format follows the extension)",
                         file=str(path))
     if not path.parent.exists() or not path.parent.is_dir():
         raise CaseError("the folder for the output file does not exist", file=str(path))
@@ -209,35 +203,6 @@ def summary_table(result: SimulationResult) -> pd.DataFrame:
     return pd.DataFrame({"value": pd.Series(values, dtype=object)}).rename_axis("quantity")
 
 
-def words(name: str) -> str:
-    """A table's or note's key in words: 'heat_recovered_kw' -> 'heat recovered (kW)'."""
-    if name in NOTE_WORDS:
-        return NOTE_WORDS[name]
-    for suffix, unit in UNIT_WORDS:
-        if name.endswith(suffix) and len(name) > len(suffix):
-            return f"{name[:-len(suffix)].replace('_', ' ')} ({unit})"
-    return name.replace("_", " ")
-
-
-def about_table(notes: dict, sheets) -> pd.DataFrame:
-    """The notes as rows of (item, value) in words: one row per note (none for an empty one, such
-    as a study without a title), one per summary value, and one per sheet whose name had to
-    differ from its table's."""
-    rows = []
-    for key, value in notes.items():
-        if value is None or value == "":
-            continue
-        entries = value.items() if isinstance(value, dict) else [(key, value)]
-        for name, entry in entries:
-            entry = _plain(entry, name)
-            if isinstance(entry, bool):
-                entry = "yes" if entry else "no"
-            rows.append((words(name), "" if entry is None else entry))
-    rows += [(f"sheet {sheet}", f"the table '{table}' (a sheet name has at most {SHEET_NAME_LIMIT} characters, "
-                                "none of [ ] : * ? / \\)") for table, sheet in sheets if sheet != table]
-    return pd.DataFrame(rows, columns=["item", "value"], dtype=object)
-
-
 # ----------------------------------------------------------------------------- the formats
 
 
@@ -246,33 +211,6 @@ def _json_bytes(tables, notes) -> bytes:
     for name, frame in tables.items():
         document.setdefault(name, _records(frame))
     return json.dumps(document, indent=2, allow_nan=False, default=str).encode("utf-8")
-
-
-def _cell_safe(frame: pd.DataFrame) -> pd.DataFrame:
-    """Text a workbook can hold: control characters (refused in case files, but a message may
-    quote anything) written as escapes such as '\\x07' instead of failing the whole write."""
-    def clean(value):
-        return WORKBOOK_ILLEGAL.sub(lambda m: repr(m.group())[1:-1], value) if isinstance(value, str) else value
-
-    frame = frame.copy()
-    for position, dtype in enumerate(frame.dtypes):
-        if pd.api.types.is_object_dtype(dtype) or pd.api.types.is_string_dtype(dtype):
-            frame.isetitem(position, frame.iloc[:, position].map(clean))
-    if not pd.api.types.is_numeric_dtype(frame.index):
-        frame.index = frame.index.map(clean)
-    return frame.rename(columns=clean)
-
-
-def _xlsx_bytes(tables, notes) -> bytes:
-    """The workbook, built in memory (closed only when complete: an error leaves no open archive)."""
-    sheets = unique_names(tables, SHEET_NAME_LIMIT, RESERVED_SHEETS)
-    buffer = io.BytesIO()
-    writer = pd.ExcelWriter(buffer, engine="openpyxl")
-    _cell_safe(about_table(notes, zip(tables, sheets))).to_excel(writer, sheet_name="about", index=False)
-    for frame, sheet in zip(tables.values(), sheets):
-        _cell_safe(_readable(frame)).to_excel(writer, sheet_name=sheet)
-    writer.close()
-    return buffer.getvalue()
 
 
 def _csv_bytes(frame) -> bytes:
@@ -286,33 +224,73 @@ def _stamped(notes: dict) -> dict:
     return {**front, "written": now, "hxtrain_version": package_version(), **notes}
 
 
-def write_results(result: SimulationResult, path, inputs=None, extra=None) -> WrittenSet:
+def write_results(result: SimulationResult, path, inputs=None, extra=None, display: Display | None = None) -> WrittenSet:
     """Write the result tables, and the named ``extra`` tables after them (a fouling
-    comparison), to ``path`` by its extension."""
+    comparison), to ``path`` by its extension, in ``display``'s units (default: the command's
+    choice, with the case's ``settings.display_units``)."""
+    display = (display or current()).for_result(result)
     notes = {"title": result.title, "case_file": result.case_file, "caution": result.caution,
              "converged": result.converged, "message": result.message,
-             "summary": summary_values(result), "balance": _plain(result.balance.to_dict())}
+             "summary": shown_mapping(summary_values(result), display),
+             "balance": shown_mapping(_plain(result.balance.to_dict()), display)}
     tables = dict(zip(RUN_TABLES, (result.units, result.streams, result.findings, result.tears,
                                    summary_table(result))))
     tables.update(extra or {})
-    return write_tables(tables, path, notes, inputs)
+    return write_tables(tables, path, notes, inputs, display, converted_notes=True)
 
 
-def write_tables(tables: dict, path, notes: dict, inputs=None) -> WrittenSet:
+def shown_mapping(values: dict, display: Display) -> dict:
+    """A mapping of quantities (``heat_recovered_kw``: value) in the shown units, keys renamed."""
+    shown = {}
+    for name, value in values.items():
+        column = display.column(name)
+        if column is None or not isinstance(value, (int, float)) or isinstance(value, bool):
+            shown[name] = value
+        else:
+            shown[column.name] = float(column.convert([value])[0])
+    return shown
+
+
+def units_note(display: Display) -> dict:
+    """For JSON: the units' system and, per quantity, the unit and the ending of its keys."""
+    from .display_units import DISPLAY_TABLE
+
+    note = {"system": display.system}
+    for row in DISPLAY_TABLE:
+        column = display.column(f"x{row.ending}")
+        note[row.quantity] = {"unit": column.label, "key_ending": column.name[1:]}
+    return note
+
+
+def write_tables(tables: dict, path, notes: dict, inputs=None, display: Display | None = None,
+                 converted_notes=False) -> WrittenSet:
     """Write named DataFrames to ``path`` by its extension (.csv: one file per table, the first
     at ``path``; .xlsx: an "about" sheet with ``notes``, then one sheet per table; .json: one
     document with ``notes`` and the tables). Atomic: temporary files renamed over the targets
-    only when all are complete. ``inputs`` (role -> path) may not be among the files written."""
+    only when all are complete. ``inputs`` (role -> path) may not be among the files written.
+    Values are written in ``display``'s units (default: the command's choice), each converted
+    column renamed with its unit's ending."""
     path = check_output_path(path, inputs, list(tables))
     targets = output_files(path, tables)
+    display = display or current()
+    tables = {name: display.frame(frame, difference_columns(frame)) for name, frame in tables.items()}
+    if not converted_notes:
+        notes = {k: shown_mapping(v, display) if isinstance(v, dict) else v for k, v in notes.items()}
     notes = _stamped(notes)
     suffix = path.suffix.lower()
     if suffix == ".csv":
         contents = [lambda f=frame: _csv_bytes(f) for frame in tables.values()]
     elif suffix == ".json":
-        contents = [lambda: _json_bytes(tables, notes)]
+        contents = [lambda: _json_bytes(tables, {**notes, "display_units": units_note(display)})]
     else:
-        contents = [lambda: _xlsx_bytes(tables, notes)]
+        sheets = unique_names(tables, SHEET_NAME_LIMIT, RESERVED_SHEETS)
+        contents = [lambda: workbook_bytes(tables, notes, display, sheets, _readable, _plain)]
+    return write_atomically(path, targets, contents)
+
+
+def write_atomically(path: Path, targets: list, contents: list) -> WrittenSet:
+    """Write each of ``contents`` (callables giving bytes) to its target, all or none: temporary
+    files renamed over the targets only when all are complete, removed on any error."""
     temporaries = []
     try:
         return _write_set(path, targets, contents, temporaries)

@@ -1,9 +1,14 @@
 """Plain-text report of a simulation for the terminal.
 
-Violated limits and warnings come last, boxed, so they are the last thing on the screen.
+It keeps to 120 columns (tables too wide go on in a continuation block that repeats the row
+names; long text is cut) unless ``--wide`` asks for everything, and shows values in the units
+chosen (``--units``, a case's ``settings.display_units``): see :mod:`.display_units`. Violated
+limits and warnings come last, boxed, so they are the last thing on the screen.
 """
 
 from __future__ import annotations
+
+import textwrap
 
 import numpy as np
 import pandas as pd
@@ -12,54 +17,21 @@ from hxtrain.units.protocol import TOTALS
 
 from hxtrain.solver.simulation.results import SimulationResult
 
-EXCHANGER_COLUMNS = {
-    "duty_kw": "duty kW",
-    "hot_in_c": "hot in °C",
-    "hot_out_c": "hot out °C",
-    "cold_in_c": "cold in °C",
-    "cold_out_c": "cold out °C",
-    "ua_kw_per_k": "UA kW/K",
-    "ntu_hot": "NTU",
-    "p_hot": "P",
-    "r_hot": "R",
-    "f": "F",
-    "lmtd_k": "LMTD K",
-    "min_approach_k": "approach K",
-    "findings": "findings",
-}
-SERVICE_COLUMNS = {
-    "u_source": "U from",
-    "u_service_w_m2k": "U service",
-    "u_clean_w_m2k": "U clean",
-    "fouling_shell_m2k_w": "fouling shell",
-    "fouling_tube_m2k_w": "fouling tube",
-    "h_shell_w_m2k": "h shell",
-    "h_tube_w_m2k": "h tube",
-    "re_tube": "Re tube",
-    "dp_shell_kpa": "dp shell kPa",
-    "dp_tube_kpa": "dp tube kPa",
-}
-ONE_STREAM_COLUMNS = {"type": "type", "heat_source": "heat source", "duty_kw": "duty kW", "in_c": "inlet °C",
-                      "out_c": "outlet °C", "findings": "findings"}
-STREAM_COLUMNS = {"segment": "segment", "flow_kg_s": "flow kg/s", "heat_capacity_rate_kw_per_k": "m·cp kW/K",
-                  "temperature_c": "temperature °C"}
+from .console_tables import WIDTH, fixed, render  # noqa: F401  (fixed: the one number format, used here and by others)
+from .display_units import Display, current
 
-
-def _formatted(frame: pd.DataFrame, digits=2) -> str:
-    return frame.to_string(float_format=lambda v: fixed(v, digits), na_rep="")
-
-
-def fixed(value: float, digits: int) -> str:
-    """``value`` with ``digits`` decimals and thousands separators; a value that rounds to zero
-    is shown without a sign (an idle cooler's duty is -0.0 in floating point, "0.0" to a reader).
-
-    >>> fixed(-0.0, 1), fixed(-0.004, 2), fixed(-1234.5, 1)
-    ('0.0', '0.00', '-1,234.5')
-    """
-    text = f"{value:,.{digits}f}"
-    return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
-
-
+EXCHANGER_WORDS = {"duty_kw": "duty", "hot_in_c": "hot in", "hot_out_c": "hot out", "cold_in_c": "cold in",
+                   "cold_out_c": "cold out", "ua_kw_per_k": "UA", "ntu_hot": "NTU", "p_hot": "P", "r_hot": "R",
+                   "f": "F", "lmtd_k": "LMTD", "min_approach_k": "approach", "findings": "findings"}
+SERVICE_WORDS = {"u_source": "U from", "u_service_w_m2k": "U service", "u_clean_w_m2k": "U clean",
+                 "fouling_shell_m2k_w": "fouling shell", "fouling_tube_m2k_w": "fouling tube",
+                 "h_shell_w_m2k": "h shell", "h_tube_w_m2k": "h tube", "re_tube": "Re tube",
+                 "dp_shell_kpa": "dp shell", "dp_tube_kpa": "dp tube"}
+ONE_STREAM_WORDS = {"type": "type", "heat_source": "heat source", "duty_kw": "duty", "in_c": "inlet",
+                    "out_c": "outlet", "findings": "findings"}
+STREAM_WORDS = {"segment": "segment", "flow_kg_s": "flow", "heat_capacity_rate_kw_per_k": "m·cp",
+                "temperature_c": "temperature"}
+DIGITS = {"re_tube": 0}
 def _section(title: str) -> str:
     return f"\n{title}\n{'-' * len(title)}"
 
@@ -71,21 +43,16 @@ def in_group(result: SimulationResult, group: str) -> pd.DataFrame:
 
 def exchanger_table(result: SimulationResult) -> pd.DataFrame:
     table = in_group(result, "exchangers")
-    table = table[[c for c in EXCHANGER_COLUMNS if c in table]].rename(columns=EXCHANGER_COLUMNS)
-    return table.rename_axis("exchanger")
+    return table[[c for c in EXCHANGER_WORDS if c in table]].rename_axis("exchanger")
 
 
 def service_table(result: SimulationResult) -> pd.DataFrame:
-    """U (W/m²·K), fouling (m²·K/W), films and pressure drops, for exchangers that have them."""
+    """U, fouling, films and pressure drops, for exchangers that have them."""
     units = in_group(result, "exchangers")
-    columns = [c for c in SERVICE_COLUMNS if c in units and c != "u_source"]
+    columns = [c for c in SERVICE_WORDS if c in units and c != "u_source"]
     if not columns:
         return pd.DataFrame()
-    table = units[["u_source", *columns]].rename(columns=SERVICE_COLUMNS).rename_axis("exchanger")
-    for name in ("fouling shell", "fouling tube"):
-        if name in table:
-            table[name] = table[name].map(lambda v: "" if pd.isna(v) else f"{v:.5f}")
-    return table
+    return units[["u_source", *columns]].rename_axis("exchanger")
 
 
 def one_stream_table(result: SimulationResult) -> pd.DataFrame:
@@ -93,72 +60,98 @@ def one_stream_table(result: SimulationResult) -> pd.DataFrame:
     heated = table["cold_in_c"].notna() if "cold_in_c" in table else pd.Series(False, index=table.index)
     table["in_c"] = np.where(heated, table.get("cold_in_c"), table.get("hot_in_c"))
     table["out_c"] = np.where(heated, table.get("cold_out_c"), table.get("hot_out_c"))
-    columns = [c for c in ONE_STREAM_COLUMNS if c in table]
-    return table[columns].rename(columns=ONE_STREAM_COLUMNS).rename_axis("unit").fillna("")
+    return table[[c for c in ONE_STREAM_WORDS if c in table]].rename_axis("unit")
 
 
-def boxed(title: str, lines, count=None) -> list[str]:
+RATING = ("ua_kw_per_k", "ntu_hot", "p_hot", "r_hot", "f", "lmtd_k")
+"""The exchanger table's rating columns: a block of their own in the fitted report."""
+
+
+def _exchanger_blocks(table: pd.DataFrame, display: Display) -> list[str]:
+    """The exchanger table whole (wide), or as duties and temperatures, then the rating."""
+    if display.wide:
+        return [render(table, display, EXCHANGER_WORDS)]
+    rating = [c for c in table if c in RATING]
+    return [render(table.drop(columns=rating), display, EXCHANGER_WORDS), "",
+            render(table[rating], display, EXCHANGER_WORDS)]
+
+
+def boxed(title: str, lines, count=None, display: Display | None = None) -> list[str]:
     """A block of lines framed so that it stands out at the end of a report (violated limits);
-    the title gives ``count`` (default: the number of lines)."""
+    the title gives ``count`` (default: the number of lines). Lines longer than the console width
+    are wrapped unless the display is wide."""
+    display = display or current()
     lines = list(lines)
     if not lines:
         return []
     count = len(lines) if count is None else count
+    if not display.wide:
+        lines = [part for line in lines for part in (textwrap.wrap(line, WIDTH - 3, subsequent_indent="   ") or [""])]
     return ["", "!" * 78, f"!! {title}: {count}", "!" * 78, *(f"!! {line}" for line in lines), "!" * 78]
 
 
-def findings_box(result: SimulationResult) -> str:
+def findings_box(result: SimulationResult, display: Display | None = None) -> str:
+    display = (display or current()).for_result(result)
     findings = result.findings
     limits = findings[findings["severity"] == "limit"]
     warnings = findings[findings["severity"] == "warning"]
-    lines = boxed("LIMITS VIOLATED", (f"{row.unit}: {row.message}  [{row.key}]" for row in limits.itertuples()))
+    lines = boxed("LIMITS VIOLATED", (f"{row.unit}: {display.message(row.message)}  [{row.key}]"
+                                      for row in limits.itertuples()), display=display)
     if len(warnings):
         lines += ["", f"Warnings: {len(warnings)}"]
-        lines += [f"  * {row.unit}: {row.message}" for row in warnings.itertuples()]
+        for row in warnings.itertuples():
+            text = f"  * {row.unit}: {display.message(row.message)}"
+            lines += [text] if display.wide else textwrap.wrap(text, WIDTH, subsequent_indent="    ")
     if not len(findings):
         lines += ["", "No limit violated and no warnings."]
     return "\n".join(lines)
 
 
-def text_report(result: SimulationResult, extra: str = "") -> str:
-    """The report; ``extra`` (more sections) goes before the limits and warnings, which stay last."""
+def totals_lines(result: SimulationResult, display: Display) -> list[str]:
     s, b = result.summary, result.balance
+    duty = display.column("x_kw")
+    width = max(len(text) for text in TOTALS.values()) + 1
+    lines = [f"  {(text + ':').ljust(width)} {fixed(display.value('duty', s[key]), duty.digits):>14} {duty.label}"
+             for key, text in TOTALS.items()
+             if key in s and (s[key] != 0.0 or key in ("fired_heater_duty_kw", "heat_recovered_kw"))]
+    temperature = display.column("x_c")
+    lines += [f"  {k.removesuffix('_inlet_c')} inlet temperature: "
+              f"{fixed(display.value('temperature', v), 2)} {temperature.label}"
+              for k, v in s.items() if k.endswith("_inlet_c")]
+    flows = [fixed(display.value("duty", b[k]), duty.digits) for k in
+             ("enthalpy_in_supplies_kw", "heat_added_net_kw", "enthalpy_out_products_kw")]
+    lines.append(f"  energy balance: in {flows[0]} + added {flows[1]} - out {flows[2]} {duty.label} = "
+                 f"{display.value('duty', b['imbalance_kw']):.3g} {duty.label} (relative {b['relative_imbalance']:.1e})")
+    return lines
+
+
+def text_report(result: SimulationResult, extra: str = "", display: Display | None = None) -> str:
+    """The report; ``extra`` (more sections) goes before the limits and warnings, which stay last.
+    ``display``: units and width (default: the command's choice, :func:`.display_units.current`)."""
+    display = (display or current()).for_result(result)
+    note = f"NOTE: {result.caution}"
     parts = [
         f"hxtrain: {result.title or result.case_file}",
         f"case file: {result.case_file}",
-        f"NOTE: {result.caution}",
+        *([note] if display.wide else textwrap.wrap(note, WIDTH, subsequent_indent="      ")),
         f"\n{result.message}",
         _section("Exchangers (P, R, NTU on the hot-side basis)"),
-        _formatted(exchanger_table(result), 2),
+        *_exchanger_blocks(exchanger_table(result), display),
     ]
     service = service_table(result)
     if len(service):
-        parts += [_section("Exchangers in service (U and h in W/m²·K, fouling in m²·K/W)"), _formatted(service, 1)]
+        parts += [_section("Exchangers in service"), render(service, display, SERVICE_WORDS, DIGITS)]
     one_stream = one_stream_table(result)
     if len(one_stream):
-        parts += [_section("Heaters and coolers"), _formatted(one_stream, 1)]
+        parts += [_section("Heaters and coolers"), render(one_stream, display, ONE_STREAM_WORDS)]
     targets = result.units.get("target_deviation_k")
     if targets is not None and targets.notna().any():
         parts += [_section("Products with a target temperature (deviation = actual - target)"),
-                  _formatted(targets.dropna().to_frame("deviation K"), 1)]
-    streams = result.streams[list(STREAM_COLUMNS)].rename(columns=STREAM_COLUMNS)
-    parts += [_section("Stream segments"), _formatted(streams, 2)]
+                  render(targets.dropna().to_frame("deviation_k"), display)]
+    streams = result.streams[list(STREAM_WORDS)]
+    parts += [_section("Stream segments"), render(streams, display, STREAM_WORDS, index="")]
     if len(result.tears):
         tears = result.tears[["tear_stream", "iterations", "accelerators", "final_residual_k"]]
-        parts += [_section("Tear streams"), tears.to_string(index=False, float_format=lambda v: f"{v:.2e}")]
-    width = max(len(text) for text in TOTALS.values()) + 1
-    total_lines = [f"  {(text + ':').ljust(width)} {s[key]:>12,.1f} kW" for key, text in TOTALS.items()
-                   if key in s and (s[key] != 0.0 or key in ("fired_heater_duty_kw", "heat_recovered_kw"))]
-    heater_lines = [f"  {k.removesuffix('_inlet_c')} inlet temperature: {v:,.2f} °C" for k, v in s.items()
-                    if k.endswith("_inlet_c")]
-    parts += [
-        _section("Totals"),
-        *total_lines,
-        *heater_lines,
-        f"  energy balance: in {b['enthalpy_in_supplies_kw']:,.1f} kW + added {b['heat_added_net_kw']:,.1f} kW"
-        f" - out {b['enthalpy_out_products_kw']:,.1f} kW = {b['imbalance_kw']:.3g} kW"
-        f" (relative {b['relative_imbalance']:.1e})",
-        extra,
-        findings_box(result),
-    ]
+        parts += [_section("Tear streams"), render(tears, display, digits={"final_residual_k": ".2e"})]
+    parts += [_section("Totals"), *totals_lines(result, display), extra, findings_box(result, display)]
     return "\n".join(parts)

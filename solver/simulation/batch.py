@@ -9,9 +9,12 @@ an answer.
 
 from __future__ import annotations
 
+import contextvars
 import multiprocessing
 import sys
+import time
 from concurrent.futures import ProcessPoolExecutor
+from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
@@ -38,28 +41,82 @@ class BatchResult:
 
 PROCESS_MINIMUM = 5000
 """Fewest scenarios per process worth starting one for: a worker costs a process start and the
-transfer of the case and its results. A judgement, not an optimum: at 5,000 scenarios a part
-the crude demo as shipped gains from a second process, its fixed-property form does not."""
+transfer of the case and its results."""
+PROBE = 500
+"""Scenarios solved first, in this process, to measure what one costs before splitting the rest."""
+WORTH_SPLITTING = 25e-6
+"""Seconds a scenario must take for other processes to pay. Measured on a 2-core virtual
+machine: the crude demo's fixed-property form (about 7 µs a scenario) ran 0.47 times as fast on
+two processes as on one, the form as shipped (about 80 µs) 1.6 times as fast. Below this the
+batch stays in one process, so a second process never makes it slower."""
+
+_CLUSTER = contextvars.ContextVar("hxtrain_batch_cluster", default=None)
 
 
-def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, workers=1) -> BatchResult:
+@contextmanager
+def batches_on(cluster):
+    """Within this block every :func:`simulate_batch` (sweeps and Monte Carlo included) splits
+    its scenarios over ``cluster`` — an object with ``parts`` (how many pieces to cut a batch
+    into), ``minimum`` (fewest scenarios a piece) and ``map(function, *argument lists)``
+    returning the results in order (see :mod:`hxtrain.solver.studies.distributed`)."""
+    token = _CLUSTER.set(cluster)
+    try:
+        yield cluster
+    finally:
+        _CLUSTER.reset(token)
+
+
+def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, workers=1,
+                   metrics=False) -> BatchResult:
     """Simulate the scenarios given by ``values`` (key path -> array, one value per scenario;
     see :mod:`hxtrain.network.scenarios` for the paths that may vary) of ``case`` (a file, a
     mapping or a Case): the evaluation's view as one row per scenario.
 
-    ``workers`` > 1 splits the scenarios into that many contiguous parts, each solved as a batch
-    of its own in a separate process (at least :data:`PROCESS_MINIMUM` scenarios a part; fewer
-    scenarios use fewer processes). Every scenario converges on its own either way; ``iterations``
-    is then the largest over the parts."""
+    ``workers`` > 1 may split the scenarios over that many processes: the first
+    :data:`PROBE` are solved here and timed; only where a scenario takes longer than
+    :data:`WORTH_SPLITTING` is the rest cut into contiguous parts (at least
+    :data:`PROCESS_MINIMUM` scenarios a part), this process solving one of them while worker
+    processes solve the others. Inside :func:`batches_on` the parts go to that cluster instead.
+    Every scenario converges on its own either way; ``iterations`` is the largest over the
+    parts. ``metrics`` adds a column per named result of every unit (``TAG.duty``,
+    ``TAG.cold_out``, ...: what a study may target), NaN where a scenario is not a success."""
     case = as_case(case)
     scenarios = scenario_count(values)
-    parts = max(1, min(int(workers), scenarios // PROCESS_MINIMUM))
-    if parts == 1:
-        return _solve_batch(case, values, tolerance, max_iterations)
-    pieces = np.array_split(np.arange(scenarios), parts)
-    jobs = [{path: np.atleast_1d(np.asarray(v, dtype=float))[piece] for path, v in values.items()} for piece in pieces]
-    with ProcessPoolExecutor(parts, mp_context=_process_context()) as pool:
-        results = list(pool.map(_solve_batch, [case] * parts, jobs, [tolerance] * parts, [max_iterations] * parts))
+    cluster = _CLUSTER.get()
+    if cluster is not None:
+        parts = max(1, min(int(cluster.parts), scenarios // max(1, int(cluster.minimum))))
+        if parts > 1:
+            return _joined(cluster.map(_solve_batch, [case] * parts, _pieces(values, scenarios, parts),
+                                       [tolerance] * parts, [max_iterations] * parts, [metrics] * parts))
+        return _solve_batch(case, values, tolerance, max_iterations, metrics)
+    if int(workers) <= 1 or scenarios < PROBE + 2 * PROCESS_MINIMUM:
+        return _solve_batch(case, values, tolerance, max_iterations, metrics)
+    start = time.perf_counter()
+    first = _solve_batch(case, _take(values, slice(0, PROBE)), tolerance, max_iterations, metrics)
+    each = (time.perf_counter() - start) / PROBE
+    rest = _take(values, slice(PROBE, scenarios))
+    parts = max(1, min(int(workers), (scenarios - PROBE) // PROCESS_MINIMUM))
+    if each < WORTH_SPLITTING or parts == 1:
+        return _joined([first, _solve_batch(case, rest, tolerance, max_iterations, metrics)])
+    jobs = _pieces(rest, scenarios - PROBE, parts)
+    with ProcessPoolExecutor(parts - 1, mp_context=_process_context()) as pool:
+        others = pool.map(_solve_batch, [case] * (parts - 1), jobs[1:], [tolerance] * (parts - 1),
+                          [max_iterations] * (parts - 1), [metrics] * (parts - 1))
+        mine = _solve_batch(case, jobs[0], tolerance, max_iterations, metrics)  # this process takes a part too
+        results = [first, mine, *others]
+    return _joined(results)
+
+
+def _take(values, where):
+    return {path: np.atleast_1d(np.asarray(v, dtype=float))[where] for path, v in values.items()}
+
+
+def _pieces(values, scenarios, parts):
+    return [_take(values, piece) for piece in np.array_split(np.arange(scenarios), parts)]
+
+
+def _joined(results) -> BatchResult:
+    results = list(results)
     return BatchResult(pd.concat([r.table for r in results], ignore_index=True), max(r.iterations for r in results),
                        np.concatenate([r.temperature for r in results]))
 
@@ -70,11 +127,16 @@ def _process_context():
     return multiprocessing.get_context("fork" if sys.platform.startswith("linux") else "spawn")
 
 
-def _solve_batch(case, values, tolerance, max_iterations) -> BatchResult:
+def _solve_batch(case, values, tolerance, max_iterations, metrics=False) -> BatchResult:
     evaluation = evaluate(case, values, tolerance=tolerance, max_iterations=max_iterations)
     table = pd.DataFrame({path: np.broadcast_to(np.asarray(v, dtype=float).reshape(-1), (evaluation.batch,))
                           for path, v in values.items()})
-    table = pd.concat([table, scenario_table(evaluation)], axis=1)
+    parts = [table, scenario_table(evaluation)]
+    if metrics:
+        ok = evaluation.success
+        parts.append(pd.DataFrame({f"{name}.{m}": np.where(ok, np.broadcast_to(v, (evaluation.batch,)), np.nan)
+                                   for name, report in evaluation.reports.items() for m, v in report.metrics.items()}))
+    table = pd.concat(parts, axis=1)
     return BatchResult(table, evaluation.iterations, evaluation.temperature)
 
 
@@ -84,11 +146,15 @@ def scenario_table(evaluation) -> pd.DataFrame:
     :mod:`.evaluation`), ``status_text``, ``converged``, ``valid``, ``message``, then the
     headline numbers (NaN where the scenario is not a success)."""
     status = evaluation.status
+    names = np.array([STATUS_NAMES[code] for code in sorted(STATUS_NAMES)], dtype=object)
+    message = np.full(evaluation.batch, "", dtype=object)
+    for k in np.flatnonzero(status != SUCCESS):  # only the scenarios that have a reason are worded
+        message[k] = evaluation.reason(k)
     table = pd.DataFrame({"success": status == SUCCESS, "status": status,
-                          "status_text": [STATUS_NAMES[int(s)] for s in status],
+                          "status_text": names[np.searchsorted(sorted(STATUS_NAMES), status)],
                           "converged": evaluation.solution.converged & (status != NOT_CONVERGED),
                           "valid": status != NOT_VALID,
-                          "message": [evaluation.reason(k) for k in range(evaluation.batch)]})
+                          "message": message})
     for name, column in scenario_summary(evaluation).items():
         table[name] = column
     table["relative_imbalance"] = evaluation.balance["relative_imbalance"]

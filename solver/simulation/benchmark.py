@@ -11,7 +11,10 @@ Two forms of the same 12-exchanger train are timed:
 
 Each is timed as one batch in this process, as the same batch split over ``workers``
 processes, and as a loop of single solves; the largest temperature difference between the
-batch and the single solves is printed with the rates.
+batch and the single solves is printed with the rates. Then the linear limit: the
+fixed-property batch against the structured direct solve of :mod:`.linear_limit` on the same
+scenarios, and the command's start-up against ``python -c pass``. The size ladder is
+:mod:`.size_benchmark` (``--sizes``).
 """
 
 from __future__ import annotations
@@ -28,6 +31,7 @@ from hxtrain.network.case import case_from_document
 from hxtrain.network.reading import Document, read_document
 
 from hxtrain.solver.simulation.batch import simulate_batch
+from hxtrain.solver.simulation.linear_limit import direct_solve
 from hxtrain.solver.demos import demo_case_path
 from hxtrain.solver.simulation.results import simulate
 
@@ -95,17 +99,58 @@ def time_case(case, label, scenarios, loop, workers):
             "iterations": batch.iterations}
 
 
+def _best(function, repeats):
+    """(the shortest of ``repeats`` timings, the last result): the least disturbed run."""
+    best, result = float("inf"), None
+    for _ in range(repeats):
+        start = time.perf_counter()
+        result = function()
+        best = min(best, time.perf_counter() - start)
+    return best, result
+
+
+def linear_limit(case, scenarios, repeats=3) -> dict:
+    """``simulate_batch`` against the structured direct solve of :mod:`.linear_limit` on the
+    same crude-flow scenarios of a fixed-property case, the best of ``repeats`` runs each,
+    alternated; and the largest temperature difference between them."""
+    stream = next(iter(case.streams))
+    values = {f"streams.{stream}.flow": case.streams[stream]["flow"] * np.linspace(0.7, 1.15, scenarios)}
+    batch_best, direct_best = float("inf"), float("inf")
+    for _ in range(repeats):
+        batch_seconds, batch = _best(lambda: simulate_batch(case, values), 1)
+        direct_seconds, direct = _best(lambda: direct_solve(case, values), 1)
+        batch_best, direct_best = min(batch_best, batch_seconds), min(direct_best, direct_seconds)
+    return {"scenarios": scenarios, "batch_seconds": batch_best, "direct_seconds": direct_best,
+            "ratio": batch_best / direct_best, "largest_difference_k": float(np.nanmax(np.abs(direct - batch.temperature)))}
+
+
+def startup(repeats=5) -> dict:
+    """Wall time of ``python -c pass``, ``hxtrain --help`` and ``hxtrain check`` on the crude
+    demo, each the best of ``repeats`` fresh processes."""
+    import subprocess
+    import sys
+
+    demo = str(demo_case_path("crude_preheat"))
+    commands = {"python -c pass": [sys.executable, "-c", "pass"],
+                "hxtrain --help": [sys.executable, "-m", "hxtrain.solver.cli.main", "--help"],
+                "hxtrain check (crude demo)": [sys.executable, "-m", "hxtrain.solver.cli.main", "check", demo]}
+    return {label: _best(lambda c=command: subprocess.run(c, capture_output=True, check=True), repeats)[0]
+            for label, command in commands.items()}
+
+
 def run_benchmark(scenarios=20000, loop=5, workers=None, case_name="crude_preheat"):
     """Time ``scenarios`` crude-flow scenarios (70-115 % of the base) of the demo as shipped and
-    of its fixed-property variant; returns a dict of the figures."""
+    of its fixed-property variant, the linear limit and the start-up; returns a dict of the
+    figures."""
     workers = workers or os.cpu_count() or 1
     path = demo_case_path(case_name)
     shipped = load_case(path)
+    fixed = fixed_property_variant(path)
     rows = [time_case(shipped, "as shipped: cp(T), film U", scenarios, loop, workers),
-            time_case(fixed_property_variant(path), "fixed properties: constant cp, fixed UA", scenarios, loop,
-                      workers)]
+            time_case(fixed, "fixed properties: constant cp, fixed UA", scenarios, loop, workers)]
     return {"case": case_name, "exchangers": len(shipped.exchangers), "scenarios": scenarios, "loop_solves": loop,
-            "workers": workers, "rows": rows, "machine": machine()}
+            "workers": workers, "rows": rows, "linear_limit": linear_limit(fixed, scenarios), "startup": startup(),
+            "machine": machine()}
 
 
 def benchmark_text(figures) -> str:
@@ -125,5 +170,14 @@ def benchmark_text(figures) -> str:
             f"{row['all_converged']}; largest temperature difference from the batch: "
             f"{row['largest_difference_k']:.1e} K",
         ]
+    limit = f.get("linear_limit")
+    if limit:
+        lines += [f"  linear limit (fixed properties, {limit['scenarios']:,} scenarios, best of 3): simulate_batch "
+                  f"{limit['batch_seconds']:.3f} s, structured direct solve {limit['direct_seconds']:.3f} s: ratio "
+                  f"{limit['ratio']:.2f}; largest temperature difference {limit['largest_difference_k']:.1e} K"]
+    if f.get("startup"):
+        base = f["startup"]["python -c pass"]
+        lines.append("  start-up (best of 5): " + ", ".join(f"{label} {seconds:.2f} s ({seconds / base:.1f}x)"
+                                                          for label, seconds in f["startup"].items()))
     lines.append(f"  machine: {f['machine']}")
     return "\n".join(lines)

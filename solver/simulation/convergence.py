@@ -58,6 +58,11 @@ class TearResult:
     methods: list = field(default_factory=list)
     evaluations: int = 0
     """Sweeps of the block (evaluations of g), Jacobian columns and step halvings included."""
+    held: np.ndarray | None = None
+    """Segments whose temperatures are held within the tolerance of what their units compute,
+    where more than the tears are (a block converged on all its segments); None: the tears."""
+    computed: np.ndarray | None = None
+    """(batch, held segments) what the producing units compute for the held segments at x."""
 
     @property
     def success(self) -> bool:
@@ -112,7 +117,8 @@ def converge_tears(evaluate, x0, tolerance, max_iterations) -> TearResult:
     converged = _small(residual, tolerance)
     if np.any(converged) and x.shape[1] <= MAX_POLISH_TEARS:
         x, g, residual = _polish(evaluate, x, g, residual, converged, newton.matrix, POLISH_BELOW * tolerance)
-    return TearResult(x, converged, iteration, np.abs(residual), history, methods, evaluations=evaluate.count)
+    return TearResult(x, converged, iteration, np.abs(residual), history, methods, evaluations=evaluate.count,
+                      computed=g)
 
 
 def _stuck(stage, steps, size, best, history, newton):

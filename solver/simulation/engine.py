@@ -8,6 +8,7 @@ only through the :class:`hxtrain.units.protocol.UnitModel` protocol.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -15,7 +16,15 @@ from hxtrain.network.errors import HxtrainError
 from hxtrain.units.protocol import Inlets
 
 from hxtrain.solver.simulation.convergence import TearResult, converge_tears
-from hxtrain.solver.simulation.sequencing import Block, plan_calculation
+
+if TYPE_CHECKING:  # the order is found by networkx, loaded only when a network is solved
+    from hxtrain.solver.simulation.sequencing import Block
+
+
+LARGE_BLOCK_TEARS = 3
+"""Blocks with more tears than this are converged on all their segments at once
+(:mod:`.block_newton`): a dense Jacobian over the tears would cost one sweep of the block per
+tear. Smaller blocks keep the tear iteration of :mod:`.convergence`."""
 
 
 class ConvergenceError(HxtrainError):
@@ -84,7 +93,10 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None) ->
     """Temperatures of every segment over the batch. A block that fails marks its scenarios
     unconverged in ``TemperatureSolution.converged`` (their temperatures must not be reported;
     :func:`convergence_error` words the diagnosis)."""
-    plan = plan if plan is not None else plan_calculation(net.graph)
+    if plan is None:
+        from hxtrain.solver.simulation.sequencing import plan_calculation
+
+        plan = plan_calculation(net.graph)
     flow = np.broadcast_to(net.flow, (batch, len(net.segments)))  # (segments,) or per scenario
     # column-major: a unit reads and writes whole segments, each then contiguous over the batch
     temperature = np.full((batch, len(net.segments)), np.nan, order="F")
@@ -107,13 +119,30 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None) ->
             last["x"] = x
             return _sweep(net, block.units, temperature, flow, slots)
 
-        x0 = np.repeat(guess[:, None], len(block.tears), axis=1)
-        result = converge_tears(evaluate, x0, tolerance, max_iterations)
+        if len(block.tears) > LARGE_BLOCK_TEARS:
+            result = _converge_large_block(net, block, temperature, flow, guess, tolerance, max_iterations)
+        else:
+            x0 = np.repeat(guess[:, None], len(block.tears), axis=1)
+            result = converge_tears(evaluate, x0, tolerance, max_iterations)
+            if not np.array_equal(last["x"], result.x):
+                evaluate(result.x)
         converged &= result.converged
-        if not np.array_equal(last["x"], result.x):
-            evaluate(result.x)
         outcomes.append(BlockOutcome(block, result))
     return TemperatureSolution(temperature, outcomes, converged)
+
+
+def _converge_large_block(net, block, temperature, flow, guess, tolerance, max_iterations) -> TearResult:
+    """A block with many tears: Newton on all its segments (:mod:`.block_newton`). Every
+    segment of the block is held (within the tolerance of what its unit computes); the block's
+    tear set is what the tables report."""
+    from hxtrain.solver.simulation.block_newton import METHOD, solve_block  # sparse solvers: loaded when needed
+
+    equations, converged, iterations, history, sweeps, computed = solve_block(
+        net, block.units, temperature, flow, guess, tolerance, max_iterations)
+    x = np.array(temperature[:, block.tears])
+    where = np.searchsorted(equations.segments, block.tears)
+    return TearResult(x, converged, iterations, np.abs(computed[:, where] - x), history, [METHOD],
+                      evaluations=sweeps, held=equations.segments, computed=computed)
 
 
 def convergence_error(net, solution: TemperatureSolution, tolerance) -> ConvergenceError:

@@ -115,9 +115,16 @@ def evaluate(case, values: dict | None = None, *, tolerance=None, max_iterations
     tolerance = case.settings.tolerance if tolerance is None else tolerance
     max_iterations = case.settings.max_iterations if max_iterations is None else max_iterations
     net = build_network(case, values or {})
-    with np.errstate(all="ignore"):  # rows that are not valid may hold NaN; they are masked below
+    with np.errstate(all="ignore"):  # rows that are not valid may hold NaN; they are masked in assess
         solution = solve_temperatures(net, tolerance=tolerance, max_iterations=max_iterations, batch=net.batch,
                                       plan=plan_calculation(net.graph))
+    return assess(net, solution, tolerance)
+
+
+def assess(net: Network, solution: TemperatureSolution, tolerance) -> Evaluation:
+    """The rest of an evaluation once temperatures are solved: unit reports, totals, findings,
+    the balance and each scenario's status (the stages are apart for the size benchmark)."""
+    with np.errstate(all="ignore"):
         t = solution.temperature
         flow = np.broadcast_to(net.flow, t.shape)
         reports = {name: unit.report(inlets_of(net, name, t, flow)) for name, unit in net.units.items()}
@@ -133,11 +140,12 @@ def evaluate(case, values: dict | None = None, *, tolerance=None, max_iterations
 
     def fail(where, code, text, key):
         """Give scenarios ``where`` (not yet failed) status ``code``; ``text`` and ``key`` are
-        a value for all or one per scenario."""
+        a value for all or one per scenario (``text`` may be a function of the scenario, worded
+        only where one fails)."""
         where = np.asarray(where, bool) & (status == SUCCESS)
         for k in np.flatnonzero(where):
             status[k] = code
-            message[k] = text if isinstance(text, str) else text[k]
+            message[k] = text if isinstance(text, str) else text(k) if callable(text) else text[k]
             reason_key[k] = key[k] if isinstance(key, np.ndarray) else key
 
     fail(~net.valid, NOT_VALID, net.message, net.reason_key)
@@ -149,13 +157,19 @@ def evaluate(case, values: dict | None = None, *, tolerance=None, max_iterations
     range_findings = _temperature_checks(net, t, flow, fail)
     with np.errstate(invalid="ignore"):
         fail(~(units_relative <= BALANCE_TOLERANCE), CHECK_FAILED,
-             [f"the units' energy balance does not close: imbalance {b:.3g} kW besides what the tear tolerance "
-              f"admits (relative {r:.1e}, more than {BALANCE_TOLERANCE:g}); no results are reported"
-              for b, r in zip(units_imbalance, units_relative)], None)
+             lambda k: f"the units' energy balance does not close: imbalance {units_imbalance[k]:.3g} kW besides "
+                       f"what the tear tolerance admits (relative {units_relative[k]:.1e}, more than "
+                       f"{BALANCE_TOLERANCE:g}); no results are reported", None)
     ok = status == SUCCESS
-    shown = [(unit, _masked(f, ok)) for unit, f in findings + range_findings if f.severity != "input"]
-    totals = {name: np.where(ok, sum(np.broadcast_to(r.totals.get(name, 0.0), (net.batch,)) for r in reports.values()),
-                             np.nan) for name in TOTALS}
+    everywhere = bool(np.all(ok))  # then no finding needs masking
+    shown = [(unit, f if everywhere else _masked(f, ok)) for unit, f in findings + range_findings
+             if f.severity != "input"]
+    sums = {name: 0.0 for name in TOTALS}
+    for r in reports.values():  # in unit order, as a sum over all units (adding 0 changes nothing)
+        for name, value in r.totals.items():
+            if name in sums:
+                sums[name] = sums[name] + value
+    totals = {name: np.where(ok, np.broadcast_to(value, (net.batch,)), np.nan) for name, value in sums.items()}
     highlights = {k: np.where(ok, v, np.nan) for r in reports.values() for k, v in r.highlights.items()}
     balance = {k: np.where(ok, v, np.nan) for k, v in balance.items()}
     return Evaluation(net, solution, reports, shown, totals, highlights, balance, status, message, reason_key,
@@ -198,6 +212,11 @@ def tear_holdback(net, solution, t, flow):
     for outcome in solution.blocks:
         if outcome.tears is None:
             continue
+        if outcome.tears.computed is not None:  # what the producing units compute at the answer is known
+            segments = outcome.tears.held if outcome.tears.held is not None else outcome.block.tears
+            held = held + np.sum(flow[:, segments] * (enthalpies(net, segments, outcome.tears.computed)
+                                                      - enthalpies(net, segments, t[:, segments])), axis=1)
+            continue
         for seg in outcome.block.tears:
             source = net.segments[seg].source
             produced = net.units[source].outlet_temperatures(inlets_of(net, source, t, flow))
@@ -207,23 +226,51 @@ def tear_holdback(net, solution, t, flow):
     return held
 
 
+def enthalpies(net, segments, temperature):
+    """h (kJ/kg) of each segment in ``segments`` at ``temperature`` (batch, len(segments)): one
+    call per fluid model, so a long block costs a few calls, not one per segment."""
+    result = np.empty(temperature.shape)
+    columns: dict = {}
+    for j, seg in enumerate(segments):
+        columns.setdefault(id(net.fluids[seg]), []).append(j)
+    for where in columns.values():
+        fluid = net.fluids[segments[where[0]]]
+        if len(where) == 1:
+            result[:, where[0]] = fluid.enthalpy(temperature[:, where[0]])
+        else:
+            result[:, where] = fluid.enthalpy(temperature[:, where])
+    return result
+
+
 def _temperature_checks(net, t, flow, fail):
     """Temperatures that no answer may have: not found (NaN), below absolute zero or above the
     physical range; or outside a fluid's data range (not valid, unless the fluid allows
-    extrapolation: then a warning finding, returned)."""
+    extrapolation: then a warning finding, returned). The tests run on all segments at once
+    (one call per fluid); only the segments where one fails are looked at one by one, in
+    segment order."""
     low, high = PHYSICAL_RANGE
-    warnings = []
+    flowing = flow > 0.0
+    with np.errstate(invalid="ignore"):
+        lost = flowing & ~((t >= low) & (t <= high))
+    attention = np.any(lost, axis=0)
+    by_member: dict = {}
     for seg, fluid in zip(net.segments, net.fluids):
-        column = t[:, seg.index]
-        flowing = flow[:, seg.index] > 0.0
+        for member in fluid.members():
+            by_member.setdefault(id(member), (member, []))[1].append(seg.index)
+    for member, columns in by_member.values():
         with np.errstate(invalid="ignore"):
-            lost = flowing & ~((column >= low) & (column <= high))
-        fail(lost, NOT_VALID, f"segment {seg.label} has no possible temperature: its enthalpy lies outside "
-                              f"{low:g} to {high:g} °C (a duty too large for the flow it acts on?)",
+            outside = flowing[:, columns] & member.outside_range(t[:, columns])
+        attention[np.array(columns)[np.any(outside, axis=0)]] = True
+    warnings = []
+    for index in np.flatnonzero(attention):
+        seg, fluid = net.segments[index], net.fluids[index]
+        column = t[:, seg.index]
+        fail(lost[:, index], NOT_VALID, f"segment {seg.label} has no possible temperature: its enthalpy lies outside "
+                                        f"{low:g} to {high:g} °C (a duty too large for the flow it acts on?)",
              (*net.case.keys.get(seg.source, (seg.source,)),))
         for member in fluid.members():
             with np.errstate(invalid="ignore"):
-                outside = flowing & member.outside_range(column)
+                outside = flowing[:, index] & member.outside_range(column)
             if not np.any(outside):
                 continue
             range_low, range_high = member.valid_range

@@ -1,0 +1,245 @@
+"""The network as a picture: an SVG drawn from the case's paths and the result's temperatures.
+
+Layout (computed, never placed by hand): every stream path is a horizontal row; a stream that
+is heated runs left to right, one that is cooled right to left, so that exchangers line up in
+columns the way the heat-exchanger grid diagram (Linnhoff & Flower 1978) lines them up. Each unit
+on a path gets a column: consecutive units of a row must sit in consecutive columns in the
+row's direction of flow; the columns are the longest-path layers of that constraint graph,
+after the fewest edges that close a cycle (a cooled stream's, first) are left out. Rows of
+cooled streams go above, heated ones below, each group ordered by where it starts.
+
+Symbols and colours are our own: an exchanger is two dots on its two rows joined by a line; a
+unit on one stream a rounded square, warm where it heats the stream and cool where it cools
+it; a junction (a split or a mix) a small diamond joined to the rows it feeds or collects.
+Segment temperatures are written on each row; a unit with a violated limit is ringed in red with
+a "!", one with a warning in amber; every unit links to its row in the report's tables.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from html import escape
+
+import networkx as nx
+import pandas as pd
+
+from hxtrain.solver.simulation.results import SimulationResult
+
+from .display_units import Display
+
+COLUMN, ROW, LEFT, TOP = 92, 62, 0, 40
+"""Spacing of columns and rows, the first column and the top margin (SVG units; the picture
+scales to the page)."""
+STUB = 1.15
+"""Length of a row before its first and after its last unit, in columns (room for a label)."""
+CHARACTER = 7.0
+"""Width of one character of a 12-unit label, for the margins (a generous estimate)."""
+HEATED, COOLED, UTILITY = "#2f6690", "#b4532a", "#8c8c8c"
+HEATS, COOLS = "#e9a23b", "#5aa9c9"
+LIMIT, WARNING = "#d62828", "#e0a800"
+
+
+@dataclass
+class Row:
+    name: str
+    nodes: list
+    """The units with a column along the row, in the order the stream meets them."""
+    sides: dict
+    start: str
+    end: str
+    heated: bool
+    utility: bool
+    temperatures: list
+    """Segment temperatures in flow order (°C): the first leaves the start, the last reaches the end."""
+
+
+def rows_of(result: SimulationResult) -> tuple[list[Row], set, set]:
+    """The rows (one per path), the units with a column, and the junctions (splits, mixes)."""
+    origins = result.network.case.origins
+    starts = {o.unit for o in origins}
+    ends = {o.path[-1].unit for o in origins}
+    junctions = starts & ends
+    streams = result.streams
+    rows = []
+    for origin in origins:
+        segments = streams[streams["path_of"] == origin.name]
+        temperatures = list(segments["temperature_c"])
+        utility = bool(segments["utility"].any()) if "utility" in segments else False
+        steps = [s.unit for s in origin.path[:-1]]
+        for k, (first, last) in enumerate(_turns(steps)):
+            nodes = steps[first:last]
+            start = origin.unit if k == 0 else f"from {steps[first - 1]}"
+            end = origin.path[-1].unit if last == len(steps) else f"to {steps[last]}"
+            if start in junctions:
+                nodes.insert(0, start)
+            if end in junctions:
+                nodes.append(end)
+            chunk = temperatures[first:last + 1]
+            rows.append(Row(origin.name if k == 0 else f"{origin.name} ({k + 1})", nodes,
+                            {s.unit: s.side for s in origin.path}, start, end,
+                            len(chunk) < 2 or chunk[-1] >= chunk[0], utility, chunk))
+    placed = {n for row in rows for n in row.nodes}
+    return rows, placed, junctions
+
+
+def _turns(steps: list) -> list[tuple[int, int]]:
+    """A path cut where it meets a unit again (a feed heated by its own effluent passes both
+    sides of an exchanger): each piece is a row of its own, (first, last) step indices."""
+    pieces, first, seen = [], 0, set()
+    for k, unit in enumerate(steps):
+        if unit in seen:
+            pieces.append((first, k))
+            first, seen = k, set()
+        seen.add(unit)
+    return pieces + [(first, len(steps))]
+
+
+def columns(rows: list[Row]) -> dict:
+    """Column of every placed unit: longest-path layers of the order constraints of the rows."""
+    graph = nx.DiGraph()
+    for priority, row in enumerate(rows):
+        graph.add_nodes_from(row.nodes)
+        ordered = row.nodes if row.heated else row.nodes[::-1]
+        for a, b in zip(ordered, ordered[1:]):
+            weight = (2 if row.heated else 1) + (0 if row.utility else 2)
+            if a != b and (not graph.has_edge(a, b) or graph[a][b]["weight"] < weight):
+                graph.add_edge(a, b, weight=weight)
+    while True:
+        try:
+            cycle = nx.find_cycle(graph)
+        except nx.NetworkXNoCycle:
+            break
+        weakest = min(cycle, key=lambda e: graph.edges[e[0], e[1]]["weight"])
+        graph.remove_edge(weakest[0], weakest[1])
+    column = {}
+    for node in nx.topological_sort(graph):
+        column[node] = max((column[p] + 1 for p in graph.predecessors(node)), default=0)
+    return column
+
+
+def ordered_rows(rows: list[Row], column: dict) -> list[Row]:
+    """Cooled streams above heated ones; utilities at the edges; each group by its columns."""
+    def first(row):
+        return min((column[n] for n in row.nodes), default=0)
+
+    cooled = sorted((r for r in rows if not r.heated), key=lambda r: (not r.utility, -first(r)))
+    heated = sorted((r for r in rows if r.heated), key=lambda r: (r.utility, first(r), r.name))
+    return cooled + heated
+
+
+def network_svg(result: SimulationResult, display: Display) -> str:
+    """The diagram as an inline SVG element."""
+    rows, placed, junctions = rows_of(result)
+    column = columns(rows)
+    rows = ordered_rows(rows, column)
+    y = {row.name: TOP + ROW * k for k, row in enumerate(rows)}
+    severity = _severities(result)
+    units = result.units
+    x = {n: LEFT + COLUMN * c for n, c in column.items()}
+    ends = [_ends(row, x, junctions) for row in rows]
+    low = min(min(a - (len(row.start) * CHARACTER + 12 if row.heated else 0),
+                  b - (0 if row.heated else len(row.end) * CHARACTER + 12)) for row, (a, b) in zip(rows, ends))
+    high = max(max(a + (0 if row.heated else len(row.start) * CHARACTER + 12),
+                   b + (len(row.end) * CHARACTER + 12 if row.heated else 0)) for row, (a, b) in zip(rows, ends))
+    height = TOP + ROW * len(rows)
+    parts = [f'<svg xmlns="http://www.w3.org/2000/svg" class="network" viewBox="{low - 10:.0f} 0 '
+             f'{high - low + 20:.0f} {height}" role="img" aria-label="network diagram" font-family="sans-serif" '
+             f'font-size="12">']
+    rows_at = {}
+    for row in rows:
+        for node in row.nodes:
+            rows_at.setdefault(node, []).append(y[row.name])
+    for node, ys in rows_at.items():  # links first: the rows are drawn over them
+        if len(ys) > 1:
+            dash = ' stroke-dasharray="4 3"' if node in junctions else ""
+            parts.append(f'<line x1="{x[node]}" y1="{min(ys)}" x2="{x[node]}" y2="{max(ys)}" stroke="#555" '
+                         f'stroke-width="1.6"{dash}/>')
+    for row in rows:
+        parts += _row(row, x, y[row.name], junctions, display)
+    for node in placed:
+        parts += _unit(node, x[node], rows_at[node], node in junctions, units, severity, display)
+    parts.append("</svg>")
+    return "".join(parts)
+
+
+def _severities(result) -> dict:
+    findings = result.findings
+    worst = {}
+    for row in findings.itertuples():
+        if worst.get(row.unit) != "limit":
+            worst[row.unit] = row.severity
+    return worst
+
+
+def _ends(row: Row, x: dict, junctions) -> tuple[float, float]:
+    """Where the row starts and ends: at its junctions, or a stub before and after its units."""
+    step = 1 if row.heated else -1
+    points = [x[n] for n in row.nodes]
+    start = x[row.start] if row.start in junctions else (points[0] if points else LEFT) - step * STUB * COLUMN
+    end = x[row.end] if row.end in junctions else (points[-1] if points else LEFT) + step * STUB * COLUMN
+    return start, end
+
+
+def _row(row: Row, x: dict, y: float, junctions, display: Display) -> list[str]:
+    """The row's line with its direction, its end labels and its segment temperatures."""
+    step = 1 if row.heated else -1
+    points = [x[n] for n in row.nodes]
+    start, end = _ends(row, x, junctions)
+    inner = [p for n, p in zip(row.nodes, points) if n not in (row.start, row.end) or n not in junctions]
+    stops = [start, *inner, end]
+    colour = UTILITY if row.utility else (HEATED if row.heated else COOLED)
+    dash = ' stroke-dasharray="6 4"' if row.utility else ""
+    parts = [f'<line x1="{start}" y1="{y}" x2="{end}" y2="{y}" stroke="{colour}" stroke-width="3"{dash}/>',
+             _arrow(end - step * 10, y, step, colour)]
+    label = display.column("x_c")
+    for k, temperature in enumerate(row.temperatures[: len(stops) - 1]):
+        middle = (stops[k] + stops[k + 1]) / 2
+        shown = f"{display.value('temperature', temperature):,.1f}"
+        parts.append(f'<text x="{middle}" y="{y - 7}" text-anchor="middle" fill="{colour}" font-size="11">'
+                     f'{shown} {label.label}</text>')
+    anchor_start, anchor_end = ("end", "start") if row.heated else ("start", "end")
+    if row.start not in junctions:
+        parts.append(f'<text x="{start - step * 6}" y="{y + 4}" text-anchor="{anchor_start}" font-weight="bold" '
+                     f'fill="{colour}">{escape(row.start)}</text>')
+    if row.end not in junctions:
+        parts.append(f'<text x="{end + step * 6}" y="{y + 4}" text-anchor="{anchor_end}" fill="{colour}">'
+                     f'{escape(row.end)}</text>')
+    return parts
+
+
+def _arrow(x, y, step, colour) -> str:
+    return (f'<path d="M{x - step * 7},{y - 6} L{x + step * 3},{y} L{x - step * 7},{y + 6} z" fill="{colour}"/>')
+
+
+def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display) -> list[str]:
+    """A unit's symbol, tag and duty, ringed by its worst finding, linked to its table row."""
+    worst = severity.get(node)
+    ring = LIMIT if worst == "limit" else WARNING if worst == "warning" else "#333"
+    thick = 3.2 if worst else 1.2
+    top = min(ys)
+    title = escape(node + ("" if worst is None else f": {worst} (see the limits section)"))
+    parts = [f'<a href="#unit-{escape(node)}"><g class="unit"><title>{title}</title>']
+    if junction:
+        for yy in ys[:1]:
+            parts.append(f'<path d="M{x},{yy - 8} L{x + 8},{yy} L{x},{yy + 8} L{x - 8},{yy} z" fill="#fff" '
+                         f'stroke="#555" stroke-width="1.6"/>')
+        parts.append("</g></a>")
+        return parts
+    duty = units.at[node, "duty_kw"] if node in units.index and "duty_kw" in units else float("nan")
+    if len(ys) > 1:
+        for yy in ys:
+            parts.append(f'<circle cx="{x}" cy="{yy}" r="9" fill="#fff" stroke="{ring}" stroke-width="{thick}"/>')
+    else:
+        heats = (units.at[node, "cold_in_c"] == units.at[node, "cold_in_c"]) if "cold_in_c" in units else False
+        parts.append(f'<rect x="{x - 10}" y="{top - 10}" width="20" height="20" rx="5" fill="{HEATS if heats else COOLS}" '
+                     f'stroke="{ring}" stroke-width="{thick}"/>')
+    colour = LIMIT if worst == "limit" else "#222"
+    mark = " !" if worst == "limit" else ""
+    parts.append(f'<text x="{x}" y="{top - 14}" text-anchor="middle" font-weight="bold" fill="{colour}">'
+                 f'{escape(node)}{mark}</text>')
+    if duty == duty:
+        column = display.column("x_kw")
+        parts.append(f'<text x="{x}" y="{top + 24}" text-anchor="middle" font-size="10" fill="#444">'
+                     f'{display.value("duty", duty):,.{min(column.digits, 1)}f} {column.label}</text>')
+    parts.append("</g></a>")
+    return parts

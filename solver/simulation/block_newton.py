@@ -1,0 +1,163 @@
+"""Large cyclic blocks converged on all their segments at once: Newton's method with a sparse
+Jacobian whose pattern comes from the graph.
+
+Sequential tearing makes each tear depend on every other (a dense tears x tears Jacobian, one
+sweep of the whole block per column), which grows as n² on a long countercurrent coupling. Here
+the unknowns are the temperatures of every segment inside the block, and the equations are
+each unit's own: segment temperature = what its source unit computes from its inlets,
+F(T) = G(T) - T. A unit's outlets depend only on its inlets, so dG/dT is sparse and its pattern
+is known from the graph: column (inlet segment) i touches only the rows (outlet segments) of
+the unit it enters. Two inlet segments of different units never share a row, so the columns are
+coloured by the inlet's position at its unit (Curtis, Powell & Reid, IMA J. Appl. Math. 13,
+1974, from memory): as many colours as the most inlets of one unit in the block, usually two.
+All colours are evaluated in one simultaneous sweep with the perturbed copies stacked on the
+batch axis, so a Jacobian costs one call per unit whatever the size.
+
+Each iteration solves (I - dG/dT) d = G(T) - T, one sparse LU per scenario (all scenarios as
+one block-diagonal matrix). The step is the distance to the solution of the linearised
+equations, so a block is converged when both the step and the residual are within the
+tolerance; a step still above :data:`POLISH_BELOW` of it is then taken once more as a polish.
+A step that raises a scenario's residual is halved (at most :data:`HALVINGS` times). With
+constant cp and fixed UA the first step is the answer.
+
+The answer is the last point evaluated: every segment of the block is then within the
+tolerance both of what its unit computes there and of the solution. So every segment of the
+block holds back a little enthalpy from the overall balance (what the balance check allows
+for: :attr:`~.convergence.TearResult.held`); the tear set of :mod:`.sequencing` names the
+segments reported as the block's tears.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from hxtrain.network.flows import solve_block_diagonal
+from hxtrain.units.protocol import Inlets
+
+HALVINGS = 4
+POLISH_BELOW = 1e-4
+"""A converged scenario whose next step would move it more than this fraction of the tolerance
+takes that step once more (kept where it lowers the residual), so that answers agree to
+round-off rather than to the tolerance, as the tear iteration's polish does."""
+FD_STEP = 1e-5
+"""Relative forward-difference step (times max(1, |T|)). Small enough that the Jacobian of a
+curved sweep (cp(T), U(T)) is good to about 1e-5, so Newton converges nearly quadratically;
+large enough that the exchangers' own iteration (to 1e-12 of the inlet temperature) perturbs it
+by less than 1e-6 and an affine sweep's Jacobian is exact to about 1e-11."""
+METHOD = "Newton on every segment (sparse, coloured Jacobian)"
+
+
+class BlockEquations:
+    """The structure of one block: its internal segments, their colours and the Jacobian pattern."""
+
+    def __init__(self, net, units):
+        members = set(units)
+        self.units = [u for u in units if net.outlets[u]]
+        self.segments = np.array(sorted(s for u in self.units for s in net.outlets[u]
+                                        if net.segments[s].target in members), int)
+        position = {int(s): j for j, s in enumerate(self.segments)}
+        colour = {}
+        rows, cols, colours = [], [], []
+        for name in units:
+            internal = [s for s in net.inlets[name] if s in position]
+            for c, seg in enumerate(internal):
+                colour[seg] = c
+            for out in net.outlets[name]:
+                if out in position:
+                    for seg in internal:
+                        rows.append(position[out])
+                        cols.append(position[seg])
+                        colours.append(colour[seg])
+        self.rows, self.cols, self.entry_colour = np.array(rows, int), np.array(cols, int), np.array(colours, int)
+        self.colours = int(max(colour.values(), default=0)) + 1
+        self.column_colour = np.array([colour[int(s)] for s in self.segments], int)
+        self.leaving = np.array(sorted(s for u in self.units for s in net.outlets[u] if s not in position), int)
+        # the block works on its own columns only: what its units read and write
+        self.columns = np.array(sorted({s for u in self.units for s in (*net.inlets[u], *net.outlets[u])}), int)
+        local = {int(s): j for j, s in enumerate(self.columns)}
+        self.local_inlets = {u: [local[s] for s in net.inlets[u]] for u in self.units}
+        self.local_outlets = {u: [local[s] for s in net.outlets[u]] for u in self.units}
+        self.local_segments = np.array([local[int(s)] for s in self.segments], int)
+        self.local_leaving = np.array([local[int(s)] for s in self.leaving], int)
+
+    def evaluate(self, net, temperature, flow, x):
+        """G at x (batch, segments of the block), the Jacobian entries (batch, pattern) and the
+        temperatures of the segments leaving the block at x, in one simultaneous sweep of the
+        block with the colours' perturbed copies stacked."""
+        batch, n = x.shape
+        step = FD_STEP * np.maximum(1.0, np.abs(x))
+        stacked = np.concatenate([x] + [x + np.where(self.column_colour == c, step, 0.0)
+                                        for c in range(self.colours)])
+        copies = self.colours + 1
+        work = np.asfortranarray(np.tile(temperature[:, self.columns], (copies, 1)))
+        work[:, self.local_segments] = stacked
+        flows = np.tile(np.broadcast_to(flow, temperature.shape)[:, self.columns], (copies, 1))
+        out = np.full(work.shape, np.nan, order="F")
+        for name in self.units:
+            inlet, local = net.inlets[name], self.local_inlets[name]
+            t_out = net.units[name].outlet_temperatures(Inlets(work[:, local], flows[:, local],
+                                                               tuple(net.fluids[s] for s in inlet)))
+            out[:, self.local_outlets[name]] = t_out
+        g_all = out[:, self.local_segments].reshape(copies, batch, n)
+        g = g_all[0]
+        shifted = g_all[1 + self.entry_colour, :, self.rows].T  # (batch, pattern)
+        derivative = (shifted - g[:, self.rows]) / step[:, self.cols]
+        return g, derivative, out[:batch, self.local_leaving]
+
+    def newton_step(self, residual, derivative):
+        """d with (I - dG/dT) d = residual, per scenario."""
+        n = self.segments.size
+        diagonal = np.arange(n)
+        rows = np.concatenate([diagonal, self.rows])
+        cols = np.concatenate([diagonal, self.cols])
+        values = np.concatenate([np.ones((residual.shape[0], n)), -derivative], axis=1)
+        step, singular = solve_block_diagonal(rows, cols, values, n, residual[:, :, None])
+        return np.where(singular[:, None], np.nan, step[:, :, 0])
+
+
+def solve_block(net, units, temperature, flow, guess, tolerance, max_iterations):
+    """Converge the block of ``units`` on all its internal segments (see the module notes),
+    starting from ``guess`` (batch,) on every one.
+
+    ``temperature`` (batch, segments) holds the converged inlets from earlier blocks; the
+    block's segments (inside it and leaving it) are written in place, at the last point
+    evaluated. Returns (equations, converged (batch,), iterations, history of the largest
+    residual, sweeps, G at that point (batch, internal segments))."""
+    equations = BlockEquations(net, units)
+    batch = temperature.shape[0]
+    x = np.repeat(np.asarray(guess, float).reshape(batch, 1), equations.segments.size, axis=1)
+    state = equations.evaluate(net, temperature, flow, x)  # (G, Jacobian entries, leaving) at x
+    converged, polished = np.zeros(batch, bool), np.zeros(batch, bool)
+    active = np.ones(batch, bool)
+    history, sweeps, iterations = [], 1, 0
+    while True:
+        iterations += 1
+        size = np.max(np.abs(state[0] - x), axis=1)
+        history.append(np.array([np.max(np.where(active, size, 0.0))]))
+        direction = equations.newton_step(state[0] - x, state[1])
+        distance = np.max(np.abs(direction), axis=1)
+        with np.errstate(invalid="ignore"):
+            within = active & (distance <= tolerance) & (size <= tolerance)
+            finished = within & ((distance <= POLISH_BELOW * tolerance) | polished)
+        converged |= within
+        active &= ~finished & np.isfinite(distance)
+        polished |= within  # a converged scenario's next step is its polish, taken once
+        if not np.any(active) or iterations >= max_iterations:
+            break
+        fraction = np.ones(batch)
+        for halving in range(HALVINGS + 1):
+            trial = np.where(active[:, None], x + fraction[:, None] * direction, x)
+            candidate = equations.evaluate(net, temperature, flow, trial)
+            sweeps += 1
+            with np.errstate(invalid="ignore"):
+                worse = active & ~(np.max(np.abs(candidate[0] - trial), axis=1) <= size)
+            if not np.any(worse & ~polished) or halving == HALVINGS:
+                break
+            fraction = np.where(worse & ~polished, fraction / 2.0, fraction)
+        keep = active & ~(worse & polished)  # a polish that does not lower the residual is dropped
+        active &= ~(worse & polished)
+        x = np.where(keep[:, None], trial, x)
+        state = tuple(np.where(keep[:, None], new, old) for new, old in zip(candidate, state))
+    temperature[:, equations.segments] = x
+    temperature[:, equations.leaving] = state[2]
+    return equations, converged, iterations, history, sweeps, state[0]

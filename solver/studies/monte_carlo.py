@@ -1,0 +1,186 @@
+"""Monte Carlo uncertainty: the inputs of a study's ``uncertainty`` section sampled, every sample
+solved in one batch, and what the spread of the inputs does to the results.
+
+* Sampling: one ``numpy.random.Generator`` (PCG64) seeded with the study's ``seed``; each input
+  in the order of the study file draws its uniform numbers from it and maps them through its
+  distribution's inverse CDF restricted to its bounds (an exactly truncated distribution, not a
+  clipped one): the same seed gives the same samples on every machine and with any cluster.
+* Percentiles: P10, P50 and P90 (and the mean) over the samples that have an answer, of the
+  run totals, the fired heaters' inlet temperatures and every unit's duty and outlet
+  temperatures (the named results units declare: ``TAG.duty``, ``TAG.hot_out``, ...).
+* Tornado: each input alone at its own P10 and at its P90 (of its samples) with every other at
+  its P50, one batch of 2k + 1 scenarios; the swing of the fired heaters' duty, largest first.
+  Beside it, each input's rank (Spearman) correlation with that duty over the samples.
+
+Samples that have no answer (not valid, not converged) are counted and left out of the
+statistics, never averaged in.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from hxtrain.units.protocol import FIRED_HEATERS, TOTALS
+
+from hxtrain.solver.simulation.batch import simulate_batch
+
+PERCENTILES = (10, 50, 90)
+FURNACE = FIRED_HEATERS
+
+
+@dataclass
+class UncertaintyResult:
+    samples: pd.DataFrame
+    """One row per sample: the inputs drawn and the batch table's results."""
+    percentiles: pd.DataFrame
+    """One row per result: P10, P50, P90, mean and the samples with an answer."""
+    tornado: pd.DataFrame
+    """One row per input: its P10 and P90, the furnace duty at each (others at P50), the swing,
+    and its rank correlation with the furnace duty over the samples."""
+    seed: int
+    failed: int
+
+    def tables(self) -> dict:
+        return {"uncertainty_percentiles": self.percentiles, "uncertainty_tornado": self.tornado,
+                "uncertainty_samples": self.samples}
+
+
+def draw(uncertainty, samples=None, seed=None) -> dict:
+    """Key path -> array of ``samples`` values (the study's count and seed unless given)."""
+    count = int(samples or uncertainty.samples)
+    rng = np.random.default_rng(uncertainty.seed if seed is None else int(seed))
+    return {d.path: inverse_cdf(d, rng.random(count)) for d in uncertainty.inputs}
+
+
+def inverse_cdf(distribution, u):
+    """Values of ``distribution`` at probabilities ``u`` of its (bounded) range."""
+    from scipy.special import ndtr, ndtri
+
+    p, low, high = distribution.parameters, distribution.low, distribution.high
+    if distribution.family == "normal":
+        a, b = ndtr((low - p["mean"]) / p["sd"]), ndtr((high - p["mean"]) / p["sd"])
+        return p["mean"] + p["sd"] * ndtri(a + u * (b - a))
+    lo, hi = max(p["low"], low), min(p["high"], high)
+    if distribution.family == "uniform":
+        return lo + u * (hi - lo)
+    mode = p["mode"]
+
+    def cdf(x):
+        return np.where(x <= mode, (x - p["low"]) ** 2 / ((p["high"] - p["low"]) * (mode - p["low"]) or 1.0),
+                        1.0 - (p["high"] - x) ** 2 / ((p["high"] - p["low"]) * (p["high"] - mode) or 1.0))
+
+    q = cdf(lo) + u * (cdf(hi) - cdf(lo))
+    split = (mode - p["low"]) / (p["high"] - p["low"])
+    with np.errstate(invalid="ignore"):
+        return np.where(q <= split, p["low"] + np.sqrt(q * (p["high"] - p["low"]) * (mode - p["low"])),
+                        p["high"] - np.sqrt((1.0 - q) * (p["high"] - p["low"]) * (p["high"] - mode)))
+
+
+def run_uncertainty(study, samples=None, seed=None) -> UncertaintyResult:
+    """The Monte Carlo run of ``study.uncertainty`` on the study's base case."""
+    uncertainty = study.uncertainty
+    seed = uncertainty.seed if seed is None else int(seed)
+    drawn = draw(uncertainty, samples, seed)
+    case = study.case()
+    batch = simulate_batch(case, drawn, metrics=True)
+    table = batch.table
+    ok = table["success"].to_numpy(bool)
+    percentiles = _percentiles(table[ok], _result_columns(table))
+    tornado = _tornado(case, drawn, table, ok)
+    return UncertaintyResult(table, percentiles, tornado, seed, int(np.sum(~ok)))
+
+
+def _result_columns(table) -> list:
+    """Totals and heater inlets first, then each unit's duty and outlets."""
+    units = [c for c in table.columns if "." in c and not c.startswith(("streams.", "exchangers.", "heaters.",
+                                                                        "coolers.", "splitters."))]
+    named = [c for c in units if c.rsplit(".", 1)[1] in ("duty", "hot_out", "cold_out", "outlet")]
+    headline = [c for c in table.columns if c in TOTALS or c.endswith("_inlet_c")]
+    return headline + named
+
+
+def _percentiles(table, columns) -> pd.DataFrame:
+    rows = []
+    for column in columns:
+        values = table[column].to_numpy(float)
+        values = values[np.isfinite(values)]
+        if values.size == 0:
+            continue
+        p10, p50, p90 = np.percentile(values, PERCENTILES)
+        rows.append({"result": column, "p10": p10, "p50": p50, "p90": p90, "mean": float(np.mean(values)),
+                     "samples": int(values.size)})
+    return pd.DataFrame(rows, columns=["result", "p10", "p50", "p90", "mean", "samples"])
+
+
+def _tornado(case, drawn, table, ok) -> pd.DataFrame:
+    """One input at a time at its P10 and P90, the others at their P50: the furnace duty."""
+    paths = list(drawn)
+    middle = {p: float(np.percentile(drawn[p], 50)) for p in paths}
+    values = {p: [middle[p]] for p in paths}
+    for path in paths:
+        for q in (10, 90):
+            for p in paths:
+                values[p].append(float(np.percentile(drawn[path], q)) if p == path else middle[p])
+    swings = simulate_batch(case, {p: np.array(v) for p, v in values.items()}).table[FURNACE].to_numpy(float)
+    rows = []
+    duty = table[FURNACE].to_numpy(float)
+    for i, path in enumerate(paths):
+        low, high = swings[1 + 2 * i], swings[2 + 2 * i]
+        rows.append({"input": path, "input_p10": values[path][1 + 2 * i], "input_p90": values[path][2 + 2 * i],
+                     f"{FURNACE}_at_p10": low, f"{FURNACE}_at_p90": high, "swing_kw": high - low,
+                     "rank_correlation": _rank_correlation(drawn[path][ok], duty[ok])})
+    result = pd.DataFrame(rows)
+    order = np.argsort(-np.abs(result["swing_kw"].to_numpy(float)), kind="stable")
+    return result.iloc[order].reset_index(drop=True)
+
+
+def _rank_correlation(x, y) -> float:
+    """Spearman's rank correlation (Pearson's on the ranks; ties are rare in continuous samples)."""
+    if len(x) < 3:
+        return float("nan")
+    rx, ry = np.argsort(np.argsort(x)), np.argsort(np.argsort(y))
+    if np.std(rx) == 0 or np.std(ry) == 0:
+        return float("nan")
+    return float(np.corrcoef(rx, ry)[0, 1])
+
+
+def uncertainty_text(result: UncertaintyResult, study) -> str:
+    """The console report: percentiles, the tornado, how many samples had no answer."""
+    samples = len(result.samples)
+    lines = [f"Uncertainty: {study.title or study.file}", f"{samples:,} samples, seed {result.seed}; "
+             f"{result.failed:,} without an answer (left out)", "", "Percentiles over the samples",
+             "----------------------------"]
+    lines.append(result.percentiles.to_string(index=False, float_format=lambda v: f"{v:,.2f}"))
+    lines += ["", f"What moves the fired heaters' duty most (each input alone at its P10 and P90, the others at P50)",
+              "-" * 96, result.tornado.to_string(index=False, float_format=lambda v: f"{v:,.4g}")]
+    return "\n".join(lines)
+
+
+def uncertainty_command(args, write, say_written) -> int:
+    """``hxtrain uncertainty STUDY``: the run, its tables written (``--out``) before the report."""
+    from hxtrain.network import CaseError
+    from hxtrain.network.study import load_study
+
+    from hxtrain.solver.simulation.results import CAUTION
+    from hxtrain.solver.studies.distributed import cluster_for
+
+    study = load_study(args.study)
+    if study.uncertainty is None:
+        raise CaseError("the study has no 'uncertainty' section (inputs with distributions)", file=study.file,
+                        path=("uncertainty",))
+    if args.samples is not None and not 2 <= args.samples <= 1_000_000:
+        raise CaseError("--samples must be from 2 to 1,000,000")
+    with cluster_for(args):
+        result = run_uncertainty(study, args.samples, args.seed)
+    written = write(result.tables(), args, {"study": study.file, "title": study.title, "seed": result.seed,
+                                            "caution": CAUTION}, {"study file": study.file, "base case": study.base.file})
+    print(uncertainty_text(result, study))
+    print(f"\nNOTE: {CAUTION}")
+    say_written(written)
+    return 0
+
+
+__all__ = ["uncertainty_command", "run_uncertainty", "draw", "inverse_cdf", "uncertainty_text", "UncertaintyResult", "PERCENTILES"]

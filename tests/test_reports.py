@@ -1,0 +1,161 @@
+"""Reports people look at: display units, console tables that fit, the workbook, the HTML report,
+and the trade's units on input."""
+
+import json
+import re
+
+import openpyxl
+import pytest
+import yaml
+
+from hxtrain.network import case_from_mapping
+from hxtrain.network import quantities as q
+from hxtrain.network.case import DISPLAY_KINDS
+from hxtrain.solver import demo_case_path, simulate
+from hxtrain.solver.reporting.display_units import DISPLAY_TABLE, Display
+from hxtrain.solver.reporting.html_report import case_report
+from hxtrain.solver.reporting.text import text_report
+
+from cli_helpers import run_in_process
+
+DEMOS = ("crude_preheat", "feed_effluent", "product_cooling")
+
+
+@pytest.fixture(scope="module")
+def results():
+    return {demo: simulate(demo_case_path(demo)) for demo in DEMOS}
+
+
+# ----------------------------------------------------------------------------- display units
+
+
+def test_the_units_table_covers_every_quantity_a_case_may_choose():
+    assert {row.quantity for row in DISPLAY_TABLE} == set(DISPLAY_KINDS)
+
+
+@pytest.mark.parametrize("column, stored, shown", [
+    ("hot_in_c", 100.0, 212.0),                 # °F = 1.8 °C + 32 (definition of the degree Fahrenheit)
+    ("lmtd_k", 10.0, 18.0),                     # a difference: 1 K = 1.8 °F
+    ("duty_kw", 293.07107, 1.0),                # 1 MMBtu/h = 293.07107 kW (NIST SP 811, Btu_IT, from memory)
+    ("flow_kg_s", 1.0, 7936.6414),              # 1 kg/s = 3600 / 0.45359237 lb/h (the pound's definition)
+    ("dp_tube_kpa", 6.894757, 1.0),             # 1 psi = 6.894757 kPa (NIST SP 811, from memory)
+    ("u_service_w_m2k", 5.678263, 1.0),         # 1 Btu/h·ft²·°F = 5.678263 W/m²·K (NIST SP 811, from memory)
+    ("fouling_shell_m2k_w", 0.17611, 1.0),      # 1 h·ft²·°F/Btu = 0.17611 m²·K/W (the inverse)
+])
+def test_us_units_against_published_factors(column, stored, shown):
+    converted = Display("us").column(column).convert([stored])[0]
+    assert converted == pytest.approx(shown, rel=2e-6)
+
+
+def test_a_case_chooses_units_per_quantity_and_the_choice_is_checked():
+    data = yaml.safe_load(demo_case_path("feed_effluent").read_text())
+    data.setdefault("settings", {})["display_units"] = {"temperature": "degF", "duty": "MW"}
+    case = case_from_mapping(data)
+    display = Display("si").with_case(case)
+    assert display.column("hot_in_c").label == "°F" and display.column("duty_kw").name == "duty_mw"
+    assert display.column("flow_kg_s").label == "kg/s"
+    data["settings"]["display_units"] = {"temperature": "kg"}
+    with pytest.raises(Exception, match=r"settings\.display_units\.temperature"):
+        case_from_mapping(data)
+
+
+def test_messages_show_their_numbers_in_the_chosen_units():
+    assert Display("us").message("reaches 281.1 °C, above 280.0 °C") == "reaches 538.0 °F, above 536.0 °F"
+    assert Display("si").message("reaches 281.1 °C") == "reaches 281.1 °C"
+
+
+@pytest.mark.parametrize("text, kind, expected", [
+    ("25 MMBtu/h", q.DUTY, 7326.7778),                       # 25 × 293.07107 kW
+    ("50000 bbl/d at 870 kg/m^3", q.MASS_FLOW, 60.03426),    # 50000 × 0.158987 m³ / 86400 s × 870 (barrel: 42 US gal)
+    ("60 Btu/h·ft²·°F", q.HEAT_TRANSFER_COEFFICIENT, 340.6958),
+])
+def test_the_trades_units_are_read(text, kind, expected):
+    assert q.to_default_unit(text, kind) == pytest.approx(expected, rel=1e-5)
+
+
+def test_a_volume_flow_without_a_density_is_refused_with_a_hint():
+    with pytest.raises(q.QuantityError, match="volume flow.*at 870 kg/m"):
+        q.to_default_unit("50000 bbl/d", q.MASS_FLOW)
+
+
+# ----------------------------------------------------------------------------- the console
+
+
+@pytest.mark.parametrize("demo", DEMOS)
+def test_the_console_report_fits_120_columns_and_wide_prints_everything(demo, results):
+    result = results[demo]
+    fitted = text_report(result, display=Display())
+    assert max(map(len, fitted.splitlines())) <= 120
+    wide = text_report(result, display=Display(wide=True))
+    for column in ("hot in", "UA", "LMTD", "approach", "segment"):
+        assert column in fitted and column in wide
+    assert "…" not in wide
+    for tag in result.units.index[result.units["group"] == "exchangers"]:
+        assert re.search(rf"^{re.escape(tag)}\s", fitted, re.MULTILINE)
+
+
+def test_us_units_on_the_console(capsys):
+    code, out, err = run_in_process(capsys, "run", "--units", "us")
+    assert code == 0, err
+    assert "°F" in out and "MMBtu/h" in out and "°C" not in out.split("Totals")[1]
+    assert max(map(len, out.splitlines())) <= 120
+
+
+# ----------------------------------------------------------------------------- files
+
+
+def test_the_workbook_has_units_formats_frozen_headers_and_a_limits_sheet(tmp_path, capsys):
+    target = tmp_path / "r.xlsx"
+    assert run_in_process(capsys, "run", "--units", "us", "--out", target)[0] == 0
+    book = openpyxl.load_workbook(target)
+    assert book.sheetnames[:2] == ["about", "limits"]
+    limits = book["limits"]
+    assert limits.sheet_properties.tabColor is not None and limits["A2"].fill.fgColor.rgb.endswith("FFC7CE")
+    assert "E-112" in [c.value for c in limits["A"]]
+    units = book["units"]
+    assert units.freeze_panes == "B2"
+    header = [c.value for c in units[1]]
+    assert "duty_mmbtu_h" in header and "hot_in_f" in header and "duty_kw" not in header
+    duty = header.index("duty_mmbtu_h") + 1
+    assert any(units.cell(row, duty).number_format == "#,##0.000" for row in range(2, units.max_row + 1))
+    about = dict((a, b) for a, b in book["about"].iter_rows(min_row=2, values_only=True))
+    assert about["units"].startswith("US customary") and "caution" in about
+
+
+def test_json_and_csv_carry_the_unit_in_every_key(tmp_path, capsys):
+    assert run_in_process(capsys, "run", "--units", "us", "--out", tmp_path / "r.json")[0] == 0
+    document = json.loads((tmp_path / "r.json").read_text())
+    assert document["display_units"]["temperature"]["unit"] == "°F"
+    assert "heat_recovered_mmbtu_h" in document["summary"]
+    assert run_in_process(capsys, "run", "--out", tmp_path / "r.csv")[0] == 0
+    assert "duty_kw" in (tmp_path / "r.csv").read_text().splitlines()[0]
+
+
+# ----------------------------------------------------------------------------- the HTML report
+
+
+def test_the_html_report_is_self_contained_with_limits_first(results):
+    page = case_report(results["crude_preheat"], Display())
+    assert "<script" not in page  # nothing runs, nothing is fetched: no scripts, no outside resources
+    assert not re.search(r'(src|href)="(https?:)?//|@import|url\((?!#)', page)
+    sections = [m.group(1) for m in re.finditer(r'<section id="([a-z]+)"', page)]
+    assert sections[:4] == ["caution", "limits", "totals", "network"]
+    assert 'href="#unit-E-112"' in page and 'id="unit-E-112"' in page
+    assert page.count("<svg") == 2 + 12  # network, profiles, one T–Q picture per exchanger
+
+
+def test_hxtrain_report_writes_a_case_and_a_study(tmp_path, capsys):
+    code, out, err = run_in_process(capsys, "report", "--demo", "product_cooling", "--units", "us",
+                                    "--out", tmp_path / "c.html")
+    assert code == 0, err and "bytes" in out
+    assert "°F" in (tmp_path / "c.html").read_text()
+    code, out, err = run_in_process(capsys, "report", demo_case_path("crude_preheat").with_name(
+        "crude_preheat_study.yaml"), "--out", tmp_path / "s.html")
+    assert code == 0, err
+    page = (tmp_path / "s.html").read_text()
+    assert "Duty by unit" in page and "Key totals" in page and 'id="limits"' in page
+
+
+def test_hxtrain_report_refuses_an_output_that_is_not_html(tmp_path, capsys):
+    code, out, err = run_in_process(capsys, "report", "--out", tmp_path / "r.pdf")
+    assert code == 2 and ".html" in err

@@ -1,0 +1,192 @@
+"""Scale: tear sets that need no cycle enumeration, large blocks converged on all their segments,
+flows and blends without dense steps, the linear limit, and the batch split that never slows.
+
+Every check compares with an independent path: the structured direct solve of
+``solver/simulation/linear_limit.py`` (no iteration) on constant-cp, fixed-UA networks, brute
+force or the exact MILP for tear sets, one-by-one solves for batches. Timings are not tested
+here (``hxtrain benchmark --sizes`` measures them).
+"""
+
+import itertools
+
+import networkx as nx
+import numpy as np
+import pytest
+
+from hxtrain.network import build_network, case_from_mapping, load_case
+from hxtrain.solver import demo_case_path, simulate
+from hxtrain.solver.simulation import batch as batch_module
+from hxtrain.solver.simulation.batch import simulate_batch
+from hxtrain.solver.simulation.benchmark import fixed_property_variant
+from hxtrain.solver.simulation.linear_limit import direct_solve
+from hxtrain.solver.simulation.sequencing import (choose_tears, disjoint_cycle_bound, greedy_tears,
+                                                  plan_calculation)
+from hxtrain.solver.simulation.size_ladder import SHAPES, ladder_case, unit_count
+
+
+def acyclic_without(graph, tears):
+    cut = nx.MultiDiGraph(graph)
+    cut.remove_edges_from([(u, v, k) for u, v, k in graph.edges(keys=True) if k in set(tears)])
+    return nx.is_directed_acyclic_graph(cut)
+
+
+def random_block(seed, nodes=7, edges=14):
+    rng = np.random.default_rng(seed)
+    graph = nx.MultiDiGraph()
+    for k in range(edges):
+        u, v = rng.integers(0, nodes, size=2)
+        graph.add_edge(int(u), int(v), key=k)
+    return graph
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_greedy_tears_break_every_cycle_and_the_bound_is_below_the_exact_minimum(seed):
+    """On small random multigraphs: the greedy set leaves no cycle, and the disjoint-cycle bound
+    never exceeds the minimum found by the exact MILP cover (itself checked by brute force in
+    test_solver.py)."""
+    graph = random_block(seed)
+    greedy = greedy_tears(graph)
+    assert acyclic_without(graph, greedy)
+    exact, method = choose_tears(graph)
+    assert method.startswith("minimum") and acyclic_without(graph, exact)
+    assert disjoint_cycle_bound(graph) <= len(exact) <= len(greedy)
+
+
+def test_a_long_countercurrent_coupling_gets_a_proven_minimum_tear_set_without_cycle_enumeration(monkeypatch):
+    """600 exchangers in one block: no simple cycle is enumerated (nx.simple_cycles refused),
+    and the greedy set equals the disjoint-cycle lower bound, so it is the fewest."""
+    monkeypatch.setattr(nx, "simple_cycles", lambda *a, **k: pytest.fail("cycles enumerated on a large block"))
+    net = build_network(case_from_mapping(ladder_case("countercurrent", 604, "fixed")))
+    [block] = [b for b in plan_calculation(net.graph) if b.tears]
+    assert len(block.units) == 600
+    assert len(block.tears) == block.lower_bound == 599
+    assert acyclic_without(net.graph.subgraph(block.units), block.tears)
+
+
+@pytest.mark.parametrize("shape", SHAPES)
+def test_every_ladder_shape_agrees_with_the_direct_linear_solve(shape):
+    """Constant cp, fixed UA, about 300 units of each shape: the engine (large blocks by Newton on
+    all their segments) within 1e-8 K of the structured direct solve, in a handful of
+    iterations per block, balance closed. (The direct solve's own round-off grows with the
+    torn segments: on 295 of them its answer is about 1e-9 K from satisfying every unit, the
+    engine's about 1e-13 K.)"""
+    case = case_from_mapping(ladder_case(shape, 300, "fixed"))
+    result = simulate(case)
+    direct = direct_solve(case)[0]
+    assert np.max(np.abs(result.streams["temperature_c"].to_numpy() - direct)) < 1e-8
+    assert result.balance["relative_imbalance"] < 1e-12
+    assert max(result.tears["iterations"], default=0) <= 4
+
+
+def test_tolerance_means_distance_from_the_solution_on_a_large_block():
+    """A 400-exchanger countercurrent block with a loose tolerance: every segment lies within
+    that tolerance of the direct solution (not merely a small last residual)."""
+    case = case_from_mapping(ladder_case("countercurrent", 404, "fixed"))
+    direct = direct_solve(case)[0]
+    for tolerance in (1e-2, 1e-6):
+        result = simulate(case, tolerance=tolerance)
+        assert np.max(np.abs(result.streams["temperature_c"].to_numpy() - direct)) <= tolerance
+
+
+def test_a_large_block_with_cp_varying_converges_in_a_handful_of_iterations():
+    """cp linear in temperature on a 200-exchanger coupling: Newton with the coloured Jacobian
+    converges in at most 6 iterations and the enthalpy balance closes."""
+    result = simulate(case_from_mapping(ladder_case("countercurrent", 204, "varying")))
+    assert result.tears["iterations"].max() <= 6
+    assert result.balance["relative_imbalance"] < 1e-9
+    assert "Newton" in result.tears["accelerators"].iloc[0]
+
+
+def test_blends_follow_the_mass_of_each_supply():
+    """Side-by-side trains blend a feed (70 kg/s) with a lighter one (30 kg/s): the blended
+    segments carry 0.7/0.3 by mass of each fluid, so their cp is the mass-weighted mean."""
+    mapping = ladder_case("side_by_side", 60, "fixed")
+    net = build_network(case_from_mapping(mapping))
+    cp_feed, cp_light = (mapping["fluids"][f]["cp"] for f in ("feed", "light_feed"))
+    split = [s for s in net.segments if s.source.endswith("blend")]
+    assert split
+    for seg in split:
+        assert float(np.asarray(net.fluids[seg.index].cp(np.array([100.0])))[0]) == pytest.approx(
+            0.7 * cp_feed + 0.3 * cp_light, rel=1e-12)
+        assert net.flow[0, seg.index] == pytest.approx(100.0, rel=1e-12)
+
+
+def test_flows_by_supply_group_equal_flows_by_supply(monkeypatch):
+    """A large network's flows are solved per group of supplies (fluid, utility) with a column
+    per supply whose flow varies; a small one keeps each supply's share. Both give the same
+    flows, the same groups on each segment and the same blends, with supply flows varied."""
+    from hxtrain.network import flows as flows_module
+
+    case = case_from_mapping(ladder_case("side_by_side", 60, "varying"))
+    values = {"streams.T1light.flow": np.array([10.0, 30.0, 45.0]), "streams.T2heavy.flow": np.array([50.0, 70.0, 90.0])}
+    by_supply = build_network(case, values)
+    monkeypatch.setattr(flows_module, "SHARE_LIMIT", 0)
+    by_group = build_network(case, values)
+    np.testing.assert_allclose(by_group.flow, by_supply.flow, rtol=1e-12, atol=1e-12)
+    t = np.array([[60.0], [150.0], [240.0]])
+    for a, b in zip(by_group.fluids, by_supply.fluids):
+        np.testing.assert_allclose(a.cp(t[:, 0]), b.cp(t[:, 0]), rtol=1e-12)
+
+
+def test_varied_split_fractions_use_no_dense_matrix_and_match_single_solves(monkeypatch):
+    """A sweep of a splitter fraction on a 330-unit network: the scenarios' flows come from the
+    block-diagonal sparse solve (numpy's dense solve refused) and equal the flows of each
+    scenario built alone."""
+    mapping = ladder_case("side_by_side", 330, "fixed")
+    case = case_from_mapping(mapping)
+    fractions = np.array([0.2, 0.45, 0.8])
+    path = "splitters.T3split.branches.a.fraction"
+    monkeypatch.setattr(np.linalg, "solve", lambda *a, **k: pytest.fail("dense solve in the flows"))
+    varied = build_network(case, {path: fractions})
+    monkeypatch.undo()
+    for i, x in enumerate(fractions):
+        mapping["splitters"]["T3split"]["branches"]["a"]["fraction"] = x
+        mapping["splitters"]["T3split"]["branches"]["b"]["fraction"] = 1.0 - x
+        alone = build_network(case_from_mapping(mapping))
+        np.testing.assert_allclose(varied.flow[i], alone.flow[0], rtol=1e-12, atol=1e-12)
+
+
+def test_the_direct_solve_agrees_with_the_batch_on_the_fixed_property_crude_demo():
+    case = fixed_property_variant(demo_case_path("crude_preheat"))
+    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 7)}
+    batch = simulate_batch(case, values)
+    assert batch.table["success"].all()
+    assert np.max(np.abs(direct_solve(case, values) - batch.temperature)) < 1e-9
+
+
+def test_the_demos_keep_their_tear_iteration():
+    """The bundled demos' blocks are small: they keep the tear iteration with its exact tear set
+    (their printed numbers are those of that path)."""
+    for demo in ("crude_preheat", "feed_effluent"):
+        result = simulate(demo_case_path(demo))
+        assert set(result.tears["tear_method"]) == {"minimum cycle cover (MILP)"}
+        assert "Newton on every segment" not in " ".join(result.tears["accelerators"])
+
+
+def test_a_cheap_batch_stays_in_one_process_and_a_costly_one_splits(monkeypatch):
+    """The batch times its first scenarios: below the cost that pays for a process it never
+    starts one; above it, the rest is split (this process solving a part) and agrees with one
+    batch."""
+    monkeypatch.setattr(batch_module, "PROBE", 4)
+    monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 8)
+    path = demo_case_path("crude_preheat")
+    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 30)}
+    whole = simulate_batch(path, values)
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("a process pool was started for a cheap batch")
+
+    monkeypatch.setattr(batch_module, "WORTH_SPLITTING", 1e9)
+    with monkeypatch.context() as m:
+        m.setattr(batch_module, "ProcessPoolExecutor", refuse)
+        cheap = simulate_batch(path, values, workers=2)
+    monkeypatch.setattr(batch_module, "WORTH_SPLITTING", 0.0)
+    split = simulate_batch(path, values, workers=3)
+    for result in (cheap, split):
+        assert len(result.table) == 30 and result.table["success"].all()
+        np.testing.assert_allclose(result.temperature, whole.temperature, rtol=0, atol=1e-9)
+
+
+def test_ladder_sizes_are_as_asked():
+    for shape, units in itertools.product(SHAPES, (10, 100, 1000)):
+        assert abs(unit_count(ladder_case(shape, units)) - units) <= 0.1 * units + 3
