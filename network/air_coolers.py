@@ -38,7 +38,10 @@ def _read_air(f: Fields) -> dict:
     data["air_flow"] = air.quantity("flow", q.MASS_FLOW, required=False)
     fan = air.mapping("fan_control", what="a mapping with 'outlet_temperature', 'minimum_flow' and 'maximum_flow'")
     if fan is not None:
-        low, high = fan.quantity("minimum_flow", q.MASS_FLOW), fan.quantity("maximum_flow", q.MASS_FLOW)
+        # the maximum first: a read stopped at a bad minimum has then asked for both (the schema
+        # builder infers 'required' from the reads, solver/reporting/schema_build.py)
+        high = fan.quantity("maximum_flow", q.MASS_FLOW)
+        low = fan.quantity("minimum_flow", q.MASS_FLOW)
         if low >= high:
             raise fan.error("maximum_flow", f"{high:g} kg/s is not above the minimum flow of {low:g} kg/s")
         data["fan"] = FanControl(fan.quantity("outlet_temperature", q.TEMPERATURE), low, high)

@@ -40,7 +40,7 @@ class Settings:
 DISPLAY_KINDS = {"temperature": q.TEMPERATURE, "temperature_difference": q.TEMPERATURE_DIFFERENCE,
                  "duty": q.DUTY, "mass_flow": q.MASS_FLOW, "heat_capacity_rate": q.CONDUCTANCE,
                  "heat_transfer_coefficient": q.HEAT_TRANSFER_COEFFICIENT, "fouling": q.FOULING,
-                 "pressure_drop": q.PRESSURE_DROP, "area": q.AREA}
+                 "pressure_drop": q.PRESSURE_DROP, "area": q.AREA, "energy": q.ENERGY}
 """The quantities ``settings.display_units`` may set a unit for, and their kinds (the units a
 value may be shown in); reports (``hxtrain.solver.reporting.display_units``) show each in it."""
 

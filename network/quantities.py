@@ -8,8 +8,10 @@ degF there are read as delta_degC and delta_degF.
 
 from __future__ import annotations
 
+import logging
 import math
 import re
+import warnings
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -119,6 +121,9 @@ DURATION = Kind("a duration", "s", '"1 day" or "6 h"', low=1.0, high=100 * 365.2
                 basis="a one-second sample to a century of projection: common practice")
 """Averaging windows and projection horizons of plant data. Monitoring files ask for the unit
 ("1 day", "6 h"): a bare number here would be seconds, which nobody means."""
+ENERGY = Kind("an energy", "GJ", '"240 GJ" or "230 MMBtu"', low=0.0, high=1e12,
+              basis="fuel over a cleaning horizon; no case value reads it: only reports show it")
+"""Fuel energy (a schedule's fuel over its horizon, a day's fuel): shown in GJ or MMBtu."""
 EMISSION_FACTOR = Kind("an emission factor", "kg/GJ", '56.1 or "0.0561 t/GJ"', low=0.0, high=500.0,
                        basis="natural gas ~56, fuel oil ~77, coal ~95-100 kg CO2 per GJ (IPCC 2006 "
                              "defaults, from memory); 500 is above any fuel")
@@ -139,6 +144,17 @@ def registry():
     import pint
 
     ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=False)
+    # the trade's Btu is the International Table Btu, 1055.05585262 J exactly (pint's plain "Btu"
+    # is the rounded ISO 1055.056 J); redefining a unit makes pint say so, which no user needs
+    logger = logging.getLogger("pint")
+    level = logger.level
+    logger.setLevel(logging.ERROR)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            ureg.define("Btu = Btu_it = BTU")
+    finally:
+        logger.setLevel(level)
     ureg.define("MMBtu = 1e6 * Btu")  # the trade's million Btu (pint alone reads MM as mega-mega)
     return ureg
 
@@ -217,8 +233,6 @@ MAX_UNIT_CHARACTERS = 80
 
 
 def _parse(text: str, kind: Kind) -> float:
-    import pint
-
     text = text.replace("\u2212", "-")  # the minus sign of data sheets and word processors: unambiguous
     match = NUMBER_AT_START.match(text)
     if not match:
@@ -231,6 +245,11 @@ def _parse(text: str, kind: Kind) -> float:
         unit_text, density_text = _AT_DENSITY.split(unit_text, maxsplit=1)
         density = to_default_unit(density_text, DENSITY)
     unit_text = unit_spelling(unit_text, kind)
+    factor = PLAIN_FACTORS.get((unit_text, kind.unit)) if density is None else None
+    if factor is not None:
+        return magnitude * factor
+    import pint
+
     ureg = registry()
     try:
         if len(unit_text) > MAX_UNIT_CHARACTERS:
@@ -250,6 +269,31 @@ def _parse(text: str, kind: Kind) -> float:
                             f"{shorten(text)}{_degree_hint(text)}") from None
     return number
 
+
+PLAIN_FACTORS = {
+    **{(unit, "Pa*s"): factor for unit, factor in (("cP", 1e-3), ("mPa*s", 1e-3), ("Pa*s", 1.0))},
+    **{(unit, "kg/s"): factor for unit, factor in (("t/h", 1 / 3.6), ("kg/h", 1 / 3600), ("kg/s", 1.0))},
+    **{(unit, "Pa"): factor for unit, factor in (("bar", 1e5), ("kPa", 1e3), ("MPa", 1e6), ("Pa", 1.0))},
+    **{(unit, "kW"): factor for unit, factor in (("kW", 1.0), ("MW", 1e3), ("W", 1e-3))},
+    **{(unit, "m"): factor for unit, factor in (("mm", 1e-3), ("cm", 1e-2), ("m", 1.0))},
+    **{(unit, "s"): factor for unit, factor in (("s", 1.0), ("min", 60.0), ("h", 3600.0), ("day", 86400.0))},
+    **{(unit, "kg/GJ"): factor for unit, factor in (("kg/GJ", 1.0), ("t/GJ", 1e3))},
+    ("percent", "dimensionless"): 1e-2,
+    ("m^2", "m^2"): 1.0,
+    ("kg/m^3", "kg/m^3"): 1.0,
+    ("K", "delta_degC"): 1.0,
+    ("m^2*K/W", "m^2*delta_degC/W"): 1.0,
+    ("W/m^2/K", "W/m^2/delta_degC"): 1.0,
+    ("kJ/kg/K", "kJ/kg/delta_degC"): 1.0,
+    ("kW/K", "kW/delta_degC"): 1.0,
+    ("W/m/K", "W/m/delta_degC"): 1.0,
+}
+"""(unit as spelt, a kind's default unit) -> the factor between them, for the units case files
+use most. Pint and its registry take ~0.7 s to load, more than the rest of `hxtrain check`;
+these are read without them. Each factor is the very float pint computes, and pint, too,
+converts a value in a multiplicative unit by multiplying it by that factor, so a value converts
+to the same number either way (tests/test_input_surface.py compares them). Temperature levels,
+whose conversion has an offset, and every other unit go through pint."""
 
 _AT_DENSITY = re.compile(r"\s+at\s+")
 """'50000 bbl/d at 870 kg/m^3': a volume flow with the density that makes it a mass flow."""
@@ -286,7 +330,7 @@ def conversion_to(unit_text: str, kind: Kind) -> tuple[float, float]:
     >>> [round(v, 6) for v in conversion_to("degF", TEMPERATURE)]
     [0.555556, -17.777778]
     >>> round(conversion_to("MMBtu/h", DUTY)[0], 6)
-    293.071111
+    293.07107
     """
     import pint
 

@@ -106,7 +106,9 @@ class ScheduleFile:
     exchanger whose fouling can change (a law here, or any that takes fouling when
     ``monitoring_file`` is given); ``not_allowed``: (first_step, last_step, why), inclusive step
     indices; ``baselines``: fixed_intervals (whole steps, ascending) and fouling_threshold
-    (exchanger -> m²·K/W: the file's value, or the case's fouling of each); ``network``: the case
+    (exchanger -> m²·K/W: the file's value, or the case's fouling of each);
+    ``new_limits_allowed`` (``cleaning.allow_new_limit_violations``, default false): whether a plan
+    may violate a limit at a step where the train with no cleaning does not; ``network``: the case
     as built by ``build_network(case)``."""
 
     file: str
@@ -124,6 +126,7 @@ class ScheduleFile:
     not_allowed: list[tuple[int, int, str]]
     furnace: FurnaceLimit | None
     baselines: dict
+    new_limits_allowed: bool = False
     lines: dict[tuple, int] = field(default_factory=dict, repr=False)
     network: Network | None = field(default=None, repr=False)
 
@@ -196,6 +199,7 @@ def schedule_from_document(doc: Document, folder: Path) -> ScheduleFile:
     cleaning = top.mapping("cleaning", required=True, what="a mapping with default, exchangers, at_most_at_once, ...")
     terms = _cleaning_terms(cleaning, case, cleanable, step, steps)
     at_most = cleaning.integer("at_most_at_once", DEFAULT_AT_MOST_AT_ONCE, 1, 1000)
+    new_limits_allowed = cleaning.flag("allow_new_limit_violations", False)
     not_allowed = _not_allowed(cleaning, start, step, steps)
     cleaning.finish()
     return ScheduleFile(
@@ -204,7 +208,7 @@ def schedule_from_document(doc: Document, folder: Path) -> ScheduleFile:
         economics=read_economics(top.mapping("economics", required=True)), cleaning=terms, at_most_at_once=at_most,
         not_allowed=not_allowed, furnace=_furnace(top, case, net),
         baselines=_baselines(top, step, steps, {t: lumped_fouling(case.exchangers[t]["spec"]) for t in cleanable}),
-        lines=doc.lines, network=net)
+        new_limits_allowed=new_limits_allowed, lines=doc.lines, network=net)
 
 
 # ----------------------------------------------------------------------------- sections

@@ -125,13 +125,25 @@ def test_a_batch_split_over_processes_equals_one_batch(start, monkeypatch):
 
     import hxtrain.solver.simulation.batch as batch_module
 
-    monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 10)
+    # small probes and parts, and splitting always judged worth it, so 30 scenarios really split
+    monkeypatch.setattr(batch_module, "PROBE", 4)
+    monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 4)  # probes of 4 and 16, then two parts of 5
+    monkeypatch.setattr(batch_module, "WORTH_SPLITTING", 0.0)
     if start == "spawn":
         monkeypatch.setattr(batch_module, "_process_context", lambda: multiprocessing.get_context("spawn"))
+    started = []
+
+    class Counted(batch_module.ProcessPoolExecutor):
+        def __init__(self, workers, **kwargs):
+            started.append(workers)
+            super().__init__(workers, **kwargs)
+
+    monkeypatch.setattr(batch_module, "ProcessPoolExecutor", Counted)
     path = demo_case_path("crude_preheat")
     values = {"streams.crude.flow": np.linspace(70.0, 110.0, 30), "exchangers.E-110.bypass.cold": np.linspace(0, 0.3, 30)}
     whole = simulate_batch(path, values)
     split = simulate_batch(path, values, workers=2)
+    assert started == [1]  # one worker process beside this one
     assert len(split.table) == 30 and split.table["converged"].all()
     np.testing.assert_array_equal(split.table["streams.crude.flow"], values["streams.crude.flow"])
     np.testing.assert_allclose(split.temperature, whole.temperature, rtol=0, atol=1e-9)

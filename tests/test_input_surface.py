@@ -465,6 +465,17 @@ def test_a_bare_c_or_f_is_refused_with_the_spelling_to_use(text, kind, hint):
         q.to_default_unit(text, kind)
 
 
+@pytest.mark.parametrize("unit,default", sorted(q.PLAIN_FACTORS))
+def test_units_read_without_pint_convert_to_the_very_number_pint_gives(unit, default):
+    """The common units are read from a table, without loading pint (start-up): each must give
+    bit for bit what pint gives, for magnitudes across the plausible ranges."""
+    ureg = q.registry()
+    kind = next(k for k in vars(q).values() if isinstance(k, q.Kind) and k.unit == default)
+    for magnitude in (1.0, 0.3, 2.5, 7.1, 42.0, 310.0, 1e-4, 123456.789, 1 / 3, 9e-3):
+        by_pint = float(ureg.Quantity(magnitude, ureg.parse_units(unit)).to(default).magnitude)
+        assert q._parse(f"{magnitude!r} {unit}", kind) == by_pint, (magnitude, unit)
+
+
 def geometry_case(**geometry_changes):
     data = rich_case()
     geometry = data["exchangers"]["E-1"]["geometry"]

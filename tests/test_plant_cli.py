@@ -80,7 +80,7 @@ def test_schedule_prints_the_plan_and_the_baselines(tmp_path, capsys):
         assert heading in out, heading
     comparison = pd.DataFrame(json.loads(out_file.read_text())["comparison"]).set_index("plan")
     assert comparison.index[0] == "optimised" and len(comparison) >= 4  # fixed intervals longer than 10 weeks drop out
-    assert comparison["total_cost"].min() == pytest.approx(comparison.loc["optimised", "total_cost"])
+    assert comparison["total_cost_usd"].min() == pytest.approx(comparison.loc["optimised", "total_cost_usd"])
 
 
 def test_schedule_names_the_file_and_key_of_bad_input(tmp_path, capsys):

@@ -193,6 +193,19 @@ def test_baselines_default_to_the_intervals_shorter_than_the_horizon():
     assert plan.at_most_at_once == 1
 
 
+def test_new_limit_violations_are_refused_unless_the_file_allows_them():
+    """The key reaches the horizon the optimiser scores (what it changes is tested in
+    test_scheduling.py); anything but true/false is refused with its key path."""
+    from hxtrain.solver.scheduling.setup import build_horizon
+
+    assert schedule().new_limits_allowed is False
+    allowing = schedule(cleaning={**BASE["cleaning"], "allow_new_limit_violations": True})
+    assert allowing.new_limits_allowed is True
+    assert build_horizon(allowing)[0].new_limits_allowed is True
+    error = refusal(cleaning={**BASE["cleaning"], "allow_new_limit_violations": "sometimes"})
+    assert "cleaning.allow_new_limit_violations" in str(error) and "true or false" in str(error)
+
+
 # ----------------------------------------------------------------------------- whole steps
 
 

@@ -187,3 +187,18 @@ def test_a_cleaning_that_breaks_a_design_limit_is_refused(tmp_path):
 def _hottest_cold_outlet(horizon, outcome, name):
     values = scenario_values(horizon, outcome.fouling, outcome.out_of_service)
     return float(np.max(evaluate(horizon.case, values).reports[name].metrics["cold_out"]))
+
+
+def test_a_limit_the_uncleaned_train_already_breaks_is_standing_not_new():
+    """By hand, on the rule itself: a limit the no-cleaning train breaks in some step is a
+    standing violation (counted, never new); a limit it keeps over the whole horizon is new
+    wherever a plan breaks it."""
+    from hxtrain.solver.scheduling.horizon import new_violations
+
+    steps = 4
+    reference = {"standing": np.array([False, True, True, False]), "kept": np.zeros(steps, bool)}
+    plans = {"standing": np.array([[True, True, True, True], [False, False, False, False]]).ravel(),
+             "kept": np.array([[False, True, False, False], [True, True, False, False]]).ravel()}
+    assert new_violations(plans, reference, 2, steps).tolist() == [[0, 1, 0, 0], [1, 1, 0, 0]]
+    # a limit the reference never reports at all is new too
+    assert new_violations({"other": np.ones(steps, bool)}, reference, 1, steps).tolist() == [[1, 1, 1, 1]]

@@ -172,7 +172,7 @@ class AirCooler(UnitBase):
         air_out = t_air + duty / (flow * self.air.value)
         quantities = {"duty": duty, "t_hot_in": t, "t_hot_out": out, "t_cold_in": t_air, "t_cold_out": air_out,
                       "ua": service.ua, "ntu": x.ntu, "p": x.p, "r": x.r, "effectiveness": x.effectiveness, "f": x.f,
-                      "lmtd": x.lmtd, "approach": x.approach}
+                      "lmtd": x.lmtd, "approach": x.approach, "air_flow": flow}
         if self.area is not None:
             u_service = service.ua * 1000.0 / self.area
             clean = u_service if self.clean_u is None else np.broadcast_to(self.clean_u, t.shape)

@@ -33,7 +33,9 @@ from __future__ import annotations
 import numpy as np
 
 from .arrays import as_arrays
-from scipy.special import gammainc, gammaincc, i0e, i1e
+
+# scipy.special loads where crossflow with both fluids unmixed is rated: reading and checking a
+# case, which builds exchangers but rates none, does without it (a quarter of a second).
 
 __all__ = [
     "lmtd",
@@ -262,6 +264,8 @@ def p_crossflow_unmixed(ntu1, r1):
 
 def _mason_series(x, y):
     """P of unmixed crossflow from Mason's series, for 0 < y < 1 (1-d arrays)."""
+    from scipy.special import gammainc, gammaincc
+
     orders = np.arange(1.0, SERIES_TERMS + 1.0)
     y_exceeds = gammainc(orders, y[:, None])
     near_one = x >= 1.0  # P >= 0.47 there: summed as 1 - P, whose terms are all positive
@@ -275,6 +279,8 @@ def _mason_series(x, y):
 def _unmixed_shortfall(x, y, gap):
     """1 - P of unmixed crossflow in closed form (see :func:`p_crossflow_unmixed`), y >= 1;
     ``gap`` is √x − √y."""
+    from scipy.special import i0e, i1e
+
     root_xy = np.sqrt(x) * np.sqrt(y)
     z = 2.0 * root_xy
     bessel = np.exp(-gap**2) * (x * i0e(z) + root_xy * i1e(z))
@@ -291,6 +297,8 @@ def _marcum_q1(a, b_minus_a):
     at u = 0. The integrand is smooth and, but for that factor, slowly varying: the rule's error
     is a few 1e-15 relative, set by the rounding of the nodes themselves (measured against P(Y >= X)
     in 70-digit arithmetic while writing this; P itself is checked in 200 digits in the tests)."""
+    from scipy.special import i0e
+
     d = b_minus_a
     span = 60.0 / (d + 6.0)
     u = span[:, None] * _NODES

@@ -41,8 +41,8 @@ TOTALS = {
     FIRED_HEATERS: "fired heaters (furnaces)",
     OTHER_HEATERS: "other heaters (utility heat, heat of reaction)",
     COOLERS: "coolers",
-    HEAT_TO_UTILITIES: "heat to utility streams in exchangers",
-    HEAT_FROM_UTILITIES: "heat from utility streams in exchangers",
+    HEAT_TO_UTILITIES: "heat to utilities (air coolers, exchangers on utility streams)",
+    HEAT_FROM_UTILITIES: "heat from utilities (air coolers, exchangers on utility streams)",
 }
 """The totals a run reports, each fed by the units that declare a contribution to it in their
 report (:attr:`UnitReport.totals`): the solver adds them up without knowing unit types."""

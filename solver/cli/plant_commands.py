@@ -52,7 +52,9 @@ def _progress():
 
 def _file_command(args, write, say_written, loaded, inputs, table_names, compute, report, tables, notes) -> int:
     """The shape both commands share: check the output path against the inputs, compute, write
-    the tables (before printing), print the report."""
+    the tables (before printing), print the report; both in the units asked for (``--units``)
+    with the case's ``settings.display_units`` applied over them."""
+    from hxtrain.solver.reporting.display_units import current, using
     from hxtrain.solver.reporting.files import check_output_path
     from hxtrain.solver.simulation.results import CAUTION
 
@@ -64,8 +66,9 @@ def _file_command(args, write, say_written, loaded, inputs, table_names, compute
     finally:
         if progress is not None:
             progress.close()
-    written = write(tables(result), args, {**notes, "caution": CAUTION}, inputs)
-    print(report(result))
+    with using(current().with_case(loaded.case)):
+        written = write(tables(result), args, {**notes, "caution": CAUTION}, inputs)
+        print(report(result))
     say_written(written)
     return 0
 

@@ -31,6 +31,12 @@ def fixed(value: float, digits: int) -> str:
     return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
 
 
+def _number_or_missing(value) -> bool:
+    if isinstance(value, (bool, np.bool_)):
+        return False
+    return value is None or value is pd.NA or isinstance(value, (int, float, np.integer, np.floating))
+
+
 def _cell(value, digits) -> str:
     if value is None or value is pd.NA or (isinstance(value, float) and math.isnan(value)):
         return ""
@@ -54,12 +60,13 @@ def cells(frame: pd.DataFrame, display: Display, words: dict | None = None, digi
     for position, name in enumerate(frame.columns):
         values = frame.iloc[:, position]
         column = display.column(name)
-        numeric = pd.api.types.is_numeric_dtype(values) and not pd.api.types.is_bool_dtype(values)
+        numeric = (pd.api.types.is_numeric_dtype(values) and not pd.api.types.is_bool_dtype(values)) or (
+            values.dtype == object and values.map(_number_or_missing).all())  # numbers held as objects
         if column is not None and numeric:
             values = column.convert(values)
         places = digits.get(name, column.digits if column is not None else DIMENSIONLESS_DIGITS)
         headings.append(words.get(name, column.stem.replace("_", " ") if column else str(name).replace("_", " ")))
-        units.append(column.label if column is not None else "")
+        units.append(column.label if column is not None and numeric else "")  # a unit only over converted numbers
         columns.append([_cell(v, places) for v in values])
     return headings, units, columns
 

@@ -18,12 +18,15 @@ import contextlib
 import contextvars
 import math
 import re
+import sys
 from dataclasses import dataclass, field
 from functools import lru_cache
-from typing import NamedTuple
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
-import pandas as pd
+
+if TYPE_CHECKING:  # pandas loads where a table is shown: `hxtrain check` shows none
+    import pandas as pd
 
 from hxtrain.network import quantities as q
 from hxtrain.network.case import DISPLAY_KINDS
@@ -57,6 +60,7 @@ DISPLAY_TABLE = (
     Shown("duty", "_kw", "kW", "kW", "MMBtu/h", (1, 3)),
     Shown("temperature", "_c", "degC", "degC", "degF", (1, 1)),
     Shown("temperature_difference", "_k", "K", "K", "degF", (2, 2)),
+    Shown("energy", "_gj", "GJ", "GJ", "MMBtu", (1, 1)),
 )
 """Quantity -> column ending, stored unit, SI and US units, decimals. Longer endings come first
 (``_kw_per_k`` before ``_k``)."""
@@ -64,7 +68,7 @@ DISPLAY_TABLE = (
 LABELS = {"degC": "°C", "degF": "°F", "K": "K", "kW/K": "kW/K", "Btu/h/degF": "Btu/h·°F", "W/m^2/K": "W/m²·K",
           "Btu/h/ft^2/degF": "Btu/h·ft²·°F", "m^2*K/W": "m²·K/W", "h*ft^2*degF/Btu": "h·ft²·°F/Btu",
           "kg/s": "kg/s", "lb/h": "lb/h", "kPa": "kPa", "psi": "psi", "m^2": "m²", "ft^2": "ft²", "kW": "kW",
-          "MMBtu/h": "MMBtu/h"}
+          "MMBtu/h": "MMBtu/h", "GJ": "GJ", "MMBtu": "MMBtu"}
 """How the table's units are printed; any other unit (a case's choice) is printed as written,
 with ^2, ^3 and * typeset."""
 
@@ -91,7 +95,11 @@ class Column(NamedTuple):
 
     def convert(self, values, difference=False):
         """Stored values in the shown unit (a difference: scaled only)."""
-        values = pd.to_numeric(values, errors="coerce") if isinstance(values, pd.Series) else np.asarray(values, float)
+        pandas = sys.modules.get("pandas")  # a Series can exist only once pandas is loaded
+        if pandas is not None and isinstance(values, pandas.Series):
+            values = pandas.to_numeric(values, errors="coerce")
+        else:
+            values = np.asarray(values, float)
         return values * self.scale + (0.0 if difference else self.offset)
 
 
@@ -161,7 +169,7 @@ class Display:
         """A unit's message with its numbers in the shown units ("281.1 °C" -> "538.0 °F").
 
         >>> Display("us").message("reaches 100.0 °C; approach 5.0 K")
-        'reaches 212.0 °F; approach 9.0 °F'
+        'reaches 212.0 °F; approach 9.0 Δ°F'
         """
         def shown(match):
             column = self.column(f"x{by_quantity()[MESSAGE_UNITS[match.group(2)]].ending}")
@@ -177,6 +185,8 @@ class Display:
         """A table in the shown units, each converted column renamed with its unit ending
         (``hot_in_c`` -> ``hot_in_f``); ``differences``: columns holding differences. A table
         listing quantities in its rows (a summary, a comparison) is converted row by row."""
+        import pandas as pd
+
         frame = frame.copy()
         renamed = {}
         for position, name in enumerate(frame.columns):
@@ -197,6 +207,8 @@ class Display:
     def rows(self, frame: pd.DataFrame, differences=()) -> pd.DataFrame:
         """A table whose row names are quantities (``heat_recovered_kw``, ``E-101 duty_kw``),
         converted row by row and its row names given the shown units' endings."""
+        import pandas as pd
+
         frame = frame.astype(object).copy()
         names = []
         for i, row_name in enumerate(frame.index):
@@ -217,6 +229,8 @@ def difference_columns(frame) -> list:
 
 def lists_quantities(frame: pd.DataFrame) -> bool:
     """Does the table list quantities in its rows (most of its row names carry a unit ending)?"""
+    import pandas as pd
+
     if isinstance(frame.index, pd.RangeIndex) or not len(frame):
         return False
     names = [str(n) for n in frame.index]
@@ -245,8 +259,10 @@ def _column(display: Display, name: str) -> Column | None:
     table_unit = row.us if display.system == "us" else row.si
     digits = row.digits[SYSTEMS.index(display.system)] if shown == table_unit else _digits(row.digits[0], scale)
     stem = name[: -len(row.ending)]
-    return Column(row.quantity, stem, f"{stem}_{unit_slug(shown, row.quantity)}", unit_label(shown), scale, offset,
-                  digits)
+    label = unit_label(shown)
+    if row.quantity == "temperature_difference" and label.startswith("°"):
+        label = f"Δ{label}"  # a difference in degrees (×1.8, no offset), not a temperature
+    return Column(row.quantity, stem, f"{stem}_{unit_slug(shown, row.quantity)}", label, scale, offset, digits)
 
 
 def _digits(si_digits: int, scale: float) -> int:

@@ -1,6 +1,10 @@
 """The console report of ``hxtrain monitor``, and its tables for ``--out``: today's state of each
 exchanger, what fouling costs, the instruments to check, the fouling laws found, and the
-projected dates of limits, with the violated and projected limits last, in a box."""
+projected dates of limits, with the violated and projected limits last, in a box.
+
+Every number is shown in the units chosen (``--units``, the case's ``settings.display_units``)
+through :mod:`.display_units`: the tables name their columns with unit endings
+(:mod:`.plant_tables`), the console tables fit 120 columns unless ``--wide``."""
 
 from __future__ import annotations
 
@@ -11,6 +15,9 @@ import pandas as pd
 
 from hxtrain.solver.simulation.results import CAUTION
 
+from . import plant_tables as names
+from .console_tables import fixed, render
+from .display_units import Display, by_quantity, current
 from .text import boxed
 
 TREND_DAYS = 90
@@ -49,9 +56,13 @@ def _last_cleaning(cleanings, unit):
 
 WIDTH = 118
 """Console lines are kept within 120 columns."""
-HEADINGS = {"duty_kw": "duty kW", "u_w_m2k": "U", "u_clean_w_m2k": "U clean", "fouling_m2k_w": "R_f",
-            "plus_minus_95": "± (95 %)", "trend_per_30_days": "trend/30 d", "trend_plus_minus": "±", "law": "law",
-            "share_of_cost": "cost share", "status": "status"}
+HEADINGS = {"duty_kw": "duty", "u_w_m2k": "U", "u_clean_w_m2k": "U clean", "fouling_m2k_w": "R_f",
+            "plus_minus_95_m2k_w": "± (95 %)", "trend_per_30_days_m2k_w": "trend/30 d",
+            "trend_plus_minus_m2k_w": "±", "law": "law", "share_of_cost": "cost share", "status": "status"}
+FOULING_DIGITS = 6
+"""Decimals of fouling resistances on the console: 0.000043 m²·K/W of trend is two digits."""
+INSTRUMENT_WORDS = {"windows_eliminated": "windows removed", "windows_persistently_off": "windows off",
+                    "median_bias_k": "T bias", "median_bias_kg_s": "flow bias", "median_bias_kw": "duty bias"}
 
 
 def today_table(result) -> pd.DataFrame:
@@ -65,22 +76,24 @@ def today_table(result) -> pd.DataFrame:
     table["u_w_m2k"] = today["u_service"]
     table["u_clean_w_m2k"] = today["u_clean"]
     table["fouling_m2k_w"] = today["fouling"]
-    table["plus_minus_95"] = today.get("fouling_expanded")
+    table["plus_minus_95_m2k_w"] = today.get("fouling_expanded")
     trend = fouling_trend(result.state, result.cleanings).reindex(table.index)
-    table["trend_per_30_days"] = trend["trend_per_30_days"]
-    table["trend_plus_minus"] = trend["trend_plus_minus"]
+    table["trend_per_30_days_m2k_w"] = trend["trend_per_30_days"]
+    table["trend_plus_minus_m2k_w"] = trend["trend_plus_minus"]
+    if not result.shares.empty:
+        table["share_of_cost"] = result.shares["share"].reindex(table.index)
     if not result.fits.empty:
         chosen = result.fits[result.fits["chosen"]].set_index("exchanger")["model"]
         table["law"] = chosen.reindex(table.index).fillna("none determined")
-    if not result.shares.empty:
-        table["share_of_cost"] = result.shares["share"].reindex(table.index)
     table["status"] = today["status"]
     return table.rename_axis("exchanger")
 
 
-def monitoring_report(result) -> str:
-    """The printed report."""
+def monitoring_report(result, display: Display | None = None) -> str:
+    """The printed report, in ``display``'s units (default: the command's choice, with the
+    case's ``settings.display_units``)."""
     m, history = result.monitoring, result.history
+    display = (display or current()).with_case(m.case)
     windows = result.windows
     currency = (m.economics or {}).get("currency", "")
     parts = [f"hxtrain monitor: {m.title or m.file}", f"monitoring file: {m.file}",
@@ -95,28 +108,29 @@ def monitoring_report(result) -> str:
     parts += _redundancy_lines(result)
     today = today_table(result)
     if not today.empty:
+        fouling_digits = {c: FOULING_DIGITS for c in today if c.endswith("_m2k_w")}
         parts += ["", f"Exchangers at {_day(_last(result))} "
-                      "(fouling on the outside area; ± is the 95 % expanded uncertainty, k = 2)",
-                  "(U in W/m²·K; R_f, ± and its trend over the last 90 days in m²·K/W; cost share: the fired duty "
-                  "cleaning it alone saves,", " as a share of the sum of those savings)",
-                  _table(today.rename(columns=HEADINGS).assign(**{"cost share": _percent(today.get("share_of_cost"))}))]
-    parts += _cost_lines(result, currency)
+                      "(fouling on the outside area; ± is the 95 % expanded uncertainty, k = 2; the trend is",
+                  f" over the last {TREND_DAYS} days; cost share: the fired duty cleaning it alone saves, as a share "
+                  "of the sum of those savings)",
+                  render(today.assign(share_of_cost=_percent(today.get("share_of_cost"))), display, HEADINGS,
+                         fouling_digits)]
+    parts += _cost_lines(result, currency, display)
     if not result.instruments.empty:
-        units = {t.name: {"temperature": "K", "flow": "kg/s", "duty": "kW"}[t.quantity] for t in m.tags.values()}
-        instruments = result.instruments.rename(columns={"windows_eliminated": "windows removed",
-                                                         "windows_persistently_off": "windows off", "median_bias": "bias"})
-        instruments["unit"] = [units.get(tag, "") for tag in instruments.index]
+        instruments = names.by_tag_quantity(result.instruments, names.tag_quantities(m, result.instruments.index),
+                                            ["median_bias"])
         parts += ["", "Instruments to check (removed as a gross error in a window, or reading persistently off",
                   "the others; bias: the reading less the others' estimate, median over those windows)",
-                  _table(instruments)]
+                  render(instruments.assign(first=instruments["first"].map(_day), last=instruments["last"].map(_day)),
+                         display, INSTRUMENT_WORDS)]
     if not result.cleanings.empty:
-        shown = result.cleanings[["exchanger", "time", "source", "drop", "lasting"]]
-        parts += ["", "Cleanings (logged, found in the data as a lasting drop, or both)",
-                  shown.to_string(index=False, float_format=lambda v: f"{v:.3g}")]
-    parts += _projection_lines(result)
+        shown = result.cleanings[["exchanger", "time", "source", "drop", "lasting"]].rename(columns=names.CLEANING_NAMES)
+        parts += ["", "Cleanings (logged, found in the data as a lasting drop, or both; drop: the fall in R_f)",
+                  render(shown.assign(time=shown["time"].map(_day)), display, digits={"drop_m2k_w": FOULING_DIGITS})]
+    parts += _projection_lines(result, display)
     for note in getattr(result, "notes", []):
-        parts += [""] + textwrap.wrap(f"Note: {note}", WIDTH)
-    limits = _limit_lines(result)
+        parts += [""] + textwrap.wrap(f"Note: {display.message(note)}", WIDTH)
+    limits = [display.message(line) for line in _limit_lines(result)]
     wrapped = [part for line in limits for part in textwrap.wrap(line, WIDTH - 3, subsequent_indent="   ")]
     parts += boxed("LIMITS VIOLATED OR PROJECTED", wrapped, count=len(limits))
     return "\n".join(parts)
@@ -180,29 +194,25 @@ def _duration(delta: pd.Timedelta) -> str:
     return f"{days:g} day" + ("s" if days != 1 else "") if days >= 1 else f"{delta / pd.Timedelta(hours=1):g} h"
 
 
-def _table(frame: pd.DataFrame) -> str:
-    def fmt(v):
-        if isinstance(v, (float, np.floating)):
-            if not np.isfinite(v):
-                return ""
-            return f"{v:,.1f}" if abs(v) >= 10 else f"{v:.3g}"
-        if isinstance(v, pd.Timestamp):
-            return _day(v)
-        return str(v)
-    return frame.apply(lambda c: c.map(fmt)).to_string()
+def amount(display: Display, quantity: str, value, digits=None, difference=False) -> str:
+    """A stored (SI) value of ``quantity`` in the shown unit, with its label: '80.502 MMBtu/h'."""
+    column = display.column(f"x{by_quantity()[quantity].ending}")
+    return f"{fixed(float(column.convert([value], difference)[0]), column.digits if digits is None else digits)} " \
+           f"{column.label}"
 
 
-def _cost_lines(result, currency):
+def _cost_lines(result, currency, display: Display):
     cost, windows = result.cost, len(result.windows)
     answered = cost[cost["answer"] == "ok"]
     if answered.empty:
         return ["", "What fouling costs: no window with an answer"]
     last = answered.iloc[-1]
-    lines = ["", f"What fouling costs at {_day(answered.index[-1])}: fired duty {last['fired_duty_fouled_kw']:,.0f} kW "
-                 f"as fouled against {last['fired_duty_clean_kw']:,.0f} kW clean: {last['fouling_penalty_kw']:,.0f} kW"]
+    duty = [amount(display, "duty", last[c]) for c in ("fired_duty_fouled_kw", "fired_duty_clean_kw", "fouling_penalty_kw")]
+    lines = ["", f"What fouling costs at {_day(answered.index[-1])}: fired duty {duty[0]} as fouled against {duty[1]} "
+                 f"clean: {duty[2]}"]
     if "cost_per_day" in cost:
-        lines.append(f"  fuel {last['fuel_gj_per_day']:,.1f} GJ/day; {last['cost_per_day']:,.0f} {currency}/day for fuel "
-                     f"and CO2; CO2 {last['co2_t_per_day']:,.2f} t/day")
+        lines.append(f"  fuel {amount(display, 'energy', last['fuel_gj_per_day'])}/day; {last['cost_per_day']:,.0f} "
+                     f"{currency}/day for fuel and CO2; CO2 {last['co2_t_per_day']:,.2f} t/day")
         lines.append(f"  over the {_count(len(answered), 'steady window')} with an answer: "
                      f"{answered['cost_cumulative'].iloc[-1]:,.0f} {currency}, CO2 {answered['co2_t_cumulative'].iloc[-1]:,.0f} t")
         lines.append(f"  (of {_count(windows, 'window')} in the data: transient windows are not costed)")
@@ -211,12 +221,13 @@ def _cost_lines(result, currency):
         lines.append(f"  {_count(unanswered, 'window')} without a cost: {cost.loc[cost['answer'] != 'ok', 'answer'].iloc[0]}")
     mismatch = cost["model_mismatch_k"].dropna()
     if len(mismatch):
-        lines.append(f"  the fouled simulation reproduces the reconciled temperatures to {mismatch.median():.2f} K "
-                     f"(median window), {mismatch.max():.2f} K at worst")
+        lines.append(f"  the fouled simulation reproduces the reconciled temperatures to "
+                     f"{amount(display, 'temperature_difference', mismatch.median())} (median window), "
+                     f"{amount(display, 'temperature_difference', mismatch.max())} at worst")
     return lines
 
 
-def _projection_lines(result):
+def _projection_lines(result, display: Display):
     steps = result.projection
     if steps is None or steps.empty:
         return []
@@ -226,10 +237,9 @@ def _projection_lines(result):
     for column in steps.columns:
         if column.endswith(".fired_duty_kw") or column.endswith(".inlet_c"):
             unit, what = column.split(".", 1)
-            label = "fired duty" if what == "fired_duty_kw" else "inlet temperature"
-            scale, text = (1e-3, "MW") if what == "fired_duty_kw" else (1.0, "°C")
-            lines.append(f"  {unit} {label}: {steps[column].iloc[0] * scale:,.2f} {text} -> "
-                         f"{steps[column].iloc[-1] * scale:,.2f} {text}")
+            label, quantity = ("fired duty", "duty") if what == "fired_duty_kw" else ("inlet temperature", "temperature")
+            lines.append(f"  {unit} {label}: {amount(display, quantity, steps[column].iloc[0])} -> "
+                         f"{amount(display, quantity, steps[column].iloc[-1])}")
     return lines
 
 
@@ -244,17 +254,48 @@ def _limit_lines(result):
     return lines
 
 
-def monitoring_tables(result) -> dict:
-    """The tables ``--out`` writes, by name."""
-    fits = result.fits.copy()
-    for column in ("parameters", "standard_errors"):
-        if column in fits:
-            fits[column] = fits[column].map(lambda d: "; ".join(f"{k} = {v:.6g}" for k, v in d.items())
-                                            if isinstance(d, dict) else d)
+def monitoring_tables(result, display: Display | None = None) -> dict:
+    """The tables ``--out`` writes, by name: every quantity column named with its unit ending
+    (converted on writing), money in the economics' currency, the fitted laws' parameters in
+    columns of their own; texts that quote numbers (limits, messages) in ``display``'s units."""
+    m = result.monitoring
+    display = (display or current()).with_case(m.case)
+    currency = (m.economics or {}).get("currency", "")
+    fits = names.spread_parameters(result.fits, {"parameters": "", "standard_errors": "_sigma"})
+    fits = fits.rename(columns=names.FIT_NAMES)
     if "held" in fits:
         fits["held"] = fits["held"].map(lambda h: ", ".join(h) if isinstance(h, (tuple, list)) else h)
-    return {"today": today_table(result), "state": result.state, "windows": result.windows,
-            "measurements": result.measurements, "unmeasured": result.unmeasured,
-            "instruments": result.instruments, "persistently_off": result.drifts, "removed": result.flagged,
-            "cost": result.cost, "cost_shares": result.shares, "fouling_laws": fits, "cleanings": result.cleanings,
-            "projection": result.projection, "limit_dates": result.limit_dates, "skipped_rows": result.history.skipped}
+    return {"today": today_table(result), "state": result.state.rename(columns=names.STATE_NAMES),
+            "windows": result.windows,
+            "measurements": names.by_tag_quantity(result.measurements, result.measurements.get("quantity", []),
+                                                  ["mean_adjustment"]),
+            "unmeasured": result.unmeasured,
+            "instruments": _by_tag(m, result.instruments, ["median_bias"]),
+            "persistently_off": _by_tag(m, result.drifts, ["mean_bias", "last_bias"]),
+            "removed": _by_tag(m, result.flagged, ["bias", "bias_sigma"]),
+            "cost": names.money(result.cost.rename(columns=names.COST_NAMES), currency),
+            "cost_shares": result.shares, "fouling_laws": fits,
+            "cleanings": result.cleanings.rename(columns=names.CLEANING_NAMES),
+            "projection": result.projection, "limit_dates": _limit_dates(result.limit_dates, display),
+            "skipped_rows": result.history.skipped}
+
+def _limit_dates(dates, display: Display):
+    """The limit dates with each limit's value under its unit's ending (a fired duty's in kW, an
+    inlet temperature's in °C) and its text in ``display``'s units."""
+    if dates is None or dates.empty:
+        return dates
+    key = dates["key"].astype(str)
+    dates = dates.assign(limit=dates["limit"].map(display.message))
+    at = dates.columns.get_loc("value")
+    value = dates.pop("value")
+    dates.insert(at, "value_kw", value.where(key.str.startswith("limits.fired_duty.")))
+    dates.insert(at + 1, "value_c", value.where(key.str.startswith("limits.inlet_temperature.")))
+    return dates
+
+
+def _by_tag(monitoring, table, columns):
+    """``columns`` of a table of tags (by index or a ``tag`` column) split by what each tag measures."""
+    if table is None or table.empty:
+        return table
+    tags = table["tag"] if "tag" in table.columns else table.index
+    return names.by_tag_quantity(table, names.tag_quantities(monitoring, tags), columns)

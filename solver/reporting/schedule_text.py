@@ -1,6 +1,9 @@
 """The console report of ``hxtrain schedule`` and its tables for ``--out``: the optimised plan as
 a grid of exchangers by month, its cleanings, the costs beside the baselines, and the limits the
-plan violates, last, in a box."""
+plan violates, last, in a box.
+
+Every number is in the units chosen (``--units``, the case's ``settings.display_units``) through
+:mod:`.display_units`; money in the economics' currency (:mod:`.plant_tables` names the columns)."""
 
 from __future__ import annotations
 
@@ -11,7 +14,10 @@ import pandas as pd
 
 from hxtrain.solver.simulation.results import CAUTION
 
-from .monitoring_text import WIDTH, _count
+from . import plant_tables as names
+from .console_tables import fixed, render
+from .display_units import Display, current
+from .monitoring_text import FOULING_DIGITS, WIDTH, _count, amount
 from .text import boxed
 
 COST_HEADINGS = {"cleanings": "cleanings", "cleaning_cost": "cleaning", "fuel_gj": "fuel GJ", "fuel_cost": "fuel",
@@ -34,15 +40,18 @@ def plan_grid(result) -> pd.DataFrame:
                         columns=[m.strftime("%Y-%m") for m in months])
 
 
-def schedule_report(result) -> str:
+def schedule_report(result, display: Display | None = None) -> str:
+    """The printed report, in ``display``'s units (default: the command's choice, with the
+    case's ``settings.display_units``)."""
     schedule, horizon = result.schedule, result.horizon
+    display = (display or current()).with_case(schedule.case)
     currency = schedule.economics.get("currency", "")
     end = horizon.times[-1] + pd.Timedelta(days=horizon.step_days)
     cleanable = int(sum(1 for n in horizon.exchangers if n in schedule.cleaning and schedule.cleaning[n].allowed))
     parts = [f"hxtrain schedule: {schedule.title or schedule.file}", f"schedule file: {schedule.file}",
              *textwrap.wrap(f"NOTE: {CAUTION}", WIDTH, subsequent_indent="      "), "",
              f"Horizon: {_day(horizon.times[0])} to {_day(end)}, {_count(horizon.steps, 'step')} of "
-             f"{_count(horizon.step_days, 'day') if horizon.step_days == int(horizon.step_days) else f'{horizon.step_days:g} days'}",
+             f"{_count(int(horizon.step_days), 'day') if horizon.step_days == int(horizon.step_days) else f'{horizon.step_days:g} days'}",
              f"  {len(horizon.exchangers)} exchangers with fouling laws, {cleanable} may be cleaned, at most "
              f"{schedule.at_most_at_once} at once"]
     for first, last, why in schedule.not_allowed:
@@ -50,24 +59,28 @@ def schedule_report(result) -> str:
                      f"{_day(horizon.start + (last + 1) * schedule.step - pd.Timedelta(days=1))} (whole steps): {why}")
     if schedule.furnace is not None:
         f = schedule.furnace
-        parts.append(f"  {f.heater} fires at most {f.maximum_duty / 1000:,.2f} MW; beyond it {f.throughput} is cut, "
-                     f"{f.lost_value:g} {currency} a tonne not processed")
-    parts += ["", "Fouling laws", result.laws.to_string(float_format=lambda v: f"{v:.3g}")]
+        parts.append(f"  {f.heater} fires at most {amount(display, 'duty', f.maximum_duty)}; beyond it {f.throughput} "
+                     f"is cut, {f.lost_value:g} {currency} a tonne not processed")
+    laws = law_table(result)
+    parts += ["", "Fouling laws (initial: the fouling at the start; r_f0 after cleaning: just after a cleaning)",
+              render(laws, display, names.parameter_words(laws.columns.drop(["model", "source"]), display),
+                     {c: ".3g" if "_per_day" in c else FOULING_DIGITS for c in laws if c.endswith("_m2k_w")})]
     parts += ["", f"Optimised plan: {_count(len(result.plan), 'cleaning')} ({result.plan['cost'].sum():,.0f} {currency}); "
                   "## = out of service for cleaning in that month", _grid_text(plan_grid(result))]
     if len(result.plan):
         shown = result.plan.assign(start=result.plan["start"].map(_day),
                                    back_in_service=result.plan["back_in_service"].map(_day))
-        parts += ["", shown.to_string(index=False, float_format=lambda v: f"{v:,.0f}")]
-    rule = ("new limit violations are refused: a plan may not break a limit where the train with no cleaning "
-            "keeps it" if not horizon.new_limits_allowed else "new limit violations are allowed and only counted")
-    parts += ["", f"Costs over the horizon ({currency}; saves: the plan's total less the optimised plan's; share: "
-                  "of that plan's cost of fouling;", f"limit steps: steps with a limit violated; new: of them, "
-                  f"where no cleaning keeps the limit — {rule})", _cost_text(result.comparison)]
+        parts += ["", render(shown, display, {"cost": f"cost {currency}"}, {"cost": 0})]
+    rule = ("new limit violations are refused: a plan may not break a limit the train with no cleaning keeps "
+            "throughout" if not horizon.new_limits_allowed else "new limit violations are allowed and only counted")
+    heading = (f"Costs over the horizon ({currency}; saves: the plan's total less the optimised plan's; share: of "
+               f"that plan's cost of fouling; limit steps: steps with a limit violated; new: of them, steps "
+               f"breaking a limit the train with no cleaning never breaks — {rule})")
+    parts += ["", *textwrap.wrap(heading, WIDTH), _cost_text(result.comparison)]
     history = result.search
     parts += ["", f"Search: {_count(int(history['plans_marched'].sum()), 'plan')} marched in {result.seconds:,.0f} s, "
                   f"{_count(len(history), 'round')}", "  (cycle MILP about each trajectory, then local search on the network)"]
-    parts += boxed("LIMITS THE OPTIMISED PLAN VIOLATES", _limit_lines(result), count=len(result.limits))
+    parts += boxed("LIMITS THE OPTIMISED PLAN VIOLATES", _limit_lines(result, display), count=len(result.limits))
     return "\n".join(parts)
 
 
@@ -89,24 +102,43 @@ def _cost_text(comparison: pd.DataFrame) -> str:
 
     def fmt(value, column):
         if column == "share":
-            return f"{100 * value:.0f} %" if np.isfinite(value) else ""
+            return f"{fixed(100 * value, 0)} %" if np.isfinite(value) else ""
         if column in ("cleanings", "limit steps", "new"):
             return f"{int(value)}"
-        return f"{value / 1e6:,.2f} M" if abs(value) >= 1e6 else f"{value:,.0f}"
+        return f"{value / 1e6:,.2f} M" if abs(value) >= 1e6 else fixed(value, 0)
     shown = pd.DataFrame({c: [fmt(v, c) for v in table[c]] for c in table.columns}, index=table.index)
     return shown.drop(columns=["fuel GJ", "CO2 t", "lost t"], errors="ignore").to_string()
 
 
-def _limit_lines(result):
+def _limit_lines(result, display: Display):
     lines = []
     for row in result.limits.itertuples():
-        text = (f"{row.unit}: {row.message} — in {row.steps} of {result.horizon.steps} steps, first at "
+        text = (f"{row.unit}: {display.message(row.message)} — in {row.steps} of {result.horizon.steps} steps, first at "
                 f"{_day(row.first)}  [{row.key}]")
         lines += textwrap.wrap(text, WIDTH - 3, subsequent_indent="   ")
     return lines
 
 
+def law_table(result) -> pd.DataFrame:
+    """Each exchanger's fouling law: where it came from, its fouling at the start, its parameters
+    in columns of their own (each named with its unit) and ``r_f0`` after a cleaning."""
+    laws = result.laws.rename(columns={"initial": "initial_m2k_w"})  # indexed by exchanger
+    horizon = result.horizon.laws
+    model = [horizon[n].model if n in horizon else m for n, m in zip(laws.index, laws["model"])]
+    laws["parameters"] = [horizon[n].before if n in horizon else {} for n in laws.index]
+    laws = names.spread_parameters(laws.assign(model_name=model), {"parameters": ""}, "model_name")
+    after = [horizon[n].after.get("r_f0", np.nan) if n in horizon else np.nan for n in laws.index]
+    at = laws.columns.get_loc("r_f0_m2k_w") + 1 if "r_f0_m2k_w" in laws else len(laws.columns)
+    laws.insert(at, "r_f0_after_cleaning_m2k_w", np.asarray(after, float))
+    laws["initial_m2k_w"] = pd.to_numeric(laws["initial_m2k_w"], errors="coerce")
+    return laws.drop(columns="model_name")
+
+
 def schedule_tables(result) -> dict:
-    """The tables ``--out`` writes, by name."""
-    return {"plan": result.plan, "plan_by_month": plan_grid(result), "comparison": result.comparison,
-            "steps": result.steps, "fouling_laws": result.laws, "search": result.search, "limits": result.limits}
+    """The tables ``--out`` writes, by name: quantities under their unit endings (converted on
+    writing), money in the economics' currency, the laws' parameters in columns of their own."""
+    currency = result.schedule.economics.get("currency", "")
+    return {"plan": names.money(result.plan, currency), "plan_by_month": plan_grid(result),
+            "comparison": names.money(result.comparison, currency), "steps": names.money(result.steps, currency),
+            "fouling_laws": law_table(result), "search": names.money(result.search, currency),
+            "limits": result.limits}

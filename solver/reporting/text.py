@@ -21,7 +21,7 @@ from .console_tables import WIDTH, fixed, render  # noqa: F401  (fixed: the one 
 from .display_units import Display, current
 
 EXCHANGER_WORDS = {"duty_kw": "duty", "hot_in_c": "hot in", "hot_out_c": "hot out", "cold_in_c": "cold in",
-                   "cold_out_c": "cold out", "ua_kw_per_k": "UA", "ntu_hot": "NTU", "p_hot": "P", "r_hot": "R",
+                   "cold_out_c": "cold out", "air_flow_kg_s": "air flow", "ua_kw_per_k": "UA", "ntu_hot": "NTU", "p_hot": "P", "r_hot": "R",
                    "f": "F", "lmtd_k": "LMTD", "min_approach_k": "approach", "findings": "findings"}
 SERVICE_WORDS = {"u_source": "U from", "u_service_w_m2k": "U service", "u_clean_w_m2k": "U clean",
                  "fouling_shell_m2k_w": "fouling shell", "fouling_tube_m2k_w": "fouling tube",

@@ -82,9 +82,9 @@ class Horizon:
     start: pd.Timestamp = pd.Timestamp("2027-01-01")
     new_limits_allowed: bool = False
     """False: a plan may not violate a limit (a design temperature, a temperature cross, an
-    allowable pressure drop ...) at a step where the train with no cleaning does not — a cleaning
-    that breaks a design limit is no saving; such plans are ranked after every plan that keeps
-    the rule. True: limits are only counted."""
+    allowable pressure drop ...) that the train with no cleaning keeps over the whole horizon — a
+    cleaning that breaks a design limit is no saving; such plans are ranked after every plan
+    that keeps the rule. True: limits are only counted."""
     reference: dict = None
     """Limit -> (S,) bool: where the train with no cleaning violates each limit (set by
     :func:`set_reference`)."""
@@ -243,11 +243,17 @@ def _limit_activity(evaluation) -> dict:
 
 
 def new_violations(violations: dict, reference, count, steps) -> np.ndarray:
-    """(P, S) the limits violated where the reference (the train with no cleaning) keeps them."""
+    """(P, S) the limits violated that the reference (the train with no cleaning) keeps over the
+    whole horizon. A limit the uncleaned train already breaks (a standing violation: a design
+    temperature exceeded most weeks) is not new where a plan breaks it in more steps: every
+    cleaning warms the train's outlet, so counting those steps would forbid any cleaning
+    upstream of it; such steps are still counted as limit steps and the plan's violations shown.
+    """
     new = np.zeros((count, steps), int)
     for name, active in violations.items():
-        kept = ~reference[name][None, :] if reference is not None and name in reference else True
-        new += (active.reshape(count, steps) & kept).astype(int)
+        standing = reference is not None and name in reference and bool(np.any(reference[name]))
+        if not standing:
+            new += active.reshape(count, steps).astype(int)
     return new
 
 

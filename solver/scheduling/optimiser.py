@@ -3,8 +3,8 @@
 Method (named, with its sources in :mod:`.cycle_milp`):
 
 Limits: where new limit violations are refused (the default: a plan may not break a design
-temperature, make a temperature cross or pass an allowable pressure drop where the train with no
-cleaning keeps them), a step with a new violation adds a penalty larger than any saving to the
+temperature, make a temperature cross or pass an allowable pressure drop that the train with no
+cleaning keeps over the whole horizon), a step with a new violation adds a penalty larger than any saving to the
 objective the search minimises (:func:`.horizon.plan_costs`); the MILP does not see limits, the
 local search mends what its plans break, and no cleaning is the answer where nothing else keeps
 the rule.

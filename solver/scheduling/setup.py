@@ -112,7 +112,7 @@ def build_horizon(schedule: ScheduleFile, progress=None) -> tuple[Horizon, pd.Da
     cost = np.array([t.cost if t is not None else 0.0 for t in terms], dtype=float)
     horizon = Horizon(schedule.case, exchangers, laws, duration, cost, schedule.step / pd.Timedelta(days=1),
                       schedule.steps, operating_settings(schedule), dict(schedule.economics), schedule.furnace,
-                      schedule.start)
+                      schedule.start, new_limits_allowed=schedule.new_limits_allowed)
     return horizon, sources.set_index("exchanger")
 
 

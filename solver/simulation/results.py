@@ -26,6 +26,7 @@ UNIT_COLUMNS = {
     "t_hot_out": "hot_out_c",
     "t_cold_in": "cold_in_c",
     "t_cold_out": "cold_out_c",
+    "air_flow": "air_flow_kg_s",
     "ua": "ua_kw_per_k",
     "ntu": "ntu_hot",
     "p": "p_hot",
