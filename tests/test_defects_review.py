@@ -264,14 +264,16 @@ def test_a_forked_worker_leaves_quietly_on_a_signal(monkeypatch):
     processes printed a KeyboardInterrupt traceback ("Process ForkProcess-4: ...") before the
     command's own "interrupted". A worker (a process other than the one that set the handlers)
     now ends with SystemExit, which multiprocessing ends silently; the command reports once."""
-    monkeypatch.setattr(cli, "HANDLER_PROCESS", [os.getpid() + 1])
-    for handler, code in ((cli._interrupted, 130), (cli._terminated, 143)):
+    import hxtrain.solver.cli.signals as signals
+
+    monkeypatch.setattr(signals, "HANDLER_PROCESS", [os.getpid() + 1])
+    for handler, code in ((signals._interrupted, 130), (signals._terminated, 143)):
         with pytest.raises(SystemExit) as raised:
             handler(signal.SIGINT, None)
         assert raised.value.code == code
-    monkeypatch.setattr(cli, "HANDLER_PROCESS", [os.getpid()])
+    monkeypatch.setattr(signals, "HANDLER_PROCESS", [os.getpid()])
     with pytest.raises(KeyboardInterrupt):
-        cli._interrupted(signal.SIGINT, None)
+        signals._interrupted(signal.SIGINT, None)
 
 
 SPLIT_BATCH = """
