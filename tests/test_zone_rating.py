@@ -216,6 +216,14 @@ def test_table_end_stops_the_duty():
     assert float(rating.ua_used[0]) == pytest.approx(10.0, rel=1e-12) and float(rating.ua_used[1]) < 40.0
 
 
+def test_inlet_beyond_a_plateau_end_gives_no_number():
+    """An inlet enthalpy past the end of a table that ends on its plateau (superheat the table
+    does not know): NaN, not a duty."""
+    water = _liquid(4.2)
+    rating = rate_by_zones(STEAM_180, water, np.array([2778.0, 2790.0]), water.enthalpy(20.0), 1.0, 10.0, 10.0)
+    assert np.isfinite(rating.duty[0]) and np.isnan(rating.duty[1]) and np.isnan(rating.t_hot_out[1])
+
+
 def test_arrangements_not_covered_are_refused():
     with pytest.raises(ValueError, match="zone rating covers counterflow, tema_e"):
         zone_profile(STEAM_180, _liquid(4.2), 2778.0, 84.0, 1.0, 1.0, 10.0, "crossflow")

@@ -220,7 +220,8 @@ def duty_limit(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m_h
     anywhere in counterflow: the least of the end limits (hot outlet down to the cold inlet
     temperature, cold outlet up to the hot inlet temperature) and of the limit each curve point
     between the inlet temperatures sets (zero difference there). Beyond a curve's table its end
-    interval is extended; beyond an end that is a plateau the table's end bounds the stream.
+    interval is extended; beyond an end that is a plateau the table's end bounds the stream, and
+    an inlet there has no temperature: NaN.
 
     >>> steam = EnthalpyCurve([180.0, 180.0], [763.0, 2778.0], [0.0, 1.0])
     >>> water = EnthalpyCurve([0.0, 200.0], [0.0, 840.0])
@@ -248,8 +249,9 @@ def duty_limit(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m_h
     inside = (h_h < h_hot_in[:, None]) & (t_h >= t_cold_in[:, None])
     by_hot = m_hot[:, None] * (h_hot_in[:, None] - h_h) + m_cold[:, None] * (cold_up_to(t_h) - h_cold_in[:, None])
     limits.append(np.min(np.where(inside, by_hot, np.inf), axis=1))
-    limit = np.minimum.reduce(limits)
-    return np.where(_flows_positive(m_hot, m_cold), np.maximum(limit, 0.0), 0.0)
+    limit = np.where(_flows_positive(m_hot, m_cold), np.maximum(np.minimum.reduce(limits), 0.0), 0.0)
+    # an inlet its curve cannot place (past an end that is a plateau) has no limit to give
+    return np.where(np.isnan(t_hot_in) | np.isnan(t_cold_in), np.nan, limit)
 
 
 def _solve_duty(needed, ua, upper):
@@ -292,7 +294,8 @@ def _solve_duty(needed, ua, upper):
         met = np.abs(needed_q - ua) <= UA_TOLERANCE * ua
         small = (high - low <= DUTY_TOLERANCE * upper) | (moved <= DUTY_TOLERANCE * upper)  # NaN: False
         active &= ~(met | small)
-    return np.where((ua > 0.0) & (upper > 0.0), q, 0.0)
+    # an inlet beyond what its curve knows (past an end that is a plateau) has no limit: NaN
+    return np.where(np.isnan(upper) | np.isnan(ua), np.nan, np.where((ua > 0.0) & (upper > 0.0), q, 0.0))
 
 
 def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m_hot, m_cold, ua,
