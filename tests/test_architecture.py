@@ -2,7 +2,7 @@
 
 units (pure physics) <- network (case model) <- solver (order, convergence, results, CLI).
 Nothing imports upward; units touches no files and no graphs; runtime code never imports `ht`
-(a test-only outside reference).
+or CoolProp (test-only outside references).
 """
 
 import ast
@@ -55,6 +55,7 @@ def test_no_upward_or_bare_imports(path):
         if target in LAYERS:
             assert LAYERS[target] <= own, f"{path}:{line}: {path.parent.name} imports upward from {target}"
         assert module.split(".")[0] != "ht", f"{path}:{line}: runtime code imports the test-only reference `ht`"
+        assert module.split(".")[0] != "CoolProp", f"{path}:{line}: runtime code imports the test-only reference CoolProp"
 
 
 @pytest.mark.parametrize("path", sorted((ROOT / "units").rglob("*.py")), ids=lambda p: p.name)

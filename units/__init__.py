@@ -8,6 +8,9 @@
 - :mod:`.films`, :mod:`.resistances`, :mod:`.hydraulics`: film coefficients, resistances in
   series, pressure drop;
 - :mod:`.properties`: fluid models (cp(T), enthalpy and its inverse, transport properties);
+- :mod:`.enthalpy_curves`, :mod:`.water_steam`: fluids as tables of T, h and vapour fraction at
+  one pressure (water and steam from IAPWS-IF97);
+- :mod:`.zone_rating`: an exchanger rated zone by zone along both streams' enthalpy curves;
 - :mod:`.balances`: one-stream energy balances;
 - :mod:`.protocol`: the :class:`~.protocol.UnitModel` protocol the solver uses, with its
   reports, findings and parameters;
