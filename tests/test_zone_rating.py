@@ -3,9 +3,9 @@
 References: ``rate_exchanger`` (one zone, constant cp: today's rating, exactly), the closed form
 ε = 1 − exp(−NTU) of a pure condensing or boiling side, an independent quadrature of
 UA = ∫ dQ/ΔT along the counterflow profile (scipy), the energy balance, the second law and a
-brute-force scan of the profile for the internal pinch; a published surface-condenser problem
-(bissoy.com/mcq/375491, textbook not named there: water 200 kg/h heated 15 -> 75 °C by steam
-condensing at 100 °C, cp 4 kJ/kg·K, answer NTU = 1.224). Run with ``-s`` for the figures."""
+brute-force scan of the profile for the internal pinch; a surface condenser worked by hand (water
+heated 15 -> 75 °C by steam condensing at 100 °C: NTU = ln(85/25)). No published multi-zone worked
+example was found to check against. Run with ``-s`` for the figures."""
 
 from __future__ import annotations
 
@@ -80,16 +80,17 @@ def test_pure_phase_change_against_one_minus_exp(side, arrangement):
     assert error <= 1e-13
 
 
-def test_published_surface_condenser():
+def test_surface_condenser_worked_by_hand():
     """Water 200 kg/h, 15 -> 75 °C, steam condensing at 100 °C (latent heat 2160 kJ/kg), cp 4:
-    NTU = 1.224 (published answer, bissoy.com/mcq/375491). Rated with that NTU the water leaves
-    at 75 °C to the answer's three digits, and the condensate is the duty over the latent heat."""
+    by hand, ε = 60/85 and NTU = ln(85/25) = 1.22378 (condensing side: R = 0). Rated with that
+    NTU the water leaves at 75 °C (1e-9 K), and the condensate is the duty over the latent heat."""
     water = _liquid(4.0)
     steam = EnthalpyCurve([100.0, 100.0], [419.0, 419.0 + 2160.0], [0.0, 1.0])
     m_water = 200.0 / 3600.0
-    rating = rate_by_zones(steam, water, 419.0 + 2160.0, water.enthalpy(15.0), 1.0, m_water, 1.224 * m_water * 4.0)
-    print(f"\nsurface condenser: water outlet {float(rating.t_cold_out[0]):.3f} °C (published 75)")
-    assert float(rating.t_cold_out[0]) == pytest.approx(75.0, abs=0.02)
+    ntu = np.log(85.0 / 25.0)
+    rating = rate_by_zones(steam, water, 419.0 + 2160.0, water.enthalpy(15.0), 1.0, m_water, ntu * m_water * 4.0)
+    print(f"\nsurface condenser: water outlet {float(rating.t_cold_out[0]):.12f} °C (by hand 75)")
+    assert float(rating.t_cold_out[0]) == pytest.approx(75.0, abs=1e-9)
     condensed = float(rating.duty[0]) / 2160.0
     assert float(rating.q_hot_out[0]) == pytest.approx(1.0 - condensed, rel=1e-12)
 
