@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, PropertyNeed, UnitReport, UnitBase, check, \
@@ -9,6 +11,7 @@ from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Pa
 from .u_models import FixedCoefficient, GeometryFilms
 from .back_calculation import back_calculate
 from .service_rating import ExchangerSpec, rate_in_service
+from .properties import stacked, stacking_key
 
 __all__ = ["Exchanger"]
 
@@ -112,6 +115,61 @@ class Exchanger(UnitBase):
     def outlet_temperatures(self, inlets):
         x = self.rate(inlets, details=False).rating
         return np.stack([x.t_hot_out, x.t_cold_out], axis=1)
+
+    @classmethod
+    def outlet_temperatures_together(cls, units, inlets):
+        """Exchangers that share arrangement, shells, fluids (or a blend's constituents) and a U
+        that does not follow the operating point are rated in one call, stacked along the batch
+        axis (:func:`rate_in_service` with ``members``); the rest one by one. The numbers are
+        each exchanger's own (every step is elementwise; each stops iterating on its own)."""
+        out = np.empty(inlets.t.shape[:2] + (2,))
+        groups = {}
+        for k, unit in enumerate(units):
+            groups.setdefault(unit._stacking_key(inlets.fluids[k]), []).append(k)
+        for key, members in groups.items():
+            if key is None or len(members) == 1:
+                for k in members:
+                    out[k] = units[k].outlet_temperatures(inlets.of(k))
+            else:
+                out[members] = cls._rate_stacked([units[k] for k in members], inlets.t[members], inlets.m[members],
+                                                 [inlets.fluids[k] for k in members])
+        return out
+
+    def _stacking_key(self, fluids):
+        """Exchangers of one key rate together; None: this one rates alone (U follows the films)."""
+        spec = self.spec
+        if spec.ua is None and not isinstance(spec.thermal, FixedCoefficient):
+            return None
+        bypassed = tuple(bool(np.any(np.asarray(b) != 0.0)) for b in (spec.bypass_hot, spec.bypass_cold))
+        return (spec.arrangement, spec.shells, spec.shells_in_parallel, spec.tube_passes, spec.shell_side,
+                spec.mixed_side, spec.ua is None, bypassed, stacking_key(fluids[0]), stacking_key(fluids[1]))
+
+    @staticmethod
+    def _rate_stacked(units, t, m, fluids):
+        """(units, batch, 2) outlets of exchangers of one stacking key, as one stacked rating."""
+        count, batch = t.shape[:2]
+
+        def along(values):
+            return np.concatenate([np.broadcast_to(np.asarray(v, dtype=float), (batch,)) for v in values])
+
+        specs = [u.spec for u in units]
+        fixed_ua = specs[0].ua is not None
+        spec = replace(specs[0], pressure_drop={}, bypass_hot=along(s.bypass_hot for s in specs),
+                       bypass_cold=along(s.bypass_cold for s in specs),
+                       ua=along(s.ua for s in specs) if fixed_ua else None,
+                       thermal=specs[0].thermal if fixed_ua else FixedCoefficient(along(s.thermal.u for s in specs)),
+                       area_per_shell=None if fixed_ua else along(s.area_per_shell for s in specs))
+        guesses = [u._last_outlets if u._last_outlets is not None and np.shape(u._last_outlets[0]) == (batch,)
+                   else (t[k, :, 0], t[k, :, 1]) for k, u in enumerate(units)]
+        guess = tuple(np.concatenate([g[side] for g in guesses]) for side in (0, 1))
+        service = rate_in_service(spec, t[:, :, 0].reshape(-1), t[:, :, 1].reshape(-1), m[:, :, 0].reshape(-1),
+                                  m[:, :, 1].reshape(-1), stacked([f[0] for f in fluids], batch),
+                                  stacked([f[1] for f in fluids], batch), guess=guess, details=False, members=count)
+        x = service.rating
+        hot_x, cold_x = x.t_hot_out_exchanger.reshape(count, batch), x.t_cold_out_exchanger.reshape(count, batch)
+        for k, unit in enumerate(units):
+            unit._last_outlets = (hot_x[k], cold_x[k])
+        return np.stack([x.t_hot_out.reshape(count, batch), x.t_cold_out.reshape(count, batch)], axis=2)
 
     def report(self, inlets):
         service = self.rate(inlets)
