@@ -12,30 +12,33 @@ import pytest
 from hxtrain.network import build_network, case_from_mapping, load_case
 from hxtrain.solver import demo_case_path
 from hxtrain.solver.demos import DEMO_CASES
-from hxtrain.solver.simulation import block_newton
+from hxtrain.solver.simulation import block_newton, evaluation
 from hxtrain.solver.simulation.benchmark import fixed_property_variant
 from hxtrain.solver.simulation.engine import solve_temperatures
 from hxtrain.solver.simulation.sequencing import plan_calculation
 from hxtrain.solver.simulation.size_ladder import SHAPES, ladder_case
 from hxtrain.units import exchanger_model, protocol
-from hxtrain.units.protocol import StackedInlets, one_by_one, outlet_temperatures_together
+from hxtrain.units.protocol import (StackedInlets, one_by_one, outlet_temperatures_together, reports_one_by_one,
+                                   reports_together)
 
 IDENTICAL = 1e-12
 
 
-def _solve(mapping, batch_values=None):
+def _solve(mapping):
+    """(the temperature solution, every unit's report there) of a case mapping."""
     case = case_from_mapping(mapping)
-    net = build_network(case, batch_values)
-    batch = 1 if not batch_values else len(next(iter(batch_values.values())))
-    return solve_temperatures(net, tolerance=case.settings.tolerance, max_iterations=case.settings.max_iterations,
-                              batch=batch, plan=plan_calculation(net.graph))
+    net = build_network(case)
+    solution = solve_temperatures(net, tolerance=case.settings.tolerance, max_iterations=case.settings.max_iterations,
+                                  plan=plan_calculation(net.graph))
+    return solution, evaluation.unit_reports(net, solution.temperature, np.broadcast_to(net.flow, solution.temperature.shape))
 
 
 @pytest.mark.parametrize("properties", ["varying", "fixed"])
 @pytest.mark.parametrize("shape", SHAPES)
 def test_every_ladder_shape_solves_to_the_same_numbers_stacked_as_unit_by_unit(shape, properties, monkeypatch):
     """About 300 units of each shape (large blocks by Newton, whose sweeps rate units together):
-    every segment temperature within 1e-12 K of the unit-by-unit sweep, with fewer calls."""
+    every segment temperature within 1e-12 K of the unit-by-unit sweep, in as many sweeps; and
+    every unit's report, asked together by class, equal to the one asked alone."""
     calls = {"stacked": 0, "alone": 0}
     stacked_rating = protocol.outlet_temperatures_together
 
@@ -46,9 +49,12 @@ def test_every_ladder_shape_solves_to_the_same_numbers_stacked_as_unit_by_unit(s
         return rate_and_count
 
     monkeypatch.setattr(block_newton, "outlet_temperatures_together", counted("stacked", stacked_rating))
-    together = _solve(ladder_case(shape, 300, properties))
+    together, reports = _solve(ladder_case(shape, 300, properties))
     monkeypatch.setattr(block_newton, "outlet_temperatures_together", counted("alone", one_by_one))
-    alone = _solve(ladder_case(shape, 300, properties))
+    monkeypatch.setattr(evaluation, "reports_together", reports_one_by_one)
+    alone, own_reports = _solve(ladder_case(shape, 300, properties))
+    for name, report in reports.items():
+        _assert_same_report(report, own_reports[name])
     assert together.converged.all() and alone.converged.all()
     assert np.all(np.isfinite(together.temperature))
     assert np.max(np.abs(together.temperature - alone.temperature)) <= IDENTICAL
@@ -78,7 +84,8 @@ def test_units_rated_together_equal_each_rated_alone(label, monkeypatch):
     cp, each stopping at its own pass; blends of one pair of feeds in different proportions), at
     the converged inlets shifted per scenario, some exchangers bypassed in part and UA or U
     varied per scenario: the stacked call equals each unit alone (fresh copies, so no warm
-    start is shared) to 1e-12 K, and so does a second call (warm-started from the first)."""
+    start is shared) to 1e-12 K, and so does a second call (warm-started from the first); their
+    reports too (every quantity, total and finding)."""
     case = _case(label)
     stacked_members = []
     rate = exchanger_model.rate_in_service
@@ -117,10 +124,26 @@ def test_units_rated_together_equal_each_rated_alone(label, monkeypatch):
             assert together.shape == alone.shape == (len(names), batch, len(net.outlets[names[0]]))
             assert np.all(np.isfinite(alone))
             assert np.max(np.abs(together - alone)) <= IDENTICAL
+            for report, own in zip(reports_together(together_units, inlets), reports_one_by_one(alone_units, inlets)):
+                _assert_same_report(report, own)
         checked += len(names)
     assert checked >= 2
     if label not in DEMO_CASES:  # exchangers with a fixed UA and shared fluids: some rate stacked
         assert max(stacked_members) >= 2
+
+
+def _assert_same_report(report, own):
+    """Every number of two reports within round-off, every label, total and finding the same."""
+    for field in ("quantities", "totals", "metrics", "highlights"):
+        mine, theirs = getattr(report, field), getattr(own, field)
+        assert mine.keys() == theirs.keys()
+        for key in mine:
+            np.testing.assert_allclose(mine[key], theirs[key], rtol=IDENTICAL, atol=IDENTICAL, err_msg=key)
+    np.testing.assert_allclose(report.heat_added, own.heat_added, rtol=IDENTICAL, atol=IDENTICAL)
+    assert report.labels == own.labels
+    assert [(f.kind, f.severity, f.key) for f in report.findings] == [(f.kind, f.severity, f.key) for f in own.findings]
+    for mine, theirs in zip(report.findings, own.findings):
+        assert np.array_equal(mine.active, theirs.active) and list(mine.messages) == list(theirs.messages)
 
 
 def getattr_value(unit, varied):

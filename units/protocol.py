@@ -23,7 +23,7 @@ from typing import Protocol
 import numpy as np
 
 
-__all__ = ["UnitModel", "UnitBase", "Inlets", "StackedInlets", "outlet_temperatures_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
+__all__ = ["UnitModel", "UnitBase", "Inlets", "StackedInlets", "outlet_temperatures_together", "reports_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
            "TOTALS", "HEAT_SOURCES"]
 
 SEVERITIES = ("limit", "warning", "input")
@@ -177,6 +177,18 @@ def one_by_one(units, inlets: StackedInlets) -> np.ndarray:
     return np.stack([u.outlet_temperatures(inlets.of(k)) for k, u in enumerate(units)])
 
 
+def reports_together(units, inlets: StackedInlets) -> list:
+    """The reports of ``units``, all of one class, each from its own inlets: through the class's
+    ``report_together`` where it has one, else unit by unit; either way each unit's ``report``."""
+    together = getattr(type(units[0]), "report_together", None)
+    return reports_one_by_one(units, inlets) if together is None else together(units, inlets)
+
+
+def reports_one_by_one(units, inlets: StackedInlets) -> list:
+    """Each unit's report, asked in turn."""
+    return [u.report(inlets.of(k)) for k, u in enumerate(units)]
+
+
 @dataclass
 class PortStates:
     """Temperatures (°C) and mass flows (kg/s) at every port of a unit, as measured or reconciled
@@ -224,6 +236,11 @@ class UnitModel(Protocol):
         along the batch axis and rates them in one call (the solver's per-call overhead)."""
 
     def report(self, inlets: Inlets) -> UnitReport: ...
+
+    @classmethod
+    def report_together(cls, units, inlets: StackedInlets) -> list:
+        """The reports of several units of this class, equal to each unit's ``report``; a class
+        with a vectorised rating rates them stacked in one call."""
 
     def parameters(self) -> tuple[Parameter, ...]:
         """The values a scenario may vary."""
@@ -341,6 +358,11 @@ class UnitBase:
     def outlet_temperatures_together(cls, units, inlets: StackedInlets) -> np.ndarray:
         """Unit by unit: the default for a class that has no stacked rating."""
         return one_by_one(units, inlets)
+
+    @classmethod
+    def report_together(cls, units, inlets: StackedInlets) -> list:
+        """Unit by unit: the default for a class that has no stacked rating."""
+        return reports_one_by_one(units, inlets)
 
     def set_parameter(self, name, values):
         known = ", ".join(p.name for p in self.parameters()) or "none"

@@ -32,7 +32,9 @@ from __future__ import annotations
 import numpy as np
 
 from hxtrain.network.flows import solve_block_diagonal
-from hxtrain.units.protocol import StackedInlets, outlet_temperatures_together
+from hxtrain.units.protocol import outlet_temperatures_together
+
+from hxtrain.solver.simulation.engine import unit_groups
 
 HALVINGS = 4
 POLISH_BELOW = 1e-4
@@ -75,7 +77,7 @@ class BlockEquations:
         # the block works on its own columns only: what its units read and write
         self.columns = np.array(sorted({s for u in self.units for s in (*net.inlets[u], *net.outlets[u])}), int)
         local = {int(s): j for j, s in enumerate(self.columns)}
-        self.groups = _stacked_groups(net, self.units, local)
+        self.groups = unit_groups(net, self.units, local)
         self.local_segments = np.array([local[int(s)] for s in self.segments], int)
         self.local_leaving = np.array([local[int(s)] for s in self.leaving], int)
 
@@ -92,9 +94,9 @@ class BlockEquations:
         work[:, self.local_segments] = stacked
         flows = np.tile(np.broadcast_to(flow, temperature.shape)[:, self.columns], (copies, 1))
         out = np.full(work.shape, np.nan, order="F")
-        for units, inlet, outlet, fluids in self.groups:  # every unit reads work, none reads out
-            inlets = StackedInlets(work[:, inlet].transpose(1, 0, 2), flows[:, inlet].transpose(1, 0, 2), fluids)
-            out[:, outlet] = outlet_temperatures_together(units, inlets).transpose(1, 0, 2)
+        for group in self.groups:  # every unit reads work, none reads out
+            out[:, group.outlets] = outlet_temperatures_together(group.units, group.inlets_from(work, flows)) \
+                .transpose(1, 0, 2)
         g_all = out[:, self.local_segments].reshape(copies, batch, n)
         g = g_all[0]
         shifted = g_all[1 + self.entry_colour, :, self.rows].T  # (batch, pattern)
@@ -110,20 +112,6 @@ class BlockEquations:
         values = np.concatenate([np.ones((residual.shape[0], n)), -derivative], axis=1)
         step, singular = solve_block_diagonal(rows, cols, values, n, residual[:, :, None])
         return np.where(singular[:, None], np.nan, step[:, :, 0])
-
-
-def _stacked_groups(net, names, local):
-    """The block's units by class and port counts, each group with its units, the local columns
-    of their inlets and outlets (units, ports) and their inlet fluids: one stacked call each."""
-    groups = {}
-    for name in names:
-        unit = net.units[name]
-        groups.setdefault((type(unit), len(unit.inlets), len(unit.outlets)), []).append(name)
-    return [([net.units[n] for n in members],
-             np.array([[local[s] for s in net.inlets[n]] for n in members], int).reshape(len(members), -1),
-             np.array([[local[s] for s in net.outlets[n]] for n in members], int).reshape(len(members), -1),
-             [tuple(net.fluids[s] for s in net.inlets[n]) for n in members])
-            for members in groups.values()]
 
 
 def solve_block(net, units, temperature, flow, guess, tolerance, max_iterations):

@@ -39,10 +39,10 @@ from pathlib import Path
 import numpy as np
 
 from hxtrain.network import Case, Network, build_network, case_from_mapping, load_case
-from hxtrain.units.protocol import TOTALS, Finding, check
+from hxtrain.units.protocol import TOTALS, Finding, check, reports_together
 from hxtrain.units.properties import PHYSICAL_RANGE
 
-from hxtrain.solver.simulation.engine import TemperatureSolution, inlets_of, solve_temperatures
+from hxtrain.solver.simulation.engine import TemperatureSolution, inlets_of, solve_temperatures, unit_groups
 from hxtrain.solver.simulation.sequencing import plan_calculation
 
 SUCCESS, NOT_CONVERGED, NOT_VALID, CHECK_FAILED = 0, 1, 2, 3
@@ -129,7 +129,7 @@ def assess(net: Network, solution: TemperatureSolution, tolerance) -> Evaluation
     with np.errstate(all="ignore"):
         t = solution.temperature
         flow = np.broadcast_to(net.flow, t.shape)
-        reports = {name: unit.report(inlets_of(net, name, t, flow)) for name, unit in net.units.items()}
+        reports = unit_reports(net, t, flow)
         heat_added = sum(np.broadcast_to(np.asarray(r.heat_added, float), (net.batch,)) for r in reports.values())
         balance = enthalpy_balance(net, t, flow, heat_added)
         units_imbalance = balance["imbalance_kw"] - tear_holdback(net, solution, t, flow)
@@ -176,6 +176,15 @@ def assess(net: Network, solution: TemperatureSolution, tolerance) -> Evaluation
     balance = {k: np.where(ok, v, np.nan) for k, v in balance.items()}
     return Evaluation(net, solution, reports, shown, totals, highlights, balance, status, message, reason_key,
                       tolerance)
+
+
+def unit_reports(net, t, flow) -> dict:
+    """Every unit's report at temperatures ``t``, in unit order; units of one class are asked
+    together (one stacked rating where their class has one)."""
+    found = {}
+    for group in unit_groups(net, net.units):
+        found.update(zip(group.names, reports_together(group.units, group.inlets_from(t, flow))))
+    return {name: found[name] for name in net.units}
 
 
 def _masked(finding: Finding, ok) -> Finding:
