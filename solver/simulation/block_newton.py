@@ -11,7 +11,10 @@ the unit it enters. Two inlet segments of different units never share a row, so 
 coloured by the inlet's position at its unit (Curtis, Powell & Reid, IMA J. Appl. Math. 13,
 1974, from memory): as many colours as the most inlets of one unit in the block, usually two.
 All colours are evaluated in one simultaneous sweep with the perturbed copies stacked on the
-batch axis, so a Jacobian costs one call per unit whatever the size.
+batch axis, so a Jacobian costs one sweep whatever the size. No unit of the block reads what
+another computes in that sweep, so the units are asked class by class, each class in one
+stacked call (:func:`~hxtrain.units.protocol.outlet_temperatures_together`): a sweep of
+thousands of exchangers is a few calls, not thousands.
 
 Each iteration solves (I - dG/dT) d = G(T) - T, one sparse LU per scenario (all scenarios as
 one block-diagonal matrix). The step is the distance to the solution of the linearised
