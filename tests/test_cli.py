@@ -337,6 +337,7 @@ def test_benchmark_reports_both_forms_of_the_crude_train(capsys):
     assert code == 0, err
     assert "as shipped: cp(T), film U" in out and "fixed properties: constant cp, fixed UA" in out
     assert out.count("scenario-solves/s") == 6 and out.count("all converged: True") == 2
+    assert out.count("batch, 1 process of 2 allowed:") == 2  # 8 scenarios never pay for a second process
     differences = [float(v) for v in re.findall(r"largest temperature difference from the batch: (\S+) K", out)]
     assert len(differences) == 2 and max(differences) <= 1e-9
 

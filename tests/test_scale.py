@@ -192,9 +192,35 @@ def test_a_cheap_batch_stays_in_one_process_and_a_costly_one_splits(monkeypatch)
     monkeypatch.setattr(batch_module, "ProcessPoolExecutor", Counted)
     split = simulate_batch(path, values, workers=3)
     assert started == [1]  # 20 scenarios after the probes: two parts of at least 8, one of them here
+    assert (whole.processes, cheap.processes, split.processes) == (1, 1, 2)  # what the benchmark prints
     for result in (cheap, split):
         assert len(result.table) == 40 and result.table["success"].all()
         np.testing.assert_allclose(result.temperature, whole.temperature, rtol=0, atol=1e-9)
+
+
+def test_a_batch_finds_its_calculation_order_once_for_all_its_parts(monkeypatch):
+    """The probes, this process's part and the workers' parts share the order and tear sets
+    found by the first probe (part of every batch's fixed cost): one search, same answers."""
+    from hxtrain.solver.simulation import evaluation
+
+    monkeypatch.setattr(batch_module, "PROBE", 4)
+    monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 8)
+    monkeypatch.setattr(batch_module, "WORTH_SPLITTING", 0.0)
+    path = demo_case_path("crude_preheat")
+    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 40)}
+    whole = simulate_batch(path, values)
+    searches = []
+    search = evaluation.plan_calculation
+
+    def counted(graph):
+        searches.append(graph)
+        return search(graph)
+
+    monkeypatch.setattr(evaluation, "plan_calculation", counted)
+    split = simulate_batch(path, values, workers=2)
+    assert len(searches) == 1 and split.processes == 2
+    assert [b.tears for b in split.plan] == [b.tears for b in whole.plan]
+    np.testing.assert_allclose(split.temperature, whole.temperature, rtol=0, atol=1e-9)
 
 
 def test_the_probe_times_a_scenario_without_the_fixed_cost_of_a_batch(monkeypatch):
@@ -208,7 +234,7 @@ def test_the_probe_times_a_scenario_without_the_fixed_cost_of_a_batch(monkeypatc
         def perf_counter():
             return clock[0]
 
-    def solve(case, values, tolerance, max_iterations, metrics=False):
+    def solve(case, values, tolerance, max_iterations, metrics=False, plan=None):
         count = len(next(iter(values.values())))
         clock[0] += 0.030 + 14e-6 * count
         return batch_module.BatchResult(pd.DataFrame({"n": np.arange(count)}), 1, np.zeros((count, 1)))

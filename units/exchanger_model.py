@@ -2,13 +2,17 @@
 
 from __future__ import annotations
 
+from dataclasses import fields, replace
+
 import numpy as np
 
 from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, PropertyNeed, UnitReport, UnitBase, check, \
     design_temperature_findings
-from .u_models import FixedCoefficient, GeometryFilms
+from .pntu_rating import ExchangerRating
+from .u_models import Coefficients, FixedCoefficient, GeometryFilms
 from .back_calculation import back_calculate
-from .service_rating import ExchangerSpec, rate_in_service
+from .service_rating import ExchangerSpec, ServiceRating, pressure_drops, rate_in_service
+from .properties import stacked, stacking_key
 
 __all__ = ["Exchanger"]
 
@@ -113,8 +117,107 @@ class Exchanger(UnitBase):
         x = self.rate(inlets, details=False).rating
         return np.stack([x.t_hot_out, x.t_cold_out], axis=1)
 
+    @classmethod
+    def outlet_temperatures_together(cls, units, inlets):
+        """Exchangers that share arrangement, shells, fluids (or a blend's constituents) and a U
+        that does not follow the operating point are rated in one call, stacked along the batch
+        axis (:func:`rate_in_service` with ``members``); the rest one by one. The numbers are
+        each exchanger's own (every step is elementwise; each stops iterating on its own)."""
+        out = np.empty(inlets.t.shape[:2] + (2,))
+        for members, service in cls._stacks(units, inlets, details=False):
+            if service is None:
+                out[members] = units[members[0]].outlet_temperatures(inlets.of(members[0]))
+            else:
+                x, shape = service.rating, (len(members), inlets.t.shape[1])
+                out[members] = np.stack([x.t_hot_out.reshape(shape), x.t_cold_out.reshape(shape)], axis=2)
+        return out
+
+    @classmethod
+    def report_together(cls, units, inlets):
+        """Each exchanger's report, the ratings of those that stack made in one call (as in
+        :meth:`outlet_temperatures_together`), each exchanger's pressure drops, findings and
+        quantities its own."""
+        reports = [None] * len(units)
+        for members, service in cls._stacks(units, inlets, details=True):
+            for j, k in enumerate(members):
+                one = inlets.of(k)
+                mine = units[k].rate(one) if service is None else units[k]._share(service, j, len(members), one)
+                reports[k] = units[k]._report_from(one, mine)
+        return reports
+
+    @classmethod
+    def _stacks(cls, units, inlets, details):
+        """(unit positions, their stacked rating) for each group of one stacking key; (one
+        position, None) for an exchanger that rates alone."""
+        groups = {}
+        for k, unit in enumerate(units):
+            key = unit._stacking_key(inlets.fluids[k])
+            groups.setdefault(key if key is not None else ("alone", k), []).append(k)
+        for members in groups.values():
+            if len(members) == 1:
+                yield members, None
+            else:
+                yield members, cls._rate_stacked([units[k] for k in members], inlets.t[members], inlets.m[members],
+                                                 [inlets.fluids[k] for k in members], details)
+
+    def _stacking_key(self, fluids):
+        """Exchangers of one key rate together; None: this one rates alone (U follows the films)."""
+        spec = self.spec
+        if spec.ua is None and not isinstance(spec.thermal, FixedCoefficient):
+            return None
+        bypassed = tuple(bool(np.any(np.asarray(b) != 0.0)) for b in (spec.bypass_hot, spec.bypass_cold))
+        return (spec.arrangement, spec.shells, spec.shells_in_parallel, spec.tube_passes, spec.shell_side,
+                spec.mixed_side, spec.ua is None, bypassed, stacking_key(fluids[0]), stacking_key(fluids[1]))
+
+    @staticmethod
+    def _rate_stacked(units, t, m, fluids, details):
+        """The stacked rating (batch axis: unit after unit) of exchangers of one stacking key;
+        each keeps its own share as the warm start of its next rating."""
+        count, batch = t.shape[:2]
+
+        def along(values):
+            return np.concatenate([np.broadcast_to(np.asarray(v, dtype=float), (batch,)) for v in values])
+
+        specs = [u.spec for u in units]
+        fixed_ua = specs[0].ua is not None
+        spec = replace(specs[0], pressure_drop={}, bypass_hot=along(s.bypass_hot for s in specs),
+                       bypass_cold=along(s.bypass_cold for s in specs),
+                       ua=along(s.ua for s in specs) if fixed_ua else None,
+                       thermal=specs[0].thermal if fixed_ua else FixedCoefficient(along(s.thermal.u for s in specs)),
+                       area_per_shell=None if fixed_ua else along(s.area_per_shell for s in specs))
+        guesses = [u._last_outlets if u._last_outlets is not None and np.shape(u._last_outlets[0]) == (batch,)
+                   else (t[k, :, 0], t[k, :, 1]) for k, u in enumerate(units)]
+        guess = tuple(np.concatenate([g[side] for g in guesses]) for side in (0, 1))
+        service = rate_in_service(spec, t[:, :, 0].reshape(-1), t[:, :, 1].reshape(-1), m[:, :, 0].reshape(-1),
+                                  m[:, :, 1].reshape(-1), stacked([f[0] for f in fluids], batch),
+                                  stacked([f[1] for f in fluids], batch), guess=guess, details=details, members=count)
+        x = service.rating
+        hot_x, cold_x = x.t_hot_out_exchanger.reshape(count, batch), x.t_cold_out_exchanger.reshape(count, batch)
+        for k, unit in enumerate(units):
+            unit._last_outlets = (hot_x[k], cold_x[k])
+        return service
+
+    def _share(self, service, j, count, inlets):
+        """This exchanger's part (the j-th of ``count``) of a stacked rating with details, with
+        its own pressure drops."""
+        total = service.rating.duty.shape
+
+        def part(value):
+            value = np.asarray(value)
+            return value.reshape(count, -1)[j] if value.shape == total else value
+
+        rating = ExchangerRating(**{f.name: None if getattr(service.rating, f.name) is None
+                                    else part(getattr(service.rating, f.name)) for f in fields(ExchangerRating)})
+        c = service.coefficients
+        coefficients = None if c is None else Coefficients(part(c.u_service), part(c.u_clean))
+        drops = pressure_drops(self.spec, rating, inlets.t[:, 0], inlets.t[:, 1], inlets.m[:, 0], inlets.m[:, 1],
+                               inlets.fluids[0], inlets.fluids[1])
+        return ServiceRating(rating, coefficients, part(service.ua), drops, part(service.passes))
+
     def report(self, inlets):
-        service = self.rate(inlets)
+        return self._report_from(inlets, self.rate(inlets))
+
+    def _report_from(self, inlets, service):
         x = service.rating
         t_hot, t_cold = inlets.t[:, 0], inlets.t[:, 1]
         quantities = {

@@ -30,7 +30,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["PHYSICAL_RANGE", "FluidModel", "ConstantCp", "PolynomialCp", "TabulatedCp", "petroleum_fraction", "api_to_specific_gravity",
+__all__ = ["stacking_key", "stacked", "PHYSICAL_RANGE", "FluidModel", "ConstantCp", "PolynomialCp", "TabulatedCp", "petroleum_fraction", "api_to_specific_gravity",
            "AndradeViscosity", "Blend"]
 
 PHYSICAL_RANGE = (-273.15, 2000.0)
@@ -308,3 +308,25 @@ class Blend(FluidModel):
         if any(v is None for v in values):
             return None
         return 1.0 / sum(w / v for v, w in zip(values, self.fractions))
+
+
+def stacking_key(fluid):
+    """What fluids must share to be rated stacked along one batch axis (:func:`stacked`): the
+    model itself, or for a blend of plain fluids the constituents, whatever the fractions."""
+    if isinstance(fluid, Blend) and not any(isinstance(f, Blend) for f in fluid.fluids):
+        return ("blend", tuple(id(f) for f in fluid.fluids))
+    return id(fluid)
+
+
+def stacked(fluids, size):
+    """One fluid model for a batch axis made of ``len(fluids)`` shares of ``size`` each, share k
+    of ``fluids[k]`` (all of one :func:`stacking_key`): the model itself where all are one, else
+    a blend of the shared constituents with each share's fractions laid along the axis. Every
+    property is elementwise, so each share gets the numbers of its own model."""
+    first = fluids[0]
+    if all(f is first for f in fluids):
+        return first
+    fractions = [np.concatenate([np.broadcast_to(f.fractions[i], (size,)) for f in fluids])
+                 for i in range(len(first.fluids))]
+    return Blend(first.fluids, fractions)
+

@@ -23,7 +23,7 @@ from typing import Protocol
 import numpy as np
 
 
-__all__ = ["UnitModel", "UnitBase", "Inlets", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
+__all__ = ["UnitModel", "UnitBase", "Inlets", "StackedInlets", "outlet_temperatures_together", "reports_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
            "TOTALS", "HEAT_SOURCES"]
 
 SEVERITIES = ("limit", "warning", "input")
@@ -150,6 +150,46 @@ class Inlets:
 
 
 @dataclass
+class StackedInlets:
+    """What enters each of several units of one class: temperatures and mass flows shaped
+    (units, batch, inlets), and per unit the fluid model of each inlet."""
+
+    t: np.ndarray
+    m: np.ndarray
+    fluids: list
+
+    def of(self, k) -> Inlets:
+        """The inlets of unit ``k`` alone."""
+        return Inlets(self.t[k], self.m[k], self.fluids[k])
+
+
+def outlet_temperatures_together(units, inlets: StackedInlets) -> np.ndarray:
+    """Outlet temperatures (units, batch, outlets) of ``units``, all of one class, each from its
+    own inlets: through the class's ``outlet_temperatures_together`` where it has one (one
+    stacked call for many units), else unit by unit. Either way the numbers are those of
+    ``outlet_temperatures`` of each unit."""
+    together = getattr(type(units[0]), "outlet_temperatures_together", None)
+    return one_by_one(units, inlets) if together is None else together(units, inlets)
+
+
+def one_by_one(units, inlets: StackedInlets) -> np.ndarray:
+    """Outlet temperatures (units, batch, outlets), each unit asked in turn."""
+    return np.stack([u.outlet_temperatures(inlets.of(k)) for k, u in enumerate(units)])
+
+
+def reports_together(units, inlets: StackedInlets) -> list:
+    """The reports of ``units``, all of one class, each from its own inlets: through the class's
+    ``report_together`` where it has one, else unit by unit; either way each unit's ``report``."""
+    together = getattr(type(units[0]), "report_together", None)
+    return reports_one_by_one(units, inlets) if together is None else together(units, inlets)
+
+
+def reports_one_by_one(units, inlets: StackedInlets) -> list:
+    """Each unit's report, asked in turn."""
+    return [u.report(inlets.of(k)) for k, u in enumerate(units)]
+
+
+@dataclass
 class PortStates:
     """Temperatures (°C) and mass flows (kg/s) at every port of a unit, as measured or reconciled
     rather than rated: inlets and outlets each (batch, ports), with each port's fluid model."""
@@ -189,7 +229,18 @@ class UnitModel(Protocol):
 
     def outlet_temperatures(self, inlets: Inlets) -> np.ndarray: ...
 
+    @classmethod
+    def outlet_temperatures_together(cls, units, inlets: StackedInlets) -> np.ndarray:
+        """Outlet temperatures (units, batch, outlets) of several units of this class, equal to
+        each unit's ``outlet_temperatures``; a class with a vectorised rating stacks its units
+        along the batch axis and rates them in one call (the solver's per-call overhead)."""
+
     def report(self, inlets: Inlets) -> UnitReport: ...
+
+    @classmethod
+    def report_together(cls, units, inlets: StackedInlets) -> list:
+        """The reports of several units of this class, equal to each unit's ``report``; a class
+        with a vectorised rating rates them stacked in one call."""
 
     def parameters(self) -> tuple[Parameter, ...]:
         """The values a scenario may vary."""
@@ -302,6 +353,16 @@ class UnitBase:
     def required_properties(self) -> PropertyNeed | None:
         """Fluid properties besides cp the unit needs on every inlet: the case must give them."""
         return None
+
+    @classmethod
+    def outlet_temperatures_together(cls, units, inlets: StackedInlets) -> np.ndarray:
+        """Unit by unit: the default for a class that has no stacked rating."""
+        return one_by_one(units, inlets)
+
+    @classmethod
+    def report_together(cls, units, inlets: StackedInlets) -> list:
+        """Unit by unit: the default for a class that has no stacked rating."""
+        return reports_one_by_one(units, inlets)
 
     def set_parameter(self, name, values):
         known = ", ".join(p.name for p in self.parameters()) or "none"

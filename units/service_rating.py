@@ -80,7 +80,8 @@ class ServiceRating:
     coefficients: Coefficients | None
     ua: np.ndarray
     pressure_drop: dict
-    passes: int
+    passes: int | np.ndarray
+    """Passes of the iteration (stacked exchangers: each one's, along the batch axis)."""
 
 
 def _side(spec, hot_value, cold_value, side):
@@ -90,12 +91,18 @@ def _side(spec, hot_value, cold_value, side):
 
 
 def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, fluid_hot, fluid_cold,
-                    guess=None, details=True) -> ServiceRating:
+                    guess=None, details=True, members=1) -> ServiceRating:
     """Rate an exchanger with temperature-dependent cp and a flow- and temperature-dependent U.
 
     ``guess`` (hot and cold outlet temperatures of the exchanger proper, e.g. from the previous
     call) only shortens the iteration; the answer is the same fixed point. ``details=False``
     skips what only a report needs (see :func:`rate_exchanger`) and the pressure drops.
+
+    ``members`` > 1: the batch axis holds that many exchangers of one arrangement stacked, each
+    over an equal share of it (their UA, areas and bypasses as arrays along the axis). Each
+    stops passing when its own share has converged, keeping the values of that pass, so every
+    exchanger gets the numbers it gets rated alone. Only with a U that does not change with the
+    operating point (the coefficients are not kept per pass) and no pressure-drop models.
     """
     t_hot_in, t_cold_in, m_hot, m_cold = as_arrays(t_hot_in, t_cold_in, m_hot, m_cold)
     m_hot_x = m_hot * (1.0 - spec.bypass_hot)
@@ -108,6 +115,8 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
     else:
         t_hot_x, t_cold_x = t_hot_in.copy(), t_cold_in.copy()
     coefficients = None
+    frozen = np.zeros(t_hot_in.shape, bool)  # stacked exchangers that stopped at an earlier pass
+    stopped = np.zeros(t_hot_in.shape, int)  # and the pass each stopped at
     for passes in range(1, MAX_PASSES + 1):
         t_mean_hot, t_mean_cold = 0.5 * (t_hot_in + t_hot_x), 0.5 * (t_cold_in + t_cold_x)
         if spec.ua is not None:
@@ -120,26 +129,62 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
             ua = coefficients.u_service * spec.total_area / 1000.0
         c_hot = m_hot * fluid_hot.mean_cp(t_hot_in, t_hot_x)
         c_cold = m_cold * fluid_cold.mean_cp(t_cold_in, t_cold_x)
-        rating = rate_exchanger(t_hot_in, t_cold_in, c_hot, c_cold, ua, spec.arrangement, shells=spec.shells,
-                                tube_passes=spec.tube_passes, shell_side=spec.shell_side, mixed_side=spec.mixed_side,
-                                bypass_hot=spec.bypass_hot, bypass_cold=spec.bypass_cold, details=details)
+        rating = _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, details and simple)
         change = np.maximum(np.abs(rating.t_hot_out_exchanger - t_hot_x), np.abs(rating.t_cold_out_exchanger - t_cold_x))
+        met = change <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot_in))
+        if members > 1 and passes > 1:
+            rating, c_hot, c_cold, ua = _keep_frozen(frozen, (rating, c_hot, c_cold, ua), kept)
+        stopped = np.where(frozen, stopped, passes)
         t_hot_x, t_cold_x = rating.t_hot_out_exchanger, rating.t_cold_out_exchanger
-        if simple or np.all(change <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot_in))):
+        if simple or np.all(met | frozen):
             break
+        if members > 1:
+            frozen = frozen | np.repeat(met.reshape(members, -1).all(axis=1), met.size // members)
+            kept = (rating, c_hot, c_cold, ua)
+    if details and not simple:  # the report's quantities at the last pass, not at every pass
+        rating = _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, True)
     flowing = (carried(c_hot * (1.0 - spec.bypass_hot)) > 0.0, carried(c_cold * (1.0 - spec.bypass_cold)) > 0.0)
     rating = _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot, fluid_cold, spec, simple,
                                 flowing)
-    if not details:
-        return ServiceRating(rating, coefficients, ua, {}, passes)
+    drops = pressure_drops(spec, rating, t_hot_in, t_cold_in, m_hot, m_cold, fluid_hot, fluid_cold) if details else {}
+    return ServiceRating(rating, coefficients, ua, drops, stopped if members > 1 else passes)
+
+
+def _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, details):
+    return rate_exchanger(t_hot_in, t_cold_in, c_hot, c_cold, ua, spec.arrangement, shells=spec.shells,
+                          tube_passes=spec.tube_passes, shell_side=spec.shell_side, mixed_side=spec.mixed_side,
+                          bypass_hot=spec.bypass_hot, bypass_cold=spec.bypass_cold, details=details)
+
+
+def pressure_drops(spec, rating, t_hot_in, t_cold_in, m_hot, m_cold, fluid_hot, fluid_cold) -> dict:
+    """Pa by side ("shell"/"tube") of the exchanger rated ``rating``, from its pressure-drop
+    models at the flow through one shell and the side's mean temperature."""
+    m_x = {"hot": m_hot * (1.0 - spec.bypass_hot), "cold": m_cold * (1.0 - spec.bypass_cold)}
     t_mean = {"hot": 0.5 * (t_hot_in + rating.t_hot_out_exchanger), "cold": 0.5 * (t_cold_in + rating.t_cold_out_exchanger)}
     drops = {}
     for side, model in spec.pressure_drop.items():
         label = spec.shell_side if side == "shell" else ("cold" if spec.shell_side == "hot" else "hot")
-        flow = (m_hot_x if label == "hot" else m_cold_x) * per_shell
         fluid = fluid_hot if label == "hot" else fluid_cold
-        drops[side] = model(flow, t_mean[label], fluid) * spec.shells
-    return ServiceRating(rating, coefficients, ua, drops, passes)
+        drops[side] = model(m_x[label] * (1.0 / spec.shells_in_parallel), t_mean[label], fluid) * spec.shells
+    return drops
+
+
+def _keep_frozen(frozen, new, old):
+    """``new`` (a rating without details, c_hot, c_cold, UA) with the values of ``old`` where
+    ``frozen``: a stacked exchanger that has converged keeps the pass it stopped at."""
+    if not frozen.any():
+        return new
+
+    def pick(n, o):
+        return np.where(frozen, o, n)
+
+    rating = ExchangerRating(*(pick(getattr(new[0], f), getattr(old[0], f)) for f in _OUTLET_FIELDS),
+                             *([None] * 10))
+    return (rating, *(pick(n, o) for n, o in zip(new[1:], old[1:])))
+
+
+_OUTLET_FIELDS = ("t_hot_out", "t_cold_out", "t_hot_out_exchanger", "t_cold_out_exchanger", "duty")
+"""The fields of a rating without details (:func:`rate_exchanger` with ``details=False``)."""
 
 
 def _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot, fluid_cold, spec, simple,

@@ -101,12 +101,12 @@ def build_parser():
     bench = commands.add_parser("benchmark", help="measure scenario-solves per second, batch against one by one",
                                 description="Solve many crude-flow scenarios of the crude preheat demo, as shipped "
                                             "and with fixed properties (constant cp, fixed UA), in one vectorized "
-                                            "batch, in the same batch split over processes, and a few one by one; "
-                                            "print the rates and their ratios.")
+                                            "batch, in the same batch allowed several processes (it says how many "
+                                            "it used), and a few one by one; print the rates and their ratios.")
     bench.add_argument("--scenarios", type=int, default=20000, help="scenarios in the batch (default 20000)")
     bench.add_argument("--loop", type=int, default=5, help="single solves timed in the loop (default 5)")
     bench.add_argument("--workers", type=int, default=None,
-                       help="processes for the split batch (default: the machine's CPU count)")
+                       help="processes the split batch may use (default: the machine's CPU count)")
     bench.add_argument("--plant-data", action="store_true",
                        help="instead: reconcile and back-calculate a year of hourly plant-data windows of the crude "
                             "demo, timed beside the batch solve of the same windows")

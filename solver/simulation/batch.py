@@ -15,7 +15,7 @@ import sys
 import time
 from concurrent.futures import ProcessPoolExecutor
 from contextlib import contextmanager
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
@@ -37,6 +37,12 @@ class BatchResult:
     temperature: np.ndarray
     """(scenarios, segments) °C, NaN where a scenario is not converged or not valid; segments in
     the order of the one-case streams table."""
+    processes: int = 1
+    """How many processes solved the batch at once: 1 where it stayed in this one (the probe
+    found a split would not pay), else the parts solved side by side (on a cluster, its tasks)."""
+    plan: list | None = field(default=None, repr=False)
+    """The calculation order and tear sets (:mod:`.sequencing`), found once and reused by the
+    batch's other parts: scenarios vary values, never the network's structure."""
 
 
 PROCESS_MINIMUM = 5000
@@ -89,7 +95,8 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
         parts = max(1, min(int(cluster.parts), scenarios // max(1, int(cluster.minimum))))
         if parts > 1:
             return _joined(cluster.map(_solve_batch, [case] * parts, _pieces(values, scenarios, parts),
-                                       [tolerance] * parts, [max_iterations] * parts, [metrics] * parts))
+                                       [tolerance] * parts, [max_iterations] * parts, [metrics] * parts),
+                           processes=parts)
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
     if int(workers) <= 1 or scenarios < (1 + PROBE_GROWTH) * PROBE + 2 * PROCESS_MINIMUM:
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
@@ -97,15 +104,16 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
     probed = sum(len(r.table) for r in first)
     rest = _take(values, slice(probed, scenarios))
     parts = max(1, min(int(workers), (scenarios - probed) // PROCESS_MINIMUM))
+    plan = first[0].plan
     if each < WORTH_SPLITTING or parts == 1:
-        return _joined([*first, _solve_batch(case, rest, tolerance, max_iterations, metrics)])
+        return _joined([*first, _solve_batch(case, rest, tolerance, max_iterations, metrics, plan)])
     jobs = _pieces(rest, scenarios - probed, parts)
     with ProcessPoolExecutor(parts - 1, mp_context=_process_context()) as pool:
         others = pool.map(_solve_batch, [case] * (parts - 1), jobs[1:], [tolerance] * (parts - 1),
-                          [max_iterations] * (parts - 1), [metrics] * (parts - 1))
-        mine = _solve_batch(case, jobs[0], tolerance, max_iterations, metrics)  # this process takes a part too
+                          [max_iterations] * (parts - 1), [metrics] * (parts - 1), [plan] * (parts - 1))
+        mine = _solve_batch(case, jobs[0], tolerance, max_iterations, metrics, plan)  # this process takes a part
         results = [*first, mine, *others]
-    return _joined(results)
+    return _joined(results, processes=parts)
 
 
 def _probe(case, values, tolerance, max_iterations, metrics):
@@ -124,7 +132,7 @@ def _probe(case, values, tolerance, max_iterations, metrics):
         return [first], small / PROBE
     start = time.perf_counter()
     second = _solve_batch(case, _take(values, slice(PROBE, (1 + PROBE_GROWTH) * PROBE)), tolerance, max_iterations,
-                          metrics)
+                          metrics, first.plan)
     large = time.perf_counter() - start
     return [first, second], max(0.0, large - small) / ((PROBE_GROWTH - 1) * PROBE)
 
@@ -137,10 +145,10 @@ def _pieces(values, scenarios, parts):
     return [_take(values, piece) for piece in np.array_split(np.arange(scenarios), parts)]
 
 
-def _joined(results) -> BatchResult:
+def _joined(results, processes=1) -> BatchResult:
     results = list(results)
     return BatchResult(pd.concat([r.table for r in results], ignore_index=True), max(r.iterations for r in results),
-                       np.concatenate([r.temperature for r in results]))
+                       np.concatenate([r.temperature for r in results]), processes, results[0].plan)
 
 
 def _process_context():
@@ -149,8 +157,8 @@ def _process_context():
     return multiprocessing.get_context("fork" if sys.platform.startswith("linux") else "spawn")
 
 
-def _solve_batch(case, values, tolerance, max_iterations, metrics=False) -> BatchResult:
-    evaluation = evaluate(case, values, tolerance=tolerance, max_iterations=max_iterations)
+def _solve_batch(case, values, tolerance, max_iterations, metrics=False, plan=None) -> BatchResult:
+    evaluation = evaluate(case, values, tolerance=tolerance, max_iterations=max_iterations, plan=plan)
     table = pd.DataFrame({path: np.broadcast_to(np.asarray(v, dtype=float).reshape(-1), (evaluation.batch,))
                           for path, v in values.items()})
     parts = [table, scenario_table(evaluation)]
@@ -159,7 +167,8 @@ def _solve_batch(case, values, tolerance, max_iterations, metrics=False) -> Batc
         parts.append(pd.DataFrame({f"{name}.{m}": np.where(ok, np.broadcast_to(v, (evaluation.batch,)), np.nan)
                                    for name, report in evaluation.reports.items() for m, v in report.metrics.items()}))
     table = pd.concat(parts, axis=1)
-    return BatchResult(table, evaluation.iterations, evaluation.temperature)
+    return BatchResult(table, evaluation.iterations, evaluation.temperature,
+                       plan=[outcome.block for outcome in evaluation.solution.blocks])
 
 
 def scenario_table(evaluation) -> pd.DataFrame:

@@ -93,7 +93,8 @@ def time_case(case, label, scenarios, loop, workers):
         worst = max(worst, float(np.max(np.abs(single.streams["temperature_c"].to_numpy() - batch.temperature[i]))))
     loop_seconds = time.perf_counter() - start
     return {"label": label, "batch_seconds": one_process, "batch_rate": scenarios / one_process,
-            "workers_seconds": several, "workers_rate": scenarios / several, "loop_seconds": loop_seconds,
+            "workers_seconds": several, "workers_rate": scenarios / several, "processes": split.processes,
+            "loop_seconds": loop_seconds,
             "loop_rate": loop / loop_seconds, "largest_difference_k": worst,
             "all_converged": bool(batch.table["converged"].all() and split.table["converged"].all()),
             "iterations": batch.iterations}
@@ -153,20 +154,27 @@ def run_benchmark(scenarios=20000, loop=5, workers=None, case_name="crude_prehea
             "machine": machine()}
 
 
+def _split_label(processes, asked):
+    """What the batch asked to use up to ``asked`` processes did: the processes it used."""
+    used = f"{processes} process{'es' if processes != 1 else ''}"
+    return used if processes == asked else f"{used} of {asked} allowed"
+
+
 def benchmark_text(figures) -> str:
     f = figures
     lines = [f"hxtrain benchmark: {f['case']} demo ({f['exchangers']} exchangers), crude flow 70-115 %, "
              f"{f['scenarios']:,} scenarios a batch, {f['loop_solves']} single solves"]
     for row in f["rows"]:
+        split = _split_label(row["processes"], f["workers"])
         lines += [
             f"  {row['label']}",
             f"    batch, 1 process:  {row['batch_seconds']:7.2f} s = {row['batch_rate']:10,.0f} scenario-solves/s "
             f"({row['iterations']} tear iterations)",
-            f"    batch, {f['workers']} processes: {row['workers_seconds']:7.2f} s = {row['workers_rate']:10,.0f} "
-            f"scenario-solves/s",
+            f"    batch, {split}: {row['workers_seconds']:7.2f} s = {row['workers_rate']:10,.0f} "
+            f"scenario-solves/s ({row['workers_rate'] / row['batch_rate']:.2f} x 1 process)",
             f"    loop of single solves:       {row['loop_rate']:10,.2f} scenario-solves/s",
             f"    batch / loop: {row['batch_rate'] / row['loop_rate']:,.0f} x (1 process), "
-            f"{row['workers_rate'] / row['loop_rate']:,.0f} x ({f['workers']} processes); all converged: "
+            f"{row['workers_rate'] / row['loop_rate']:,.0f} x ({split}); all converged: "
             f"{row['all_converged']}; largest temperature difference from the batch: "
             f"{row['largest_difference_k']:.1e} K",
         ]

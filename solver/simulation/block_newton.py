@@ -11,7 +11,10 @@ the unit it enters. Two inlet segments of different units never share a row, so 
 coloured by the inlet's position at its unit (Curtis, Powell & Reid, IMA J. Appl. Math. 13,
 1974, from memory): as many colours as the most inlets of one unit in the block, usually two.
 All colours are evaluated in one simultaneous sweep with the perturbed copies stacked on the
-batch axis, so a Jacobian costs one call per unit whatever the size.
+batch axis, so a Jacobian costs one sweep whatever the size. No unit of the block reads what
+another computes in that sweep, so the units are asked class by class, each class in one
+stacked call (:func:`~hxtrain.units.protocol.outlet_temperatures_together`): a sweep of
+thousands of exchangers is a few calls, not thousands.
 
 Each iteration solves (I - dG/dT) d = G(T) - T, one sparse LU per scenario (all scenarios as
 one block-diagonal matrix). The step is the distance to the solution of the linearised
@@ -32,7 +35,9 @@ from __future__ import annotations
 import numpy as np
 
 from hxtrain.network.flows import solve_block_diagonal
-from hxtrain.units.protocol import Inlets
+from hxtrain.units.protocol import outlet_temperatures_together
+
+from hxtrain.solver.simulation.engine import unit_groups
 
 HALVINGS = 4
 POLISH_BELOW = 1e-4
@@ -75,8 +80,7 @@ class BlockEquations:
         # the block works on its own columns only: what its units read and write
         self.columns = np.array(sorted({s for u in self.units for s in (*net.inlets[u], *net.outlets[u])}), int)
         local = {int(s): j for j, s in enumerate(self.columns)}
-        self.local_inlets = {u: [local[s] for s in net.inlets[u]] for u in self.units}
-        self.local_outlets = {u: [local[s] for s in net.outlets[u]] for u in self.units}
+        self.groups = unit_groups(net, self.units, local)
         self.local_segments = np.array([local[int(s)] for s in self.segments], int)
         self.local_leaving = np.array([local[int(s)] for s in self.leaving], int)
 
@@ -93,11 +97,9 @@ class BlockEquations:
         work[:, self.local_segments] = stacked
         flows = np.tile(np.broadcast_to(flow, temperature.shape)[:, self.columns], (copies, 1))
         out = np.full(work.shape, np.nan, order="F")
-        for name in self.units:
-            inlet, local = net.inlets[name], self.local_inlets[name]
-            t_out = net.units[name].outlet_temperatures(Inlets(work[:, local], flows[:, local],
-                                                               tuple(net.fluids[s] for s in inlet)))
-            out[:, self.local_outlets[name]] = t_out
+        for group in self.groups:  # every unit reads work, none reads out
+            out[:, group.outlets] = outlet_temperatures_together(group.units, group.inlets_from(work, flows)) \
+                .transpose(1, 0, 2)
         g_all = out[:, self.local_segments].reshape(copies, batch, n)
         g = g_all[0]
         shifted = g_all[1 + self.entry_colour, :, self.rows].T  # (batch, pattern)

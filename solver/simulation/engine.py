@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from hxtrain.network.errors import HxtrainError
-from hxtrain.units.protocol import Inlets
+from hxtrain.units.protocol import Inlets, StackedInlets
 
 from hxtrain.solver.simulation.convergence import TearResult, converge_tears
 
@@ -61,6 +61,40 @@ def inlets_of(net, name, temperature, flow) -> Inlets:
     """What enters unit ``name``: temperatures and flows of its inlet segments and their fluids."""
     inlet = net.inlets[name]
     return Inlets(temperature[:, inlet], flow[:, inlet], tuple(net.fluids[s] for s in inlet))
+
+
+@dataclass
+class UnitGroup:
+    """Units of one class and port counts, evaluated together in one stacked call: their names,
+    models, the columns of their inlets and outlets (units, ports) and their inlet fluids."""
+
+    names: list
+    units: list
+    inlets: np.ndarray
+    outlets: np.ndarray
+    fluids: list
+
+    def inlets_from(self, temperature, flow) -> StackedInlets:
+        """What enters each unit of the group, from (batch, columns) arrays."""
+        return StackedInlets(temperature[:, self.inlets].transpose(1, 0, 2), flow[:, self.inlets].transpose(1, 0, 2),
+                             self.fluids)
+
+
+def unit_groups(net, names, column=None) -> list[UnitGroup]:
+    """The units ``names`` by class and port counts (a unit's type is only a key here: the solver
+    never asks which it is). ``column`` maps a segment to its column (default: itself)."""
+    column = column if column is not None else {s: s for s in range(len(net.segments))}
+    groups: dict = {}
+    for name in names:
+        unit = net.units[name]
+        groups.setdefault((type(unit), len(unit.inlets), len(unit.outlets)), []).append(name)
+
+    def columns(members, ports):
+        return np.array([[column[s] for s in ports[n]] for n in members], int).reshape(len(members), -1)
+
+    return [UnitGroup(members, [net.units[n] for n in members], columns(members, net.inlets),
+                      columns(members, net.outlets), [tuple(net.fluids[s] for s in net.inlets[n]) for n in members])
+            for members in groups.values()]
 
 
 def _sweep(net, units, temperature, flow, tear_slots=None):

@@ -39,10 +39,10 @@ from pathlib import Path
 import numpy as np
 
 from hxtrain.network import Case, Network, build_network, case_from_mapping, load_case
-from hxtrain.units.protocol import TOTALS, Finding, check
+from hxtrain.units.protocol import TOTALS, Finding, check, reports_together
 from hxtrain.units.properties import PHYSICAL_RANGE
 
-from hxtrain.solver.simulation.engine import TemperatureSolution, inlets_of, solve_temperatures
+from hxtrain.solver.simulation.engine import TemperatureSolution, inlets_of, solve_temperatures, unit_groups
 from hxtrain.solver.simulation.sequencing import plan_calculation
 
 SUCCESS, NOT_CONVERGED, NOT_VALID, CHECK_FAILED = 0, 1, 2, 3
@@ -107,17 +107,19 @@ def as_case(case) -> Case:
     return load_case(Path(case))
 
 
-def evaluate(case, values: dict | None = None, *, tolerance=None, max_iterations=None) -> Evaluation:
+def evaluate(case, values: dict | None = None, *, tolerance=None, max_iterations=None, plan=None) -> Evaluation:
     """Evaluate the scenarios of ``case`` given by ``values`` (key path -> one value per
     scenario; none: the case as written, a batch of one). Bad input in the case itself raises
-    CaseError; each scenario's own trouble becomes its status and message."""
+    CaseError; each scenario's own trouble becomes its status and message. ``plan``: the
+    calculation order of this case found before (:func:`.sequencing.plan_calculation`), which
+    scenarios do not change."""
     case = as_case(case)
     tolerance = case.settings.tolerance if tolerance is None else tolerance
     max_iterations = case.settings.max_iterations if max_iterations is None else max_iterations
     net = build_network(case, values or {})
     with np.errstate(all="ignore"):  # rows that are not valid may hold NaN; they are masked in assess
         solution = solve_temperatures(net, tolerance=tolerance, max_iterations=max_iterations, batch=net.batch,
-                                      plan=plan_calculation(net.graph))
+                                      plan=plan_calculation(net.graph) if plan is None else plan)
     return assess(net, solution, tolerance)
 
 
@@ -127,7 +129,7 @@ def assess(net: Network, solution: TemperatureSolution, tolerance) -> Evaluation
     with np.errstate(all="ignore"):
         t = solution.temperature
         flow = np.broadcast_to(net.flow, t.shape)
-        reports = {name: unit.report(inlets_of(net, name, t, flow)) for name, unit in net.units.items()}
+        reports = unit_reports(net, t, flow)
         heat_added = sum(np.broadcast_to(np.asarray(r.heat_added, float), (net.batch,)) for r in reports.values())
         balance = enthalpy_balance(net, t, flow, heat_added)
         units_imbalance = balance["imbalance_kw"] - tear_holdback(net, solution, t, flow)
@@ -153,7 +155,7 @@ def assess(net: Network, solution: TemperatureSolution, tolerance) -> Evaluation
     for name, finding in findings:
         if finding.severity == "input":
             fail(finding.active, NOT_VALID, finding.messages, tuple(finding.key.split(".")))
-    fail(~solution.converged, NOT_CONVERGED, _not_converged_text(net, solution, t), None)
+    fail(~solution.converged, NOT_CONVERGED, lambda k: _not_converged_text(t[k]), None)
     range_findings = _temperature_checks(net, t, flow, fail)
     with np.errstate(invalid="ignore"):
         fail(~(units_relative <= BALANCE_TOLERANCE), CHECK_FAILED,
@@ -176,14 +178,25 @@ def assess(net: Network, solution: TemperatureSolution, tolerance) -> Evaluation
                       tolerance)
 
 
+def unit_reports(net, t, flow) -> dict:
+    """Every unit's report at temperatures ``t``, in unit order; units of one class are asked
+    together (one stacked rating where their class has one)."""
+    found = {}
+    for group in unit_groups(net, net.units):
+        found.update(zip(group.names, reports_together(group.units, group.inlets_from(t, flow))))
+    return {name: found[name] for name in net.units}
+
+
 def _masked(finding: Finding, ok) -> Finding:
     return Finding(finding.kind, finding.severity, finding.active & ok, finding.template, finding.values, finding.key)
 
 
-def _not_converged_text(net, solution, t):
-    lost = ~np.all(np.isfinite(t), axis=1)
-    return np.where(lost, "temperatures did not converge (some left the physical range on the way: a duty or "
-                          "target that no temperature can meet?)", "temperatures did not converge")
+def _not_converged_text(t):
+    """Why a scenario with temperatures ``t`` (segments,) did not converge (worded only where one did not)."""
+    if np.all(np.isfinite(t)):
+        return "temperatures did not converge"
+    return ("temperatures did not converge (some left the physical range on the way: a duty or target that no "
+            "temperature can meet?)")
 
 
 def enthalpy_balance(net, temperature, flow, heat_added):
