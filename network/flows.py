@@ -31,6 +31,8 @@ BALANCE_TOLERANCE = 1e-9
 """Relative tolerance on supplied against delivered flow, and on negative flows."""
 SHARE_LIMIT = 20_000
 """Largest segments x supplies block kept whole (each supply's share of each segment)."""
+DENSE_SEGMENTS = 300
+"""Largest network (in segments) whose fixed-split flows are solved with a dense matrix."""
 CHUNK_UNKNOWNS = 400_000
 """Most unknowns (segments times scenarios) in one block-diagonal factorization of varied splits."""
 
@@ -99,9 +101,6 @@ def _fixed_splits(rows, cols, values, n, entry, supplies, groups, valid, message
     of each segment (a dense segments x supplies block: the arithmetic of earlier versions, to
     the last digit); a large one is solved for few right-hand sides: each group's fixed supplies
     together, and each supply whose flow varies by scenario on its own (scaled afterwards)."""
-    import scipy.sparse as sp
-    import scipy.sparse.linalg as spla
-
     batch, count = supplies.shape[0], groups.max(initial=0) + 1
     per_supply = n * supplies.shape[1] <= SHARE_LIMIT
     varies = np.flatnonzero(np.ptp(supplies, axis=0) > 0.0) if batch > 1 and not per_supply else np.array([], int)
@@ -113,9 +112,8 @@ def _fixed_splits(rows, cols, values, n, entry, supplies, groups, valid, message
                    for g in range(count)] + [np.bincount(entry[j:j + 1], minlength=n).astype(float) for j in varies]
     try:
         with np.errstate(all="ignore"):
-            lu = spla.splu(sp.csc_matrix((values, (rows, cols)), shape=(n, n)))
-            solved = np.asarray(lu.solve(np.stack(columns, axis=1))).reshape(n, len(columns))
-    except RuntimeError:  # exactly singular
+            solved = _solve_once(rows, cols, values, n, np.stack(columns, axis=1))
+    except (RuntimeError, np.linalg.LinAlgError):  # exactly singular
         valid[:] = False
         message[:] = _SINGULAR
         return np.full((batch, n), np.nan), np.zeros((n, count), bool), {}
@@ -134,6 +132,22 @@ def _fixed_splits(rows, cols, values, n, entry, supplies, groups, valid, message
             shares[:, groups[j]] += varying[s, v] * supplies[:, j]
         makeup[int(s)] = shares
     return flow, carried, makeup
+
+
+def _solve_once(rows, cols, values, n, right):
+    """``(I - A) x = right`` for one matrix given by its entries (summed where repeated). A
+    network of up to :data:`DENSE_SEGMENTS` segments is solved dense (LAPACK through numpy):
+    checking a case then needs no scipy, whose sparse modules cost a quarter of a second to
+    load; a larger one by a sparse LU (SuperLU), never forming the dense matrix."""
+    if n <= DENSE_SEGMENTS:
+        matrix = np.zeros((n, n))
+        np.add.at(matrix, (np.asarray(rows, int), np.asarray(cols, int)), values)
+        return np.linalg.solve(matrix, right)
+    import scipy.sparse as sp
+    import scipy.sparse.linalg as spla
+
+    lu = spla.splu(sp.csc_matrix((values, (rows, cols)), shape=(n, n)))
+    return np.asarray(lu.solve(right)).reshape(n, right.shape[1])
 
 
 def _from_shares(share, supplies, groups, count):

@@ -316,10 +316,11 @@ def test_usage_errors_are_exit_2(args, capsys):
 
 def test_check_loads_no_tables_plots_or_unit_registry():
     """Start-up: `hxtrain check` needs neither pandas, matplotlib, pint (the demo's units are all
-    common ones) nor networkx. A fresh interpreter, so nothing another test loaded counts."""
+    common ones), networkx nor scipy (a small network's flows are solved dense). A fresh
+    interpreter, so nothing another test loaded counts."""
     probe = ("import sys\nfrom hxtrain.solver.cli.main import main\n"
              f"code = main(['check', {str(demo_case_path(DEMO_CASES[0]))!r}])\n"
-             "print(code, sorted(m for m in ('pandas', 'matplotlib', 'pint', 'networkx') if m in sys.modules))")
+             "print(code, sorted(m for m in ('pandas', 'matplotlib', 'pint', 'networkx', 'scipy') if m in sys.modules))")
     result = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, timeout=120)
     assert result.returncode == 0, result.stderr
     assert result.stdout.splitlines()[-1] == "0 []"

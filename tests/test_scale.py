@@ -250,3 +250,56 @@ def test_the_probe_times_a_scenario_without_the_fixed_cost_of_a_batch(monkeypatc
 def test_ladder_sizes_are_as_asked():
     for shape, units in itertools.product(SHAPES, (10, 100, 1000)):
         assert abs(unit_count(ladder_case(shape, units)) - units) <= 0.1 * units + 3
+
+
+def test_independent_blocks_at_one_depth_merge_and_give_the_same_temperatures(monkeypatch):
+    """Side-by-side trains: one cyclic block per train, none joined to another. They are merged
+    into one block (converged on all its segments at once) whose units come before every unit
+    they feed; the temperatures equal those of the trains solved one block at a time (tear
+    iteration) within twice the tolerance, since each path is within the tolerance of the
+    solution."""
+    from hxtrain.solver.simulation import engine
+    from hxtrain.solver.simulation.engine import solve_temperatures
+    from hxtrain.solver.simulation.sequencing import plan_calculation
+
+    case = case_from_mapping(ladder_case("side_by_side", 120, "varying"))
+    net = build_network(case)
+    plan = plan_calculation(net.graph)
+    cyclic = [b for b in plan if b.tears]
+    trains = sum(1 for s in net.segments if s.source.endswith("blend"))  # one blend per train
+    assert len(cyclic) == 1 and len(cyclic[0].tears) == trains > 3
+    assert cyclic[0].method.startswith(f"{trains} independent blocks merged")
+    position = {u: i for i, b in enumerate(plan) for u in b.units}
+    assert sorted(position) == sorted(net.units) and sum(len(b.units) for b in plan) == len(net.units)
+    for seg in net.segments:  # a segment runs forward between blocks, or inside one
+        assert position[seg.source] <= position[seg.target]
+    settings = dict(tolerance=case.settings.tolerance, max_iterations=case.settings.max_iterations)
+    merged = solve_temperatures(net, plan=plan, **settings)
+    monkeypatch.setattr(engine, "LARGE_BLOCK_TEARS", 10**9)  # neither merged nor converged by Newton
+    separate_plan = plan_calculation(net.graph)
+    assert len([b for b in separate_plan if b.tears]) == trains
+    separate = solve_temperatures(net, plan=separate_plan, **settings)
+    assert merged.converged.all() and separate.converged.all()
+    assert np.max(np.abs(merged.temperature - separate.temperature)) <= 2 * case.settings.tolerance
+
+
+@pytest.mark.parametrize("name", ["crude_preheat", "feed_effluent", "product_cooling"])
+def test_small_networks_flows_dense_equal_the_sparse_solve(name, monkeypatch):
+    """A small network's fixed-split flows come from a dense solve (no scipy at start-up); the
+    sparse LU of large networks gives the same flows, blends and groups, here forced on the
+    demos and on a side-by-side network with a varied supply flow."""
+    from hxtrain.network import flows as flows_module
+
+    cases = [(load_case(demo_case_path(name)), None),
+             (case_from_mapping(ladder_case("side_by_side", 60, "varying")),
+              {"streams.T1light.flow": np.array([10.0, 30.0, 45.0])})]
+    for case, values in cases:
+        dense = build_network(case, values)
+        monkeypatch.setattr(flows_module, "DENSE_SEGMENTS", 0)
+        sparse = build_network(case, values)
+        monkeypatch.undo()
+        assert len(dense.segments) <= flows_module.DENSE_SEGMENTS
+        np.testing.assert_allclose(dense.flow, sparse.flow, rtol=1e-13, atol=1e-12)
+        t = np.linspace(40.0, 300.0, 3)
+        for a, b in zip(dense.fluids, sparse.fluids):
+            np.testing.assert_allclose(a.cp(t), b.cp(t), rtol=1e-13)

@@ -21,6 +21,9 @@ Tear set, by block size:
   disjoint cycles found by short searches (each needs a tear of its own), so the answer is
   known to be within ``len(tears) - lower_bound`` of the fewest.
 
+Cyclic blocks at the same depth of the condensed graph are independent of each other; where
+they have many tears together they are merged into one block (see :func:`_merged`).
+
 Blocks of the same structure (repeated trains: the same units and segments up to their names,
 named in the same order) share one tear search. Blocks with many tears are converged on all
 their segments at once (:mod:`.block_newton`), where the tear set only names what the tables
@@ -57,19 +60,22 @@ class Block:
 
 
 def plan_calculation(graph: nx.MultiDiGraph) -> list[Block]:
-    """Blocks of the unit graph in calculation order, each with its tear segments."""
+    """Blocks of the unit graph in calculation order, each with its tear segments. Independent
+    cyclic blocks at one depth of the condensed graph are merged into one (:func:`_merged`)."""
     condensed = nx.condensation(graph)
     component_of = condensed.graph["mapping"]
     inside = defaultdict(list)  # component -> its segments (u, v, key), in one pass over the graph
     for u, v, k in graph.edges(keys=True):
         if component_of[u] == component_of[v]:
             inside[component_of[u]].append((u, v, k))
+    depth, cyclic_at = {}, defaultdict(list)
     blocks, solved = [], {}  # structure of a block -> its tears as positions in that structure
     for component in nx.topological_sort(condensed):
+        depth[component] = 1 + max((depth[p] for p in condensed.predecessors(component)), default=-1)
         members = condensed.nodes[component]["members"]
         edges = sorted(inside[component], key=lambda e: e[2])
         if not edges:
-            blocks.append(Block(list(members), []))
+            blocks.append((depth[component], Block(list(members), [])))
             continue
         rank = {n: i for i, n in enumerate(sorted(members, key=str))}
         structure = tuple((rank[u], rank[v]) for u, v, _ in edges)
@@ -79,8 +85,28 @@ def plan_calculation(graph: nx.MultiDiGraph) -> list[Block]:
             solved[structure] = ([position[k] for k in tears], method, bound)
         places, method, bound = solved[structure]
         tears = sorted(edges[i][2] for i in places)
-        blocks.append(Block(_order_without(members, edges, tears), tears, method, bound))
-    return blocks
+        cyclic_at[depth[component]].append(Block(_order_without(members, edges, tears), tears, method, bound))
+    for level, cyclic in cyclic_at.items():
+        blocks.extend((level, block) for block in _merged(cyclic))
+    return [block for _, block in sorted(blocks, key=lambda pair: pair[0])]  # stable: topological within a depth
+
+
+def _merged(cyclic: list[Block]) -> list[Block]:
+    """Cyclic blocks at one depth of the condensed graph (no segment joins them, so their order
+    is free) as one block where they have more tears together than the engine's
+    ``LARGE_BLOCK_TEARS``, else unchanged. The merged block is then converged on all its
+    segments at once, one stacked call per unit class per sweep, instead of one call per unit
+    per block: side-by-side trains of a site (hundreds of one-tear blocks of a few units each)
+    spent their time in that per-call overhead."""
+    from hxtrain.solver.simulation.engine import LARGE_BLOCK_TEARS
+
+    if len(cyclic) < 2 or sum(len(b.tears) for b in cyclic) <= LARGE_BLOCK_TEARS:
+        return cyclic
+    methods = list(dict.fromkeys(b.method for b in cyclic))
+    bounds = [b.lower_bound for b in cyclic]
+    return [Block([u for b in cyclic for u in b.units], sorted(t for b in cyclic for t in b.tears),
+                  f"{len(cyclic)} independent blocks merged: " + "; ".join(methods),
+                  None if None in bounds else sum(bounds))]
 
 
 def _without(sub: nx.MultiDiGraph, tears) -> nx.MultiDiGraph:
