@@ -39,6 +39,7 @@ class Exchanger(UnitBase):
         """Sides ("hot"/"cold") carrying a utility stream: the duty then counts as heat to (or
         from) utilities rather than heat recovered between process streams."""
         self._last_outlets = None  # warm start of the in-service iteration (speed only)
+        self._affine = None  # the outlets' fixed fractions of the inlet difference, and what they hold for
 
     @property
     def total(self):
@@ -78,7 +79,7 @@ class Exchanger(UnitBase):
             self.spec.thermal.u = values
         else:
             self.spec.set_fouling(part, values)
-        self._last_outlets = None
+        self._last_outlets = self._affine = None
 
     def rate(self, inlets, details=True):
         service = rate_in_service(self.spec, inlets.t[:, 0], inlets.t[:, 1], inlets.m[:, 0], inlets.m[:, 1],
@@ -114,8 +115,35 @@ class Exchanger(UnitBase):
                 "fouling.tube": np.zeros_like(fouling)}
 
     def outlet_temperatures(self, inlets):
+        fractions = self._affine_fractions(inlets)
+        if fractions is not None:
+            t_hot, t_cold = inlets.t[:, 0], inlets.t[:, 1]
+            difference = t_hot - t_cold
+            return np.stack([t_hot - fractions[0] * difference, t_cold + fractions[1] * difference], axis=1)
         x = self.rate(inlets, details=False).rating
         return np.stack([x.t_hot_out, x.t_cold_out], axis=1)
+
+    def _affine_fractions(self, inlets):
+        """(hot, cold) fractions of the inlet difference by which each side's outlet moves, where
+        the rating is linear and homogeneous in the inlet temperatures: constant cp on both sides
+        and a U that does not follow the operating point, so that the duty is P·C_min·ΔT_in with
+        P from the flows and UA alone (bypasses and zero-flow limits are linear too). Found once
+        by a rating at inlets of 1 and 0 °C and kept while the flows, fluids and parameters stay
+        (absolute round-off about 1e-16 of the inlet difference); the many sweeps of a tear
+        iteration then cost a few array operations each. None where the rating is not linear."""
+        spec, fluids, m = self.spec, inlets.fluids, inlets.m
+        if not (spec.ua is not None or isinstance(spec.thermal, FixedCoefficient)) or \
+                not (fluids[0].constant_cp and fluids[1].constant_cp):
+            return None
+        kept = self._affine
+        if kept is not None and kept[0] is fluids[0] and kept[1] is fluids[1] and kept[2].shape == m.shape \
+                and np.array_equal(kept[2], m):
+            return kept[3]
+        ones = np.ones(m.shape[0])
+        x = rate_in_service(spec, ones, 0.0 * ones, m[:, 0], m[:, 1], fluids[0], fluids[1], details=False).rating
+        fractions = (1.0 - x.t_hot_out, x.t_cold_out)
+        self._affine = (fluids[0], fluids[1], np.array(m), fractions)
+        return fractions
 
     @classmethod
     def outlet_temperatures_together(cls, units, inlets):
