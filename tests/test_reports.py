@@ -159,3 +159,33 @@ def test_hxtrain_report_writes_a_case_and_a_study(tmp_path, capsys):
 def test_hxtrain_report_refuses_an_output_that_is_not_html(tmp_path, capsys):
     code, out, err = run_in_process(capsys, "report", "--out", tmp_path / "r.pdf")
     assert code == 2 and ".html" in err
+
+
+def test_the_diagram_draws_a_bypass_branch_with_its_stream_and_no_unit_on_another_units_link():
+    """A cooled stream split, one branch straight into a mixer (no temperature change along it):
+    every row of that stream runs right to left like the stream, and no two units share a
+    vertical where their links would overlap (a junction is moved half a column)."""
+    from pathlib import Path
+
+    from hxtrain.network import load_case
+    from hxtrain.solver.reporting import network_diagram as diagram
+
+    result = simulate(load_case(Path(__file__).parent / "valid" / "split_branch_to_mixer.yaml"))
+    rows, placed, junctions = diagram.rows_of(result)
+    gas_oil = [r for r in rows if r.name.startswith(("gas_oil", "go_split", "go_mix"))]
+    assert len(gas_oil) == 4 and not any(r.heated for r in gas_oil)
+    column = diagram.columns(rows)
+    ordered = diagram.ordered_rows(rows, column)
+    y = {row.name: k for k, row in enumerate(ordered)}
+    spans = {}
+    for row in ordered:
+        for node in row.nodes:
+            spans.setdefault(node, []).append(y[row.name])
+    x = {n: diagram.COLUMN * c for n, c in column.items()}
+    diagram._apart(x, spans, junctions)
+    for a in x:
+        for b in x:
+            if a < b and x[a] == x[b]:
+                assert max(spans[a]) < min(spans[b]) or max(spans[b]) < min(spans[a]), (a, b)
+    svg = diagram.network_svg(result, Display())
+    assert svg.count('stroke="#2f6690"') == 1  # only the feed row is drawn in the heated colour

@@ -78,8 +78,27 @@ def rows_of(result: SimulationResult) -> tuple[list[Row], set, set]:
             rows.append(Row(origin.name if k == 0 else f"{origin.name} ({k + 1})", nodes,
                             {s.unit: s.side for s in origin.path}, start, end,
                             len(chunk) < 2 or chunk[-1] >= chunk[0], utility, chunk))
+    _level_rows_follow_their_stream(rows)
     placed = {n for row in rows for n in row.nodes}
     return rows, placed, junctions
+
+
+def _level_rows_follow_their_stream(rows: list[Row]):
+    """A row whose temperature does not change (a splitter's branch straight to a mixer) runs the
+    way the row that feeds it runs (else the row it feeds), not left to right by default: a
+    branch of a cooled stream is drawn with that stream, through any number of such rows."""
+    level = [r for r in rows if r.temperatures[-1:] == r.temperatures[:1]]  # one segment, or no change
+    known = [r for r in rows if r not in level]
+    while level:
+        for row in level:
+            found = [r for r in known if r.end == row.start] or [r for r in known if r.start == row.end]
+            if found:
+                row.heated = found[0].heated
+                known.append(row)
+                level.remove(row)
+                break
+        else:
+            return  # the rest touch no row with a direction: left to right
 
 
 def _turns(steps: list) -> list[tuple[int, int]]:
@@ -136,6 +155,11 @@ def network_svg(result: SimulationResult, display: Display) -> str:
     severity = _severities(result)
     units = result.units
     x = {n: LEFT + COLUMN * c for n, c in column.items()}
+    rows_at = {}
+    for row in rows:
+        for node in row.nodes:
+            rows_at.setdefault(node, []).append(y[row.name])
+    _apart(x, rows_at, junctions)
     ends = [_ends(row, x, junctions) for row in rows]
     low = min(min(a - (len(row.start) * CHARACTER + 12 if row.heated else 0),
                   b - (0 if row.heated else len(row.end) * CHARACTER + 12)) for row, (a, b) in zip(rows, ends))
@@ -145,10 +169,6 @@ def network_svg(result: SimulationResult, display: Display) -> str:
     parts = [f'<svg xmlns="http://www.w3.org/2000/svg" class="network" viewBox="{low - 10:.0f} 0 '
              f'{high - low + 20:.0f} {height}" role="img" aria-label="network diagram" font-family="sans-serif" '
              f'font-size="12">']
-    rows_at = {}
-    for row in rows:
-        for node in row.nodes:
-            rows_at.setdefault(node, []).append(y[row.name])
     for node, ys in rows_at.items():  # links first: the rows are drawn over them
         if len(ys) > 1:
             dash = ' stroke-dasharray="4 3"' if node in junctions else ""
@@ -160,6 +180,22 @@ def network_svg(result: SimulationResult, display: Display) -> str:
         parts += _unit(node, x[node], rows_at[node], node in junctions, units, severity, display)
     parts.append("</svg>")
     return "".join(parts)
+
+
+def _apart(x: dict, rows_at: dict, junctions):
+    """Move a unit half a column (junctions first) where it would sit on another unit's link in
+    the same column, or its link would run through another unit: two symbols on one vertical
+    would read as one connection."""
+    def clash(a, b):
+        return x[a] == x[b] and min(rows_at[a]) <= max(rows_at[b]) and min(rows_at[b]) <= max(rows_at[a])
+
+    for _ in range(len(x)):
+        pairs = [(a, b) for a in x for b in x if a < b and clash(a, b)]
+        if not pairs:
+            return
+        a, b = pairs[0]
+        mover = b if b in junctions and a not in junctions else a if a in junctions else b
+        x[mover] += COLUMN / 2
 
 
 def _severities(result) -> dict:
