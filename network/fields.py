@@ -99,6 +99,9 @@ class Fields:
         return value
 
     def choice(self, key, options, required=True, default=None):
+        return self._one_of(key, options, required, default)
+
+    def _one_of(self, key, options, required, default):
         value = self.raw(key, required, default)
         if value is None:
             return None
@@ -106,6 +109,12 @@ class Fields:
             hint = nearest(value, options)
             raise self.error(key, f"expected one of {', '.join(map(str, options))}; got {shorten(value)}{hint}")
         return value
+
+    def defined_name(self, key, names, required=True, default=None):
+        """One of the ``names`` the file defines elsewhere (a fluid of its ``fluids`` section):
+        checked like :meth:`choice`, but the schema says only "text", since every file has
+        names of its own."""
+        return self._one_of(key, names, required, default)
 
     def mapping(self, key, required=False, what="a mapping of keys to values"):
         value = self.raw(key, required, None)

@@ -77,7 +77,7 @@ class UnitSection:
 def _read_stream(f: Fields, reading: Reading) -> dict:
     name = f.path[-1]
     data = {
-        "fluid": f.choice("fluid", sorted(reading.fluids)),
+        "fluid": f.defined_name("fluid", sorted(reading.fluids)),
         "flow": f.quantity("flow", q.MASS_FLOW),
         "supply_temperature": f.quantity("supply_temperature", q.TEMPERATURE),
         "utility": f.flag("utility"),

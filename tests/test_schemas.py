@@ -138,3 +138,21 @@ def test_hxtrain_schema_prints_the_shipped_schema(kind, capsys):
     assert code == 0, err
     assert json.loads(out) == shipped(kind)
     assert json.loads(out)["$schema"].startswith("https://json-schema.org/draft/2020-12")
+
+
+def test_a_case_with_names_of_its_own_is_valid_against_the_schema(tmp_path, capsys):
+    """A stream's fluid is one of the names the file itself defines: any name the user chooses
+    is valid in the schema (the reader checks it against the fluids section), not only the
+    names the bundled files happen to use."""
+    data = yaml.safe_load((Path(__file__).parent / "valid" / "small_train.yaml").read_text())
+    renamed = {f"fluid_nobody_used_{k}": v for k, v in enumerate(data["fluids"].values())}
+    old_to_new = dict(zip(data["fluids"], renamed))
+    data["fluids"] = renamed
+    for stream in data["streams"].values():
+        stream["fluid"] = old_to_new[stream["fluid"]]
+    path = tmp_path / "own_names.yaml"
+    path.write_text(yaml.safe_dump(data))
+    code, out, err = run_in_process(capsys, "check", str(path))
+    assert code == 0, err
+    errors = list(jsonschema.Draft202012Validator(shipped("case")).iter_errors(data))
+    assert not errors, [e.message for e in errors]

@@ -62,7 +62,7 @@ def recording():
     """Patch :class:`Fields` so that every key asked for is noted; restore it afterwards."""
     recorder, cls = Recorder(), fields_module.Fields
     original = {name: getattr(cls, name) for name in ("__init__", "raw", "has", "quantity", "integer", "flag", "text",
-                                                      "choice", "mapping", "named_entries")}
+                                                      "choice", "defined_name", "mapping", "named_entries")}
 
     class Allowed(set):
         def __init__(self, owner):
@@ -114,6 +114,7 @@ def recording():
         "integer": lambda default, minimum=1, maximum=1000: ("integer", minimum, maximum),
         "flag": lambda *a, **k: ("boolean",), "text": lambda *a, **k: ("string",),
         "choice": lambda options, *a, **k: ("enum", tuple(options)), "mapping": lambda *a, **k: ("object",),
+        "defined_name": lambda *a, **k: ("string",),
         "has": None,
     }
     patched = {name: asking(original[name], form) for name, form in forms.items()}
