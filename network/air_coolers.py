@@ -39,7 +39,9 @@ def _read_air(f: Fields) -> dict:
     fan = air.mapping("fan_control", what="a mapping with 'outlet_temperature', 'minimum_flow' and 'maximum_flow'")
     if fan is not None:
         # the maximum first: a read stopped at a bad minimum has then asked for both (the schema
-        # builder infers 'required' from the reads, solver/reporting/schema_build.py)
+        # builder infers 'required' from the reads, solver/reporting/schema_build.py); the minimum
+        # known beforehand, so that a missing maximum is not taken for a misspelt minimum
+        fan.has("minimum_flow")
         high = fan.quantity("maximum_flow", q.MASS_FLOW)
         low = fan.quantity("minimum_flow", q.MASS_FLOW)
         if low >= high:

@@ -34,11 +34,14 @@ def read_geometry(f: Fields, spec):
     and the tube-wall resistance (m²·K/W); errors name the key."""
     g = f.mapping("geometry", required=True)
     lengths = {key: g.quantity(key, kind) for key, kind in GEOMETRY_LENGTHS.items()}
+    tubes, layout = g.integer("tubes", None, 1, 100_000), g.choice("tube_layout", tuple(LAYOUT_BASE))
+    baffles = g.integer("baffles", None, 0, 1000)
+    # the method after the bundle's own keys: a read stopped at it has asked for them all (the
+    # schema builder infers 'required' from the reads, solver/reporting/schema_build.py)
     method = g.choice("shell_side_method", SHELL_SIDE_METHODS, required=False, default="kern")
     bundle = u_models.TubeBundle(
-        lengths["tube_outer_diameter"], lengths["tube_inner_diameter"], lengths["tube_length"],
-        g.integer("tubes", None, 1, 100_000), spec.tube_passes, lengths["tube_pitch"],
-        g.choice("tube_layout", tuple(LAYOUT_BASE)), lengths["baffle_spacing"], g.integer("baffles", None, 0, 1000),
+        lengths["tube_outer_diameter"], lengths["tube_inner_diameter"], lengths["tube_length"], tubes,
+        spec.tube_passes, lengths["tube_pitch"], layout, lengths["baffle_spacing"], baffles,
         lengths["shell_inner_diameter"], **_bell_delaware(g, method, spec))
     _check_bundle(g, bundle)
     k = g.quantity("wall_conductivity", q.WALL_CONDUCTIVITY)

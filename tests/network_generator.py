@@ -21,6 +21,16 @@ What a generated network contains
   tube passes and either shell side, crossflow with either/no side mixed, bypasses per side.
   UA is 0.1-4 times the smaller C estimate (given as ``ua``, or as ``u`` with ``area_per_shell``
   and sometimes 2-3 ``shells_in_parallel``).
+* Air coolers (``air_coolers`` section, only when ``generate_case(..., air_coolers=kinds)`` asks
+  for them): on the hot paths, a fixed air flow anywhere on a chain (also inside recycles and
+  feed-effluent loops) and a fixed air flow or fan control at the end of a chain. The air
+  enters over 55 K from -10 °C, or, where target coolers are, from 1 K above their target T_C
+  (an air cooler's outlet then never falls below T_C, so a target cooler is never fed below its
+  target); it may heat a process stream colder than itself. Its C is 0.3-5 times the
+  stream's, U given as ``ua``, ``u`` with ``area`` or ``clean_u`` with ``area`` and ``fouling``,
+  bundles by tube rows and passes (:data:`AIR_COOLER_SETTINGS`). An air cooler's outlet lies
+  between its process inlet and its air temperature (fan control clips its target to what the
+  two flows reach), so the envelope below holds with the air temperatures added to the levels.
 * Heaters on the cold streams and coolers on the hot streams. Each network has a heater mode and
   a cooler mode, ``target`` or ``duty``:
     - ``target``: every heater has the same outlet temperature T_H above every supply temperature
@@ -54,7 +64,11 @@ EVERY_ARRANGEMENT = ARRANGEMENTS + ("tema_f", "tema_g", "tema_h", "tema_j", "tem
 """Every arrangement of the registry (``hxtrain.units.arrangements.ARRANGEMENTS``), with the
 options each takes drawn by :func:`_extended_options` (``generate_case(..., arrangements=...)``)."""
 
-SECTIONS = ("fluids", "streams", "exchangers", "heaters", "coolers", "mixers", "splitters", "products")
+SECTIONS = ("fluids", "streams", "exchangers", "heaters", "coolers", "air_coolers", "mixers", "splitters", "products")
+AIR_COOLER_SETTINGS = ((1, 1), (3, 1), (6, 1), (2, 2), (4, 2), (3, 3), (4, 4), (5, 5))
+"""(tube rows, tube passes) of air-cooled bundles with a relation."""
+AIR_COOLER_KINDS = ("fixed", "fan")
+"""Air coolers with a fixed air flow, and with fan control (``generate_case(..., air_coolers=...)``)."""
 
 STATS = {"networks": {}, "max_iterations": 0, "max_iterations_case": None, "max_units": 0, "features": {}}
 """Counters filled by the property tests (networks simulated per test, slowest convergence);
@@ -139,9 +153,10 @@ class DrawChooser:
 class Slot:
     """A place on a path, filled later by an exchanger side, a heater or a cooler."""
 
-    kind: str  # "cold" / "hot" exchanger side, "heater", "cooler"
+    kind: str  # "cold" / "hot" exchanger side, "heater", "cooler", "air" (an air cooler)
     c: float  # heat-capacity rate estimate at this place, kW/K (for UA and duty scaling)
     label: str = ""
+    fan: bool = False  # an air cooler with fan control
 
 
 @dataclass
@@ -154,11 +169,13 @@ class _Builder:
     t_cool: float = 0.0
     case: dict = field(default_factory=dict)
     paths: list = field(default_factory=list)  # (owner dict, list of items) to render
-    slots: dict = field(default_factory=lambda: {"cold": [], "hot": [], "heater": [], "cooler": []})
+    slots: dict = field(default_factory=lambda: {"cold": [], "hot": [], "heater": [], "cooler": [], "air": []})
     counter: dict = field(default_factory=dict)
     max_blocks: int = 6
     blocks: int = 0
     arrangements: tuple = ARRANGEMENTS
+    air_kinds: tuple = ()
+    air_settings: tuple = AIR_COOLER_SETTINGS
 
     def name(self, prefix):
         self.counter[prefix] = self.counter.get(prefix, 0) + 1
@@ -190,6 +207,7 @@ class _Builder:
                 for _ in range(k):
                     path.append(self.slot(side, c))
                     self.maybe_duty_unit(path, side, c)
+                    self.maybe_air_cooler(path, side, c, 0.1, anywhere=True)
                 budget -= k
             elif kind == "split":
                 use = self.ch.integer(1, min(budget, 6))
@@ -206,6 +224,16 @@ class _Builder:
         kind, mode = ("heater", self.heater_mode) if side == "cold" else ("cooler", self.cooler_mode)
         if mode == "duty" and self.ch.chance(0.15):
             path.append(self.slot(kind, c))
+
+    def maybe_air_cooler(self, path, side, c, probability, anywhere=False):
+        """Now and then an air cooler on a hot path (when asked for): anywhere on a chain one with
+        a fixed air flow, at the end of a chain one of the kinds asked for. No decision is drawn
+        when none is asked for (the fixed-seed networks stay as they were)."""
+        kinds = tuple(k for k in self.air_kinds if k == "fixed" or not anywhere)
+        if side == "hot" and kinds and self.ch.chance(probability):
+            s = Slot("air", c, fan=self.ch.choice(kinds) == "fan")
+            self.slots["air"].append(s)
+            path.append(s)
 
     def split(self, path, use, c, side, depth):
         splitter, mixer = self.name("split"), self.name("mix")
@@ -269,14 +297,16 @@ def _split_budget(ch, total, parts, first_at_least_one=False):
     return budgets
 
 
-def generate_case(ch, *, max_exchangers=15, fixed_duty=True, title="generated network", arrangements=ARRANGEMENTS):
+def generate_case(ch, *, max_exchangers=15, fixed_duty=True, title="generated network", arrangements=ARRANGEMENTS,
+                  air_coolers=(), air_cooler_settings=AIR_COOLER_SETTINGS):
     """A valid case dict (keys as in a case file) built from the decisions of chooser ``ch``;
     exchangers take an arrangement of ``arrangements`` (beyond :data:`ARRANGEMENTS`, with the
-    options of :func:`_extended_options`)."""
-    b = _Builder(ch, fixed_duty)
+    options of :func:`_extended_options`); air coolers of the kinds ``air_coolers`` (of
+    :data:`AIR_COOLER_KINDS`; none by default) with bundles of ``air_cooler_settings``."""
+    b = _Builder(ch, fixed_duty, air_kinds=tuple(air_coolers), air_settings=tuple(air_cooler_settings))
     b.arrangements = tuple(arrangements)
     b.case = {"title": title, "fluids": {}, "streams": {}, "exchangers": {}, "heaters": {}, "coolers": {},
-              "mixers": {}, "splitters": {}, "products": {}}
+              "air_coolers": {}, "mixers": {}, "splitters": {}, "products": {}}
     n_fluids = ch.integer(1, 3)
     cps = []
     for i in range(n_fluids):
@@ -338,14 +368,16 @@ def generate_case(ch, *, max_exchangers=15, fixed_duty=True, title="generated ne
         entry = {"fluid": f"fluid{s['fluid'] + 1}", "flow": s["flow"], "supply_temperature": s["t"]}
         b.case["streams"][name] = entry
         path, c = b.chain(b.new_path(entry), hot_budgets[i], c, "hot")
+        b.maybe_air_cooler(path, "hot", c, 0.5)
         b.end_units(path, "cooler", c, 0.6)
         b.product(path)
 
     _pair_exchangers(b)
     _fill_heaters(b)
+    _fill_air_coolers(b)
     for owner, items in b.paths:
         owner["path"] = " -> ".join(item.label if isinstance(item, Slot) else item for item in items)
-    for section in ("heaters", "coolers", "mixers", "splitters"):
+    for section in ("heaters", "coolers", "air_coolers", "mixers", "splitters"):
         if not b.case[section]:
             del b.case[section]
     return b.case
@@ -374,6 +406,7 @@ def _turnaround(b, path, c, cold_budget, hot_budget):
         b.new_path(recycle_branch).append(mixer)
         path = b.new_path(onward_branch)
         c = c * (1.0 - back)
+    b.maybe_air_cooler(path, "hot", c, 0.5)
     b.end_units(path, "cooler", c, 0.6)
     b.product(path)
 
@@ -431,8 +464,6 @@ def _exchanger_data(ch, c_min, arrangements=ARRANGEMENTS):
 
 PLATE_PAIRS = ((1, 1), (1, 2), (2, 1), (1, 3), (3, 1), (1, 4), (4, 1), (2, 2), (3, 3), (4, 4), (2, 3), (3, 2),
                (2, 4), (4, 2))
-AIR_COOLER_SETTINGS = ((1, 1), (3, 1), (6, 1), (2, 2), (4, 2), (3, 3), (4, 4), (5, 5))
-"""(tube rows, tube passes) of air-cooled bundles with a relation."""
 
 
 def _extended_options(ch, arrangement):
@@ -481,6 +512,44 @@ def _fill_heaters(b):
                 b.case[section][tag] = {"outlet_temperature": target}
             else:
                 b.case[section][tag] = {"duty": ch.real(2.0, 40.0) * s.c}
+
+
+def _fill_air_coolers(b):
+    """Each air-cooler slot's entry: bundle, air (a fixed flow or fan control) and one way to U."""
+    ch = b.ch
+    for i, s in enumerate(b.slots["air"]):
+        s.label = f"A-{301 + i}"
+        rows, passes = ch.choice(list(b.air_settings))
+        low = b.t_cool + 1.0 if b.cooler_mode == "target" else -10.0
+        air = {"inlet_temperature": ch.real(low, low + 55.0)}
+        cp = 1.006
+        if ch.chance(0.2):
+            air["cp"] = cp = ch.real(1.0, 1.03)
+        c_air = ch.real(0.3, 5.0) * s.c
+        flow = c_air / cp
+        if s.fan:
+            low = flow * ch.real(0.1, 1.0)
+            air["fan_control"] = {"outlet_temperature": air["inlet_temperature"] + ch.real(2.0, 80.0),
+                                  "minimum_flow": low, "maximum_flow": low * ch.real(1.5, 20.0)}
+        else:
+            air["flow"] = flow
+        ua = ch.real(0.1, 4.0) * min(s.c, c_air)
+        data = {"tube_rows": rows, "tube_passes": passes, "air": air}
+        form = ch.choice(["ua", "u", "clean_u"])
+        if form == "ua":
+            data["ua"] = ua
+        elif form == "u":
+            data["u"] = ch.real(300.0, 800.0)  # on the bare-tube area (keeps the area plausible)
+            data["area"] = ua * 1000.0 / data["u"]
+        else:
+            data["clean_u"], data["fouling"] = ch.real(400.0, 900.0), ch.real(0.0, 0.0005)
+            data["area"] = ua * 1000.0 * (1.0 / data["clean_u"] + data["fouling"])
+        b.case["air_coolers"][s.label] = data
+
+
+def air_temperatures(case):
+    """The air inlet temperatures of a case dict's air coolers (°C)."""
+    return [d["air"]["inlet_temperature"] for d in case.get("air_coolers", {}).values()]
 
 
 # ------------------------------------------------------------------------------------------
@@ -535,6 +604,8 @@ def features(case):
     for section in ("heaters", "coolers"):
         for data in case.get(section, {}).values():
             found.add(f"{section[:-1]} {'fixed duty' if 'duty' in data else 'target'}")
+    for data in case.get("air_coolers", {}).values():
+        found.add(f"air cooler {'fan control' if 'fan_control' in data['air'] else 'fixed air flow'}")
     paths = [d["path"] for section in ("streams", "mixers") for d in case.get(section, {}).values()]
     paths += [b["path"] for d in case.get("splitters", {}).values() for b in d["branches"].values()]
     order = {"hot": set(), "cold": set()}

@@ -27,7 +27,7 @@ import pytest
 from ht import hx
 from scipy.linalg import expm
 
-from hxtrain.network import case_from_mapping
+from hxtrain.network import CaseError, case_from_mapping
 from hxtrain.solver import simulate
 from hxtrain.units import pntu
 from hxtrain.units.pntu_air_cooler import AIR_COOLER_PASSES, p_air_cooler, p_air_cooler_air_basis
@@ -220,6 +220,21 @@ def test_the_fans_at_their_limits_say_so():
                                                          "maximum_flow": 400.0}}))
     assert "below_target_at_minimum_air" in set(cold_day.findings["kind"])
     assert cold_day.units.loc["A-1", "hot_out_c"] < 90.0
+
+
+def test_a_missing_fan_limit_is_named_and_not_taken_for_a_misspelling_of_the_other():
+    """'minimum_flow' and 'maximum_flow' are one edit-distance-2 apart: a fan control without its
+    maximum must say the maximum is missing (not call the minimum a misspelling of it), and a
+    really misspelt maximum is still named as one."""
+    fan = {"outlet_temperature": 60.0, "minimum_flow": 10.0}
+    with pytest.raises(CaseError) as missing:
+        air_cooler_case({"inlet_temperature": 35.0, "fan_control": fan})
+    message = str(missing.value)
+    assert "air_coolers.A-1.air.fan_control" in message and "missing key 'maximum_flow'" in message
+    assert "did you mean" not in message
+    with pytest.raises(CaseError) as misspelt:
+        air_cooler_case({"inlet_temperature": 35.0, "fan_control": {**fan, "maximun_flow": 400.0}})
+    assert "maximun_flow" in str(misspelt.value) and "did you mean 'maximum_flow'" in str(misspelt.value)
 
 
 def test_fouling_warms_the_outlet_or_costs_air():

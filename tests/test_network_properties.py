@@ -7,7 +7,9 @@ locally or around a whole feed-effluent loop), heaters (target outlet or fixed d
 coolers, every exchanger arrangement of the registry with the options each takes (TEMA E with 1,
 3 or 2-8 tube passes, F, G, H, J and X shells, crossflow mixed either way, plates by passes and
 flow directions, air-cooled bundles by rows and passes, shells in series in overall parallel
-flow: ``network_generator.EVERY_ARRANGEMENT``); up to about 50 units (at most 12 exchangers and 6 split or
+flow: ``network_generator.EVERY_ARRANGEMENT``), and air coolers (the ``air_coolers`` unit
+section: air as a utility with a fixed flow anywhere on a hot path, or with fan control at the
+end of one); up to about 50 units (at most 12 exchangers and 6 split or
 recycle blocks, to keep the default run near a minute). Every decision is a hypothesis draw,
 so a failing network shrinks to a small one.
 
@@ -15,11 +17,12 @@ Properties (GUIDE.md, "Tests"):
 
 * the solve converges (no exception) and the overall energy balance closes:
   ``result.balance['relative_imbalance'] <= 1e-9``;
-* second law: no exchanger moves heat from the colder to the hotter stream — ``duty_kw`` has the
-  sign of ``hot_in_c - cold_in_c`` and each side's outlet lies between the two inlets;
+* second law: no exchanger or air cooler moves heat from the colder to the hotter stream —
+  ``duty_kw`` has the sign of ``hot_in_c - cold_in_c`` (an air cooler: process in minus air in)
+  and each side's outlet (the process and the air) lies between the two inlets;
   (these first two are checked on every generated network, in all three tests below)
-* every stream temperature lies in the envelope [min, max] of the supply temperatures and the
-  heater/cooler target temperatures. Fixed duties can leave that envelope, so this property is
+* every stream temperature lies in the envelope [min, max] of the supply temperatures, the
+  heater/cooler target temperatures and the air coolers' air temperatures. Fixed duties can leave that envelope, so this property is
   checked on networks generated **without fixed-duty heaters or coolers** (``fixed_duty=False``);
 * the result does not depend on the order in which the case lists its units: every section's
   entries, every splitter's branches and the top-level keys shuffled give the same segment
@@ -43,8 +46,8 @@ from hypothesis import strategies as st
 from hxtrain.network import case_from_mapping
 from hxtrain.solver import simulate
 
-from network_generator import EVERY_ARRANGEMENT, DrawChooser, RandomChooser, generate_case, has_fixed_duty, record, \
-    shuffled
+from network_generator import AIR_COOLER_KINDS, EVERY_ARRANGEMENT, DrawChooser, RandomChooser, air_temperatures, \
+    generate_case, has_fixed_duty, record, shuffled
 
 ENERGY_CLOSURE = 1e-9
 """Largest relative imbalance accepted (the sequential-modular answer is polished to round-off)."""
@@ -55,7 +58,8 @@ SLACK_K = 1e-9
 @st.composite
 def networks(draw, fixed_duty=True):
     """A valid generated case dict (see network_generator.generate_case)."""
-    return generate_case(DrawChooser(draw), fixed_duty=fixed_duty, arrangements=EVERY_ARRANGEMENT)
+    return generate_case(DrawChooser(draw), fixed_duty=fixed_duty, arrangements=EVERY_ARRANGEMENT,
+                         air_coolers=AIR_COOLER_KINDS)
 
 
 def _run(data, test_name, events=True):
@@ -78,10 +82,11 @@ def check_converged_and_energy_closes(result):
 
 
 def check_no_heat_flows_uphill(result, data):
-    """Second law per exchanger: sign(duty) = sign(T_hot,in − T_cold,in) (zero duty only at equal
-    inlets), and both outlets between the two inlet temperatures."""
-    ex = result.units[result.units["type"] == "exchanger"]
-    assert len(ex) == len(data["exchangers"])
+    """Second law per exchanger and air cooler: sign(duty) = sign(T_hot,in − T_cold,in) (zero
+    duty only at equal inlets), and both outlets between the two inlet temperatures (an air
+    cooler's hot side is the process, its cold side the air)."""
+    ex = result.units[result.units["type"].isin(["exchanger", "air cooler"])]
+    assert len(ex) == len(data["exchangers"]) + len(data.get("air_coolers", {}))
     for tag, row in ex.iterrows():
         difference = row["hot_in_c"] - row["cold_in_c"]
         duty = row["duty_kw"]
@@ -106,10 +111,15 @@ def test_converges_closes_energy_and_moves_heat_only_downhill(data):
 @given(networks(fixed_duty=False))
 def test_temperatures_stay_inside_supply_and_target_envelope(data):
     """No fixed duties (by construction): every segment temperature within [min, max] of the supply
-    temperatures and the heater/cooler target temperatures."""
+    temperatures, the heater/cooler target temperatures and the air temperatures."""
     assert not has_fixed_duty(data)
     _, result = _run(data, "inside_envelope")
-    levels = [s["supply_temperature"] for s in data["streams"].values()]
+    check_inside_envelope(result, data)
+
+
+def check_inside_envelope(result, data):
+    """Every segment temperature within [min, max] of the supply, target and air temperatures."""
+    levels = [s["supply_temperature"] for s in data["streams"].values()] + air_temperatures(data)
     for section in ("heaters", "coolers"):
         levels += [d["outlet_temperature"] for d in data.get(section, {}).values()]
     t = result.streams["temperature_c"]
@@ -136,8 +146,33 @@ def test_every_arrangement_in_generated_networks(arrangement, seed):
     assert {e["arrangement"] for e in data["exchangers"].values()} == {arrangement}
 
 
+@pytest.mark.parametrize("seed", [1, 2, 3])
+@pytest.mark.parametrize("kinds", [("fixed",), ("fan",), AIR_COOLER_KINDS])
+def test_air_coolers_in_generated_networks(kinds, seed):
+    """Air coolers for certain (the draws above reach them only by chance): networks of every
+    arrangement with air coolers of the kinds asked for (a fixed air flow, fan control, both) pass
+    the same properties: convergence with energy closure to 1e-9, no heat moved uphill in any
+    exchanger or air cooler, order independence to 1e-9 K; and, without fixed duties, the
+    envelope of supply, target and air temperatures."""
+    found, checked = set(), 0
+    for draw in range(10):  # fixed seeds, every network checked, until both duty modes and each kind are seen
+        fixed_duty = draw % 2 == 0
+        chooser = RandomChooser(1000 * seed + 100 * draw + 10 * len(kinds) + AIR_COOLER_KINDS.index(kinds[0]))
+        data = generate_case(chooser, max_exchangers=8, fixed_duty=fixed_duty, arrangements=EVERY_ARRANGEMENT,
+                             air_coolers=kinds)
+        result = check_order_independent(data, seed, f"air coolers {'+'.join(kinds)}", events=False)
+        if not fixed_duty:
+            check_inside_envelope(result, data)
+        found |= {"fan" if "fan_control" in d["air"] else "fixed" for d in data.get("air_coolers", {}).values()}
+        checked += 1
+        if checked >= 2 and found == set(kinds):
+            break
+    assert found == set(kinds), (found, kinds)
+
+
 def check_order_independent(data, seed, test_name, events=True):
-    """The checks of :func:`_run` and the same network shuffled (``seed``) matching it."""
+    """The checks of :func:`_run` and the same network shuffled (``seed``) matching it; returns the
+    first result."""
     _, first = _run(data, test_name, events)
     other = shuffled(data, random.Random(seed))
     second = simulate(case_from_mapping(other, "<shuffled>"))
@@ -146,3 +181,4 @@ def check_order_independent(data, seed, test_name, events=True):
     assert a.index.is_unique and set(a.index) == set(b.index)
     difference = (a - b.loc[a.index]).abs()
     assert difference.max() <= SLACK_K, difference.sort_values().tail(5)
+    return first
