@@ -47,6 +47,12 @@ UNIT_COLUMNS = {
     "deviation": "target_deviation_k",
     "t_in": "inlet_c",
     "t_out": "outlet_c",
+    "wash_water_in": "wash_water_in_c",
+    "crude_drop": "crude_drop_k",
+    "brine_flow": "brine_kg_s",
+    "t_sat": "steam_saturation_c",
+    "steam_flow": "steam_kg_s",
+    "steam_t_h": "steam_t_h",
 }
 """Report quantity -> column of the units table (P, R and NTU on the hot-side basis)."""
 SCALE = {"dp_shell": 1e-3, "dp_tube": 1e-3}
