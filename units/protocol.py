@@ -215,8 +215,8 @@ class UnitModel(Protocol):
     kind: str
     """What the unit is, in words for the results table ("exchanger", "heater", ...)."""
     group: str
-    """The results section it is shown in: ``exchangers``, ``heaters_and_coolers``, ``products``
-    or ``nodes`` (supplies, mixers, splitters)."""
+    """The results section it is shown in: ``exchangers``, ``heaters_and_coolers``, ``products``,
+    ``separators`` (desalters) or ``nodes`` (supplies, mixers, splitters)."""
     key: str
     inlets: tuple[str, ...]
     outlets: tuple[str, ...]
