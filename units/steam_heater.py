@@ -26,7 +26,6 @@ from __future__ import annotations
 
 import numpy as np
 
-from .properties import PHYSICAL_RANGE
 from .protocol import OTHER_HEATERS, Parameter, check
 from .stream_units import Heater
 from .water_steam import saturation_enthalpies, saturation_temperature
@@ -70,11 +69,7 @@ class SteamHeater(Heater):
         self.total = OTHER_HEATERS
 
     def parameters(self):
-        if self.ua is not None:
-            return (Parameter("ua", "conductance", 0.0),)
-        if self.target is not None:
-            return (Parameter("outlet_temperature", "temperature", PHYSICAL_RANGE[0], PHYSICAL_RANGE[1]),)
-        return (Parameter("duty", "duty", 0.0),)
+        return (Parameter("ua", "conductance", 0.0),) if self.ua is not None else super().parameters()
 
     def set_parameter(self, name, values):
         if name == "ua" and self.ua is not None:
@@ -151,7 +146,8 @@ class SteamHeater(Heater):
         flows = m > 0.0
         if self.target is not None:
             target = np.broadcast_to(self.target, t.shape)
-            return [check("above_steam_saturation", "input", (target >= t_sat) & flows, f"{self.key}.outlet_temperature",
+            return [check("above_steam_saturation", "input", (target >= t_sat) & flows,
+                          f"{self.key}.outlet_temperature",
                           "the outlet temperature {target:.2f} °C is at or above the saturation temperature of the "
                           f"steam ({t_sat:.2f} °C at {pressure:g} kPa): condensing steam cannot heat the stream "
                           "there; raise the steam pressure or lower the outlet temperature", target=target)]

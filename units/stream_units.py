@@ -119,7 +119,8 @@ class Splitter(UnitBase):
         self._update()
 
     def _update(self):
-        shares = dict(zip(self.shared, shared_fractions(self.shared, self.base, self.given) if self.given else self.base))
+        fractions = shared_fractions(self.shared, self.base, self.given) if self.given else self.base
+        shares = dict(zip(self.shared, fractions))
         zero = np.zeros(())
         self.fractions = np.stack(np.broadcast_arrays(*(shares.get(b, zero) for b in self.outlets)), axis=-1)
         taken = sum(self.set_flows.values()) if self.set_flows else zero
@@ -330,8 +331,9 @@ class Heater(UnitBase):
                       + f" the {self.kind}'s outlet temperature of {{target:.2f}} °C, so the {self.kind} idles "
                         "at zero duty", target=target, t=t))
         elif self.duty is not None:
-            findings.append(check("duty_without_flow", "input", (m <= 0.0) & (np.broadcast_to(self.duty, t.shape) != 0.0),
-                                  f"{self.key}.duty", f"the {self.kind} has a fixed duty but no flow through it"))
+            without_flow = (m <= 0.0) & (np.broadcast_to(self.duty, t.shape) != 0.0)
+            findings.append(check("duty_without_flow", "input", without_flow, f"{self.key}.duty",
+                                  f"the {self.kind} has a fixed duty but no flow through it"))
         return findings
 
 
