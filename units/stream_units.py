@@ -313,6 +313,7 @@ class Heater(UnitBase):
         quantities = {"duty": duty, f"t_{side}_in": t, f"t_{side}_out": t_out}
         heat_added = np.where(m > 0.0, added + self._change_heat(t, m, inlets.fluids[0]), 0.0)
         labels = {"heat_source": self.heat_source} if self.heat_source else {}
+        labels.update({"outlet_fluid": name for name in self.outlet_fluids.values()})
         return UnitReport(quantities, self._findings(t, m, t_out, idle), heat_added=heat_added, labels=labels,
                           totals={self.total: np.where(m > 0.0, duty, 0.0)},
                           metrics={"duty": duty, "inlet": t, "outlet": t_out},

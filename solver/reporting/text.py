@@ -27,7 +27,8 @@ SERVICE_WORDS = {"u_source": "U from", "u_service_w_m2k": "U service", "u_clean_
                  "fouling_shell_m2k_w": "fouling shell", "fouling_tube_m2k_w": "fouling tube",
                  "h_shell_w_m2k": "h shell", "h_tube_w_m2k": "h tube", "re_tube": "Re tube",
                  "dp_shell_kpa": "dp shell", "dp_tube_kpa": "dp tube"}
-ONE_STREAM_WORDS = {"type": "type", "heat_source": "heat source", "duty_kw": "duty", "in_c": "inlet",
+ONE_STREAM_WORDS = {"type": "type", "heat_source": "heat source", "outlet_fluid": "outlet fluid", "duty_kw": "duty",
+                    "in_c": "inlet",
                     "out_c": "outlet", "ua_kw_per_k": "UA", "effectiveness": "effectiveness",
                     "steam_saturation_c": "steam at", "steam_kg_s": "steam", "steam_t_h": "steam t/h",
                     "findings": "findings"}

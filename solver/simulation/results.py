@@ -159,7 +159,7 @@ def tabulate(evaluation: Evaluation, k: int = 0) -> SimulationResult:
             notes.setdefault(name, []).append(finding.kind)
     for name, row in rows.items():
         row["findings"] = ", ".join(notes.get(name, []))
-    columns = ["type", "group", "u_source", "heat_source", *UNIT_COLUMNS.values(), "findings"]
+    columns = ["type", "group", "u_source", "heat_source", "outlet_fluid", *UNIT_COLUMNS.values(), "findings"]
     units = pd.DataFrame.from_dict(rows, orient="index", columns=columns).dropna(axis=1, how="all")
     units.index.name = "unit"
     findings_table = pd.DataFrame(findings, columns=["unit", "severity", "kind", "key", "message"])
