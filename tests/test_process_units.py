@@ -310,6 +310,7 @@ def test_steam_heater_by_ua_follows_the_isothermal_effectiveness_exactly():
     h_l, h_v = saturation_enthalpies(1000.0)
     assert row["steam_kg_s"] == pytest.approx(row["duty_kw"] / (h_v - h_l), rel=1e-13)
     assert row["steam_t_h"] == pytest.approx(3.6 * row["steam_kg_s"], rel=1e-13)
+    assert row["condensate_kg_s"] == row["steam_kg_s"]
     assert row["steam_saturation_c"] == pytest.approx(t_sat)
     assert closes(result)
     assert float(isothermal_effectiveness(1e-12)) == pytest.approx(1e-12, rel=1e-9)

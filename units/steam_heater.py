@@ -32,8 +32,8 @@ from .water_steam import saturation_enthalpies, saturation_temperature
 
 __all__ = ["SteamHeater", "isothermal_effectiveness"]
 
-SECONDS_PER_HOUR_IN_TONNES = 3.6
-"""kg/s to t/h."""
+TONNES_PER_HOUR_PER_KG_S = 3.6
+"""t/h in one kg/s."""
 
 
 def isothermal_effectiveness(ntu):
@@ -125,8 +125,9 @@ class SteamHeater(Heater):
         t, m = inlets.t[:, 0], inlets.m[:, 0]
         t_out = report.quantities["t_cold_out"]
         steam = np.where(m > 0.0, report.quantities["duty"], 0.0) / self.latent_heat
-        report.quantities.update(steam_flow=steam, steam_t_h=steam * SECONDS_PER_HOUR_IN_TONNES,
-                                 t_sat=np.full(t.shape, self.t_sat))
+        # the steam condenses whole: the condensate leaves at the steam's flow, saturated at t_sat
+        report.quantities.update(steam_flow=steam, steam_t_h=steam * TONNES_PER_HOUR_PER_KG_S,
+                                 condensate_flow=steam, t_sat=np.full(t.shape, self.t_sat))
         if self.ua is not None:
             approach = self.t_sat - t
             report.quantities["ua"] = np.broadcast_to(self.ua, t.shape)

@@ -31,6 +31,7 @@ ONE_STREAM_WORDS = {"type": "type", "heat_source": "heat source", "outlet_fluid"
                     "in_c": "inlet",
                     "out_c": "outlet", "ua_kw_per_k": "UA", "effectiveness": "effectiveness",
                     "steam_saturation_c": "steam at", "steam_kg_s": "steam", "steam_t_h": "steam t/h",
+                    "condensate_kg_s": "condensate",
                     "findings": "findings"}
 SEPARATOR_WORDS = {"type": "type", "inlet_c": "crude in", "wash_water_in_c": "wash water in", "outlet_c": "outlet",
                    "crude_drop_k": "crude drop", "brine_kg_s": "brine", "findings": "findings"}

@@ -52,6 +52,7 @@ UNIT_COLUMNS = {
     "brine_flow": "brine_kg_s",
     "t_sat": "steam_saturation_c",
     "steam_flow": "steam_kg_s",
+    "condensate_flow": "condensate_kg_s",
     "steam_t_h": "steam_t_h",
 }
 """Report quantity -> column of the units table (P, R and NTU on the hot-side basis)."""
