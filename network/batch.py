@@ -6,7 +6,10 @@ Only values that leave the topology and the calculation order alone can vary acr
 * ``exchangers.TAG.ua`` (kW/K, where given), ``exchangers.TAG.u`` (W/m²·K, a fixed U),
   ``exchangers.TAG.fouling.shell`` / ``.tube`` (m²·K/W), ``exchangers.TAG.bypass.hot`` / ``.cold``
 * ``heaters.TAG.outlet_temperature`` / ``.duty`` and the same for ``coolers``
-* ``splitters.NAME.branches.BRANCH.fraction`` (the other branches rescale to sum to one)
+* ``splitters.NAME.branches.BRANCH.fraction`` (the other branches rescale to sum to one) and
+  ``splitters.NAME.branches.BRANCH.flow`` (a branch set by flow)
+* ``steam_heaters.TAG.outlet_temperature`` / ``.duty`` / ``.ua``
+* ``desalters.TAG.carry_over`` / ``.heat_loss``
 
 Values are numbers in the default units. Each path's smallest and largest values are checked
 like case-file values before anything runs (the checks are ranges, so the rest pass too).
@@ -28,6 +31,8 @@ BATCHABLE = (
     "exchangers.TAG.fouling.shell", "exchangers.TAG.fouling.tube", "exchangers.TAG.bypass.hot",
     "exchangers.TAG.bypass.cold", "heaters.TAG.outlet_temperature", "heaters.TAG.duty",
     "coolers.TAG.outlet_temperature", "coolers.TAG.duty", "splitters.NAME.branches.BRANCH.fraction",
+    "splitters.NAME.branches.BRANCH.flow", "steam_heaters.TAG.outlet_temperature", "steam_heaters.TAG.duty",
+    "steam_heaters.TAG.ua", "desalters.TAG.carry_over", "desalters.TAG.heat_loss",
 )
 
 

@@ -76,6 +76,13 @@ NUMERIC_KEYS = {
     "heaters|coolers.*.duty": q.DUTY,
     "heaters|coolers.*.outlet_temperature|design_temperature": q.TEMPERATURE,
     "splitters.*.branches.*.fraction": q.FRACTION,
+    "splitters.*.branches.*.flow": q.MASS_FLOW,
+    "steam_heaters.*.steam_pressure": q.STEAM_PRESSURE,
+    "steam_heaters.*.outlet_temperature|design_temperature": q.TEMPERATURE,
+    "steam_heaters.*.duty": q.DUTY,
+    "steam_heaters.*.ua": q.CONDUCTANCE,
+    "desalters.*.carry_over": q.FRACTION,
+    "desalters.*.heat_loss": q.DUTY,
     "products.*.target_temperature": q.TEMPERATURE,
 }
 """Every numeric key of a case file (README.md, "Keys") and the kind of quantity it holds:
@@ -118,7 +125,8 @@ def _closest_numeric_keys(parts) -> str:
         return f" (did you mean {' or '.join(close)}?)"
     section = sorted({".".join("|".join(c) if c else "NAME" for c in p) for p in _PATTERNS if parts[0] in p[0]})
     return f"; numeric keys there: {', '.join(s.split('.', 2)[-1] for s in section)}" if section else (
-        "; numeric keys are under settings, fluids, streams, exchangers, heaters, coolers, splitters and products")
+        "; numeric keys are under settings, fluids, streams, exchangers, heaters, coolers, steam_heaters, "
+        "desalters, splitters and products")
 
 
 def nearest_paths(data, parts, depth) -> list[str]:
@@ -333,8 +341,14 @@ def value_changes(data: dict, path, value, where=()) -> list:
         branches = found.get("branches") if isinstance(found, dict) else None
         if not isinstance(branches, dict) or branch not in branches:
             raise CaseError(f"no branch '{branch}' of splitter '{splitter}'", path=where)
-        base = {b: case_number((v if isinstance(v, dict) else {}).get("fraction"), q.FRACTION,
-                               f"splitters.{splitter}.branches.{b}.fraction", where) for b, v in branches.items()}
+        if isinstance(branches[branch], dict) and "flow" in branches[branch]:
+            raise CaseError(f"branch '{branch}' of splitter '{splitter}' is set by flow: vary its "
+                            f"splitters.{splitter}.branches.{branch}.flow instead", path=where)
+        sharing = {b: v for b, v in branches.items() if not (isinstance(v, dict) and "flow" in v)}
+        lone = len(sharing) == 1 and len(sharing) < len(branches)  # the one branch taking the rest
+        base = {b: 1.0 if lone and (v or {}).get("fraction") is None else
+                case_number((v if isinstance(v, dict) else {}).get("fraction"), q.FRACTION,
+                            f"splitters.{splitter}.branches.{b}.fraction", where) for b, v in sharing.items()}
         shares = rescaled_branches(base, branch, value)
         return [{"set": f"splitters.{splitter}.branches.{b}.fraction", "to": float(v)} for b, v in shares.items()]
     return [{"set": path, "to": value}]

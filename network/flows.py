@@ -17,6 +17,15 @@ grows with the number of segments and coefficients, not with their square:
 * split fractions varied: each scenario has its own matrix; the scenarios' matrices are solved
   together as one block-diagonal sparse system (in chunks), never as a dense matrix.
 
+A unit with inlets may also add a flow of its own to an outlet (``supplied_flow``): a splitter
+branch set by flow carries its set flow whatever enters, and the branches left take the rest, so
+flows are affine in the supplies. Those terms enter the totals as supplies of their own; the
+make-up of each segment (which supplies it carries) then comes from a second solve in which such
+a unit divides its inlet in the proportions the totals found. A unit's outlet may also start a
+new fluid (a reactor's effluent is not its feed: ``restarts``): in that second solve the outlet
+is cut from what feeds it and carries its total flow as a supply of the new fluid's group, so
+mass is conserved and what lies downstream carries the new fluid.
+
 A scenario whose matrix is singular (a recycle returning all of its flow) or whose flows do not
 balance is marked not valid with its reason; nothing is raised here.
 """
@@ -52,39 +61,100 @@ class FlowSolution:
     reaches (a blend)."""
 
 
-def solve_flows(units, inlets, outlets, segments: int, batch: int, groups=None) -> FlowSolution:
+def solve_flows(units, inlets, outlets, segments: int, batch: int, groups=None, restarts=None) -> FlowSolution:
     """Flows of every segment in every scenario through the units' flow coefficients.
 
     ``units`` maps names to unit models; ``inlets``/``outlets`` give each unit's segment
     indices in port order. A unit without inlets is a supply; ``groups`` gives each supply (in
-    the order of ``units``) a group number (all 0 without it)."""
+    the order of ``units``) a group number (all 0 without it). ``restarts`` maps a segment that
+    starts a new fluid (a fluid-changing unit's outlet) to the group of that fluid."""
     sources = [name for name, u in units.items() if not u.inlets]
     groups = np.zeros(len(sources), int) if groups is None else np.asarray(groups, int)
     supplies = np.stack([np.broadcast_to(np.asarray(units[s].supplied_flow(), float)[..., 0], (batch,))
                          for s in sources], axis=1)
     entry = np.array([outlets[s][0] for s in sources], int)  # the segment each supply feeds
     coefficients = {name: np.asarray(u.flow_coefficients(), dtype=float) for name, u in units.items()}
-    rows, cols, values = _pattern(coefficients, inlets, outlets, segments, batch)
+    offsets = _offsets(units, outlets, batch)
+    restarts = dict(restarts or {})
     valid = np.ones(batch, bool)
     message = np.full(batch, "", dtype=object)
-    if values.ndim == 1:
-        flow, carried, makeup = _fixed_splits(rows, cols, values, segments, entry, supplies, groups, valid, message)
+    if offsets or restarts:
+        count = groups.max(initial=max(restarts.values(), default=0)) + 1
+        segs = np.array(sorted(offsets), int)
+        added = np.stack([offsets[s] for s in segs], axis=1) if offsets else np.zeros((batch, 0))
+        flow = _solve(coefficients, inlets, outlets, segments, batch, np.concatenate([entry, segs]),
+                      np.hstack([supplies, added]), np.concatenate([groups, np.full(segs.size, count)]),
+                      valid, message)[0]
+        ends = np.array(sorted(restarts), int)
+        _, carried, makeup = _solve(
+            _proportions(units, coefficients, inlets, outlets, flow), inlets, outlets, segments, batch,
+            np.concatenate([entry, ends]), np.hstack([supplies, flow[:, ends]]),
+            np.concatenate([groups, [restarts[s] for s in ends]]).astype(int), valid.copy(), message.copy(),
+            cut=set(restarts), count=count)
     else:
-        flow, carried, makeup = _varied_splits(rows, cols, values, segments, entry, supplies, groups, valid, message)
+        flow, carried, makeup = _solve(coefficients, inlets, outlets, segments, batch, entry, supplies, groups, valid,
+                                       message)
     flow = np.asfortranarray(flow)
     _check_balance(units, inlets, flow, supplies, valid, message)
     return FlowSolution(flow, carried, valid, message, makeup)
 
 
+def _solve(coefficients, inlets, outlets, n, batch, entry, supplies, groups, valid, message, cut=(), count=None):
+    """Flows, groups carried and make-up, through one factorization (fixed coefficients) or the
+    block-diagonal solve (coefficients varied by scenario). ``cut``: segments fed by their supply
+    alone (their rows of the coefficient matrix left out); ``count``: how many groups to report."""
+    rows, cols, values = _pattern(coefficients, inlets, outlets, n, batch, cut)
+    solve = _fixed_splits if values.ndim == 1 else _varied_splits
+    flow, carried, makeup = solve(rows, cols, values, n, entry, supplies, groups, valid, message)
+    if count is not None and carried.shape[1] < count:
+        carried = np.hstack([carried, np.zeros((n, count - carried.shape[1]), bool)])
+        makeup = {s: np.hstack([v, np.zeros((v.shape[0], count - v.shape[1]))]) for s, v in makeup.items()}
+    return flow, carried, makeup
+
+
+def _offsets(units, outlets, batch) -> dict:
+    """segment -> (batch,) flow that a unit with inlets adds to that outlet (a splitter branch
+    set by flow: + on the set branch, - on the branches that take the rest)."""
+    offsets = {}
+    for name, unit in units.items():
+        if not unit.inlets:
+            continue
+        added = np.asarray(unit.supplied_flow(), dtype=float)
+        for o, seg in enumerate(outlets[name]):
+            if np.any(added[..., o] != 0.0):
+                offsets[seg] = np.broadcast_to(added[..., o], (batch,)).astype(float)
+    return offsets
+
+
+def _proportions(units, coefficients, inlets, outlets, flow) -> dict:
+    """The coefficients with each unit that adds flows of its own (one inlet) dividing its inlet
+    in the proportions the solved flows give, scenario by scenario: what the make-up follows."""
+    result = dict(coefficients)
+    for name, unit in units.items():
+        if not unit.inlets or not np.any(np.asarray(unit.supplied_flow()) != 0.0):
+            continue
+        if len(unit.inlets) != 1:
+            raise ValueError(f"{name}: a unit that adds flows of its own must have one inlet")
+        m_in = flow[:, inlets[name][0]]
+        m_out = flow[:, outlets[name]]
+        base = np.broadcast_to(coefficients[name][..., 0], m_out.shape)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            shares = np.where((m_in > 0.0)[:, None], m_out / np.where(m_in > 0.0, m_in, 1.0)[:, None], base)
+        result[name] = np.nan_to_num(shares)[..., None]
+    return result
+
+
 _SINGULAR = "the flows cannot be balanced: a recycle returns all of its flow (check the splitter fractions)"
 
 
-def _pattern(coefficients, inlets, outlets, n, batch):
+def _pattern(coefficients, inlets, outlets, n, batch, cut=()):
     """The entries of ``I - A``: rows, columns and values (one value per entry, or (batch,
-    entries) where some coefficient varies by scenario)."""
+    entries) where some coefficient varies by scenario); the rows of ``cut`` keep only their 1."""
     rows, cols, vals = list(range(n)), list(range(n)), [np.ones(())] * n
     for name, c in coefficients.items():
         for o, seg_out in enumerate(outlets[name]):
+            if seg_out in cut:
+                continue
             for i, seg_in in enumerate(inlets[name]):
                 value = c[..., o, i]
                 if np.any(value != 0.0):

@@ -4,7 +4,8 @@ the flows of every segment (solved before any temperature).
 Flows are linear in the supplies and independent of temperature: each segment's flow is its
 unit's flow coefficients times the unit's inlet flows, plus what the unit supplies. Solving that
 linear system (:mod:`.flows`) gives each segment's flow and which supplies it carries, hence its
-cp (the supplies' fluids blended by mass). Recycles need no iteration here.
+cp (the supplies' fluids blended by mass; where a unit's outlet carries a fluid of its own, a
+reactor's effluent, that fluid starts there). Recycles need no iteration here.
 """
 
 from __future__ import annotations
@@ -158,7 +159,7 @@ def check_way_out(net: Network):
         coefficients = np.asarray(unit.flow_coefficients())
         supplied = np.asarray(unit.supplied_flow())
         for out_index, seg_index in enumerate(net.outlets[name]):
-            if supplied[out_index] > 0.0 or np.any(coefficients[out_index] > 0.0):
+            if np.any(supplied[..., out_index] > 0.0) or np.any(coefficients[..., out_index, :] > 0.0):
                 feeders[net.segments[seg_index].target].append(name)
     can_leave = {n for n, u in net.units.items() if not u.outlets}
     frontier = list(can_leave)
@@ -184,7 +185,10 @@ def _solve_flows(net: Network):
     labels: dict = {}
     groups = [labels.setdefault((net.case.streams[s]["fluid"], bool(net.case.streams[s].get("utility"))),
                                 len(labels)) for s in sources]
-    solution = solve_flows(net.units, net.inlets, net.outlets, len(net.segments), net.batch, groups)
+    restarts = {net.outlets[name][unit.outlets.index(port)]: labels.setdefault((fluid, False), len(labels))
+                for name, unit in net.units.items() for port, fluid in unit.outlet_fluids.items()}
+    solution = solve_flows(net.units, net.inlets, net.outlets, len(net.segments), net.batch, groups, restarts)
+    _check_unit_flows(net, solution.flow)
     bad = net.valid & ~solution.valid
     if np.any(bad):
         key = _recycle_key(net)
@@ -200,6 +204,19 @@ def _solve_flows(net: Network):
     net.utility = np.array([bool(np.any(row)) and bool(np.all(is_utility[row])) for row in solution.carried])
     for name, unit in net.units.items():
         unit.carry_utility(port for port, seg in zip(unit.inlets, net.inlets[name]) if net.utility[seg])
+
+
+def _check_unit_flows(net: Network, flow):
+    """Each unit's own checks on the flows it was given (a splitter whose inlet carries less
+    than its branches set by flow take): the scenarios they find are not valid, with the unit's
+    reason and key; they come before the general balance check, whose reason is vaguer."""
+    for name, unit in net.units.items():
+        m_in = flow[:, net.inlets[name]]
+        m_out = flow[:, net.outlets[name]]
+        for finding in unit.check_flows(m_in, m_out):
+            for k in np.flatnonzero(finding.active & net.valid):
+                net.message[k], net.reason_key[k] = finding.messages[k], tuple(finding.key.split("."))
+            net.valid = net.valid & ~finding.active
 
 
 def segment_fluid(case: Case, group_fluids, carried, makeup=None, fallback=None):

@@ -79,6 +79,9 @@ AREA = Kind("an area", "m^2", '250 or "2700 ft^2"', low=0.01, high=5e4,
             basis="a small hairpin ~0.5 m² to the largest shells, a few thousand m²: common practice")
 CONDUCTANCE = Kind("a conductance UA", "kW/delta_degC", '85 or "160000 Btu/h/degF"', low=0.0, high=1e6,
                    basis="100 times the largest exchanger banks (~1e4 kW/K): common practice")
+STEAM_PRESSURE = Kind("an absolute steam pressure", "kPa", '1000 or "10 bar"', low=1.0, high=22000.0,
+                      basis="saturated steam by IAPWS-IF97 from 1 kPa (7 °C) to just below the critical pressure "
+                            "of water, 22 064 kPa")
 FRACTION = Kind("a fraction", "dimensionless", '0.4 or "40 %"', low=0.0, high=1.0, basis="a share lies from 0 to 1",
                 least_nonzero=2.2e-16)
 """A share below the spacing of floating-point numbers at 1 vanishes against its complement
@@ -274,6 +277,7 @@ PLAIN_FACTORS = {
     **{(unit, "Pa*s"): factor for unit, factor in (("cP", 1e-3), ("mPa*s", 1e-3), ("Pa*s", 1.0))},
     **{(unit, "kg/s"): factor for unit, factor in (("t/h", 1 / 3.6), ("kg/h", 1 / 3600), ("kg/s", 1.0))},
     **{(unit, "Pa"): factor for unit, factor in (("bar", 1e5), ("kPa", 1e3), ("MPa", 1e6), ("Pa", 1.0))},
+    **{(unit, "kPa"): factor for unit, factor in (("bar", 100.0), ("kPa", 1.0), ("MPa", 1e3))},
     **{(unit, "kW"): factor for unit, factor in (("kW", 1.0), ("MW", 1e3), ("W", 1e-3))},
     **{(unit, "m"): factor for unit, factor in (("mm", 1e-3), ("cm", 1e-2), ("m", 1.0))},
     **{(unit, "s"): factor for unit, factor in (("s", 1.0), ("min", 60.0), ("h", 3600.0), ("day", 86400.0))},

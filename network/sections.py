@@ -14,6 +14,9 @@ from dataclasses import dataclass, field
 from typing import Callable
 
 from hxtrain.units import stream_units
+from hxtrain.units.desalter import Desalter
+from hxtrain.units.steam_heater import SteamHeater
+from hxtrain.units.water_steam import saturation_temperature
 from hxtrain.units.exchanger_model import Exchanger
 from hxtrain.units.protocol import HEAT_SOURCES, UnitModel
 
@@ -22,6 +25,11 @@ from .air_coolers import build_air_cooler, read_air_cooler
 from .exchangers import SIDES, read_exchanger
 from .fields import Fields
 from .paths import Origin, read_path
+
+
+DESALTER_SIDES = Desalter.inlets
+"""A desalter's sides: the crude passes through ``crude``, the wash water enters by ``water``
+and leaves as brine."""
 
 
 @dataclass
@@ -104,13 +112,14 @@ def _build_exchanger(name, key, data, building):
     return Exchanger(name, key, spec, minimum_approach=s.minimum_approach, minimum_f=s.minimum_f, limits=data["limits"])
 
 
-def _read_one_side_unit(f: Fields, heater: bool) -> dict:
+def _read_one_side_unit(f: Fields, heater: bool, reading: Reading) -> dict:
     if f.has("duty") == f.has("outlet_temperature"):
         raise f.error(None, "give exactly one of 'duty' (kW) and 'outlet_temperature' (°C)")
     data = {
         "duty": f.quantity("duty", q.DUTY, required=False),
         "outlet_temperature": f.quantity("outlet_temperature", q.TEMPERATURE, required=False),
         "design_temperature": f.quantity("design_temperature", q.TEMPERATURE, required=False),
+        "outlet_fluid": f.defined_name("outlet_fluid", sorted(reading.fluids), required=False),
     }
     if heater:
         data["heat_source"] = f.choice("heat_source", HEAT_SOURCES, required=False, default="fired")
@@ -120,19 +129,28 @@ def _read_one_side_unit(f: Fields, heater: bool) -> dict:
 
 
 def _read_heater(f: Fields, reading: Reading) -> dict:
-    return _read_one_side_unit(f, heater=True)
+    return _read_one_side_unit(f, True, reading)
 
 
 def _read_cooler(f: Fields, reading: Reading) -> dict:
-    return _read_one_side_unit(f, heater=False)
+    return _read_one_side_unit(f, False, reading)
+
+
+def _with_outlet_fluid(data, building) -> dict:
+    """The entry's data with its outlet fluid's name turned into the fluid model and its name."""
+    data = dict(data)
+    name = data.pop("outlet_fluid", None)
+    if name is not None:
+        data.update(outlet_fluid=building.case.fluids[name], outlet_fluid_name=name)
+    return data
 
 
 def _build_heater(name, key, data, building):
-    return stream_units.Heater(name, key, **data)
+    return stream_units.Heater(name, key, **_with_outlet_fluid(data, building))
 
 
 def _build_cooler(name, key, data, building):
-    return stream_units.Heater(name, key, cooler=True, **data)
+    return stream_units.Heater(name, key, cooler=True, **_with_outlet_fluid(data, building))
 
 
 def _read_mixer(f: Fields, reading: Reading) -> dict:
@@ -147,25 +165,38 @@ def _build_mixer(name, key, data, building):
 
 
 def _read_splitter(f: Fields, reading: Reading) -> dict:
-    branches = f.named_entries("branches", "branch names to their fraction and path")
+    branches = f.named_entries("branches", "branch names to their fraction (or set flow) and path")
     if not branches:
         raise f.error("branches", "a splitter needs at least one branch")
-    fractions = {}
+    by_flow = [branch for branch, b in branches if b.has("flow")]
+    if by_flow and len(by_flow) == len(branches):
+        raise f.error("branches", "every branch is set by flow: at least one branch must take the rest (give it a "
+                                  "'fraction' instead of a 'flow')")
+    lone = len(branches) - len(by_flow) == 1  # one branch takes all the rest: its fraction is 1
+    fractions, set_flows = {}, {}
     for branch, b in branches:
-        fractions[branch] = b.quantity("fraction", q.FRACTION)
+        if branch in by_flow:
+            if b.has("fraction"):
+                raise b.error("fraction", "give a branch either a 'fraction' or a set 'flow' (kg/s), not both")
+            set_flows[branch] = b.quantity("flow", q.MASS_FLOW)
+        else:
+            fractions[branch] = b.quantity("fraction", q.FRACTION, required=not (by_flow and lone),
+                                           default=1.0)
         reading.starts_path(f"{f.path[-1]}.{branch}", b, f.path[-1], branch)
         b.text("description")
         b.finish()
     total = sum(fractions.values())
     if abs(total - 1.0) > 1e-6:
-        raise f.error("branches", f"the branch fractions sum to {total:.6g}, not 1 (tolerance 1e-6)")
+        shared = "branch fractions" if not by_flow else "fractions of the branches sharing the rest"
+        raise f.error("branches", f"the {shared} sum to {total:.6g}, not 1 (tolerance 1e-6)")
     f.text("description")
     f.finish()
-    return {"fractions": {k: v / total for k, v in fractions.items()}}
+    return {"fractions": {k: v / total for k, v in fractions.items()}, "set_flows": set_flows,
+            "order": [branch for branch, _ in branches]}
 
 
 def _build_splitter(name, key, data, building):
-    return stream_units.Splitter(name, key, data["fractions"])
+    return stream_units.Splitter(name, key, data["fractions"], data.get("set_flows"), data.get("order"))
 
 
 def _read_product(f: Fields, reading: Reading) -> dict:
@@ -179,6 +210,44 @@ def _build_product(name, key, data, building):
     return stream_units.Sink(name, key, data["target_temperature"])
 
 
+def _read_steam_heater(f: Fields, reading: Reading) -> dict:
+    settings = [key for key in ("outlet_temperature", "duty", "ua") if f.has(key)]
+    if len(settings) != 1:
+        raise f.error(None, "give exactly one of 'outlet_temperature' (°C), 'duty' (kW) and 'ua' (kW/K)")
+    data = {
+        "steam_pressure": f.quantity("steam_pressure", q.STEAM_PRESSURE),
+        "outlet_temperature": f.quantity("outlet_temperature", q.TEMPERATURE, required=False),
+        "duty": f.quantity("duty", q.DUTY, required=False),
+        "ua": f.quantity("ua", q.CONDUCTANCE, required=False),
+        "design_temperature": f.quantity("design_temperature", q.TEMPERATURE, required=False),
+    }
+    t_sat = saturation_temperature(data["steam_pressure"])
+    if data["outlet_temperature"] is not None and data["outlet_temperature"] >= t_sat:
+        raise f.error("outlet_temperature",
+                      f"{data['outlet_temperature']:g} °C is at or above the saturation temperature of the steam "
+                      f"({t_sat:.2f} °C at {data['steam_pressure']:g} kPa): condensing steam cannot heat a stream "
+                      "there; raise 'steam_pressure' or lower 'outlet_temperature'")
+    f.text("description")
+    f.finish()
+    return data
+
+
+def _build_steam_heater(name, key, data, building):
+    return SteamHeater(name, key, **data)
+
+
+def _read_desalter(f: Fields, reading: Reading) -> dict:
+    data = {"carry_over": f.quantity("carry_over", q.FRACTION, required=False, default=0.0),
+            "heat_loss": f.quantity("heat_loss", q.DUTY, required=False, default=0.0)}
+    f.text("description")
+    f.finish()
+    return data
+
+
+def _build_desalter(name, key, data, building):
+    return Desalter(name, key, **data)
+
+
 UNIT_SECTIONS = (
     UnitSection("streams", "supply stream", "stream names to their supply", _read_stream, _build_stream,
                 feeds_itself=True),
@@ -186,6 +255,10 @@ UNIT_SECTIONS = (
                 through=SIDES),
     UnitSection("heaters", "heater", "heater tags to their data", _read_heater, _build_heater, through=(None,)),
     UnitSection("coolers", "cooler", "cooler tags to their data", _read_cooler, _build_cooler, through=(None,)),
+    UnitSection("steam_heaters", "steam heater", "steam heater tags to their data", _read_steam_heater,
+                _build_steam_heater, through=(None,)),
+    UnitSection("desalters", "desalter", "desalter tags to their data", _read_desalter, _build_desalter,
+                through=DESALTER_SIDES),
     UnitSection("air_coolers", "air cooler", "air cooler tags to their data", read_air_cooler, build_air_cooler,
                 through=(None,)),
     UnitSection("mixers", "mixer", "mixer names to their outlet path", _read_mixer, _build_mixer, path_end="many"),

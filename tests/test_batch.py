@@ -162,7 +162,7 @@ def test_a_small_batch_stays_in_one_process(monkeypatch):
     assert result.table["converged"].all()
 
 
-@pytest.mark.parametrize("demo", ["crude_preheat", "feed_effluent", "product_cooling"])
+@pytest.mark.parametrize("demo", ["crude_preheat", "feed_effluent", "product_cooling", "desalter_and_reactor"])
 def test_every_demo_case_can_go_to_a_worker_process(demo):
     """``workers`` > 1 pickles the case for the worker processes."""
     import pickle

@@ -186,7 +186,8 @@ def test_help_and_version_load_neither_numpy_nor_the_case_model():
     loaded = [line for line in result.stdout.splitlines() if line.startswith("[")]
     assert loaded[:2] == ["[]", "[]"], result.stdout + result.stderr
     # the demo names are looked up where needed: to refuse 'nope'
-    assert "invalid choice: 'nope' (choose from 'crude_preheat', 'feed_effluent', 'product_cooling')" in result.stderr
+    assert ("invalid choice: 'nope' (choose from 'crude_preheat', 'feed_effluent', 'product_cooling', "
+            "'desalter_and_reactor')") in result.stderr
 
 
 def test_the_argument_parser_is_built_once():

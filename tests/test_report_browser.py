@@ -17,7 +17,7 @@ from hxtrain.solver import demo_case_path, simulate
 from hxtrain.solver.reporting.display_units import Display
 from hxtrain.solver.reporting.html_report import case_report
 
-DEMOS = ("crude_preheat", "feed_effluent", "product_cooling")
+DEMOS = ("crude_preheat", "feed_effluent", "product_cooling", "desalter_and_reactor")
 BROWSER = shutil.which("chromium") or shutil.which("chromium-browser")
 DRIVER = shutil.which("chromedriver")
 ARTEFACTS = Path(os.environ.get("HXTRAIN_ARTEFACTS", Path(tempfile.gettempdir()) / "hxtrain-report-screenshots"))

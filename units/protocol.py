@@ -215,8 +215,8 @@ class UnitModel(Protocol):
     kind: str
     """What the unit is, in words for the results table ("exchanger", "heater", ...)."""
     group: str
-    """The results section it is shown in: ``exchangers``, ``heaters_and_coolers``, ``products``
-    or ``nodes`` (supplies, mixers, splitters)."""
+    """The results section it is shown in: ``exchangers``, ``heaters_and_coolers``, ``products``,
+    ``separators`` (desalters) or ``nodes`` (supplies, mixers, splitters)."""
     key: str
     inlets: tuple[str, ...]
     outlets: tuple[str, ...]
@@ -247,6 +247,15 @@ class UnitModel(Protocol):
 
     def set_parameter(self, name: str, values: np.ndarray) -> None:
         """Give parameter ``name`` one value per scenario (mutates the unit)."""
+
+    outlet_fluids: dict[str, str]
+    """Outlet port -> name of the fluid it carries, for outlets that do not carry what enters (a
+    reactor's effluent): the network starts that fluid there (mass conserved). Empty for most."""
+
+    def check_flows(self, m_in: np.ndarray, m_out: np.ndarray) -> list:
+        """``input`` Findings on the solved flows, (batch, inlets) and (batch, outlets) kg/s: a
+        scenario a finding is active in is not valid (a splitter whose inlet carries less than a
+        branch's set flow)."""
 
     def balance_identities(self) -> tuple:
         """Port quantities that are equal whatever the unit's settings: (quantity, inlet port,
@@ -321,6 +330,12 @@ class UnitBase:
 
     def supplied_flow(self):
         return np.zeros(len(self.outlets))
+
+    outlet_fluids: dict = {}
+    """Outlet port -> fluid name where an outlet carries a fluid of its own (see UnitModel)."""
+
+    def check_flows(self, m_in, m_out) -> list:
+        return []
 
     utility_inlets: frozenset = frozenset()
     """Inlet ports fed by utility streams only (cooling water, steam, hot oil), as the network

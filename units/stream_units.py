@@ -98,30 +98,69 @@ class Mixer(UnitBase):
 
 
 class Splitter(UnitBase):
-    """Splits one inlet into branches by fractions that sum to one. A scenario may set one or
-    more branches' fractions; the branches not set share the rest in their base proportions."""
+    """Splits one inlet into branches by fractions that sum to one, or with some branches set by
+    flow (a flow controller on the branch). A branch set by flow carries its set flow whatever
+    enters; the other branches share the rest (inlet less the set flows) by their fractions, so
+    the flows stay affine in the supplies: outlet = fractions x inlet + a constant per branch. A
+    scenario may set one or more branches' fractions or set flows; the fraction branches not set
+    share the rest in their base proportions. An inlet carrying less than the set flows is not a
+    possible operating point (:meth:`check_flows`)."""
 
     kind = "splitter"
 
-    def __init__(self, name, key, fractions):
+    def __init__(self, name, key, fractions, set_flows=None, order=None):
         self.name, self.key = name, key
-        self.outlets = tuple(fractions)
-        self.base = np.array([fractions[b] for b in self.outlets], dtype=float)
-        self.fractions = self.base.copy()
+        self.set_flows = {b: np.asarray(f, dtype=float) for b, f in (set_flows or {}).items()}
+        self.outlets = tuple(order or (*fractions, *self.set_flows))
+        self.shared = tuple(fractions)
+        """The branches that share what the set flows leave, by fraction."""
+        self.base = np.array([fractions[b] for b in self.shared], dtype=float)
         self.given = {}
+        self._update()
+
+    def _update(self):
+        fractions = shared_fractions(self.shared, self.base, self.given) if self.given else self.base
+        shares = dict(zip(self.shared, fractions))
+        zero = np.zeros(())
+        self.fractions = np.stack(np.broadcast_arrays(*(shares.get(b, zero) for b in self.outlets)), axis=-1)
+        taken = sum(self.set_flows.values()) if self.set_flows else zero
+        self.added = np.stack(np.broadcast_arrays(
+            *(self.set_flows[b] if b in self.set_flows else -shares[b] * taken for b in self.outlets)), axis=-1)
 
     def flow_coefficients(self):
         return self.fractions[..., None]
 
+    def supplied_flow(self):
+        """The set flows (+ on their branches, - shared by the others): the affine part."""
+        return self.added
+
     def parameters(self):
-        return tuple(Parameter(f"branches.{b}.fraction", "fraction", 0.0, 1.0) for b in self.outlets)
+        return (tuple(Parameter(f"branches.{b}.fraction", "fraction", 0.0, 1.0) for b in self.shared)
+                + tuple(Parameter(f"branches.{b}.flow", "mass_flow", 0.0) for b in self.set_flows))
 
     def set_parameter(self, name, values):
-        branch = name.removeprefix("branches.").removesuffix(".fraction")
-        if branch not in self.outlets or not name.endswith(".fraction"):
+        branch, _, what = name.removeprefix("branches.").rpartition(".")
+        if what == "fraction" and branch in self.shared:
+            self.given[branch] = np.asarray(values, dtype=float)
+        elif what == "flow" and branch in self.set_flows:
+            self.set_flows[branch] = np.asarray(values, dtype=float)
+        else:
             return super().set_parameter(name, values)
-        self.given[branch] = np.asarray(values, dtype=float)
-        self.fractions = np.stack(shared_fractions(self.outlets, self.base, self.given), axis=-1)
+        self._update()
+
+    def check_flows(self, m_in, m_out):
+        """Not valid where the inlet carries less than the set flows take (a branch sharing the
+        rest would run backwards), by more than round-off."""
+        if not self.set_flows:
+            return []
+        taken = np.broadcast_to(sum(self.set_flows.values()), m_in.shape[:1])
+        short = m_in[:, 0] < taken - 1e-9 * np.maximum(taken, 1.0)
+        first = next(iter(self.set_flows))
+        sets = ", ".join(f"{b} {{{b}:.6g}} kg/s" for b in self.set_flows)
+        return [check("inlet_below_set_flow", "input", short, f"{self.key}.branches.{first}.flow",
+                      "the splitter's inlet carries {inlet:.6g} kg/s, less than its branches set by flow take "
+                      f"({sets}): the branches left would run backwards", inlet=m_in[:, 0],
+                      **{b: np.broadcast_to(v, m_in.shape[:1]) for b, v in self.set_flows.items()})]
 
     def outlet_temperatures(self, inlets):
         return np.repeat(inlets.t, len(self.outlets), axis=1)
@@ -134,10 +173,13 @@ class Splitter(UnitBase):
         return (states.m_out.sum(axis=1) - states.m_in[:, 0])[:, None]
 
     def settings_from_states(self, states, unknowns):
-        """Each branch's share of the flows leaving."""
-        total = states.m_out.sum(axis=1)
-        shares = states.m_out / np.where(total > 0.0, total, 1.0)[:, None]
-        return {f"branches.{b}.fraction": shares[:, j] for j, b in enumerate(self.outlets)}
+        """Each set branch's flow, and each sharing branch's share of what they leave."""
+        index = {b: j for j, b in enumerate(self.outlets)}
+        settings = {f"branches.{b}.flow": states.m_out[:, index[b]] for b in self.set_flows}
+        total = sum(states.m_out[:, index[b]] for b in self.shared)
+        safe = np.where(total > 0.0, total, 1.0)
+        settings.update({f"branches.{b}.fraction": states.m_out[:, index[b]] / safe for b in self.shared})
+        return settings
 
     def report(self, inlets):
         return UnitReport({"t_out": inlets.t[:, 0]}, metrics={"outlet": inlets.t[:, 0]})
@@ -177,12 +219,22 @@ class Heater(UnitBase):
     (a cooler: at or below) idles, as its control valve would close: zero duty, the outlet at the
     inlet temperature, and a "target not reached" warning. ``heat_source`` (heaters) says which
     total its duty counts in (see :data:`HEAT_SOURCES`).
+
+    ``outlet_fluid`` (a fluid model, with its name in ``outlet_fluid_name``) makes the outlet
+    carry another fluid than what enters: a reactor's effluent is not its feed. The duty is then
+    the heat added at the inlet temperature, as if the change (a reaction) happened there and
+    the new fluid were then heated: ṁ·(h_new(T_out) − h_new(T_in)); for a reactor
+    (``heat_source: reaction``) it is the heat its reaction releases at its inlet temperature,
+    and the outlet lies duty / (ṁ·cp_new) above the inlet. The energy balance, whose enthalpies
+    are each fluid's own referred to 0 °C, counts the heat of the change at 0 °C (Kirchhoff's
+    law): the duty plus ṁ·(h_new(T_in) − h_old(T_in)) (``heat_added`` in the report), so it
+    closes on the fluids the segments carry.
     """
 
     group = "heaters_and_coolers"
 
     def __init__(self, name, key, *, cooler=False, duty=None, outlet_temperature=None, design_temperature=None,
-                 heat_source="fired"):
+                 heat_source="fired", outlet_fluid=None, outlet_fluid_name=""):
         if (duty is None) == (outlet_temperature is None):
             raise ValueError("give exactly one of duty and outlet_temperature")
         self.name, self.key = name, key
@@ -193,6 +245,8 @@ class Heater(UnitBase):
         self.design_temperature = design_temperature
         self.heat_source = None if cooler else heat_source
         self.total = COOLERS if cooler else (FIRED_HEATERS if heat_source == "fired" else OTHER_HEATERS)
+        self.outlet_fluid = outlet_fluid
+        self.outlet_fluids = {"out": outlet_fluid_name} if outlet_fluid is not None else {}
 
     def parameters(self):
         if self.target is not None:
@@ -215,73 +269,90 @@ class Heater(UnitBase):
 
     def balances(self, states, unknowns):
         """Energy: the outlet's enthalpy flow less the inlet's is the duty added (a heater) or
-        removed (a cooler), kW."""
-        return (states.enthalpy_out() - states.enthalpy_in() - self.sign * unknowns[:, 0])[:, None]
+        removed (a cooler), kW, plus where the fluid changes the heat of the change (see the class)."""
+        change = self._change_heat(states.t_in[:, 0], states.m_in[:, 0], states.fluids_in[0], states.fluids_out[0])
+        return (states.enthalpy_out() - states.enthalpy_in() - change - self.sign * unknowns[:, 0])[:, None]
 
     def settings_from_states(self, states, unknowns):
         """Its outlet temperature where the unit is set by one, else its duty."""
         if self.target is not None:
             return {"outlet_temperature": states.t_out[:, 0]}
-        return {"duty": self.sign * (states.enthalpy_out() - states.enthalpy_in())}
+        change = self._change_heat(states.t_in[:, 0], states.m_in[:, 0], states.fluids_in[0], states.fluids_out[0])
+        return {"duty": self.sign * (states.enthalpy_out() - states.enthalpy_in() - change)}
 
     def _heat_added(self, inlets):
-        """Heat added (kW, negative for a cooler) and the outlet temperature."""
-        t, m, fluid = inlets.t[:, 0], inlets.m[:, 0], inlets.fluids[0]
+        """Heat added (kW, negative for a cooler) on the outlet fluid at the inlet temperature,
+        the outlet temperature, and where a unit set by its outlet temperature idles."""
+        t, m = inlets.t[:, 0], inlets.m[:, 0]
+        fluid = inlets.fluids[0] if self.outlet_fluid is None else self.outlet_fluid
         if self.target is not None:
             target = np.broadcast_to(self.target, t.shape)
+            idle = self.sign * (t - target) > 1e-9 * (1.0 + np.abs(target))
             t_out = np.maximum(target, t) if self.sign > 0 else np.minimum(target, t)
-            return m * (fluid.enthalpy(t_out) - fluid.enthalpy(t)), t_out
+            return m * (fluid.enthalpy(t_out) - fluid.enthalpy(t)), t_out, idle
         added = np.broadcast_to(self.sign * self.duty, t.shape)
         flows = m > 0.0
         h_out = fluid.enthalpy(t) + added / np.where(flows, m, 1.0)
-        return added, np.where(flows, fluid.temperature(h_out, guess=t), t)
+        return added, np.where(flows, fluid.temperature(h_out, guess=t), t), np.zeros(t.shape, bool)
+
+    def _change_heat(self, t, m, fluid_in, fluid_out=None):
+        """ṁ·(h_out fluid(T_in) − h_in fluid(T_in)), kW: what a fluid change adds to the energy
+        balance besides the duty (0 for a unit whose outlet carries what enters)."""
+        if self.outlet_fluid is None:
+            return np.zeros(np.shape(t))
+        return m * ((fluid_out or self.outlet_fluid).enthalpy(t) - fluid_in.enthalpy(t))
 
     def outlet_temperatures(self, inlets):
         return self._heat_added(inlets)[1][:, None]
 
     def report(self, inlets):
         t, m = inlets.t[:, 0], inlets.m[:, 0]
-        added, t_out = self._heat_added(inlets)
-        side = "cold" if self.kind == "heater" else "hot"
+        added, t_out, idle = self._heat_added(inlets)
+        side = "cold" if self.sign > 0 else "hot"
         duty = self.sign * added
         quantities = {"duty": duty, f"t_{side}_in": t, f"t_{side}_out": t_out}
-        findings = design_temperature_findings(self.key, {"the stream ": (self.design_temperature, t, t_out)})
-        if self.target is not None:
-            target = np.broadcast_to(self.target, t.shape)
-            past = self.sign * (t - target) > 1e-9 * (1.0 + np.abs(target))
-            findings.append(
-                check("target_not_reached", "warning", past & (m > 0.0), f"{self.key}.outlet_temperature",
-                      f"target not reached: the stream enters at {{t:.2f}} °C, already "
-                      + ("above" if self.kind == "heater" else "below")
-                      + f" the {self.kind}'s outlet temperature of {{target:.2f}} °C, so the {self.kind} idles "
-                        "at zero duty", target=target, t=t))
-        else:
-            findings.append(
-                check(
-                    "duty_without_flow",
-                    "input",
-                    (m <= 0.0) & (np.broadcast_to(self.duty, t.shape) != 0.0),
-                    f"{self.key}.duty",
-                    f"the {self.kind} has a fixed duty but no flow through it",
-                )
-            )
-        heat_added = np.where(m > 0.0, added, 0.0)
+        heat_added = np.where(m > 0.0, added + self._change_heat(t, m, inlets.fluids[0]), 0.0)
         labels = {"heat_source": self.heat_source} if self.heat_source else {}
-        return UnitReport(quantities, findings, heat_added=heat_added, labels=labels,
+        labels.update({"outlet_fluid": name for name in self.outlet_fluids.values()})
+        return UnitReport(quantities, self._findings(t, m, t_out, idle), heat_added=heat_added, labels=labels,
                           totals={self.total: np.where(m > 0.0, duty, 0.0)},
                           metrics={"duty": duty, "inlet": t, "outlet": t_out},
                           highlights={f"{self.name}_inlet_c": t} if self.total == FIRED_HEATERS else {})
 
+    def _findings(self, t, m, t_out, idle):
+        """Its design temperature, and what its setting cannot do: a target behind the inlet (it
+        idles), a fixed duty without flow."""
+        findings = design_temperature_findings(self.key, {"the stream ": (self.design_temperature, t, t_out)})
+        if self.target is not None:
+            target = np.broadcast_to(self.target, t.shape)
+            findings.append(
+                check("target_not_reached", "warning", idle & (m > 0.0), f"{self.key}.outlet_temperature",
+                      f"target not reached: the stream enters at {{t:.2f}} °C, already "
+                      + ("above" if self.sign > 0 else "below")
+                      + f" the {self.kind}'s outlet temperature of {{target:.2f}} °C, so the {self.kind} idles "
+                        "at zero duty", target=target, t=t))
+        elif self.duty is not None:
+            without_flow = (m <= 0.0) & (np.broadcast_to(self.duty, t.shape) != 0.0)
+            findings.append(check("duty_without_flow", "input", without_flow, f"{self.key}.duty",
+                                  f"the {self.kind} has a fixed duty but no flow through it"))
+        return findings
 
-def mix(inlets: Inlets):
-    """Outlet temperature of an adiabatic mixer from its enthalpy balance; with no flow at all,
-    the mean of the inlet temperatures (any value balances a zero flow)."""
+
+def mix(inlets: Inlets, heat_loss=None):
+    """Outlet temperature of an adiabatic mixer from its enthalpy balance, or of one that loses
+    ``heat_loss`` (kW, one value per scenario) to its surroundings; with no flow at all, the mean
+    of the inlet temperatures (any value balances a zero flow)."""
     total = inlets.m.sum(axis=1)
     flows = total > 0.0
+    lost = 0.0 if heat_loss is None else np.where(flows, heat_loss, 0.0)
     if all(f.constant_cp for f in inlets.fluids):
         capacities = np.stack([inlets.capacity(j) for j in range(inlets.t.shape[1])], axis=1)
-        return balances.mix_temperature(inlets.t, capacities)
-    h_in = sum(inlets.enthalpy_flow(j) for j in range(inlets.t.shape[1]))
+        t_mix = balances.mix_temperature(inlets.t, capacities)
+        if heat_loss is None:
+            return t_mix
+        rate = capacities.sum(axis=1)
+        return t_mix - lost / np.where(rate > 0.0, rate, 1.0)
+    h_in = sum(inlets.enthalpy_flow(j) for j in range(inlets.t.shape[1])) - lost
     fractions = inlets.m / np.where(flows, total, 1.0)[:, None]
     blend = Blend(inlets.fluids, [fractions[:, j] for j in range(inlets.t.shape[1])])
     guess = balances.mix_temperature(inlets.t, np.where(flows[:, None], inlets.m, 1.0))

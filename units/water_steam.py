@@ -135,3 +135,18 @@ def water_steam_curve(pressure_kpa, t_low, t_high, step=10.0, tolerance=0.01):
         vapour = t_sat is not None and t_low >= t_sat
         fractions = [1.0 if vapour else 0.0] * len(temperatures)
     return EnthalpyCurve(temperatures, enthalpies, fractions, pressure=pressure_kpa, name="water/steam")
+
+
+def saturation_enthalpies(pressure_kpa):
+    """Specific enthalpies (kJ/kg, IAPWS reference) of saturated liquid and saturated vapour at
+    ``pressure_kpa`` (kPa, below the critical pressure) by IF97; their difference is the latent
+    heat of condensation.
+
+    >>> [round(h, 1) for h in saturation_enthalpies(1000.0)]
+    [762.7, 2777.1]
+    """
+    _check_pressure(pressure_kpa)
+    if pressure_kpa >= CRITICAL_PRESSURE_KPA:
+        raise ValueError(f"water at {pressure_kpa} kPa is at or above its critical pressure: it does not condense")
+    p = pressure_kpa / 1000.0
+    return _state_enthalpy(0.0, p, 0.0), _state_enthalpy(0.0, p, 1.0)

@@ -91,7 +91,7 @@ def _check(args) -> int:
     case = load_case(args.case)
     net = build_network(case)
     print(f"{args.case}: ok — {len(net.units)} units, {len(net.segments)} stream segments, "
-          f"{len(case.exchangers)} exchangers; flows balance.")
+          f"{len(case.exchangers)} exchanger{'' if len(case.exchangers) == 1 else 's'}; flows balance.")
     return EXIT_OK
 
 

@@ -27,8 +27,15 @@ SERVICE_WORDS = {"u_source": "U from", "u_service_w_m2k": "U service", "u_clean_
                  "fouling_shell_m2k_w": "fouling shell", "fouling_tube_m2k_w": "fouling tube",
                  "h_shell_w_m2k": "h shell", "h_tube_w_m2k": "h tube", "re_tube": "Re tube",
                  "dp_shell_kpa": "dp shell", "dp_tube_kpa": "dp tube"}
-ONE_STREAM_WORDS = {"type": "type", "heat_source": "heat source", "duty_kw": "duty", "in_c": "inlet",
-                    "out_c": "outlet", "findings": "findings"}
+ONE_STREAM_WORDS = {"type": "type", "heat_source": "heat source", "outlet_fluid": "outlet fluid", "duty_kw": "duty",
+                    "in_c": "inlet",
+                    "out_c": "outlet", "ua_kw_per_k": "UA", "effectiveness": "effectiveness",
+                    "steam_saturation_c": "steam at", "steam_kg_s": "steam", "steam_t_h": "steam t/h",
+                    "condensate_kg_s": "condensate",
+                    "findings": "findings"}
+SEPARATOR_WORDS = {"type": "type", "inlet_c": "crude in", "wash_water_in_c": "wash water in", "outlet_c": "outlet",
+                   "crude_drop_k": "crude drop", "brine_kg_s": "brine", "findings": "findings"}
+"""The desalters' table (units in the ``separators`` group)."""
 STREAM_WORDS = {"segment": "segment", "flow_kg_s": "flow", "heat_capacity_rate_kw_per_k": "m·cp",
                 "temperature_c": "temperature"}
 DIGITS = {"re_tube": 0}
@@ -60,7 +67,14 @@ def one_stream_table(result: SimulationResult) -> pd.DataFrame:
     heated = table["cold_in_c"].notna() if "cold_in_c" in table else pd.Series(False, index=table.index)
     table["in_c"] = np.where(heated, table.get("cold_in_c"), table.get("hot_in_c"))
     table["out_c"] = np.where(heated, table.get("cold_out_c"), table.get("hot_out_c"))
-    return table[[c for c in ONE_STREAM_WORDS if c in table]].rename_axis("unit")
+    # columns only some units fill (a steam heater's steam use) only where one of these has them
+    shown = [c for c in ONE_STREAM_WORDS if c in table and (c in ("type", "findings") or table[c].notna().any())]
+    return table[shown].rename_axis("unit")
+
+
+def separator_table(result: SimulationResult) -> pd.DataFrame:
+    table = in_group(result, "separators")
+    return table[[c for c in SEPARATOR_WORDS if c in table]].rename_axis("unit")
 
 
 RATING = ("ua_kw_per_k", "ntu_hot", "p_hot", "r_hot", "f", "lmtd_k")
@@ -144,6 +158,10 @@ def text_report(result: SimulationResult, extra: str = "", display: Display | No
     one_stream = one_stream_table(result)
     if len(one_stream):
         parts += [_section("Heaters and coolers"), render(one_stream, display, ONE_STREAM_WORDS)]
+    separators = separator_table(result)
+    if len(separators):
+        parts += [_section("Desalters (outlets leave at one temperature from the balance)"),
+                  render(separators, display, SEPARATOR_WORDS)]
     targets = result.units.get("target_deviation_k")
     if targets is not None and targets.notna().any():
         parts += [_section("Products with a target temperature (deviation = actual - target)"),

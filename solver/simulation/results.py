@@ -47,6 +47,13 @@ UNIT_COLUMNS = {
     "deviation": "target_deviation_k",
     "t_in": "inlet_c",
     "t_out": "outlet_c",
+    "wash_water_in": "wash_water_in_c",
+    "crude_drop": "crude_drop_k",
+    "brine_flow": "brine_kg_s",
+    "t_sat": "steam_saturation_c",
+    "steam_flow": "steam_kg_s",
+    "condensate_flow": "condensate_kg_s",
+    "steam_t_h": "steam_t_h",
 }
 """Report quantity -> column of the units table (P, R and NTU on the hot-side basis)."""
 SCALE = {"dp_shell": 1e-3, "dp_tube": 1e-3}
@@ -153,7 +160,7 @@ def tabulate(evaluation: Evaluation, k: int = 0) -> SimulationResult:
             notes.setdefault(name, []).append(finding.kind)
     for name, row in rows.items():
         row["findings"] = ", ".join(notes.get(name, []))
-    columns = ["type", "group", "u_source", "heat_source", *UNIT_COLUMNS.values(), "findings"]
+    columns = ["type", "group", "u_source", "heat_source", "outlet_fluid", *UNIT_COLUMNS.values(), "findings"]
     units = pd.DataFrame.from_dict(rows, orient="index", columns=columns).dropna(axis=1, how="all")
     units.index.name = "unit"
     findings_table = pd.DataFrame(findings, columns=["unit", "severity", "kind", "key", "message"])
