@@ -79,6 +79,11 @@ AREA = Kind("an area", "m^2", '250 or "2700 ft^2"', low=0.01, high=5e4,
             basis="a small hairpin ~0.5 m² to the largest shells, a few thousand m²: common practice")
 CONDUCTANCE = Kind("a conductance UA", "kW/delta_degC", '85 or "160000 Btu/h/degF"', low=0.0, high=1e6,
                    basis="100 times the largest exchanger banks (~1e4 kW/K): common practice")
+SPECIFIC_ENTHALPY = Kind("a specific enthalpy", "kJ/kg", '2778 or "1194 Btu/lb"', low=-2e4, high=2e4,
+                         basis="steam at 800 °C is ~4100 kJ/kg above liquid at 0 °C; 20 MJ/kg is beyond any "
+                               "process stream's heat content, combustion included: common practice")
+PRESSURE = Kind("an absolute pressure", "kPa", '1000 or "10 bar"', low=0.611657, high=1e5,
+                basis="the triple-point pressure of water to 100 MPa, the span of IAPWS-IF97")
 FRACTION = Kind("a fraction", "dimensionless", '0.4 or "40 %"', low=0.0, high=1.0, basis="a share lies from 0 to 1",
                 least_nonzero=2.2e-16)
 """A share below the spacing of floating-point numbers at 1 vanishes against its complement

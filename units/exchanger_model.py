@@ -13,6 +13,7 @@ from .u_models import Coefficients, FixedCoefficient, GeometryFilms
 from .back_calculation import back_calculate
 from .service_rating import ExchangerSpec, ServiceRating, pressure_drops, rate_in_service
 from .properties import stacked, stacking_key
+from .zone_exchanger import rate_zoned, rated_by_zones, zone_problem, zone_report
 
 __all__ = ["Exchanger"]
 
@@ -21,7 +22,10 @@ class Exchanger(UnitBase):
     """A two-stream exchanger rated by P–NTU in service (:func:`rate_in_service`).
 
     ``limits`` may hold ``design_temperature`` {"hot"/"cold": °C}, ``maximum_flow``
-    {"hot"/"cold": kg/s} and ``allowable_pressure_drop`` {"shell"/"tube": Pa}.
+    {"hot"/"cold": kg/s}, ``allowable_pressure_drop`` {"shell"/"tube": Pa} and
+    ``maximum_vapour_fraction`` {"hot"/"cold": kg/kg, checked where a side is on an enthalpy
+    curve}. An exchanger with a fluid on an enthalpy curve is rated by zones
+    (:mod:`.zone_exchanger`).
     ``minimum_approach`` (K) and ``minimum_f`` are the warning lines.
     """
 
@@ -39,6 +43,7 @@ class Exchanger(UnitBase):
         """Sides ("hot"/"cold") carrying a utility stream: the duty then counts as heat to (or
         from) utilities rather than heat recovered between process streams."""
         self._last_outlets = None  # warm start of the in-service iteration (speed only)
+        self._curves = {}  # cp models sampled as enthalpy curves for zone rating (speed only)
 
     @property
     def total(self):
@@ -114,8 +119,30 @@ class Exchanger(UnitBase):
                 "fouling.tube": np.zeros_like(fouling)}
 
     def outlet_temperatures(self, inlets):
+        if rated_by_zones(inlets.fluids):
+            return self.outlet_states(inlets, inlets.fluids)[0]
         x = self.rate(inlets, details=False).rating
         return np.stack([x.t_hot_out, x.t_cold_out], axis=1)
+
+    def outlet_states(self, inlets, outlet_fluids):
+        """Outlet temperatures and enthalpies: from the zone rating where a side is on an
+        enthalpy curve (NaN where it cannot be rated: the report says why), else the rating's
+        temperatures with the outlet fluids' enthalpies."""
+        if not rated_by_zones(inlets.fluids):
+            t = self.outlet_temperatures(inlets)
+            return t, np.stack([f.enthalpy(t[:, j]) for j, f in enumerate(outlet_fluids)], axis=1)
+        service = self._rate_zoned(inlets)
+        if service is None:
+            nothing = np.full((inlets.batch, 2), np.nan)
+            return nothing, nothing
+        return (np.stack([service.t_hot_out, service.t_cold_out], axis=1),
+                np.stack([service.h_hot_out, service.h_cold_out], axis=1))
+
+    def _rate_zoned(self, inlets):
+        """The zone rating (:mod:`.zone_exchanger`), None where this exchanger cannot be rated so."""
+        if zone_problem(self.spec, inlets.fluids) is not None:
+            return None
+        return rate_zoned(self.spec, inlets, self._curves)
 
     @classmethod
     def outlet_temperatures_together(cls, units, inlets):
@@ -141,8 +168,8 @@ class Exchanger(UnitBase):
         for members, service in cls._stacks(units, inlets, details=True):
             for j, k in enumerate(members):
                 one = inlets.of(k)
-                mine = units[k].rate(one) if service is None else units[k]._share(service, j, len(members), one)
-                reports[k] = units[k]._report_from(one, mine)
+                reports[k] = units[k].report(one) if service is None else \
+                    units[k]._report_from(one, units[k]._share(service, j, len(members), one))
         return reports
 
     @classmethod
@@ -163,7 +190,7 @@ class Exchanger(UnitBase):
     def _stacking_key(self, fluids):
         """Exchangers of one key rate together; None: this one rates alone (U follows the films)."""
         spec = self.spec
-        if spec.ua is None and not isinstance(spec.thermal, FixedCoefficient):
+        if (spec.ua is None and not isinstance(spec.thermal, FixedCoefficient)) or rated_by_zones(fluids):
             return None
         bypassed = tuple(bool(np.any(np.asarray(b) != 0.0)) for b in (spec.bypass_hot, spec.bypass_cold))
         return (spec.arrangement, spec.shells, spec.shells_in_parallel, spec.tube_passes, spec.shell_side,
@@ -215,6 +242,8 @@ class Exchanger(UnitBase):
         return ServiceRating(rating, coefficients, part(service.ua), drops, part(service.passes))
 
     def report(self, inlets):
+        if rated_by_zones(inlets.fluids):
+            return zone_report(self, inlets, self._rate_zoned(inlets), zone_problem(self.spec, inlets.fluids))
         return self._report_from(inlets, self.rate(inlets))
 
     def _report_from(self, inlets, service):

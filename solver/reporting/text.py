@@ -21,8 +21,10 @@ from .console_tables import WIDTH, fixed, render  # noqa: F401  (fixed: the one 
 from .display_units import Display, current
 
 EXCHANGER_WORDS = {"duty_kw": "duty", "hot_in_c": "hot in", "hot_out_c": "hot out", "cold_in_c": "cold in",
-                   "cold_out_c": "cold out", "air_flow_kg_s": "air flow", "ua_kw_per_k": "UA", "ntu_hot": "NTU", "p_hot": "P", "r_hot": "R",
-                   "f": "F", "lmtd_k": "LMTD", "min_approach_k": "approach", "findings": "findings"}
+                   "cold_out_c": "cold out", "hot_out_vapour_fraction": "hot out vapour",
+                   "cold_out_vapour_fraction": "cold out vapour", "air_flow_kg_s": "air flow", "ua_kw_per_k": "UA", "ntu_hot": "NTU", "p_hot": "P", "r_hot": "R",
+                   "f": "F", "lmtd_k": "LMTD", "min_approach_k": "approach", "internal_approach_k": "approach inside",
+                   "findings": "findings"}
 SERVICE_WORDS = {"u_source": "U from", "u_service_w_m2k": "U service", "u_clean_w_m2k": "U clean",
                  "fouling_shell_m2k_w": "fouling shell", "fouling_tube_m2k_w": "fouling tube",
                  "h_shell_w_m2k": "h shell", "h_tube_w_m2k": "h tube", "re_tube": "Re tube",
@@ -30,7 +32,7 @@ SERVICE_WORDS = {"u_source": "U from", "u_service_w_m2k": "U service", "u_clean_
 ONE_STREAM_WORDS = {"type": "type", "heat_source": "heat source", "duty_kw": "duty", "in_c": "inlet",
                     "out_c": "outlet", "findings": "findings"}
 STREAM_WORDS = {"segment": "segment", "flow_kg_s": "flow", "heat_capacity_rate_kw_per_k": "m·cp",
-                "temperature_c": "temperature"}
+                "temperature_c": "temperature", "vapour_fraction": "vapour fraction"}
 DIGITS = {"re_tube": 0}
 def _section(title: str) -> str:
     return f"\n{title}\n{'-' * len(title)}"
