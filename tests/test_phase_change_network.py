@@ -43,18 +43,25 @@ def _row(result, unit="E-1"):
     return result.units.loc[unit]
 
 
-def _line(cp, low=-50.0, high=500.0):
-    """A constant cp written as an enthalpy curve (h = cp·T, liquid)."""
-    return {"enthalpy_curve": {"pressure": 1000, "rows": [[low, cp * low, 0], [high, cp * high, 0]]}}
+def _line(cp, low=-50.0, high=500.0, boiling=None):
+    """A constant cp written as an enthalpy curve (h = cp·T, liquid); ``boiling``: a vapour
+    branch above ``high`` that no stream reaches, as a plateau ("plateau") or over 10 K ("range"),
+    which makes an exchanger on it rated by zones."""
+    rows = [[low, cp * low, 0], [high, cp * high, 0]]
+    if boiling:
+        rows.append([high + (10.0 if boiling == "range" else 0.0), cp * high + 300.0, 1])
+    return {"enthalpy_curve": {"pressure": 1000, "rows": rows}}
 
 
+@pytest.mark.parametrize("boiling", ["plateau", "range"])
 @pytest.mark.parametrize("exchanger", [{"arrangement": "counterflow", "ua": 30.0},
                                        {"arrangement": "tema_e", "u": 400, "area_per_shell": 60},
                                        {"arrangement": "double_pipe", "ua": 5.0, "bypass": {"cold": 0.3}}])
-def test_a_constant_cp_given_as_a_curve_is_rated_as_today(exchanger):
-    """One zone, constant cp: rated by zones the exchanger gives today's P–NTU numbers (1e-9 K)."""
+def test_a_constant_cp_given_as_a_curve_is_rated_as_today(exchanger, boiling):
+    """One zone, constant cp: rated by zones (the curves could boil, far above the streams) the
+    exchanger gives today's P–NTU numbers (1e-9 K), carried as enthalpy or as temperature."""
     today = simulate(_two_stream({"cp": 2.3}, {"cp": 2.6}, exchanger))
-    zoned = simulate(_two_stream(_line(2.3), _line(2.6), exchanger))
+    zoned = simulate(_two_stream(_line(2.3, boiling=boiling), _line(2.6, boiling=boiling), exchanger))
     for column in ("hot_out_c", "cold_out_c", "duty_kw"):
         assert abs(_row(zoned)[column] - _row(today)[column]) <= 1e-9 * max(1.0, abs(_row(today)[column]))
     assert "rated by zones" in _row(zoned)["u_source"]
@@ -196,6 +203,16 @@ def test_what_this_version_cannot_carry_is_refused_naming_the_key(change, key, f
     with pytest.raises(CaseError, match=fragment) as error:
         simulate(case)
     assert tuple(error.value.path[:len(key)]) == key
+
+
+def test_a_liquid_curve_keeps_the_in_service_rating_of_any_arrangement():
+    """A curve that holds no vapour is a smooth h(T): a crossflow exchanger on it is rated as
+    with any cp model (mean cp), to 1e-9 K of the same fluid given by its cp."""
+    exchanger = {"arrangement": "crossflow", "mixed_side": "hot", "ua": 20.0}
+    today = simulate(_two_stream({"cp": 2.3}, {"cp": 2.6}, exchanger))
+    curves = simulate(_two_stream(_line(2.3), _line(2.6), exchanger))
+    assert abs(_row(curves)["cold_out_c"] - _row(today)["cold_out_c"]) <= 1e-9
+    assert "rated by zones" not in _row(curves)["u_source"]
 
 
 def test_a_curve_does_not_mix_with_another_fluid():

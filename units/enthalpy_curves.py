@@ -124,6 +124,11 @@ class EnthalpyCurve(FluidModel):
         return bool(self.plateaus.any())
 
     @property
+    def holds_vapour(self) -> bool:
+        """True where any row has vapour: the fluid may boil or condense along the curve."""
+        return bool(np.any(self.q_points > 0.0))
+
+    @property
     def enthalpy_scale(self) -> float:
         """kJ/kg·K: the smallest cp of the curve's sloped intervals. An enthalpy difference over
         it is a temperature difference no smaller than the true one on any single-phase part of

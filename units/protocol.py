@@ -125,6 +125,9 @@ class UnitReport:
     """Named results a study may target: ``duty``, ``hot_out``, ``inlet``, ``outlet``, ..."""
     highlights: dict[str, np.ndarray] = field(default_factory=dict)
     """Headline numbers of the run this unit gives (a furnace's inlet temperature)."""
+    profile: dict[str, np.ndarray] = field(default_factory=dict)
+    """Temperatures along an exchanger where they are not straight lines between its ends (rated
+    by zones): ``duty`` (kW from the cold end), ``hot`` and ``cold`` (°C), each (batch, points)."""
 
 
 @dataclass

@@ -1,8 +1,8 @@
 """An exchanger with a fluid on an enthalpy curve, rated zone by zone (:mod:`.zone_rating`).
 
 :class:`.exchanger_model.Exchanger` hands an exchanger here whenever either inlet's fluid is an
-:class:`.enthalpy_curves.EnthalpyCurve` (a vaporising crude, a condensing overhead, water and
-steam). Both sides are then rated on their enthalpy curves: the other side's fluid, if it is a
+:class:`.enthalpy_curves.EnthalpyCurve` that holds vapour anywhere in its table (a vaporising
+crude, a condensing overhead, water and steam): :func:`rated_by_zones`. Both sides are then rated on their enthalpy curves: the other side's fluid, if it is a
 cp model, is sampled as a curve (exact for a constant cp; linear between points
 :data:`SAMPLE_STEP` apart otherwise, see :mod:`.enthalpy_curves` for the error that leaves).
 
@@ -39,8 +39,11 @@ SAMPLE_SPAN = (-50.0, 600.0)
 
 
 def rated_by_zones(fluids) -> bool:
-    """Whether an exchanger with these inlet fluids (hot, cold) is rated zone by zone."""
-    return any(isinstance(f, EnthalpyCurve) for f in fluids)
+    """Whether an exchanger with these inlet fluids (hot, cold) is rated zone by zone: where a
+    side's fluid is an enthalpy curve that holds vapour (it may boil or condense) or a plateau.
+    A single-phase liquid curve is a smooth h(T) like any cp model, and keeps the in-service
+    rating of every arrangement (mean cp over each side's range, U from films if given)."""
+    return any(isinstance(f, EnthalpyCurve) and (f.holds_vapour or f.state_by_enthalpy) for f in fluids)
 
 
 def zone_problem(spec, fluids):
@@ -157,6 +160,7 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
     metrics = {"duty": x.duty, "hot_in": t_hot, "hot_out": service.t_hot_out, "cold_in": t_cold,
                "cold_out": service.t_cold_out, "hot_out_vapour_fraction": service.q_hot_out,
                "cold_out_vapour_fraction": service.q_cold_out}
-    return UnitReport(quantities, findings, labels={"u_source": "fixed UA, rated by zones" if unit.spec.ua is not None else
+    profile = {"duty": x.profile.position, "hot": x.profile.t_hot, "cold": x.profile.t_cold}
+    return UnitReport(quantities, findings, profile=profile, labels={"u_source": "fixed UA, rated by zones" if unit.spec.ua is not None else
                                                     unit.spec.thermal.source + ", rated by zones"},
                       totals=totals, metrics=metrics)

@@ -34,6 +34,11 @@ ONE_STREAM_WORDS = {"type": "type", "heat_source": "heat source", "duty_kw": "du
 STREAM_WORDS = {"segment": "segment", "flow_kg_s": "flow", "heat_capacity_rate_kw_per_k": "m·cp",
                 "temperature_c": "temperature", "vapour_fraction": "vapour fraction"}
 DIGITS = {"re_tube": 0}
+def stream_table(result: SimulationResult) -> pd.DataFrame:
+    """The stream segments' columns the reports show (the vapour fraction where a fluid is on a curve)."""
+    return result.streams[[c for c in STREAM_WORDS if c in result.streams]]
+
+
 def _section(title: str) -> str:
     return f"\n{title}\n{'-' * len(title)}"
 
@@ -150,7 +155,7 @@ def text_report(result: SimulationResult, extra: str = "", display: Display | No
     if targets is not None and targets.notna().any():
         parts += [_section("Products with a target temperature (deviation = actual - target)"),
                   render(targets.dropna().to_frame("deviation_k"), display)]
-    streams = result.streams[list(STREAM_WORDS)]
+    streams = stream_table(result)
     parts += [_section("Stream segments"), render(streams, display, STREAM_WORDS, index="")]
     if len(result.tears):
         tears = result.tears[["tear_stream", "iterations", "accelerators", "final_residual_k"]]

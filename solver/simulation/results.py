@@ -85,6 +85,9 @@ class SimulationResult:
     metrics: dict = field(default_factory=dict, repr=False)
     """Named results a study may target, ``TAG.duty``, ``TAG.cold_out``, ``TAG.inlet``, ... ->
     value (each unit declares its own)."""
+    profiles: dict = field(default_factory=dict, repr=False)
+    """Exchanger tag -> {``duty`` (kW from the cold end), ``hot``, ``cold`` (°C)}: the
+    temperatures along an exchanger rated by zones, for its T–Q picture."""
 
     @property
     def success(self) -> bool:
@@ -174,7 +177,8 @@ def tabulate(evaluation: Evaluation, k: int = 0) -> SimulationResult:
                for name, r in evaluation.reports.items() for m, v in r.metrics.items()}
     return SimulationResult(True, message, evaluation.iterations, units, _stream_table(net, evaluation.solution, t, k), tears,
                             findings_table, balance, summary, net.case.title, net.case.file, network=net,
-                            metrics=metrics)
+                            metrics=metrics, profiles={name: {key: np.asarray(v)[k] for key, v in r.profile.items()}
+                                                       for name, r in evaluation.reports.items() if r.profile})
 
 
 def _stream_table(net: Network, solution: TemperatureSolution, t, k) -> pd.DataFrame:
