@@ -139,6 +139,7 @@ def test_internal_pinch_is_found_where_the_ends_look_fine():
     assert abs(row["min_approach_k"] - ends) <= 1e-9
     messages = [m for m in result.findings["message"] if "inside the exchanger" in m]
     assert messages and f"{by_hand:.1f} K" in messages[0]
+    assert f"at {180.0 / row['duty_kw']:.0%} of the duty from the cold end" in messages[0]
     # the same exchanger rated on its ends only would not warn: its smaller end approach is fine
     assert row["min_approach_k"] > case["settings"]["minimum_approach"]
 
@@ -172,8 +173,8 @@ def test_a_loop_torn_on_enthalpy_gives_the_numbers_torn_on_temperature():
     """The same liquid curve with and without a plateau far above the loop's temperatures: the
     first is carried (and torn) as enthalpy, the second as temperature; the answers agree to
     1e-9 K and close their balance."""
-    liquid = [[0, 0.0, 0], [100, 419.0, 0], [150, 632.0, 0]]
-    with_plateau = {"enthalpy_curve": {"pressure": 500, "rows": liquid + [[150, 2746.0, 1], [200, 2855.0, 1]]}}
+    liquid = [[0, 0.0, 0], [200, 838.0, 0]]  # one cp over the loop's range: both ratings exact
+    with_plateau = {"enthalpy_curve": {"pressure": 1600, "rows": liquid + [[200, 2793.0, 1], [250, 2919.0, 1]]}}
     without = {"enthalpy_curve": {"pressure": 500, "rows": liquid}}
     by_h, by_t = evaluate(_loop(with_plateau)), evaluate(_loop(without))
     assert by_h.solution.layout.any and not by_t.solution.layout.any
@@ -247,3 +248,90 @@ def test_curve_from_a_csv_file_next_to_the_case(tmp_path):
     (tmp_path / "oil.csv").write_text("T,h,q\n", encoding="utf-8")
     with pytest.raises(CaseError, match="header temperature_c,enthalpy_kj_kg,vapour_fraction"):
         load_case(path)
+
+
+def _countercurrent_chain(water, count=10):
+    """Two water streams through ``count`` exchangers in pure countercurrent (hot E-n ... E-1,
+    cold E-1 ... E-n): every neighbour pair is a cycle, more tears than the tear iteration takes,
+    so the block is converged by the block Newton on all its segments."""
+    names = [f"E-{i}" for i in range(1, count + 1)]
+    return _case({"water": water},
+                 {"hot": {"fluid": "water", "flow": 3.0, "supply_temperature": 140.0,
+                          "path": " -> ".join(f"{n}.hot" for n in reversed(names)) + " -> hot_out"},
+                  "cold": {"fluid": "water", "flow": 4.0, "supply_temperature": 20.0,
+                           "path": " -> ".join(f"{n}.cold" for n in names) + " -> cold_out"}},
+                 {n: {"arrangement": "counterflow", "ua": 4.0} for n in names}, {"hot_out": {}, "cold_out": {}})
+
+
+def test_a_large_block_converged_on_enthalpy_gives_the_numbers_on_temperature():
+    """The block Newton (every segment of the block its unknown) on enthalpy segments: the same
+    answers as on temperature segments of the same liquid (1e-9 K), balance closed."""
+    from hxtrain.solver.simulation.engine import LARGE_BLOCK_TEARS
+
+    liquid = [[0, 0.0, 0], [200, 838.0, 0]]  # one cp over the loop's range: both ratings exact
+    with_plateau = {"enthalpy_curve": {"pressure": 1600, "rows": liquid + [[200, 2793.0, 1], [250, 2919.0, 1]]}}
+    by_h = evaluate(_countercurrent_chain(with_plateau))
+    by_t = evaluate(_countercurrent_chain({"enthalpy_curve": {"pressure": 500, "rows": liquid}}))
+    assert any(len(b.block.tears) > LARGE_BLOCK_TEARS for b in by_h.solution.blocks)
+    assert by_h.solution.layout.any and by_h.success[0] and by_t.success[0]
+    assert np.max(np.abs(by_h.temperature - by_t.temperature)) <= 1e-9
+    assert abs(by_h.balance["relative_imbalance"][0]) <= 1e-12
+
+
+def test_a_batch_on_the_vaporiser_demo_gives_each_scenario_its_own_numbers():
+    """Feed flows and steam U varied in one batch: each scenario as simulated alone (1e-9 K)."""
+    from hxtrain.solver.simulation.batch import simulate_batch
+
+    path = demo_case_path("naphtha_vaporiser")
+    flows, u = np.array([12.0, 16.0, 20.0]), np.array([700.0, 900.0, 1100.0])
+    batch = simulate_batch(path, {"streams.feed.flow": flows, "exchangers.E-302.u": u})
+    assert np.all(batch.table["status"] == 0)
+    for k in range(3):
+        alone = evaluate(load_case(path), {"streams.feed.flow": flows[k:k + 1], "exchangers.E-302.u": u[k:k + 1]})
+        assert alone.success[0]
+        assert np.max(np.abs(batch.temperature[k] - alone.temperature[0])) <= 1e-9
+
+
+def test_curves_that_would_cross_inside_are_found_and_held_apart():
+    """The boiling fluid above against less oil (3 kg/s): the pinch at the bubble point limits
+    the duty. By hand: zero approach there means the oil is at 150 °C where the liquid starts
+    to boil, so it leaves at 150 − 180/(3·2.5) = 126 °C and the duty is 7.5·(200 − 126) = 555 kW;
+    the ends stay 50 K (200 − 150) and 66 K (126 − 60) apart. A rating from the ends alone
+    (each side's mean cp over its range, P–NTU) lets the curves cross inside: at its duty the
+    oil would be below the boiling liquid at the bubble point, which the zone profile finds."""
+    from hxtrain.units.pntu_rating import rate_exchanger
+    from hxtrain.units.zone_exchanger import as_curve
+    from hxtrain.units.zone_rating import zone_profile
+
+    boiling = {"enthalpy_curve": {"pressure": 500, "rows": [[50, 100, 0], [150, 300, 0], [150, 700, 1],
+                                                            [250, 850, 1]]}}
+    case = _two_stream({"cp": 2.5}, boiling, {"arrangement": "counterflow", "ua": 2000.0}, t_hot=200.0,
+                       t_cold=60.0, m_hot=3.0, m_cold=1.0)
+    result = simulate(case)
+    row = _row(result)
+    assert abs(row["duty_kw"] - 555.0) <= 1e-6 and abs(row["hot_out_c"] - 126.0) <= 1e-6
+    assert abs(row["min_approach_k"] - 50.0) <= 1e-6 and -1e-9 <= row["internal_approach_k"] <= 1e-6
+    assert any("inside the exchanger" in m for m in result.findings["message"])
+    net = build_network(case_from_mapping(case))
+    oil, liquid = net.fluids[0], net.fluids[2]
+    c_cold = 1.0 * (liquid.enthalpy_at(150.0, 0.9375) - liquid.enthalpy_at(60.0)) / (150.0 - 60.0)
+    by_ends = rate_exchanger(200.0, 60.0, 3.0 * 2.5, c_cold, 2000.0, "counterflow")
+    assert float(by_ends.duty) > 555.0 + 1.0  # the ends alone allow more duty than the curves do
+    oil_curve = as_curve(oil, {})
+    profile = zone_profile(oil_curve, liquid, oil_curve.enthalpy(200.0), liquid.enthalpy_at(60.0), 3.0, 1.0,
+                           by_ends.duty)
+    assert float(profile.approach[0]) < -1.0  # the curves cross inside at that duty
+
+
+def test_a_cross_in_a_one_two_shell_rated_by_zones_is_a_limit():
+    """The same boiling duty in a 1-2 shell with a large UA: the cold stream leaves above the
+    hot outlet, the temperature cross of a multipass shell, a violated limit as in the P–NTU
+    rating; in counterflow the same outlets are no cross."""
+    boiling = {"enthalpy_curve": {"pressure": 500, "rows": [[50, 100, 0], [150, 300, 0], [150, 700, 1],
+                                                            [250, 850, 1]]}}
+    for arrangement, crossed in (("tema_e", True), ("counterflow", False)):
+        result = simulate(_two_stream({"cp": 2.5}, boiling, {"arrangement": arrangement, "ua": 40.0}, t_hot=200.0,
+                                      t_cold=60.0, m_hot=4.0, m_cold=1.0))
+        row = _row(result)
+        assert row["cold_out_c"] > row["hot_out_c"]  # the outlets overlap in both
+        assert ("temperature_cross" in set(result.limits["kind"])) == crossed

@@ -150,8 +150,15 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
     findings += [
         check("approach", "warning", works & (x.approach < unit.minimum_approach), key,
               "smallest approach {a:.1f} K, inside the exchanger at {at:.0%} of the duty from the cold end (ends "
-              "{e:.1f} K), is below the case's {lim:.1f} K", a=x.approach, at=x.pinch_position, e=service.end_approach,
+              "{e:.1f} K), is below the case's {lim:.1f} K", a=x.approach,
+              at=np.where(works, x.pinch_position / np.where(works, x.duty, 1.0), 0.0), e=service.end_approach,
               lim=unit.minimum_approach),
+        # in one 1-2 shell the cold stream leaving above the hot outlet is a temperature cross
+        # (P_hot + P_cold > 1), whatever the zones: the same limit as the P–NTU rating's
+        check("temperature_cross", "limit", works & (unit.spec.arrangement.name == "tema_e")
+              & (x.t_cold_out > x.t_hot_out), key,
+              "temperature cross inside the 1-2 shell: the cold stream leaves at {tc:.1f} °C, above the hot "
+              "outlet at {th:.1f} °C", tc=x.t_cold_out, th=x.t_hot_out),
         check("reversed_heat_flow", "warning", x.reversed, key,
               "the hot-side stream enters colder ({th:.1f} °C) than the cold-side stream ({tc:.1f} °C): heat "
               "flows from the cold side to the hot side ({q:.1f} kW)", th=t_hot, tc=t_cold, q=-x.duty),
