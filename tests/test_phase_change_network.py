@@ -23,7 +23,8 @@ from hxtrain.solver.simulation.evaluation import evaluate
 from hxtrain.solver.simulation.results import simulate
 from hxtrain.solver.simulation.segment_state import segment_state
 
-STEAM_10_BAR_SATURATION = 179.88  # °C, rounded; the tests ask IF97 for the exact value
+BOILING = {"enthalpy_curve": {"pressure": 500, "rows": [[50, 100, 0], [150, 300, 0], [150, 700, 1], [250, 850, 1]]}}
+"""A pure fluid boiling at 150 °C: liquid cp 2, latent heat 400 kJ/kg, vapour cp 1.5 kJ/kg·K."""
 
 
 def _case(fluids, streams, exchangers, products, **sections):
@@ -124,9 +125,7 @@ def test_internal_pinch_is_found_where_the_ends_look_fine():
     the rating finds: the liquid takes 1·2·(150 − 60) = 180 kW before it boils, so where it starts
     to boil the oil is at T_h,out + 180/(4·2.5) and the approach there is that less 150 °C: below
     10 K, while both end approaches (200 − T_c,out and T_h,out − 60) are above it."""
-    boiling = {"enthalpy_curve": {"pressure": 500, "rows": [[50, 100, 0], [150, 300, 0], [150, 700, 1],
-                                                            [250, 850, 1]]}}
-    case = _two_stream({"cp": 2.5}, boiling, {"arrangement": "counterflow", "ua": 30.0}, t_hot=200.0,
+    case = _two_stream({"cp": 2.5}, BOILING, {"arrangement": "counterflow", "ua": 30.0}, t_hot=200.0,
                        t_cold=60.0, m_hot=4.0, m_cold=1.0)
     result = simulate(case)
     row = _row(result)
@@ -148,7 +147,7 @@ def test_vapour_fraction_above_its_maximum_is_a_limit():
     boiling = {"enthalpy_curve": {"pressure": 500, "rows": [[50, 100, 0], [150, 300, 0], [150, 600, 1],
                                                             [250, 750, 1]]}}
     exchanger = {"arrangement": "counterflow", "ua": 400.0, "maximum_vapour_fraction": {"cold": 0.2}}
-    result = simulate(_two_stream({"cp": 2.5}, boiling, exchanger, t_hot=200.0, t_cold=100.0, m_hot=10.0, m_cold=4.0))
+    result = simulate(_two_stream({"cp": 2.5}, BOILING, exchanger, t_hot=200.0, t_cold=100.0, m_hot=10.0, m_cold=4.0))
     q = _row(result)["cold_out_vapour_fraction"]
     limits = result.findings[result.findings["kind"] == "vapour_fraction"]
     assert q > 0.2 and len(limits) == 1
@@ -303,9 +302,7 @@ def test_curves_that_would_cross_inside_are_found_and_held_apart():
     from hxtrain.units.zone_exchanger import as_curve
     from hxtrain.units.zone_rating import zone_profile
 
-    boiling = {"enthalpy_curve": {"pressure": 500, "rows": [[50, 100, 0], [150, 300, 0], [150, 700, 1],
-                                                            [250, 850, 1]]}}
-    case = _two_stream({"cp": 2.5}, boiling, {"arrangement": "counterflow", "ua": 2000.0}, t_hot=200.0,
+    case = _two_stream({"cp": 2.5}, BOILING, {"arrangement": "counterflow", "ua": 2000.0}, t_hot=200.0,
                        t_cold=60.0, m_hot=3.0, m_cold=1.0)
     result = simulate(case)
     row = _row(result)
@@ -327,10 +324,8 @@ def test_a_cross_in_a_one_two_shell_rated_by_zones_is_a_limit():
     """The same boiling duty in a 1-2 shell with a large UA: the cold stream leaves above the
     hot outlet, the temperature cross of a multipass shell, a violated limit as in the P–NTU
     rating; in counterflow the same outlets are no cross."""
-    boiling = {"enthalpy_curve": {"pressure": 500, "rows": [[50, 100, 0], [150, 300, 0], [150, 700, 1],
-                                                            [250, 850, 1]]}}
     for arrangement, crossed in (("tema_e", True), ("counterflow", False)):
-        result = simulate(_two_stream({"cp": 2.5}, boiling, {"arrangement": arrangement, "ua": 40.0}, t_hot=200.0,
+        result = simulate(_two_stream({"cp": 2.5}, BOILING, {"arrangement": arrangement, "ua": 40.0}, t_hot=200.0,
                                       t_cold=60.0, m_hot=4.0, m_cold=1.0))
         row = _row(result)
         assert row["cold_out_c"] > row["hot_out_c"]  # the outlets overlap in both
