@@ -330,3 +330,21 @@ def test_a_cross_in_a_one_two_shell_rated_by_zones_is_a_limit():
         row = _row(result)
         assert row["cold_out_c"] > row["hot_out_c"]  # the outlets overlap in both
         assert ("temperature_cross" in set(result.limits["kind"])) == crossed
+
+
+def test_a_furnace_on_a_wide_boiling_curve_adds_the_heat_of_vaporisation():
+    """A wide-boiling feed (no plateau: carried as temperature) heated to 260 °C in a fired
+    heater: the duty is ṁ·(h(260) − h(200)) read off the table, by hand 20·(740 − 470) =
+    5,400 kW with h(260) = 700 + 80·(10/20) = 740 between the rows at 250 and 270 °C, against
+    20·2.5·60 = 3,000 kW on the liquid's cp (2.5 below 200 °C) alone; the outlet's vapour
+    fraction 0.6 + 0.2·(10/20) = 0.7."""
+    feed = {"enthalpy_curve": {"pressure": 300, "rows": [[100, 220.0, 0], [200, 470.0, 0], [230, 600.0, 0.3],
+                                                         [250, 700.0, 0.6], [270, 780.0, 0.8], [300, 850.0, 1]]}}
+    case = _case({"feed": feed}, {"feed": {"fluid": "feed", "flow": 20.0, "supply_temperature": 200.0,
+                                           "path": "F-1 -> out"}}, {}, {"out": {}},
+                 heaters={"F-1": {"outlet_temperature": 260.0}})
+    del case["exchangers"]
+    result = simulate(case)
+    h_260 = 700.0 + (780.0 - 700.0) * (260.0 - 250.0) / 20.0
+    assert abs(result.units.loc["F-1", "duty_kw"] - 20.0 * (h_260 - 470.0)) <= 1e-9
+    assert abs(result.streams["vapour_fraction"].iloc[-1] - 0.7) <= 1e-12
