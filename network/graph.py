@@ -241,8 +241,9 @@ def check_properties(net: Network):
 def check_enthalpy_fluids(net: Network):
     """Fluids on enthalpy curves go where this version can carry them: they mix with no other
     fluid (a blend of two curves is not the mixture's curve: its bubble and dew points are not
-    weighted means of the parts'), and a fluid with a saturation plateau, whose streams carry
-    enthalpy, enters and leaves only units that take enthalpy (``outlet_states``)."""
+    weighted means of the parts'), a fluid with a saturation plateau, whose streams carry
+    enthalpy, enters and leaves only units that take enthalpy (``outlet_states``), and each unit
+    can rate the fluids that reach it (``fluid_problem``: an exchanger rated by zones)."""
     from hxtrain.units.enthalpy_curves import EnthalpyCurve
 
     for seg, fluid in zip(net.segments, net.fluids):
@@ -262,6 +263,11 @@ def check_enthalpy_fluids(net: Network):
                                      f"fluid '{fluid.name}' has a saturation plateau, where temperature does not fix "
                                      f"its state; {name} ({net.units[name].kind}) cannot take it in this version (only "
                                      "supplies, products, mixers, splitters and exchangers can)")
+    for name, unit in net.units.items():
+        asks = getattr(unit, "fluid_problem", None)
+        problem = asks(tuple(net.fluids[s] for s in net.inlets[name])) if asks else None
+        if problem is not None:
+            raise net.case.error(tuple(net.case.keys[name]) + (problem[0],), problem[1])
 
 
 def _recycle_key(net: Network):

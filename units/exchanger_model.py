@@ -60,6 +60,10 @@ class Exchanger(UnitBase):
         needed = ("viscosity", "conductivity") + (("density",) if self.spec.pressure_drop else ())
         return PropertyNeed(needed, "geometry", "rating from geometry")
 
+    def fluid_problem(self, fluids):
+        """Why this exchanger cannot be rated by zones where a side's fluid asks for it (None if it can)."""
+        return zone_problem(self.spec, fluids) if rated_by_zones(fluids) else None
+
     def parameters(self):
         spec = self.spec
         found = [Parameter(f"bypass.{side}", "fraction", 0.0, 1.0) for side in ("hot", "cold")]

@@ -296,6 +296,9 @@ class UnitModel(Protocol):
     def required_properties(self) -> PropertyNeed | None:
         """Fluid properties besides cp needed on every inlet, and why."""
 
+    def fluid_problem(self, fluids) -> tuple[str, str] | None:
+        """(key below the unit's entry, message) where the unit cannot rate these inlet fluids."""
+
 
 def takes_enthalpy_state(unit) -> bool:
     """Whether ``unit`` can take streams that carry enthalpy (it has ``outlet_states``)."""
@@ -375,6 +378,11 @@ class UnitBase:
 
     def required_properties(self) -> PropertyNeed | None:
         """Fluid properties besides cp the unit needs on every inlet: the case must give them."""
+        return None
+
+    def fluid_problem(self, fluids) -> tuple[str, str] | None:
+        """(key below the unit's entry, message) where the unit cannot rate the fluids that reach
+        its inlets (``fluids``, in inlet order), else None: bad input the network refuses."""
         return None
 
     @classmethod

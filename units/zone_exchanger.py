@@ -6,7 +6,8 @@ crude, a condensing overhead, water and steam): :func:`rated_by_zones`. Both sid
 cp model, is sampled as a curve (exact for a constant cp; linear between points
 :data:`SAMPLE_STEP` apart otherwise, see :mod:`.enthalpy_curves` for the error that leaves).
 
-What is covered, and why the rest is refused (an ``input`` finding naming the key):
+What is covered, and why the rest is refused (:func:`zone_problem`, which the network asks through
+``Exchanger.fluid_problem`` before solving: exit 2 naming the key):
 
 * arrangements ``counterflow`` and ``double_pipe`` (any number of shells in series: still
   counterflow), and ``tema_e`` with two tube passes and one shell in series: those
