@@ -348,3 +348,17 @@ def test_a_furnace_on_a_wide_boiling_curve_adds_the_heat_of_vaporisation():
     h_260 = 700.0 + (780.0 - 700.0) * (260.0 - 250.0) / 20.0
     assert abs(result.units.loc["F-1", "duty_kw"] - 20.0 * (h_260 - 470.0)) <= 1e-9
     assert abs(result.streams["vapour_fraction"].iloc[-1] - 0.7) <= 1e-12
+
+
+def test_an_exchanger_rated_by_zones_is_not_back_calculated():
+    """Plant-data back-calculation (mean cp over each side's range) would give a UA that belongs
+    to no exchanger where a side boils: NaN with the reason, never a number."""
+    from hxtrain.units.protocol import PortStates
+
+    net = build_network(load_case(demo_case_path("naphtha_vaporiser")))
+    fluids = tuple(net.fluids[s] for s in net.inlets["E-301"])
+    states = PortStates(np.array([[290.0, 45.0]]), np.array([[30.0, 16.7]]), np.array([[185.0, 211.0]]),
+                        np.array([[30.0, 16.7]]), fluids, fluids)
+    condition = net.units["E-301"].condition(states)
+    assert np.isnan(condition["ua"][0]) and np.isnan(condition["fouling"][0])
+    assert "not back-calculated" in condition["reason"][0]

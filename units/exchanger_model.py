@@ -104,7 +104,14 @@ class Exchanger(UnitBase):
 
     def condition(self, states):
         """Duty, UA, service and clean U and fouling resistance from the terminal temperatures
-        and flows (:func:`.back_calculation.back_calculate`)."""
+        and flows (:func:`.back_calculation.back_calculate`). Not for an exchanger rated by zones:
+        its sides' states at a plateau are not fixed by temperatures, and a mean cp over a boiling
+        range would give a UA that is no one's: NaN, with the reason."""
+        if rated_by_zones(states.fluids_in):
+            nothing = np.full(states.t_in.shape[0], np.nan)
+            reason = np.full(nothing.shape, "a side on an enthalpy curve that holds vapour: not back-calculated in "
+                                            "this version", dtype=object)
+            return {k: nothing for k in ("duty", "ua", "u_service", "u_clean", "fouling", "p", "r")} | {"reason": reason}
         c = back_calculate(self.spec, states.t_in[:, 0], states.t_out[:, 0], states.t_in[:, 1], states.t_out[:, 1],
                            states.m_in[:, 0], states.m_in[:, 1], states.fluids_in[0], states.fluids_in[1])
         return {"duty": c.duty, "ua": c.ua, "u_service": c.u_service, "u_clean": c.u_clean, "fouling": c.fouling,
