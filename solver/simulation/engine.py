@@ -63,12 +63,6 @@ class TemperatureSolution:
         return sum(b.tears.iterations for b in self.blocks if b.tears is not None)
 
 
-def inlets_of(net, name, temperature, flow) -> Inlets:
-    """What enters unit ``name``: temperatures and flows of its inlet segments and their fluids."""
-    inlet = net.inlets[name]
-    return Inlets(temperature[:, inlet], flow[:, inlet], tuple(net.fluids[s] for s in inlet))
-
-
 @dataclass
 class UnitGroup:
     """Units of one class and port counts, evaluated together in one stacked call: their names,
@@ -151,7 +145,8 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None) ->
         plan = plan_calculation(net.graph)
     layout = segment_state(net)
     flow = np.broadcast_to(net.flow, (batch, len(net.segments)))  # (segments,) or per scenario
-    # column-major: a unit reads and writes whole segments, each then contiguous over the batch
+    # column-major: a unit reads and writes whole segments, each then contiguous over the batch.
+    # It holds the segments' states: temperatures, and h/c where a segment carries enthalpy
     temperature = np.full((batch, len(net.segments)), np.nan, order="F")
     outcomes = []
     converged = np.ones(batch, bool)
