@@ -7,7 +7,7 @@ from pathlib import Path
 
 from .errors import CaseError
 
-DEMO_CASES = ("crude_preheat", "feed_effluent", "product_cooling", "desalter_and_reactor")
+DEMO_CASES = ("crude_preheat", "feed_effluent", "product_cooling", "desalter_and_reactor", "naphtha_vaporiser")
 """Demo case names; the first is what ``hxtrain run`` uses with no case given."""
 
 

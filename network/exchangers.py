@@ -47,6 +47,7 @@ def read_exchanger(f: Fields) -> dict:
         "design_temperature": _by_side(f, "design_temperature", q.TEMPERATURE, spec.shell_side, shell_side_given),
         "maximum_flow": _by_side(f, "maximum_flow", q.MASS_FLOW, spec.shell_side, shell_side_given),
         "allowable_pressure_drop": {},
+        "maximum_vapour_fraction": _by_side(f, "maximum_vapour_fraction", q.FRACTION, spec.shell_side, shell_side_given),
     }
     _read_pressure_drop(f, spec, limits)
     f.text("description")

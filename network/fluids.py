@@ -1,6 +1,7 @@
 """Reading a fluid's properties from a case file into a property model.
 
-cp takes one of four forms::
+A fluid is given by its cp, or on an enthalpy curve (``enthalpy_curve``, ``water_steam``: see
+:mod:`.fluid_curves`). cp takes one of four forms::
 
     cp: 2.3                                    # constant, kJ/kg·K
     cp: {polynomial: [1.75, 0.0042]}           # a0 + a1·T + ..., T in °C
@@ -20,6 +21,7 @@ from hxtrain.units import properties as props
 
 from . import quantities as q
 from .fields import Fields, describe
+from .fluid_curves import CURVE_FORMS, read_curve
 from .quantities import QuantityError, to_default_unit
 
 DEFAULT_SPAN = (-50.0, 600.0)
@@ -38,7 +40,7 @@ MAX_COEFFICIENTS = 10
 def read_fluid(f: Fields) -> props.FluidModel:
     model = _read_model(f)
     model.name = f.path[-1]
-    range_key = "valid_range" if f.has("valid_range") else "cp"
+    range_key = "valid_range" if f.has("valid_range") else next((k for k in CURVE_FORMS if f.has(k)), "cp")
     model.range_key = ".".join(map(str, f.path + (range_key,)))
     model.extrapolate = f.flag("extrapolate")
     f.finish()
@@ -53,8 +55,12 @@ def _read_model(f: Fields) -> props.FluidModel:
         "valid_range": _range(f),
     }
     f.text("description")
-    if f.has("petroleum") == f.has("cp"):
-        raise f.error(None, "give exactly one of 'cp' and 'petroleum'")
+    forms = [k for k in ("cp", "petroleum") + CURVE_FORMS if f.has(k)]
+    if len(forms) != 1:
+        raise f.error(None if not forms else forms[1], "give exactly one of 'cp', 'petroleum', 'enthalpy_curve' and "
+                                                       f"'water_steam' (found {' and '.join(forms) or 'none'})")
+    if forms[0] in CURVE_FORMS:
+        return read_curve(f, transport)
     if f.has("petroleum"):
         model = _petroleum(f.mapping("petroleum"), transport)
     else:

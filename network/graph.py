@@ -110,6 +110,7 @@ def build_network(case: Case, values: dict | None = None) -> Network:
     if values is None and not net.valid[0]:
         raise case.error(net.reason_key[0], net.message[0])
     check_properties(net)
+    check_enthalpy_fluids(net)
     return net
 
 
@@ -252,6 +253,38 @@ def check_properties(net: Network):
                 raise net.case.error(tuple(net.case.keys[name]) + (need.key,),
                                      f"{need.reason} needs the {' and '.join(missing)} of the fluid on the "
                                      f"{port} side (segment {net.segments[seg].label}); add it to its fluid")
+
+
+def check_enthalpy_fluids(net: Network):
+    """Fluids on enthalpy curves go where this version can carry them: they mix with no other
+    fluid (a blend of two curves is not the mixture's curve: its bubble and dew points are not
+    weighted means of the parts'), a fluid with a saturation plateau, whose streams carry
+    enthalpy, enters and leaves only units that take enthalpy (``outlet_states``), and each unit
+    can rate the fluids that reach it (``fluid_problem``: an exchanger rated by zones)."""
+    from hxtrain.units.enthalpy_curves import EnthalpyCurve
+
+    for seg, fluid in zip(net.segments, net.fluids):
+        members = fluid.members()
+        curves = [m.name for m in members if isinstance(m, EnthalpyCurve)]
+        if curves and len(members) > 1:
+            others = sorted({m.name for m in members} - set(curves[:1]))
+            raise net.case.error(tuple(net.case.keys[seg.source]),
+                                 f"fluid '{curves[0]}' (on an enthalpy curve) meets {', '.join(map(repr, others))} at "
+                                 f"{seg.source}: a fluid on an enthalpy curve mixes with no other fluid in this version "
+                                 "(give the mixture its own curve)")
+        if not fluid.state_by_enthalpy:
+            continue
+        for name in (seg.source, seg.target):
+            if not protocol.takes_enthalpy_state(net.units[name]):
+                raise net.case.error(tuple(net.case.keys[name]),
+                                     f"fluid '{fluid.name}' has a saturation plateau, where temperature does not fix "
+                                     f"its state; {name} ({net.units[name].kind}) cannot take it in this version (only "
+                                     "supplies, products, mixers, splitters and exchangers can)")
+    for name, unit in net.units.items():
+        asks = getattr(unit, "fluid_problem", None)
+        problem = asks(tuple(net.fluids[s] for s in net.inlets[name])) if asks else None
+        if problem is not None:
+            raise net.case.error(tuple(net.case.keys[name]) + (problem[0],), problem[1])
 
 
 def _recycle_key(net: Network):

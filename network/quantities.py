@@ -82,6 +82,11 @@ CONDUCTANCE = Kind("a conductance UA", "kW/delta_degC", '85 or "160000 Btu/h/deg
 STEAM_PRESSURE = Kind("an absolute steam pressure", "kPa", '1000 or "10 bar"', low=1.0, high=22000.0,
                       basis="saturated steam by IAPWS-IF97 from 1 kPa (7 °C) to just below the critical pressure "
                             "of water, 22 064 kPa")
+SPECIFIC_ENTHALPY = Kind("a specific enthalpy", "kJ/kg", '2778 or "1194 Btu/lb"', low=-2e4, high=2e4,
+                         basis="steam at 800 °C is ~4100 kJ/kg above liquid at 0 °C; 20 MJ/kg is beyond any "
+                               "process stream's heat content, combustion included: common practice")
+PRESSURE = Kind("an absolute pressure", "kPa", '1000 or "10 bar"', low=0.611657, high=1e5,
+                basis="the triple-point pressure of water to 100 MPa, the span of IAPWS-IF97")
 FRACTION = Kind("a fraction", "dimensionless", '0.4 or "40 %"', low=0.0, high=1.0, basis="a share lies from 0 to 1",
                 least_nonzero=2.2e-16)
 """A share below the spacing of floating-point numbers at 1 vanishes against its complement

@@ -89,6 +89,7 @@ def _read_stream(f: Fields, reading: Reading) -> dict:
         "flow": f.quantity("flow", q.MASS_FLOW),
         "supply_temperature": f.quantity("supply_temperature", q.TEMPERATURE),
         "utility": f.flag("utility"),
+        "vapour_fraction": _supply_vapour_fraction(f, reading),
     }
     reading.starts_path(name, f, name, "out")
     f.text("description")
@@ -96,8 +97,26 @@ def _read_stream(f: Fields, reading: Reading) -> dict:
     return data
 
 
+def _supply_vapour_fraction(f: Fields, reading: Reading):
+    """A supply's vapour fraction: needed where its temperature is that of a saturation plateau
+    of its fluid (then T does not fix the state), refused anywhere else (T fixes it there)."""
+    fluid = reading.fluids[f.raw("fluid")]
+    t = f.quantity("supply_temperature", q.TEMPERATURE)
+    bounds = fluid.enthalpy_bounds(t) if fluid.state_by_enthalpy else None
+    on_plateau = bounds is not None and bool(bounds[0] < bounds[1])
+    given = f.quantity("vapour_fraction", q.FRACTION, required=False)
+    if on_plateau and given is None:
+        raise f.error("vapour_fraction", f"{t:g} °C is the saturation temperature of fluid '{fluid.name}' at its "
+                                         "pressure, where temperature does not fix the state: give the supply's "
+                                         "'vapour_fraction' (0 saturated liquid, 1 saturated vapour)")
+    if given is not None and not on_plateau:
+        raise f.error("vapour_fraction", f"the supply's temperature fixes its state ({t:g} °C is not a saturation "
+                                         f"temperature of fluid '{fluid.name}'): leave out 'vapour_fraction'")
+    return given
+
+
 def _build_stream(name, key, data, building):
-    return stream_units.Source(name, key, data["flow"], data["supply_temperature"])
+    return stream_units.Source(name, key, data["flow"], data["supply_temperature"], data.get("vapour_fraction"))
 
 
 def _read_exchanger(f: Fields, reading: Reading) -> dict:

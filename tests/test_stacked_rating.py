@@ -12,7 +12,7 @@ import pytest
 from hxtrain.network import build_network, case_from_mapping, load_case
 from hxtrain.solver import demo_case_path
 from hxtrain.solver.demos import DEMO_CASES
-from hxtrain.solver.simulation import block_newton, evaluation
+from hxtrain.solver.simulation import engine, evaluation
 from hxtrain.solver.simulation.benchmark import fixed_property_variant
 from hxtrain.solver.simulation.engine import solve_temperatures
 from hxtrain.solver.simulation.sequencing import plan_calculation
@@ -30,7 +30,7 @@ def _solve(mapping):
     net = build_network(case)
     solution = solve_temperatures(net, tolerance=case.settings.tolerance, max_iterations=case.settings.max_iterations,
                                   plan=plan_calculation(net.graph))
-    return solution, evaluation.unit_reports(net, solution.temperature, np.broadcast_to(net.flow, solution.temperature.shape))
+    return solution, evaluation.unit_reports(net, solution, np.broadcast_to(net.flow, solution.temperature.shape))
 
 
 @pytest.mark.parametrize("properties", ["varying", "fixed"])
@@ -48,9 +48,9 @@ def test_every_ladder_shape_solves_to_the_same_numbers_stacked_as_unit_by_unit(s
             return rate(units, inlets)
         return rate_and_count
 
-    monkeypatch.setattr(block_newton, "outlet_temperatures_together", counted("stacked", stacked_rating))
+    monkeypatch.setattr(engine, "outlet_temperatures_together", counted("stacked", stacked_rating))
     together, reports = _solve(ladder_case(shape, 300, properties))
-    monkeypatch.setattr(block_newton, "outlet_temperatures_together", counted("alone", one_by_one))
+    monkeypatch.setattr(engine, "outlet_temperatures_together", counted("alone", one_by_one))
     monkeypatch.setattr(evaluation, "reports_together", reports_one_by_one)
     alone, own_reports = _solve(ladder_case(shape, 300, properties))
     for name, report in reports.items():

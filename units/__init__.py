@@ -14,7 +14,8 @@
 - :mod:`.balances`: one-stream energy balances;
 - :mod:`.protocol`: the :class:`~.protocol.UnitModel` protocol the solver uses, with its
   reports, findings and parameters;
-- :mod:`.exchanger_model` and :mod:`.stream_units`: the units behind that protocol.
+- :mod:`.exchanger_model` and :mod:`.stream_units`: the units behind that protocol;
+  :mod:`.zone_exchanger`: an exchanger with a fluid on an enthalpy curve, rated by zones.
 
 The names below are imported on first use (PEP 562), so that importing one module of the
 package (the fluid models, say) does not load every relation and its special functions.

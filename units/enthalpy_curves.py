@@ -117,6 +117,42 @@ class EnthalpyCurve(FluidModel):
         """True where one cp holds over the whole table (all intervals alike to 1e-12, no plateau)."""
         return self._single_cp
 
+    @property
+    def state_by_enthalpy(self) -> bool:
+        """True where the curve has a saturation plateau: there T does not fix the state, so a
+        stream of this fluid carries its specific enthalpy (see :mod:`.protocol`)."""
+        return bool(self.plateaus.any())
+
+    @property
+    def holds_vapour(self) -> bool:
+        """True where any row has vapour: the fluid may boil or condense along the curve."""
+        return bool(np.any(self.q_points > 0.0))
+
+    @property
+    def enthalpy_scale(self) -> float:
+        """kJ/kg·K: the smallest cp of the curve's sloped intervals. An enthalpy difference over
+        it is a temperature difference no smaller than the true one on any single-phase part of
+        the curve (the solver's tolerance in K on a stream that carries enthalpy)."""
+        return float(np.min(self.interval_cp[~self.plateaus]))
+
+    def enthalpy_at(self, t, vapour_fraction=None):
+        """Specific enthalpy (kJ/kg) at ``t`` (°C); at a plateau's temperature the point of the
+        plateau with ``vapour_fraction`` (kg/kg, linear along the plateau as the table is), NaN
+        there without one.
+
+        >>> water = EnthalpyCurve([90.0, 100.0, 100.0], [377.0, 419.0, 2675.0], [0.0, 0.0, 1.0])
+        >>> float(water.enthalpy_at(100.0, 0.5)), float(water.enthalpy_at(95.0, 0.5))
+        (1547.0, 398.0)
+        """
+        low, high = self.enthalpy_bounds(t)
+        if vapour_fraction is None:
+            return np.where(low == high, low, np.nan)
+        q = np.asarray(vapour_fraction, dtype=float)
+        q_low, q_high = self.vapour_fraction(low), self.vapour_fraction(high)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            share = np.clip((q - q_low) / (q_high - q_low), 0.0, 1.0)
+        return np.where(low == high, low, low + share * (high - low))
+
     def _interval_of_h(self, h):
         """Index of the interval holding each h (the end intervals beyond the table)."""
         return np.clip(np.searchsorted(self.h_points, h, side="right") - 1, 0, len(self.h_points) - 2)

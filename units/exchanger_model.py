@@ -13,6 +13,7 @@ from .u_models import Coefficients, FixedCoefficient, GeometryFilms
 from .back_calculation import back_calculate
 from .service_rating import ExchangerSpec, ServiceRating, pressure_drops, rate_in_service
 from .properties import stacked, stacking_key
+from .zone_exchanger import rate_zoned, rated_by_zones, zone_problem, zone_report
 
 __all__ = ["Exchanger"]
 
@@ -21,7 +22,10 @@ class Exchanger(UnitBase):
     """A two-stream exchanger rated by P–NTU in service (:func:`rate_in_service`).
 
     ``limits`` may hold ``design_temperature`` {"hot"/"cold": °C}, ``maximum_flow``
-    {"hot"/"cold": kg/s} and ``allowable_pressure_drop`` {"shell"/"tube": Pa}.
+    {"hot"/"cold": kg/s}, ``allowable_pressure_drop`` {"shell"/"tube": Pa} and
+    ``maximum_vapour_fraction`` {"hot"/"cold": kg/kg, checked where a side is on an enthalpy
+    curve}. An exchanger with a fluid on an enthalpy curve is rated by zones
+    (:mod:`.zone_exchanger`).
     ``minimum_approach`` (K) and ``minimum_f`` are the warning lines.
     """
 
@@ -40,6 +44,7 @@ class Exchanger(UnitBase):
         from) utilities rather than heat recovered between process streams."""
         self._last_outlets = None  # warm start of the in-service iteration (speed only)
         self._affine = None  # the outlets' fixed fractions of the inlet difference, and what they hold for
+        self._curves = {}  # cp models sampled as enthalpy curves for zone rating (speed only)
 
     @property
     def total(self):
@@ -55,6 +60,10 @@ class Exchanger(UnitBase):
             return None
         needed = ("viscosity", "conductivity") + (("density",) if self.spec.pressure_drop else ())
         return PropertyNeed(needed, "geometry", "rating from geometry")
+
+    def fluid_problem(self, fluids):
+        """Why this exchanger cannot be rated by zones where a side's fluid asks for it (None if it can)."""
+        return zone_problem(self.spec, fluids) if rated_by_zones(fluids) else None
 
     def parameters(self):
         spec = self.spec
@@ -96,7 +105,14 @@ class Exchanger(UnitBase):
 
     def condition(self, states):
         """Duty, UA, service and clean U and fouling resistance from the terminal temperatures
-        and flows (:func:`.back_calculation.back_calculate`)."""
+        and flows (:func:`.back_calculation.back_calculate`). Not for an exchanger rated by zones:
+        its sides' states at a plateau are not fixed by temperatures, and a mean cp over a boiling
+        range would give a UA that is no one's: NaN, with the reason."""
+        if rated_by_zones(states.fluids_in):
+            nothing = np.full(states.t_in.shape[0], np.nan)
+            reason = np.full(nothing.shape, "a side on an enthalpy curve that holds vapour: not back-calculated in "
+                                            "this version", dtype=object)
+            return {k: nothing for k in ("duty", "ua", "u_service", "u_clean", "fouling", "p", "r")} | {"reason": reason}
         c = back_calculate(self.spec, states.t_in[:, 0], states.t_out[:, 0], states.t_in[:, 1], states.t_out[:, 1],
                            states.m_in[:, 0], states.m_in[:, 1], states.fluids_in[0], states.fluids_in[1])
         return {"duty": c.duty, "ua": c.ua, "u_service": c.u_service, "u_clean": c.u_clean, "fouling": c.fouling,
@@ -115,6 +131,8 @@ class Exchanger(UnitBase):
                 "fouling.tube": np.zeros_like(fouling)}
 
     def outlet_temperatures(self, inlets):
+        if rated_by_zones(inlets.fluids):
+            return self.outlet_states(inlets, inlets.fluids)[0]
         fractions = self._affine_fractions(inlets)
         if fractions is not None:
             t_hot, t_cold = inlets.t[:, 0], inlets.t[:, 1]
@@ -145,6 +163,26 @@ class Exchanger(UnitBase):
         self._affine = (fluids[0], fluids[1], np.array(m), fractions)
         return fractions
 
+    def outlet_states(self, inlets, outlet_fluids):
+        """Outlet temperatures and enthalpies: from the zone rating where a side is on an
+        enthalpy curve (NaN where it cannot be rated: the report says why), else the rating's
+        temperatures with the outlet fluids' enthalpies."""
+        if not rated_by_zones(inlets.fluids):
+            t = self.outlet_temperatures(inlets)
+            return t, np.stack([f.enthalpy(t[:, j]) for j, f in enumerate(outlet_fluids)], axis=1)
+        service = self._rate_zoned(inlets)
+        if service is None:
+            nothing = np.full((inlets.batch, 2), np.nan)
+            return nothing, nothing
+        return (np.stack([service.t_hot_out, service.t_cold_out], axis=1),
+                np.stack([service.h_hot_out, service.h_cold_out], axis=1))
+
+    def _rate_zoned(self, inlets):
+        """The zone rating (:mod:`.zone_exchanger`), None where this exchanger cannot be rated so."""
+        if zone_problem(self.spec, inlets.fluids) is not None:
+            return None
+        return rate_zoned(self.spec, inlets, self._curves)
+
     @classmethod
     def outlet_temperatures_together(cls, units, inlets):
         """Exchangers that share arrangement, shells, fluids (or a blend's constituents) and a U
@@ -169,8 +207,8 @@ class Exchanger(UnitBase):
         for members, service in cls._stacks(units, inlets, details=True):
             for j, k in enumerate(members):
                 one = inlets.of(k)
-                mine = units[k].rate(one) if service is None else units[k]._share(service, j, len(members), one)
-                reports[k] = units[k]._report_from(one, mine)
+                reports[k] = units[k].report(one) if service is None else \
+                    units[k]._report_from(one, units[k]._share(service, j, len(members), one))
         return reports
 
     @classmethod
@@ -191,7 +229,7 @@ class Exchanger(UnitBase):
     def _stacking_key(self, fluids):
         """Exchangers of one key rate together; None: this one rates alone (U follows the films)."""
         spec = self.spec
-        if spec.ua is None and not isinstance(spec.thermal, FixedCoefficient):
+        if (spec.ua is None and not isinstance(spec.thermal, FixedCoefficient)) or rated_by_zones(fluids):
             return None
         bypassed = tuple(bool(np.any(np.asarray(b) != 0.0)) for b in (spec.bypass_hot, spec.bypass_cold))
         return (spec.arrangement, spec.shells, spec.shells_in_parallel, spec.tube_passes, spec.shell_side,
@@ -243,6 +281,8 @@ class Exchanger(UnitBase):
         return ServiceRating(rating, coefficients, part(service.ua), drops, part(service.passes))
 
     def report(self, inlets):
+        if rated_by_zones(inlets.fluids):
+            return zone_report(self, inlets, self._rate_zoned(inlets), zone_problem(self.spec, inlets.fluids))
         return self._report_from(inlets, self.rate(inlets))
 
     def _report_from(self, inlets, service):

@@ -65,6 +65,10 @@ class FluidModel:
     def constant_cp(self) -> bool:
         return False
 
+    state_by_enthalpy = False
+    """Whether T fails to fix the state somewhere (a saturation plateau): a stream of such a
+    fluid carries its specific enthalpy rather than its temperature."""
+
     def viscosity(self, t):
         return None if self.viscosity_model is None else self.viscosity_model(t)
 
@@ -282,6 +286,10 @@ class Blend(FluidModel):
 
     def members(self):
         return [m for f in self.fluids for m in f.members()]
+
+    @property
+    def state_by_enthalpy(self) -> bool:
+        return any(f.state_by_enthalpy for f in self.fluids)
 
     def cp(self, t):
         return sum(w * f.cp(t) for f, w in zip(self.fluids, self.fractions))

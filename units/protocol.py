@@ -23,7 +23,7 @@ from typing import Protocol
 import numpy as np
 
 
-__all__ = ["UnitModel", "UnitBase", "Inlets", "StackedInlets", "outlet_temperatures_together", "reports_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
+__all__ = ["UnitModel", "UnitBase", "Inlets", "takes_enthalpy_state", "StackedInlets", "outlet_temperatures_together", "reports_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
            "TOTALS", "HEAT_SOURCES"]
 
 SEVERITIES = ("limit", "warning", "input")
@@ -125,24 +125,34 @@ class UnitReport:
     """Named results a study may target: ``duty``, ``hot_out``, ``inlet``, ``outlet``, ..."""
     highlights: dict[str, np.ndarray] = field(default_factory=dict)
     """Headline numbers of the run this unit gives (a furnace's inlet temperature)."""
+    profile: dict[str, np.ndarray] = field(default_factory=dict)
+    """Temperatures along an exchanger where they are not straight lines between its ends (rated
+    by zones): ``duty`` (kW from the cold end), ``hot`` and ``cold`` (°C), each (batch, points)."""
 
 
 @dataclass
 class Inlets:
     """What enters a unit: temperatures (°C) and mass flows (kg/s), each (batch, inlets), and the
-    fluid model of each inlet (a blend where streams of several fluids have mixed)."""
+    fluid model of each inlet (a blend where streams of several fluids have mixed). ``h``
+    (kJ/kg, (batch, inlets)) is given where a unit is asked for :meth:`UnitModel.outlet_states`:
+    the state of an inlet whose fluid has a saturation plateau, where ``t`` alone does not fix it."""
 
     t: np.ndarray
     m: np.ndarray
     fluids: tuple
+    h: np.ndarray | None = None
 
     @property
     def batch(self) -> int:
         return self.t.shape[0]
 
+    def enthalpy(self, j):
+        """Specific enthalpy of inlet j, kJ/kg: as given, or from its temperature."""
+        return self.h[:, j] if self.h is not None else self.fluids[j].enthalpy(self.t[:, j])
+
     def enthalpy_flow(self, j):
-        """ṁ·h of inlet j, kW (enthalpy referred to 0 °C)."""
-        return self.m[:, j] * self.fluids[j].enthalpy(self.t[:, j])
+        """ṁ·h of inlet j, kW (enthalpy referred to 0 °C, or to a curve's own reference)."""
+        return self.m[:, j] * self.enthalpy(j)
 
     def capacity(self, j):
         """ṁ·cp of inlet j at its inlet temperature, kW/K."""
@@ -157,10 +167,11 @@ class StackedInlets:
     t: np.ndarray
     m: np.ndarray
     fluids: list
+    h: np.ndarray | None = None
 
     def of(self, k) -> Inlets:
         """The inlets of unit ``k`` alone."""
-        return Inlets(self.t[k], self.m[k], self.fluids[k])
+        return Inlets(self.t[k], self.m[k], self.fluids[k], None if self.h is None else self.h[k])
 
 
 def outlet_temperatures_together(units, inlets: StackedInlets) -> np.ndarray:
@@ -229,6 +240,13 @@ class UnitModel(Protocol):
 
     def outlet_temperatures(self, inlets: Inlets) -> np.ndarray: ...
 
+    def outlet_states(self, inlets: Inlets, outlet_fluids) -> tuple[np.ndarray, np.ndarray]:
+        """Optional: outlet temperatures and specific enthalpies (kJ/kg), each (batch, outlets),
+        from inlets that carry ``h``; ``outlet_fluids`` are the fluids leaving. Only a unit that
+        has it may take a fluid whose state T does not fix (``state_by_enthalpy``): the
+        solver carries enthalpy on those streams and asks such a unit this instead of
+        :meth:`outlet_temperatures`."""
+
     @classmethod
     def outlet_temperatures_together(cls, units, inlets: StackedInlets) -> np.ndarray:
         """Outlet temperatures (units, batch, outlets) of several units of this class, equal to
@@ -286,6 +304,14 @@ class UnitModel(Protocol):
 
     def required_properties(self) -> PropertyNeed | None:
         """Fluid properties besides cp needed on every inlet, and why."""
+
+    def fluid_problem(self, fluids) -> tuple[str, str] | None:
+        """(key below the unit's entry, message) where the unit cannot rate these inlet fluids."""
+
+
+def takes_enthalpy_state(unit) -> bool:
+    """Whether ``unit`` can take streams that carry enthalpy (it has ``outlet_states``)."""
+    return callable(getattr(unit, "outlet_states", None))
 
 
 def check(kind, severity, active, key, template, **values):
@@ -367,6 +393,11 @@ class UnitBase:
 
     def required_properties(self) -> PropertyNeed | None:
         """Fluid properties besides cp the unit needs on every inlet: the case must give them."""
+        return None
+
+    def fluid_problem(self, fluids) -> tuple[str, str] | None:
+        """(key below the unit's entry, message) where the unit cannot rate the fluids that reach
+        its inlets (``fluids``, in inlet order), else None: bad input the network refuses."""
         return None
 
     @classmethod

@@ -14,15 +14,17 @@ __all__ = ["Source", "Sink", "Mixer", "Splitter", "Heater", "mix", "shared_fract
 
 
 class Source(UnitBase):
-    """A supply of one fluid at a fixed flow (kg/s) and temperature (°C)."""
+    """A supply of one fluid at a fixed flow (kg/s) and temperature (°C); ``vapour_fraction``
+    (kg/kg) places it on its fluid's saturation plateau where the temperature is that of one."""
 
     kind = "supply"
     inlets = ()
 
-    def __init__(self, name, key, flow, temperature):
+    def __init__(self, name, key, flow, temperature, vapour_fraction=None):
         self.name, self.key = name, key
         self.flow = np.asarray(flow, dtype=float)
         self.temperature = np.asarray(temperature, dtype=float)
+        self.vapour_fraction = vapour_fraction
 
     def supplied_flow(self):
         return self.flow[..., None]
@@ -41,6 +43,14 @@ class Source(UnitBase):
 
     def outlet_temperatures(self, inlets):
         return np.broadcast_to(self.temperature, (inlets.batch,))[:, None].copy()
+
+    def outlet_states(self, inlets, outlet_fluids):
+        """The supply's temperature and its enthalpy on the fluid's curve (on a plateau, at the
+        supply's vapour fraction; NaN there without one)."""
+        t = self.outlet_temperatures(inlets)
+        fluid = outlet_fluids[0]
+        at = getattr(fluid, "enthalpy_at", None)
+        return t, (fluid.enthalpy(t) if at is None else at(t, self.vapour_fraction))
 
     def report(self, inlets):
         t = self.outlet_temperatures(inlets)[:, 0]
@@ -67,6 +77,9 @@ class Sink(UnitBase):
     def outlet_temperatures(self, inlets):
         return np.empty((inlets.batch, 0))
 
+    def outlet_states(self, inlets, outlet_fluids):
+        return np.empty((inlets.batch, 0)), np.empty((inlets.batch, 0))
+
     def balances(self, states, unknowns):
         return np.empty((states.t_in.shape[0], 0))  # what leaves the network is free
 
@@ -92,8 +105,17 @@ class Mixer(UnitBase):
     def outlet_temperatures(self, inlets):
         return mix(inlets)[:, None]
 
+    def outlet_states(self, inlets, outlet_fluids):
+        """Mixed by enthalpy: on a stream that carries enthalpy every inlet has one fluid (fluids
+        on enthalpy curves mix with no other), so the outlet's h is the flow-weighted mean."""
+        total = inlets.m.sum(axis=1)
+        flows = total > 0.0
+        h_in = sum(inlets.enthalpy_flow(j) for j in range(inlets.m.shape[1]))
+        h = np.where(flows, h_in / np.where(flows, total, 1.0), inlets.h.mean(axis=1))[:, None]
+        return outlet_fluids[0].temperature(h), h
+
     def report(self, inlets):
-        t = mix(inlets)
+        t = mix(inlets) if inlets.h is None else self.outlet_states(inlets, inlets.fluids[:1])[0][:, 0]
         return UnitReport({"t_out": t}, metrics={"outlet": t})
 
 
@@ -164,6 +186,9 @@ class Splitter(UnitBase):
 
     def outlet_temperatures(self, inlets):
         return np.repeat(inlets.t, len(self.outlets), axis=1)
+
+    def outlet_states(self, inlets, outlet_fluids):
+        return self.outlet_temperatures(inlets), np.repeat(inlets.h, len(self.outlets), axis=1)
 
     def balance_identities(self):
         return tuple(("temperature", "in", branch) for branch in self.outlets)

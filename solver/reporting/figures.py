@@ -80,7 +80,9 @@ def profiles_svg(result: SimulationResult, display: Display) -> str:
 def tq_svgs(result: SimulationResult, display: Display) -> dict:
     """One small T–Q picture per exchanger: the hot and cold sides' temperatures against the
     duty, counter-current (the cold inlet at the left), the smallest approach marked; drawn in
-    red where the exchanger violates a limit. Straight lines join the end temperatures."""
+    red where the exchanger violates a limit. Straight lines join the end temperatures, or the
+    zones' boundaries where the exchanger is rated by zones (its exchanger proper: a bypass
+    rejoins after it)."""
     plt = _pyplot()
     units = result.units[result.units["group"] == "exchangers"]
     limited = set(result.limits["unit"])
@@ -90,13 +92,18 @@ def tq_svgs(result: SimulationResult, display: Display) -> dict:
     with plt.rc_context(STYLE):
         for tag, row in units.iterrows():
             figure, ax = plt.subplots(figsize=(3.0, 2.3))
-            q = display.value("duty", abs(row["duty_kw"]))
-            hot = display.value("temperature", [row["hot_out_c"], row["hot_in_c"]])
-            cold = display.value("temperature", [row["cold_in_c"], row["cold_out_c"]])
-            ax.plot([0, q], hot, color=COOLED, linewidth=2, label="hot side")
-            ax.plot([0, q], cold, color=HEATED, linewidth=2, label="cold side")
-            approach_at = 0 if (hot[0] - cold[0]) <= (hot[1] - cold[1]) else 1
-            ax.plot([[0, q][approach_at]] * 2, [hot[approach_at], cold[approach_at]], ":", color="#555", linewidth=1)
+            zones = result.profiles.get(tag)
+            if zones is None:
+                q = display.value("duty", np.array([0.0, abs(row["duty_kw"])]))
+                hot = display.value("temperature", np.array([row["hot_out_c"], row["hot_in_c"]]))
+                cold = display.value("temperature", np.array([row["cold_in_c"], row["cold_out_c"]]))
+            else:
+                q = display.value("duty", np.abs(zones["duty"]))
+                hot, cold = (display.value("temperature", zones[side]) for side in ("hot", "cold"))
+            ax.plot(q, hot, color=COOLED, linewidth=2, label="hot side")
+            ax.plot(q, cold, color=HEATED, linewidth=2, label="cold side")
+            approach_at = int(np.argmin(np.asarray(hot) - np.asarray(cold)))
+            ax.plot([q[approach_at]] * 2, [hot[approach_at], cold[approach_at]], ":", color="#555", linewidth=1)
             bad = tag in limited
             ax.set_title(f"{tag}{'  limit violated' if bad else ''}", loc="left", fontsize=9,
                          color=LIMIT if bad else "#222", fontweight="bold")

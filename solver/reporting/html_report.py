@@ -26,7 +26,7 @@ from .display_units import Display, current, difference_columns
 from .network_diagram import network_svg
 from .report_style import STYLE
 from .text import EXCHANGER_WORDS, ONE_STREAM_WORDS, SEPARATOR_WORDS, SERVICE_WORDS, STREAM_WORDS, exchanger_table, \
-    one_stream_table, separator_table, service_table
+    one_stream_table, separator_table, service_table, stream_table
 
 FORMATS = (".html", ".htm")
 
@@ -143,7 +143,7 @@ def case_body(result: SimulationResult, display: Display) -> list[str]:
     if len(separators):
         tables.append(html_table(separators, display, SEPARATOR_WORDS, ids=True, limited=limited,
                                  caption="Desalters (outlets leave at one temperature from the balance)"))
-    tables.append(html_table(result.streams[list(STREAM_WORDS)], display, STREAM_WORDS, caption="Stream segments"))
+    tables.append(html_table(stream_table(result), display, STREAM_WORDS, caption="Stream segments"))
     body.append("<section id=\"tables\"><h2>Tables</h2>" + "".join(tables) + "</section>")
     body.append(f"<footer>{escape(result.message)}</footer>")
     return body

@@ -21,8 +21,10 @@ from .console_tables import WIDTH, fixed, render  # noqa: F401  (fixed: the one 
 from .display_units import Display, current
 
 EXCHANGER_WORDS = {"duty_kw": "duty", "hot_in_c": "hot in", "hot_out_c": "hot out", "cold_in_c": "cold in",
-                   "cold_out_c": "cold out", "air_flow_kg_s": "air flow", "ua_kw_per_k": "UA", "ntu_hot": "NTU", "p_hot": "P", "r_hot": "R",
-                   "f": "F", "lmtd_k": "LMTD", "min_approach_k": "approach", "findings": "findings"}
+                   "cold_out_c": "cold out", "hot_out_vapour_fraction": "hot out vapour",
+                   "cold_out_vapour_fraction": "cold out vapour", "air_flow_kg_s": "air flow", "ua_kw_per_k": "UA", "ntu_hot": "NTU", "p_hot": "P", "r_hot": "R",
+                   "f": "F", "lmtd_k": "LMTD", "min_approach_k": "approach", "internal_approach_k": "approach inside",
+                   "findings": "findings"}
 SERVICE_WORDS = {"u_source": "U from", "u_service_w_m2k": "U service", "u_clean_w_m2k": "U clean",
                  "fouling_shell_m2k_w": "fouling shell", "fouling_tube_m2k_w": "fouling tube",
                  "h_shell_w_m2k": "h shell", "h_tube_w_m2k": "h tube", "re_tube": "Re tube",
@@ -37,8 +39,13 @@ SEPARATOR_WORDS = {"type": "type", "inlet_c": "crude in", "wash_water_in_c": "wa
                    "crude_drop_k": "crude drop", "brine_kg_s": "brine", "findings": "findings"}
 """The desalters' table (units in the ``separators`` group)."""
 STREAM_WORDS = {"segment": "segment", "flow_kg_s": "flow", "heat_capacity_rate_kw_per_k": "m·cp",
-                "temperature_c": "temperature"}
+                "temperature_c": "temperature", "vapour_fraction": "vapour fraction"}
 DIGITS = {"re_tube": 0}
+def stream_table(result: SimulationResult) -> pd.DataFrame:
+    """The stream segments' columns the reports show (the vapour fraction where a fluid is on a curve)."""
+    return result.streams[[c for c in STREAM_WORDS if c in result.streams]]
+
+
 def _section(title: str) -> str:
     return f"\n{title}\n{'-' * len(title)}"
 
@@ -149,9 +156,10 @@ def text_report(result: SimulationResult, extra: str = "", display: Display | No
         f"case file: {result.case_file}",
         *([note] if display.wide else textwrap.wrap(note, WIDTH, subsequent_indent="      ")),
         f"\n{result.message}",
-        _section("Exchangers (P, R, NTU on the hot-side basis)"),
-        *_exchanger_blocks(exchanger_table(result), display),
     ]
+    exchangers = exchanger_table(result)
+    if len(exchangers):
+        parts += [_section("Exchangers (P, R, NTU on the hot-side basis)"), *_exchanger_blocks(exchangers, display)]
     service = service_table(result)
     if len(service):
         parts += [_section("Exchangers in service"), render(service, display, SERVICE_WORDS, DIGITS)]
@@ -166,7 +174,7 @@ def text_report(result: SimulationResult, extra: str = "", display: Display | No
     if targets is not None and targets.notna().any():
         parts += [_section("Products with a target temperature (deviation = actual - target)"),
                   render(targets.dropna().to_frame("deviation_k"), display)]
-    streams = result.streams[list(STREAM_WORDS)]
+    streams = stream_table(result)
     parts += [_section("Stream segments"), render(streams, display, STREAM_WORDS, index="")]
     if len(result.tears):
         tears = result.tears[["tear_stream", "iterations", "accelerators", "final_residual_k"]]

@@ -35,8 +35,6 @@ from __future__ import annotations
 import numpy as np
 
 from hxtrain.network.flows import solve_block_diagonal
-from hxtrain.units.protocol import outlet_temperatures_together
-
 from hxtrain.solver.simulation.engine import unit_groups
 
 HALVINGS = 4
@@ -84,7 +82,7 @@ class BlockEquations:
         self.local_segments = np.array([local[int(s)] for s in self.segments], int)
         self.local_leaving = np.array([local[int(s)] for s in self.leaving], int)
 
-    def evaluate(self, net, temperature, flow, x):
+    def evaluate(self, net, layout, temperature, flow, x):
         """G at x (batch, segments of the block), the Jacobian entries (batch, pattern) and the
         temperatures of the segments leaving the block at x, in one simultaneous sweep of the
         block with the colours' perturbed copies stacked."""
@@ -98,8 +96,7 @@ class BlockEquations:
         flows = np.tile(np.broadcast_to(flow, temperature.shape)[:, self.columns], (copies, 1))
         out = np.full(work.shape, np.nan, order="F")
         for group in self.groups:  # every unit reads work, none reads out
-            out[:, group.outlets] = outlet_temperatures_together(group.units, group.inlets_from(work, flows)) \
-                .transpose(1, 0, 2)
+            out[:, group.outlets] = group.outlets_from(net, layout, work, flows).transpose(1, 0, 2)
         g_all = out[:, self.local_segments].reshape(copies, batch, n)
         g = g_all[0]
         shifted = g_all[1 + self.entry_colour, :, self.rows].T  # (batch, pattern)
@@ -117,7 +114,7 @@ class BlockEquations:
         return np.where(singular[:, None], np.nan, step[:, :, 0])
 
 
-def solve_block(net, units, temperature, flow, guess, tolerance, max_iterations):
+def solve_block(net, layout, units, temperature, flow, guess, tolerance, max_iterations):
     """Converge the block of ``units`` on all its internal segments (see the module notes),
     starting from ``guess`` (batch,) on every one.
 
@@ -127,8 +124,8 @@ def solve_block(net, units, temperature, flow, guess, tolerance, max_iterations)
     residual, sweeps, G at that point (batch, internal segments))."""
     equations = BlockEquations(net, units)
     batch = temperature.shape[0]
-    x = np.repeat(np.asarray(guess, float).reshape(batch, 1), equations.segments.size, axis=1)
-    state = equations.evaluate(net, temperature, flow, x)  # (G, Jacobian entries, leaving) at x
+    x = layout.guess(net, equations.segments, np.asarray(guess, float).reshape(batch))
+    state = equations.evaluate(net, layout, temperature, flow, x)  # (G, Jacobian entries, leaving) at x
     converged, polished = np.zeros(batch, bool), np.zeros(batch, bool)
     active = np.ones(batch, bool)
     history, sweeps, iterations = [], 1, 0
@@ -149,7 +146,7 @@ def solve_block(net, units, temperature, flow, guess, tolerance, max_iterations)
         fraction = np.ones(batch)
         for halving in range(HALVINGS + 1):
             trial = np.where(active[:, None], x + fraction[:, None] * direction, x)
-            candidate = equations.evaluate(net, temperature, flow, trial)
+            candidate = equations.evaluate(net, layout, temperature, flow, trial)
             sweeps += 1
             with np.errstate(invalid="ignore"):
                 worse = active & ~(np.max(np.abs(candidate[0] - trial), axis=1) <= size)

@@ -1,8 +1,9 @@
-"""Sequential-modular temperature solution of a network, over a batch of scenarios.
+"""Sequential-modular solution of a network's segment states, over a batch of scenarios.
 
 Blocks (see :mod:`.sequencing`) are solved in order. An acyclic block is one sweep of its units;
 a cyclic block is converged on its tear segments (see :mod:`.convergence`). Units are reached
-only through the :class:`hxtrain.units.protocol.UnitModel` protocol.
+only through the :class:`hxtrain.units.protocol.UnitModel` protocol. A segment's state is its
+temperature, or its enthalpy where its fluid has a saturation plateau (:mod:`.segment_state`).
 """
 
 from __future__ import annotations
@@ -13,9 +14,10 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from hxtrain.network.errors import HxtrainError
-from hxtrain.units.protocol import Inlets, StackedInlets
+from hxtrain.units.protocol import Inlets, StackedInlets, outlet_temperatures_together
 
 from hxtrain.solver.simulation.convergence import TearResult, converge_tears
+from hxtrain.solver.simulation.segment_state import SegmentState, segment_state
 
 if TYPE_CHECKING:  # the order is found by networkx, loaded only when a network is solved
     from hxtrain.solver.simulation.sequencing import Block
@@ -51,16 +53,14 @@ class TemperatureSolution:
     blocks: list[BlockOutcome]
     converged: np.ndarray | None = None
     """Per scenario: every block converged."""
+    state: np.ndarray | None = None
+    """(batch, segments) what the solver converged (:mod:`.segment_state`): ``temperature``
+    itself where no segment carries enthalpy."""
+    layout: SegmentState | None = None
 
     @property
     def iterations(self) -> int:
         return sum(b.tears.iterations for b in self.blocks if b.tears is not None)
-
-
-def inlets_of(net, name, temperature, flow) -> Inlets:
-    """What enters unit ``name``: temperatures and flows of its inlet segments and their fluids."""
-    inlet = net.inlets[name]
-    return Inlets(temperature[:, inlet], flow[:, inlet], tuple(net.fluids[s] for s in inlet))
 
 
 @dataclass
@@ -73,11 +73,21 @@ class UnitGroup:
     inlets: np.ndarray
     outlets: np.ndarray
     fluids: list
+    segments: tuple = ((), ())
+    """Per unit, its inlet and its outlet segments (indices in the network)."""
 
     def inlets_from(self, temperature, flow) -> StackedInlets:
         """What enters each unit of the group, from (batch, columns) arrays."""
         return StackedInlets(temperature[:, self.inlets].transpose(1, 0, 2), flow[:, self.inlets].transpose(1, 0, 2),
                              self.fluids)
+
+    def outlets_from(self, net, layout: SegmentState, state, flow) -> np.ndarray:
+        """Outlet states (units, batch, outlets) from (batch, columns) states and flows: one stacked
+        call, or unit by unit where a unit of the group touches a segment that carries enthalpy."""
+        if not layout.units.intersection(self.names):
+            return outlet_temperatures_together(self.units, self.inlets_from(state, flow))
+        return np.stack([layout.outlets(net, name, self.segments[0][k], self.segments[1][k], state[:, self.inlets[k]],
+                                        flow[:, self.inlets[k]]) for k, name in enumerate(self.names)])
 
 
 def unit_groups(net, names, column=None) -> list[UnitGroup]:
@@ -93,12 +103,13 @@ def unit_groups(net, names, column=None) -> list[UnitGroup]:
         return np.array([[column[s] for s in ports[n]] for n in members], int).reshape(len(members), -1)
 
     return [UnitGroup(members, [net.units[n] for n in members], columns(members, net.inlets),
-                      columns(members, net.outlets), [tuple(net.fluids[s] for s in net.inlets[n]) for n in members])
+                      columns(members, net.outlets), [tuple(net.fluids[s] for s in net.inlets[n]) for n in members],
+                      ([net.inlets[n] for n in members], [net.outlets[n] for n in members]))
             for members in groups.values()]
 
 
-def _sweep(net, units, temperature, flow, tear_slots=None):
-    """Evaluate ``units`` in order, writing outlet temperatures; outlets that are tear segments go
+def _sweep(net, layout, units, temperature, flow, tear_slots=None):
+    """Evaluate ``units`` in order, writing outlet states; outlets that are tear segments go
     to ``tear_slots`` (segment -> column of the returned array) instead of the working array."""
     computed = None
     if tear_slots:
@@ -107,7 +118,8 @@ def _sweep(net, units, temperature, flow, tear_slots=None):
         outlet = net.outlets[name]
         if not outlet:
             continue
-        t_out = net.units[name].outlet_temperatures(inlets_of(net, name, temperature, flow))
+        inlet = net.inlets[name]
+        t_out = layout.outlets(net, name, inlet, outlet, temperature[:, inlet], flow[:, inlet])
         for j, seg in enumerate(outlet):
             if tear_slots and seg in tear_slots:
                 computed[:, tear_slots[seg]] = t_out[:, j]
@@ -131,15 +143,17 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None) ->
         from hxtrain.solver.simulation.sequencing import plan_calculation
 
         plan = plan_calculation(net.graph)
+    layout = segment_state(net)
     flow = np.broadcast_to(net.flow, (batch, len(net.segments)))  # (segments,) or per scenario
-    # column-major: a unit reads and writes whole segments, each then contiguous over the batch
+    # column-major: a unit reads and writes whole segments, each then contiguous over the batch.
+    # It holds the segments' states: temperatures, and h/c where a segment carries enthalpy
     temperature = np.full((batch, len(net.segments)), np.nan, order="F")
     outcomes = []
     converged = np.ones(batch, bool)
     guess = initial_guess(net, batch)
     for block in plan:
         if not block.tears:
-            _sweep(net, block.units, temperature, flow)
+            _sweep(net, layout, block.units, temperature, flow)
             outcomes.append(BlockOutcome(block, None))
             continue
         slots = {seg: j for j, seg in enumerate(block.tears)}
@@ -151,28 +165,28 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None) ->
         def evaluate(x, block=block, slots=slots, last=last):
             temperature[:, block.tears] = x
             last["x"] = x
-            return _sweep(net, block.units, temperature, flow, slots)
+            return _sweep(net, layout, block.units, temperature, flow, slots)
 
         if len(block.tears) > LARGE_BLOCK_TEARS:
-            result = _converge_large_block(net, block, temperature, flow, guess, tolerance, max_iterations)
+            result = _converge_large_block(net, layout, block, temperature, flow, guess, tolerance, max_iterations)
         else:
-            x0 = np.repeat(guess[:, None], len(block.tears), axis=1)
+            x0 = layout.guess(net, block.tears, guess)
             result = converge_tears(evaluate, x0, tolerance, max_iterations)
             if not np.array_equal(last["x"], result.x):
                 evaluate(result.x)
         converged &= result.converged
         outcomes.append(BlockOutcome(block, result))
-    return TemperatureSolution(temperature, outcomes, converged)
+    return TemperatureSolution(layout.temperatures(net, temperature), outcomes, converged, temperature, layout)
 
 
-def _converge_large_block(net, block, temperature, flow, guess, tolerance, max_iterations) -> TearResult:
+def _converge_large_block(net, layout, block, temperature, flow, guess, tolerance, max_iterations) -> TearResult:
     """A block with many tears: Newton on all its segments (:mod:`.block_newton`). Every
     segment of the block is held (within the tolerance of what its unit computes); the block's
     tear set is what the tables report."""
     from hxtrain.solver.simulation.block_newton import METHOD, solve_block  # sparse solvers: loaded when needed
 
     equations, converged, iterations, history, sweeps, computed = solve_block(
-        net, block.units, temperature, flow, guess, tolerance, max_iterations)
+        net, layout, block.units, temperature, flow, guess, tolerance, max_iterations)
     x = np.array(temperature[:, block.tears])
     where = np.searchsorted(equations.segments, block.tears)
     return TearResult(x, converged, iterations, np.abs(computed[:, where] - x), history, [METHOD],

@@ -42,7 +42,7 @@ from hxtrain.network import Case, Network, build_network, case_from_mapping, loa
 from hxtrain.units.protocol import TOTALS, Finding, check, reports_together
 from hxtrain.units.properties import PHYSICAL_RANGE
 
-from hxtrain.solver.simulation.engine import TemperatureSolution, inlets_of, solve_temperatures, unit_groups
+from hxtrain.solver.simulation.engine import TemperatureSolution, solve_temperatures, unit_groups
 from hxtrain.solver.simulation.sequencing import plan_calculation
 
 SUCCESS, NOT_CONVERGED, NOT_VALID, CHECK_FAILED = 0, 1, 2, 3
@@ -129,10 +129,10 @@ def assess(net: Network, solution: TemperatureSolution, tolerance) -> Evaluation
     with np.errstate(all="ignore"):
         t = solution.temperature
         flow = np.broadcast_to(net.flow, t.shape)
-        reports = unit_reports(net, t, flow)
+        reports = unit_reports(net, solution, flow)
         heat_added = sum(np.broadcast_to(np.asarray(r.heat_added, float), (net.batch,)) for r in reports.values())
-        balance = enthalpy_balance(net, t, flow, heat_added)
-        units_imbalance = balance["imbalance_kw"] - tear_holdback(net, solution, t, flow)
+        balance = enthalpy_balance(net, solution, flow, heat_added)
+        units_imbalance = balance["imbalance_kw"] - tear_holdback(net, solution, flow)
         scale = sum(np.abs(balance[k]) for k in ("enthalpy_in_supplies_kw", "heat_added_net_kw",
                                                   "enthalpy_out_products_kw"))
         units_relative = np.abs(units_imbalance) / np.where(scale > 0, scale, 1.0)
@@ -178,12 +178,18 @@ def assess(net: Network, solution: TemperatureSolution, tolerance) -> Evaluation
                       tolerance)
 
 
-def unit_reports(net, t, flow) -> dict:
-    """Every unit's report at temperatures ``t``, in unit order; units of one class are asked
-    together (one stacked rating where their class has one)."""
+def unit_reports(net, solution: TemperatureSolution, flow) -> dict:
+    """Every unit's report at the solution, in unit order; units of one class are asked
+    together (one stacked rating where their class has one). A unit that touches a segment
+    carrying enthalpy gets its inlets' enthalpies too."""
     found = {}
+    t, layout = solution.temperature, solution.layout
     for group in unit_groups(net, net.units):
-        found.update(zip(group.names, reports_together(group.units, group.inlets_from(t, flow))))
+        inlets = group.inlets_from(t, flow)
+        if layout is not None and layout.units.intersection(group.names):
+            inlets.h = np.stack([layout.temperature_and_enthalpy(net, segs, solution.state[:, segs])[1]
+                                 for segs in group.segments[0]])
+        found.update(zip(group.names, reports_together(group.units, inlets)))
     return {name: found[name] for name in net.units}
 
 
@@ -199,12 +205,12 @@ def _not_converged_text(t):
             "temperature can meet?)")
 
 
-def enthalpy_balance(net, temperature, flow, heat_added):
-    """Overall balance (reference 0 °C), each entry an array over the batch: enthalpy in with the
-    supplies, heat added from outside (heaters + / coolers -), enthalpy out with the products,
-    the imbalance and the imbalance relative to the sum of the magnitudes."""
+def enthalpy_balance(net, solution: TemperatureSolution, flow, heat_added):
+    """Overall balance (reference 0 °C, or a curve's own), each entry an array over the batch:
+    enthalpy in with the supplies, heat added from outside (heaters + / coolers -), enthalpy out
+    with the products, the imbalance and the imbalance relative to the sum of the magnitudes."""
     def enthalpy(seg):
-        return flow[:, seg] * net.fluids[seg].enthalpy(temperature[:, seg])
+        return flow[:, seg] * enthalpies(net, [seg], solution.state[:, [seg]], solution.layout)[:, 0]
 
     supplied = sum(enthalpy(net.outlets[n][0]) for n, u in net.units.items() if not u.inlets)
     delivered = sum(enthalpy(net.inlets[n][0]) for n, u in net.units.items() if not u.outlets)
@@ -215,36 +221,44 @@ def enthalpy_balance(net, temperature, flow, heat_added):
             "enthalpy_out_products_kw": delivered, "imbalance_kw": imbalance, "relative_imbalance": relative}
 
 
-def tear_holdback(net, solution, t, flow):
+def tear_holdback(net, solution, flow):
     """Enthalpy (kW, over the batch) that the tear segments hold back from the overall balance:
     for each tear, its flow times the enthalpy at the temperature its producing unit computes
     from the answer, less that at the temperature the tear holds (equal to within the tear
     tolerance, not to round-off). With every unit closing its own balance this is the overall
     imbalance exactly (supplies + heat added - products)."""
     held = np.zeros(net.batch)
+    state, layout = solution.state, solution.layout
     for outcome in solution.blocks:
         if outcome.tears is None:
             continue
         if outcome.tears.computed is not None:  # what the producing units compute at the answer is known
             segments = outcome.tears.held if outcome.tears.held is not None else outcome.block.tears
-            held = held + np.sum(flow[:, segments] * (enthalpies(net, segments, outcome.tears.computed)
-                                                      - enthalpies(net, segments, t[:, segments])), axis=1)
+            held = held + np.sum(flow[:, segments] * (enthalpies(net, segments, outcome.tears.computed, layout)
+                                                      - enthalpies(net, segments, state[:, segments], layout)), axis=1)
             continue
         for seg in outcome.block.tears:
             source = net.segments[seg].source
-            produced = net.units[source].outlet_temperatures(inlets_of(net, source, t, flow))
-            computed = produced[:, net.outlets[source].index(seg)]
-            fluid = net.fluids[seg]
-            held = held + flow[:, seg] * (fluid.enthalpy(computed) - fluid.enthalpy(t[:, seg]))
+            inlet, outlet = net.inlets[source], net.outlets[source]
+            produced = layout.outlets(net, source, inlet, outlet, state[:, inlet], flow[:, inlet])
+            computed = produced[:, [outlet.index(seg)]]
+            held = held + flow[:, seg] * (enthalpies(net, [seg], computed, layout)
+                                          - enthalpies(net, [seg], state[:, [seg]], layout))[:, 0]
     return held
 
 
-def enthalpies(net, segments, temperature):
-    """h (kJ/kg) of each segment in ``segments`` at ``temperature`` (batch, len(segments)): one
-    call per fluid model, so a long block costs a few calls, not one per segment."""
-    result = np.empty(temperature.shape)
+def enthalpies(net, segments, state, layout=None):
+    """h (kJ/kg) of each segment in ``segments`` at the solver's ``state`` (batch,
+    len(segments)): temperatures, or enthalpy over its scale where a segment carries enthalpy
+    (:mod:`.segment_state`). One call per fluid model, so a long block costs a few calls, not
+    one per segment."""
+    result = np.empty(state.shape)
+    temperature = state
     columns: dict = {}
     for j, seg in enumerate(segments):
+        if layout is not None and layout.enthalpy[seg]:
+            result[:, j] = state[:, j] * layout.scale[seg]
+            continue
         columns.setdefault(id(net.fluids[seg]), []).append(j)
     for where in columns.values():
         fluid = net.fluids[segments[where[0]]]

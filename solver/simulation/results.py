@@ -18,7 +18,7 @@ from hxtrain.network import Network
 from hxtrain.units.protocol import TOTALS
 
 from hxtrain.solver.simulation.engine import ConvergenceError, TemperatureSolution, convergence_error, tear_labels
-from hxtrain.solver.simulation.evaluation import CHECK_FAILED, NOT_CONVERGED, SUCCESS, Evaluation, evaluate
+from hxtrain.solver.simulation.evaluation import CHECK_FAILED, NOT_CONVERGED, SUCCESS, Evaluation, enthalpies, evaluate
 
 UNIT_COLUMNS = {
     "duty": "duty_kw",
@@ -26,6 +26,8 @@ UNIT_COLUMNS = {
     "t_hot_out": "hot_out_c",
     "t_cold_in": "cold_in_c",
     "t_cold_out": "cold_out_c",
+    "q_hot_out": "hot_out_vapour_fraction",
+    "q_cold_out": "cold_out_vapour_fraction",
     "air_flow": "air_flow_kg_s",
     "ua": "ua_kw_per_k",
     "ntu": "ntu_hot",
@@ -35,6 +37,7 @@ UNIT_COLUMNS = {
     "f": "f",
     "lmtd": "lmtd_k",
     "approach": "min_approach_k",
+    "approach_internal": "internal_approach_k",
     "u_service": "u_service_w_m2k",
     "u_clean": "u_clean_w_m2k",
     "h_shell": "h_shell_w_m2k",
@@ -55,7 +58,9 @@ UNIT_COLUMNS = {
     "condensate_flow": "condensate_kg_s",
     "steam_t_h": "steam_t_h",
 }
-"""Report quantity -> column of the units table (P, R and NTU on the hot-side basis)."""
+"""Report quantity -> column of the units table (P, R and NTU on the hot-side basis). An exchanger
+rated by zones gives its outlets' vapour fractions and, beside the smaller end approach, the
+smallest approach anywhere inside it."""
 SCALE = {"dp_shell": 1e-3, "dp_tube": 1e-3}
 """Report quantities converted for the table (Pa -> kPa)."""
 COUNTS = ("limit_violations", "warnings", "iterations")
@@ -87,6 +92,9 @@ class SimulationResult:
     metrics: dict = field(default_factory=dict, repr=False)
     """Named results a study may target, ``TAG.duty``, ``TAG.cold_out``, ``TAG.inlet``, ... ->
     value (each unit declares its own)."""
+    profiles: dict = field(default_factory=dict, repr=False)
+    """Exchanger tag -> {``duty`` (kW from the cold end), ``hot``, ``cold`` (°C)}: the
+    temperatures along an exchanger rated by zones, for its T–Q picture."""
 
     @property
     def success(self) -> bool:
@@ -174,27 +182,34 @@ def tabulate(evaluation: Evaluation, k: int = 0) -> SimulationResult:
                f"energy balance closes to {balance['relative_imbalance']:.1e}")
     metrics = {f"{name}.{m}": float(np.broadcast_to(v, (evaluation.batch,))[k])
                for name, r in evaluation.reports.items() for m, v in r.metrics.items()}
-    return SimulationResult(True, message, evaluation.iterations, units, _stream_table(net, t, k), tears,
+    return SimulationResult(True, message, evaluation.iterations, units, _stream_table(net, evaluation.solution, t, k), tears,
                             findings_table, balance, summary, net.case.title, net.case.file, network=net,
-                            metrics=metrics)
+                            metrics=metrics, profiles={name: {key: np.asarray(v)[k] for key, v in r.profile.items()}
+                                                       for name, r in evaluation.reports.items() if r.profile})
 
 
-def _stream_table(net: Network, t, k) -> pd.DataFrame:
+def _stream_table(net: Network, solution: TemperatureSolution, t, k) -> pd.DataFrame:
+    """One row per segment; where a fluid is on an enthalpy curve, a vapour fraction column (and
+    no m·cp on a saturation plateau, where cp is unbounded)."""
     flow = net.flow[k]
-    table = pd.DataFrame(
-        {
-            "segment": [s.label for s in net.segments],
-            "path_of": [s.origin for s in net.segments],
-            "from_unit": [s.source for s in net.segments],
-            "to_unit": [s.target for s in net.segments],
-            "flow_kg_s": flow,
-            "heat_capacity_rate_kw_per_k": [float(m * np.broadcast_to(fluid.cp(np.full(net.batch, temperature)),
-                                                                          (net.batch,))[k])
-                                            for m, fluid, temperature in zip(flow, net.fluids, t)],
-            "temperature_c": t,
-            "utility": net.utility,
-        }
-    )
+    rates = [float(m * np.broadcast_to(fluid.cp(np.full(net.batch, temperature)), (net.batch,))[k])
+             for m, fluid, temperature in zip(flow, net.fluids, t)]
+    columns = {
+        "segment": [s.label for s in net.segments],
+        "path_of": [s.origin for s in net.segments],
+        "from_unit": [s.source for s in net.segments],
+        "to_unit": [s.target for s in net.segments],
+        "flow_kg_s": flow,
+        "heat_capacity_rate_kw_per_k": [r if np.isfinite(r) else np.nan for r in rates],
+        "temperature_c": t,
+    }
+    on_curves = [j for j, fluid in enumerate(net.fluids) if hasattr(fluid, "vapour_fraction")]
+    if on_curves:
+        vapour = np.full(len(net.segments), np.nan)
+        h = enthalpies(net, on_curves, solution.state[k:k + 1, on_curves], solution.layout)[0]
+        vapour[on_curves] = [net.fluids[j].vapour_fraction(value) for j, value in zip(on_curves, h)]
+        columns["vapour_fraction"] = vapour
+    table = pd.DataFrame({**columns, "utility": net.utility})
     table.index.name = "segment_id"
     return table
 

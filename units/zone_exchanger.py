@@ -1,0 +1,174 @@
+"""An exchanger with a fluid on an enthalpy curve, rated zone by zone (:mod:`.zone_rating`).
+
+:class:`.exchanger_model.Exchanger` hands an exchanger here whenever either inlet's fluid is an
+:class:`.enthalpy_curves.EnthalpyCurve` that holds vapour anywhere in its table (a vaporising
+crude, a condensing overhead, water and steam): :func:`rated_by_zones`. Both sides are then rated on their enthalpy curves: the other side's fluid, if it is a
+cp model, is sampled as a curve (exact for a constant cp; linear between points
+:data:`SAMPLE_STEP` apart otherwise, see :mod:`.enthalpy_curves` for the error that leaves).
+
+What is covered, and why the rest is refused (:func:`zone_problem`, which the network asks through
+``Exchanger.fluid_problem`` before solving: exit 2 naming the key):
+
+* arrangements ``counterflow`` and ``double_pipe`` (any number of shells in series: still
+  counterflow), and ``tema_e`` with two tube passes and one shell in series: those
+  :func:`.zone_rating.rate_by_zones` rates;
+* U fixed: ``ua``, or ``u`` with ``area_per_shell``. A U that follows the films would need the
+  films of each phase in each zone, which this version does not model;
+* a bypass on either side: the exchanger proper takes (1 - bypass) of the flow and the bypassed
+  part rejoins it by enthalpy, which is exact on a curve;
+* the fluid on the other side a plain cp model (not a blend of several fluids).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .enthalpy_curves import EnthalpyCurve, curve_from_model
+from .properties import Blend, ConstantCp
+from .u_models import FixedCoefficient
+from .zone_rating import ZoneRating, rate_by_zones
+
+__all__ = ["rated_by_zones", "zone_problem", "ZoneService", "rate_zoned", "zone_report", "SAMPLE_STEP"]
+
+SAMPLE_STEP = 5.0
+"""K between the points at which a cp model on the other side is sampled as a curve: for a crude
+(dcp/dT about 0.004 kJ/kg·K²) the enthalpy is then within 0.013 kJ/kg of the model's."""
+SAMPLE_SPAN = (-50.0, 600.0)
+"""°C sampled for a cp model without a valid range (beyond it the end intervals extend)."""
+
+
+def rated_by_zones(fluids) -> bool:
+    """Whether an exchanger with these inlet fluids (hot, cold) is rated zone by zone: where a
+    side's fluid is an enthalpy curve that holds vapour (it may boil or condense) or a plateau.
+    A single-phase liquid curve is a smooth h(T) like any cp model, and keeps the in-service
+    rating of every arrangement (mean cp over each side's range, U from films if given)."""
+    return any(isinstance(f, EnthalpyCurve) and (f.holds_vapour or f.state_by_enthalpy) for f in fluids)
+
+
+def zone_problem(spec, fluids):
+    """(key, message) where zone rating cannot rate this exchanger, else None."""
+    name = spec.arrangement.name
+    if name == "tema_e" and (spec.tube_passes != 2 or spec.shells != 1):
+        return ("tube_passes" if spec.tube_passes != 2 else "shells",
+                "an exchanger with a fluid on an enthalpy curve is rated by zones as a TEMA E shell with two tube "
+                f"passes and one shell in series only (here {spec.tube_passes} passes, {spec.shells} shells)")
+    if name not in ("counterflow", "double_pipe", "tema_e"):
+        return ("arrangement", f"an exchanger with a fluid on an enthalpy curve is rated by zones; arrangement {name} "
+                               "is not covered (use counterflow, double_pipe or tema_e with two tube passes)")
+    if spec.ua is None and not isinstance(spec.thermal, FixedCoefficient):
+        return ("u", "an exchanger with a fluid on an enthalpy curve takes a fixed U in this version: give 'ua', or "
+                     "'u' with 'area_per_shell' (U from films is not modelled for two-phase zones)")
+    for fluid in fluids:
+        if isinstance(fluid, Blend):
+            return ("arrangement", "a blend of several fluids against a fluid on an enthalpy curve is not rated in "
+                                   "this version")
+    return None
+
+
+def as_curve(fluid, cache: dict) -> EnthalpyCurve:
+    """The fluid as an enthalpy curve: itself, or a cp model sampled (kept in ``cache``)."""
+    if isinstance(fluid, EnthalpyCurve):
+        return fluid
+    known = cache.get(id(fluid))
+    if known is None or known[0] is not fluid:
+        low, high = fluid.valid_range or SAMPLE_SPAN
+        points = [low, high] if isinstance(fluid, ConstantCp) else \
+            np.linspace(low, high, max(2, int(np.ceil((high - low) / SAMPLE_STEP)) + 1))
+        known = cache[id(fluid)] = (fluid, curve_from_model(fluid, points, valid_range=fluid.valid_range))
+    return known[1]
+
+
+@dataclass
+class ZoneService:
+    """An exchanger rated by zones, at its outlets (after any bypass has rejoined)."""
+
+    rating: ZoneRating
+    """The exchanger proper."""
+    ua: np.ndarray
+    h_hot_out: np.ndarray
+    h_cold_out: np.ndarray
+    t_hot_out: np.ndarray
+    t_cold_out: np.ndarray
+    q_hot_out: np.ndarray
+    q_cold_out: np.ndarray
+    end_approach: np.ndarray
+    """The smaller temperature difference at the exchanger's two ends (counterflow ends)."""
+    pressure_drop: dict = field(default_factory=dict)
+    """None modelled (U is fixed): kept for the limit checks shared with the exchanger."""
+
+
+def rate_zoned(spec, inlets, cache: dict) -> ZoneService:
+    """Rate an exchanger by zones from its inlets (:class:`.protocol.Inlets`, hot then cold)."""
+    hot, cold = (as_curve(f, cache) for f in inlets.fluids)
+    h_hot, h_cold = inlets.enthalpy(0), inlets.enthalpy(1)
+    m_hot, m_cold = inlets.m[:, 0], inlets.m[:, 1]
+    bypass_hot, bypass_cold = (np.asarray(b, dtype=float) for b in (spec.bypass_hot, spec.bypass_cold))
+    if spec.ua is not None:
+        ua = np.broadcast_to(np.asarray(spec.ua, dtype=float), h_hot.shape)
+    else:
+        ua = np.broadcast_to(spec.thermal.u * spec.total_area / 1000.0, h_hot.shape)
+    arrangement = "tema_e" if spec.arrangement.name == "tema_e" else "counterflow"
+    x = rate_by_zones(hot, cold, h_hot, h_cold, m_hot * (1.0 - bypass_hot), m_cold * (1.0 - bypass_cold), ua,
+                      arrangement)
+    # the outlets from each side's own fluid and the whole duty (the bypassed part rejoined by
+    # enthalpy), so that every exchanger closes its balance in its fluids' enthalpy to round-off
+    # (a sampled side's curve is used for the rating only)
+    h_hot_out = h_hot - x.duty / np.where(m_hot > 0.0, m_hot, 1.0)
+    h_cold_out = h_cold + x.duty / np.where(m_cold > 0.0, m_cold, 1.0)
+    (fluid_hot, fluid_cold), (t_hot, t_cold) = inlets.fluids, (inlets.t[:, 0], inlets.t[:, 1])
+    t_hot_out = fluid_hot.temperature(h_hot_out) if fluid_hot is hot else fluid_hot.temperature(h_hot_out, guess=x.t_hot_out)
+    t_cold_out = (fluid_cold.temperature(h_cold_out) if fluid_cold is cold
+                  else fluid_cold.temperature(h_cold_out, guess=x.t_cold_out))
+    ends = np.minimum(np.abs(t_hot - x.t_cold_out), np.abs(x.t_hot_out - t_cold))
+    return ZoneService(x, np.array(ua), h_hot_out, h_cold_out, t_hot_out, t_cold_out,
+                       hot.vapour_fraction(h_hot_out), cold.vapour_fraction(h_cold_out), ends)
+
+
+def zone_report(unit, inlets, service: ZoneService | None, problem):
+    """The report of exchanger ``unit`` rated by zones (``problem``: why it cannot be)."""
+    from .protocol import UnitReport, check
+
+    key, batch = unit.key, inlets.batch
+    if problem is not None:
+        nothing = np.full(batch, np.nan)
+        finding = check("zone_rating", "input", np.ones(batch, bool), f"{key}.{problem[0]}", problem[1])
+        return UnitReport({"duty": nothing}, [finding])
+    x, t_hot, t_cold = service.rating, inlets.t[:, 0], inlets.t[:, 1]
+    quantities = {"duty": x.duty, "t_hot_in": t_hot, "t_hot_out": service.t_hot_out, "t_cold_in": t_cold,
+                  "t_cold_out": service.t_cold_out, "q_hot_out": service.q_hot_out, "q_cold_out": service.q_cold_out,
+                  "ua": service.ua, "approach": service.end_approach, "approach_internal": x.approach}
+    findings = unit._limit_findings(inlets, service)
+    works = x.duty != 0.0
+    for j, side in enumerate(("hot", "cold")):
+        limit = unit.limits.get("maximum_vapour_fraction", {}).get(side)
+        if limit is not None:
+            q_out = (service.q_hot_out, service.q_cold_out)[j]
+            findings.append(check("vapour_fraction", "limit", q_out > limit + 1e-12, f"{key}.maximum_vapour_fraction.{side}",
+                                  f"the {side} side leaves {{q:.3f}} vapour (mass fraction), above its maximum of "
+                                  "{lim:.3f}", q=q_out, lim=limit))
+    findings += [
+        check("approach", "warning", works & (x.approach < unit.minimum_approach), key,
+              "smallest approach {a:.1f} K, inside the exchanger at {at:.0%} of the duty from the cold end (ends "
+              "{e:.1f} K), is below the case's {lim:.1f} K", a=x.approach,
+              at=np.where(works, x.pinch_position / np.where(works, x.duty, 1.0), 0.0), e=service.end_approach,
+              lim=unit.minimum_approach),
+        # in one 1-2 shell the cold stream leaving above the hot outlet is a temperature cross
+        # (P_hot + P_cold > 1), whatever the zones: the same limit as the P–NTU rating's
+        check("temperature_cross", "limit", works & (unit.spec.arrangement.name == "tema_e")
+              & (x.t_cold_out > x.t_hot_out), key,
+              "temperature cross inside the 1-2 shell: the cold stream leaves at {tc:.1f} °C, above the hot "
+              "outlet at {th:.1f} °C", tc=x.t_cold_out, th=x.t_hot_out),
+        check("reversed_heat_flow", "warning", x.reversed, key,
+              "the hot-side stream enters colder ({th:.1f} °C) than the cold-side stream ({tc:.1f} °C): heat "
+              "flows from the cold side to the hot side ({q:.1f} kW)", th=t_hot, tc=t_cold, q=-x.duty),
+    ]
+    totals = {} if unit.total is None else {unit.total: x.duty}
+    metrics = {"duty": x.duty, "hot_in": t_hot, "hot_out": service.t_hot_out, "cold_in": t_cold,
+               "cold_out": service.t_cold_out, "hot_out_vapour_fraction": service.q_hot_out,
+               "cold_out_vapour_fraction": service.q_cold_out}
+    profile = {"duty": x.profile.position, "hot": x.profile.t_hot, "cold": x.profile.t_cold}
+    return UnitReport(quantities, findings, profile=profile, labels={"u_source": "fixed UA, rated by zones" if unit.spec.ua is not None else
+                                                    unit.spec.thermal.source + ", rated by zones"},
+                      totals=totals, metrics=metrics)
