@@ -183,8 +183,14 @@ def check_way_out(net: Network):
 def resolve_flows(net: Network):
     """Solve the flows again after a unit changed its flow coefficients (a flash drum's split
     found from its inlet state): flows, segment fluids and the units' flow checks, as
-    :func:`build_network` did them; a scenario the new flows make impossible is marked not valid."""
+    :func:`build_network` did them; a scenario the new flows make impossible is marked not valid.
+    A segment that now carries no flow in any scenario (a drum's vapour below its feed's bubble
+    point) keeps the fluid it had: with no flow its fluid enters no balance, and its rows in the
+    reports stay those of the fluid that path carries."""
+    before = net.fluids
     _solve_flows(net)
+    idle = ~np.any(np.broadcast_to(net.flow, (net.batch, len(net.segments))) > 0.0, axis=0)
+    net.fluids = [old if still else new for old, new, still in zip(before, net.fluids, idle)]
 
 
 def _solve_flows(net: Network):

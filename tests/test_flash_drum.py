@@ -220,4 +220,6 @@ def test_console_and_report_show_the_drum(tmp_path, capsys):
     report = tmp_path / "report.html"
     code, _, err = run_in_process(capsys, "report", PREFLASH, "--out", report)
     assert code == 0, err
-    assert "Flash drums (split at the inlet state" in report.read_text(encoding="utf-8")
+    html = report.read_text(encoding="utf-8")
+    assert "Flash drums (split at the inlet state" in html
+    assert ">D-21</text>" in html  # the drum's tag on its junction in the network picture
