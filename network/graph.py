@@ -5,7 +5,9 @@ Flows are linear in the supplies and independent of temperature: each segment's 
 unit's flow coefficients times the unit's inlet flows, plus what the unit supplies. Solving that
 linear system (:mod:`.flows`) gives each segment's flow and which supplies it carries, hence its
 cp (the supplies' fluids blended by mass; where a unit's outlet carries a fluid of its own, a
-reactor's effluent, that fluid starts there). Recycles need no iteration here.
+reactor's effluent, that fluid starts there). Recycles need no iteration here. A flash drum's
+split follows its inlet state: the solver sets it and calls :func:`resolve_flows` between its
+passes.
 """
 
 from __future__ import annotations
@@ -178,6 +180,19 @@ def check_way_out(net: Network):
         )
 
 
+def resolve_flows(net: Network):
+    """Solve the flows again after a unit changed its flow coefficients (a flash drum's split
+    found from its inlet state): flows, segment fluids and the units' flow checks, as
+    :func:`build_network` did them; a scenario the new flows make impossible is marked not valid.
+    A segment that now carries no flow in any scenario (a drum's vapour below its feed's bubble
+    point) keeps the fluid it had: with no flow its fluid enters no balance, and its rows in the
+    reports stay those of the fluid that path carries."""
+    before = net.fluids
+    _solve_flows(net)
+    idle = ~np.any(np.broadcast_to(net.flow, (net.batch, len(net.segments))) > 0.0, axis=0)
+    net.fluids = [old if still else new for old, new, still in zip(before, net.fluids, idle)]
+
+
 def _solve_flows(net: Network):
     """Flows of every scenario (:func:`.flows.solve_flows`), each segment's fluid blended from
     the supplies it carries, and which segments carry only utility streams. Supplies are grouped
@@ -284,7 +299,7 @@ def check_enthalpy_fluids(net: Network):
         asks = getattr(unit, "fluid_problem", None)
         problem = asks(tuple(net.fluids[s] for s in net.inlets[name])) if asks else None
         if problem is not None:
-            raise net.case.error(tuple(net.case.keys[name]) + (problem[0],), problem[1])
+            raise net.case.error(tuple(net.case.keys[name]) + ((problem[0],) if problem[0] else ()), problem[1])
 
 
 def _recycle_key(net: Network):

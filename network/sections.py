@@ -15,6 +15,8 @@ from typing import Callable
 
 from hxtrain.units import stream_units
 from hxtrain.units.desalter import Desalter
+from hxtrain.units.enthalpy_curves import EnthalpyCurve
+from hxtrain.units.flash_drum import FlashDrum
 from hxtrain.units.steam_heater import SteamHeater
 from hxtrain.units.water_steam import saturation_temperature
 from hxtrain.units.exchanger_model import Exchanger
@@ -267,6 +269,38 @@ def _build_desalter(name, key, data, building):
     return Desalter(name, key, **data)
 
 
+DRUM_OUTLETS = FlashDrum.outlets
+"""A flash drum's outlets, each an entry of its own with the fluid it carries and its path."""
+
+
+def _read_flash_drum(f: Fields, reading: Reading) -> dict:
+    """A drum's ``vapour`` and ``liquid``: each names the fluid it leaves as (an enthalpy curve
+    without a plateau, on the feed's reference) and starts a path."""
+    data = {}
+    for port in DRUM_OUTLETS:
+        outlet = f.mapping(port, required=True, what=f"the drum's {port}: its fluid and path")
+        name = outlet.defined_name("fluid", sorted(reading.fluids))
+        fluid = reading.fluids[name]
+        if not isinstance(fluid, EnthalpyCurve) or fluid.state_by_enthalpy:
+            raise outlet.error("fluid", f"fluid '{name}' is not an enthalpy curve without a saturation plateau: the "
+                                        f"drum's {port} leaves as a fluid given by 'enthalpy_curve' at the drum's "
+                                        "pressure, on the feed curve's enthalpy reference (a wide-boiling cut; a "
+                                        "pure fluid's plateau is not taken by a drum in this version)")
+        data[f"{port}_name"] = name
+        reading.starts_path(f"{f.path[-1]}.{port}", outlet, f.path[-1], port)
+        outlet.text("description")
+        outlet.finish()
+    f.text("description")
+    f.finish()
+    return data
+
+
+def _build_flash_drum(name, key, data, building):
+    fluids = building.case.fluids
+    return FlashDrum(name, key, fluids[data["vapour_name"]], fluids[data["liquid_name"]], data["vapour_name"],
+                     data["liquid_name"])
+
+
 UNIT_SECTIONS = (
     UnitSection("streams", "supply stream", "stream names to their supply", _read_stream, _build_stream,
                 feeds_itself=True),
@@ -283,6 +317,8 @@ UNIT_SECTIONS = (
     UnitSection("mixers", "mixer", "mixer names to their outlet path", _read_mixer, _build_mixer, path_end="many"),
     UnitSection("splitters", "splitter", "splitter names to their branches", _read_splitter, _build_splitter,
                 path_end="one"),
+    UnitSection("flash_drums", "flash drum", "flash drum tags to their vapour and liquid", _read_flash_drum,
+                _build_flash_drum, path_end="one"),
     UnitSection("products", "product", "product names", _read_product, _build_product, path_end="one"),
 )
 """Every unit section of a case file, in the order they are read (and shown in ``check``)."""

@@ -4,7 +4,9 @@ A unit has named inlet and outlet ports. The solver asks it two things:
 
 * flows — ``flow_coefficients()`` (outlet mass flow = coefficients @ inlet mass flow) and
   ``supplied_flow()`` (what the unit feeds in itself: a source's supply). Flows are linear in
-  each other and independent of temperature, so they are solved once, before temperatures.
+  each other and independent of temperature, so they are solved once, before temperatures;
+  except where a unit splits by its inlet state (a flash drum, ``splits_by_state``): then the
+  solver solves flows and temperatures in turn until its split settles.
 * temperatures — ``outlet_temperatures(inlets)`` from an :class:`Inlets` (inlet temperatures
   and mass flows shaped (batch, inlets), and each inlet's fluid model); returns
   (batch, outlets). ``report(inlets)`` gives the quantities for the results table and the
@@ -23,7 +25,7 @@ from typing import Protocol
 import numpy as np
 
 
-__all__ = ["UnitModel", "UnitBase", "Inlets", "takes_enthalpy_state", "StackedInlets", "outlet_temperatures_together", "reports_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
+__all__ = ["UnitModel", "UnitBase", "Inlets", "takes_enthalpy_state", "splits_by_state", "StackedInlets", "outlet_temperatures_together", "reports_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
            "TOTALS", "HEAT_SOURCES"]
 
 SEVERITIES = ("limit", "warning", "input")
@@ -227,7 +229,7 @@ class UnitModel(Protocol):
     """What the unit is, in words for the results table ("exchanger", "heater", ...)."""
     group: str
     """The results section it is shown in: ``exchangers``, ``heaters_and_coolers``, ``products``,
-    ``separators`` (desalters) or ``nodes`` (supplies, mixers, splitters)."""
+    ``separators`` (desalters), ``drums`` (flash drums) or ``nodes`` (supplies, mixers, splitters)."""
     key: str
     inlets: tuple[str, ...]
     outlets: tuple[str, ...]
@@ -307,6 +309,14 @@ class UnitModel(Protocol):
 
     def fluid_problem(self, fluids) -> tuple[str, str] | None:
         """(key below the unit's entry, message) where the unit cannot rate these inlet fluids."""
+
+
+def splits_by_state(unit) -> bool:
+    """Whether ``unit``'s flow coefficients follow its inlet state (a flash drum): it has
+    ``split_from_state(inlets)`` (the (batch,) fraction the state gives) and
+    ``set_split(fraction, outer_iterations)`` (the fraction its next flow solve uses), and the
+    solver iterates flows and states until the fraction settles."""
+    return callable(getattr(unit, "split_from_state", None))
 
 
 def takes_enthalpy_state(unit) -> bool:

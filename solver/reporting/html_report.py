@@ -25,8 +25,9 @@ from .console_tables import cells
 from .display_units import Display, current, difference_columns
 from .network_diagram import network_svg
 from .report_style import STYLE
-from .text import EXCHANGER_WORDS, ONE_STREAM_WORDS, SEPARATOR_WORDS, SERVICE_WORDS, STREAM_WORDS, exchanger_table, \
-    one_stream_table, separator_table, service_table, stream_table
+from .text import DRUM_DIGITS, DRUM_TITLE, DRUM_WORDS, EXCHANGER_WORDS, ONE_STREAM_WORDS, SEPARATOR_WORDS, \
+    SERVICE_WORDS, STREAM_WORDS, drum_table, exchanger_table, one_stream_table, separator_table, service_table, \
+    stream_table
 
 FORMATS = (".html", ".htm")
 
@@ -143,6 +144,10 @@ def case_body(result: SimulationResult, display: Display) -> list[str]:
     if len(separators):
         tables.append(html_table(separators, display, SEPARATOR_WORDS, ids=True, limited=limited,
                                  caption="Desalters (outlets leave at one temperature from the balance)"))
+    drums = drum_table(result)
+    if len(drums):
+        tables.append(html_table(drums, display, DRUM_WORDS, DRUM_DIGITS, ids=True, limited=limited,
+                                 caption=DRUM_TITLE))
     tables.append(html_table(stream_table(result), display, STREAM_WORDS, caption="Stream segments"))
     body.append("<section id=\"tables\"><h2>Tables</h2>" + "".join(tables) + "</section>")
     body.append(f"<footer>{escape(result.message)}</footer>")

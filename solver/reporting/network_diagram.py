@@ -10,8 +10,8 @@ cooled streams go above, heated ones below, each group ordered by where it start
 
 Symbols and colours are our own: an exchanger is two dots on its two rows joined by a line; a
 unit on one stream a rounded square, warm where it heats the stream and cool where it cools
-it; a junction (a split or a mix) a small diamond joined to the rows it feeds or collects.
-Segment temperatures are written on each row; a unit with a violated limit is ringed in red with
+it; a junction (a split or a mix) a small diamond joined to the rows it feeds or collects (a
+flash drum's with its tag). Segment temperatures are written on each row; a unit with a violated limit is ringed in red with
 a "!", one with a warning in amber; every unit links to its row in the report's tables.
 """
 
@@ -259,6 +259,9 @@ def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display
         for yy in ys[:1]:
             parts.append(f'<path d="M{x},{yy - 8} L{x + 8},{yy} L{x},{yy + 8} L{x - 8},{yy} z" fill="#fff" '
                          f'stroke="#555" stroke-width="1.6"/>')
+        if "group" in units and node in units.index and units.at[node, "group"] == "drums":  # a vessel: its tag
+            parts.append(f'<text x="{x}" y="{ys[0] - 12}" text-anchor="middle" font-weight="bold" fill="#222">'
+                         f'{escape(node)}</text>')
         parts.append("</g></a>")
         return parts
     duty = units.at[node, "duty_kw"] if node in units.index and "duty_kw" in units else float("nan")

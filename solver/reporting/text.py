@@ -38,6 +38,12 @@ ONE_STREAM_WORDS = {"type": "type", "heat_source": "heat source", "outlet_fluid"
 SEPARATOR_WORDS = {"type": "type", "inlet_c": "crude in", "wash_water_in_c": "wash water in", "outlet_c": "outlet",
                    "crude_drop_k": "crude drop", "brine_kg_s": "brine", "findings": "findings"}
 """The desalters' table (units in the ``separators`` group)."""
+DRUM_WORDS = {"inlet_c": "inlet", "inlet_vapour_fraction": "vapour fraction in", "vapour_kg_s": "vapour",
+              "liquid_kg_s": "liquid", "outlet_c": "out (both)", "outer_iterations": "outer iterations",
+              "findings": "findings"}
+"""The flash drums' table (units in the ``drums`` group)."""
+DRUM_DIGITS = {"inlet_vapour_fraction": 4, "outer_iterations": 0}
+DRUM_TITLE = "Flash drums (split at the inlet state; vapour and liquid leave at one temperature from the balance)"
 STREAM_WORDS = {"segment": "segment", "flow_kg_s": "flow", "heat_capacity_rate_kw_per_k": "m·cp",
                 "temperature_c": "temperature", "vapour_fraction": "vapour fraction"}
 DIGITS = {"re_tube": 0}
@@ -79,9 +85,15 @@ def one_stream_table(result: SimulationResult) -> pd.DataFrame:
     return table[shown].rename_axis("unit")
 
 
-def separator_table(result: SimulationResult) -> pd.DataFrame:
-    table = in_group(result, "separators")
-    return table[[c for c in SEPARATOR_WORDS if c in table]].rename_axis("unit")
+def separator_table(result: SimulationResult, group="separators", words=None) -> pd.DataFrame:
+    """The rows of units in ``group`` (desalters; flash drums with ``drums``) and the columns of
+    ``words`` (default :data:`SEPARATOR_WORDS`)."""
+    table = in_group(result, group)
+    return table[[c for c in (words or SEPARATOR_WORDS) if c in table]].rename_axis("unit")
+
+
+def drum_table(result: SimulationResult) -> pd.DataFrame:
+    return separator_table(result, "drums", DRUM_WORDS)
 
 
 RATING = ("ua_kw_per_k", "ntu_hot", "p_hot", "r_hot", "f", "lmtd_k")
@@ -170,6 +182,9 @@ def text_report(result: SimulationResult, extra: str = "", display: Display | No
     if len(separators):
         parts += [_section("Desalters (outlets leave at one temperature from the balance)"),
                   render(separators, display, SEPARATOR_WORDS)]
+    drums = drum_table(result)
+    if len(drums):
+        parts += [_section(DRUM_TITLE), render(drums, display, DRUM_WORDS, DRUM_DIGITS)]
     targets = result.units.get("target_deviation_k")
     if targets is not None and targets.notna().any():
         parts += [_section("Products with a target temperature (deviation = actual - target)"),

@@ -39,7 +39,7 @@ from pathlib import Path
 import numpy as np
 
 from hxtrain.network import Case, Network, build_network, case_from_mapping, load_case
-from hxtrain.units.protocol import TOTALS, Finding, check, reports_together
+from hxtrain.units.protocol import TOTALS, Finding, Inlets, check, reports_together, splits_by_state
 from hxtrain.units.properties import PHYSICAL_RANGE
 
 from hxtrain.solver.simulation.engine import TemperatureSolution, solve_temperatures, unit_groups
@@ -52,6 +52,12 @@ BALANCE_TOLERANCE = 1e-6
 """Largest relative imbalance of the units' enthalpy balances (the overall imbalance less what
 the tears hold back) accepted as an answer. Units close their own balances to about 1e-12; a
 larger imbalance means a unit did not meet its own balance."""
+SPLIT_TOLERANCE = 1e-7
+"""kg/kg: the outer iteration of a network with flash drums stops where no drum's vapour
+fraction changes by more than this from one pass to the next."""
+MAX_OUTER_ITERATIONS = 50
+"""Most passes (flows, then states) of the outer iteration before a scenario whose drums have
+not settled is called not converged."""
 
 
 @dataclass
@@ -117,15 +123,72 @@ def evaluate(case, values: dict | None = None, *, tolerance=None, max_iterations
     tolerance = case.settings.tolerance if tolerance is None else tolerance
     max_iterations = case.settings.max_iterations if max_iterations is None else max_iterations
     net = build_network(case, values or {})
+    plan = plan_calculation(net.graph) if plan is None else plan
+    drums = [name for name, unit in net.units.items() if splits_by_state(unit)]
     with np.errstate(all="ignore"):  # rows that are not valid may hold NaN; they are masked in assess
+        if not drums:  # flows first, once: nothing they carry depends on the states
+            solution = solve_temperatures(net, tolerance=tolerance, max_iterations=max_iterations, batch=net.batch,
+                                          plan=plan)
+            return assess(net, solution, tolerance)
+        solution, unsettled = settle_splits(net, drums, plan, tolerance, max_iterations)
+    return assess(net, solution, tolerance, unsettled)
+
+
+def settle_splits(net: Network, drums, plan, tolerance, max_iterations):
+    """The outer iteration of a network whose flows follow the states (flash drums): solve the
+    states with the drums' current vapour fractions, take each drum's fraction from its inlet
+    state, solve the flows with it, until no fraction moves by more than :data:`SPLIT_TOLERANCE`
+    (at most :data:`MAX_OUTER_ITERATIONS` passes). Successive substitution, accelerated per drum
+    and scenario by Wegstein's secant step (its factor bounded to [0.2, 5]; fractions kept in
+    [0, 1]). Returns the solution at the last flows and, over the batch, the reason a scenario's
+    drums did not settle ("" where they did)."""
+    from hxtrain.network.graph import resolve_flows
+
+    units = [net.units[name] for name in drums]
+    last_x = last_g = None
+    for passes in range(1, MAX_OUTER_ITERATIONS + 1):
         solution = solve_temperatures(net, tolerance=tolerance, max_iterations=max_iterations, batch=net.batch,
-                                      plan=plan_calculation(net.graph) if plan is None else plan)
-    return assess(net, solution, tolerance)
+                                      plan=plan)
+        x = np.stack([np.broadcast_to(u.split, (net.batch,)) for u in units], axis=1)
+        g = np.stack([_split_at_state(net, name, unit, solution) for name, unit in zip(drums, units)], axis=1)
+        change = np.abs(g - x)
+        moving = np.isfinite(change) & (change > SPLIT_TOLERANCE)
+        if not np.any(moving):
+            break
+        step = np.ones_like(x)
+        if last_x is not None:  # Wegstein: w = 1 / (1 - s), s the secant slope of g over x
+            with np.errstate(all="ignore"):
+                slope = (g - last_g) / (x - last_x)
+            step = np.where(np.isfinite(slope) & (np.abs(x - last_x) > 0.0), np.clip(1.0 / (1.0 - slope), 0.2, 5.0),
+                            1.0)
+        following = np.where(moving, np.clip(x + step * (g - x), 0.0, 1.0), x)
+        last_x, last_g = x, g
+        for j, unit in enumerate(units):
+            unit.set_split(following[:, j], passes)
+        resolve_flows(net)
+    for unit in units:
+        unit.set_split(unit.split, passes)
+    unsettled = np.full(net.batch, "", dtype=object)
+    for k in np.flatnonzero(np.any(moving, axis=1)):
+        j = int(np.argmax(np.where(moving[k], change[k], -1.0)))
+        unsettled[k] = (f"flash drum {drums[j]}: its vapour fraction did not settle in {MAX_OUTER_ITERATIONS} outer "
+                        f"iterations of flows and states (last change {change[k, j]:.2g} kg/kg, tolerance "
+                        f"{SPLIT_TOLERANCE:g})")
+    return solution, unsettled
 
 
-def assess(net: Network, solution: TemperatureSolution, tolerance) -> Evaluation:
+def _split_at_state(net, name, unit, solution):
+    """(batch,) the vapour fraction drum ``name`` takes from its inlet state in ``solution``."""
+    seg = net.inlets[name][0]
+    flow = np.broadcast_to(net.flow, (net.batch, len(net.segments)))
+    inlets = Inlets(solution.temperature[:, [seg]], flow[:, [seg]], (net.fluids[seg],))
+    return np.broadcast_to(unit.split_from_state(inlets), (net.batch,))
+
+
+def assess(net: Network, solution: TemperatureSolution, tolerance, unsettled=None) -> Evaluation:
     """The rest of an evaluation once temperatures are solved: unit reports, totals, findings,
-    the balance and each scenario's status (the stages are apart for the size benchmark)."""
+    the balance and each scenario's status (the stages are apart for the size benchmark).
+    ``unsettled``: over the batch, why the flash drums' split did not settle ("" where it did)."""
     with np.errstate(all="ignore"):
         t = solution.temperature
         flow = np.broadcast_to(net.flow, t.shape)
@@ -156,6 +219,8 @@ def assess(net: Network, solution: TemperatureSolution, tolerance) -> Evaluation
         if finding.severity == "input":
             fail(finding.active, NOT_VALID, finding.messages, tuple(finding.key.split(".")))
     fail(~solution.converged, NOT_CONVERGED, lambda k: _not_converged_text(t[k]), None)
+    if unsettled is not None:
+        fail(unsettled != "", NOT_CONVERGED, unsettled, None)
     range_findings = _temperature_checks(net, t, flow, fail)
     with np.errstate(invalid="ignore"):
         fail(~(units_relative <= BALANCE_TOLERANCE), CHECK_FAILED,

@@ -57,10 +57,16 @@ UNIT_COLUMNS = {
     "steam_flow": "steam_kg_s",
     "condensate_flow": "condensate_kg_s",
     "steam_t_h": "steam_t_h",
+    "q_in": "inlet_vapour_fraction",
+    "vapour_flow": "vapour_kg_s",
+    "liquid_flow": "liquid_kg_s",
+    "outer_iterations": "outer_iterations",
 }
 """Report quantity -> column of the units table (P, R and NTU on the hot-side basis). An exchanger
 rated by zones gives its outlets' vapour fractions and, beside the smaller end approach, the
-smallest approach anywhere inside it."""
+smallest approach anywhere inside it. A flash drum gives its feed's vapour fraction at the inlet,
+its vapour and liquid flows, the one temperature both leave at and the outer iterations (flows,
+then states) its split took."""
 SCALE = {"dp_shell": 1e-3, "dp_tube": 1e-3}
 """Report quantities converted for the table (Pa -> kPa)."""
 COUNTS = ("limit_violations", "warnings", "iterations")
@@ -127,6 +133,8 @@ def raise_unless_success(evaluation: Evaluation, k: int, scenario: str = ""):
     net = evaluation.net
     prefix = f"scenario '{scenario}': " if scenario else ""
     if status == NOT_CONVERGED:
+        if evaluation.solution.converged[k]:  # the states converged; the flash drums' split did not settle
+            raise ConvergenceError(prefix + evaluation.message[k])
         error = convergence_error(net, evaluation.solution, evaluation.tolerance)
         if evaluation.batch > 1 or scenario:
             error = ConvergenceError(prefix + evaluation.message[k], error.diagnostics)
