@@ -276,20 +276,21 @@ DRUM_OUTLETS = FlashDrum.outlets
 def _read_flash_drum(f: Fields, reading: Reading) -> dict:
     """A drum's ``vapour`` and ``liquid``: each names the fluid it leaves as (an enthalpy curve
     without a plateau, on the feed's reference) and starts a path."""
-    data = {}
-    for port in DRUM_OUTLETS:
-        outlet = f.mapping(port, required=True, what=f"the drum's {port}: its fluid and path")
-        name = outlet.defined_name("fluid", sorted(reading.fluids))
+    data, outlets = {}, {}
+    for port in DRUM_OUTLETS:  # every key of both outlets read before any is judged: the schema sees them all
+        outlet = outlets[port] = f.mapping(port, required=True, what=f"the drum's {port}: its fluid and path")
+        data[f"{port}_name"] = outlet.defined_name("fluid", sorted(reading.fluids))
+        reading.starts_path(f"{f.path[-1]}.{port}", outlet, f.path[-1], port)
+        outlet.text("description")
+        outlet.finish()
+    for port, outlet in outlets.items():
+        name = data[f"{port}_name"]
         fluid = reading.fluids[name]
         if not isinstance(fluid, EnthalpyCurve) or fluid.state_by_enthalpy:
             raise outlet.error("fluid", f"fluid '{name}' is not an enthalpy curve without a saturation plateau: the "
                                         f"drum's {port} leaves as a fluid given by 'enthalpy_curve' at the drum's "
                                         "pressure, on the feed curve's enthalpy reference (a wide-boiling cut; a "
                                         "pure fluid's plateau is not taken by a drum in this version)")
-        data[f"{port}_name"] = name
-        reading.starts_path(f"{f.path[-1]}.{port}", outlet, f.path[-1], port)
-        outlet.text("description")
-        outlet.finish()
     f.text("description")
     f.finish()
     return data

@@ -156,3 +156,17 @@ def test_a_case_with_names_of_its_own_is_valid_against_the_schema(tmp_path, caps
     assert code == 0, err
     errors = list(jsonschema.Draft202012Validator(shipped("case")).iter_errors(data))
     assert not errors, [e.message for e in errors]
+
+
+def test_keys_every_successful_read_requires_are_required_in_the_schema():
+    """A read stopped by an error (a malformed file) asks for nothing after the key it stopped
+    at; it must not make later keys optional. Keys the reader always requires are required in
+    the schema: an exchanger's arrangement, a stream's fluid, flow, supply temperature and path,
+    both outlets of a flash drum and each outlet's fluid and path."""
+    case = shipped("case")["properties"]
+    assert "arrangement" in case["exchangers"]["additionalProperties"]["required"]
+    assert set(case["streams"]["additionalProperties"]["required"]) >= {"fluid", "flow", "supply_temperature", "path"}
+    drum = case["flash_drums"]["additionalProperties"]
+    assert set(drum["required"]) == {"vapour", "liquid"}
+    for port in ("vapour", "liquid"):
+        assert set(drum["properties"][port]["required"]) == {"fluid", "path"}

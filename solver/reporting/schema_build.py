@@ -10,7 +10,8 @@ notes alone: a key no reader asks for is not in it, and every key a reader asks 
 
 The corpus is every bundled file and the test corpora (tests/valid, tests/malformed*): the
 malformed files reach the readers' rarer branches (geometry, cp tables, ...). A key is required
-where every read that reached its mapping asked for it as required. What a reader reads without Fields is
+where every read that reached its mapping asked for it as required, counting only the reads that
+succeeded where a mapping has any (a read stopped by an error asks for nothing after it). What a reader reads without Fields is
 added from the reader's own tables: a study's changes (network/changes.py: VERBS and the keys
 each takes). Mappings whose keys are names but are read one key at a time are listed in
 :data:`NAMED_MAPPINGS`.
@@ -220,14 +221,21 @@ def observations(recorder: Recorder, kind: str, files) -> dict:
             continue
         pattern = _pattern(path, named.get(file, set()))
         node = nodes.setdefault(pattern, {"keys": defaultdict(set), "required": None, "named": path in named[file],
-                                          "entries": path in recorder.named.get(file, ())})
+                                          "entries": path in recorder.named.get(file, ()), "by_read": {}})
         if node["named"]:
             continue
         for key, forms in asked.items():
             if not isinstance(key, int):
                 node["keys"][key].update(forms)
-        # required only where every read that reached this mapping asked for it as required
-        node["required"] = set(required) if node["required"] is None else node["required"] & required
+        node["by_read"].setdefault(read in recorder.succeeded, []).append(set(required))
+    for node in nodes.values():
+        # required where every read that reached this mapping asked for it as required; only the
+        # reads that succeeded count where there are any, since a read stopped by an error (a
+        # malformed file) never asks for the keys after the one it stopped at
+        reads = node.pop("by_read", {})
+        sets = reads.get(True) or reads.get(False)
+        if sets:
+            node["required"] = set.intersection(*sets)
     return nodes
 
 
