@@ -57,6 +57,7 @@ def _line(cp, low=-50.0, high=500.0, boiling=None):
 @pytest.mark.parametrize("boiling", ["plateau", "range"])
 @pytest.mark.parametrize("exchanger", [{"arrangement": "counterflow", "ua": 30.0},
                                        {"arrangement": "tema_e", "u": 400, "area_per_shell": 60},
+                                       {"arrangement": "tema_e", "shells": 3, "u": 400, "area_per_shell": 25},
                                        {"arrangement": "double_pipe", "ua": 5.0, "bypass": {"cold": 0.3}}])
 def test_a_constant_cp_given_as_a_curve_is_rated_as_today(exchanger, boiling):
     """One zone, constant cp: rated by zones (the curves could boil, far above the streams) the
@@ -196,6 +197,10 @@ def test_supply_on_a_plateau_needs_its_vapour_fraction():
      ("heaters", "H-1"), "cannot take it"),
     (lambda c: c["exchangers"]["E-1"].update(arrangement="crossflow", mixed_side="hot"),
      ("exchangers", "E-1", "arrangement"), "not covered"),
+    (lambda c: c["exchangers"]["E-1"].update(arrangement="tema_e", tube_passes=4, shells=2, shell_side="hot"),
+     ("exchangers", "E-1", "tube_passes"), "two tube passes"),
+    (lambda c: c["exchangers"]["E-1"].update(shells=2, shells_flow="parallel_flow"),
+     ("exchangers", "E-1", "shells_flow"), "overall counterflow only"),
 ])
 def test_what_this_version_cannot_carry_is_refused_naming_the_key(change, key, fragment):
     case, _ = _steam_heater(steam_flow=1.0, ua=10.0)

@@ -10,8 +10,9 @@ What is covered, and why the rest is refused (:func:`zone_problem`, which the ne
 ``Exchanger.fluid_problem`` before solving: exit 2 naming the key):
 
 * arrangements ``counterflow`` and ``double_pipe`` (any number of shells in series: still
-  counterflow), and ``tema_e`` with two tube passes and one shell in series: those
-  :func:`.zone_rating.rate_by_zones` rates;
+  counterflow), and ``tema_e`` with two tube passes, one shell or several in series (each 1-2
+  shell rated by zones with its share of UA, the shells chained in overall counterflow:
+  :mod:`.zone_shells`): those :func:`.zone_rating.rate_by_zones` rates;
 * U fixed: ``ua``, or ``u`` with ``area_per_shell``. A U that follows the films would need the
   films of each phase in each zone, which this version does not model;
 * a bypass on either side: the exchanger proper takes (1 - bypass) of the flow and the bypassed
@@ -29,6 +30,7 @@ from .enthalpy_curves import EnthalpyCurve, curve_from_model
 from .properties import Blend, ConstantCp
 from .u_models import FixedCoefficient
 from .zone_rating import ZoneRating, rate_by_zones
+from .zone_shells import shell_ends
 
 __all__ = ["rated_by_zones", "zone_problem", "ZoneService", "rate_zoned", "zone_report", "SAMPLE_STEP"]
 
@@ -50,10 +52,13 @@ def rated_by_zones(fluids) -> bool:
 def zone_problem(spec, fluids):
     """(key, message) where zone rating cannot rate this exchanger, else None."""
     name = spec.arrangement.name
-    if name == "tema_e" and (spec.tube_passes != 2 or spec.shells != 1):
-        return ("tube_passes" if spec.tube_passes != 2 else "shells",
-                "an exchanger with a fluid on an enthalpy curve is rated by zones as a TEMA E shell with two tube "
-                f"passes and one shell in series only (here {spec.tube_passes} passes, {spec.shells} shells)")
+    if name == "tema_e" and spec.tube_passes != 2:
+        return ("tube_passes", "an exchanger with a fluid on an enthalpy curve is rated by zones as TEMA E shells with "
+                               f"two tube passes only (here {spec.tube_passes} passes)")
+    if spec.shells > 1 and spec.arrangement.shells_flow != "counterflow":
+        return ("shells_flow", "an exchanger with a fluid on an enthalpy curve is rated by zones with its shells in "
+                               "series in overall counterflow only (here shells_flow: "
+                               f"{spec.arrangement.shells_flow})")
     if name not in ("counterflow", "double_pipe", "tema_e"):
         return ("arrangement", f"an exchanger with a fluid on an enthalpy curve is rated by zones; arrangement {name} "
                                "is not covered (use counterflow, double_pipe or tema_e with two tube passes)")
@@ -111,7 +116,7 @@ def rate_zoned(spec, inlets, cache: dict) -> ZoneService:
         ua = np.broadcast_to(spec.thermal.u * spec.total_area / 1000.0, h_hot.shape)
     arrangement = "tema_e" if spec.arrangement.name == "tema_e" else "counterflow"
     x = rate_by_zones(hot, cold, h_hot, h_cold, m_hot * (1.0 - bypass_hot), m_cold * (1.0 - bypass_cold), ua,
-                      arrangement)
+                      arrangement, shells=spec.shells)
     # the outlets from each side's own fluid and the whole duty (the bypassed part rejoined by
     # enthalpy), so that every exchanger closes its balance in its fluids' enthalpy to round-off
     # (a sampled side's curve is used for the rating only)
@@ -141,6 +146,10 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
                   "ua": service.ua, "approach": service.end_approach, "approach_internal": x.approach}
     findings = unit._limit_findings(inlets, service)
     works = x.duty != 0.0
+    giver_ends, taker_ends = shell_ends(x.profile, unit.spec.shells if unit.spec.arrangement.name == "tema_e" else 1)
+    worst = np.argmax(taker_ends - giver_ends, axis=1)[:, None]
+    giver_out, taker_out = (np.take_along_axis(ends, worst, axis=1)[:, 0] for ends in (giver_ends, taker_ends))
+    crossed = taker_out > giver_out
     for j, side in enumerate(("hot", "cold")):
         limit = unit.limits.get("maximum_vapour_fraction", {}).get(side)
         if limit is not None:
@@ -154,12 +163,11 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
               "{e:.1f} K), is below the case's {lim:.1f} K", a=x.approach,
               at=np.where(works, x.pinch_position / np.where(works, x.duty, 1.0), 0.0), e=service.end_approach,
               lim=unit.minimum_approach),
-        # in one 1-2 shell the cold stream leaving above the hot outlet is a temperature cross
-        # (P_hot + P_cold > 1), whatever the zones: the same limit as the P–NTU rating's
-        check("temperature_cross", "limit", works & (unit.spec.arrangement.name == "tema_e")
-              & (x.t_cold_out > x.t_hot_out), key,
-              "temperature cross inside the 1-2 shell: the cold stream leaves at {tc:.1f} °C, above the hot "
-              "outlet at {th:.1f} °C", tc=x.t_cold_out, th=x.t_hot_out),
+        # in a 1-2 shell the stream taking heat leaving above the giver's outlet is a temperature
+        # cross (P_hot + P_cold > 1), whatever the zones: the same limit as the P–NTU rating's
+        check("temperature_cross", "limit", works & (unit.spec.arrangement.name == "tema_e") & crossed, key,
+              "temperature cross inside a 1-2 shell: the stream taking heat leaves it at {tc:.1f} °C, above the "
+              "outlet of the stream giving heat at {th:.1f} °C", tc=taker_out, th=giver_out),
         check("reversed_heat_flow", "warning", x.reversed, key,
               "the hot-side stream enters colder ({th:.1f} °C) than the cold-side stream ({tc:.1f} °C): heat "
               "flows from the cold side to the hot side ({q:.1f} kW)", th=t_hot, tc=t_cold, q=-x.duty),

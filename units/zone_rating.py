@@ -23,9 +23,11 @@ a point).
 Arrangements covered: ``counterflow`` (exact for the curves) and ``tema_e`` with two tube passes
 (1-2 shells, shell fluid mixed: each zone rated as a 1-2 shell of its own with the zone
 boundaries placed as in counterflow, the approximation common in practice for multipass
-condensers and vaporisers [2]_ [3]_; exact for one zone). Not covered: 1-2N shells with four or
-more tube passes, whose P passes through a maximum at finite NTU, so that the duty is not
-monotone in UA and the bracketed solve on the duty would not be unique.
+condensers and vaporisers [2]_ [3]_; exact for one zone), one shell or several in series in
+overall counterflow (``shells``: each shell so rated with its share of UA, the shells chained by
+:mod:`.zone_shells`). Not covered: 1-2N shells with four or more tube passes, whose P passes
+through a maximum at finite NTU, so that the duty is not monotone in UA and the bracketed solve
+on the duty would not be unique.
 
 References
 ----------
@@ -49,7 +51,7 @@ from .arrays import as_arrays
 from .enthalpy_curves import EnthalpyCurve
 from .pntu_inverse import ntu_from_p
 
-__all__ = ["ZoneProfile", "ZoneRating", "zone_profile", "duty_limit", "rate_by_zones", "ZONE_ARRANGEMENTS"]
+__all__ = ["ZoneProfile", "ZoneRating", "zone_profile", "duty_limit", "solve_duty", "rate_by_zones", "ZONE_ARRANGEMENTS"]
 
 ZONE_ARRANGEMENTS = ("counterflow", "tema_e")
 """The arrangements rated zone by zone."""
@@ -254,7 +256,7 @@ def duty_limit(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m_h
     return np.where(np.isnan(t_hot_in) | np.isnan(t_cold_in), np.nan, limit)
 
 
-def _solve_duty(needed, ua, upper):
+def solve_duty(needed, ua, upper):
     """Root of needed(Q) = UA on [0, upper] per scenario, ``needed`` rising (inf past reach).
 
     Illinois regula falsi [4]_ on s(Q) = UA_needed/(UA + UA_needed) − 1/2, in [−1/2, 1/2), and
@@ -299,7 +301,7 @@ def _solve_duty(needed, ua, upper):
 
 
 def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m_hot, m_cold, ua,
-                  arrangement="counterflow", *, tube_passes=2) -> ZoneRating:
+                  arrangement="counterflow", *, tube_passes=2, shells=1) -> ZoneRating:
     """Rate an exchanger zone by zone from its inlet enthalpies, mass flows and UA.
 
     Parameters
@@ -315,6 +317,9 @@ def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, 
         Overall conductance, kW/K (>= 0), shared out over the zones.
     arrangement, tube_passes
         As for :func:`zone_profile`.
+    shells : int
+        Identical ``tema_e`` shells in series in overall counterflow, each with UA/shells
+        (:mod:`.zone_shells`); counterflow is one counterflow whatever its shells.
 
     Returns
     -------
@@ -333,7 +338,8 @@ def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, 
     h_hot_in, h_cold_in, m_hot, m_cold, ua = (np.atleast_1d(a).astype(float) for a in
                                              as_arrays(h_hot_in, h_cold_in, m_hot, m_cold, ua))
     forward = ~(hot.temperature(h_hot_in) < cold.temperature(h_cold_in))
-    options = dict(arrangement=arrangement, tube_passes=tube_passes)
+    options = dict(arrangement=arrangement, tube_passes=tube_passes,
+                   shells=shells if arrangement == "tema_e" else 1)
     if forward.all():
         return _rate_forward(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, ua, **options)
     # where the hot-side stream enters colder, it is the one that takes heat: rate those swapped
@@ -351,14 +357,18 @@ def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, 
     return _joined(parts, len(ua))
 
 
-def _rate_forward(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, ua, **options):
+def _rate_forward(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, ua, *, shells, **options):
     upper = duty_limit(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold)
 
-    def needed(q):
-        return zone_profile(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, q, **options).ua_needed
+    def profile_at(q):
+        if shells == 1:
+            return zone_profile(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, q, **options)
+        from .zone_shells import series_profile  # here: zone_shells builds on this module
 
-    duty = _solve_duty(needed, ua, upper)
-    profile = zone_profile(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, duty, **options)
+        return series_profile(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, q, ua, shells, **options)
+
+    duty = solve_duty(lambda q: profile_at(q).ua_needed, ua, upper)
+    profile = profile_at(duty)
     flowing = _flows_positive(m_hot, m_cold)
     h_hot_out = h_hot_in - duty / np.where(flowing, m_hot, 1.0)
     h_cold_out = h_cold_in + duty / np.where(flowing, m_cold, 1.0)
