@@ -13,8 +13,14 @@ What is covered, and why the rest is refused (:func:`zone_problem`, which the ne
   counterflow), and ``tema_e`` with two tube passes, one shell or several in series (each 1-2
   shell rated by zones with its share of UA, the shells chained in overall counterflow:
   :mod:`.zone_shells`): those :func:`.zone_rating.rate_by_zones` rates;
-* U fixed: ``ua``, or ``u`` with ``area_per_shell``. A U that follows the films would need the
-  films of each phase in each zone, which this version does not model;
+* U fixed (``ua``, or ``u`` with ``area_per_shell``), or films scaled from a reference
+  (:class:`.u_models.ScaledFilms`) evaluated at the exchanger's flows and each side's mean
+  temperature over the exchanger, iterated with the rating to its fixed point as in
+  :mod:`.service_rating`: one U for all zones. An approximation, said in the report's label:
+  the single-phase film correlations describe no boiling or condensing zone, and a side that
+  holds vapour enters the property correction with its viscosity and conductivity only (the
+  apparent cp of a two-phase range, latent heat included, is no film property). U from
+  geometry is refused (it would need each phase's films in each zone);
 * a bypass on either side: the exchanger proper takes (1 - bypass) of the flow and the bypassed
   part rejoins it by enthalpy, which is exact on a curve;
 * the fluid on the other side a plain cp model (not a blend of several fluids).
@@ -28,7 +34,8 @@ import numpy as np
 
 from .enthalpy_curves import EnthalpyCurve, curve_from_model
 from .properties import Blend, ConstantCp
-from .u_models import FixedCoefficient
+from .service_rating import MAX_PASSES, OUTLET_TOLERANCE, coefficient_quantities, coefficients_at
+from .u_models import FixedCoefficient, ScaledFilms
 from .zone_rating import ZoneRating, rate_by_zones
 from .zone_shells import shell_ends
 
@@ -62,9 +69,9 @@ def zone_problem(spec, fluids):
     if name not in ("counterflow", "double_pipe", "tema_e"):
         return ("arrangement", f"an exchanger with a fluid on an enthalpy curve is rated by zones; arrangement {name} "
                                "is not covered (use counterflow, double_pipe or tema_e with two tube passes)")
-    if spec.ua is None and not isinstance(spec.thermal, FixedCoefficient):
-        return ("u", "an exchanger with a fluid on an enthalpy curve takes a fixed U in this version: give 'ua', or "
-                     "'u' with 'area_per_shell' (U from films is not modelled for two-phase zones)")
+    if spec.ua is None and not isinstance(spec.thermal, (FixedCoefficient, ScaledFilms)):
+        return ("geometry", "an exchanger with a fluid on an enthalpy curve takes a fixed U or films scaled from a "
+                            "reference in this version: U from geometry is not modelled for two-phase zones")
     for fluid in fluids:
         if isinstance(fluid, Blend):
             return ("arrangement", "a blend of several fluids against a fluid on an enthalpy curve is not rated in "
@@ -100,6 +107,8 @@ class ZoneService:
     q_cold_out: np.ndarray
     end_approach: np.ndarray
     """The smaller temperature difference at the exchanger's two ends (counterflow ends)."""
+    coefficients: object = None
+    """U and its films where U follows the operating point (:class:`.u_models.Coefficients`)."""
     pressure_drop: dict = field(default_factory=dict)
     """None modelled (U is fixed): kept for the limit checks shared with the exchanger."""
 
@@ -110,13 +119,21 @@ def rate_zoned(spec, inlets, cache: dict) -> ZoneService:
     h_hot, h_cold = inlets.enthalpy(0), inlets.enthalpy(1)
     m_hot, m_cold = inlets.m[:, 0], inlets.m[:, 1]
     bypass_hot, bypass_cold = (np.asarray(b, dtype=float) for b in (spec.bypass_hot, spec.bypass_cold))
+    m_hot_x, m_cold_x = m_hot * (1.0 - bypass_hot), m_cold * (1.0 - bypass_cold)
+    arrangement = "tema_e" if spec.arrangement.name == "tema_e" else "counterflow"
+
+    def rated(ua):
+        return rate_by_zones(hot, cold, h_hot, h_cold, m_hot_x, m_cold_x, ua, arrangement, shells=spec.shells)
+
+    coefficients = None
     if spec.ua is not None:
         ua = np.broadcast_to(np.asarray(spec.ua, dtype=float), h_hot.shape)
-    else:
+        x = rated(ua)
+    elif isinstance(spec.thermal, FixedCoefficient):
         ua = np.broadcast_to(spec.thermal.u * spec.total_area / 1000.0, h_hot.shape)
-    arrangement = "tema_e" if spec.arrangement.name == "tema_e" else "counterflow"
-    x = rate_by_zones(hot, cold, h_hot, h_cold, m_hot * (1.0 - bypass_hot), m_cold * (1.0 - bypass_cold), ua,
-                      arrangement, shells=spec.shells)
+        x = rated(ua)
+    else:
+        x, ua, coefficients = _rated_with_films(spec, inlets, m_hot_x, m_cold_x, rated, cache)
     # the outlets from each side's own fluid and the whole duty (the bypassed part rejoined by
     # enthalpy), so that every exchanger closes its balance in its fluids' enthalpy to round-off
     # (a sampled side's curve is used for the rating only)
@@ -128,7 +145,52 @@ def rate_zoned(spec, inlets, cache: dict) -> ZoneService:
                   else fluid_cold.temperature(h_cold_out, guess=x.t_cold_out))
     ends = np.minimum(np.abs(t_hot - x.t_cold_out), np.abs(x.t_hot_out - t_cold))
     return ZoneService(x, np.array(ua), h_hot_out, h_cold_out, t_hot_out, t_cold_out,
-                       hot.vapour_fraction(h_hot_out), cold.vapour_fraction(h_cold_out), ends)
+                       hot.vapour_fraction(h_hot_out), cold.vapour_fraction(h_cold_out), ends,
+                       coefficients=coefficients)
+
+
+def _rated_with_films(spec, inlets, m_hot_x, m_cold_x, rated, cache):
+    """(rating, UA, coefficients) with U from scaled films at the flows through the exchanger and
+    each side's mean temperature, (inlet + outlet)/2 of the exchanger proper, substituted until
+    both outlets move less than OUTLET_TOLERANCE·(1 + |T_hot,in|), as the in-service rating does
+    (so a side without vapour gets its numbers); stops at once where U did not change. Starts
+    from the outlets of the last call of the same batch (kept in ``cache``; speed only)."""
+    t_hot, t_cold = inlets.t[:, 0], inlets.t[:, 1]
+    fluids = tuple(_FilmView(f) if isinstance(f, EnthalpyCurve) and f.holds_vapour else f for f in inlets.fluids)
+    last = cache.get("outlets")
+    t_hot_x, t_cold_x = last if last is not None and last[0].shape == t_hot.shape else (t_hot, t_cold)
+    u_before = None
+    for _ in range(MAX_PASSES):
+        coefficients = coefficients_at(spec, m_hot_x, m_cold_x, 0.5 * (t_hot + t_hot_x), 0.5 * (t_cold + t_cold_x),
+                                       *fluids)
+        if u_before is not None and np.array_equal(coefficients.u_service, u_before):
+            break
+        ua = coefficients.u_service * spec.total_area / 1000.0
+        x = rated(ua)
+        moved = np.maximum(np.abs(x.t_hot_out - t_hot_x), np.abs(x.t_cold_out - t_cold_x))
+        t_hot_x, t_cold_x, u_before = x.t_hot_out, x.t_cold_out, coefficients.u_service
+        if np.all(moved <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot))):
+            break
+    cache["outlets"] = (t_hot_x, t_cold_x)
+    return x, ua, coefficients
+
+
+class _FilmView:
+    """A fluid that holds vapour as the scaled films see it: its viscosity and conductivity, and
+    one cp at every temperature (the cp ratio of the property correction is 1), since the
+    apparent cp of a two-phase range, latent heat included, is no film property."""
+
+    def __init__(self, fluid):
+        self.fluid = fluid
+
+    def viscosity(self, t):
+        return self.fluid.viscosity(t)
+
+    def conductivity(self, t):
+        return self.fluid.conductivity(t)
+
+    def cp(self, t):
+        return np.ones(np.shape(t))
 
 
 def zone_report(unit, inlets, service: ZoneService | None, problem):
@@ -143,8 +205,9 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
     x, t_hot, t_cold = service.rating, inlets.t[:, 0], inlets.t[:, 1]
     quantities = {"duty": x.duty, "t_hot_in": t_hot, "t_hot_out": service.t_hot_out, "t_cold_in": t_cold,
                   "t_cold_out": service.t_cold_out, "q_hot_out": service.q_hot_out, "q_cold_out": service.q_cold_out,
-                  "ua": service.ua, "approach": service.end_approach, "approach_internal": x.approach}
-    findings = unit._limit_findings(inlets, service)
+                  "ua": service.ua, "approach": service.end_approach, "approach_internal": x.approach,
+                  **coefficient_quantities(unit.spec, service.coefficients, x.duty.shape)}
+    findings = unit._limit_findings(inlets, service) + unit._film_findings(service.coefficients)
     works = x.duty != 0.0
     giver_ends, taker_ends = shell_ends(x.profile, unit.spec.shells if unit.spec.arrangement.name == "tema_e" else 1)
     worst = np.argmax(taker_ends - giver_ends, axis=1)[:, None]
@@ -177,6 +240,15 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
                "cold_out": service.t_cold_out, "hot_out_vapour_fraction": service.q_hot_out,
                "cold_out_vapour_fraction": service.q_cold_out}
     profile = {"duty": x.profile.position, "hot": x.profile.t_hot, "cold": x.profile.t_cold}
-    return UnitReport(quantities, findings, profile=profile, labels={"u_source": "fixed UA, rated by zones" if unit.spec.ua is not None else
-                                                    unit.spec.thermal.source + ", rated by zones"},
-                      totals=totals, metrics=metrics)
+    return UnitReport(quantities, findings, profile=profile, labels={"u_source": u_source(unit.spec)}, totals=totals,
+                      metrics=metrics)
+
+
+def u_source(spec) -> str:
+    """Where an exchanger rated by zones has its U from, in words for the report."""
+    if spec.ua is not None:
+        return "fixed UA, rated by zones"
+    if isinstance(spec.thermal, FixedCoefficient):
+        return f"{spec.thermal.source}, rated by zones"
+    return (f"{spec.thermal.source} at the mean single-phase conditions, one U for all zones (boiling and "
+            "condensing zones not modelled), rated by zones")

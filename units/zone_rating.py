@@ -21,9 +21,14 @@ the curves' points the hot-minus-cold difference is linear in the duty, so its m
 a point).
 
 Arrangements covered: ``counterflow`` (exact for the curves) and ``tema_e`` with two tube passes
-(1-2 shells, shell fluid mixed: each zone rated as a 1-2 shell of its own with the zone
-boundaries placed as in counterflow, the approximation common in practice for multipass
-condensers and vaporisers [2]_ [3]_; exact for one zone), one shell or several in series in
+(1-2 shells, shell fluid mixed): the zones are laid out and rated in counterflow, and their UA
+divided by the shell's F at its terminal temperatures (:func:`one_two_f`), the weighted
+temperature difference corrected by F of the common practice for multipass condensers and
+vaporisers [2]_ [3]_. It is the 1-2 shell exactly where cp is constant, however many zones the
+curves' points make (the counterflow zones' UA add up to the counterflow UA, and F is its ratio
+to the shell's), and where one side is isothermal throughout (F = 1); elsewhere F of the
+terminal temperatures stands for the shell's mixing along the whole profile. (Rating each zone
+as a 1-2 shell of its own would tend to counterflow as the zones grow many.) One shell or several in series in
 overall counterflow (``shells``: each shell so rated with its share of UA, the shells chained by
 :mod:`.zone_shells`). Not covered: 1-2N shells with four or more tube passes, whose P passes
 through a maximum at finite NTU, so that the duty is not monotone in UA and the bracketed solve
@@ -51,7 +56,7 @@ from .arrays import as_arrays
 from .enthalpy_curves import EnthalpyCurve
 from .pntu_inverse import ntu_from_p
 
-__all__ = ["ZoneProfile", "ZoneRating", "zone_profile", "duty_limit", "solve_duty", "rate_by_zones", "ZONE_ARRANGEMENTS"]
+__all__ = ["ZoneProfile", "ZoneRating", "zone_profile", "duty_limit", "solve_duty", "one_two_f", "rate_by_zones", "ZONE_ARRANGEMENTS"]
 
 ZONE_ARRANGEMENTS = ("counterflow", "tema_e")
 """The arrangements rated zone by zone."""
@@ -195,14 +200,41 @@ def zone_profile(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m
     c_cold = safe_m_cold[:, None] * cold.cp_at_enthalpy(h_cold_in[:, None] + middle / safe_m_cold[:, None])
     # the hot stream enters a zone at its upper boundary, the cold stream at its lower one
     inlet_difference = t_hot[:, 1:] - t_cold[:, :-1]
-    ua = _zone_ua(width, inlet_difference, c_hot, c_cold, arrangement)
+    ua = _zone_ua(width, inlet_difference, c_hot, c_cold)
+    if arrangement == "tema_e":  # the counterflow zones' UA over the shell's F (module notes)
+        f = one_two_f(t_hot[:, -1], t_hot[:, 0], t_cold[:, 0], t_cold[:, -1])[:, None]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ua = np.where(ua > 0.0, ua / f, ua)
     ua = np.where(flowing[:, None], ua, 0.0)
     return ZoneProfile(positions, t_hot, t_cold, c_hot, c_cold, ua)
 
 
-def _zone_ua(width, inlet_difference, c_hot, c_cold, arrangement):
-    """UA share of each zone from its duty, inlet temperature difference and rates by the inverse
-    P–NTU relation on the basis of the smaller rate (R = 0 where the other side is isothermal);
+def one_two_f(t_hot_in, t_hot_out, t_cold_in, t_cold_out):
+    """F of a 1-2 shell (two tube passes, shell fluid mixed) at its terminal temperatures (°C):
+    NTU of counterflow over NTU of the shell at the same P and R, on the basis of the stream
+    whose temperature changes more (R <= 1; R = 0 where the other is isothermal, F = 1); 0 where
+    P is at or past the shell's supremum (no UA reaches it); 1 with no temperature change; NaN
+    where a temperature is unknown.
+
+    >>> round(float(one_two_f(150.0, 100.0, 40.0, 80.0)), 6)   # P = 50/110, R = 0.8
+    0.914916
+    """
+    t_hot_in, t_hot_out, t_cold_in, t_cold_out = as_arrays(t_hot_in, t_hot_out, t_cold_in, t_cold_out)
+    change_hot, change_cold = t_hot_in - t_hot_out, t_cold_out - t_cold_in
+    larger, smaller = np.maximum(change_hot, change_cold), np.minimum(change_hot, change_cold)
+    moves = (larger > 0.0) & (t_hot_in > t_cold_in)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        p = np.where(moves, larger / (t_hot_in - t_cold_in), 0.0)
+        r = np.where(moves, np.maximum(smaller, 0.0) / larger, 0.0)
+        f = ntu_from_p(p, r, "counterflow") / ntu_from_p(p, r, "tema_e")
+    f = np.where(np.isnan(f), 0.0, f)  # past the supremum: no NTU reaches that P
+    known = ~np.isnan(t_hot_in + t_hot_out + t_cold_in + t_cold_out)
+    return np.where(known, np.where(moves, f, 1.0), np.nan)
+
+
+def _zone_ua(width, inlet_difference, c_hot, c_cold):
+    """UA share of each zone in counterflow from its duty, inlet temperature difference and rates
+    by the inverse P–NTU relation on the basis of the smaller rate (R = 0 where the other side is isothermal);
     both sides isothermal: duty over the (constant) difference. Inf where the zone's duty cannot
     be reached (P at or past its supremum, or no positive difference)."""
     c_min, c_max = np.minimum(c_hot, c_cold), np.maximum(c_hot, c_cold)
@@ -211,7 +243,7 @@ def _zone_ua(width, inlet_difference, c_hot, c_cold, arrangement):
     with np.errstate(divide="ignore", invalid="ignore"):
         p = width / (safe_min * inlet_difference)
         r = np.where(np.isfinite(c_max), c_min / c_max, 0.0)
-        ntu = ntu_from_p(p, r, arrangement)
+        ntu = ntu_from_p(p, r, "counterflow")
         ua = np.where(finite, ntu * safe_min, width / inlet_difference)
     reachable = (inlet_difference > 0.0) & np.isfinite(ua) & (ua >= 0.0)
     return np.where(width > 0.0, np.where(reachable, ua, np.inf), 0.0)
