@@ -118,3 +118,48 @@ def test_a_cross_in_one_of_the_shells_is_found():
     giver, taker = shell_ends(rating.profile, 2)
     assert (taker > giver).any(axis=1)[0]
     assert float(rating.t_cold_out[0]) < 200.0
+
+
+@pytest.mark.parametrize("tube_passes, shells", [(4, 1), (6, 1)])
+@pytest.mark.parametrize("shell_side", ["hot", "cold"])
+def test_shells_with_four_or_more_passes_below_their_peak_and_past_it(tube_passes, shells, shell_side):
+    """1-2N shells (N >= 2), constant cp: where today's rating rises with UA (each shell below
+    the NTU at which its P peaks) the zone rating gives rate_exchanger's duty to 1e-9 (relative;
+    the lower branch of the inverse is that NTU); where it falls (past the peak, the duty is not
+    unique in UA) no number: NaN and ``past_peak``. Both kinds occur in the sample."""
+    hot, cold = _liquid(2.3), _liquid(2.6)
+    n = 150
+    t_hot = RNG.uniform(150.0, 350.0, n)
+    t_cold = t_hot - RNG.uniform(20.0, 150.0, n)
+    m_hot = RNG.uniform(2.0, 40.0, n)
+    m_cold = m_hot * 2.3 / 2.6 * RNG.uniform(0.6, 1.6, n)
+    ua = RNG.uniform(0.1, 12.0, n) * np.minimum(m_hot * 2.3, m_cold * 2.6)
+    options = dict(tube_passes=tube_passes, shell_side=shell_side, shells=shells)
+    today = rate_exchanger(t_hot, t_cold, m_hot * 2.3, m_cold * 2.6, ua, "tema_e", **options)
+    slope = rate_exchanger(t_hot, t_cold, m_hot * 2.3, m_cold * 2.6, ua * (1.0 + 1e-6), "tema_e", **options).duty \
+        / today.duty - 1.0
+    rising, falling = slope > 1e-11, slope < -1e-11
+    rating = rate_by_zones(hot, cold, hot.enthalpy(t_hot), cold.enthalpy(t_cold), m_hot, m_cold, ua, "tema_e",
+                           tube_passes=tube_passes, shells=shells, shell_is_hot=shell_side == "hot")
+    error = np.max(np.abs(rating.duty[rising] / today.duty[rising] - 1.0))
+    print(f"\n1-{tube_passes} x{shells}, shell side {shell_side}: {rising.sum()} below the peak within {error:.1e}, "
+          f"{falling.sum()} past it refused")
+    assert rising.sum() > 20 and falling.sum() > 5
+    assert error <= 1e-9 and not rating.past_peak[rising].any()
+    assert rating.past_peak[falling].all() and np.isnan(rating.duty[falling]).all()
+
+
+def test_a_condensing_side_in_a_four_pass_shell_has_no_peak():
+    """At R = 0 (a pure condensing side) P = 1 − exp(−NTU) in any shell: no peak, 1e-12."""
+    ntu = np.array([0.05, 0.5, 2.0, 6.0, 15.0])
+    liquid = _liquid(4.2)
+    rating = rate_by_zones(STEAM_180, liquid, 2778.0, liquid.enthalpy(30.0), 200.0, 8.0, ntu * 33.6, "tema_e",
+                           tube_passes=4, shell_is_hot=False)
+    assert np.max(np.abs(rating.duty / (33.6 * 150.0) + np.expm1(-ntu))) <= 1e-12
+    assert not rating.past_peak.any()
+
+
+def test_four_pass_shells_in_series_are_refused():
+    """A shell of a series past its peak has no unique duty for the chain to find: refused."""
+    with pytest.raises(ValueError, match="covers one shell"):
+        rate_by_zones(STEAM_180, _liquid(4.2), 2778.0, 84.0, 1.0, 1.0, 10.0, "tema_e", tube_passes=4, shells=2)

@@ -10,9 +10,12 @@ What is covered, and why the rest is refused (:func:`zone_problem`, which the ne
 ``Exchanger.fluid_problem`` before solving: exit 2 naming the key):
 
 * arrangements ``counterflow`` and ``double_pipe`` (any number of shells in series: still
-  counterflow), and ``tema_e`` with two tube passes, one shell or several in series (each 1-2
-  shell rated by zones with its share of UA, the shells chained in overall counterflow:
-  :mod:`.zone_shells`): those :func:`.zone_rating.rate_by_zones` rates;
+  counterflow), and ``tema_e`` with two tube passes or more, one shell or several in series
+  (each shell rated by zones with its share of UA through F of its terminal temperatures, the
+  shells chained in overall counterflow: :mod:`.zone_shells`; with three or more passes one
+  shell only): those :func:`.zone_rating.rate_by_zones` rates. With three or more passes a UA
+  beyond the NTU at which P peaks gives no number in that scenario (an input finding: the duty
+  is not unique);
 * U fixed (``ua``, or ``u`` with ``area_per_shell``), or films scaled from a reference
   (:class:`.u_models.ScaledFilms`) evaluated at the exchanger's flows and each side's mean
   temperature over the exchanger, iterated with the rating to its fixed point as in
@@ -59,9 +62,13 @@ def rated_by_zones(fluids) -> bool:
 def zone_problem(spec, fluids):
     """(key, message) where zone rating cannot rate this exchanger, else None."""
     name = spec.arrangement.name
-    if name == "tema_e" and spec.tube_passes != 2:
+    if name == "tema_e" and spec.tube_passes < 2:
         return ("tube_passes", "an exchanger with a fluid on an enthalpy curve is rated by zones as TEMA E shells with "
-                               f"two tube passes only (here {spec.tube_passes} passes)")
+                               f"two tube passes or more only (here {spec.tube_passes})")
+    if name == "tema_e" and spec.tube_passes > 2 and spec.shells > 1:
+        return ("shells", "an exchanger with a fluid on an enthalpy curve is rated by zones in TEMA E shells with "
+                          f"{spec.tube_passes} tube passes one shell at a time only (here {spec.shells} in series): past "
+                          "the peak of its P a shell of the series has no unique duty")
     if spec.shells > 1 and spec.arrangement.shells_flow != "counterflow":
         return ("shells_flow", "an exchanger with a fluid on an enthalpy curve is rated by zones with its shells in "
                                "series in overall counterflow only (here shells_flow: "
@@ -123,7 +130,8 @@ def rate_zoned(spec, inlets, cache: dict) -> ZoneService:
     arrangement = "tema_e" if spec.arrangement.name == "tema_e" else "counterflow"
 
     def rated(ua):
-        return rate_by_zones(hot, cold, h_hot, h_cold, m_hot_x, m_cold_x, ua, arrangement, shells=spec.shells)
+        return rate_by_zones(hot, cold, h_hot, h_cold, m_hot_x, m_cold_x, ua, arrangement, shells=spec.shells,
+                             tube_passes=spec.tube_passes, shell_is_hot=spec.shell_side == "hot")
 
     coefficients = None
     if spec.ua is not None:
@@ -226,11 +234,15 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
               "{e:.1f} K), is below the case's {lim:.1f} K", a=x.approach,
               at=np.where(works, x.pinch_position / np.where(works, x.duty, 1.0), 0.0), e=service.end_approach,
               lim=unit.minimum_approach),
-        # in a 1-2 shell the stream taking heat leaving above the giver's outlet is a temperature
-        # cross (P_hot + P_cold > 1), whatever the zones: the same limit as the P–NTU rating's
+        # in a multipass shell the stream taking heat leaving above the giver's outlet is a
+        # temperature cross (P_hot + P_cold > 1), whatever the zones: the P–NTU rating's limit
         check("temperature_cross", "limit", works & (unit.spec.arrangement.name == "tema_e") & crossed, key,
-              "temperature cross inside a 1-2 shell: the stream taking heat leaves it at {tc:.1f} °C, above the "
+              "temperature cross inside a multipass shell: the stream taking heat leaves it at {tc:.1f} °C, above the "
               "outlet of the stream giving heat at {th:.1f} °C", tc=taker_out, th=giver_out),
+        check("past_peak", "input", x.past_peak, key,
+              f"the UA ({{ua:.1f}} kW/K) is beyond the NTU at which P of a shell with {unit.spec.tube_passes} tube "
+              "passes peaks at these flows: the duty is not unique in UA and no number is given (two tube passes, "
+              "or less area, make it unique)", ua=service.ua),
         check("reversed_heat_flow", "warning", x.reversed, key,
               "the hot-side stream enters colder ({th:.1f} °C) than the cold-side stream ({tc:.1f} °C): heat "
               "flows from the cold side to the hot side ({q:.1f} kW)", th=t_hot, tc=t_cold, q=-x.duty),
@@ -250,5 +262,4 @@ def u_source(spec) -> str:
         return "fixed UA, rated by zones"
     if isinstance(spec.thermal, FixedCoefficient):
         return f"{spec.thermal.source}, rated by zones"
-    return (f"{spec.thermal.source} at the mean single-phase conditions, one U for all zones (boiling and "
-            "condensing zones not modelled), rated by zones")
+    return f"{spec.thermal.source} at the mean single-phase conditions, one U for all zones, rated by zones"

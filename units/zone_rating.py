@@ -22,7 +22,7 @@ a point).
 
 Arrangements covered: ``counterflow`` (exact for the curves) and ``tema_e`` with two tube passes
 (1-2 shells, shell fluid mixed): the zones are laid out and rated in counterflow, and their UA
-divided by the shell's F at its terminal temperatures (:func:`one_two_f`), the weighted
+divided by the shell's F at its terminal temperatures (:func:`shell_f`), the weighted
 temperature difference corrected by F of the common practice for multipass condensers and
 vaporisers [2]_ [3]_. It is the 1-2 shell exactly where cp is constant, however many zones the
 curves' points make (the counterflow zones' UA add up to the counterflow UA, and F is its ratio
@@ -30,9 +30,10 @@ to the shell's), and where one side is isothermal throughout (F = 1); elsewhere 
 terminal temperatures stands for the shell's mixing along the whole profile. (Rating each zone
 as a 1-2 shell of its own would tend to counterflow as the zones grow many.) One shell or several in series in
 overall counterflow (``shells``: each shell so rated with its share of UA, the shells chained by
-:mod:`.zone_shells`). Not covered: 1-2N shells with four or more tube passes, whose P passes
-through a maximum at finite NTU, so that the duty is not monotone in UA and the bracketed solve
-on the duty would not be unique.
+:mod:`.zone_shells`). A shell with three or more tube passes (one shell) is rated the same way
+with F from the lower branch of its inverse: its P passes through a maximum at finite NTU, so a
+UA beyond that NTU has no unique duty; the UA a duty needs then jumps to infinity at the peak,
+the solve stops there with the UA not met, and that scenario gets no number (``past_peak``).
 
 References
 ----------
@@ -56,7 +57,7 @@ from .arrays import as_arrays
 from .enthalpy_curves import EnthalpyCurve
 from .pntu_inverse import ntu_from_p
 
-__all__ = ["ZoneProfile", "ZoneRating", "zone_profile", "duty_limit", "solve_duty", "one_two_f", "rate_by_zones", "ZONE_ARRANGEMENTS"]
+__all__ = ["ZoneProfile", "ZoneRating", "zone_profile", "duty_limit", "solve_duty", "shell_f", "rate_by_zones", "ZONE_ARRANGEMENTS"]
 
 ZONE_ARRANGEMENTS = ("counterflow", "tema_e")
 """The arrangements rated zone by zone."""
@@ -70,6 +71,10 @@ UA_TOLERANCE = 1e-14
 few ulp of round-off per zone; the duty's relative error is this times dln(Q)/dln(UA) <= 1)."""
 
 MAX_STEPS = 200
+
+PEAK_MARGIN = 1e-9
+"""A shell with three or more tube passes is past its peak where the UA the duty found needs
+misses the UA by more than this (relative), with the duty short of its limit by more than this."""
 
 
 @dataclass(frozen=True)
@@ -119,7 +124,9 @@ class ZoneRating:
     ``ua_used`` the UA that duty needs, kW/K: below the UA given where the duty stopped at a
     table's end (say, saturated steam given down to saturated liquid only: no subcooling known)
     or at the pinch to within round-off (near the pinch the UA needed grows as the logarithm of
-    1/(limit − duty), so a UA well past it cannot be resolved in double precision); ``profile`` the zones at the duty found (on the
+    1/(limit − duty), so a UA well past it cannot be resolved in double precision); ``past_peak``
+    where the UA is beyond the NTU at which P of a shell with three or more tube passes peaks, so
+    that the duty is not unique in UA: no number is given there (NaN); ``profile`` the zones at the duty found (on the
     basis of the stream that actually gives heat).
     """
 
@@ -135,6 +142,7 @@ class ZoneRating:
     duty_limit: np.ndarray
     ua_used: np.ndarray
     reversed: np.ndarray
+    past_peak: np.ndarray
     profile: ZoneProfile
 
 
@@ -143,7 +151,7 @@ def _flows_positive(m_hot, m_cold):
 
 
 def zone_profile(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m_hot, m_cold, duty,
-                 arrangement="counterflow", *, tube_passes=2) -> ZoneProfile:
+                 arrangement="counterflow", *, tube_passes=2, shell_is_hot=True) -> ZoneProfile:
     """The zones of a counterflow-ordered exchanger at a given duty, and the UA each needs.
 
     Parameters
@@ -177,9 +185,8 @@ def zone_profile(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m
     """
     if arrangement not in ZONE_ARRANGEMENTS:
         raise ValueError(f"zone rating covers {', '.join(ZONE_ARRANGEMENTS)}; got {arrangement!r}")
-    if arrangement == "tema_e" and tube_passes != 2:
-        raise ValueError(f"zone rating of tema_e covers two tube passes; got {tube_passes} (P of a shell with four "
-                         "or more passes has a maximum in NTU: the duty is not unique in UA)")
+    if arrangement == "tema_e" and tube_passes < 2:
+        raise ValueError(f"zone rating of tema_e covers two tube passes or more; got {tube_passes}")
     h_hot_in, h_cold_in, m_hot, m_cold, duty = (np.atleast_1d(a) for a in
                                                as_arrays(h_hot_in, h_cold_in, m_hot, m_cold, duty))
     flowing = _flows_positive(m_hot, m_cold)
@@ -202,21 +209,23 @@ def zone_profile(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m
     inlet_difference = t_hot[:, 1:] - t_cold[:, :-1]
     ua = _zone_ua(width, inlet_difference, c_hot, c_cold)
     if arrangement == "tema_e":  # the counterflow zones' UA over the shell's F (module notes)
-        f = one_two_f(t_hot[:, -1], t_hot[:, 0], t_cold[:, 0], t_cold[:, -1])[:, None]
+        f = shell_f(t_hot[:, -1], t_hot[:, 0], t_cold[:, 0], t_cold[:, -1], tube_passes, shell_is_hot)[:, None]
         with np.errstate(divide="ignore", invalid="ignore"):
             ua = np.where(ua > 0.0, ua / f, ua)
     ua = np.where(flowing[:, None], ua, 0.0)
     return ZoneProfile(positions, t_hot, t_cold, c_hot, c_cold, ua)
 
 
-def one_two_f(t_hot_in, t_hot_out, t_cold_in, t_cold_out):
-    """F of a 1-2 shell (two tube passes, shell fluid mixed) at its terminal temperatures (°C):
-    NTU of counterflow over NTU of the shell at the same P and R, on the basis of the stream
-    whose temperature changes more (R <= 1; R = 0 where the other is isothermal, F = 1); 0 where
-    P is at or past the shell's supremum (no UA reaches it); 1 with no temperature change; NaN
-    where a temperature is unknown.
+def shell_f(t_hot_in, t_hot_out, t_cold_in, t_cold_out, tube_passes=2, shell_is_hot=True):
+    """F of a TEMA E shell with ``tube_passes`` passes (shell fluid mixed; ``shell_is_hot``: the
+    hot stream in the shell, which matters from three passes on) at its terminal temperatures
+    (°C): NTU of counterflow over NTU of the shell at the same P and R, on the basis of the
+    stream whose temperature changes more (R <= 1; R = 0 where the other is isothermal, F = 1).
+    With four or more passes P passes through a maximum in NTU: the NTU is the lower branch's
+    (the least UA that reaches P). 0 where P is at or past the largest the shell reaches (no UA
+    reaches it); 1 with no temperature change; NaN where a temperature is unknown.
 
-    >>> round(float(one_two_f(150.0, 100.0, 40.0, 80.0)), 6)   # P = 50/110, R = 0.8
+    >>> round(float(shell_f(150.0, 100.0, 40.0, 80.0)), 6)   # P = 50/110, R = 0.8
     0.914916
     """
     t_hot_in, t_hot_out, t_cold_in, t_cold_out = as_arrays(t_hot_in, t_hot_out, t_cold_in, t_cold_out)
@@ -226,7 +235,9 @@ def one_two_f(t_hot_in, t_hot_out, t_cold_in, t_cold_out):
     with np.errstate(divide="ignore", invalid="ignore"):
         p = np.where(moves, larger / (t_hot_in - t_cold_in), 0.0)
         r = np.where(moves, np.maximum(smaller, 0.0) / larger, 0.0)
-        f = ntu_from_p(p, r, "counterflow") / ntu_from_p(p, r, "tema_e")
+        basis_is_shell = (change_hot >= change_cold) == shell_is_hot
+        f = ntu_from_p(p, r, "counterflow") / ntu_from_p(p, r, "tema_e", basis_is_shell=basis_is_shell,
+                                                         tube_passes=tube_passes, branch="lower")
     f = np.where(np.isnan(f), 0.0, f)  # past the supremum: no NTU reaches that P
     known = ~np.isnan(t_hot_in + t_hot_out + t_cold_in + t_cold_out)
     return np.where(known, np.where(moves, f, 1.0), np.nan)
@@ -333,7 +344,7 @@ def solve_duty(needed, ua, upper):
 
 
 def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m_hot, m_cold, ua,
-                  arrangement="counterflow", *, tube_passes=2, shells=1) -> ZoneRating:
+                  arrangement="counterflow", *, tube_passes=2, shells=1, shell_is_hot=True) -> ZoneRating:
     """Rate an exchanger zone by zone from its inlet enthalpies, mass flows and UA.
 
     Parameters
@@ -347,8 +358,8 @@ def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, 
         Mass flows, kg/s (>= 0; no flow on a side gives no duty).
     ua : array_like
         Overall conductance, kW/K (>= 0), shared out over the zones.
-    arrangement, tube_passes
-        As for :func:`zone_profile`.
+    arrangement, tube_passes, shell_is_hot
+        As for :func:`zone_profile` (``shell_is_hot`` for the case's sides).
     shells : int
         Identical ``tema_e`` shells in series in overall counterflow, each with UA/shells
         (:mod:`.zone_shells`); counterflow is one counterflow whatever its shells.
@@ -370,8 +381,11 @@ def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, 
     h_hot_in, h_cold_in, m_hot, m_cold, ua = (np.atleast_1d(a).astype(float) for a in
                                              as_arrays(h_hot_in, h_cold_in, m_hot, m_cold, ua))
     forward = ~(hot.temperature(h_hot_in) < cold.temperature(h_cold_in))
+    if arrangement == "tema_e" and tube_passes > 2 and shells > 1:
+        raise ValueError(f"zone rating of tema_e with {tube_passes} tube passes covers one shell (a shell of a series "
+                         "past its peak has no unique duty for the chain to find)")
     options = dict(arrangement=arrangement, tube_passes=tube_passes,
-                   shells=shells if arrangement == "tema_e" else 1)
+                   shells=shells if arrangement == "tema_e" else 1, shell_is_hot=shell_is_hot)
     if forward.all():
         return _rate_forward(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, ua, **options)
     # where the hot-side stream enters colder, it is the one that takes heat: rate those swapped
@@ -382,7 +396,8 @@ def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, 
             continue
         args = (h_hot_in[index], h_cold_in[index], m_hot[index], m_cold[index])
         if swapped:
-            part = _swapped(_rate_forward(cold, hot, args[1], args[0], args[3], args[2], ua[index], **options))
+            part = _swapped(_rate_forward(cold, hot, args[1], args[0], args[3], args[2], ua[index],
+                                          **{**options, "shell_is_hot": not shell_is_hot}))
         else:
             part = _rate_forward(hot, cold, *args, ua[index], **options)
         parts[flag] = (index, part)
@@ -401,19 +416,28 @@ def _rate_forward(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, ua, *, shells, 
 
     duty = solve_duty(lambda q: profile_at(q).ua_needed, ua, upper)
     profile = profile_at(duty)
+    # with three or more tube passes the UA a duty needs jumps to inf where P peaks: a UA beyond
+    # that stops the solve at the jump, the UA not met (short of it or inf on the far side) and
+    # the duty short of its limit (module notes)
+    past_peak = np.zeros(duty.shape, bool)
+    if options["arrangement"] == "tema_e" and options["tube_passes"] > 2:
+        with np.errstate(invalid="ignore"):
+            missed = ~(np.abs(profile.ua_needed - ua) <= PEAK_MARGIN * ua)  # short of it, or inf
+        past_peak = missed & (duty < upper * (1.0 - PEAK_MARGIN))
+        duty = np.where(past_peak, np.nan, duty)
     flowing = _flows_positive(m_hot, m_cold)
     h_hot_out = h_hot_in - duty / np.where(flowing, m_hot, 1.0)
     h_cold_out = h_cold_in + duty / np.where(flowing, m_cold, 1.0)
     return ZoneRating(duty, h_hot_out, h_cold_out, hot.temperature(h_hot_out), cold.temperature(h_cold_out),
                       hot.vapour_fraction(h_hot_out), cold.vapour_fraction(h_cold_out), profile.approach,
-                      profile.pinch_position, upper, profile.ua_needed, np.zeros(duty.shape, bool), profile)
+                      profile.pinch_position, upper, profile.ua_needed, np.zeros(duty.shape, bool), past_peak, profile)
 
 
 def _swapped(part: ZoneRating) -> ZoneRating:
     """A rating made with the sides swapped, expressed on the case's sides (duty negative)."""
     return ZoneRating(-part.duty, part.h_cold_out, part.h_hot_out, part.t_cold_out, part.t_hot_out,
                       part.q_cold_out, part.q_hot_out, part.approach, part.pinch_position, -part.duty_limit,
-                      part.ua_used, part.duty != 0.0, part.profile)
+                      part.ua_used, part.duty != 0.0, part.past_peak, part.profile)
 
 
 def _joined(parts, size):

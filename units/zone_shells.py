@@ -35,7 +35,7 @@ __all__ = ["series_profile", "shell_ends"]
 
 
 def series_profile(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m_hot, m_cold, duty, ua,
-                   shells, arrangement="tema_e", *, tube_passes=2) -> ZoneProfile:
+                   shells, arrangement="tema_e", *, tube_passes=2, shell_is_hot=True) -> ZoneProfile:
     """The zones of ``shells`` shells in series at total ``duty``, each shell given UA/shells.
 
     Arguments as for :func:`.zone_rating.zone_profile` (arrays over the batch), with ``ua`` the
@@ -59,7 +59,7 @@ def series_profile(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in,
         *(np.atleast_1d(np.asarray(a, dtype=float)) for a in (h_hot_in, h_cold_in, m_hot, m_cold, duty, ua)))
     flowing = (m_hot > 0.0) & (m_cold > 0.0)
     safe_m_hot, safe_m_cold = np.where(flowing, m_hot, 1.0), np.where(flowing, m_cold, 1.0)
-    options = dict(arrangement=arrangement, tube_passes=tube_passes)
+    options = dict(arrangement=arrangement, tube_passes=tube_passes, shell_is_hot=shell_is_hot)
     # ``left``: the part of the duty the shells marched so far have not passed; the states at the
     # cold end of the next shell follow from it, counted from the inlets (a shell that takes all
     # that is left then reaches the hot inlet's own enthalpy, not one a round-off past it, which
