@@ -57,6 +57,8 @@ def _line(cp, low=-50.0, high=500.0, boiling=None):
 @pytest.mark.parametrize("boiling", ["plateau", "range"])
 @pytest.mark.parametrize("exchanger", [{"arrangement": "counterflow", "ua": 30.0},
                                        {"arrangement": "tema_e", "u": 400, "area_per_shell": 60},
+                                       {"arrangement": "tema_e", "shells": 3, "u": 400, "area_per_shell": 25},
+                                       {"arrangement": "tema_e", "tube_passes": 4, "shell_side": "cold", "ua": 20.0},
                                        {"arrangement": "double_pipe", "ua": 5.0, "bypass": {"cold": 0.3}}])
 def test_a_constant_cp_given_as_a_curve_is_rated_as_today(exchanger, boiling):
     """One zone, constant cp: rated by zones (the curves could boil, far above the streams) the
@@ -196,6 +198,12 @@ def test_supply_on_a_plateau_needs_its_vapour_fraction():
      ("heaters", "H-1"), "cannot take it"),
     (lambda c: c["exchangers"]["E-1"].update(arrangement="crossflow", mixed_side="hot"),
      ("exchangers", "E-1", "arrangement"), "not covered"),
+    (lambda c: c["exchangers"]["E-1"].update(arrangement="tema_e", tube_passes=4, shells=2, shell_side="hot"),
+     ("exchangers", "E-1", "shells"), "one shell at a time"),
+    (lambda c: c["exchangers"]["E-1"].update(arrangement="tema_e", tube_passes=1),
+     ("exchangers", "E-1", "tube_passes"), "two tube passes or more"),
+    (lambda c: c["exchangers"]["E-1"].update(shells=2, shells_flow="parallel_flow"),
+     ("exchangers", "E-1", "shells_flow"), "overall counterflow only"),
 ])
 def test_what_this_version_cannot_carry_is_refused_naming_the_key(change, key, fragment):
     case, _ = _steam_heater(steam_flow=1.0, ua=10.0)
@@ -362,3 +370,17 @@ def test_an_exchanger_rated_by_zones_is_not_back_calculated():
     condition = net.units["E-301"].condition(states)
     assert np.isnan(condition["ua"][0]) and np.isnan(condition["fouling"][0])
     assert "not back-calculated" in condition["reason"][0]
+
+
+def test_a_four_pass_shell_past_its_peak_gives_no_number():
+    """A 1-4 shell at NTU about 6 and R near 1 is past the NTU at which its P peaks: the duty is
+    not unique in UA, so the scenario is not valid, naming the exchanger; at a UA below the peak
+    it is rated (today's numbers: see the test above)."""
+    exchanger = {"arrangement": "tema_e", "tube_passes": 4, "shell_side": "hot", "ua": 140.0}
+    case = case_from_mapping(_two_stream(_line(2.3, boiling="plateau"), _line(2.6, boiling="plateau"), exchanger,
+                                         m_cold=10.0 * 2.3 / 2.6))
+    result = evaluate(case)
+    assert result.status[0] == 2 and "not unique in UA" in result.reason(0) and "E-1" in result.reason(0)
+    exchanger["ua"] = 15.0
+    assert evaluate(case_from_mapping(_two_stream(_line(2.3, boiling="plateau"), _line(2.6, boiling="plateau"),
+                                                  exchanger, m_cold=10.0 * 2.3 / 2.6))).status[0] == 0

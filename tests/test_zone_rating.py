@@ -17,7 +17,7 @@ from hxtrain.units.enthalpy_curves import EnthalpyCurve, curve_from_model
 from hxtrain.units.pntu_rating import rate_exchanger
 from hxtrain.units.properties import ConstantCp
 from hxtrain.units.water_steam import water_steam_curve
-from hxtrain.units.zone_rating import duty_limit, rate_by_zones, zone_profile
+from hxtrain.units.zone_rating import duty_limit, shell_f, rate_by_zones, zone_profile
 
 RNG = np.random.default_rng(20261202)
 STEAM_180 = EnthalpyCurve([180.0, 180.0], [763.0, 2778.0], [0.0, 1.0])
@@ -39,9 +39,12 @@ def _random_cases(n):
     ("counterflow", (-100.0, 600.0)),
     ("counterflow", (-100.0, 97.0, 153.5, 230.0, 301.0, 600.0)),
     ("tema_e", (-100.0, 600.0)),
+    ("tema_e", (-100.0, 97.0, 153.5, 230.0, 301.0, 600.0)),
+    ("tema_e", tuple(np.arange(-100.0, 601.0, 1.0))),
 ])
 def test_one_cp_equals_todays_rating(arrangement, points):
-    """Constant cp on both sides (one zone, or several zones of one cp in counterflow): duty and
+    """Constant cp on both sides (one zone, or several zones of one cp, up to 700 in a 1-2 shell:
+    the F of the terminal temperatures keeps it the 1-2 shell however many zones): duty and
     outlet temperatures equal rate_exchanger's to 1e-12 (relative), R from 0.03 to 30, R = 1 too."""
     hot, cold = _liquid(2.3, points), _liquid(2.6, points)
     t_hot, t_cold, m_hot, m_cold, ua = _random_cases(400)
@@ -228,5 +231,28 @@ def test_inlet_beyond_a_plateau_end_gives_no_number():
 def test_arrangements_not_covered_are_refused():
     with pytest.raises(ValueError, match="zone rating covers counterflow, tema_e"):
         zone_profile(STEAM_180, _liquid(4.2), 2778.0, 84.0, 1.0, 1.0, 10.0, "crossflow")
-    with pytest.raises(ValueError, match="tema_e covers two tube passes; got 4"):
-        rate_by_zones(STEAM_180, _liquid(4.2), 2778.0, 84.0, 1.0, 1.0, 10.0, "tema_e", tube_passes=4)
+    with pytest.raises(ValueError, match="tema_e covers two tube passes or more; got 1"):
+        rate_by_zones(STEAM_180, _liquid(4.2), 2778.0, 84.0, 1.0, 1.0, 10.0, "tema_e", tube_passes=1)
+
+
+def test_one_two_shell_f_against_the_closed_form():
+    """F of a 1-2 shell from its terminal temperatures against the closed form of Bowman, Mueller
+    & Nagle (1940) (from memory: F = S/(R−1)·ln((1−P)/(1−PR)) / ln((2−P(R+1−S))/(2−P(R+1+S))),
+    S = √(R²+1)), on either side's basis, to 1e-12; 1 where one side is isothermal; 0 past the
+    largest P a 1-2 shell reaches, P_max = 2/(1+R+S)."""
+    t_hot_in, t_cold_in = 200.0, 50.0
+    p = RNG.uniform(0.02, 0.9, 300)
+    r = RNG.uniform(0.05, 1.0, 300)
+    s = np.sqrt(r * r + 1.0)
+    reachable = p < 2.0 / (1.0 + r + s) * (1.0 - 1e-9)
+    with np.errstate(invalid="ignore"):  # past P_max the closed form has no value
+        closed = s / (r - 1.0) * np.log((1.0 - p) / (1.0 - p * r)) / np.log((2.0 - p * (r + 1.0 - s))
+                                                                             / (2.0 - p * (r + 1.0 + s)))
+    span = t_hot_in - t_cold_in
+    by_cold = shell_f(t_hot_in, t_hot_in - p * r * span, t_cold_in, t_cold_in + p * span)
+    by_hot = shell_f(t_hot_in, t_hot_in - p * span, t_cold_in, t_cold_in + p * r * span)
+    error = max(np.max(np.abs(by_cold - closed)[reachable]), np.max(np.abs(by_hot - closed)[reachable]))
+    print(f"\n1-2 F against Bowman et al.: {error:.1e}")
+    assert error <= 1e-12
+    assert (by_cold[~reachable] == 0.0).all() and reachable.sum() > 100 and (~reachable).sum() > 10
+    assert float(shell_f(180.0, 180.0, 40.0, 120.0)) == 1.0 == float(shell_f(180.0, 150.0, 120.0, 120.0))

@@ -11,7 +11,7 @@ from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Pa
 from .pntu_rating import ExchangerRating
 from .u_models import Coefficients, FixedCoefficient, GeometryFilms
 from .back_calculation import back_calculate
-from .service_rating import ExchangerSpec, ServiceRating, pressure_drops, rate_in_service
+from .service_rating import ExchangerSpec, ServiceRating, coefficient_quantities, pressure_drops, rate_in_service
 from .properties import stacked, stacking_key
 from .zone_exchanger import rate_zoned, rated_by_zones, zone_problem, zone_report
 
@@ -294,14 +294,7 @@ class Exchanger(UnitBase):
             "effectiveness": x.effectiveness, "f": x.f, "lmtd": x.lmtd, "approach": x.approach,
         }
         coefficients = service.coefficients
-        if coefficients is not None:
-            quantities.update(u_service=coefficients.u_service, u_clean=coefficients.u_clean)
-            if coefficients.h_shell is not None:
-                quantities.update(h_shell=coefficients.h_shell, h_tube=coefficients.h_tube)
-            if coefficients.reynolds_tube is not None:
-                quantities["re_tube"] = coefficients.reynolds_tube
-            for part, resistance in self.spec.fouling.items():
-                quantities[f"fouling_{part}"] = np.broadcast_to(resistance, x.duty.shape)
+        quantities.update(coefficient_quantities(self.spec, coefficients, x.duty.shape))
         for side, drop in service.pressure_drop.items():
             quantities[f"dp_{side}"] = drop
         labels = {"u_source": "fixed UA" if self.spec.ua is not None else self.spec.thermal.source}
@@ -346,13 +339,16 @@ class Exchanger(UnitBase):
                   "the hot-side stream enters colder ({th:.1f} °C) than the cold-side stream ({tc:.1f} °C): heat "
                   "flows from the cold side to the hot side ({q:.1f} kW)", th=t_hot, tc=t_cold, q=-x.duty),
         ]
-        if coefficients is not None:
-            notes = coefficients.notes
-            if "laminar_tube_side" in notes:
-                findings.append(check("laminar_tube_side", "warning", notes["laminar_tube_side"], key,
-                                      "tube-side Re = {re:.0f} is laminar: the film is rated by a laminar form",
-                                      re=coefficients.reynolds_tube))
-                findings.append(check("transitional_tube_side", "warning", notes["transitional_tube_side"], key,
-                                      "tube-side Re = {re:.0f} is transitional (2300-10000): the film coefficient "
-                                      "is uncertain there", re=coefficients.reynolds_tube))
-        return findings
+        return findings + self._film_findings(coefficients)
+
+    def _film_findings(self, coefficients):
+        """Warnings on the tube-side flow regime where U is from films that know it."""
+        if coefficients is None or "laminar_tube_side" not in coefficients.notes:
+            return []
+        notes, key = coefficients.notes, self.key
+        return [check("laminar_tube_side", "warning", notes["laminar_tube_side"], key,
+                      "tube-side Re = {re:.0f} is laminar: the film is rated by a laminar form",
+                      re=coefficients.reynolds_tube),
+                check("transitional_tube_side", "warning", notes["transitional_tube_side"], key,
+                      "tube-side Re = {re:.0f} is transitional (2300-10000): the film coefficient "
+                      "is uncertain there", re=coefficients.reynolds_tube)]

@@ -90,6 +90,32 @@ def _side(spec, hot_value, cold_value, side):
     return hot_value if (side == "shell") == shell_is_hot else cold_value
 
 
+def coefficients_at(spec: ExchangerSpec, m_hot_x, m_cold_x, t_mean_hot, t_mean_cold, fluid_hot, fluid_cold):
+    """U and its parts (:class:`.u_models.Coefficients`) from the exchanger's U model at the flows
+    through the exchanger proper (kg/s, bypasses taken off; each parallel set takes its share) and
+    each side's mean temperature (°C), the hot and cold values given to the shell and tube sides."""
+    per_shell = 1.0 / spec.shells_in_parallel
+    return spec.thermal.evaluate(
+        _side(spec, m_hot_x, m_cold_x, "shell") * per_shell, _side(spec, m_hot_x, m_cold_x, "tube") * per_shell,
+        _side(spec, t_mean_hot, t_mean_cold, "shell"), _side(spec, t_mean_hot, t_mean_cold, "tube"),
+        _side(spec, fluid_hot, fluid_cold, "shell"), _side(spec, fluid_hot, fluid_cold, "tube"))
+
+
+def coefficient_quantities(spec: ExchangerSpec, coefficients, shape) -> dict:
+    """The report's U quantities (service and clean U, films, tube-side Re, fouling), each of
+    ``shape``; empty where U is not from a model (a fixed UA)."""
+    if coefficients is None:
+        return {}
+    found = {"u_service": coefficients.u_service, "u_clean": coefficients.u_clean}
+    if coefficients.h_shell is not None:
+        found.update(h_shell=coefficients.h_shell, h_tube=coefficients.h_tube)
+    if coefficients.reynolds_tube is not None:
+        found["re_tube"] = coefficients.reynolds_tube
+    for part, resistance in spec.fouling.items():
+        found[f"fouling_{part}"] = np.broadcast_to(resistance, shape)
+    return found
+
+
 def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, fluid_hot, fluid_cold,
                     guess=None, details=True, members=1) -> ServiceRating:
     """Rate an exchanger with temperature-dependent cp and a flow- and temperature-dependent U.
@@ -107,7 +133,6 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
     t_hot_in, t_cold_in, m_hot, m_cold = as_arrays(t_hot_in, t_cold_in, m_hot, m_cold)
     m_hot_x = m_hot * (1.0 - spec.bypass_hot)
     m_cold_x = m_cold * (1.0 - spec.bypass_cold)
-    per_shell = 1.0 / spec.shells_in_parallel
     fixed_u = spec.ua is not None or isinstance(spec.thermal, FixedCoefficient)
     simple = fixed_u and fluid_hot.constant_cp and fluid_cold.constant_cp
     if guess is not None and np.shape(guess[0]) == t_hot_in.shape:
@@ -122,10 +147,7 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
         if spec.ua is not None:
             ua = np.broadcast_to(np.asarray(spec.ua, dtype=float), t_hot_in.shape)
         else:
-            coefficients = spec.thermal.evaluate(
-                _side(spec, m_hot_x, m_cold_x, "shell") * per_shell, _side(spec, m_hot_x, m_cold_x, "tube") * per_shell,
-                _side(spec, t_mean_hot, t_mean_cold, "shell"), _side(spec, t_mean_hot, t_mean_cold, "tube"),
-                _side(spec, fluid_hot, fluid_cold, "shell"), _side(spec, fluid_hot, fluid_cold, "tube"))
+            coefficients = coefficients_at(spec, m_hot_x, m_cold_x, t_mean_hot, t_mean_cold, fluid_hot, fluid_cold)
             ua = coefficients.u_service * spec.total_area / 1000.0
         c_hot = m_hot * fluid_hot.mean_cp(t_hot_in, t_hot_x)
         c_cold = m_cold * fluid_cold.mean_cp(t_cold_in, t_cold_x)

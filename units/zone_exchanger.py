@@ -10,10 +10,20 @@ What is covered, and why the rest is refused (:func:`zone_problem`, which the ne
 ``Exchanger.fluid_problem`` before solving: exit 2 naming the key):
 
 * arrangements ``counterflow`` and ``double_pipe`` (any number of shells in series: still
-  counterflow), and ``tema_e`` with two tube passes and one shell in series: those
-  :func:`.zone_rating.rate_by_zones` rates;
-* U fixed: ``ua``, or ``u`` with ``area_per_shell``. A U that follows the films would need the
-  films of each phase in each zone, which this version does not model;
+  counterflow), and ``tema_e`` with two tube passes or more, one shell or several in series
+  (each shell rated by zones with its share of UA through F of its terminal temperatures, the
+  shells chained in overall counterflow: :mod:`.zone_shells`; with three or more passes one
+  shell only): those :func:`.zone_rating.rate_by_zones` rates. With three or more passes a UA
+  beyond the NTU at which P peaks gives no number in that scenario (an input finding: the duty
+  is not unique);
+* U fixed (``ua``, or ``u`` with ``area_per_shell``), or films scaled from a reference
+  (:class:`.u_models.ScaledFilms`) evaluated at the exchanger's flows and each side's mean
+  temperature over the exchanger, iterated with the rating to its fixed point as in
+  :mod:`.service_rating`: one U for all zones. An approximation, said in the report's label:
+  the single-phase film correlations describe no boiling or condensing zone, and a side that
+  holds vapour enters the property correction with its viscosity and conductivity only (the
+  apparent cp of a two-phase range, latent heat included, is no film property). U from
+  geometry is refused (it would need each phase's films in each zone);
 * a bypass on either side: the exchanger proper takes (1 - bypass) of the flow and the bypassed
   part rejoins it by enthalpy, which is exact on a curve;
 * the fluid on the other side a plain cp model (not a blend of several fluids).
@@ -27,8 +37,10 @@ import numpy as np
 
 from .enthalpy_curves import EnthalpyCurve, curve_from_model
 from .properties import Blend, ConstantCp
-from .u_models import FixedCoefficient
+from .service_rating import MAX_PASSES, OUTLET_TOLERANCE, coefficient_quantities, coefficients_at
+from .u_models import FixedCoefficient, ScaledFilms
 from .zone_rating import ZoneRating, rate_by_zones
+from .zone_shells import shell_ends
 
 __all__ = ["rated_by_zones", "zone_problem", "ZoneService", "rate_zoned", "zone_report", "SAMPLE_STEP"]
 
@@ -50,16 +62,28 @@ def rated_by_zones(fluids) -> bool:
 def zone_problem(spec, fluids):
     """(key, message) where zone rating cannot rate this exchanger, else None."""
     name = spec.arrangement.name
-    if name == "tema_e" and (spec.tube_passes != 2 or spec.shells != 1):
-        return ("tube_passes" if spec.tube_passes != 2 else "shells",
-                "an exchanger with a fluid on an enthalpy curve is rated by zones as a TEMA E shell with two tube "
-                f"passes and one shell in series only (here {spec.tube_passes} passes, {spec.shells} shells)")
+    if name == "tema_e" and spec.tube_passes < 2:
+        return ("tube_passes", "an exchanger with a fluid on an enthalpy curve is rated by zones as TEMA E shells with "
+                               f"two tube passes or more only (here {spec.tube_passes})")
+    if name == "tema_e" and spec.tube_passes > 2 and spec.shells > 1:
+        return ("shells", "an exchanger with a fluid on an enthalpy curve is rated by zones in TEMA E shells with "
+                          f"{spec.tube_passes} tube passes one shell at a time only (here {spec.shells} in series): past "
+                          "the peak of its P a shell of the series has no unique duty")
+    if spec.shells > 1 and spec.arrangement.shells_flow != "counterflow":
+        return ("shells_flow", "an exchanger with a fluid on an enthalpy curve is rated by zones with its shells in "
+                               "series in overall counterflow only (here shells_flow: "
+                               f"{spec.arrangement.shells_flow})")
     if name not in ("counterflow", "double_pipe", "tema_e"):
         return ("arrangement", f"an exchanger with a fluid on an enthalpy curve is rated by zones; arrangement {name} "
                                "is not covered (use counterflow, double_pipe or tema_e with two tube passes)")
-    if spec.ua is None and not isinstance(spec.thermal, FixedCoefficient):
-        return ("u", "an exchanger with a fluid on an enthalpy curve takes a fixed U in this version: give 'ua', or "
-                     "'u' with 'area_per_shell' (U from films is not modelled for two-phase zones)")
+    if spec.ua is None and not isinstance(spec.thermal, (FixedCoefficient, ScaledFilms)):
+        return ("geometry", "an exchanger with a fluid on an enthalpy curve takes a fixed U or films scaled from a "
+                            "reference in this version: U from geometry is not modelled for two-phase zones")
+    if spec.pressure_drop:
+        side = sorted(spec.pressure_drop)[0]
+        return ("pressure_drop", "an exchanger with a fluid on an enthalpy curve is rated by zones, and its pressure "
+                                 f"drop ({side} side) is not modelled for two-phase zones in this version: leave out "
+                                 "'pressure_drop' rather than have it ignored")
     for fluid in fluids:
         if isinstance(fluid, Blend):
             return ("arrangement", "a blend of several fluids against a fluid on an enthalpy curve is not rated in "
@@ -95,6 +119,8 @@ class ZoneService:
     q_cold_out: np.ndarray
     end_approach: np.ndarray
     """The smaller temperature difference at the exchanger's two ends (counterflow ends)."""
+    coefficients: object = None
+    """U and its films where U follows the operating point (:class:`.u_models.Coefficients`)."""
     pressure_drop: dict = field(default_factory=dict)
     """None modelled (U is fixed): kept for the limit checks shared with the exchanger."""
 
@@ -105,13 +131,22 @@ def rate_zoned(spec, inlets, cache: dict) -> ZoneService:
     h_hot, h_cold = inlets.enthalpy(0), inlets.enthalpy(1)
     m_hot, m_cold = inlets.m[:, 0], inlets.m[:, 1]
     bypass_hot, bypass_cold = (np.asarray(b, dtype=float) for b in (spec.bypass_hot, spec.bypass_cold))
+    m_hot_x, m_cold_x = m_hot * (1.0 - bypass_hot), m_cold * (1.0 - bypass_cold)
+    arrangement = "tema_e" if spec.arrangement.name == "tema_e" else "counterflow"
+
+    def rated(ua):
+        return rate_by_zones(hot, cold, h_hot, h_cold, m_hot_x, m_cold_x, ua, arrangement, shells=spec.shells,
+                             tube_passes=spec.tube_passes, shell_is_hot=spec.shell_side == "hot")
+
+    coefficients = None
     if spec.ua is not None:
         ua = np.broadcast_to(np.asarray(spec.ua, dtype=float), h_hot.shape)
-    else:
+        x = rated(ua)
+    elif isinstance(spec.thermal, FixedCoefficient):
         ua = np.broadcast_to(spec.thermal.u * spec.total_area / 1000.0, h_hot.shape)
-    arrangement = "tema_e" if spec.arrangement.name == "tema_e" else "counterflow"
-    x = rate_by_zones(hot, cold, h_hot, h_cold, m_hot * (1.0 - bypass_hot), m_cold * (1.0 - bypass_cold), ua,
-                      arrangement)
+        x = rated(ua)
+    else:
+        x, ua, coefficients = _rated_with_films(spec, inlets, m_hot_x, m_cold_x, rated, cache)
     # the outlets from each side's own fluid and the whole duty (the bypassed part rejoined by
     # enthalpy), so that every exchanger closes its balance in its fluids' enthalpy to round-off
     # (a sampled side's curve is used for the rating only)
@@ -123,7 +158,52 @@ def rate_zoned(spec, inlets, cache: dict) -> ZoneService:
                   else fluid_cold.temperature(h_cold_out, guess=x.t_cold_out))
     ends = np.minimum(np.abs(t_hot - x.t_cold_out), np.abs(x.t_hot_out - t_cold))
     return ZoneService(x, np.array(ua), h_hot_out, h_cold_out, t_hot_out, t_cold_out,
-                       hot.vapour_fraction(h_hot_out), cold.vapour_fraction(h_cold_out), ends)
+                       hot.vapour_fraction(h_hot_out), cold.vapour_fraction(h_cold_out), ends,
+                       coefficients=coefficients)
+
+
+def _rated_with_films(spec, inlets, m_hot_x, m_cold_x, rated, cache):
+    """(rating, UA, coefficients) with U from scaled films at the flows through the exchanger and
+    each side's mean temperature, (inlet + outlet)/2 of the exchanger proper, substituted until
+    both outlets move less than OUTLET_TOLERANCE·(1 + |T_hot,in|), as the in-service rating does
+    (so a side without vapour gets its numbers); stops at once where U did not change. Starts
+    from the outlets of the last call of the same batch (kept in ``cache``; speed only)."""
+    t_hot, t_cold = inlets.t[:, 0], inlets.t[:, 1]
+    fluids = tuple(_FilmView(f) if isinstance(f, EnthalpyCurve) and f.holds_vapour else f for f in inlets.fluids)
+    last = cache.get("outlets")
+    t_hot_x, t_cold_x = last if last is not None and last[0].shape == t_hot.shape else (t_hot, t_cold)
+    u_before = None
+    for _ in range(MAX_PASSES):
+        coefficients = coefficients_at(spec, m_hot_x, m_cold_x, 0.5 * (t_hot + t_hot_x), 0.5 * (t_cold + t_cold_x),
+                                       *fluids)
+        if u_before is not None and np.array_equal(coefficients.u_service, u_before):
+            break
+        ua = coefficients.u_service * spec.total_area / 1000.0
+        x = rated(ua)
+        moved = np.maximum(np.abs(x.t_hot_out - t_hot_x), np.abs(x.t_cold_out - t_cold_x))
+        t_hot_x, t_cold_x, u_before = x.t_hot_out, x.t_cold_out, coefficients.u_service
+        if np.all(moved <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot))):
+            break
+    cache["outlets"] = (t_hot_x, t_cold_x)
+    return x, ua, coefficients
+
+
+class _FilmView:
+    """A fluid that holds vapour as the scaled films see it: its viscosity and conductivity, and
+    one cp at every temperature (the cp ratio of the property correction is 1), since the
+    apparent cp of a two-phase range, latent heat included, is no film property."""
+
+    def __init__(self, fluid):
+        self.fluid = fluid
+
+    def viscosity(self, t):
+        return self.fluid.viscosity(t)
+
+    def conductivity(self, t):
+        return self.fluid.conductivity(t)
+
+    def cp(self, t):
+        return np.ones(np.shape(t))
 
 
 def zone_report(unit, inlets, service: ZoneService | None, problem):
@@ -138,9 +218,14 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
     x, t_hot, t_cold = service.rating, inlets.t[:, 0], inlets.t[:, 1]
     quantities = {"duty": x.duty, "t_hot_in": t_hot, "t_hot_out": service.t_hot_out, "t_cold_in": t_cold,
                   "t_cold_out": service.t_cold_out, "q_hot_out": service.q_hot_out, "q_cold_out": service.q_cold_out,
-                  "ua": service.ua, "approach": service.end_approach, "approach_internal": x.approach}
-    findings = unit._limit_findings(inlets, service)
+                  "ua": service.ua, "approach": service.end_approach, "approach_internal": x.approach,
+                  **coefficient_quantities(unit.spec, service.coefficients, x.duty.shape)}
+    findings = unit._limit_findings(inlets, service) + unit._film_findings(service.coefficients)
     works = x.duty != 0.0
+    giver_ends, taker_ends = shell_ends(x.profile, unit.spec.shells if unit.spec.arrangement.name == "tema_e" else 1)
+    worst = np.argmax(taker_ends - giver_ends, axis=1)[:, None]
+    giver_out, taker_out = (np.take_along_axis(ends, worst, axis=1)[:, 0] for ends in (giver_ends, taker_ends))
+    crossed = taker_out > giver_out
     for j, side in enumerate(("hot", "cold")):
         limit = unit.limits.get("maximum_vapour_fraction", {}).get(side)
         if limit is not None:
@@ -154,12 +239,15 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
               "{e:.1f} K), is below the case's {lim:.1f} K", a=x.approach,
               at=np.where(works, x.pinch_position / np.where(works, x.duty, 1.0), 0.0), e=service.end_approach,
               lim=unit.minimum_approach),
-        # in one 1-2 shell the cold stream leaving above the hot outlet is a temperature cross
-        # (P_hot + P_cold > 1), whatever the zones: the same limit as the P–NTU rating's
-        check("temperature_cross", "limit", works & (unit.spec.arrangement.name == "tema_e")
-              & (x.t_cold_out > x.t_hot_out), key,
-              "temperature cross inside the 1-2 shell: the cold stream leaves at {tc:.1f} °C, above the hot "
-              "outlet at {th:.1f} °C", tc=x.t_cold_out, th=x.t_hot_out),
+        # in a multipass shell the stream taking heat leaving above the giver's outlet is a
+        # temperature cross (P_hot + P_cold > 1), whatever the zones: the P–NTU rating's limit
+        check("temperature_cross", "limit", works & (unit.spec.arrangement.name == "tema_e") & crossed, key,
+              "temperature cross inside a multipass shell: the stream taking heat leaves it at {tc:.1f} °C, above the "
+              "outlet of the stream giving heat at {th:.1f} °C", tc=taker_out, th=giver_out),
+        check("past_peak", "input", x.past_peak, key,
+              f"the UA ({{ua:.1f}} kW/K) is beyond the NTU at which P of a shell with {unit.spec.tube_passes} tube "
+              "passes peaks at these flows: the duty is not unique in UA and no number is given (two tube passes, "
+              "or less area, make it unique)", ua=service.ua),
         check("reversed_heat_flow", "warning", x.reversed, key,
               "the hot-side stream enters colder ({th:.1f} °C) than the cold-side stream ({tc:.1f} °C): heat "
               "flows from the cold side to the hot side ({q:.1f} kW)", th=t_hot, tc=t_cold, q=-x.duty),
@@ -169,6 +257,14 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
                "cold_out": service.t_cold_out, "hot_out_vapour_fraction": service.q_hot_out,
                "cold_out_vapour_fraction": service.q_cold_out}
     profile = {"duty": x.profile.position, "hot": x.profile.t_hot, "cold": x.profile.t_cold}
-    return UnitReport(quantities, findings, profile=profile, labels={"u_source": "fixed UA, rated by zones" if unit.spec.ua is not None else
-                                                    unit.spec.thermal.source + ", rated by zones"},
-                      totals=totals, metrics=metrics)
+    return UnitReport(quantities, findings, profile=profile, labels={"u_source": u_source(unit.spec)}, totals=totals,
+                      metrics=metrics)
+
+
+def u_source(spec) -> str:
+    """Where an exchanger rated by zones has its U from, in words for the report."""
+    if spec.ua is not None:
+        return "fixed UA, rated by zones"
+    if isinstance(spec.thermal, FixedCoefficient):
+        return f"{spec.thermal.source}, rated by zones"
+    return f"{spec.thermal.source} at the mean single-phase conditions, one U for all zones, rated by zones"

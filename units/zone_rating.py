@@ -21,11 +21,19 @@ the curves' points the hot-minus-cold difference is linear in the duty, so its m
 a point).
 
 Arrangements covered: ``counterflow`` (exact for the curves) and ``tema_e`` with two tube passes
-(1-2 shells, shell fluid mixed: each zone rated as a 1-2 shell of its own with the zone
-boundaries placed as in counterflow, the approximation common in practice for multipass
-condensers and vaporisers [2]_ [3]_; exact for one zone). Not covered: 1-2N shells with four or
-more tube passes, whose P passes through a maximum at finite NTU, so that the duty is not
-monotone in UA and the bracketed solve on the duty would not be unique.
+(1-2 shells, shell fluid mixed): the zones are laid out and rated in counterflow, and their UA
+divided by the shell's F at its terminal temperatures (:func:`shell_f`), the weighted
+temperature difference corrected by F of the common practice for multipass condensers and
+vaporisers [2]_ [3]_. It is the 1-2 shell exactly where cp is constant, however many zones the
+curves' points make (the counterflow zones' UA add up to the counterflow UA, and F is its ratio
+to the shell's), and where one side is isothermal throughout (F = 1); elsewhere F of the
+terminal temperatures stands for the shell's mixing along the whole profile. (Rating each zone
+as a 1-2 shell of its own would tend to counterflow as the zones grow many.) One shell or several in series in
+overall counterflow (``shells``: each shell so rated with its share of UA, the shells chained by
+:mod:`.zone_shells`). A shell with three or more tube passes (one shell) is rated the same way
+with F from the lower branch of its inverse: its P passes through a maximum at finite NTU, so a
+UA beyond that NTU has no unique duty; the UA a duty needs then jumps to infinity at the peak,
+the solve stops there with the UA not met, and that scenario gets no number (``past_peak``).
 
 References
 ----------
@@ -49,7 +57,7 @@ from .arrays import as_arrays
 from .enthalpy_curves import EnthalpyCurve
 from .pntu_inverse import ntu_from_p
 
-__all__ = ["ZoneProfile", "ZoneRating", "zone_profile", "duty_limit", "rate_by_zones", "ZONE_ARRANGEMENTS"]
+__all__ = ["ZoneProfile", "ZoneRating", "zone_profile", "duty_limit", "solve_duty", "shell_f", "rate_by_zones", "ZONE_ARRANGEMENTS"]
 
 ZONE_ARRANGEMENTS = ("counterflow", "tema_e")
 """The arrangements rated zone by zone."""
@@ -63,6 +71,10 @@ UA_TOLERANCE = 1e-14
 few ulp of round-off per zone; the duty's relative error is this times dln(Q)/dln(UA) <= 1)."""
 
 MAX_STEPS = 200
+
+PEAK_MARGIN = 1e-9
+"""A shell with three or more tube passes is past its peak where the UA the duty found needs
+misses the UA by more than this (relative), with the duty short of its limit by more than this."""
 
 
 @dataclass(frozen=True)
@@ -112,7 +124,9 @@ class ZoneRating:
     ``ua_used`` the UA that duty needs, kW/K: below the UA given where the duty stopped at a
     table's end (say, saturated steam given down to saturated liquid only: no subcooling known)
     or at the pinch to within round-off (near the pinch the UA needed grows as the logarithm of
-    1/(limit − duty), so a UA well past it cannot be resolved in double precision); ``profile`` the zones at the duty found (on the
+    1/(limit − duty), so a UA well past it cannot be resolved in double precision); ``past_peak``
+    where the UA is beyond the NTU at which P of a shell with three or more tube passes peaks, so
+    that the duty is not unique in UA: no number is given there (NaN); ``profile`` the zones at the duty found (on the
     basis of the stream that actually gives heat).
     """
 
@@ -128,6 +142,7 @@ class ZoneRating:
     duty_limit: np.ndarray
     ua_used: np.ndarray
     reversed: np.ndarray
+    past_peak: np.ndarray
     profile: ZoneProfile
 
 
@@ -136,7 +151,7 @@ def _flows_positive(m_hot, m_cold):
 
 
 def zone_profile(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m_hot, m_cold, duty,
-                 arrangement="counterflow", *, tube_passes=2) -> ZoneProfile:
+                 arrangement="counterflow", *, tube_passes=2, shell_is_hot=True) -> ZoneProfile:
     """The zones of a counterflow-ordered exchanger at a given duty, and the UA each needs.
 
     Parameters
@@ -170,9 +185,8 @@ def zone_profile(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m
     """
     if arrangement not in ZONE_ARRANGEMENTS:
         raise ValueError(f"zone rating covers {', '.join(ZONE_ARRANGEMENTS)}; got {arrangement!r}")
-    if arrangement == "tema_e" and tube_passes != 2:
-        raise ValueError(f"zone rating of tema_e covers two tube passes; got {tube_passes} (P of a shell with four "
-                         "or more passes has a maximum in NTU: the duty is not unique in UA)")
+    if arrangement == "tema_e" and tube_passes < 2:
+        raise ValueError(f"zone rating of tema_e covers two tube passes or more; got {tube_passes}")
     h_hot_in, h_cold_in, m_hot, m_cold, duty = (np.atleast_1d(a) for a in
                                                as_arrays(h_hot_in, h_cold_in, m_hot, m_cold, duty))
     flowing = _flows_positive(m_hot, m_cold)
@@ -193,14 +207,45 @@ def zone_profile(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m
     c_cold = safe_m_cold[:, None] * cold.cp_at_enthalpy(h_cold_in[:, None] + middle / safe_m_cold[:, None])
     # the hot stream enters a zone at its upper boundary, the cold stream at its lower one
     inlet_difference = t_hot[:, 1:] - t_cold[:, :-1]
-    ua = _zone_ua(width, inlet_difference, c_hot, c_cold, arrangement)
+    ua = _zone_ua(width, inlet_difference, c_hot, c_cold)
+    if arrangement == "tema_e":  # the counterflow zones' UA over the shell's F (module notes)
+        f = shell_f(t_hot[:, -1], t_hot[:, 0], t_cold[:, 0], t_cold[:, -1], tube_passes, shell_is_hot)[:, None]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ua = np.where(ua > 0.0, ua / f, ua)
     ua = np.where(flowing[:, None], ua, 0.0)
     return ZoneProfile(positions, t_hot, t_cold, c_hot, c_cold, ua)
 
 
-def _zone_ua(width, inlet_difference, c_hot, c_cold, arrangement):
-    """UA share of each zone from its duty, inlet temperature difference and rates by the inverse
-    P–NTU relation on the basis of the smaller rate (R = 0 where the other side is isothermal);
+def shell_f(t_hot_in, t_hot_out, t_cold_in, t_cold_out, tube_passes=2, shell_is_hot=True):
+    """F of a TEMA E shell with ``tube_passes`` passes (shell fluid mixed; ``shell_is_hot``: the
+    hot stream in the shell, which matters from three passes on) at its terminal temperatures
+    (°C): NTU of counterflow over NTU of the shell at the same P and R, on the basis of the
+    stream whose temperature changes more (R <= 1; R = 0 where the other is isothermal, F = 1).
+    With four or more passes P passes through a maximum in NTU: the NTU is the lower branch's
+    (the least UA that reaches P). 0 where P is at or past the largest the shell reaches (no UA
+    reaches it); 1 with no temperature change; NaN where a temperature is unknown.
+
+    >>> round(float(shell_f(150.0, 100.0, 40.0, 80.0)), 6)   # P = 50/110, R = 0.8
+    0.914916
+    """
+    t_hot_in, t_hot_out, t_cold_in, t_cold_out = as_arrays(t_hot_in, t_hot_out, t_cold_in, t_cold_out)
+    change_hot, change_cold = t_hot_in - t_hot_out, t_cold_out - t_cold_in
+    larger, smaller = np.maximum(change_hot, change_cold), np.minimum(change_hot, change_cold)
+    moves = (larger > 0.0) & (t_hot_in > t_cold_in)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        p = np.where(moves, larger / (t_hot_in - t_cold_in), 0.0)
+        r = np.where(moves, np.maximum(smaller, 0.0) / larger, 0.0)
+        basis_is_shell = (change_hot >= change_cold) == shell_is_hot
+        f = ntu_from_p(p, r, "counterflow") / ntu_from_p(p, r, "tema_e", basis_is_shell=basis_is_shell,
+                                                         tube_passes=tube_passes, branch="lower")
+    f = np.where(np.isnan(f), 0.0, f)  # past the supremum: no NTU reaches that P
+    known = ~np.isnan(t_hot_in + t_hot_out + t_cold_in + t_cold_out)
+    return np.where(known, np.where(moves, f, 1.0), np.nan)
+
+
+def _zone_ua(width, inlet_difference, c_hot, c_cold):
+    """UA share of each zone in counterflow from its duty, inlet temperature difference and rates
+    by the inverse P–NTU relation on the basis of the smaller rate (R = 0 where the other side is isothermal);
     both sides isothermal: duty over the (constant) difference. Inf where the zone's duty cannot
     be reached (P at or past its supremum, or no positive difference)."""
     c_min, c_max = np.minimum(c_hot, c_cold), np.maximum(c_hot, c_cold)
@@ -209,7 +254,7 @@ def _zone_ua(width, inlet_difference, c_hot, c_cold, arrangement):
     with np.errstate(divide="ignore", invalid="ignore"):
         p = width / (safe_min * inlet_difference)
         r = np.where(np.isfinite(c_max), c_min / c_max, 0.0)
-        ntu = ntu_from_p(p, r, arrangement)
+        ntu = ntu_from_p(p, r, "counterflow")
         ua = np.where(finite, ntu * safe_min, width / inlet_difference)
     reachable = (inlet_difference > 0.0) & np.isfinite(ua) & (ua >= 0.0)
     return np.where(width > 0.0, np.where(reachable, ua, np.inf), 0.0)
@@ -254,7 +299,7 @@ def duty_limit(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m_h
     return np.where(np.isnan(t_hot_in) | np.isnan(t_cold_in), np.nan, limit)
 
 
-def _solve_duty(needed, ua, upper):
+def solve_duty(needed, ua, upper):
     """Root of needed(Q) = UA on [0, upper] per scenario, ``needed`` rising (inf past reach).
 
     Illinois regula falsi [4]_ on s(Q) = UA_needed/(UA + UA_needed) − 1/2, in [−1/2, 1/2), and
@@ -299,7 +344,7 @@ def _solve_duty(needed, ua, upper):
 
 
 def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m_hot, m_cold, ua,
-                  arrangement="counterflow", *, tube_passes=2) -> ZoneRating:
+                  arrangement="counterflow", *, tube_passes=2, shells=1, shell_is_hot=True) -> ZoneRating:
     """Rate an exchanger zone by zone from its inlet enthalpies, mass flows and UA.
 
     Parameters
@@ -313,8 +358,11 @@ def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, 
         Mass flows, kg/s (>= 0; no flow on a side gives no duty).
     ua : array_like
         Overall conductance, kW/K (>= 0), shared out over the zones.
-    arrangement, tube_passes
-        As for :func:`zone_profile`.
+    arrangement, tube_passes, shell_is_hot
+        As for :func:`zone_profile` (``shell_is_hot`` for the case's sides).
+    shells : int
+        Identical ``tema_e`` shells in series in overall counterflow, each with UA/shells
+        (:mod:`.zone_shells`); counterflow is one counterflow whatever its shells.
 
     Returns
     -------
@@ -333,7 +381,11 @@ def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, 
     h_hot_in, h_cold_in, m_hot, m_cold, ua = (np.atleast_1d(a).astype(float) for a in
                                              as_arrays(h_hot_in, h_cold_in, m_hot, m_cold, ua))
     forward = ~(hot.temperature(h_hot_in) < cold.temperature(h_cold_in))
-    options = dict(arrangement=arrangement, tube_passes=tube_passes)
+    if arrangement == "tema_e" and tube_passes > 2 and shells > 1:
+        raise ValueError(f"zone rating of tema_e with {tube_passes} tube passes covers one shell (a shell of a series "
+                         "past its peak has no unique duty for the chain to find)")
+    options = dict(arrangement=arrangement, tube_passes=tube_passes,
+                   shells=shells if arrangement == "tema_e" else 1, shell_is_hot=shell_is_hot)
     if forward.all():
         return _rate_forward(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, ua, **options)
     # where the hot-side stream enters colder, it is the one that takes heat: rate those swapped
@@ -344,34 +396,48 @@ def rate_by_zones(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, 
             continue
         args = (h_hot_in[index], h_cold_in[index], m_hot[index], m_cold[index])
         if swapped:
-            part = _swapped(_rate_forward(cold, hot, args[1], args[0], args[3], args[2], ua[index], **options))
+            part = _swapped(_rate_forward(cold, hot, args[1], args[0], args[3], args[2], ua[index],
+                                          **{**options, "shell_is_hot": not shell_is_hot}))
         else:
             part = _rate_forward(hot, cold, *args, ua[index], **options)
         parts[flag] = (index, part)
     return _joined(parts, len(ua))
 
 
-def _rate_forward(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, ua, **options):
+def _rate_forward(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, ua, *, shells, **options):
     upper = duty_limit(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold)
 
-    def needed(q):
-        return zone_profile(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, q, **options).ua_needed
+    def profile_at(q):
+        if shells == 1:
+            return zone_profile(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, q, **options)
+        from .zone_shells import series_profile  # here: zone_shells builds on this module
 
-    duty = _solve_duty(needed, ua, upper)
-    profile = zone_profile(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, duty, **options)
+        return series_profile(hot, cold, h_hot_in, h_cold_in, m_hot, m_cold, q, ua, shells, **options)
+
+    duty = solve_duty(lambda q: profile_at(q).ua_needed, ua, upper)
+    profile = profile_at(duty)
+    # with three or more tube passes the UA a duty needs jumps to inf where P peaks: a UA beyond
+    # that stops the solve at the jump, the UA not met (short of it or inf on the far side) and
+    # the duty short of its limit (module notes)
+    past_peak = np.zeros(duty.shape, bool)
+    if options["arrangement"] == "tema_e" and options["tube_passes"] > 2:
+        with np.errstate(invalid="ignore"):
+            missed = ~(np.abs(profile.ua_needed - ua) <= PEAK_MARGIN * ua)  # short of it, or inf
+        past_peak = missed & (duty < upper * (1.0 - PEAK_MARGIN))
+        duty = np.where(past_peak, np.nan, duty)
     flowing = _flows_positive(m_hot, m_cold)
     h_hot_out = h_hot_in - duty / np.where(flowing, m_hot, 1.0)
     h_cold_out = h_cold_in + duty / np.where(flowing, m_cold, 1.0)
     return ZoneRating(duty, h_hot_out, h_cold_out, hot.temperature(h_hot_out), cold.temperature(h_cold_out),
                       hot.vapour_fraction(h_hot_out), cold.vapour_fraction(h_cold_out), profile.approach,
-                      profile.pinch_position, upper, profile.ua_needed, np.zeros(duty.shape, bool), profile)
+                      profile.pinch_position, upper, profile.ua_needed, np.zeros(duty.shape, bool), past_peak, profile)
 
 
 def _swapped(part: ZoneRating) -> ZoneRating:
     """A rating made with the sides swapped, expressed on the case's sides (duty negative)."""
     return ZoneRating(-part.duty, part.h_cold_out, part.h_hot_out, part.t_cold_out, part.t_hot_out,
                       part.q_cold_out, part.q_hot_out, part.approach, part.pinch_position, -part.duty_limit,
-                      part.ua_used, part.duty != 0.0, part.profile)
+                      part.ua_used, part.duty != 0.0, part.past_peak, part.profile)
 
 
 def _joined(parts, size):
