@@ -223,3 +223,15 @@ def test_console_and_report_show_the_drum(tmp_path, capsys):
     html = report.read_text(encoding="utf-8")
     assert "Flash drums (split at the inlet state" in html
     assert ">D-21</text>" in html  # the drum's tag on its junction in the network picture
+
+
+def test_a_drum_with_a_warning_is_ringed_in_the_diagram():
+    """The drum of the worked example warns (its product curves are not the feed's): its diamond
+    is drawn in the warning colour, as any unit with a warning is ringed."""
+    from hxtrain.solver.reporting.display_units import Display
+    from hxtrain.solver.reporting.network_diagram import WARNING, network_svg
+
+    warned = network_svg(simulate(lone_drum(250, [[100, 200, 0], [300, 640, 0]])), Display())
+    assert f'stroke="{WARNING}"' in warned
+    quiet = network_svg(simulate(lone_drum(200, [[100, 200, 0], [200, 387.5, 0], [300, 640, 0]])), Display())
+    assert f'stroke="{WARNING}"' not in quiet

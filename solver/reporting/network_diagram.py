@@ -258,7 +258,7 @@ def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display
     if junction:
         for yy in ys[:1]:
             parts.append(f'<path d="M{x},{yy - 8} L{x + 8},{yy} L{x},{yy + 8} L{x - 8},{yy} z" fill="#fff" '
-                         f'stroke="#555" stroke-width="1.6"/>')
+                         f'stroke="{ring if worst else "#555"}" stroke-width="{thick if worst else 1.6}"/>')
         if "group" in units and node in units.index and units.at[node, "group"] == "drums":  # a vessel: its tag
             parts.append(f'<text x="{x}" y="{ys[0] - 12}" text-anchor="middle" font-weight="bold" fill="#222">'
                          f'{escape(node)}</text>')
