@@ -116,6 +116,24 @@ class Fields:
         names of its own."""
         return self._one_of(key, names, required, default)
 
+    def temperature_span(self, key, required=True):
+        """``[lowest, highest]`` temperatures (°C, units allowed), the highest above the lowest;
+        None where the key is absent and not required."""
+        from .quantities import TEMPERATURE
+
+        raw = self.raw(key, required, None)
+        if raw is None:
+            return None
+        if not isinstance(raw, list) or len(raw) != 2:
+            raise self.error(key, f"expected [lowest, highest] temperature, got {describe(raw)}")
+        try:
+            low, high = (to_default_unit(v, TEMPERATURE) for v in raw)
+        except QuantityError as exc:
+            raise self.error(key, str(exc)) from None
+        if high <= low:
+            raise self.error(key, "the highest temperature must be above the lowest")
+        return low, high
+
     def mapping(self, key, required=False, what="a mapping of keys to values"):
         value = self.raw(key, required, None)
         if value is None:

@@ -118,13 +118,7 @@ def _water_steam(form: Fields, kept) -> EnthalpyCurve:
     from hxtrain.units.water_steam import IF97_RANGE, water_steam_curve
 
     pressure = form.quantity("pressure", q.PRESSURE)
-    span = form.raw("temperature_range")
-    if not isinstance(span, list) or len(span) != 2:
-        raise form.error("temperature_range", f"expected [lowest, highest] temperature, got {describe(span)}")
-    try:
-        low, high = (to_default_unit(v, q.TEMPERATURE) for v in span)
-    except QuantityError as exc:
-        raise form.error("temperature_range", str(exc)) from None
+    low, high = form.temperature_span("temperature_range")
     if not IF97_RANGE[0] <= low < high <= IF97_RANGE[1]:
         raise form.error("temperature_range", f"expected a rising span within {IF97_RANGE[0]:g} to {IF97_RANGE[1]:g} °C "
                                               f"(IAPWS-IF97 regions 1 to 3), got {low:g} to {high:g} °C")

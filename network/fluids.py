@@ -52,7 +52,7 @@ def _read_model(f: Fields) -> props.FluidModel:
         "viscosity": _viscosity(f),
         "conductivity": f.quantity("conductivity", q.FLUID_CONDUCTIVITY, required=False),
         "density": f.quantity("density", q.DENSITY, required=False),
-        "valid_range": _range(f),
+        "valid_range": f.temperature_span("valid_range", required=False),
     }
     f.text("description")
     forms = [k for k in ("cp", "petroleum") + CURVE_FORMS if f.has(k)]
@@ -151,21 +151,6 @@ def _viscosity(f: Fields):
         raise v.error("points", "the two temperatures must differ")
     v.finish()
     return props.AndradeViscosity(*pairs)
-
-
-def _range(f: Fields):
-    raw = f.raw("valid_range", required=False)
-    if raw is None:
-        return None
-    if not isinstance(raw, list) or len(raw) != 2:
-        raise f.error("valid_range", f"expected [lowest, highest] temperature, got {describe(raw)}")
-    try:
-        low, high = (to_default_unit(v, q.TEMPERATURE) for v in raw)
-    except QuantityError as exc:
-        raise f.error("valid_range", str(exc)) from None
-    if high <= low:
-        raise f.error("valid_range", "the highest temperature must be above the lowest")
-    return (low, high)
 
 
 def _check_over_span(f: Fields, model):

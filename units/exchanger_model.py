@@ -11,7 +11,8 @@ from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Pa
 from .pntu_rating import ExchangerRating
 from .u_models import Coefficients, FixedCoefficient, GeometryFilms
 from .back_calculation import back_calculate
-from .service_rating import ExchangerSpec, ServiceRating, coefficient_quantities, pressure_drops, rate_in_service
+from .service_rating import ExchangerSpec, ServiceRating, coefficient_quantities, pressure_drops, rate_in_service, \
+    rates_linearly
 from .properties import stacked, stacking_key
 from .zone_exchanger import rate_zoned, rated_by_zones, zone_problem, zone_report
 
@@ -150,8 +151,7 @@ class Exchanger(UnitBase):
         (absolute round-off about 1e-16 of the inlet difference); the many sweeps of a tear
         iteration then cost a few array operations each. None where the rating is not linear."""
         spec, fluids, m = self.spec, inlets.fluids, inlets.m
-        if not (spec.ua is not None or isinstance(spec.thermal, FixedCoefficient)) or \
-                not (fluids[0].constant_cp and fluids[1].constant_cp):
+        if not rates_linearly(spec, fluids[0], fluids[1]):
             return None
         kept = self._affine
         if kept is not None and kept[0] is fluids[0] and kept[1] is fluids[1] and kept[2].shape == m.shape \
@@ -229,7 +229,7 @@ class Exchanger(UnitBase):
     def _stacking_key(self, fluids):
         """Exchangers of one key rate together; None: this one rates alone (U follows the films)."""
         spec = self.spec
-        if (spec.ua is None and not isinstance(spec.thermal, FixedCoefficient)) or rated_by_zones(fluids):
+        if not spec.u_is_fixed or rated_by_zones(fluids):
             return None
         bypassed = tuple(bool(np.any(np.asarray(b) != 0.0)) for b in (spec.bypass_hot, spec.bypass_cold))
         return (spec.arrangement, spec.shells, spec.shells_in_parallel, spec.tube_passes, spec.shell_side,

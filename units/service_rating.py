@@ -55,6 +55,12 @@ class ExchangerSpec:
     pressure_drop: dict = field(default_factory=dict)
 
     @property
+    def u_is_fixed(self) -> bool:
+        """U does not follow the operating point (a fixed UA or U): with constant cp on both
+        sides the rating is then linear in the inlet temperatures."""
+        return self.ua is not None or isinstance(self.thermal, FixedCoefficient)
+
+    @property
     def total_area(self):
         return None if self.area_per_shell is None else self.area_per_shell * self.shells * self.shells_in_parallel
 
@@ -116,6 +122,12 @@ def coefficient_quantities(spec: ExchangerSpec, coefficients, shape) -> dict:
     return found
 
 
+def rates_linearly(spec: ExchangerSpec, fluid_hot, fluid_cold) -> bool:
+    """Constant cp on both sides and a fixed U: the rating is linear and homogeneous in the inlet
+    temperatures (one pass, closed form)."""
+    return spec.u_is_fixed and fluid_hot.constant_cp and fluid_cold.constant_cp
+
+
 def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, fluid_hot, fluid_cold,
                     guess=None, details=True, members=1) -> ServiceRating:
     """Rate an exchanger with temperature-dependent cp and a flow- and temperature-dependent U.
@@ -133,8 +145,7 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
     t_hot_in, t_cold_in, m_hot, m_cold = as_arrays(t_hot_in, t_cold_in, m_hot, m_cold)
     m_hot_x = m_hot * (1.0 - spec.bypass_hot)
     m_cold_x = m_cold * (1.0 - spec.bypass_cold)
-    fixed_u = spec.ua is not None or isinstance(spec.thermal, FixedCoefficient)
-    simple = fixed_u and fluid_hot.constant_cp and fluid_cold.constant_cp
+    simple = rates_linearly(spec, fluid_hot, fluid_cold)
     if guess is not None and np.shape(guess[0]) == t_hot_in.shape:
         t_hot_x, t_cold_x = (np.array(g, dtype=float) for g in guess)
     else:
