@@ -48,6 +48,7 @@ NUMERIC_KEYS = {
     "fluids.*.viscosity": q.VISCOSITY,
     "fluids.*.conductivity": q.FLUID_CONDUCTIVITY,
     "fluids.*.density": q.DENSITY,
+    "fluids.*.enthalpy_curve|water_steam.pressure": q.PRESSURE,
     "streams.*.flow": q.MASS_FLOW,
     "streams.*.supply_temperature": q.TEMPERATURE,
     "exchangers.*.shells|shells_in_parallel|tube_passes": WHOLE_NUMBER,

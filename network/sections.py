@@ -277,6 +277,7 @@ def _read_flash_drum(f: Fields, reading: Reading) -> dict:
     """A drum's ``vapour`` and ``liquid``: each names the fluid it leaves as (an enthalpy curve
     without a plateau, on the feed's reference) and starts a path."""
     data, outlets = {}, {}
+    data["feed_curve"] = f.defined_name("feed_curve", sorted(reading.fluids), required=False)
     for port in DRUM_OUTLETS:  # every key of both outlets read before any is judged: the schema sees them all
         outlet = outlets[port] = f.mapping(port, required=True, what=f"the drum's {port}: its fluid and path")
         data[f"{port}_name"] = outlet.defined_name("fluid", sorted(reading.fluids))
@@ -291,6 +292,11 @@ def _read_flash_drum(f: Fields, reading: Reading) -> dict:
                                         f"drum's {port} leaves as a fluid given by 'enthalpy_curve' at the drum's "
                                         "pressure, on the feed curve's enthalpy reference (a wide-boiling cut; a "
                                         "pure fluid's plateau is not taken by a drum in this version)")
+    curve = reading.fluids.get(data["feed_curve"]) if data["feed_curve"] else None
+    if data["feed_curve"] and (not isinstance(curve, EnthalpyCurve) or curve.state_by_enthalpy):
+        raise f.error("feed_curve", f"fluid '{data['feed_curve']}' is not an enthalpy curve without a saturation "
+                                    "plateau: 'feed_curve' names the feed's curve at the drum's pressure (given by "
+                                    "'enthalpy_curve'), onto which a feed kept liquid upstream is let down")
     f.text("description")
     f.finish()
     return data
@@ -299,7 +305,7 @@ def _read_flash_drum(f: Fields, reading: Reading) -> dict:
 def _build_flash_drum(name, key, data, building):
     fluids = building.case.fluids
     return FlashDrum(name, key, fluids[data["vapour_name"]], fluids[data["liquid_name"]], data["vapour_name"],
-                     data["liquid_name"])
+                     data["liquid_name"], feed_curve=fluids[data["feed_curve"]] if data["feed_curve"] else None)
 
 
 UNIT_SECTIONS = (

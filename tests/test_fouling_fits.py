@@ -236,7 +236,9 @@ def test_demo_fits_recover_the_generating_laws():
     for name, laws in truth.groupby("exchanger"):
         law = laws[laws["since"] == laws["since"].max()]
         row = fits.fits[(fits.fits["exchanger"] == name) & (fits.fits["model"] == law["model"].iloc[0])].iloc[0]
-        assert row["since"] == law["since"].iloc[0]
+        # the fit starts at the first usable window from the cleaning: its own day, or the next
+        # where that day's window is left out (transient, or its step not yet complete)
+        assert pd.Timedelta(0) <= row["since"] - law["since"].iloc[0] <= pd.Timedelta(days=1)
         for parameter, value in zip(law["parameter"], law["value"]):
             error = row["standard_errors"][parameter]
             if parameter in row["held"]:

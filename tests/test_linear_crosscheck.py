@@ -274,6 +274,11 @@ def linear_solution(case):
             a[i, inlet(u)] -= case.splitters[u]["fractions"][p]
         elif u in case.exchangers:
             a[i, inlet(u, p)] -= 1.0
+        elif u in case.desalters:  # crude out: crude + carry-over of the water; brine: the rest
+            carry = case.desalters[u]["carry_over"]
+            a[i, inlet(u, "water")] -= carry if p == "crude" else 1.0 - carry
+            if p == "crude":
+                a[i, inlet(u, "crude")] -= 1.0
         else:  # heater, cooler or air cooler
             a[i, inlet(u)] -= 1.0
     flows = np.linalg.solve(a, rhs)
@@ -301,6 +306,12 @@ def linear_solution(case):
                 j = inlet(u)
                 a[i, j] -= 1.0
                 b[i] = (d["duty"] if u in case.heaters else -d["duty"]) / c[j]
+        elif u in case.desalters:  # both outlets at the mixture's temperature, less the heat loss
+            crude, water = inlet(u, "crude"), inlet(u, "water")
+            total = c[crude] + c[water]
+            a[i, crude] -= c[crude] / total
+            a[i, water] -= c[water] / total
+            b[i] = -case.desalters[u]["heat_loss"] / total
         elif u in case.air_coolers:
             j = inlet(u)
             share = air_cooler_share(case.air_coolers[u], c[j])

@@ -110,7 +110,7 @@ def test_monitor_in_us_units_is_the_si_output_converted_by_hand(monitored, tmp_p
         assert column in si["today"][0], column
     assert "median_bias_k" in si["instruments"][0] and "cost_per_day_usd" in si["cost"][0]
     assert "rate_per_day_m2_k_w" in si["fouling_laws"][0]  # law parameters as numbers with units
-    assert "fired duty above 81.891 MMBtu/h" in {row["limit"] for row in us["limit_dates"]}
+    assert "fired duty above 107.824 MMBtu/h" in {row["limit"] for row in us["limit_dates"]}  # 31.6 MW: 31 600 kW × 3600 / 1055.05585262 / 1000
     for text in (si_text, us_text):
         assert max(len(line) for line in text.splitlines()) <= 120
     assert not SI_LABELS.findall(us_text), SI_LABELS.findall(us_text)

@@ -189,3 +189,23 @@ def test_the_diagram_draws_a_bypass_branch_with_its_stream_and_no_unit_on_anothe
                 assert max(spans[a]) < min(spans[b]) or max(spans[b]) < min(spans[a]), (a, b)
     svg = diagram.network_svg(result, Display())
     assert svg.count('stroke="#2f6690"') == 1  # only the feed row is drawn in the heated colour
+
+
+def test_profile_points_keep_each_unit_at_its_own_temperature():
+    """The stream profiles put a point after every unit of a path: on the crude demo's crude, a
+    desalter (no duty) is a step down at E-103's abscissa, and E-104's point is E-104's outlet
+    (the first version shifted every point after a unit without a duty by one)."""
+    from hxtrain.solver.reporting.figures import profile_points
+    from hxtrain.solver.reporting.network_diagram import rows_of
+
+    result = simulate(demo_case_path("crude_preheat"))
+    rows = {row.name: row for row in rows_of(result)[0]}
+    nodes, duties, exchanged, temps = profile_points(rows["crude"], result.units)
+    assert nodes == ["E-101", "E-102", "E-103", "D-101", "E-104"]
+    streams = result.streams.set_index("segment")
+    assert temps[4] == streams.loc["D-101.crude -> E-104.cold", "temperature_c"]
+    assert temps[5] == streams.loc["E-104.cold -> crude_split", "temperature_c"]
+    assert duties[3] == 0.0 and exchanged[4] == exchanged[3]
+    assert exchanged[5] - exchanged[4] == pytest.approx(result.units.loc["E-104", "duty_kw"], rel=1e-12)
+    nodes, _, _, temps = profile_points(rows["crude_mix"], result.units)
+    assert nodes == ["E-109", "E-110", "E-111", "E-112"] and len(temps) == 5

@@ -287,7 +287,7 @@ def test_the_demo_schedule_takes_the_plant_data_models():
     assert not plan.cleaning["E-101"].allowed and plan.cleaning["E-112"] == CleaningTerms(70000.0, 3, True)
     assert plan.steps == 104 and plan.at_most_at_once == 2
     assert [p[:2] for p in plan.not_allowed] == [(47, 56), (87, 88)]
-    assert plan.furnace.maximum_duty == pytest.approx(24300.0)
+    assert plan.furnace.maximum_duty == pytest.approx(32500.0)
 
 
 def test_a_case_beside_the_schedule_is_found_and_errors_name_the_schedule(tmp_path):

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .protocol import Parameter, UnitBase, UnitReport, check
+from .protocol import HEAT_LOST, Parameter, UnitBase, UnitReport, check
 from .stream_units import mix
 
 __all__ = ["Desalter"]
@@ -41,6 +41,11 @@ class Desalter(UnitBase):
         c = self.carry_over
         one, zero = np.ones_like(c), np.zeros_like(c)
         return np.stack([np.stack([one, c], axis=-1), np.stack([zero, 1.0 - c], axis=-1)], axis=-2)
+
+    def balance_identities(self):
+        """Desalted crude and brine leave at one temperature (the vessel's mixing equilibrium);
+        mass and energy are :meth:`balances`."""
+        return (("temperature", ("outlet", "crude"), "water"),)
 
     def parameters(self):
         return (Parameter("carry_over", "fraction", 0.0, 1.0), Parameter("heat_loss", "duty", 0.0))
@@ -74,5 +79,5 @@ class Desalter(UnitBase):
                           "the desalter has a heat loss but no flow through it")]
         return UnitReport({"t_in": t_crude, "t_out": t_out, "wash_water_in": t_water, "brine_flow": brine,
                            "crude_drop": t_crude - t_out},
-                          findings, heat_added=np.where(flows, -loss, 0.0),
+                          findings, heat_added=np.where(flows, -loss, 0.0), totals={HEAT_LOST: np.where(flows, loss, 0.0)},
                           metrics={"inlet": t_crude, "outlet": t_out, "brine_flow": brine})

@@ -3,11 +3,17 @@ r"""A flash drum: one feed in, vapour and liquid out, separated at the feed's ow
 The feed's fluid is an enthalpy curve (T, h, vapour mass fraction at its pressure, the table an
 assay or a process simulator exports). The drum stands at that curve's pressure, and the vapour
 and liquid leave as the fluids the case names for them: their own curves at the same pressure,
-on the feed's enthalpy reference (the three tables of one flash). Then:
+on the feed's enthalpy reference (the three tables of one flash).
 
-* the split is the feed's vapour mass fraction at its inlet state,
-  :math:`q = q_{feed}(h_{feed}(T_{in}))`, so vapour flow :math:`\dot m_v = q\,\dot m` and liquid
-  flow :math:`\dot m_l = (1-q)\,\dot m`;
+A feed kept liquid under pressure upstream (the usual preheat train: any fluid model, a cp
+correlation say) is let down through the drum's inlet valve at constant enthalpy; the drum is
+then given the feed's curve at the drum's pressure (``feed_curve``), on the feed fluid's
+reference (h = 0 for the liquid at 0 °C), which :meth:`FlashDrum.fluid_problem` checks where the
+curve's first row is liquid. Then, with :math:`h_{in}` the feed's specific enthalpy as it
+arrives and :math:`c` the feed's curve (the feed fluid itself, or ``feed_curve``):
+
+* the split is the vapour mass fraction at that enthalpy, :math:`q = q_c(h_{in})`, so vapour flow
+  :math:`\dot m_v = q\,\dot m` and liquid flow :math:`\dot m_l = (1-q)\,\dot m`;
 * both leave at one temperature, the one at which the products carry what entered:
 
   .. math:: \dot m\,h_{feed}(T_{in}) = \dot m_v\,h_v(T) + \dot m_l\,h_l(T)
@@ -16,10 +22,11 @@ on the feed's enthalpy reference (the three tables of one flash). Then:
   found exactly on the union of their points (beyond the tables, on the end intervals' lines,
   as each curve extends itself; the segments' range checks then apply).
 
-With product curves that are truly the feed's two phases at the drum, T is the inlet
-temperature; a balance temperature farther than :data:`CONSISTENT_WITHIN` from it says the named
-curves are not the feed's (another reference, another cut): a warning, and the balance is still
-closed on the fluids the segments carry.
+With product curves that are truly the feed's two phases at the drum, T is the flash
+temperature :math:`T_c(h_{in})` (the inlet temperature when the feed arrives on its curve; below
+it after a let-down, as the flashing liquid cools itself); a balance temperature farther than
+:data:`CONSISTENT_WITHIN` from it says the named curves are not the feed's (another reference,
+another cut): a warning, and the balance is still closed on the fluids the segments carry.
 
 The split moves the flows, and the flows move the inlet state (a liquid that heats the feed
 upstream): the solver iterates flows and states until the split settles (``split_from_state``
@@ -75,13 +82,21 @@ class FlashDrum(UnitBase):
     inlets = ("in",)
     outlets = ("vapour", "liquid")
 
-    def __init__(self, name, key, vapour_fluid, liquid_fluid, vapour_name, liquid_name):
+    def __init__(self, name, key, vapour_fluid, liquid_fluid, vapour_name, liquid_name, feed_curve=None):
         self.name, self.key = name, key
         self.vapour_fluid, self.liquid_fluid = vapour_fluid, liquid_fluid
+        self.feed_curve = feed_curve
+        """The feed's curve at the drum's pressure where the feed arrives as another fluid (let
+        down at constant enthalpy), else None (the feed's own fluid is its curve)."""
         self.outlet_fluids = {"vapour": vapour_name, "liquid": liquid_name}
         self.split = np.asarray(START_SPLIT)
         """Vapour mass fraction the flows are solved with, () or (batch,)."""
         self.outer_iterations = np.asarray(0)
+
+    def balance_identities(self):
+        """Vapour and liquid leave at one temperature (they leave the drum in equilibrium);
+        mass and energy close by the adiabatic default."""
+        return (("temperature", ("outlet", "vapour"), "liquid"),)
 
     def flow_coefficients(self):
         q = self.split
@@ -89,12 +104,19 @@ class FlashDrum(UnitBase):
 
     def fluid_problem(self, fluids):
         """The feed must be one enthalpy curve (not a cp model, not a blend) at the pressure of
-        the named products' curves: the drum stands at that pressure."""
+        the named products' curves: the drum stands at that pressure. With ``feed_curve`` the
+        feed may be any fluid, let down onto that curve, which must then be on its reference."""
         feed = fluids[0]
-        if not hasattr(feed, "vapour_fraction") or len(feed.members()) > 1:
+        if self.feed_curve is not None:
+            problem = self._reference_problem(feed)
+            if problem is not None:
+                return problem
+            feed = self.feed_curve
+        elif not hasattr(feed, "vapour_fraction") or len(feed.members()) > 1:
             return ("", f"the feed of flash drum {self.name} is fluid '{feed.name}', which is not an enthalpy curve: "
                         "a drum splits its feed by the vapour fraction the feed's curve gives at its state (give "
-                        "the feed as 'enthalpy_curve' at the drum's pressure)")
+                        "the feed as 'enthalpy_curve' at the drum's pressure, or name that curve in 'feed_curve' "
+                        "for a feed let down into the drum)")
         for port, fluid in (("vapour", self.vapour_fluid), ("liquid", self.liquid_fluid)):
             if feed.pressure is not None and fluid.pressure is not None and \
                     abs(fluid.pressure - feed.pressure) > 1e-6 * feed.pressure:
@@ -103,10 +125,30 @@ class FlashDrum(UnitBase):
                                          "curve's pressure, and its products' curves must be at the same one")
         return None
 
+    def _reference_problem(self, feed):
+        """Where ``feed_curve`` and the arriving feed disagree on the liquid's enthalpy at the
+        curve's first row (a liquid there, inside the feed's valid range): by more than
+        :data:`CONSISTENT_WITHIN` kelvin of the feed's heat capacity, the two are not on one
+        reference and the let-down would flash the wrong amount."""
+        curve = self.feed_curve
+        t0, h0 = float(curve.t_points[0]), float(curve.h_points[0])
+        low, high = getattr(feed, "valid_range", None) or (-np.inf, np.inf)
+        if float(curve.vapour_fraction(np.array([h0]))[0]) > 0.0 or not low <= t0 <= high:
+            return None
+        h_feed = float(feed.enthalpy(np.array([t0]))[0])
+        if abs(h_feed - h0) <= CONSISTENT_WITHIN * float(feed.cp(np.array([t0]))[0]):
+            return None
+        return ("feed_curve", f"fluid '{curve.name}' gives the liquid {h0:.1f} kJ/kg at {t0:g} °C, but the feed "
+                              f"arriving as '{feed.name}' carries {h_feed:.1f} kJ/kg there: a feed let down into the "
+                              "drum keeps its enthalpy, so its curve must be on the feed fluid's reference (h = 0 "
+                              "for the liquid at 0 °C)")
+
+    def _curve(self, inlets):
+        return inlets.fluids[0] if self.feed_curve is None else self.feed_curve
+
     def split_from_state(self, inlets):
-        """(batch,) the feed's vapour mass fraction at its inlet temperature."""
-        feed = inlets.fluids[0]
-        return feed.vapour_fraction(feed.enthalpy(inlets.t[:, 0]))
+        """(batch,) the vapour mass fraction of the feed's curve at the enthalpy it arrives with."""
+        return self._curve(inlets).vapour_fraction(inlets.enthalpy(0))
 
     def set_split(self, fraction, outer_iterations=0):
         """The vapour fraction the next flow solve uses, and how many outer iterations found it."""
@@ -125,13 +167,14 @@ class FlashDrum(UnitBase):
         q_in = self.split_from_state(inlets)
         q = np.broadcast_to(self.split, t_in.shape)
         t_out = self._outlet(inlets)
-        shift = t_out - t_in
-        findings = [check("drum_curves_inconsistent", "warning", (m > 0.0) & (np.abs(shift) > CONSISTENT_WITHIN),
-                          f"{self.key}.vapour.fluid",
+        t_flash = t_in if self.feed_curve is None else self.feed_curve.temperature(inlets.enthalpy(0), guess=t_in)
+        arrives = "enters at" if self.feed_curve is None else "flashes, by its curve, at"
+        findings = [check("drum_curves_inconsistent", "warning",
+                          (m > 0.0) & (np.abs(t_out - t_flash) > CONSISTENT_WITHIN), f"{self.key}.vapour.fluid",
                           f"the vapour and liquid leave at {{t_out:.2f}} °C by the enthalpy balance but the feed "
-                          f"enters at {{t_in:.2f}} °C: the curves named for the products are not consistent with "
+                          f"{arrives} {{t_flash:.2f}} °C: the curves named for the products are not consistent with "
                           f"the feed's (another enthalpy reference or another cut?; more than {CONSISTENT_WITHIN:g} K "
-                          "apart)", t_out=t_out, t_in=t_in)]
+                          "apart)", t_out=t_out, t_flash=t_flash)]
         iterations = np.broadcast_to(self.outer_iterations, t_in.shape)
         return UnitReport({"t_in": t_in, "q_in": q_in, "vapour_flow": q * m, "liquid_flow": (1.0 - q) * m,
                            "t_out": t_out, "outer_iterations": iterations},

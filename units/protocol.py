@@ -26,7 +26,7 @@ import numpy as np
 
 
 __all__ = ["UnitModel", "UnitBase", "Inlets", "takes_enthalpy_state", "splits_by_state", "StackedInlets", "outlet_temperatures_together", "reports_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
-           "TOTALS", "HEAT_SOURCES"]
+           "HEAT_LOST", "TOTALS", "HEAT_SOURCES"]
 
 SEVERITIES = ("limit", "warning", "input")
 """``limit``: a design limit violated (shown prominently); ``warning``: worth a look;
@@ -38,6 +38,7 @@ OTHER_HEATERS = "other_heater_duty_kw"
 COOLERS = "cooler_duty_kw"
 HEAT_TO_UTILITIES = "heat_to_utilities_kw"
 HEAT_FROM_UTILITIES = "heat_from_utilities_kw"
+HEAT_LOST = "heat_lost_kw"
 TOTALS = {
     HEAT_RECOVERED: "heat recovered, process to process",
     FIRED_HEATERS: "fired heaters (furnaces)",
@@ -45,6 +46,7 @@ TOTALS = {
     COOLERS: "coolers",
     HEAT_TO_UTILITIES: "heat to utilities (air coolers, exchangers on utility streams)",
     HEAT_FROM_UTILITIES: "heat from utilities (air coolers, exchangers on utility streams)",
+    HEAT_LOST: "heat lost to the surroundings (desalters)",
 }
 """The totals a run reports, each fed by the units that declare a contribution to it in their
 report (:attr:`UnitReport.totals`): the solver adds them up without knowing unit types."""
@@ -280,7 +282,9 @@ class UnitModel(Protocol):
     def balance_identities(self) -> tuple:
         """Port quantities that are equal whatever the unit's settings: (quantity, inlet port,
         outlet port) with quantity ``flow`` or ``temperature`` (an exchanger side passes its
-        flow through; a splitter's branches leave at its inlet temperature)."""
+        flow through; a splitter's branches leave at its inlet temperature); the first port may
+        instead be an outlet, written ``("outlet", port)``, for two outlets that leave alike (a
+        drum's vapour and liquid leave at one temperature)."""
 
     def balance_unknowns(self) -> tuple[str, ...]:
         """The unit's own unknowns in its balances (a heater's duty, kW)."""

@@ -53,8 +53,9 @@ The instruments
 - TI-206 (E-106 crude outlet) drifts from 2026-05-01 to 2026-10-27 down to -4 K, then stays
   there (a thermocouple fault).
 - Unmeasured: the diesel out of E-103 and the bottom pumparound out of E-109 (so redundancy
-  varies from exchanger to exchanger); the furnace inlet has two thermocouples (TI-212 at E-112's
-  crude outlet and the furnace's own TI-401).
+  varies from exchanger to exchanger); the pre-flash drum has a thermocouple on each side (TI-212
+  at E-112's crude outlet, its inlet, and the furnace's own TI-401 on the topped crude), and the
+  desalter's wash water is metered (FI-109, TI-109) with the desalted crude's temperature (TI-213).
 - Gaps: a historian outage leaves 2026-03-17 to 2026-03-19 empty, the row of 2026-09-08 is
   missing, and six cells hold text the historian wrote instead of a number.
 """
@@ -100,9 +101,10 @@ LAWS = {  # exchanger -> (model, parameters); see the module text
 }
 
 HOT_SUPPLIES = {"residue": 345.0, "bottom_pumparound": 305.0, "middle_pumparound": 240.0, "diesel": 265.0,
-                "heavy_gas_oil": 300.0, "top_pumparound": 160.0, "kerosene": 205.0}
+                "heavy_gas_oil": 300.0, "top_pumparound": 160.0, "kerosene": 205.0,
+                "desalter_wash_water": 110.0}
 FLOWS_TH = {"crude": 342.0, "residue": 150.0, "bottom_pumparound": 135.0, "middle_pumparound": 170.0, "diesel": 80.0,
-            "heavy_gas_oil": 32.0, "top_pumparound": 200.0, "kerosene": 50.0}
+            "heavy_gas_oil": 32.0, "top_pumparound": 200.0, "kerosene": 50.0, "desalter_wash_water": 17.0}
 
 # tag -> (quantity, point, unit, standard deviation or None for the file's default)
 TAGS = {
@@ -123,6 +125,8 @@ TAGS = {
        for n in range(1, 13) if n not in (3, 9)},
     "TI-401": ("temperature", "F-101.inlet", "degC", 1.0), "TI-402": ("temperature", "F-101.outlet", "degF", 1.8),
     "JI-401": ("duty", "F-101", "MW", None),
+    "FI-109": ("flow", "desalter_wash_water", "t/h", None), "TI-109": ("temperature", "desalter_wash_water", "degC", None),
+    "TI-213": ("temperature", "D-101.crude_out", "degC", None),
 }
 TEXT_CELLS = [(33, "TI-204", "---"), (101, "FI-105", "comm fail"), (158, "TI-310", "#VALUE!"), (203, "JI-401", "---"),
               (288, "TI-101", "comm fail"), (331, "FI-111", "#VALUE!")]
@@ -213,8 +217,8 @@ economics:
   co2_per_fuel: 56.1         # kg CO2/GJ, natural gas (IPCC 2006 default, from memory)
   co2_price: 80.0            # per tonne CO2
 limits:
-  fired_duty: {{F-101: 24 MW}}       # the furnace's firing limit (burners at their largest heat release)
-  inlet_temperature: {{F-101: 283}}  # °C: colder, and the furnace misses its outlet temperature at that limit
+  fired_duty: {{F-101: 31.6 MW}}       # the furnace's firing limit (burners at their largest heat release)
+  inlet_temperature: {{F-101: 274.5}}  # °C: colder, and the furnace misses its outlet temperature at that limit
 projection:
   horizon: 26 weeks
   step: 7 days

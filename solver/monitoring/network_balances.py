@@ -77,9 +77,10 @@ class NetworkBalances:
                 slots.append(Variable(UNKNOWN, unit=name, name=unknown))
         merge = _Merge(len(slots))
         for name, unit in units:
-            for quantity, port_in, port_out in unit.balance_identities():
-                a = net.inlets[name][unit.inlets.index(port_in)]
-                b = net.outlets[name][unit.outlets.index(port_out)]
+            for quantity, port_a, port_b in unit.balance_identities():
+                a = net.outlets[name][unit.outlets.index(port_a[1])] if isinstance(port_a, tuple) else \
+                    net.inlets[name][unit.inlets.index(port_a)]
+                b = net.outlets[name][unit.outlets.index(port_b)]
                 offset = 0 if quantity == TEMPERATURE else segments
                 merge.join(offset + a, offset + b)
         roots = sorted({merge.find(i) for i in range(len(slots))})

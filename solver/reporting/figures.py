@@ -44,6 +44,19 @@ def svg_of(figure) -> str:
     return re.sub(r'<svg([^>]*?) width="[^"]*" height="[^"]*"', r'<svg\1 class="figure"', text, count=1)
 
 
+def profile_points(row, units):
+    """(units, |duty| of each, duty exchanged so far, temperatures) along a row of the network
+    diagram: a point after every unit of the path (temperatures[i + 1] leaves its i-th unit; the
+    row's own start and end junctions are not on it); a unit without a duty (a desalter, a drum)
+    is a step at the same abscissa."""
+    nodes = row.nodes[1:] if row.nodes[:1] == [row.start] else list(row.nodes)
+    nodes = nodes[:-1] if nodes[-1:] == [row.end] else nodes
+    duties = [abs(units.at[n, "duty_kw"]) if "duty_kw" in units and n in units.index and pd.notna(units.at[n, "duty_kw"])
+              else 0.0 for n in nodes]
+    exchanged = np.concatenate([[0.0], np.cumsum(duties)])
+    return nodes, duties, exchanged, np.asarray(row.temperatures[: len(exchanged)], float)
+
+
 def profiles_svg(result: SimulationResult, display: Display) -> str:
     """Temperature along each stream against the duty it has exchanged so far: heated streams on
     the left, cooled ones on the right, a marker at every unit."""
@@ -57,15 +70,13 @@ def profiles_svg(result: SimulationResult, display: Display) -> str:
         for ax, heated, title in ((axes[0], True, "Streams heated"), (axes[1], False, "Streams cooled")):
             chosen = [r for r in rows if r.heated == heated and len(r.temperatures) > 1]
             for k, row in enumerate(chosen):
-                steps = [n for n in row.nodes if n in units.index and pd.notna(units.at[n, "duty_kw"])
-                         if "duty_kw" in units]
-                exchanged = np.concatenate([[0.0], np.cumsum([abs(units.at[n, "duty_kw"]) for n in steps])])
-                temps = np.asarray(row.temperatures[: len(exchanged)], float)
-                exchanged = exchanged[: len(temps)]
+                nodes, duties, exchanged, temps = profile_points(row, units)
                 colour = PALETTE[k % len(PALETTE)]
                 ax.plot(display.value("duty", exchanged), display.value("temperature", temps), "-o", color=colour,
                         markersize=3.5, linewidth=1.6, label=row.name)
-                for n, q_at, t_at in zip(steps, exchanged[1:], temps[1:]):
+                marked = [(n, q_at, t_at) for n, d, q_at, t_at, t_before in
+                          zip(nodes, duties, exchanged[1:], temps[1:], temps[:-1]) if d > 0.0 or abs(t_at - t_before) > 0.05]
+                for n, q_at, t_at in marked:
                     ax.annotate(n, (display.value("duty", q_at), display.value("temperature", t_at)), fontsize=6.5,
                                 color=colour, xytext=(3, 3), textcoords="offset points")
             ax.set_title(title, loc="left", fontsize=10)

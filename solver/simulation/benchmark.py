@@ -44,7 +44,9 @@ def fixed_property_variant(path):
     """The case at ``path`` with constant cp and fixed UA: each fluid gets the cp of its model at
     the middle of its valid range (150 °C without one); each exchanger keeps its arrangement,
     shells, passes, sides, bypass and limits, and gets as fixed ``ua`` the UA it has in the
-    original case's solution. Topology, flows, splits, recycles and heaters are unchanged."""
+    original case's solution. Topology, flows, splits, recycles and heaters are unchanged, but
+    for flash drums: a drum's split follows its inlet state, which no linear network has, so
+    each becomes a splitter at the vapour fraction it has in the original solution."""
     document = read_document(path)
     case = case_from_document(document)
     original = simulate(case)
@@ -57,6 +59,10 @@ def fixed_property_variant(path):
         kept = {k: v for k, v in entry.items() if k in KEPT_WITH_FIXED_UA}
         kept["ua"] = float(original.units.loc[tag, "ua_kw_per_k"])
         data["exchangers"][tag] = kept
+    for tag, entry in data.pop("flash_drums", {}).items():
+        q = float(original.units.loc[tag, "inlet_vapour_fraction"])
+        data.setdefault("splitters", {})[tag] = {"branches": {
+            port: {"fraction": share, "path": entry[port]["path"]} for port, share in (("vapour", q), ("liquid", 1.0 - q))}}
     return case_from_document(Document(data, f"{document.file} (constant cp, fixed UA)"))
 
 

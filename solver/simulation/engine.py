@@ -135,10 +135,12 @@ def initial_guess(net, batch):
     return np.mean(supplies, axis=0)
 
 
-def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None) -> TemperatureSolution:
+def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None, start=None) -> TemperatureSolution:
     """Temperatures of every segment over the batch. A block that fails marks its scenarios
     unconverged in ``TemperatureSolution.converged`` (their temperatures must not be reported;
-    :func:`convergence_error` words the diagnosis)."""
+    :func:`convergence_error` words the diagnosis). ``start``: a solution whose segments outside
+    ``plan``'s blocks stand as they are (``plan`` then the part of the calculation order to
+    solve again); the result's blocks are ``plan``'s."""
     if plan is None:
         from hxtrain.solver.simulation.sequencing import plan_calculation
 
@@ -147,7 +149,8 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None) ->
     flow = np.broadcast_to(net.flow, (batch, len(net.segments)))  # (segments,) or per scenario
     # column-major: a unit reads and writes whole segments, each then contiguous over the batch.
     # It holds the segments' states: temperatures, and h/c where a segment carries enthalpy
-    temperature = np.full((batch, len(net.segments)), np.nan, order="F")
+    temperature = np.full((batch, len(net.segments)), np.nan, order="F") if start is None else \
+        np.array(start.state, order="F")
     outcomes = []
     converged = np.ones(batch, bool)
     guess = initial_guess(net, batch)

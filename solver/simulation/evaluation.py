@@ -145,16 +145,23 @@ def settle_splits(net: Network, drums, plan, tolerance, max_iterations):
     from hxtrain.network.graph import resolve_flows
 
     units = [net.units[name] for name in drums]
-    last_x = last_g = None
+    upstream, downstream, feed_forward = _parts(net, drums, plan)
+    last_x = last_g = solution = None
     for passes in range(1, MAX_OUTER_ITERATIONS + 1):
-        solution = solve_temperatures(net, tolerance=tolerance, max_iterations=max_iterations, batch=net.batch,
-                                      plan=plan)
+        if solution is None:  # what no drum's split reaches is solved once, in the first pass
+            part = upstream if feed_forward else plan
+        else:
+            part = downstream
+        solution = _solved(net, plan, part, solution, tolerance, max_iterations)
+        complete = part is not upstream
         x = np.stack([np.broadcast_to(u.split, (net.batch,)) for u in units], axis=1)
         g = np.stack([_split_at_state(net, name, unit, solution) for name, unit in zip(drums, units)], axis=1)
         change = np.abs(g - x)
         moving = np.isfinite(change) & (change > SPLIT_TOLERANCE)
         if not np.any(moving):
-            break
+            if complete:
+                break
+            continue
         step = np.ones_like(x)
         if last_x is not None:  # Wegstein: w = 1 / (1 - s), s the secant slope of g over x
             with np.errstate(all="ignore"):
@@ -175,6 +182,34 @@ def settle_splits(net: Network, drums, plan, tolerance, max_iterations):
                         f"iterations of flows and states (last change {change[k, j]:.2g} kg/kg, tolerance "
                         f"{SPLIT_TOLERANCE:g})")
     return solution, unsettled
+
+
+def _parts(net, drums, plan):
+    """The blocks of ``plan`` that no drum's split reaches (their flows and so their states do not
+    depend on it: solved once), the blocks at or below a drum (solved again in each pass), and
+    whether every drum's inlet lies in the first part (then the first pass solves only that part:
+    it is all the drums' fractions need)."""
+    import networkx as nx
+
+    below = set(drums).union(*(nx.descendants(net.graph, name) for name in drums))
+    upstream = [block for block in plan if not below.intersection(block.units)]
+    downstream = [block for block in plan if below.intersection(block.units)]
+    feed_forward = all(net.segments[net.inlets[name][0]].source not in below for name in drums)
+    return upstream, downstream, feed_forward
+
+
+def _solved(net, plan, part, previous, tolerance, max_iterations):
+    """The states with the blocks of ``part`` solved (again) and the rest as in ``previous``; the
+    outcomes of all blocks solved so far, in ``plan``'s order."""
+    solution = solve_temperatures(net, tolerance=tolerance, max_iterations=max_iterations, batch=net.batch,
+                                  plan=part, start=previous)
+    if previous is None or part is plan:
+        return solution
+    outcomes = {id(o.block): o for o in previous.blocks}
+    outcomes.update({id(o.block): o for o in solution.blocks})
+    solution.blocks = [outcomes[id(block)] for block in plan if id(block) in outcomes]
+    solution.converged = solution.converged & previous.converged
+    return solution
 
 
 def _split_at_state(net, name, unit, solution):
