@@ -31,6 +31,15 @@ def acyclic_without(graph, tears):
     return nx.is_directed_acyclic_graph(cut)
 
 
+def assert_in_calculation_order(net, plan):
+    """Every unit in one block of ``plan``, and every segment running forward between blocks or
+    inside one."""
+    position = {u: i for i, b in enumerate(plan) for u in b.units}
+    assert sorted(position) == sorted(net.units) and sum(len(b.units) for b in plan) == len(net.units)
+    for seg in net.segments:
+        assert position[seg.source] <= position[seg.target]
+
+
 def random_block(seed, nodes=7, edges=14):
     rng = np.random.default_rng(seed)
     graph = nx.MultiDiGraph()
@@ -269,10 +278,7 @@ def test_independent_blocks_at_one_depth_merge_and_give_the_same_temperatures(mo
     trains = sum(1 for s in net.segments if s.source.endswith("blend"))  # one blend per train
     assert len(cyclic) == 1 and len(cyclic[0].tears) == trains > 3
     assert cyclic[0].method.startswith(f"{trains} independent blocks merged")
-    position = {u: i for i, b in enumerate(plan) for u in b.units}
-    assert sorted(position) == sorted(net.units) and sum(len(b.units) for b in plan) == len(net.units)
-    for seg in net.segments:  # a segment runs forward between blocks, or inside one
-        assert position[seg.source] <= position[seg.target]
+    assert_in_calculation_order(net, plan)
     settings = dict(tolerance=case.settings.tolerance, max_iterations=case.settings.max_iterations)
     merged = solve_temperatures(net, plan=plan, **settings)
     monkeypatch.setattr(engine, "LARGE_BLOCK_TEARS", 10**9)  # neither merged nor converged by Newton
@@ -303,3 +309,96 @@ def test_small_networks_flows_dense_equal_the_sparse_solve(name, monkeypatch):
         t = np.linspace(40.0, 300.0, 3)
         for a, b in zip(dense.fluids, sparse.fluids):
             np.testing.assert_allclose(a.cp(t), b.cp(t), rtol=1e-13)
+
+
+def chained_with_boosts(units, properties):
+    """Chained trains with a heater of fixed duty between each pair of trains: an acyclic unit
+    fed by one train that feeds the next."""
+    mapping = ladder_case("chained", units, properties)
+    crude = mapping["streams"]["crude"]
+    trains = sum(1 for tag in mapping["exchangers"] if tag.endswith("E0"))
+    for t in range(1, trains):
+        mapping["heaters"][f"boost{t}"] = {"duty": 150.0}
+        crude["path"] = crude["path"].replace(f"-> T{t}E0.cold", f"-> boost{t} -> T{t}E0.cold")
+    return mapping, trains
+
+
+def test_chained_trains_converge_as_one_run_with_the_temperatures_of_block_by_block(monkeypatch):
+    """Trains in series on one cold stream, a heater between each pair: the trains and the heaters
+    between them are converged as one run (Newton on all its segments) in a handful of
+    iterations, its units before every unit they feed; the temperatures equal those of the
+    blocks solved one by one (no run: RUN_ELEMENTS 0) within twice the tolerance, since each
+    path is within the tolerance of the solution."""
+    from hxtrain.solver.simulation import block_runs, engine
+    from hxtrain.solver.simulation.engine import solve_temperatures
+
+    mapping, trains = chained_with_boosts(200, "varying")
+    case = case_from_mapping(mapping)
+    net = build_network(case)
+    plan = plan_calculation(net.graph)
+    assert len([b for b in plan if b.tears]) == trains > 2
+    order = block_runs.with_runs(net, plan, 1, engine.LARGE_BLOCK_TEARS)
+    [run] = [b for b in order if b.parts]
+    assert len([p for p in run.parts if p.tears]) == trains and len(run.tears) == sum(len(b.tears) for b in plan)
+    assert {f"boost{t}" for t in range(1, trains)} <= set(run.units) and "crude_out" not in run.units
+    assert_in_calculation_order(net, order)
+    settings = dict(tolerance=case.settings.tolerance, max_iterations=case.settings.max_iterations)
+    joined = solve_temperatures(net, plan=plan, **settings)
+    assert [o.block for o in joined.blocks if o.tears] == [run] and joined.iterations <= 6
+    monkeypatch.setattr(block_runs, "RUN_ELEMENTS", 0)
+    separate = solve_temperatures(net, plan=plan, **settings)
+    assert len([o for o in separate.blocks if o.tears]) == trains
+    assert joined.converged.all() and separate.converged.all()
+    assert np.max(np.abs(joined.temperature - separate.temperature)) <= 2 * case.settings.tolerance
+
+
+def test_a_run_that_does_not_converge_is_solved_block_by_block():
+    """Allowed four iterations, a run of eleven trains (it takes five) is given up and its trains
+    are solved one by one (four each): every scenario converged, an outcome per train, the
+    temperatures those of the run within twice the tolerance."""
+    from hxtrain.solver.simulation.engine import solve_temperatures
+
+    case = case_from_mapping(ladder_case("chained", 120, "varying"))
+    net = build_network(case)
+    plan = plan_calculation(net.graph)
+    tolerance = case.settings.tolerance
+    run = solve_temperatures(net, plan=plan, tolerance=tolerance, max_iterations=50)
+    [outcome] = [o for o in run.blocks if o.tears]
+    assert outcome.block.parts and outcome.tears.iterations > 4
+    by_block = solve_temperatures(net, plan=plan, tolerance=tolerance, max_iterations=4)
+    cyclic = [o for o in by_block.blocks if o.tears]
+    assert by_block.converged.all() and [o.block for o in cyclic] == [b for b in plan if b.tears]
+    assert np.max(np.abs(run.temperature - by_block.temperature)) <= 2 * tolerance
+
+
+def test_a_large_batch_keeps_its_blocks_and_a_plan_read_back_forms_its_runs_again():
+    """Runs are formed for the batch at hand: none where the batch alone fills RUN_ELEMENTS; a plan
+    read back from an evaluation (runs in it) is split into its blocks first, so a larger batch
+    never inherits a run too large for it."""
+    from hxtrain.solver.simulation.block_runs import RUN_ELEMENTS, unjoined, with_runs
+    from hxtrain.solver.simulation.engine import LARGE_BLOCK_TEARS
+
+    net = build_network(case_from_mapping(ladder_case("chained", 120, "fixed")))
+    plan = plan_calculation(net.graph)
+    assert with_runs(net, plan, RUN_ELEMENTS, LARGE_BLOCK_TEARS) == plan
+    joined = with_runs(net, plan, 1, LARGE_BLOCK_TEARS)
+    assert len(joined) < len(plan) and sorted(map(id, unjoined(joined))) == sorted(map(id, plan))
+    assert with_runs(net, joined, RUN_ELEMENTS, LARGE_BLOCK_TEARS) == unjoined(joined)
+    assert with_runs(net, joined, 1, LARGE_BLOCK_TEARS) == joined
+
+
+def test_a_run_over_a_batch_gives_each_scenario_its_one_by_one_temperatures(monkeypatch):
+    """Five crude flows through chained trains in one evaluation (one run over the batch, each
+    scenario stopping on its own) against each flow alone with its blocks solved one by one:
+    every success, the temperatures within twice the tolerance."""
+    from hxtrain.solver.simulation import block_runs
+    from hxtrain.solver.simulation.evaluation import evaluate
+
+    case = case_from_mapping(chained_with_boosts(120, "varying")[0])
+    flows = np.linspace(60.0, 140.0, 5)
+    together = evaluate(case, {"streams.crude.flow": flows})
+    assert [len(o.block.parts or ()) > 1 for o in together.solution.blocks if o.tears] == [True]
+    monkeypatch.setattr(block_runs, "RUN_ELEMENTS", 0)
+    alone = np.concatenate([evaluate(case, {"streams.crude.flow": [f]}).temperature for f in flows])
+    assert together.success.all() and np.isfinite(alone).all()
+    assert np.max(np.abs(together.temperature - alone)) <= 2 * case.settings.tolerance

@@ -16,6 +16,30 @@ from .service_rating import ExchangerSpec, ServiceRating, coefficient_quantities
 from .properties import stacked, stacking_key
 from .zone_exchanger import rate_zoned, rated_by_zones, zone_problem, zone_report
 
+
+def _anywhere_nonzero(value) -> bool:
+    """Whether a bypass fraction (a number, or one per scenario) is nonzero anywhere; a plain
+    number is compared without a numpy call (thousands of exchangers are keyed per sweep)."""
+    if isinstance(value, (float, int)):
+        return bool(value != 0.0)
+    return bool(np.any(np.asarray(value) != 0.0))
+
+
+def _unit_after_unit(values, batch) -> np.ndarray:
+    """Per-unit values (numbers, or one per scenario) laid unit after unit along the batch axis:
+    one array of ``len(values) * batch``, in one numpy call where they are all numbers or all of
+    one shape (a run of thousands of exchangers is stacked so on every sweep)."""
+    out = np.empty((len(values), batch))
+    try:
+        table = np.array(values, dtype=float)
+    except ValueError:  # numbers and per-scenario arrays mixed
+        for k, v in enumerate(values):
+            out[k] = v
+    else:
+        out[:] = table.reshape(len(values), -1)
+    return out.reshape(-1)
+
+
 __all__ = ["Exchanger"]
 
 
@@ -231,7 +255,7 @@ class Exchanger(UnitBase):
         spec = self.spec
         if not spec.u_is_fixed or rated_by_zones(fluids):
             return None
-        bypassed = tuple(bool(np.any(np.asarray(b) != 0.0)) for b in (spec.bypass_hot, spec.bypass_cold))
+        bypassed = (_anywhere_nonzero(spec.bypass_hot), _anywhere_nonzero(spec.bypass_cold))
         return (spec.arrangement, spec.shells, spec.shells_in_parallel, spec.tube_passes, spec.shell_side,
                 spec.mixed_side, spec.ua is None, bypassed, stacking_key(fluids[0]), stacking_key(fluids[1]))
 
@@ -242,7 +266,7 @@ class Exchanger(UnitBase):
         count, batch = t.shape[:2]
 
         def along(values):
-            return np.concatenate([np.broadcast_to(np.asarray(v, dtype=float), (batch,)) for v in values])
+            return _unit_after_unit(list(values), batch)
 
         specs = [u.spec for u in units]
         fixed_ua = specs[0].ua is not None

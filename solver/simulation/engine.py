@@ -1,9 +1,11 @@
 """Sequential-modular solution of a network's segment states, over a batch of scenarios.
 
 Blocks (see :mod:`.sequencing`) are solved in order. An acyclic block is one sweep of its units;
-a cyclic block is converged on its tear segments (see :mod:`.convergence`). Units are reached
-only through the :class:`hxtrain.units.protocol.UnitModel` protocol. A segment's state is its
-temperature, or its enthalpy where its fluid has a saturation plateau (:mod:`.segment_state`).
+a cyclic block is converged on its tear segments (see :mod:`.convergence`), or with more tears on
+all its segments (:mod:`.block_newton`); a run of chained cyclic blocks is converged together
+(:mod:`.block_runs`). Units are reached only through the :class:`hxtrain.units.protocol.UnitModel`
+protocol. A segment's state is its temperature, or its enthalpy where its fluid has a saturation
+plateau (:mod:`.segment_state`).
 """
 
 from __future__ import annotations
@@ -138,12 +140,14 @@ def initial_guess(net, batch):
 def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None, start=None) -> TemperatureSolution:
     """Temperatures of every segment over the batch. A block that fails marks its scenarios
     unconverged in ``TemperatureSolution.converged`` (their temperatures must not be reported;
-    :func:`convergence_error` words the diagnosis). ``start``: a solution whose segments outside
-    ``plan``'s blocks stand as they are (``plan`` then the part of the calculation order to
-    solve again); the result's blocks are ``plan``'s."""
-    if plan is None:
-        from hxtrain.solver.simulation.sequencing import plan_calculation
+    :func:`convergence_error` words the diagnosis). Runs of chained cyclic blocks are converged
+    together (:mod:`.block_runs`). ``start``: a solution whose segments outside ``plan``'s
+    blocks stand as they are (``plan`` then the part of the calculation order to solve again);
+    the result's blocks are ``plan``'s."""
+    from hxtrain.solver.simulation.block_runs import with_runs
+    from hxtrain.solver.simulation.sequencing import plan_calculation
 
+    if plan is None:
         plan = plan_calculation(net.graph)
     layout = segment_state(net)
     flow = np.broadcast_to(net.flow, (batch, len(net.segments)))  # (segments,) or per scenario
@@ -154,32 +158,40 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None, st
     outcomes = []
     converged = np.ones(batch, bool)
     guess = initial_guess(net, batch)
-    for block in plan:
-        if not block.tears:
-            _sweep(net, layout, block.units, temperature, flow)
-            outcomes.append(BlockOutcome(block, None))
-            continue
-        slots = {seg: j for j, seg in enumerate(block.tears)}
+    for block in with_runs(net, plan, batch, LARGE_BLOCK_TEARS):
+        converged &= _solve_block(net, layout, block, temperature, flow, guess, tolerance, max_iterations, outcomes)
+    return TemperatureSolution(layout.temperatures(net, temperature), outcomes, converged, temperature, layout)
 
+
+def _solve_block(net, layout, block, temperature, flow, guess, tolerance, max_iterations, outcomes) -> np.ndarray:
+    """Solve one block of the plan in place, its outcome appended to ``outcomes``; returns which
+    scenarios converged. A run of blocks (``block.parts``) that does not converge in every
+    scenario is solved again block by block, their outcomes in its place."""
+    if not block.tears:
+        _sweep(net, layout, block.units, temperature, flow)
+        outcomes.append(BlockOutcome(block, None))
+        return np.ones(temperature.shape[0], bool)
+    if block.parts or len(block.tears) > LARGE_BLOCK_TEARS:
+        result = _converge_large_block(net, layout, block, temperature, flow, guess, tolerance, max_iterations)
+        if block.parts and not result.success:
+            return np.logical_and.reduce([_solve_block(net, layout, part, temperature, flow, guess, tolerance,
+                                                       max_iterations, outcomes) for part in block.parts])
+    else:
+        slots = {seg: j for j, seg in enumerate(block.tears)}
         last = {}
 
         # every evaluation rewrites all of the block's segments from the tears and the blocks
         # before it, so it may work in place; ``last`` says at which tears the array now is
-        def evaluate(x, block=block, slots=slots, last=last):
+        def evaluate(x):
             temperature[:, block.tears] = x
             last["x"] = x
             return _sweep(net, layout, block.units, temperature, flow, slots)
 
-        if len(block.tears) > LARGE_BLOCK_TEARS:
-            result = _converge_large_block(net, layout, block, temperature, flow, guess, tolerance, max_iterations)
-        else:
-            x0 = layout.guess(net, block.tears, guess)
-            result = converge_tears(evaluate, x0, tolerance, max_iterations)
-            if not np.array_equal(last["x"], result.x):
-                evaluate(result.x)
-        converged &= result.converged
-        outcomes.append(BlockOutcome(block, result))
-    return TemperatureSolution(layout.temperatures(net, temperature), outcomes, converged, temperature, layout)
+        result = converge_tears(evaluate, layout.guess(net, block.tears, guess), tolerance, max_iterations)
+        if not np.array_equal(last["x"], result.x):
+            evaluate(result.x)
+    outcomes.append(BlockOutcome(block, result))
+    return result.converged
 
 
 def _converge_large_block(net, layout, block, temperature, flow, guess, tolerance, max_iterations) -> TearResult:

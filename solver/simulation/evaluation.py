@@ -205,9 +205,15 @@ def _solved(net, plan, part, previous, tolerance, max_iterations):
                                   plan=part, start=previous)
     if previous is None or part is plan:
         return solution
-    outcomes = {id(o.block): o for o in previous.blocks}
-    outcomes.update({id(o.block): o for o in solution.blocks})
-    solution.blocks = [outcomes[id(block)] for block in plan if id(block) in outcomes]
+    position = {id(block): k for k, block in enumerate(plan)}
+
+    def first(outcome):  # a run of blocks (block_runs) stands where its first block stood
+        return position[id((outcome.block.parts or (outcome.block,))[0])]
+
+    again = {position[id(block)] for block in part}
+    kept = [o for o in previous.blocks if not again.intersection(
+        position[id(b)] for b in (o.block.parts or (o.block,)))]
+    solution.blocks = sorted(kept + list(solution.blocks), key=first)
     solution.converged = solution.converged & previous.converged
     return solution
 

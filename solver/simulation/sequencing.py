@@ -57,6 +57,9 @@ class Block:
     method: str = "acyclic"
     lower_bound: int | None = None
     """Fewest tears this block can have, where known (equal to ``len(tears)`` when exact)."""
+    parts: list[Block] | None = None
+    """For a run of blocks converged together (:mod:`.block_runs`): its blocks in calculation
+    order, solved one by one if the run does not converge."""
 
 
 def plan_calculation(graph: nx.MultiDiGraph) -> list[Block]:
