@@ -167,7 +167,7 @@ class FlashDrum(UnitBase):
         q_in = self.split_from_state(inlets)
         q = np.broadcast_to(self.split, t_in.shape)
         t_out = self._outlet(inlets)
-        t_flash = t_in if self.feed_curve is None else self.feed_curve.temperature(inlets.enthalpy(0), guess=t_in)
+        t_flash = self._curve(inlets).temperature(inlets.enthalpy(0), guess=t_in)  # T_in on the feed's own curve
         arrives = "enters at" if self.feed_curve is None else "flashes, by its curve, at"
         findings = [check("drum_curves_inconsistent", "warning",
                           (m > 0.0) & (np.abs(t_out - t_flash) > CONSISTENT_WITHIN), f"{self.key}.vapour.fluid",
