@@ -238,20 +238,91 @@ def _from_shares(share, supplies, groups, count):
 
 
 def _varied_splits(rows, cols, values, n, entry, supplies, groups, valid, message):
-    """Each scenario's own matrix, solved with the others as one block-diagonal sparse system;
-    one right-hand side per group."""
+    """Each scenario's own matrix. Without a recycle of flow the segments are taken downstream
+    one by one, each carrying only the groups that reach it (:func:`downstream_flows`); with
+    one, the scenarios' matrices are solved together as one block-diagonal sparse system, one
+    right-hand side per group."""
     count = groups.max(initial=0) + 1
-    by_group = np.zeros((supplies.shape[0], n, count))
-    by_group[:, entry, groups] = supplies  # each supply feeds a segment of its own
-    flows, singular = solve_block_diagonal(rows, cols, values, n, by_group)
+    order = acyclic_order(rows, cols, n)
+    if order is not None:
+        flow, carried, makeup, singular = downstream_flows(rows, cols, values, order, n, entry, supplies, groups)
+    else:
+        by_group = np.zeros((supplies.shape[0], n, count))
+        by_group[:, entry, groups] = supplies  # each supply feeds a segment of its own
+        flows, singular = solve_block_diagonal(rows, cols, values, n, by_group)
+        flow = flows.sum(axis=2)
+        with np.errstate(invalid="ignore"):
+            carried = np.any(flows > 0.0, axis=0)
+        makeup = {int(s): flows[:, s, :] for s in np.flatnonzero(carried.sum(axis=1) > 1)}
     for k in np.flatnonzero(singular & valid):
         message[k] = _SINGULAR
     valid &= ~singular
-    flow = flows.sum(axis=2)
-    with np.errstate(invalid="ignore"):
-        carried = np.any(flows > 0.0, axis=0)
-    blends = np.flatnonzero(carried.sum(axis=1) > 1)
-    return flow, carried, {int(s): flows[:, s, :] for s in blends}
+    return flow, carried, makeup
+
+
+def acyclic_order(rows, cols, n):
+    """The segments in an order in which every off-diagonal entry (row, col) of ``I - A`` has
+    its col before its row (each segment after all that feed it), or None where the entries
+    close a loop (a recycle of flow through other segments)."""
+    feeds = [[] for _ in range(n)]
+    waiting = np.zeros(n, int)
+    for r, c in zip(rows.tolist(), cols.tolist()):
+        if r != c:
+            feeds[c].append(r)
+            waiting[r] += 1
+    ready = [int(s) for s in np.flatnonzero(waiting == 0)]
+    order = []
+    while ready:
+        s = ready.pop()
+        order.append(s)
+        for r in feeds[s]:
+            waiting[r] -= 1
+            if waiting[r] == 0:
+                ready.append(r)
+    return order if len(order) == n else None
+
+
+def downstream_flows(rows, cols, values, order, n, entry, supplies, groups):
+    """Flows of k scenarios whose matrices ``I - A`` (entries ``values`` (k, entries) at
+    ``rows``, ``cols``) are triangular in ``order`` (:func:`acyclic_order`): one pass
+    downstream, a segment's flow of each group is what its supplies put in less the entries'
+    contributions of the segments that feed it, over its diagonal (repeated entries summed, as
+    in the sparse form). A segment holds only the groups that reach it, so the work grows with
+    the entries, not with entries times groups. Returns (flow (k, n), carried (n, groups),
+    make-up of the blends, singular (k,): a zero on the diagonal, its flows NaN)."""
+    k, count = supplies.shape[0], groups.max(initial=0) + 1
+    by_row = [[] for _ in range(n)]
+    diagonal = np.zeros((k, n))
+    for e, (r, c) in enumerate(zip(rows.tolist(), cols.tolist())):
+        if r == c:
+            diagonal[:, r] += values[:, e]
+        else:
+            by_row[r].append(e)
+    parts = [{} for _ in range(n)]  # segment -> {group: (k,) kg/s}
+    for j, (s, g) in enumerate(zip(entry.tolist(), groups.tolist())):
+        parts[s][g] = parts[s].get(g, 0.0) + supplies[:, j]
+    flow = np.empty((k, n), order="F")
+    carried = np.zeros((n, count), bool)
+    with np.errstate(all="ignore"):
+        for s in order:
+            mine = dict(parts[s])
+            for e in by_row[s]:
+                for g, upstream in parts[cols[e]].items():
+                    mine[g] = mine.get(g, 0.0) - values[:, e] * upstream
+            parts[s] = {g: np.broadcast_to(v / diagonal[:, s], (k,)) for g, v in mine.items()}
+            flow[:, s] = sum(parts[s].values()) if parts[s] else 0.0
+            for g, v in parts[s].items():
+                carried[s, g] = bool(np.any(v > 0.0))
+    singular = np.any(diagonal == 0.0, axis=1)
+    flow[singular] = np.nan
+    makeup = {}
+    for s in np.flatnonzero(carried.sum(axis=1) > 1):
+        shares = np.zeros((k, count))
+        for g, v in parts[s].items():
+            shares[:, g] = v
+        shares[singular] = np.nan
+        makeup[int(s)] = shares
+    return flow, carried, makeup, singular
 
 
 def solve_block_diagonal(rows, cols, values, n, right, chunk=CHUNK_UNKNOWNS):

@@ -140,8 +140,8 @@ def test_flows_by_supply_group_equal_flows_by_supply(monkeypatch):
 
 def test_varied_split_fractions_use_no_dense_matrix_and_match_single_solves(monkeypatch):
     """A sweep of a splitter fraction on a 330-unit network: the scenarios' flows come from the
-    block-diagonal sparse solve (numpy's dense solve refused) and equal the flows of each
-    scenario built alone."""
+    pass downstream (no recycle of flow; numpy's dense solve refused) and equal the flows of
+    each scenario built alone."""
     mapping = ladder_case("side_by_side", 330, "fixed")
     case = case_from_mapping(mapping)
     fractions = np.array([0.2, 0.45, 0.8])
@@ -154,6 +154,42 @@ def test_varied_split_fractions_use_no_dense_matrix_and_match_single_solves(monk
         mapping["splitters"]["T3split"]["branches"]["b"]["fraction"] = 1.0 - x
         alone = build_network(case_from_mapping(mapping))
         np.testing.assert_allclose(varied.flow[i], alone.flow[0], rtol=1e-12, atol=1e-12)
+
+
+def test_the_pass_downstream_equals_the_sparse_solve_of_each_scenario():
+    """Varied split fractions without a recycle of flow are taken segment by segment downstream
+    (:func:`flows.downstream_flows`); on random feed-forward patterns of I - A (repeated entries,
+    three groups of supplies, a blend) it gives the block-diagonal sparse LU's flows, make-up
+    and carried groups; a pattern with a loop is left to the sparse solve, and a zero on the
+    diagonal makes that scenario singular."""
+    from hxtrain.network import flows
+
+    rng = np.random.default_rng(7)
+    n, k = 40, 6
+    rows, cols, values = list(range(n)), list(range(n)), [np.ones(k)] * n
+    for r in range(1, n):
+        for c in rng.choice(r, size=min(r, 2), replace=False):
+            for _ in range(1 + (r % 3 == 0)):  # some entries twice: the sparse form sums them
+                rows.append(r), cols.append(int(c)), values.append(-rng.uniform(0.05, 0.5, k))
+    rows, cols, values = np.array(rows), np.array(cols), np.stack(values, axis=1)
+    entry, groups = np.array([0, 1, 5]), np.array([0, 1, 2])
+    supplies = rng.uniform(1.0, 10.0, (k, 3))
+    order = flows.acyclic_order(rows, cols, n)
+    assert order is not None and sorted(order) == list(range(n))
+    flow, carried, makeup, singular = flows.downstream_flows(rows, cols, values, order, n, entry, supplies, groups)
+    right = np.zeros((k, n, 3))
+    right[:, entry, groups] = supplies
+    reference, reference_singular = flows.solve_block_diagonal(rows, cols, values, n, right)
+    assert not singular.any() and not reference_singular.any()
+    np.testing.assert_allclose(flow, reference.sum(axis=2), rtol=1e-12, atol=1e-12)
+    np.testing.assert_array_equal(carried, np.any(reference > 0.0, axis=0))
+    assert makeup and set(makeup) == set(np.flatnonzero(carried.sum(axis=1) > 1))
+    for s, shares in makeup.items():
+        np.testing.assert_allclose(shares, reference[:, s, :], rtol=1e-12, atol=1e-12)
+    assert flows.acyclic_order(np.append(rows, 0), np.append(cols, n - 1), n) is None  # n-1 feeds 0: a loop
+    values[2, 3] = 0.0  # scenario 2: segment 3's diagonal entry is zero
+    assert flows.downstream_flows(rows, cols, values, order, n, entry, supplies, groups)[3].tolist() == \
+        [False, False, True, False, False, False]
 
 
 def test_the_direct_solve_agrees_with_the_batch_on_the_fixed_property_crude_demo():
@@ -180,7 +216,7 @@ def test_a_cheap_batch_stays_in_one_process_and_a_costly_one_splits(monkeypatch)
     monkeypatch.setattr(batch_module, "PROBE", 4)
     monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 8)
     path = demo_case_path("crude_preheat")
-    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 40)}  # probes of 4 and 16, two parts of 10
+    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 40)}  # a probe of 4, three parts of 12
     whole = simulate_batch(path, values)
 
     def refuse(*args, **kwargs):
@@ -200,8 +236,8 @@ def test_a_cheap_batch_stays_in_one_process_and_a_costly_one_splits(monkeypatch)
     monkeypatch.setattr(batch_module, "WORTH_SPLITTING", 0.0)
     monkeypatch.setattr(batch_module, "ProcessPoolExecutor", Counted)
     split = simulate_batch(path, values, workers=3)
-    assert started == [1]  # 20 scenarios after the probes: two parts of at least 8, one of them here
-    assert (whole.processes, cheap.processes, split.processes) == (1, 1, 2)  # what the benchmark prints
+    assert started == [2]  # a scenario dearer than CLEARLY_WORTH: no second probe; 36 left, one part here
+    assert (whole.processes, cheap.processes, split.processes) == (1, 1, 3)  # what the benchmark prints
     for result in (cheap, split):
         assert len(result.table) == 40 and result.table["success"].all()
         np.testing.assert_allclose(result.temperature, whole.temperature, rtol=0, atol=1e-9)

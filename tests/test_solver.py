@@ -185,3 +185,36 @@ def test_reversed_labels_move_heat_downhill_and_say_so():
     row = result.units.loc["E1"]
     assert row["duty_kw"] < 0 and row["hot_out_c"] > 40 and row["cold_out_c"] < 90
     assert "reversed_heat_flow" in set(result.findings["kind"])
+
+
+def test_loosened_sweeps_far_from_the_answer_give_the_exact_answer_with_fewer_passes(monkeypatch):
+    """Inexact Newton (Dembo, Eisenstat & Steihaug 1982): while the tears are far off, the
+    exchangers may stop their own passes at FORCING times the residual. On the crude demo as
+    shipped (cp(T), film U; a three-tear block) the answer is the one found with every sweep
+    exact, to well inside the tolerance, the energy balance closes as tightly, and the
+    exchangers make fewer passes; a sweep's precision reaches the rating and is 0 outside."""
+    from hxtrain.solver.simulation import convergence
+    from hxtrain.units import protocol, service_rating
+    from hxtrain.solver.simulation.batch import simulate_batch
+
+    passes, precisions = [0], set()
+    rate = service_rating._rate
+
+    def counted(*args):
+        passes[0] += 1
+        precisions.add(protocol.outlet_precision())
+        return rate(*args)
+
+    monkeypatch.setattr(service_rating, "_rate", counted)
+    values = {"streams.crude.flow": np.linspace(60.0, 110.0, 9)}
+    loosened = simulate_batch(demo_case_path("crude_preheat"), values)
+    loosened_passes, loosened_precisions = passes[0], set(precisions)
+    passes[0] = 0
+    monkeypatch.setattr(convergence, "FORCING", 0.0)
+    monkeypatch.setattr(convergence, "START_PRECISION", 0.0)
+    exact = simulate_batch(demo_case_path("crude_preheat"), values)
+    assert loosened.table["success"].all() and exact.table["success"].all()
+    np.testing.assert_allclose(loosened.temperature, exact.temperature, rtol=0, atol=1e-8)
+    assert loosened.table["relative_imbalance"].max() < 1e-12
+    assert loosened_passes < 0.8 * passes[0]
+    assert max(loosened_precisions) > 1e-4 and 0.0 in loosened_precisions and protocol.outlet_precision() == 0.0

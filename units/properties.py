@@ -54,6 +54,9 @@ class FluidModel:
     """Where the range comes from in the case file, for messages."""
     extrapolate: bool = False
     """Whether use outside ``valid_range`` is allowed (with a warning) rather than refused."""
+    conductivity_follows_temperature: bool = False
+    """Whether :meth:`conductivity` changes with temperature: not here, where a fluid has one
+    conductivity (the case file's value); a film's property correction then skips its ratio."""
 
     def __init__(self, viscosity=None, conductivity=None, density=None, valid_range=None):
         self.viscosity_model = viscosity
@@ -90,12 +93,13 @@ class FluidModel:
         """The plain fluids this model is made of (itself; a blend's constituents)."""
         return [self]
 
-    def mean_cp(self, t1, t2):
-        """Mean cp between two temperatures, (h2 - h1)/(t2 - t1); cp(t1) where they coincide."""
+    def mean_cp(self, t1, t2, h1=None):
+        """Mean cp between two temperatures, (h2 - h1)/(t2 - t1); cp(t1) where they coincide.
+        ``h1``: the enthalpy at ``t1`` where the caller has it already (an iteration on ``t2``)."""
         t1, t2 = np.broadcast_arrays(_t(t1), _t(t2))
         dt = t2 - t1
         close = np.abs(dt) < 1e-9
-        mean = (self.enthalpy(t2) - self.enthalpy(t1)) / np.where(close, 1.0, dt)
+        mean = (self.enthalpy(t2) - (self.enthalpy(t1) if h1 is None else h1)) / np.where(close, 1.0, dt)
         return np.where(close, self.cp(0.5 * (t1 + t2)), mean)
 
     def temperature(self, h, guess=None):
@@ -148,7 +152,7 @@ class ConstantCp(FluidModel):
     def cp(self, t):
         return np.full(np.shape(t), self.value)
 
-    def mean_cp(self, t1, t2):
+    def mean_cp(self, t1, t2, h1=None):
         return np.full(np.broadcast_shapes(np.shape(t1), np.shape(t2)), self.value)
 
     def enthalpy(self, t):
@@ -180,10 +184,22 @@ class PolynomialCp(FluidModel):
         self._h_high_first = np.concatenate([(self.coefficients / powers)[::-1], [0.0]])
 
     def cp(self, t):
-        return np.polyval(self._cp_high_first, _t(t))
+        return _horner(self._cp_high_first, _t(t))
 
     def enthalpy(self, t):
-        return np.polyval(self._h_high_first, _t(t))
+        return _horner(self._h_high_first, _t(t))
+
+
+def _horner(high_first, t):
+    """The polynomial with coefficients ``high_first`` (highest power first) at ``t``: what
+    ``np.polyval`` gives for finite ``t``, to the last digit, without its array of zeros and
+    first multiplication (these run in every pass of every rating)."""
+    if len(high_first) == 1:
+        return np.full(np.shape(t), high_first[0])
+    y = high_first[0] * t + high_first[1]
+    for c in high_first[2:]:
+        y = y * t + c
+    return y
 
 
 class TabulatedCp(FluidModel):
@@ -310,6 +326,10 @@ class Blend(FluidModel):
 
     def conductivity(self, t):
         return self._weighted("conductivity", t)
+
+    @property
+    def conductivity_follows_temperature(self) -> bool:
+        return any(f.conductivity_follows_temperature for f in self.fluids)
 
     def density(self, t):
         values = [f.density(t) for f in self.fluids]

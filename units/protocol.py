@@ -18,6 +18,8 @@ to word messages.
 
 from __future__ import annotations
 
+from contextlib import contextmanager
+from contextvars import ContextVar
 from dataclasses import dataclass, field
 from functools import cached_property
 from typing import Protocol
@@ -26,7 +28,44 @@ import numpy as np
 
 
 __all__ = ["UnitModel", "UnitBase", "Inlets", "takes_enthalpy_state", "splits_by_state", "StackedInlets", "outlet_temperatures_together", "reports_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
-           "HEAT_LOST", "TOTALS", "HEAT_SOURCES"]
+           "HEAT_LOST", "TOTALS", "HEAT_SOURCES", "outlets_within", "outlet_precision",
+           "note_outlets_loosened"]
+
+@dataclass
+class _Precision:
+    kelvin: float = 0.0
+    used: bool = False
+
+
+_OUTLET_PRECISION = ContextVar("hxtrain_outlet_precision", default=_Precision())
+
+
+@contextmanager
+def outlets_within(kelvin):
+    """Within this block a unit that iterates on its own outlets (an exchanger whose cp and U
+    follow its temperatures) may stop once they move less than ``kelvin`` K, where that is
+    looser than its own tolerance: a solver says so when it needs the outlets only that closely
+    at the present iterate (an inexact Newton step, far from the answer). 0: the unit's own
+    tolerance, which every answer is finally computed with. Yields a record whose ``used``
+    says afterwards whether any unit did stop early (see :func:`note_outlets_loosened`)."""
+    record = _Precision(float(kelvin))
+    token = _OUTLET_PRECISION.set(record)
+    try:
+        yield record
+    finally:
+        _OUTLET_PRECISION.reset(token)
+
+
+def outlet_precision() -> float:
+    """The precision (K) :func:`outlets_within` allows here; 0 outside it."""
+    return _OUTLET_PRECISION.get().kelvin
+
+
+def note_outlets_loosened():
+    """A unit says it stopped its own iteration on the looser precision allowed here (so the
+    solver knows that sweep was not exact)."""
+    _OUTLET_PRECISION.get().used = True
+
 
 SEVERITIES = ("limit", "warning", "input")
 """``limit``: a design limit violated (shown prominently); ``warning``: worth a look;

@@ -24,11 +24,27 @@ import numpy as np
 
 from .arrays import as_arrays
 from .pntu_rating import ExchangerRating, carried, rate_exchanger
+from .protocol import note_outlets_loosened, outlet_precision
 from .u_models import Coefficients, FixedCoefficient
 
 OUTLET_TOLERANCE = 1e-12
-"""Passes stop once both outlets move less than this times (1 + |T_hot,in|) in every scenario."""
+"""Passes stop once both outlets move less than this times (1 + |T_hot,in|) in every scenario
+(or less than what a solver allows at its present iterate: :func:`.protocol.outlets_within`)."""
 MAX_PASSES = 100
+
+
+def outlets_settled(change, t_hot_in):
+    """Where the outlets' last change is within the passes' tolerance: :data:`OUTLET_TOLERANCE`
+    times (1 + |T_hot,in|), or the looser precision a solver allows here (noted where that
+    looser precision is what settles some scenario: the result is then not exact)."""
+    own = change <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot_in))
+    allowed = outlet_precision()
+    if allowed <= 0.0:
+        return own
+    settled = own | (change <= allowed)
+    if np.any(settled & ~own):
+        note_outlets_loosened()
+    return settled
 
 
 
@@ -151,6 +167,7 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
     else:
         t_hot_x, t_cold_x = t_hot_in.copy(), t_cold_in.copy()
     coefficients = None
+    h_in = (fluid_hot.enthalpy(t_hot_in), fluid_cold.enthalpy(t_cold_in))  # every pass's mean cp starts here
     frozen = np.zeros(t_hot_in.shape, bool)  # stacked exchangers that stopped at an earlier pass
     stopped = np.zeros(t_hot_in.shape, int)  # and the pass each stopped at
     for passes in range(1, MAX_PASSES + 1):
@@ -160,11 +177,11 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
         else:
             coefficients = coefficients_at(spec, m_hot_x, m_cold_x, t_mean_hot, t_mean_cold, fluid_hot, fluid_cold)
             ua = coefficients.u_service * spec.total_area / 1000.0
-        c_hot = m_hot * fluid_hot.mean_cp(t_hot_in, t_hot_x)
-        c_cold = m_cold * fluid_cold.mean_cp(t_cold_in, t_cold_x)
+        c_hot = m_hot * fluid_hot.mean_cp(t_hot_in, t_hot_x, h_in[0])
+        c_cold = m_cold * fluid_cold.mean_cp(t_cold_in, t_cold_x, h_in[1])
         rating = _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, details and simple)
         change = np.maximum(np.abs(rating.t_hot_out_exchanger - t_hot_x), np.abs(rating.t_cold_out_exchanger - t_cold_x))
-        met = change <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot_in))
+        met = outlets_settled(change, t_hot_in)
         if members > 1 and passes > 1:
             rating, c_hot, c_cold, ua = _keep_frozen(frozen, (rating, c_hot, c_cold, ua), kept)
         stopped = np.where(frozen, stopped, passes)
@@ -178,7 +195,7 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
         rating = _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, True)
     flowing = (carried(c_hot * (1.0 - spec.bypass_hot)) > 0.0, carried(c_cold * (1.0 - spec.bypass_cold)) > 0.0)
     rating = _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot, fluid_cold, spec, simple,
-                                flowing)
+                                flowing, h_in)
     drops = pressure_drops(spec, rating, t_hot_in, t_cold_in, m_hot, m_cold, fluid_hot, fluid_cold) if details else {}
     return ServiceRating(rating, coefficients, ua, drops, stopped if members > 1 else passes)
 
@@ -221,17 +238,18 @@ _OUTLET_FIELDS = ("t_hot_out", "t_cold_out", "t_hot_out_exchanger", "t_cold_out_
 
 
 def _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot, fluid_cold, spec, simple,
-                       flowing):
+                       flowing, h_in):
     """Duty from the hot side's enthalpy change; cold outlet from the cold side's enthalpy;
     bypass re-mixed on enthalpy. Constant-cp, fixed-U exchangers keep the closed-form result.
     ``flowing`` (hot, cold): where each side's heat-capacity rate is above the floor of
-    :func:`rate_exchanger` (elsewhere its zero-flow result stands)."""
+    :func:`rate_exchanger` (elsewhere its zero-flow result stands); ``h_in`` the inlets'
+    enthalpies (hot, cold)."""
     if simple:
         return rating
     hot_flows, cold_flows = flowing
-    enthalpy_drop = fluid_hot.enthalpy(t_hot_in) - fluid_hot.enthalpy(rating.t_hot_out_exchanger)
+    enthalpy_drop = h_in[0] - fluid_hot.enthalpy(rating.t_hot_out_exchanger)
     duty = np.where(hot_flows, m_hot_x * enthalpy_drop, rating.duty)
-    h_cold = fluid_cold.enthalpy(t_cold_in) + duty / np.where(cold_flows, m_cold_x, 1.0)
+    h_cold = h_in[1] + duty / np.where(cold_flows, m_cold_x, 1.0)
     t_cold_x = np.where(cold_flows, fluid_cold.temperature(h_cold, guess=rating.t_cold_out_exchanger),
                         rating.t_cold_out_exchanger)
     t_hot_out = _remix(fluid_hot, t_hot_in, rating.t_hot_out_exchanger, spec.bypass_hot)

@@ -37,7 +37,7 @@ import numpy as np
 
 from .enthalpy_curves import EnthalpyCurve, curve_from_model
 from .properties import Blend, ConstantCp
-from .service_rating import MAX_PASSES, OUTLET_TOLERANCE, coefficient_quantities, coefficients_at
+from .service_rating import MAX_PASSES, coefficient_quantities, coefficients_at, outlets_settled
 from .u_models import FixedCoefficient, ScaledFilms
 from .zone_rating import ZoneRating, rate_by_zones
 from .zone_shells import shell_ends
@@ -165,7 +165,7 @@ def rate_zoned(spec, inlets, cache: dict) -> ZoneService:
 def _rated_with_films(spec, inlets, m_hot_x, m_cold_x, rated, cache):
     """(rating, UA, coefficients) with U from scaled films at the flows through the exchanger and
     each side's mean temperature, (inlet + outlet)/2 of the exchanger proper, substituted until
-    both outlets move less than OUTLET_TOLERANCE·(1 + |T_hot,in|), as the in-service rating does
+    both outlets settle (:func:`.service_rating.outlets_settled`), as the in-service rating does
     (so a side without vapour gets its numbers); stops at once where U did not change. Starts
     from the outlets of the last call of the same batch (kept in ``cache``; speed only)."""
     t_hot, t_cold = inlets.t[:, 0], inlets.t[:, 1]
@@ -182,7 +182,7 @@ def _rated_with_films(spec, inlets, m_hot_x, m_cold_x, rated, cache):
         x = rated(ua)
         moved = np.maximum(np.abs(x.t_hot_out - t_hot_x), np.abs(x.t_cold_out - t_cold_x))
         t_hot_x, t_cold_x, u_before = x.t_hot_out, x.t_cold_out, coefficients.u_service
-        if np.all(moved <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot))):
+        if np.all(outlets_settled(moved, t_hot)):
             break
     cache["outlets"] = (t_hot_x, t_cold_x)
     return x, ua, coefficients
@@ -201,6 +201,10 @@ class _FilmView:
 
     def conductivity(self, t):
         return self.fluid.conductivity(t)
+
+    @property
+    def conductivity_follows_temperature(self):
+        return getattr(self.fluid, "conductivity_follows_temperature", True)
 
     def cp(self, t):
         return np.ones(np.shape(t))

@@ -45,18 +45,23 @@ class BatchResult:
     batch's other parts: scenarios vary values, never the network's structure."""
 
 
-PROCESS_MINIMUM = 5000
+PROCESS_MINIMUM = 4000
 """Fewest scenarios per process worth starting one for: a worker costs a process start and the
 transfer of the case and its results."""
-PROBE = 500
-"""Scenarios solved first, in this process, to measure what one costs before splitting the rest."""
-PROBE_GROWTH = 4
+PROBE = 2000
+"""Scenarios solved first, in this process, to measure what one costs before splitting the rest.
+Large enough that a cheap form's fixed cost (~20 ms for the crude demo's fixed-property form)
+spread over it stays below :data:`WORTH_SPLITTING`, so such a batch pays for one probe only."""
+PROBE_GROWTH = 2
 """The second probe's size in first probes (see :func:`_probe`)."""
 WORTH_SPLITTING = 25e-6
 """Seconds a scenario must take, beyond the fixed cost of a batch, for other processes to pay.
 Measured on a 2-core virtual machine: the crude demo's fixed-property form (about 7-14 µs a
 scenario) ran 0.47 times as fast on two processes as on one, the form as shipped (about
 80-110 µs) 1.6 times as fast. Below this the rest of the batch stays in one process."""
+CLEARLY_WORTH = 4 * WORTH_SPLITTING
+"""A first probe dearer than this a scenario, its fixed cost included, splits at once: the
+fixed cost of a batch (~0.2 s as shipped) cannot account for it, so no second probe is needed."""
 
 _CLUSTER = contextvars.ContextVar("hxtrain_batch_cluster", default=None)
 
@@ -122,13 +127,14 @@ def _probe(case, values, tolerance, max_iterations, metrics):
     fixed-property form, ~0.3 s as shipped) besides its cost per scenario, and a split saves only
     the latter: timed alone, 500 scenarios of the fixed form cost 70 µs each against 14 µs each
     in a batch of 20,000. So the first :data:`PROBE` scenarios are timed, and where even with
-    the fixed cost they cost more than :data:`WORTH_SPLITTING` each, the next
-    :data:`PROBE_GROWTH` times as many are timed too: the difference of the two timings, per
-    extra scenario, is the cost of one (the fixed cost cancels)."""
+    the fixed cost they cost more than :data:`WORTH_SPLITTING` each but less than
+    :data:`CLEARLY_WORTH`, the next :data:`PROBE_GROWTH` times as many are timed too: the
+    difference of the two timings, per extra scenario, is the cost of one (the fixed cost
+    cancels)."""
     start = time.perf_counter()
     first = _solve_batch(case, _take(values, slice(0, PROBE)), tolerance, max_iterations, metrics)
     small = time.perf_counter() - start
-    if small / PROBE < WORTH_SPLITTING:
+    if not WORTH_SPLITTING <= small / PROBE < CLEARLY_WORTH:
         return [first], small / PROBE
     start = time.perf_counter()
     second = _solve_batch(case, _take(values, slice(PROBE, (1 + PROBE_GROWTH) * PROBE)), tolerance, max_iterations,

@@ -15,6 +15,14 @@ Stages, switched for the whole batch when progress stops:
 3. Damped direct substitution, ``x' = x + DAMPING·(g(x) - x)``, when Wegstein stalls or diverges.
 4. The quasi-Newton stage again, as the last resort for strongly coupled blocks.
 
+Far from the answer the sweeps need not be exact: each iteration lets the units stop their own
+iterations (an exchanger's passes on cp(T) and U(T)) at :data:`FORCING` times the present
+residual (:func:`hxtrain.units.protocol.outlets_within`), an inexact Newton method (Dembo,
+Eisenstat & Steihaug 1982, SIAM J. Numer. Anal. 19). A scenario stops iterating only when its
+residual is within the tolerance by more than the precision its sweep was allowed; the last
+iterations are exact, and where the last was not, the answer is swept again exactly before
+convergence is judged and the answer polished.
+
 Every scenario's convergence is tracked on its own; converged scenarios stop moving. After
 convergence one Newton step polishes the answer (kept only if it lowers the residual), so that
 energy balances close to round-off rather than to the tolerance; scenarios already far inside
@@ -26,6 +34,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+
+from hxtrain.units.protocol import outlets_within
 
 Q_MIN, Q_MAX = -5.0, 0.9
 DAMPING = 0.5
@@ -39,6 +49,20 @@ FD_STEP = 1e-2
 """Relative forward-difference step. Large enough that on an affine sweep (constant cp, fixed
 UA) the Jacobian is exact to about 1e-13, so the first step lands on the answer; the curvature
 of a real sweep over a few kelvin only slows the quasi-Newton rate a little."""
+FORCING = 1e-4
+"""The units' own iterations may stop at this times the largest residual of the scenarios still
+iterating (an inexact Newton forcing term; Dembo, Eisenstat & Steihaug 1982). Small enough that
+a forward-difference Jacobian column (step about 3 K at 300 °C) is good to ~1e-4 of the
+residual's scale; below :data:`EXACT_BELOW` K the sweeps are exact."""
+START_PRECISION = 1e-2
+"""K: what the first sweep from a guess may leave in the units' own iterations (a guess is
+typically tens of kelvin off). Where the guess turns out close, the sweep is made again exactly."""
+CLOSE_GUESS = 1e2 * START_PRECISION
+"""K: a first residual below this (a guess from an earlier solution) has the first sweep made
+again at the precision that residual needs, before anything is decided from it."""
+EXACT_BELOW = 1e-7
+"""K: a precision below this asks for exact sweeps (the units' own tolerance, ~3e-10 K at 300 °C):
+the last iterations, whose residuals (below 1e-3 K) decide convergence and polishing, are exact."""
 POLISH_BELOW = 1e-4
 """A converged scenario whose next Newton step would move it less than this fraction of the
 tolerance is not polished (the step is the error estimate: it includes the amplification by a
@@ -70,23 +94,39 @@ class TearResult:
 
 
 class _Counted:
-    """g with a count of its evaluations."""
+    """g with a count of its evaluations, made with the units' own iterations stopped at
+    ``precision`` K (0: exact); ``loose`` says whether some unit did stop early in the last one,
+    ``error`` how far (K) that sweep may then lie from the exact one."""
 
     def __init__(self, evaluate):
-        self.evaluate, self.count = evaluate, 0
+        self.evaluate, self.count, self.precision, self.loose, self.error = evaluate, 0, 0.0, False, 0.0
 
     def __call__(self, x):
         self.count += 1
-        return self.evaluate(x)
+        with outlets_within(self.precision) as record:
+            g = self.evaluate(x)
+        self.loose = record.used  # a unit stopped early: this sweep is good to its precision only
+        self.error = record.kelvin if record.used else 0.0
+        return g
+
+    def within(self, size):
+        """Allow the precision that a largest residual of ``size`` K needs (see :data:`FORCING`)."""
+        wanted = FORCING * float(size)
+        self.precision = wanted if np.isfinite(wanted) and wanted >= EXACT_BELOW else 0.0
 
 
 def converge_tears(evaluate, x0, tolerance, max_iterations) -> TearResult:
     """Solve x = evaluate(x) for x of shape (batch, tears); see the module notes for the method."""
     evaluate = _Counted(evaluate)
     x = np.array(x0, dtype=float)
+    evaluate.precision = START_PRECISION
     g = evaluate(x)
     residual = g - x
-    active = ~_small(residual, tolerance)
+    evaluate.within(np.max(np.abs(residual), initial=0.0))
+    if evaluate.loose and evaluate.precision < FORCING * CLOSE_GUESS:  # a close guess: swept again as closely as it needs
+        g = evaluate(x)
+        residual = g - x
+    active = ~_small(residual, tolerance - evaluate.error)
     stages = ["newton", "wegstein", "damped", "newton"] if x.shape[1] <= NEWTON_FIRST_TEARS else ["wegstein", "damped", "newton"]
     history, methods = [], [stages[0]]
     newton = _QuasiNewton()
@@ -96,6 +136,7 @@ def converge_tears(evaluate, x0, tolerance, max_iterations) -> TearResult:
     while np.any(active) and iteration < max_iterations:
         iteration += 1
         size = np.max(np.abs(residual[active]))
+        evaluate.within(size)
         history.append(np.max(np.abs(residual[active]), axis=0))
         best = min(best, size)
         if len(methods) < len(stages) and _stuck(methods[-1], iteration - stage_start, size, best, history, newton):
@@ -113,7 +154,11 @@ def converge_tears(evaluate, x0, tolerance, max_iterations) -> TearResult:
         x = np.where(active[:, None], x_new, x)
         g = evaluate(x) if g_new is None else np.where(active[:, None], g_new, g)
         residual = g - x
-        active = active & ~_small(residual, tolerance)
+        active = active & ~_small(residual, tolerance - evaluate.error)
+    evaluate.precision = 0.0
+    if evaluate.loose:  # what is decided and kept from here on comes from an exact sweep
+        g = evaluate(x)
+        residual = g - x
     converged = _small(residual, tolerance)
     if np.any(converged) and x.shape[1] <= MAX_POLISH_TEARS:
         x, g, residual = _polish(evaluate, x, g, residual, converged, newton.matrix, POLISH_BELOW * tolerance)
