@@ -224,6 +224,14 @@ def test_console_and_report_show_the_drum(tmp_path, capsys):
     html = report.read_text(encoding="utf-8")
     assert "Flash drums (split at the inlet state" in html
     assert ">D-21</text>" in html  # the drum's tag on its junction in the network picture
+    table = tmp_path / "run.csv"
+    code, _, err = run_in_process(capsys, "run", PREFLASH, "--out", table)
+    assert code == 0, err
+    rows = table.read_text(encoding="utf-8").splitlines()
+    column = rows[0].split(",").index("outer_iterations")
+    drum = next(r.split(",") for r in rows if r.startswith("D-21,"))
+    expected = simulate(PREFLASH).units.loc["D-21", "outer_iterations"]
+    assert drum[column] == str(int(expected)) and expected >= 2  # a count: a whole number, not "5.0"
 
 
 def test_a_drum_with_a_warning_is_ringed_in_the_diagram():

@@ -32,9 +32,6 @@ from .water_steam import saturation_enthalpies, saturation_temperature
 
 __all__ = ["SteamHeater", "isothermal_effectiveness"]
 
-TONNES_PER_HOUR_PER_KG_S = 3.6
-"""t/h in one kg/s."""
-
 
 def isothermal_effectiveness(ntu):
     """ε = 1 − exp(−NTU): an exchanger one of whose sides stays at one temperature (R = 0), any
@@ -126,7 +123,7 @@ class SteamHeater(Heater):
         t_out = report.quantities["t_cold_out"]
         steam = np.where(m > 0.0, report.quantities["duty"], 0.0) / self.latent_heat
         # the steam condenses whole: the condensate leaves at the steam's flow, saturated at t_sat
-        report.quantities.update(steam_flow=steam, steam_t_h=steam * TONNES_PER_HOUR_PER_KG_S,
+        report.quantities.update(steam_flow=steam,
                                  condensate_flow=steam, t_sat=np.full(t.shape, self.t_sat))
         if self.ua is not None:
             approach = self.t_sat - t

@@ -32,7 +32,7 @@ SERVICE_WORDS = {"u_source": "U from", "u_service_w_m2k": "U service", "u_clean_
 ONE_STREAM_WORDS = {"type": "type", "heat_source": "heat source", "outlet_fluid": "outlet fluid", "duty_kw": "duty",
                     "in_c": "inlet",
                     "out_c": "outlet", "ua_kw_per_k": "UA", "effectiveness": "effectiveness",
-                    "steam_saturation_c": "steam at", "steam_kg_s": "steam", "steam_t_h": "steam t/h",
+                    "steam_saturation_c": "steam at", "steam_kg_s": "steam",
                     "condensate_kg_s": "condensate",
                     "findings": "findings"}
 SEPARATOR_WORDS = {"type": "type", "inlet_c": "crude in", "wash_water_in_c": "wash water in", "outlet_c": "outlet",

@@ -56,7 +56,6 @@ UNIT_COLUMNS = {
     "t_sat": "steam_saturation_c",
     "steam_flow": "steam_kg_s",
     "condensate_flow": "condensate_kg_s",
-    "steam_t_h": "steam_t_h",
     "q_in": "inlet_vapour_fraction",
     "vapour_flow": "vapour_kg_s",
     "liquid_flow": "liquid_kg_s",
@@ -71,6 +70,9 @@ SCALE = {"dp_shell": 1e-3, "dp_tube": 1e-3}
 """Report quantities converted for the table (Pa -> kPa)."""
 COUNTS = ("limit_violations", "warnings", "iterations")
 """Summary entries that are counts (whole numbers in every output)."""
+UNIT_COUNTS = ("outer_iterations",)
+"""Units-table columns that are counts: whole numbers in every output, empty for the units
+that have none."""
 
 CAUTION = (
     "Screening estimates. Mechanical limits, safety and operating decisions rest with qualified "
@@ -179,6 +181,9 @@ def tabulate(evaluation: Evaluation, k: int = 0) -> SimulationResult:
     columns = ["type", "group", "u_source", "heat_source", "outlet_fluid", *UNIT_COLUMNS.values(), "findings"]
     units = pd.DataFrame.from_dict(rows, orient="index", columns=columns).dropna(axis=1, how="all")
     units.index.name = "unit"
+    for column in UNIT_COUNTS:
+        if column in units:
+            units[column] = units[column].round().astype("Int64")
     findings_table = pd.DataFrame(findings, columns=["unit", "severity", "kind", "key", "message"])
     findings_table = findings_table.sort_values("severity", key=lambda s: s.map({"limit": 0, "warning": 1}),
                                                 kind="stable").reset_index(drop=True)
