@@ -149,3 +149,54 @@ def _assert_same_report(report, own):
 def getattr_value(unit, varied):
     """The unit's current UA or U (to vary about)."""
     return unit.spec.ua if varied == "ua" else unit.spec.thermal.u
+
+
+def _same_names_other_options():
+    """Exchangers that share an arrangement's name but not its options: crossflow shells joined
+    in parallel flow and in counterflow, a one-tube-pass TEMA E with the tubes in counterflow and
+    in parallel flow; constant cp and fixed UA (so they would stack), a hot stream back through
+    all four (a countercurrent coupling)."""
+    exchangers = {
+        "E-1": {"arrangement": "crossflow", "mixed_side": "none", "shells": 4, "shells_flow": "parallel_flow", "ua": 17.0},
+        "E-2": {"arrangement": "crossflow", "mixed_side": "none", "shells": 4, "ua": 9.0},
+        "E-3": {"arrangement": "tema_e", "tube_passes": 1, "tube_flow": "parallel_flow", "shell_side": "hot", "ua": 12.0},
+        "E-4": {"arrangement": "tema_e", "tube_passes": 1, "tube_flow": "counterflow", "shell_side": "hot", "ua": 12.0},
+    }
+    return {
+        "fluids": {"oil": {"cp": 2.1}},
+        "streams": {"cold": {"fluid": "oil", "flow": 6.0, "supply_temperature": 30.0,
+                             "path": "E-1.cold -> E-2.cold -> E-3.cold -> E-4.cold -> out_cold"},
+                    "hot": {"fluid": "oil", "flow": 5.0, "supply_temperature": 240.0,
+                            "path": "E-4.hot -> E-3.hot -> E-2.hot -> E-1.hot -> out_hot"}},
+        "exchangers": exchangers,
+        "products": {"out_cold": {}, "out_hot": {}},
+    }
+
+
+def test_exchangers_that_differ_only_in_arrangement_options_never_rate_as_one(monkeypatch):
+    """An arrangement compares equal to its name, so a stacking key made of it put E-1 (shells in
+    parallel flow) with E-2 (shells in counterflow) and rated both as E-2: a converged, balanced
+    and wrong answer that changed with the order of the units (found by the order-independence
+    property test). The key now holds the arrangement's options and shells flow: the network
+    solved by tear iteration and by Newton on every segment (stacked calls) equals the
+    structured direct solve (no stacking, no iteration), and the stacked call equals each
+    exchanger rated alone."""
+    from hxtrain.solver import simulate
+    from hxtrain.solver.simulation.linear_limit import direct_solve
+
+    case = case_from_mapping(_same_names_other_options())
+    net = build_network(case)
+    keys = [net.units[t]._stacking_key([net.fluids[s] for s in net.inlets[t]]) for t in ("E-1", "E-2", "E-3", "E-4")]
+    assert len(set(keys)) == 4
+    exact = direct_solve(case, {"streams.cold.flow": np.array([6.0])})[0]
+    by_tears = simulate(case)
+    monkeypatch.setattr(engine, "LARGE_BLOCK_TEARS", 0)  # every cyclic block by Newton on all its segments
+    by_newton = simulate(case)
+    assert "Newton on every segment" in by_newton.tears["accelerators"].iloc[0]
+    for result in (by_tears, by_newton):
+        np.testing.assert_allclose(result.streams["temperature_c"].to_numpy(), exact, rtol=0, atol=1e-9)
+    names = ["E-1", "E-2", "E-3", "E-4"]
+    inlets = _perturbed_inlets(net, np.array([exact, exact]), names, 2, np.random.default_rng(3))
+    together = outlet_temperatures_together(copy.deepcopy([net.units[n] for n in names]), inlets)
+    alone = one_by_one(copy.deepcopy([net.units[n] for n in names]), inlets)
+    assert np.max(np.abs(together - alone)) <= IDENTICAL

@@ -264,6 +264,14 @@ class Arranged(str):
         return str(self)
 
     @property
+    def identity(self) -> tuple:
+        """Everything that tells two arrangements apart: the name, the options given and how
+        shells are joined. (The value itself compares equal to its name alone, so that code
+        asking "is this a TEMA E?" may compare with a name; a dictionary key or an equality
+        that must tell two arrangements apart takes this instead.)"""
+        return str(self), self.given, self.shells_flow
+
+    @property
     def line(self) -> Arrangement:
         return ARRANGEMENTS[self.name]
 

@@ -8,6 +8,7 @@ import numpy as np
 
 from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, PropertyNeed, UnitReport, UnitBase, check, \
     design_temperature_findings
+from .arrangements import arranged
 from .pntu_rating import ExchangerRating
 from .u_models import Coefficients, FixedCoefficient, GeometryFilms
 from .back_calculation import back_calculate
@@ -256,7 +257,7 @@ class Exchanger(UnitBase):
         if not spec.u_is_fixed or rated_by_zones(fluids):
             return None
         bypassed = (_anywhere_nonzero(spec.bypass_hot), _anywhere_nonzero(spec.bypass_cold))
-        return (spec.arrangement, spec.shells, spec.shells_in_parallel, spec.tube_passes, spec.shell_side,
+        return (arranged(spec.arrangement).identity, spec.shells, spec.shells_in_parallel, spec.tube_passes, spec.shell_side,
                 spec.mixed_side, spec.ua is None, bypassed, stacking_key(fluids[0]), stacking_key(fluids[1]))
 
     @staticmethod
