@@ -438,3 +438,18 @@ def test_a_run_over_a_batch_gives_each_scenario_its_one_by_one_temperatures(monk
     alone = np.concatenate([evaluate(case, {"streams.crude.flow": [f]}).temperature for f in flows])
     assert together.success.all() and np.isfinite(alone).all()
     assert np.max(np.abs(together.temperature - alone)) <= 2 * case.settings.tolerance
+
+
+def test_the_ladder_exponent_counts_a_shape_built_of_whole_trains():
+    """A shape asked for 1,000 units may build 923 (whole trains): it counts among the sizes the
+    exponent is fitted over; with fewer than two sizes the text says so instead of printing nan."""
+    from hxtrain.solver.simulation.size_benchmark import STAGES, exponent, ladder_text
+
+    rows = [{"shape": "side_by_side", "units": 923, "total": 0.5}, {"shape": "side_by_side", "units": 9282, "total": 5.0},
+            {"shape": "chained", "units": 993, "total": 0.4}]
+    assert exponent(rows, "side_by_side") == pytest.approx(np.log(10.0) / np.log(9282 / 923))
+    assert np.isnan(exponent(rows, "chained"))
+    timed = [dict(r, times=dict.fromkeys(STAGES, 0.0), peak=1.0, tears=1, tears_at_least=1, iterations=1,
+                  converged=True) for r in rows]
+    text = ladder_text(timed, "varying")
+    assert "chained n/a (fewer than two sizes)" in text and "nan" not in text
