@@ -164,10 +164,11 @@ class FlashDrum(UnitBase):
 
     def report(self, inlets):
         t_in, m = inlets.t[:, 0], inlets.m[:, 0]
-        q_in = self.split_from_state(inlets)
+        curve, h_in = self._curve(inlets), inlets.enthalpy(0)
+        q_in = curve.vapour_fraction(h_in)  # split_from_state, with h_in at hand
         q = np.broadcast_to(self.split, t_in.shape)
         t_out = self._outlet(inlets)
-        t_flash = self._curve(inlets).temperature(inlets.enthalpy(0), guess=t_in)  # T_in on the feed's own curve
+        t_flash = curve.temperature(h_in, guess=t_in)  # T_in on the feed's own curve
         arrives = "enters at" if self.feed_curve is None else "flashes, by its curve, at"
         findings = [check("drum_curves_inconsistent", "warning",
                           (m > 0.0) & (np.abs(t_out - t_flash) > CONSISTENT_WITHIN), f"{self.key}.vapour.fluid",

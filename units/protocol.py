@@ -31,6 +31,7 @@ __all__ = ["UnitModel", "UnitBase", "Inlets", "takes_enthalpy_state", "splits_by
            "HEAT_LOST", "TOTALS", "HEAT_SOURCES", "outlets_within", "outlet_precision",
            "note_outlets_loosened"]
 
+
 @dataclass
 class _Precision:
     kelvin: float = 0.0
@@ -63,8 +64,11 @@ def outlet_precision() -> float:
 
 def note_outlets_loosened():
     """A unit says it stopped its own iteration on the looser precision allowed here (so the
-    solver knows that sweep was not exact)."""
-    _OUTLET_PRECISION.get().used = True
+    solver knows that sweep was not exact). Outside :func:`outlets_within` nothing is looser
+    than the unit's own tolerance, and nothing is noted."""
+    record = _OUTLET_PRECISION.get()
+    if record.kelvin > 0.0:
+        record.used = True
 
 
 SEVERITIES = ("limit", "warning", "input")

@@ -75,7 +75,7 @@ class SideFilm:
         if mu is not None:
             t_ref = self.reference_temperature
             k_ref = fluid.conductivity(t_ref)
-            k = fluid.conductivity(temperature) if getattr(fluid, "conductivity_follows_temperature", True) else k_ref
+            k = fluid.conductivity(temperature) if fluid.conductivity_follows_temperature else k_ref
             ratio = films.property_correction(
                 self.exponent, mu, fluid.viscosity(t_ref), fluid.cp(temperature), fluid.cp(t_ref),
                 1.0 if k is None else k, 1.0 if k_ref is None else k_ref)

@@ -204,7 +204,7 @@ class _FilmView:
 
     @property
     def conductivity_follows_temperature(self):
-        return getattr(self.fluid, "conductivity_follows_temperature", True)
+        return self.fluid.conductivity_follows_temperature
 
     def cp(self, t):
         return np.ones(np.shape(t))

@@ -95,19 +95,23 @@ class TearResult:
 
 class _Counted:
     """g with a count of its evaluations, made with the units' own iterations stopped at
-    ``precision`` K (0: exact); ``loose`` says whether some unit did stop early in the last one,
-    ``error`` how far (K) that sweep may then lie from the exact one."""
+    ``precision`` K (0: exact); ``error``: how far (K) the last sweep may lie from the exact one
+    (0 unless some unit did stop early)."""
 
     def __init__(self, evaluate):
-        self.evaluate, self.count, self.precision, self.loose, self.error = evaluate, 0, 0.0, False, 0.0
+        self.evaluate, self.count, self.precision, self.error = evaluate, 0, 0.0, 0.0
 
     def __call__(self, x):
         self.count += 1
         with outlets_within(self.precision) as record:
             g = self.evaluate(x)
-        self.loose = record.used  # a unit stopped early: this sweep is good to its precision only
-        self.error = record.kelvin if record.used else 0.0
+        self.error = record.kelvin if record.used else 0.0  # a unit stopped early: good to its precision only
         return g
+
+    @property
+    def loose(self) -> bool:
+        """Whether the last sweep was not exact."""
+        return self.error > 0.0
 
     def within(self, size):
         """Allow the precision that a largest residual of ``size`` K needs (see :data:`FORCING`)."""

@@ -207,13 +207,12 @@ def _solved(net, plan, part, previous, tolerance, max_iterations):
         return solution
     position = {id(block): k for k, block in enumerate(plan)}
 
-    def first(outcome):  # a run of blocks (block_runs) stands where its first block stood
-        return position[id((outcome.block.parts or (outcome.block,))[0])]
+    def places(outcome):  # a run of blocks (block_runs) stands where its blocks stood
+        return [position[id(b)] for b in (outcome.block.parts or (outcome.block,))]
 
     again = {position[id(block)] for block in part}
-    kept = [o for o in previous.blocks if not again.intersection(
-        position[id(b)] for b in (o.block.parts or (o.block,)))]
-    solution.blocks = sorted(kept + list(solution.blocks), key=first)
+    kept = [o for o in previous.blocks if again.isdisjoint(places(o))]
+    solution.blocks = sorted(kept + list(solution.blocks), key=lambda outcome: places(outcome)[0])
     solution.converged = solution.converged & previous.converged
     return solution
 
