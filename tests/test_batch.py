@@ -128,7 +128,7 @@ def test_a_batch_split_over_processes_equals_one_batch(start, monkeypatch):
     # small probes and parts, and splitting always judged worth it, so 30 scenarios really split
     monkeypatch.setattr(batch_module, "PROBE", 4)
     monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 4)  # probes of 4 and 16, then two parts of 5
-    monkeypatch.setattr(batch_module, "WORTH_SPLITTING", 0.0)
+    monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
     if start == "spawn":
         monkeypatch.setattr(batch_module, "_process_context", lambda: multiprocessing.get_context("spawn"))
     started = []

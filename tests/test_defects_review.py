@@ -283,7 +283,7 @@ from concurrent.futures import ProcessPoolExecutor
 signal.signal(signal.SIGINT, signal.default_int_handler)  # as a terminal gives it
 import hxtrain.solver.cli.main as cli
 import hxtrain.solver.simulation.batch as batch
-batch.WORTH_SPLITTING = 0.0  # split whatever the probe measures, so that the workers are there to interrupt
+batch.PROCESS_COST = 0.0  # split whatever the probe measures, so that the workers are there to interrupt
 submit = ProcessPoolExecutor.map
 
 

@@ -378,6 +378,32 @@ def test_cp_of_temperature_closes_the_exchangers_own_enthalpy_balance():
         assert abs(float(fixed.t_cold_out) - float(x.t_cold_out)) > 1.0
 
 
+def test_the_passes_stop_by_the_contraction_estimate_within_the_tolerance(monkeypatch):
+    """The passes stop once the contraction bound c/(1-c) x change (c from the last two changes,
+    times a safety factor) is within the tolerance: one pass sooner than the change alone on a
+    fast-contracting exchanger, and still within the tolerance of the fixed point (found here
+    with a tolerance 1000 times tighter and the estimate off)."""
+    from hxtrain.units import service_rating
+
+    hot, cold = petroleum_fraction(0.90, 11.7), PolynomialCp([1.75, 0.0042, 2.0e-6])
+    thermal = ScaledFilms(SideFilm(1200.0, 30.0, 0.6), SideFilm(900.0, 40.0, 0.8), 3e-4, 5e-4,
+                          float(resistances.wall_resistance(DO, DI, K_WALL)), DO / DI)
+    spec = ExchangerSpec("tema_e", thermal=thermal, area_per_shell=150.0, shells=2)
+    t_hot = np.linspace(250.0, 340.0, 50)
+    args = (t_hot, 60.0, 30.0, 40.0, hot, cold)
+    estimated = rate_in_service(spec, *args)
+    with monkeypatch.context() as m:
+        m.setattr(service_rating, "CONTRACTION_LIMIT", 0.0)  # the change alone
+        by_change = rate_in_service(spec, *args)
+        m.setattr(service_rating, "OUTLET_TOLERANCE", service_rating.OUTLET_TOLERANCE * 1e-3)
+        tight = rate_in_service(spec, *args)
+    assert estimated.passes < by_change.passes < tight.passes
+    allowed = service_rating.OUTLET_TOLERANCE * (1.0 + t_hot)
+    for result in (estimated, by_change):
+        for side in ("t_hot_out", "t_cold_out"):
+            assert np.all(np.abs(getattr(result.rating, side) - getattr(tight.rating, side)) <= allowed)
+
+
 def test_cp_of_temperature_in_a_case_closes_on_enthalpy():
     result = simulate(case_from_mapping(two_stream_case(film_exchanger(), t_hot=330.0, t_cold=40.0)))
     row = e1(result)

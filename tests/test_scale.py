@@ -11,7 +11,6 @@ import itertools
 
 import networkx as nx
 import numpy as np
-import pandas as pd
 import pytest
 
 from hxtrain.network import build_network, case_from_mapping, load_case
@@ -222,7 +221,7 @@ def test_a_cheap_batch_stays_in_one_process_and_a_costly_one_splits(monkeypatch)
     def refuse(*args, **kwargs):
         raise AssertionError("a process pool was started for a cheap batch")
 
-    monkeypatch.setattr(batch_module, "WORTH_SPLITTING", 1e9)
+    monkeypatch.setattr(batch_module, "PROCESS_COST", 1e9)
     with monkeypatch.context() as m:
         m.setattr(batch_module, "ProcessPoolExecutor", refuse)
         cheap = simulate_batch(path, values, workers=2)
@@ -233,7 +232,7 @@ def test_a_cheap_batch_stays_in_one_process_and_a_costly_one_splits(monkeypatch)
             started.append(workers)
             super().__init__(workers, **kwargs)
 
-    monkeypatch.setattr(batch_module, "WORTH_SPLITTING", 0.0)
+    monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
     monkeypatch.setattr(batch_module, "ProcessPoolExecutor", Counted)
     split = simulate_batch(path, values, workers=3)
     assert started == [2]  # a scenario dearer than CLEARLY_WORTH: no second probe; 36 left, one part here
@@ -250,7 +249,7 @@ def test_a_batch_finds_its_calculation_order_once_for_all_its_parts(monkeypatch)
 
     monkeypatch.setattr(batch_module, "PROBE", 4)
     monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 8)
-    monkeypatch.setattr(batch_module, "WORTH_SPLITTING", 0.0)
+    monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
     path = demo_case_path("crude_preheat")
     values = {"streams.crude.flow": np.linspace(70.0, 110.0, 40)}
     whole = simulate_batch(path, values)
@@ -266,30 +265,6 @@ def test_a_batch_finds_its_calculation_order_once_for_all_its_parts(monkeypatch)
     assert len(searches) == 1 and split.processes == 2
     assert [b.tears for b in split.plan] == [b.tears for b in whole.plan]
     np.testing.assert_allclose(split.temperature, whole.temperature, rtol=0, atol=1e-9)
-
-
-def test_the_probe_times_a_scenario_without_the_fixed_cost_of_a_batch(monkeypatch):
-    """A batch costs a fixed time besides its time per scenario; only the latter is split, so
-    the probe must not take the fixed cost for a cost per scenario (on a clock the fake solve
-    advances: 30 ms a batch, 14 µs a scenario, like the crude demo's fixed-property form)."""
-    clock = [0.0]
-
-    class Clock:
-        @staticmethod
-        def perf_counter():
-            return clock[0]
-
-    def solve(case, values, tolerance, max_iterations, metrics=False, plan=None):
-        count = len(next(iter(values.values())))
-        clock[0] += 0.030 + 14e-6 * count
-        return batch_module.BatchResult(pd.DataFrame({"n": np.arange(count)}), 1, np.zeros((count, 1)))
-
-    monkeypatch.setattr(batch_module, "time", Clock)
-    monkeypatch.setattr(batch_module, "_solve_batch", solve)
-    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 20_000)}
-    probes, each = batch_module._probe(None, values, None, None, False)
-    assert [len(r.table) for r in probes] == [batch_module.PROBE, batch_module.PROBE_GROWTH * batch_module.PROBE]
-    assert each == pytest.approx(14e-6, rel=1e-6)
 
 
 def test_ladder_sizes_are_as_asked():

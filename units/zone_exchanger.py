@@ -172,7 +172,7 @@ def _rated_with_films(spec, inlets, m_hot_x, m_cold_x, rated, cache):
     fluids = tuple(_FilmView(f) if isinstance(f, EnthalpyCurve) and f.holds_vapour else f for f in inlets.fluids)
     last = cache.get("outlets")
     t_hot_x, t_cold_x = last if last is not None and last[0].shape == t_hot.shape else (t_hot, t_cold)
-    u_before = None
+    u_before = moved_before = None
     for _ in range(MAX_PASSES):
         coefficients = coefficients_at(spec, m_hot_x, m_cold_x, 0.5 * (t_hot + t_hot_x), 0.5 * (t_cold + t_cold_x),
                                        *fluids)
@@ -182,8 +182,9 @@ def _rated_with_films(spec, inlets, m_hot_x, m_cold_x, rated, cache):
         x = rated(ua)
         moved = np.maximum(np.abs(x.t_hot_out - t_hot_x), np.abs(x.t_cold_out - t_cold_x))
         t_hot_x, t_cold_x, u_before = x.t_hot_out, x.t_cold_out, coefficients.u_service
-        if np.all(outlets_settled(moved, t_hot)):
+        if np.all(outlets_settled(moved, t_hot, moved_before)):
             break
+        moved_before = moved
     cache["outlets"] = (t_hot_x, t_cold_x)
     return x, ua, coefficients
 

@@ -22,6 +22,7 @@ import pandas as pd
 
 from hxtrain.network.scenarios import scenario_count
 
+from hxtrain.solver.simulation import part_transfer
 from hxtrain.solver.simulation.evaluation import NOT_CONVERGED, NOT_VALID, STATUS_NAMES, SUCCESS, as_case, evaluate
 from hxtrain.solver.simulation.results import scenario_summary
 
@@ -46,22 +47,31 @@ class BatchResult:
 
 
 PROCESS_MINIMUM = 4000
-"""Fewest scenarios per process worth starting one for: a worker costs a process start and the
-transfer of the case and its results."""
+"""Fewest scenarios per process worth starting one for."""
+PROCESS_COST = 0.05
+"""Seconds a worker process costs beyond its share of the solving: its start (a fork, 20-23 ms
+measured on a 2-core virtual machine) and the return of its part (through shared memory,
+:mod:`.part_transfer`: ~10 ms per 50,000 crude-demo scenarios), with a margin of about 1.5.
+A batch is split only where the time the other processes save is larger (:func:`_pays`)."""
+SHARED_SPEED = 0.75
+"""How fast a process solves while the others solve too, against alone: measured 0.7-1.0 on a
+2-core virtual machine (two processes solving 10,000 crude-demo scenarios at once each took
+1.0-1.45 times as long as one alone: the cores share the host's memory bandwidth)."""
 PROBE = 2000
-"""Scenarios solved first, in this process, to measure what one costs before splitting the rest.
-Large enough that a cheap form's fixed cost (~20 ms for the crude demo's fixed-property form)
-spread over it stays below :data:`WORTH_SPLITTING`, so such a batch pays for one probe only."""
+"""Scenarios solved first, in this process, to measure what one costs before splitting the rest."""
 PROBE_GROWTH = 2
 """The second probe's size in first probes (see :func:`_probe`)."""
-WORTH_SPLITTING = 25e-6
-"""Seconds a scenario must take, beyond the fixed cost of a batch, for other processes to pay.
-Measured on a 2-core virtual machine: the crude demo's fixed-property form (about 7-14 µs a
-scenario) ran 0.47 times as fast on two processes as on one, the form as shipped (about
-80-110 µs) 1.6 times as fast. Below this the rest of the batch stays in one process."""
-CLEARLY_WORTH = 4 * WORTH_SPLITTING
-"""A first probe dearer than this a scenario, its fixed cost included, splits at once: the
-fixed cost of a batch (~0.2 s as shipped) cannot account for it, so no second probe is needed."""
+SECOND_PROBE_WORTH = 3.0
+"""A second probe is made only where the first says a split could save more than this many times
+what the processes cost: it costs a batch's fixed cost itself, and the first probe's cost per
+scenario, which includes the fixed cost, overstates the saving (about twice for the crude demo's
+fixed-property form in a batch of 20,000)."""
+CLEARLY_WORTH = 50e-6
+"""Seconds: a first probe dearer than this a scenario, its fixed cost included, is taken at its
+word (no second probe). The crude demo's fixed cost is ~0.09 s as shipped (first probe ~90 µs a
+scenario, 37 µs without the fixed cost) and ~0.02 s in the fixed-property form (~15 µs and
+6.5 µs); a second probe costs that fixed cost again, which as shipped ate the gain of a split
+of 20,000 scenarios."""
 
 _CLUSTER = contextvars.ContextVar("hxtrain_batch_cluster", default=None)
 
@@ -86,11 +96,11 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
     mapping or a Case): the evaluation's view as one row per scenario.
 
     ``workers`` > 1 may split the scenarios over that many processes: the first few thousand
-    are solved here, timed (:func:`_probe`); only where a scenario takes longer than
-    :data:`WORTH_SPLITTING` is the rest cut into contiguous parts (at least
+    are solved here, timed (:func:`_probe`); only where the time other processes would save
+    exceeds what they cost (:func:`_pays`) is the rest cut into contiguous parts (at least
     :data:`PROCESS_MINIMUM` scenarios a part), this process solving one of them while worker
-    processes solve the others. Inside :func:`batches_on` the parts go to that cluster instead.
-    Every scenario converges on its own either way; ``iterations`` is the largest over the
+    processes solve the others and return their floats through shared memory. Inside
+    :func:`batches_on` the parts go to that cluster instead. Every scenario converges on its own either way; ``iterations`` is the largest over the
     parts. ``metrics`` adds a column per named result of every unit (``TAG.duty``,
     ``TAG.cold_out``, ...: what a study may target), NaN where a scenario is not a success."""
     case = as_case(case)
@@ -105,37 +115,65 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
     if int(workers) <= 1 or scenarios < (1 + PROBE_GROWTH) * PROBE + 2 * PROCESS_MINIMUM:
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
-    first, each = _probe(case, values, tolerance, max_iterations, metrics)
+    parts = max(1, min(int(workers), (scenarios - PROBE) // PROCESS_MINIMUM))
+    first, each = _probe(case, values, tolerance, max_iterations, metrics,
+                         lambda cost: _pays(cost / SECOND_PROBE_WORTH, scenarios - PROBE, parts))
     probed = sum(len(r.table) for r in first)
     rest = _take(values, slice(probed, scenarios))
     parts = max(1, min(int(workers), (scenarios - probed) // PROCESS_MINIMUM))
     plan = first[0].plan
-    if each < WORTH_SPLITTING or parts == 1:
+    if parts == 1 or each is None or not _pays(each, scenarios - probed, parts):
         return _joined([*first, _solve_batch(case, rest, tolerance, max_iterations, metrics, plan)])
-    jobs = _pieces(rest, scenarios - probed, parts)
-    with ProcessPoolExecutor(parts - 1, mp_context=_process_context()) as pool:
-        others = pool.map(_solve_batch, [case] * (parts - 1), jobs[1:], [tolerance] * (parts - 1),
-                          [max_iterations] * (parts - 1), [metrics] * (parts - 1), [plan] * (parts - 1))
-        mine = _solve_batch(case, jobs[0], tolerance, max_iterations, metrics, plan)  # this process takes a part
-        results = [*first, mine, *others]
-    return _joined(results, processes=parts)
+    return _joined([*first, *_split(case, _pieces(rest, scenarios - probed, parts), tolerance, max_iterations,
+                                    metrics, plan, first[0])], processes=parts)
 
 
-def _probe(case, values, tolerance, max_iterations, metrics):
-    """(the probes' results, the seconds one more scenario costs). Every batch has a fixed cost
-    (order, tears, each unit's per-call overhead in every sweep: ~0.03 s for the crude demo's
-    fixed-property form, ~0.3 s as shipped) besides its cost per scenario, and a split saves only
-    the latter: timed alone, 500 scenarios of the fixed form cost 70 µs each against 14 µs each
-    in a batch of 20,000. So the first :data:`PROBE` scenarios are timed, and where even with
-    the fixed cost they cost more than :data:`WORTH_SPLITTING` each but less than
-    :data:`CLEARLY_WORTH`, the next :data:`PROBE_GROWTH` times as many are timed too: the
-    difference of the two timings, per extra scenario, is the cost of one (the fixed cost
-    cancels)."""
+def _pays(each, scenarios, parts) -> bool:
+    """Whether ``parts`` processes solve ``scenarios`` scenarios of ``each`` seconds sooner than
+    this process alone: the time saved, each x scenarios x (1 - 1/(parts x :data:`SHARED_SPEED`)),
+    beyond :data:`PROCESS_COST` for every other process."""
+    saved = each * scenarios * (1.0 - 1.0 / (parts * SHARED_SPEED))
+    return parts > 1 and saved > PROCESS_COST * (parts - 1)
+
+
+def _split(case, jobs, tolerance, max_iterations, metrics, plan, probe):
+    """The results of ``jobs`` (value sets), the first solved in this process, the others by
+    worker processes that return their floats through shared memory sized after ``probe``."""
+    sizes = [scenario_count(job) for job in jobs[1:]]
+    with part_transfer.reserve(sizes, probe.temperature.shape[1], part_transfer.float_columns(probe.table)) as (
+            blocks, shared):
+        others = len(jobs) - 1
+        with ProcessPoolExecutor(others, mp_context=_process_context()) as pool:
+            sent = pool.map(_solve_part, [case] * others, jobs[1:], [tolerance] * others, [max_iterations] * others,
+                            [metrics] * others, [plan] * others, shared)
+            mine = _solve_batch(case, jobs[0], tolerance, max_iterations, metrics, plan)  # this process takes a part
+            return [mine, *(part_transfer.collect(block, part, piece, BatchResult)
+                            for block, part, piece in zip(blocks, shared, sent))]
+
+
+def _solve_part(case, values, tolerance, max_iterations, metrics, plan, shared):
+    """A worker process's part: solved, its floats written to the shared block."""
+    return part_transfer.solve_into(shared, _solve_batch(case, values, tolerance, max_iterations, metrics, plan))
+
+
+def _probe(case, values, tolerance, max_iterations, metrics, pays):
+    """(the probes' results, the seconds one more scenario costs, or None where a split would
+    not pay well even at the first probe's cost per scenario). Every batch has a fixed cost
+    (order, tears, each unit's per-call overhead in every sweep: ~0.02 s for the crude demo's
+    fixed-property form, ~0.09 s as shipped) besides its cost per scenario, and a split saves only
+    the latter: timed alone, 2,000 scenarios of the fixed form cost 15 µs each against 6.5 µs
+    each in a batch of 20,000. So the first :data:`PROBE` scenarios are timed, and where even with
+    the fixed cost a split at that cost would not pay well (``pays``), or they cost more than
+    :data:`CLEARLY_WORTH` each, that is the answer; else the next :data:`PROBE_GROWTH` times as
+    many are timed too: the difference of the two timings, per extra scenario, is the cost of
+    one (the fixed cost cancels)."""
     start = time.perf_counter()
     first = _solve_batch(case, _take(values, slice(0, PROBE)), tolerance, max_iterations, metrics)
     small = time.perf_counter() - start
-    if not WORTH_SPLITTING <= small / PROBE < CLEARLY_WORTH:
+    if small / PROBE >= CLEARLY_WORTH:
         return [first], small / PROBE
+    if not pays(small / PROBE):
+        return [first], None
     start = time.perf_counter()
     second = _solve_batch(case, _take(values, slice(PROBE, (1 + PROBE_GROWTH) * PROBE)), tolerance, max_iterations,
                           metrics, first.plan)

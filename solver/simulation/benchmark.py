@@ -78,18 +78,16 @@ def machine() -> str:
             f"numpy {np.__version__}; {platform.system()} {platform.release()}")
 
 
-def time_case(case, label, scenarios, loop, workers):
-    """Rates for one case: one batch in this process, the batch over ``workers`` processes, and
-    ``loop`` single solves (picked evenly over the scenarios)."""
+def time_case(case, label, scenarios, loop, workers, repeats=3):
+    """Rates for one case: one batch in this process and the batch allowed ``workers``
+    processes, the best of ``repeats`` runs each, alternated (:func:`_alternated`); and ``loop``
+    single solves (picked evenly over the scenarios)."""
     stream = next(iter(case.streams))
     path = f"streams.{stream}.flow"
     flows = case.streams[stream]["flow"] * np.linspace(0.7, 1.15, scenarios)
-    start = time.perf_counter()
-    batch = simulate_batch(case, {path: flows})
-    one_process = time.perf_counter() - start
-    start = time.perf_counter()
-    split = simulate_batch(case, {path: flows}, workers=workers)
-    several = time.perf_counter() - start
+    (one_process, batch), (several, split) = _alternated(
+        [lambda: simulate_batch(case, {path: flows}), lambda: simulate_batch(case, {path: flows}, workers=workers)],
+        repeats)
     worst = float(np.nanmax(np.abs(split.temperature - batch.temperature)))
     start = time.perf_counter()
     for i in np.linspace(0, scenarios - 1, loop).astype(int):
@@ -106,14 +104,17 @@ def time_case(case, label, scenarios, loop, workers):
             "iterations": batch.iterations}
 
 
-def _best(function, repeats):
-    """(the shortest of ``repeats`` timings, the last result): the least disturbed run."""
-    best, result = float("inf"), None
+def _alternated(functions, repeats):
+    """[(the shortest of ``repeats`` timings, the result of that run)] for each of ``functions``,
+    run in turn ``repeats`` times: on a shared machine a run is disturbed now and then, and
+    alternating lets the disturbances fall on both sides alike."""
+    best = [(float("inf"), None) for _ in functions]
     for _ in range(repeats):
-        start = time.perf_counter()
-        result = function()
-        best = min(best, time.perf_counter() - start)
-    return best, result
+        for k, function in enumerate(functions):
+            start = time.perf_counter()
+            result = function()
+            best[k] = min(best[k], (time.perf_counter() - start, result), key=lambda pair: pair[0])
+    return best
 
 
 def linear_limit(case, scenarios, repeats=3) -> dict:
@@ -122,11 +123,8 @@ def linear_limit(case, scenarios, repeats=3) -> dict:
     alternated; and the largest temperature difference between them."""
     stream = next(iter(case.streams))
     values = {f"streams.{stream}.flow": case.streams[stream]["flow"] * np.linspace(0.7, 1.15, scenarios)}
-    batch_best, direct_best = float("inf"), float("inf")
-    for _ in range(repeats):
-        batch_seconds, batch = _best(lambda: simulate_batch(case, values), 1)
-        direct_seconds, direct = _best(lambda: direct_solve(case, values), 1)
-        batch_best, direct_best = min(batch_best, batch_seconds), min(direct_best, direct_seconds)
+    (batch_best, batch), (direct_best, direct) = _alternated(
+        [lambda: simulate_batch(case, values), lambda: direct_solve(case, values)], repeats)
     return {"scenarios": scenarios, "batch_seconds": batch_best, "direct_seconds": direct_best,
             "ratio": batch_best / direct_best, "largest_difference_k": float(np.nanmax(np.abs(direct - batch.temperature)))}
 
@@ -141,8 +139,9 @@ def startup(repeats=5) -> dict:
     commands = {"python -c pass": [sys.executable, "-c", "pass"],
                 "hxtrain --help": [sys.executable, "-m", "hxtrain.solver.cli.main", "--help"],
                 "hxtrain check (crude demo)": [sys.executable, "-m", "hxtrain.solver.cli.main", "check", demo]}
-    return {label: _best(lambda c=command: subprocess.run(c, capture_output=True, check=True), repeats)[0]
-            for label, command in commands.items()}
+    runs = _alternated([lambda c=command: subprocess.run(c, capture_output=True, check=True)
+                        for command in commands.values()], repeats)
+    return {label: seconds for label, (seconds, _) in zip(commands, runs)}
 
 
 def run_benchmark(scenarios=20000, loop=5, workers=None, case_name="crude_preheat"):
@@ -169,7 +168,8 @@ def _split_label(processes, asked):
 def benchmark_text(figures) -> str:
     f = figures
     lines = [f"hxtrain benchmark: {f['case']} demo ({f['exchangers']} exchangers), crude flow 70-115 %, "
-             f"{f['scenarios']:,} scenarios a batch, {f['loop_solves']} single solves"]
+             f"{f['scenarios']:,} scenarios a batch (the batches: best of 3 runs, alternated), "
+             f"{f['loop_solves']} single solves"]
     for row in f["rows"]:
         split = _split_label(row["processes"], f["workers"])
         lines += [
