@@ -10,7 +10,7 @@ import math
 import numpy as np
 import pandas as pd
 
-from .display_units import Display
+from .display_units import WORDED_COLUMNS, Display
 
 WIDTH = 120
 """The width the console report keeps to unless asked for everything (``--wide``)."""
@@ -64,6 +64,8 @@ def cells(frame: pd.DataFrame, display: Display, words: dict | None = None, digi
             values.dtype == object and values.map(_number_or_missing).all())  # numbers held as objects
         if column is not None and numeric:
             values = column.convert(values)
+        elif name in WORDED_COLUMNS:
+            values = values.map(display.message)
         places = digits.get(name, column.digits if column is not None else DIMENSIONLESS_DIGITS)
         headings.append(words.get(name, column.stem.replace("_", " ") if column else str(name).replace("_", " ")))
         units.append(column.label if column is not None and numeric else "")  # a unit only over converted numbers

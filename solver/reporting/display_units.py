@@ -76,6 +76,9 @@ with ^2, ^3 and * typeset."""
 MESSAGE_UNITS = {"°C": "temperature", "K": "temperature_difference", "kW": "duty", "kg/s": "mass_flow",
                  "kPa": "pressure_drop"}
 """Units the units' messages write their numbers in ("reaches 281.1 °C"), and their quantity."""
+WORDED_COLUMNS = frozenset({"message", "heat_source"})
+"""Columns of words that may carry numbers with units (a finding's message; a steam heater's
+"steam at 1000 kPa (absolute)"): shown through :meth:`Display.message`."""
 _MESSAGE_NUMBER = re.compile(r"(?<![\w.])(-?\d[\d,]*(?:\.\d+)?) (°C|K|kW|kg/s|kPa)(?![\w/])")
 
 
@@ -198,8 +201,9 @@ class Display:
             frame.isetitem(position, column.convert(frame.iloc[:, position], name in differences))
             renamed[name] = column.name
         frame = frame.rename(columns=renamed)
-        if "message" in frame.columns and (self.system != "si" or self.overrides):
-            frame["message"] = frame["message"].map(self.message)
+        if self.system != "si" or self.overrides:
+            for words in WORDED_COLUMNS.intersection(frame.columns):
+                frame[words] = frame[words].map(self.message)
         if lists_quantities(frame):
             frame = self.rows(frame, differences)
         return frame
