@@ -40,7 +40,10 @@ MAX_COEFFICIENTS = 10
 def read_fluid(f: Fields) -> props.FluidModel:
     model = _read_model(f)
     model.name = f.path[-1]
-    range_key = "valid_range" if f.has("valid_range") else next((k for k in CURVE_FORMS if f.has(k)), "cp")
+    # a message about the data range names the key the range comes from: the range given, or the
+    # form the fluid is given in
+    forms = ("petroleum",) + CURVE_FORMS
+    range_key = "valid_range" if f.has("valid_range") else next((k for k in forms if f.has(k)), "cp")
     model.range_key = ".".join(map(str, f.path + (range_key,)))
     model.extrapolate = f.flag("extrapolate")
     f.finish()

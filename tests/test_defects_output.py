@@ -120,6 +120,29 @@ def test_companions_of_an_earlier_set_are_removed_and_other_files_kept(tmp_path,
     assert list(pd.read_csv(target)["streams.cooling_water.flow"]) == [60, 80]
 
 
+@pytest.mark.parametrize("refused", ["r.csv", "r_streams.csv", "r_tears.csv"])
+def test_a_file_of_a_set_that_may_not_be_replaced_leaves_the_earlier_set_whole(refused, tmp_path, capsys, monkeypatch):
+    """Defect: where one file of a CSV set could not be replaced (an immutable file), the files
+    renamed before it were already new: a mixed set on disk, and the message named the set's
+    first file. Now every file there before is as it was, no new file is left, and the message
+    names the file that failed."""
+    target = tmp_path / "r.csv"
+    assert run_cli(capsys, "run", "--out", target)[0] == 0
+    before = snapshot(tmp_path)
+    rename = os.replace
+
+    def refusing(source, destination):
+        if Path(destination).name == refused or Path(source).name == refused:
+            raise PermissionError(1, "Operation not permitted", str(tmp_path / refused))
+        return rename(source, destination)
+
+    monkeypatch.setattr(output_module.os, "replace", refusing)
+    code, out, err = run_cli(capsys, "run", "--units", "us", "--out", target)
+    assert code == 2 and "Traceback" not in err
+    assert str(tmp_path / refused) in err and "Operation not permitted" in err and "as they were" in err
+    assert snapshot(tmp_path) == before and not temporaries(tmp_path)
+
+
 def test_a_companion_changed_since_hxtrain_wrote_it_is_kept_and_named(tmp_path, capsys):
     target = tmp_path / "r.csv"
     assert run_cli(capsys, "sweep", write_study(tmp_path, {"low": [60], "high": [90]}), "--out", target)[0] == 0
@@ -218,11 +241,12 @@ def test_sweep_counts_are_whole_numbers_in_files_and_on_screen(tmp_path, capsys)
     study = write_study(tmp_path, {"water": [60, 90]})
     code, out, err = run_cli(capsys, "sweep", study, "--out", tmp_path / "s.csv")
     assert code == 0, err
-    header = next(line for line in out.splitlines() if "limit_violations" in line)
-    rows = [line for line in out.splitlines() if line.strip().startswith(("60.000", "90.000"))]
+    lines = out.splitlines()
+    header = next(line for line in lines if "limit violations" in line)
+    rows = lines[lines.index(header) + 2:lines.index(header) + 4]  # the block's rows, under the units line
     assert len(rows) == 2
     for row in rows:
-        for count in ("limit_violations", "warnings"):  # columns are right-aligned under their names
+        for count in ("limit violations", "warnings"):  # columns are right-aligned under their names
             cell = row[:header.index(count) + len(count)].split()[-1]
             assert cell.isdigit(), f"{count} printed as {cell!r}"
     text = (tmp_path / "s.csv").read_text().splitlines()

@@ -136,14 +136,17 @@ def test_the_cleaning_ranking_goes_into_the_output_file_with_its_limits(tmp_path
     ranking = json.loads((tmp_path / "r.json").read_text())["ranking"]
     assert len(ranking) == 12 and all(type(row["limits_when_clean"]) is int for row in ranking)
     assert all("E-112" in row["new_limits_when_clean"] for row in ranking)  # its design temperature, clean or not
-    assert "limits_when_clean" in out
+    assert "limits when clean" in out  # the console heading in words
 
 
 def test_the_sign_of_the_duty_lost_to_fouling_is_explained_where_it_is_shown(capsys):
     """Item 5: a negative duty_lost_to_fouling_kw (duty moving downstream) must not be misread."""
     code, out, err = run_cli(capsys, "run", "--against-clean")
     assert code == 0
-    assert "duty_lost_to_fouling_kw = clean - fouled: positive where fouling costs duty; negative where" in out
+    assert "duty lost to fouling = clean - fouled: positive where fouling costs duty; negative where" in " ".join(
+        out.split())
+    section = out.split("Fouled against clean")[1].splitlines()
+    assert any(line.startswith("exchanger") and "duty lost to fouling" in line for line in section)  # what it explains
     assert any(line.split()[:1] == ["E-110"] and float(line.split()[3].replace(",", "")) < 0
                for line in out.split("Fouled against clean")[1].splitlines())
 
@@ -562,6 +565,15 @@ def test_a_polynomial_without_valid_range_is_used_only_where_it_was_checked():
     assert "property_extrapolation" in set(extrapolated.findings["kind"])
     widened = simulate(case_from_mapping(hot_feed({"cp": {"polynomial": [2.0, 0.001]}, "valid_range": [0, 800]})))
     assert widened.converged
+
+
+def test_outside_the_range_of_a_petroleum_fluid_names_its_petroleum_key():
+    """Defect: a fluid given by the petroleum correlation, taken out of its range, was blamed on
+    'fluids.crude.cp', a key it does not have."""
+    petroleum = {"petroleum": {"specific_gravity": 0.87, "watson_k": 11.8}}
+    with pytest.raises(CaseError, match="outside the data range") as raised:
+        simulate(case_from_mapping(hot_feed(petroleum)))
+    assert "fluids.crude.petroleum" in str(raised.value) and "fluids.crude.cp" not in str(raised.value)
 
 
 def test_a_constant_cp_has_no_span_to_leave():

@@ -209,3 +209,21 @@ def test_profile_points_keep_each_unit_at_its_own_temperature():
     assert exchanged[5] - exchanged[4] == pytest.approx(result.units.loc["E-104", "duty_kw"], rel=1e-12)
     nodes, _, _, temps = profile_points(rows["crude_mix"], result.units)
     assert nodes == ["E-109", "E-110", "E-111", "E-112"] and len(temps) == 5
+
+
+def test_a_study_without_variants_reports_without_an_empty_chart(tmp_path, capsys):
+    """Defect: a study of specifications only drew an empty 'changes from the base' chart, and
+    matplotlib's warning about its empty legend reached the terminal."""
+    import warnings
+
+    from hxtrain.solver.cli.main import main
+
+    study = tmp_path / "specs.yaml"
+    study.write_text(f"base: {demo_case_path('product_cooling')}\nspecifications:\n  naphtha:\n"
+                     "    adjust: streams.cooling_water.flow\n    between: [40, 120]\n"
+                     "    target: {value: E-304.hot_out, equals: 45}\n", encoding="utf-8")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        assert main(["report", str(study), "--out", str(tmp_path / "r.html")]) == 0
+    page = (tmp_path / "r.html").read_text(encoding="utf-8")
+    assert "no variants" in page and capsys.readouterr().err == ""

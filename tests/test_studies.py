@@ -1022,8 +1022,9 @@ def test_compare_command_on_the_demo_study_writes_a_workbook(crude_compare):
     specs = pd.read_excel(out_file, sheet_name="specifications", index_col=0)
     assert list(specs.index) == ["branch_balance", "e110_outlet_by_bypass"]
     assert specs["success"].astype(bool).all()
-    assert specs.loc["branch_balance", "achieved"] == pytest.approx(0.0, abs=1e-4)
-    assert specs.loc["e110_outlet_by_bypass", "achieved"] == pytest.approx(240.0, abs=1e-4)
+    # each number's column named with its unit: a temperature difference, a temperature
+    assert specs.loc["branch_balance", "achieved_k"] == pytest.approx(0.0, abs=1e-4)
+    assert specs.loc["e110_outlet_by_bypass", "achieved_c"] == pytest.approx(240.0, abs=1e-4)
     assert 0.3 < specs.loc["branch_balance", "value"] < 0.7
     assert 0.0 < specs.loc["e110_outlet_by_bypass", "value"] < 0.6
 
@@ -1125,7 +1126,7 @@ def test_cleaning_command_prints_and_writes_the_ranking(tmp_path, capsys):
     order = [out.index(f" {tag} ") for tag in expected["exchanger"]]
     assert order == sorted(order) and len(order) == 2
     assert "E-2 " not in out and "E-4 " not in out
-    assert f"{expected['fired_duty_saved_kw'].iloc[0]:,.2f}" in out
+    assert f"{expected['fired_duty_saved_kw'].iloc[0]:,.1f}" in out  # kW with the one decimal the tables show
     written = pd.read_csv(out_file, index_col=0)
     assert list(written["exchanger"]) == list(expected["exchanger"])
     np.testing.assert_allclose(written["fired_duty_saved_kw"], expected["fired_duty_saved_kw"], rtol=1e-12)

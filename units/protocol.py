@@ -18,6 +18,7 @@ to word messages.
 
 from __future__ import annotations
 
+import re
 from contextlib import contextmanager
 from contextvars import ContextVar
 from dataclasses import dataclass, field
@@ -28,7 +29,7 @@ import numpy as np
 
 
 __all__ = ["UnitModel", "UnitBase", "Inlets", "takes_enthalpy_state", "splits_by_state", "StackedInlets", "outlet_temperatures_together", "reports_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
-           "HEAT_LOST", "TOTALS", "HEAT_SOURCES", "outlets_within", "outlet_precision",
+           "HEAT_LOST", "TOTALS", "HEAT_SOURCES", "METRIC_UNITS", "Worded", "outlets_within", "outlet_precision",
            "note_outlets_loosened"]
 
 
@@ -95,6 +96,13 @@ TOTALS = {
 report (:attr:`UnitReport.totals`): the solver adds them up without knowing unit types."""
 
 HEAT_SOURCES = ("fired", "utility", "reaction")
+METRIC_UNITS = {"duty": "kW", "hot_in": "°C", "hot_out": "°C", "cold_in": "°C", "cold_out": "°C", "inlet": "°C",
+                "outlet": "°C", "air_out": "°C", "steam_flow": "kg/s", "brine_flow": "kg/s", "air_flow": "kg/s",
+                "vapour_flow": "kg/s", "vapour_fraction": "", "hot_out_vapour_fraction": "",
+                "cold_out_vapour_fraction": ""}
+"""The unit of every named result a unit may offer (``UnitReport.metrics``), as messages write it
+("" for a fraction): a report shows ``TAG.duty`` in the chosen units by it. A unit offering a
+metric not named here fails the protocol test."""
 """What a heater's heat is: burnt fuel (a furnace or fired heater), a bought utility (steam,
 hot oil, electricity), or heat released in the process itself (a reaction)."""
 
@@ -151,11 +159,35 @@ class Finding:
 
     @cached_property
     def messages(self) -> np.ndarray:
+        """One text per scenario, each carrying its numbers at full precision as ``exact`` (see
+        :class:`Worded`: a report in other units converts those, not the rounded ones)."""
         arrays = {k: np.broadcast_to(np.asarray(v), self.active.shape) for k, v in self.values.items()}
         messages = np.full(self.active.shape, "", dtype=object)
+        exact = _FLOAT_FIELD.sub(r"{\1:.17g}", self.template)
         for i in np.flatnonzero(self.active):
-            messages[i] = self.template.format(**{k: v[i] for k, v in arrays.items()})
+            values = {k: v[i] for k, v in arrays.items()}
+            messages[i] = Worded(self.template.format(**values), exact.format(**values))
         return messages
+
+
+_FLOAT_FIELD = re.compile(r"\{(\w+):[^{}]*[fgeFGE]\}")
+"""A template's field formatted as a rounded float ("{t:.1f}"), worded at full precision in the
+exact text."""
+
+
+class Worded(str):
+    """A message as worded (rounded), carrying ``exact``: the same words with every number at
+    full precision, which a report in other units converts instead of the rounded ones."""
+
+    exact: str
+
+    def __new__(cls, text: str, exact: str):
+        worded = super().__new__(cls, text)
+        worded.exact = exact
+        return worded
+
+    def __reduce__(self):  # pickled to worker processes and back: keep the exact words
+        return (Worded, (str(self), self.exact))
 
 
 @dataclass
@@ -169,7 +201,8 @@ class UnitReport:
     totals: dict[str, np.ndarray] = field(default_factory=dict)
     """This unit's contribution to the run's totals (keys of :data:`TOTALS`), kW."""
     metrics: dict[str, np.ndarray] = field(default_factory=dict)
-    """Named results a study may target: ``duty``, ``hot_out``, ``inlet``, ``outlet``, ..."""
+    """Named results a study may target: ``duty``, ``hot_out``, ``inlet``, ``outlet``, ... (each a
+    key of :data:`METRIC_UNITS`)."""
     highlights: dict[str, np.ndarray] = field(default_factory=dict)
     """Headline numbers of the run this unit gives (a furnace's inlet temperature)."""
     profile: dict[str, np.ndarray] = field(default_factory=dict)

@@ -129,10 +129,13 @@ def _compare(args) -> int:
 def _sweep(args) -> int:
     from hxtrain.network import CaseError
 
+    from hxtrain.solver.reporting.console_tables import render
+    from hxtrain.solver.reporting.display_units import current
     from hxtrain.solver.reporting.files import with_whole_counts
     from hxtrain.solver.reporting.text import boxed
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies import run_sweep
+    from hxtrain.solver.studies.sweeps import grid_columns_with_units
 
     study = _load_study_for(args, lambda s: [sweep.name for sweep in s.sweeps])
     if not study.sweeps:
@@ -143,13 +146,17 @@ def _sweep(args) -> int:
         tables = {sweep.name: run_sweep(study, sweep) for sweep in study.sweeps}
     written = _write(tables, args, {"study": study.file, "title": study.title, "caution": CAUTION},
                      _study_inputs(study))
-    for name, table in tables.items():
+    display = current()
+    for sweep in study.sweeps:
+        name, table = sweep.name, tables[sweep.name]
         print(f"\nSweep {name}\n{'-' * (6 + len(name))}")
         shown = with_whole_counts(table.drop(columns=["message", "status_text"]))
-        print(shown.to_string(index=False, float_format=lambda v: f"{v:,.3f}", na_rep="NaN"))
+        print(render(shown.rename(columns=grid_columns_with_units(sweep, shown)), display,
+                     digits={"relative_imbalance": ".1e"}))
         failed = table[~table["success"].astype(bool)]
         print("\n".join(boxed(f"POINTS OF SWEEP {name} WITH NO ANSWER",
-                               (f"point {k + 1}: {m}" for k, m in zip(failed.index, failed["message"])))))
+                               (f"point {k + 1}: {display.message(m)}"
+                                for k, m in zip(failed.index, failed["message"])))))
     print(f"\nNOTE: {CAUTION}")
     _say_written(written)
     return EXIT_OK
@@ -159,6 +166,8 @@ def _cleaning(args) -> int:
     from hxtrain.network import load_case
 
     from hxtrain.solver.demos import DEMO_CASES, demo_case_path
+    from hxtrain.solver.reporting.console_tables import render
+    from hxtrain.solver.reporting.display_units import current
     from hxtrain.solver.reporting.files import check_output_path
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies import cleaning_ranking
@@ -170,7 +179,7 @@ def _cleaning(args) -> int:
     ranking = cleaning_ranking(load_case(path))
     written = _write({"ranking": ranking}, args, {"case_file": str(path), "caution": CAUTION}, inputs)
     print(f"Cleaning one exchanger at a time: {path}")
-    print(ranking.to_string(float_format=lambda v: f"{v:,.2f}") if len(ranking) else "no exchanger has fouling")
+    print(render(ranking, current()) if len(ranking) else "no exchanger has fouling")
     print(f"\nNOTE: {CAUTION}")
     _say_written(written)
     return EXIT_OK

@@ -10,7 +10,7 @@ import math
 import numpy as np
 import pandas as pd
 
-from .display_units import WORDED_COLUMNS, Display
+from .display_units import Display, difference_columns, holds_words, lists_quantities
 
 WIDTH = 120
 """The width the console report keeps to unless asked for everything (``--wide``)."""
@@ -64,13 +64,22 @@ def cells(frame: pd.DataFrame, display: Display, words: dict | None = None, digi
             values.dtype == object and values.map(_number_or_missing).all())  # numbers held as objects
         if column is not None and numeric:
             values = column.convert(values)
-        elif name in WORDED_COLUMNS:
+        elif holds_words(values):
             values = values.map(display.message)
         places = digits.get(name, column.digits if column is not None else DIMENSIONLESS_DIGITS)
-        headings.append(words.get(name, column.stem.replace("_", " ") if column else str(name).replace("_", " ")))
+        stem = column.stem if column else str(name)
+        headings.append(words.get(name, stem if "." in stem else stem.replace("_", " ")))  # a key path as written
         units.append(column.label if column is not None and numeric else "")  # a unit only over converted numbers
         columns.append([_cell(v, places) for v in values])
     return headings, units, columns
+
+
+def render_any(frame: pd.DataFrame, display: Display, digits: dict | None = None, index: str | None = None) -> str:
+    """:func:`render` of any result table: one listing quantities in its rows (a comparison, a
+    summary) converted row by row first, each row name given its shown unit's ending."""
+    if lists_quantities(frame):
+        frame = display.rows(frame, difference_columns(frame))
+    return render(frame, display, digits=digits, index=index)
 
 
 def render(frame: pd.DataFrame, display: Display, words: dict | None = None, digits: dict | None = None,

@@ -76,10 +76,41 @@ with ^2, ^3 and * typeset."""
 MESSAGE_UNITS = {"°C": "temperature", "K": "temperature_difference", "kW": "duty", "kg/s": "mass_flow",
                  "kPa": "pressure_drop"}
 """Units the units' messages write their numbers in ("reaches 281.1 °C"), and their quantity."""
-WORDED_COLUMNS = frozenset({"message", "heat_source"})
-"""Columns of words that may carry numbers with units (a finding's message; a steam heater's
-"steam at 1000 kPa (absolute)"): shown through :meth:`Display.message`."""
-_MESSAGE_NUMBER = re.compile(r"(?<![\w.])(-?\d[\d,]*(?:\.\d+)?) (°C|K|kW|kg/s|kPa)(?![\w/])")
+COUNT_COLUMNS = frozenset({"samples"})
+"""Columns of a table listing quantities in its rows that count things (the samples behind a
+percentile): left as they are when the rows are converted."""
+
+
+def holds_words(values) -> bool:
+    """Whether a column holds words (text that may carry numbers with units: a finding's message,
+    a steam heater's "steam at 1000 kPa (absolute)", the limits a cleaning would bring): such
+    columns are shown through :meth:`Display.message`."""
+    return str(values.dtype) in ("object", "str", "string") and any(isinstance(v, str) for v in values)
+
+
+_NUMBER = r"-?\d[\d,]*(?:\.\d+)?(?:[eE][+-]?\d+)?"
+_MESSAGE_NUMBER = re.compile(rf"(?<![\w.])(?<![eE][+-])(?:({_NUMBER}) to )?({_NUMBER}) (°C|K|kW|kg/s|kPa)(?![\w/])")
+"""A number with its unit ("280.8 °C", "1.6e-08 K"), or a range of two sharing one unit ("174 to
+348.4 °C")."""
+
+
+def ending_of_stored_unit(unit: str) -> str:
+    """The column-name ending for a value stored in ``unit`` (pint's spelling, as a case-file
+    key's kind has it: "kg/s", "degC", "kW/delta_degC"); "" for a unit no column shows (a
+    fraction, a count).
+
+    >>> ending_of_stored_unit("kg/s"), ending_of_stored_unit("m^2*delta_degC/W"), ending_of_stored_unit("dimensionless")
+    ('_kg_s', '_m2k_w', '')
+    """
+    stored = unit.replace("delta_degC", "K")
+    return next((row.ending for row in DISPLAY_TABLE if row.stored == stored), "")
+
+
+def ending_of_unit(label: str) -> str:
+    """The column-name ending of the quantity a message unit stands for ("°C" -> "_c"); "" for a
+    unit that is not one of :data:`MESSAGE_UNITS` (a fraction, a count)."""
+    quantity = MESSAGE_UNITS.get(label.strip())
+    return by_quantity()[quantity].ending if quantity else ""
 
 
 class Column(NamedTuple):
@@ -169,20 +200,35 @@ class Display:
         return f"{text} {column.label}" if column else text
 
     def message(self, text: str) -> str:
-        """A unit's message with its numbers in the shown units ("281.1 °C" -> "538.0 °F").
+        """A unit's message with its numbers in the shown units ("281.1 °C" -> "538.0 °F"), each
+        with the decimals it has (a duty at least the shown duty's). Where the message was worded
+        with its exact values beside it (:class:`hxtrain.units.protocol.Worded`), those are
+        converted, not the rounded ones, so that the message agrees with the tables.
 
-        >>> Display("us").message("reaches 100.0 °C; approach 5.0 K")
-        'reaches 212.0 °F; approach 9.0 Δ°F'
+        >>> Display("us").message("reaches 100.0 °C; approach 5.0 K; within 20 to 30 °C; off 1.5e-08 K")
+        'reaches 212.0 °F; approach 9.0 Δ°F; within 68 to 86 °F; off 2.7e-08 Δ°F'
         """
-        def shown(match):
-            column = self.column(f"x{by_quantity()[MESSAGE_UNITS[match.group(2)]].ending}")
-            if column.label == match.group(2):
-                return match.group(0)
-            decimals = max(len(match.group(1).partition(".")[2]), column.digits if column.quantity == "duty" else 0)
-            value = float(column.convert([float(match.group(1).replace(",", ""))])[0])
-            text = f"{value:,.{decimals}f}"
-            return f"{text[1:] if text.startswith('-') and not text.strip('-0.,') else text} {column.label}"
-        return _MESSAGE_NUMBER.sub(shown, text) if isinstance(text, str) else text
+        if not isinstance(text, str):
+            return text
+        exact = [(m.group(1), m.group(2)) for m in _MESSAGE_NUMBER.finditer(getattr(text, "exact", ""))]
+        rounded = list(_MESSAGE_NUMBER.finditer(text))
+        if len(exact) != len(rounded):
+            exact = [(m.group(1), m.group(2)) for m in rounded]
+        pieces, end = [], 0
+        for match, values in zip(rounded, exact):
+            pieces += [text[end:match.start()], self._shown_number(match, values)]
+            end = match.end()
+        return "".join(pieces) + text[end:]
+
+    def _shown_number(self, match, values) -> str:
+        """One matched number (or range) of a message in the shown unit; ``values``: the exact
+        texts of its number(s)."""
+        unit = match.group(3)
+        column = self.column(f"x{by_quantity()[MESSAGE_UNITS[unit]].ending}")
+        if column.label == unit:
+            return match.group(0)
+        shown = [_converted(column, value, written) for value, written in zip(values, match.groups()[:2]) if written]
+        return f"{' to '.join(shown)} {column.label}"
 
     def frame(self, frame: pd.DataFrame, differences=()) -> pd.DataFrame:
         """A table in the shown units, each converted column renamed with its unit ending
@@ -202,8 +248,9 @@ class Display:
             renamed[name] = column.name
         frame = frame.rename(columns=renamed)
         if self.system != "si" or self.overrides:
-            for words in WORDED_COLUMNS.intersection(frame.columns):
-                frame[words] = frame[words].map(self.message)
+            for position in range(frame.shape[1]):
+                if holds_words(frame.iloc[:, position]):
+                    frame.isetitem(position, frame.iloc[:, position].map(self.message))
         if lists_quantities(frame):
             frame = self.rows(frame, differences)
         return frame
@@ -219,10 +266,24 @@ class Display:
             column = self.column(row_name)
             names.append(row_name if column is None else column.name)
             for position, name in enumerate(frame.columns if column is not None else ()):
+                if name in COUNT_COLUMNS:
+                    continue
                 value = frame.iat[i, position]
                 if isinstance(value, (int, float, np.number)) and not isinstance(value, (bool, np.bool_)):
                     frame.iat[i, position] = float(column.convert([float(value)], name in differences)[0])
         return frame.set_axis(pd.Index(names, name=frame.index.name))
+
+
+def _converted(column, value: str, written: str) -> str:
+    """``value`` (a number's text, exact) in the column's unit, written like ``written`` (its
+    rounded text in the message): as many decimals, or in exponent form where it is."""
+    number = float(column.convert([float(value.replace(",", ""))])[0])
+    if "e" in written.lower():
+        mantissa = written.lower().partition("e")[0]
+        return f"{number:.{len(mantissa.partition('.')[2])}e}"
+    decimals = max(len(written.partition(".")[2]), column.digits if column.quantity == "duty" else 0)
+    text = f"{number:,.{decimals}f}"
+    return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
 
 
 def difference_columns(frame) -> list:
@@ -238,7 +299,7 @@ def lists_quantities(frame: pd.DataFrame) -> bool:
     if isinstance(frame.index, pd.RangeIndex) or not len(frame):
         return False
     names = [str(n) for n in frame.index]
-    return sum(_ending(n) is not None for n in names) * 2 > len(names)
+    return sum(_ending(n) is not None or _metric_row(n) is not None for n in names) * 2 > len(names)
 
 
 def _ending(name: str):
@@ -248,9 +309,22 @@ def _ending(name: str):
     return None
 
 
+def _metric_row(name: str):
+    """The quantity of a unit's named result ``TAG.metric`` (``E-101.duty``: a duty), by
+    :data:`hxtrain.units.protocol.METRIC_UNITS`; None for other names."""
+    from hxtrain.units.protocol import METRIC_UNITS
+
+    tag, dot, metric = name.rpartition(".")
+    quantity = MESSAGE_UNITS.get(METRIC_UNITS.get(metric, "")) if tag and dot else None
+    return by_quantity()[quantity] if quantity else None
+
+
 @lru_cache(maxsize=512)
 def _column(display: Display, name: str) -> Column | None:
     row = _ending(name)
+    stem = name[: -len(row.ending)] if row is not None else name
+    if row is None:
+        row = _metric_row(name)  # a unit's named result: its unit from the protocol, its name as it is
     if row is None:
         return None
     kind = DISPLAY_KINDS[row.quantity]
@@ -262,7 +336,6 @@ def _column(display: Display, name: str) -> Column | None:
     offset = float(f"{(stored_offset - shown_offset) / shown_scale:.12g}")
     table_unit = row.us if display.system == "us" else row.si
     digits = row.digits[SYSTEMS.index(display.system)] if shown == table_unit else _digits(row.digits[0], scale)
-    stem = name[: -len(row.ending)]
     label = unit_label(shown)
     if row.quantity == "temperature_difference" and label.startswith("°"):
         label = f"Δ{label}"  # a difference in degrees (×1.8, no offset), not a temperature

@@ -295,8 +295,9 @@ def write_atomically(path: Path, targets: list, contents: list) -> WrittenSet:
     try:
         return _write_set(path, targets, contents, temporaries)
     except OSError as exc:
-        raise CaseError(f"the output cannot be written ({exc.strerror or exc}); no file was left half-written",
-                        file=str(path)) from None
+        failed = f"{exc.filename}: " if exc.filename and str(exc.filename) != str(path) else ""
+        raise CaseError(f"the output cannot be written ({failed}{exc.strerror or exc}); no file was left "
+                        "half-written and the files there before are as they were", file=str(path)) from None
     finally:
         for temporary in temporaries:
             temporary.unlink(missing_ok=True)
@@ -325,8 +326,7 @@ def _write_set(path, targets, contents, temporaries) -> WrittenSet:
         previous = _read_listing(listing, path)
         text = "".join(f"{digest}  {name}\n" for name, digest in digests.items())
         _write_temporary(listing, text.encode("utf-8"), new_mode, temporaries)
-    for temporary, target in zip(temporaries, targets):
-        os.replace(temporary, target)
+    _replace_all(list(zip(temporaries, targets)))
     written = WrittenSet(list(targets))
     if listing is not None:
         for name, digest in previous.items():
@@ -334,6 +334,31 @@ def _write_set(path, targets, contents, temporaries) -> WrittenSet:
                 _remove_if_unchanged(path.parent / name, digest, written)
         os.replace(temporaries[-1], listing)
     return written
+
+
+def _replace_all(pairs):
+    """Rename each (temporary, target) over its target, all or none: each file already there is
+    first moved aside, and where one rename fails (a file that may not be replaced) the targets
+    done so far get their earlier files back, or are removed where there was none."""
+    done = []  # (target, the earlier file moved aside, or None)
+    try:
+        for temporary, target in pairs:
+            aside = None
+            if os.path.lexists(target):
+                aside = target.with_name(f".{target.name}.{os.getpid()}.earlier")
+                os.replace(target, aside)
+            done.append((target, aside))
+            os.replace(temporary, target)
+    except OSError:
+        for target, aside in reversed(done):
+            if aside is not None:
+                os.replace(aside, target)
+            elif os.path.lexists(target):
+                target.unlink()
+        raise
+    for _, aside in done:
+        if aside is not None:
+            aside.unlink(missing_ok=True)
 
 
 def _write_temporary(target: Path, data: bytes, new_mode: int, temporaries: list):

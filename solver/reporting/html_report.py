@@ -170,9 +170,10 @@ def study_report(study, comparison, display: Display | None = None) -> str:
     body.append(limits_section(comparison.findings, display, scenario=True, failures=comparison.failures))
     variants = "".join(f"<li><b>{escape(n)}</b>{': ' + escape(d) if d else ''}</li>"
                        for n, (d, _, _) in study.variants.items())
+    changes = (f"<figure>{study_duty_changes_svg(comparison, display)}</figure>" if study.variants
+               else "<p>The study has no variants: no changes from the base to draw.</p>")
     body.append(f"<section id=\"variants\"><h2>Variants</h2><ul>{variants}</ul>"
-                f"<figure>{study_totals_svg(comparison, display)}</figure>"
-                f"<figure>{study_duty_changes_svg(comparison, display)}</figure></section>")
+                f"<figure>{study_totals_svg(comparison, display)}</figure>{changes}</section>")
     table = display.frame(comparison.table, difference_columns(comparison.table))
     body.append("<section id=\"tables\"><h2>Side by side</h2>"
                 + html_table(_restore_names(table, comparison.table), display.__class__(), caption="Scenarios and their "

@@ -123,6 +123,12 @@ def boxed(title: str, lines, count=None, display: Display | None = None) -> list
     return ["", "!" * 78, f"!! {title}: {count}", "!" * 78, *(f"!! {line}" for line in lines), "!" * 78]
 
 
+def fitted(text: str, display: Display, indent: str = "    ") -> list[str]:
+    """``text`` as lines within the console width (unless the display is wide), continuation
+    lines indented by ``indent``."""
+    return [text] if display.wide else (textwrap.wrap(text, WIDTH, subsequent_indent=indent) or [""])
+
+
 def findings_box(result: SimulationResult, display: Display | None = None) -> str:
     display = (display or current()).for_result(result)
     findings = result.findings
@@ -133,8 +139,7 @@ def findings_box(result: SimulationResult, display: Display | None = None) -> st
     if len(warnings):
         lines += ["", f"Warnings: {len(warnings)}"]
         for row in warnings.itertuples():
-            text = f"  * {row.unit}: {display.message(row.message)}"
-            lines += [text] if display.wide else textwrap.wrap(text, WIDTH, subsequent_indent="    ")
+            lines += fitted(f"  * {row.unit}: {display.message(row.message)}", display)
     if not len(findings):
         lines += ["", "No limit violated and no warnings."]
     return "\n".join(lines)
@@ -166,7 +171,7 @@ def text_report(result: SimulationResult, extra: str = "", display: Display | No
     parts = [
         f"hxtrain: {result.title or result.case_file}",
         f"case file: {result.case_file}",
-        *([note] if display.wide else textwrap.wrap(note, WIDTH, subsequent_indent="      ")),
+        *fitted(note, display, indent="      "),
         f"\n{result.message}",
     ]
     exchangers = exchanger_table(result)

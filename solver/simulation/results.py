@@ -185,6 +185,9 @@ def tabulate(evaluation: Evaluation, k: int = 0) -> SimulationResult:
         if column in units:
             units[column] = units[column].round().astype("Int64")
     findings_table = pd.DataFrame(findings, columns=["unit", "severity", "kind", "key", "message"])
+    # messages as the units worded them (each carrying its exact numbers: units.protocol.Worded),
+    # not copied into a string column that would keep the text only
+    findings_table["message"] = pd.Series([f["message"] for f in findings], dtype=object)
     findings_table = findings_table.sort_values("severity", key=lambda s: s.map({"limit": 0, "warning": 1}),
                                                 kind="stable").reset_index(drop=True)
     balance = pd.Series({key: float(v[k]) for key, v in evaluation.balance.items()})

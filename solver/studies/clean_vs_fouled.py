@@ -14,7 +14,7 @@ from hxtrain.units.protocol import FIRED_HEATERS, TOTALS
 from hxtrain.solver.simulation.engine import ConvergenceError
 from hxtrain.solver.simulation.evaluation import as_case
 from hxtrain.solver.reporting.files import with_whole_counts
-from hxtrain.solver.reporting.text import boxed
+from hxtrain.solver.reporting.text import boxed, fitted
 from hxtrain.solver.simulation.results import SimulationResult, simulate
 
 
@@ -84,17 +84,25 @@ def _limit_text(result: SimulationResult, unit: str) -> str:
 
 
 def comparison_text(comparison: FoulingComparison) -> str:
-    """Printed form: per exchanger, the totals, and each state's violated limits."""
+    """Printed form: per exchanger, the totals, and each state's violated limits (in the
+    command's units and width, :func:`hxtrain.solver.reporting.display_units.current`)."""
+    from hxtrain.solver.reporting.console_tables import render, render_any
+    from hxtrain.solver.reporting.display_units import current
+
+    display = current()
     exchangers = comparison.exchangers.drop(columns=["limits_fouled", "limits_clean"])
+    duty = display.column("x_kw")
     lines = ["", "Fouled against clean (every fouling resistance set to zero)",
              "-----------------------------------------------------------",
-             "duty_lost_to_fouling_kw = clean - fouled: positive where fouling costs duty; negative where fouling "
-             "upstream leaves more duty to this exchanger.",
-             exchangers.to_string(float_format=lambda v: f"{v:,.1f}", na_rep=""), "",
-             with_whole_counts(comparison.totals).to_string(float_format=lambda v: f"{v:,.2f}"),
-             f"  fouling costs {comparison.fired_duty_penalty_kw:,.1f} kW of fired-heater duty"]
+             *fitted("duty lost to fouling = clean - fouled: positive where fouling costs duty; negative where "
+                     "fouling upstream leaves more duty to this exchanger.", display, ""),
+             render(exchangers, display), "",
+             render_any(with_whole_counts(comparison.totals), display),
+             f"  fouling costs {display.value('duty', comparison.fired_duty_penalty_kw):,.{duty.digits}f} {duty.label} "
+             "of fired-heater duty"]
     clean_limits = comparison.limits[(comparison.limits["state"] == "clean") & (comparison.limits["severity"] == "limit")]
-    lines += boxed("LIMITS VIOLATED WHEN CLEAN", (f"{r.unit}: {r.message}  [{r.key}]" for r in clean_limits.itertuples()))
+    lines += boxed("LIMITS VIOLATED WHEN CLEAN", (f"{r.unit}: {display.message(r.message)}  [{r.key}]"
+                                                  for r in clean_limits.itertuples()), display=display)
     if not len(clean_limits):
         lines.append("  clean: no limit violated")
     return "\n".join(lines)

@@ -14,7 +14,7 @@ import pandas as pd
 from hxtrain.network import CaseError
 from hxtrain.network.study import Study
 from hxtrain.solver.reporting.files import with_whole_counts
-from hxtrain.solver.reporting.text import boxed
+from hxtrain.solver.reporting.text import boxed, fitted
 from hxtrain.solver.simulation.engine import ConvergenceError
 from hxtrain.solver.simulation.results import CAUTION, SimulationResult, simulate
 
@@ -98,20 +98,28 @@ def compare(study: Study) -> Comparison:
 
 
 def study_text(study: Study, comparison: Comparison, specifications) -> str:
-    """Printed form of a comparison: the table, each scenario's limits and warnings, specifications."""
-    lines = [f"hxtrain study: {study.title or study.file}", f"NOTE: {CAUTION}", ""]
+    """Printed form of a comparison: the table, each scenario's limits and warnings, specifications
+    (in the command's units and width, :func:`hxtrain.solver.reporting.display_units.current`)."""
+    from hxtrain.solver.reporting.console_tables import render_any
+    from hxtrain.solver.reporting.display_units import current
+
+    display = current()
+    lines = [f"hxtrain study: {study.title or study.file}", *fitted(f"NOTE: {CAUTION}", display, "      "), ""]
     for name, (description, _, _) in study.variants.items():
         lines.append(f"  {name}: {description}" if description else f"  {name}")
-    lines += ["", with_whole_counts(comparison.table).to_string(float_format=lambda v: f"{v:,.2f}")]
+    lines += ["", render_any(with_whole_counts(comparison.table), display)]
     for spec in specifications:
-        lines += ["", f"Specification {spec.name}: {'met' if spec.success else 'NOT MET'} - {spec.message}"
-                      f" ({spec.evaluations} simulations)"]
+        lines += ["", *fitted(f"Specification {spec.name}: {'met' if spec.success else 'NOT MET'} - "
+                              f"{display.message(spec.message)} ({spec.evaluations} simulations)", display)]
     findings = comparison.findings
     limits = findings[findings["severity"] == "limit"]
     warnings = findings[findings["severity"] == "warning"]
     if len(warnings):
         lines += ["", f"Warnings: {len(warnings)}"]
-        lines += [f"  * [{r.scenario}] {r.unit}: {r.message}" for r in warnings.itertuples()]
-    lines += boxed("SCENARIOS WITH NO ANSWER", (comparison.failures or {}).values())
-    lines += boxed("LIMITS VIOLATED", (f"[{r.scenario}] {r.unit}: {r.message}  [{r.key}]" for r in limits.itertuples()))
+        lines += [line for r in warnings.itertuples()
+                  for line in fitted(f"  * [{r.scenario}] {r.unit}: {display.message(r.message)}", display)]
+    lines += boxed("SCENARIOS WITH NO ANSWER", (display.message(m) for m in (comparison.failures or {}).values()),
+                   display=display)
+    lines += boxed("LIMITS VIOLATED", (f"[{r.scenario}] {r.unit}: {display.message(r.message)}  [{r.key}]"
+                                       for r in limits.itertuples()), display=display)
     return "\n".join(lines)

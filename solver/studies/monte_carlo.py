@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from hxtrain.network.changes import key_kind
 from hxtrain.units.protocol import FIRED_HEATERS, TOTALS
 
 from hxtrain.solver.simulation.batch import simulate_batch
@@ -46,6 +47,28 @@ class UncertaintyResult:
     def tables(self) -> dict:
         return {"uncertainty_percentiles": self.percentiles, "uncertainty_tornado": self.tornado,
                 "uncertainty_samples": self.samples}
+
+    def shown_tables(self, display) -> dict:
+        """:meth:`tables` as reports show them in ``display``'s units: the percentiles indexed by
+        result (each row converted by its quantity; ``E-101.duty`` is a duty), the tornado's
+        duties named with their unit and each input's values in its own unit (``input_unit``),
+        the samples' inputs named with their unit."""
+        from hxtrain.solver.reporting.display_units import ending_of_stored_unit
+
+        endings = {p: ending_of_stored_unit(key_kind(p).unit) for p in self.tornado["input"]}
+        tornado = self.tornado.rename(columns={f"{FURNACE}_at_p10": "fired_heater_duty_at_p10_kw",
+                                               f"{FURNACE}_at_p90": "fired_heater_duty_at_p90_kw"})
+        units = []
+        for row, path in enumerate(tornado["input"]):
+            column = display.column(f"x{endings[path]}") if endings[path] else None
+            units.append(column.label if column else "")
+            for end in ("input_p10", "input_p90"):
+                if column is not None:
+                    tornado.loc[tornado.index[row], end] = float(column.convert([tornado[end].iloc[row]])[0])
+        tornado.insert(1, "input_unit", units)
+        samples = self.samples.rename(columns={p: f"{p}{e}" for p, e in endings.items() if e})
+        return {"uncertainty_percentiles": self.percentiles.set_index("result"), "uncertainty_tornado": tornado,
+                "uncertainty_samples": samples}
 
 
 def draw(uncertainty, samples=None, seed=None) -> dict:
@@ -147,15 +170,21 @@ def _rank_correlation(x, y) -> float:
     return float(np.corrcoef(rx, ry)[0, 1])
 
 
-def uncertainty_text(result: UncertaintyResult, study) -> str:
-    """The console report: percentiles, the tornado, how many samples had no answer."""
+def uncertainty_text(result: UncertaintyResult, study, display=None) -> str:
+    """The console report: percentiles, the tornado, how many samples had no answer (in the
+    command's units and width)."""
+    from hxtrain.solver.reporting.console_tables import render, render_any
+    from hxtrain.solver.reporting.display_units import current
+
+    display = display or current()
+    tables = result.shown_tables(display)
     samples = len(result.samples)
     lines = [f"Uncertainty: {study.title or study.file}", f"{samples:,} samples, seed {result.seed}; "
              f"{result.failed:,} without an answer (left out)", "", "Percentiles over the samples",
-             "----------------------------"]
-    lines.append(result.percentiles.to_string(index=False, float_format=lambda v: f"{v:,.2f}"))
+             "----------------------------", render_any(tables["uncertainty_percentiles"], display, index="result")]
     lines += ["", f"What moves the fired heaters' duty most (each input alone at its P10 and P90, the others at P50)",
-              "-" * 96, result.tornado.to_string(index=False, float_format=lambda v: f"{v:,.4g}")]
+              "-" * 96, render(tables["uncertainty_tornado"], display, digits={"input_p10": ".4g", "input_p90": ".4g",
+                                                                               "rank_correlation": 3})]
     return "\n".join(lines)
 
 
@@ -164,6 +193,7 @@ def uncertainty_command(args, write, say_written) -> int:
     from hxtrain.network import CaseError
     from hxtrain.network.study import load_study
 
+    from hxtrain.solver.reporting.display_units import current
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies.distributed import cluster_for
 
@@ -175,8 +205,9 @@ def uncertainty_command(args, write, say_written) -> int:
         raise CaseError("--samples must be from 2 to 1,000,000")
     with cluster_for(args):
         result = run_uncertainty(study, args.samples, args.seed)
-    written = write(result.tables(), args, {"study": study.file, "title": study.title, "seed": result.seed,
-                                            "caution": CAUTION}, {"study file": study.file, "base case": study.base.file})
+    written = write(result.shown_tables(current()), args,
+                    {"study": study.file, "title": study.title, "seed": result.seed, "caution": CAUTION},
+                    {"study file": study.file, "base case": study.base.file})
     print(uncertainty_text(result, study))
     print(f"\nNOTE: {CAUTION}")
     say_written(written)

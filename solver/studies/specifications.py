@@ -11,6 +11,7 @@ from scipy.optimize import brentq
 from hxtrain.network import CaseError
 from hxtrain.network.changes import value_changes
 from hxtrain.network.study import Study
+from hxtrain.solver.reporting.display_units import ending_of_unit
 from hxtrain.solver.simulation.results import simulate
 
 from .compare import metric
@@ -46,6 +47,10 @@ class SpecificationResult:
     """(result at the low end, result at the high end) of the range searched."""
     evaluations: int
     message: str
+    adjust_unit: str = ""
+    """The unit of ``value`` (the adjusted key's default unit, as messages write it: "kg/s")."""
+    target_unit: str = ""
+    """The unit of ``achieved``, ``target`` and ``achievable``."""
 
 
 def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResult:
@@ -79,8 +84,8 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
         lo, hi = sorted(reach)
         return SpecificationResult(spec.name, spec.adjust, False, None, None, goal, reach, count,
                                    f"target {goal:g}{target_unit} is out of reach: adjusting {spec.adjust} over "
-                                   f"[{spec.low:g}, {spec.high:g}]{adjust_unit} gives {lo:.4g} to "
-                                   f"{hi:.4g}{target_unit}")
+                                   f"{spec.low:g} to {spec.high:g}{adjust_unit} gives {lo:.4g} to "
+                                   f"{hi:.4g}{target_unit}", adjust_unit.strip(), target_unit.strip())
     if low == goal or high == goal:
         x = spec.low if low == goal else spec.high
     else:
@@ -90,11 +95,20 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
     reached = achieved(x)
     return SpecificationResult(spec.name, spec.adjust, True, x, reached, goal, reach, count,
                                f"{spec.adjust} = {x:.6g}{adjust_unit} gives {reached:.6g}{target_unit} "
-                               f"(target {goal:g}{target_unit})")
+                               f"(target {goal:g}{target_unit})", adjust_unit.strip(), target_unit.strip())
 
 
 def specification_table(specifications) -> pd.DataFrame:
-    """One row per solved specification."""
-    return pd.DataFrame([vars(s) for s in specifications]).set_index("name")
+    """One row per solved specification; each number's column named with its unit's ending
+    (``value_kg_s``, ``achieved_c``, ...: converted like any result column where the report is in
+    other units), the result at each end of the range in two columns."""
+    rows = []
+    for s in specifications:
+        adjusted, targeted = ending_of_unit(s.adjust_unit), ending_of_unit(s.target_unit)
+        rows.append({"name": s.name, "adjust": s.adjust, "success": s.success, f"value{adjusted}": s.value,
+                     f"achieved{targeted}": s.achieved, f"target{targeted}": s.target,
+                     f"at_low_end{targeted}": s.achievable[0], f"at_high_end{targeted}": s.achievable[1],
+                     "evaluations": s.evaluations, "message": s.message})
+    return pd.DataFrame(rows).set_index("name")
 
 

@@ -54,6 +54,17 @@ def run_sweep(study: Study, sweep) -> pd.DataFrame:
     return table[paths + [c for c in table.columns if c not in paths]]
 
 
+def grid_columns_with_units(sweep, table) -> dict:
+    """{swept key path: the same with its unit's column ending} for the swept values of a
+    sweep's table that are in the key's own unit (not factors of the base: ``scale``), so that
+    a report shows them with their unit, converted like any result column."""
+    from hxtrain.solver.reporting.display_units import ending_of_stored_unit
+
+    if sweep.scale:
+        return {}
+    return {p: f"{p}{ending}" for p in sweep.grid if p in table and (ending := ending_of_stored_unit(key_kind(p).unit))}
+
+
 def _whole(path: str) -> bool:
     """The key counts things (shells, tubes): its grid values are shown as whole numbers."""
     return key_kind(path) is WHOLE_NUMBER
