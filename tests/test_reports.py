@@ -227,3 +227,16 @@ def test_a_study_without_variants_reports_without_an_empty_chart(tmp_path, capsy
         assert main(["report", str(study), "--out", str(tmp_path / "r.html")]) == 0
     page = (tmp_path / "r.html").read_text(encoding="utf-8")
     assert "no variants" in page and capsys.readouterr().err == ""
+
+
+def test_the_side_by_side_rows_name_their_shown_unit(tmp_path):
+    """Defect: the study report's rows read "heat recovered mmbtu h" (a file's column ending in
+    words); they read "heat recovered (MMBtu/h)"."""
+    from hxtrain.solver.cli.main import main
+
+    study = demo_case_path("crude_preheat").with_name("crude_preheat_study.yaml")
+    assert main(["report", str(study), "--units", "us", "--out", str(tmp_path / "r.html")]) == 0
+    page = (tmp_path / "r.html").read_text(encoding="utf-8")
+    for row in ("heat recovered (MMBtu/h)", "F-101 inlet (°F)", "E-101 duty (MMBtu/h)", "limit violations"):
+        assert f"<th>{row}</th>" in page
+    assert "mmbtu h" not in page

@@ -176,8 +176,9 @@ def study_report(study, comparison, display: Display | None = None) -> str:
                 f"<figure>{study_totals_svg(comparison, display)}</figure>{changes}</section>")
     table = display.frame(comparison.table, difference_columns(comparison.table))
     body.append("<section id=\"tables\"><h2>Side by side</h2>"
-                + html_table(_restore_names(table, comparison.table), display.__class__(), caption="Scenarios and their "
-                             "differences from the base (each row's unit in its name)") + "</section>")
+                + html_table(_restore_names(table, comparison.table, display), display.__class__(),
+                             caption="Scenarios and their differences from the base (each row's unit in its name; "
+                                     "a difference of two temperatures is in kelvin or Δ°F)") + "</section>")
     if base is not None:
         body.append("<section id=\"network\"><h2>The base case</h2>"
                     f"<figure>{network_svg(base, display)}</figure></section>")
@@ -188,9 +189,15 @@ def _base_case(result):
     return None if result is None else result.network.case
 
 
-def _restore_names(converted: pd.DataFrame, original: pd.DataFrame) -> pd.DataFrame:
-    """The converted comparison with its row names in words and units (they carry the unit)."""
-    return converted.set_axis(pd.Index([str(n).replace("_", " ") for n in converted.index], name="quantity"))
+def _restore_names(converted: pd.DataFrame, original: pd.DataFrame, display: Display) -> pd.DataFrame:
+    """The converted comparison with its row names in words, each with its shown unit
+    ("E-101 duty (MMBtu/h)"; the rows are in the order of ``original``'s)."""
+    names = []
+    for name in original.index:
+        column = display.column(name)
+        words = (column.stem if column else str(name)).replace("_", " ")
+        names.append(f"{words} ({column.label})" if column else words)
+    return converted.set_axis(pd.Index(names, name="quantity"))
 
 
 def report_command(args) -> int:
