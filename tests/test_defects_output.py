@@ -117,7 +117,7 @@ def test_companions_of_an_earlier_set_are_removed_and_other_files_kept(tmp_path,
     assert not (tmp_path / "r_high.csv").exists(), "a companion of the earlier set was left beside the new one"
     assert "removed" in out and "r_high.csv" in out
     assert (tmp_path / "r_notes.csv").read_text() == "the user's own file\n"
-    assert list(pd.read_csv(target)["streams.cooling_water.flow"]) == [60, 80]
+    assert list(pd.read_csv(target)["streams.cooling_water.flow_kg_s"]) == [60, 80]
 
 
 @pytest.mark.parametrize("refused", ["r.csv", "r_streams.csv", "r_tears.csv"])
@@ -182,7 +182,7 @@ def test_sweeps_sharing_their_first_31_characters_keep_two_sheets(tmp_path, caps
     sheets = pd.read_excel(target, sheet_name=None, index_col=0)
     data = [name for name in sheets if name != "about"]
     assert len(data) == 2 and all(len(name) <= 31 for name in data)
-    flows = sorted(list(sheets[name]["streams.cooling_water.flow"]) for name in data)
+    flows = sorted(list(sheets[name]["streams.cooling_water.flow_kg_s"]) for name in data)
     assert flows == [[60, 70], [90, 95, 100]]
     about = dict(sheets["about"].reset_index().values)
     assert any(first in str(value) for value in about.values()) and any(second in str(v) for v in about.values())

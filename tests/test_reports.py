@@ -240,3 +240,4 @@ def test_the_side_by_side_rows_name_their_shown_unit(tmp_path):
     for row in ("heat recovered (MMBtu/h)", "F-101 inlet (°F)", "E-101 duty (MMBtu/h)", "limit violations"):
         assert f"<th>{row}</th>" in page
     assert "mmbtu h" not in page
+    assert "<th>limit violations</th><td>1<" in page  # a count as a whole number

@@ -1103,9 +1103,10 @@ def test_sweep_command_writes_csv_rows_matching_individual_runs(tmp_path, capsys
     assert out_file.is_file() and second.is_file()
 
     water = pd.read_csv(out_file, index_col=0)
-    assert list(water["streams.cooling_water.flow"]) == [70.0, 95.0]
+    assert list(water["streams.cooling_water.flow_kg_s"]) == [70.0, 95.0]  # in the key's unit: named with it
+    assert "streams.naphtha.flow" in pd.read_csv(second).columns  # factors of the base (scale): no unit
     for _, row in water.iterrows():
-        direct = key_outputs(simulate_data(cooling_data(cw_flow=row["streams.cooling_water.flow"])))
+        direct = key_outputs(simulate_data(cooling_data(cw_flow=row["streams.cooling_water.flow_kg_s"])))
         assert_same_outputs(row[direct.index], direct)
 
     grid = pd.read_csv(second, index_col=0)

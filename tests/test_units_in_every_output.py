@@ -61,7 +61,7 @@ def test_specification_results_carry_their_units_and_convert(tmp_path, capsys):
     assert us[outlet]["at_low_end_f"] == pytest.approx(1.8 * si[outlet]["at_low_end_c"] + 32.0, rel=1e-12)
     assert us[outlet]["value"] == si[outlet]["value"]  # a bypass fraction has no unit
     assert "(target 464 °F)" in us[outlet]["message"] and "°C" not in out.split("Specification")[1]
-    assert all(len(line) <= WIDTH for line in out.splitlines() if not line.startswith(("!!", "NOTE")))
+    assert all(len(line) <= WIDTH for line in out.splitlines() if not line.startswith("!!"))
 
 
 def test_fouled_against_clean_in_us_units(capsys):
@@ -81,17 +81,20 @@ def test_the_cleaning_ranking_words_follow_the_units(tmp_path, capsys):
     words = " ".join(ranking["new_limits_when_clean"].dropna())
     assert "°F" in words and "°C" not in words
     assert "°C" not in out
-    assert all(len(line) <= WIDTH for line in out.splitlines() if not line.startswith("NOTE"))
+    assert all(len(line) <= WIDTH for line in out.splitlines())
 
 
-def test_a_sweep_console_shows_its_grid_in_the_units_and_width(tmp_path, capsys):
+def test_a_sweep_shows_its_grid_in_the_units_and_width(tmp_path, capsys):
+    """On the console and in the files: the swept flow in lb/h, named with its unit."""
     study = tmp_path / "study.yaml"
     study.write_text(f"base: {demo_case_path('product_cooling')}\nsweeps:\n  water:\n"
                      "    grid: {streams.cooling_water.flow: [60, 90]}\n", encoding="utf-8")
-    code, out, err = run_cli(capsys, "sweep", study, "--units", "us")
+    code, out, err = run_cli(capsys, "sweep", study, "--units", "us", "--out", tmp_path / "s.json")
     assert code == 0, err
+    rows = json.loads((tmp_path / "s.json").read_text())["water"]
+    assert [row["streams.cooling_water.flow_lb_h"] for row in rows] == pytest.approx([476_198.5, 714_297.7], rel=1e-6)
     assert "lb/h" in out and "476,198" in out and "714,298" in out  # 60 and 90 kg/s
-    assert all(len(line) <= WIDTH for line in out.splitlines() if not line.startswith("NOTE"))
+    assert all(len(line) <= WIDTH for line in out.splitlines())
     np.testing.assert_allclose(60 * 3600 / 0.45359237, 476_198.6, rtol=1e-6)
 
 
@@ -147,3 +150,17 @@ def test_every_named_result_a_unit_offers_has_a_unit():
         for report in evaluate(demo_case_path(demo)).reports.values():
             offered |= set(report.metrics)
     assert offered and offered <= set(METRIC_UNITS), offered - set(METRIC_UNITS)
+
+
+def test_joined_messages_and_the_about_sheet_in_us_units(tmp_path, capsys):
+    """The fouled-against-clean table's limits (messages joined) agree with the tables (537.5 °F,
+    not 537.4 from the rounded 280.8 °C); the workbook's about sheet names the summary's US
+    units in words."""
+    code, out, err = run_cli(capsys, "run", "--against-clean", "--units", "us", "--out", tmp_path / "r.json")
+    assert code == 0, err
+    limits = [row["limits_fouled"] for row in json.loads((tmp_path / "r.json").read_text())["fouling_by_exchanger"]]
+    assert "the cold side reaches 537.5 °F, above its design temperature of 536.0 °F" in limits
+    assert run_cli(capsys, "run", "--units", "us", "--out", tmp_path / "r.xlsx")[0] == 0
+    items = list(pd.read_excel(tmp_path / "r.xlsx", sheet_name="about")["item"])
+    assert "heat recovered (MMBtu/h)" in items and "F-101 inlet (°F)" in items
+    assert not [item for item in items if "mmbtu h" in item]

@@ -189,6 +189,13 @@ class Worded(str):
     def __reduce__(self):  # pickled to worker processes and back: keep the exact words
         return (Worded, (str(self), self.exact))
 
+    @classmethod
+    def joined(cls, separator: str, parts) -> "Worded":
+        """``parts`` (words, each worded with its exact numbers or plain) joined by ``separator``,
+        the exact words joined alike: a list of messages, or a message with a prefix."""
+        parts = list(parts)
+        return cls(separator.join(parts), separator.join(getattr(p, "exact", p) for p in parts))
+
 
 @dataclass
 class UnitReport:

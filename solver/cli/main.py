@@ -132,7 +132,7 @@ def _sweep(args) -> int:
     from hxtrain.solver.reporting.console_tables import render
     from hxtrain.solver.reporting.display_units import current
     from hxtrain.solver.reporting.files import with_whole_counts
-    from hxtrain.solver.reporting.text import boxed
+    from hxtrain.solver.reporting.text import boxed, fitted
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies import run_sweep
     from hxtrain.solver.studies.sweeps import grid_columns_with_units
@@ -143,21 +143,21 @@ def _sweep(args) -> int:
     from hxtrain.solver.studies.distributed import cluster_for
 
     with cluster_for(args):
-        tables = {sweep.name: run_sweep(study, sweep) for sweep in study.sweeps}
+        # the swept values named with their unit (streams.crude.flow_kg_s): converted like any result
+        tables = {sweep.name: (table := run_sweep(study, sweep)).rename(columns=grid_columns_with_units(sweep, table))
+                  for sweep in study.sweeps}
     written = _write(tables, args, {"study": study.file, "title": study.title, "caution": CAUTION},
                      _study_inputs(study))
     display = current()
-    for sweep in study.sweeps:
-        name, table = sweep.name, tables[sweep.name]
+    for name, table in tables.items():
         print(f"\nSweep {name}\n{'-' * (6 + len(name))}")
-        shown = with_whole_counts(table.drop(columns=["message", "status_text"]))
-        print(render(shown.rename(columns=grid_columns_with_units(sweep, shown)), display,
+        print(render(with_whole_counts(table.drop(columns=["message", "status_text"])), display,
                      digits={"relative_imbalance": ".1e"}))
         failed = table[~table["success"].astype(bool)]
         print("\n".join(boxed(f"POINTS OF SWEEP {name} WITH NO ANSWER",
                                (f"point {k + 1}: {display.message(m)}"
                                 for k, m in zip(failed.index, failed["message"])))))
-    print(f"\nNOTE: {CAUTION}")
+    print("\n" + "\n".join(fitted(f"NOTE: {CAUTION}", current(), "      ")))
     _say_written(written)
     return EXIT_OK
 
@@ -169,6 +169,7 @@ def _cleaning(args) -> int:
     from hxtrain.solver.reporting.console_tables import render
     from hxtrain.solver.reporting.display_units import current
     from hxtrain.solver.reporting.files import check_output_path
+    from hxtrain.solver.reporting.text import fitted
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies import cleaning_ranking
 
@@ -180,7 +181,7 @@ def _cleaning(args) -> int:
     written = _write({"ranking": ranking}, args, {"case_file": str(path), "caution": CAUTION}, inputs)
     print(f"Cleaning one exchanger at a time: {path}")
     print(render(ranking, current()) if len(ranking) else "no exchanger has fouling")
-    print(f"\nNOTE: {CAUTION}")
+    print("\n" + "\n".join(fitted(f"NOTE: {CAUTION}", current(), "      ")))
     _say_written(written)
     return EXIT_OK
 

@@ -23,6 +23,7 @@ from hxtrain.solver.simulation.results import CAUTION, SimulationResult
 
 from .console_tables import cells
 from .display_units import Display, current, difference_columns
+from .files import with_whole_counts
 from .network_diagram import network_svg
 from .report_style import STYLE
 from .text import DRUM_DIGITS, DRUM_TITLE, DRUM_WORDS, EXCHANGER_WORDS, ONE_STREAM_WORDS, SEPARATOR_WORDS, \
@@ -174,7 +175,7 @@ def study_report(study, comparison, display: Display | None = None) -> str:
                else "<p>The study has no variants: no changes from the base to draw.</p>")
     body.append(f"<section id=\"variants\"><h2>Variants</h2><ul>{variants}</ul>"
                 f"<figure>{study_totals_svg(comparison, display)}</figure>{changes}</section>")
-    table = display.frame(comparison.table, difference_columns(comparison.table))
+    table = display.frame(with_whole_counts(comparison.table), difference_columns(comparison.table))
     body.append("<section id=\"tables\"><h2>Side by side</h2>"
                 + html_table(_restore_names(table, comparison.table, display), display.__class__(),
                              caption="Scenarios and their differences from the base (each row's unit in its name; "

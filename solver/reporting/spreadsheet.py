@@ -37,10 +37,15 @@ HEADER_FILL = "DDE4EE"
 WIDEST_COLUMN = 60
 
 
-def words(name: str) -> str:
-    """A table's or note's key in words: 'heat_recovered_kw' -> 'heat recovered (kW)'."""
+def words(name: str, display: Display | None = None) -> str:
+    """A table's or note's key in words: 'heat_recovered_kw' -> 'heat recovered (kW)'; a name
+    already in ``display``'s units the same way ('heat_recovered_mmbtu_h' -> 'heat recovered
+    (MMBtu/h)')."""
     if name in NOTE_WORDS:
         return NOTE_WORDS[name]
+    column = display.shown_column(name) if display is not None else None
+    if column is not None:
+        return f"{column.stem.replace('_', ' ')} ({column.label})"
     for suffix, unit in UNIT_WORDS:
         if name.endswith(suffix) and len(name) > len(suffix):
             return f"{name[:-len(suffix)].replace('_', ' ')} ({unit})"
@@ -62,7 +67,7 @@ def about_table(notes: dict, sheets, display: Display | None = None, plain=None)
             entry = plain(entry, name)
             if isinstance(entry, bool):
                 entry = "yes" if entry else "no"
-            rows.append((words(name), "" if entry is None else entry))
+            rows.append((words(name, display), "" if entry is None else entry))
     if display is not None:
         rows += units_rows(display)
     rows += [(f"sheet {sheet}", f"the table '{table}' (a sheet name has at most {SHEET_NAME_LIMIT} characters, "

@@ -9,7 +9,7 @@ from dataclasses import dataclass
 import pandas as pd
 
 from hxtrain.network import CaseError, without_fouling
-from hxtrain.units.protocol import FIRED_HEATERS, TOTALS
+from hxtrain.units.protocol import FIRED_HEATERS, TOTALS, Worded
 
 from hxtrain.solver.simulation.engine import ConvergenceError
 from hxtrain.solver.simulation.evaluation import as_case
@@ -57,8 +57,8 @@ def compare_clean_and_fouled(case) -> FoulingComparison:
     for column in ("u_service_w_m2k", "u_clean_w_m2k"):
         if column in f:
             table[column] = f[column]
-    table["limits_fouled"] = [_limit_text(fouled, tag) for tag in exchangers]
-    table["limits_clean"] = [_limit_text(clean, tag) for tag in exchangers]
+    for column, result in (("limits_fouled", fouled), ("limits_clean", clean)):  # worded: objects, not copied text
+        table[column] = pd.Series([_limit_text(result, tag) for tag in exchangers], index=table.index, dtype=object)
     keys = [k for k in fouled.summary.index if k in TOTALS or k.endswith("_inlet_c")] + ["limit_violations", "warnings"]
     totals = pd.DataFrame({"fouled": fouled.summary[keys].astype(float), "clean": clean.summary[keys].astype(float)})
     totals["clean - fouled"] = totals["clean"] - totals["fouled"]
@@ -80,7 +80,7 @@ def simulate_state(case, name: str) -> SimulationResult:
 
 def _limit_text(result: SimulationResult, unit: str) -> str:
     limits = result.limits
-    return "; ".join(limits.loc[limits["unit"] == unit, "message"])
+    return Worded.joined("; ", limits.loc[limits["unit"] == unit, "message"])
 
 
 def comparison_text(comparison: FoulingComparison) -> str:

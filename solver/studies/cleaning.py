@@ -9,7 +9,7 @@ import pandas as pd
 from hxtrain.network import without_fouling
 from hxtrain.solver.simulation.evaluation import as_case
 from hxtrain.solver.simulation.results import simulate
-from hxtrain.units.protocol import FIRED_HEATERS
+from hxtrain.units.protocol import FIRED_HEATERS, Worded
 
 from .compare import try_scenario
 
@@ -36,10 +36,13 @@ def cleaning_ranking(case) -> pd.DataFrame:
         row.update({f"{h.removesuffix('_inlet_c')}_inlet_gain_k": clean.summary[h] - fouled.summary[h] for h in heaters})
         new_limits = clean.limits[~clean.limits["message"].isin(fouled.limits["message"])]
         row["limits_when_clean"] = int(len(clean.limits))
-        row["new_limits_when_clean"] = "; ".join(f"{r.unit}: {r.message}" for r in new_limits.itertuples())
+        row["new_limits_when_clean"] = Worded.joined("; ", (Worded.joined(": ", (r.unit, r.message))
+                                                            for r in new_limits.itertuples()))
         row["answer"] = "ok"
         rows.append(row)
     table = pd.DataFrame(rows)
+    if "new_limits_when_clean" in table:  # worded messages kept as they are (objects, not copied text)
+        table["new_limits_when_clean"] = pd.Series([r.get("new_limits_when_clean") for r in rows], dtype=object)
     if table.empty:
         return table
     if "fired_duty_saved_kw" in table:

@@ -173,7 +173,7 @@ def _rank_correlation(x, y) -> float:
 def uncertainty_text(result: UncertaintyResult, study, display=None) -> str:
     """The console report: percentiles, the tornado, how many samples had no answer (in the
     command's units and width)."""
-    from hxtrain.solver.reporting.console_tables import render, render_any
+    from hxtrain.solver.reporting.console_tables import fixed, render, render_any
     from hxtrain.solver.reporting.display_units import current
 
     display = display or current()
@@ -182,10 +182,20 @@ def uncertainty_text(result: UncertaintyResult, study, display=None) -> str:
     lines = [f"Uncertainty: {study.title or study.file}", f"{samples:,} samples, seed {result.seed}; "
              f"{result.failed:,} without an answer (left out)", "", "Percentiles over the samples",
              "----------------------------", render_any(tables["uncertainty_percentiles"], display, index="result")]
+    tornado = tables["uncertainty_tornado"].copy()
+    for end in ("input_p10", "input_p90"):  # each input in its own unit's decimals (lb/h whole, °F one)
+        tornado[end] = [fixed(value, _input_digits(path, display)) for path, value in zip(tornado["input"], tornado[end])]
     lines += ["", f"What moves the fired heaters' duty most (each input alone at its P10 and P90, the others at P50)",
-              "-" * 96, render(tables["uncertainty_tornado"], display, digits={"input_p10": ".4g", "input_p90": ".4g",
-                                                                               "rank_correlation": 3})]
+              "-" * 96, render(tornado, display, digits={"rank_correlation": 3})]
     return "\n".join(lines)
+
+
+def _input_digits(path, display) -> int:
+    """Decimals of an uncertain input as shown: its unit's, or four for a number without one."""
+    from hxtrain.solver.reporting.display_units import ending_of_stored_unit
+
+    ending = ending_of_stored_unit(key_kind(path).unit)
+    return display.column(f"x{ending}").digits if ending else 4
 
 
 def uncertainty_command(args, write, say_written) -> int:
@@ -194,6 +204,7 @@ def uncertainty_command(args, write, say_written) -> int:
     from hxtrain.network.study import load_study
 
     from hxtrain.solver.reporting.display_units import current
+    from hxtrain.solver.reporting.text import fitted
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies.distributed import cluster_for
 
@@ -209,7 +220,7 @@ def uncertainty_command(args, write, say_written) -> int:
                     {"study": study.file, "title": study.title, "seed": result.seed, "caution": CAUTION},
                     {"study file": study.file, "base case": study.base.file})
     print(uncertainty_text(result, study))
-    print(f"\nNOTE: {CAUTION}")
+    print("\n" + "\n".join(fitted(f"NOTE: {CAUTION}", current(), "      ")))
     say_written(written)
     return 0
 
