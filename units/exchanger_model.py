@@ -257,8 +257,9 @@ class Exchanger(UnitBase):
         if not spec.u_is_fixed or rated_by_zones(fluids):
             return None
         bypassed = (_anywhere_nonzero(spec.bypass_hot), _anywhere_nonzero(spec.bypass_cold))
-        return (arranged(spec.arrangement).identity, spec.shells, spec.shells_in_parallel, spec.tube_passes, spec.shell_side,
-                spec.mixed_side, spec.ua is None, bypassed, stacking_key(fluids[0]), stacking_key(fluids[1]))
+        return (arranged(spec.arrangement).identity, spec.shells, spec.shells_in_parallel, spec.tube_passes,
+                spec.shell_side, spec.mixed_side, spec.ua is None, bypassed, stacking_key(fluids[0]),
+                stacking_key(fluids[1]))
 
     @staticmethod
     def _rate_stacked(units, t, m, fluids, details):

@@ -96,6 +96,8 @@ TOTALS = {
 report (:attr:`UnitReport.totals`): the solver adds them up without knowing unit types."""
 
 HEAT_SOURCES = ("fired", "utility", "reaction")
+"""What a heater's heat is: burnt fuel (a furnace or fired heater), a bought utility (steam,
+hot oil, electricity), or heat released in the process itself (a reaction)."""
 METRIC_UNITS = {"duty": "kW", "hot_in": "°C", "hot_out": "°C", "cold_in": "°C", "cold_out": "°C", "inlet": "°C",
                 "outlet": "°C", "air_out": "°C", "steam_flow": "kg/s", "brine_flow": "kg/s", "air_flow": "kg/s",
                 "vapour_flow": "kg/s", "vapour_fraction": "", "hot_out_vapour_fraction": "",
@@ -103,8 +105,6 @@ METRIC_UNITS = {"duty": "kW", "hot_in": "°C", "hot_out": "°C", "cold_in": "°C
 """The unit of every named result a unit may offer (``UnitReport.metrics``), as messages write it
 ("" for a fraction): a report shows ``TAG.duty`` in the chosen units by it. A unit offering a
 metric not named here fails the protocol test."""
-"""What a heater's heat is: burnt fuel (a furnace or fired heater), a bought utility (steam,
-hot oil, electricity), or heat released in the process itself (a reaction)."""
 
 
 @dataclass(frozen=True)

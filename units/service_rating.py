@@ -52,7 +52,9 @@ def outlets_settled(change, t_hot_in, previous_change=None):
     :data:`CONTRACTION_LIMIT`), from the a-posteriori bound of a contraction,
     distance <= c / (1 - c) x change, with c taken :data:`CONTRACTION_SAFETY` times larger: a
     successive substitution that contracts by ~0.01 a pass then stops one pass earlier than the
-    change alone would let it, at the same distance from the answer."""
+    change alone would let it, at the same distance from the answer. The looser precision is
+    judged on the change itself: an inexact Newton sweep counts on its units being that close
+    (made as loose as allowed, the tear iteration took a fifth iteration on the crude demo)."""
     distance = change
     if previous_change is not None:
         with np.errstate(divide="ignore", invalid="ignore"):

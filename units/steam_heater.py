@@ -123,8 +123,7 @@ class SteamHeater(Heater):
         t_out = report.quantities["t_cold_out"]
         steam = np.where(m > 0.0, report.quantities["duty"], 0.0) / self.latent_heat
         # the steam condenses whole: the condensate leaves at the steam's flow, saturated at t_sat
-        report.quantities.update(steam_flow=steam,
-                                 condensate_flow=steam, t_sat=np.full(t.shape, self.t_sat))
+        report.quantities.update(steam_flow=steam, condensate_flow=steam, t_sat=np.full(t.shape, self.t_sat))
         if self.ua is not None:
             approach = self.t_sat - t
             report.quantities["ua"] = np.broadcast_to(self.ua, t.shape)

@@ -132,7 +132,7 @@ def _sweep(args) -> int:
     from hxtrain.solver.reporting.console_tables import render
     from hxtrain.solver.reporting.display_units import current
     from hxtrain.solver.reporting.files import with_whole_counts
-    from hxtrain.solver.reporting.text import boxed, fitted
+    from hxtrain.solver.reporting.text import boxed, note_lines
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies import run_sweep
     from hxtrain.solver.studies.sweeps import grid_columns_with_units
@@ -157,7 +157,7 @@ def _sweep(args) -> int:
         print("\n".join(boxed(f"POINTS OF SWEEP {name} WITH NO ANSWER",
                                (f"point {k + 1}: {display.message(m)}"
                                 for k, m in zip(failed.index, failed["message"])))))
-    print("\n" + "\n".join(fitted(f"NOTE: {CAUTION}", current(), "      ")))
+    print("\n" + "\n".join(note_lines(current())))
     _say_written(written)
     return EXIT_OK
 
@@ -169,7 +169,7 @@ def _cleaning(args) -> int:
     from hxtrain.solver.reporting.console_tables import render
     from hxtrain.solver.reporting.display_units import current
     from hxtrain.solver.reporting.files import check_output_path
-    from hxtrain.solver.reporting.text import fitted
+    from hxtrain.solver.reporting.text import note_lines
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies import cleaning_ranking
 
@@ -181,7 +181,7 @@ def _cleaning(args) -> int:
     written = _write({"ranking": ranking}, args, {"case_file": str(path), "caution": CAUTION}, inputs)
     print(f"Cleaning one exchanger at a time: {path}")
     print(render(ranking, current()) if len(ranking) else "no exchanger has fouling")
-    print("\n" + "\n".join(fitted(f"NOTE: {CAUTION}", current(), "      ")))
+    print("\n" + "\n".join(note_lines(current())))
     _say_written(written)
     return EXIT_OK
 

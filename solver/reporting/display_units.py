@@ -106,11 +106,26 @@ def ending_of_stored_unit(unit: str) -> str:
     return next((row.ending for row in DISPLAY_TABLE if row.stored == stored), "")
 
 
+def ending_of_key(path: str) -> str:
+    """The column-name ending of the value at a case-file key path, in its default unit
+    (``streams.crude.flow`` -> "_kg_s"); "" for a key without a shown unit (a fraction)."""
+    from hxtrain.network.changes import key_kind
+
+    return ending_of_stored_unit(key_kind(path).unit)
+
+
+def _message_unit_row(label: str):
+    """The quantity (its :data:`DISPLAY_TABLE` row) a message unit stands for ("°C": a
+    temperature); None for a unit that is not one of :data:`MESSAGE_UNITS` (a fraction)."""
+    quantity = MESSAGE_UNITS.get(label.strip())
+    return by_quantity()[quantity] if quantity else None
+
+
 def ending_of_unit(label: str) -> str:
     """The column-name ending of the quantity a message unit stands for ("°C" -> "_c"); "" for a
     unit that is not one of :data:`MESSAGE_UNITS` (a fraction, a count)."""
-    quantity = MESSAGE_UNITS.get(label.strip())
-    return by_quantity()[quantity].ending if quantity else ""
+    row = _message_unit_row(label)
+    return row.ending if row else ""
 
 
 class Column(NamedTuple):
@@ -224,7 +239,7 @@ class Display:
         """One matched number (or range) of a message in the shown unit; ``values``: the exact
         texts of its number(s)."""
         unit = match.group(3)
-        column = self.column(f"x{by_quantity()[MESSAGE_UNITS[unit]].ending}")
+        column = self.column(f"x{ending_of_unit(unit)}")
         if column.label == unit:
             return match.group(0)
         shown = [_converted(column, value, written) for value, written in zip(values, match.groups()[:2]) if written]
@@ -315,8 +330,7 @@ def _metric_row(name: str):
     from hxtrain.units.protocol import METRIC_UNITS
 
     tag, dot, metric = name.rpartition(".")
-    quantity = MESSAGE_UNITS.get(METRIC_UNITS.get(metric, "")) if tag and dot else None
-    return by_quantity()[quantity] if quantity else None
+    return _message_unit_row(METRIC_UNITS.get(metric, "")) if tag and dot else None
 
 
 @lru_cache(maxsize=512)

@@ -15,7 +15,7 @@ import pandas as pd
 
 from hxtrain.units.protocol import TOTALS
 
-from hxtrain.solver.simulation.results import SimulationResult
+from hxtrain.solver.simulation.results import CAUTION, SimulationResult
 
 from .console_tables import WIDTH, fixed, render  # noqa: F401  (fixed: the one number format, used here and by others)
 from .display_units import Display, current
@@ -129,6 +129,11 @@ def fitted(text: str, display: Display, indent: str = "    ") -> list[str]:
     return [text] if display.wide else (textwrap.wrap(text, WIDTH, subsequent_indent=indent) or [""])
 
 
+def note_lines(display: Display, caution: str = CAUTION) -> list[str]:
+    """The caution every report carries, "NOTE: ...", within the console width."""
+    return fitted(f"NOTE: {caution}", display, indent="      ")
+
+
 def findings_box(result: SimulationResult, display: Display | None = None) -> str:
     display = (display or current()).for_result(result)
     findings = result.findings
@@ -167,11 +172,10 @@ def text_report(result: SimulationResult, extra: str = "", display: Display | No
     """The report; ``extra`` (more sections) goes before the limits and warnings, which stay last.
     ``display``: units and width (default: the command's choice, :func:`.display_units.current`)."""
     display = (display or current()).for_result(result)
-    note = f"NOTE: {result.caution}"
     parts = [
         f"hxtrain: {result.title or result.case_file}",
         f"case file: {result.case_file}",
-        *fitted(note, display, indent="      "),
+        *note_lines(display, result.caution),
         f"\n{result.message}",
     ]
     exchangers = exchanger_table(result)

@@ -100,9 +100,10 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
     exceeds what they cost (:func:`_pays`) is the rest cut into contiguous parts (at least
     :data:`PROCESS_MINIMUM` scenarios a part), this process solving one of them while worker
     processes solve the others and return their floats through shared memory. Inside
-    :func:`batches_on` the parts go to that cluster instead. Every scenario converges on its own either way; ``iterations`` is the largest over the
-    parts. ``metrics`` adds a column per named result of every unit (``TAG.duty``,
-    ``TAG.cold_out``, ...: what a study may target), NaN where a scenario is not a success."""
+    :func:`batches_on` the parts go to that cluster instead. Every scenario converges on its own
+    either way; ``iterations`` is the largest over the parts. ``metrics`` adds a column per named
+    result of every unit (``TAG.duty``, ``TAG.cold_out``, ...: what a study may target), NaN where
+    a scenario is not a success."""
     case = as_case(case)
     scenarios = scenario_count(values)
     cluster = _CLUSTER.get()
@@ -115,17 +116,22 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
     if int(workers) <= 1 or scenarios < (1 + PROBE_GROWTH) * PROBE + 2 * PROCESS_MINIMUM:
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
-    parts = max(1, min(int(workers), (scenarios - PROBE) // PROCESS_MINIMUM))
-    first, each = _probe(case, values, tolerance, max_iterations, metrics,
-                         lambda cost: _pays(cost / SECOND_PROBE_WORTH, scenarios - PROBE, parts))
+    first, each = _probe(case, values, tolerance, max_iterations, metrics, lambda cost: _pays(
+        cost / SECOND_PROBE_WORTH, scenarios - PROBE, _parts(workers, scenarios - PROBE)))
     probed = sum(len(r.table) for r in first)
     rest = _take(values, slice(probed, scenarios))
-    parts = max(1, min(int(workers), (scenarios - probed) // PROCESS_MINIMUM))
+    parts = _parts(workers, scenarios - probed)
     plan = first[0].plan
     if parts == 1 or each is None or not _pays(each, scenarios - probed, parts):
         return _joined([*first, _solve_batch(case, rest, tolerance, max_iterations, metrics, plan)])
     return _joined([*first, *_split(case, _pieces(rest, scenarios - probed, parts), tolerance, max_iterations,
                                     metrics, plan, first[0])], processes=parts)
+
+
+def _parts(workers, scenarios) -> int:
+    """Parts to cut ``scenarios`` into: one a process allowed, none smaller than
+    :data:`PROCESS_MINIMUM`."""
+    return max(1, min(int(workers), scenarios // PROCESS_MINIMUM))
 
 
 def _pays(each, scenarios, parts) -> bool:

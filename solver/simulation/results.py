@@ -74,6 +74,13 @@ UNIT_COUNTS = ("outer_iterations",)
 """Units-table columns that are counts: whole numbers in every output, empty for the units
 that have none."""
 
+def worded_column(messages, index=None) -> pd.Series:
+    """A column of messages as the units worded them: objects, each carrying its exact numbers
+    (:class:`hxtrain.units.protocol.Worded`), not copied into a string column that would keep the
+    text only (a report in other units converts the exact numbers)."""
+    return pd.Series(list(messages), index=index, dtype=object)
+
+
 CAUTION = (
     "Screening estimates. Mechanical limits, safety and operating decisions rest with qualified "
     "engineers and the applicable codes and standards."
@@ -185,9 +192,7 @@ def tabulate(evaluation: Evaluation, k: int = 0) -> SimulationResult:
         if column in units:
             units[column] = units[column].round().astype("Int64")
     findings_table = pd.DataFrame(findings, columns=["unit", "severity", "kind", "key", "message"])
-    # messages as the units worded them (each carrying its exact numbers: units.protocol.Worded),
-    # not copied into a string column that would keep the text only
-    findings_table["message"] = pd.Series([f["message"] for f in findings], dtype=object)
+    findings_table["message"] = worded_column(f["message"] for f in findings)
     findings_table = findings_table.sort_values("severity", key=lambda s: s.map({"limit": 0, "warning": 1}),
                                                 kind="stable").reset_index(drop=True)
     balance = pd.Series({key: float(v[k]) for key, v in evaluation.balance.items()})
@@ -244,4 +249,5 @@ def _tear_table(net: Network, solution: TemperatureSolution, k) -> pd.DataFrame:
 
 
 __all__ = ["SimulationResult", "simulate", "tabulate", "raise_unless_success", "scenario_summary", "CAUTION",
+           "worded_column",
            "UNIT_COLUMNS", "TOTALS"]

@@ -15,7 +15,7 @@ from hxtrain.solver.simulation.engine import ConvergenceError
 from hxtrain.solver.simulation.evaluation import as_case
 from hxtrain.solver.reporting.files import with_whole_counts
 from hxtrain.solver.reporting.text import boxed, fitted
-from hxtrain.solver.simulation.results import SimulationResult, simulate
+from hxtrain.solver.simulation.results import SimulationResult, simulate, worded_column
 
 
 FOULING_TABLES = ("fouling_by_exchanger", "fouling_totals", "fouling_findings")
@@ -57,8 +57,8 @@ def compare_clean_and_fouled(case) -> FoulingComparison:
     for column in ("u_service_w_m2k", "u_clean_w_m2k"):
         if column in f:
             table[column] = f[column]
-    for column, result in (("limits_fouled", fouled), ("limits_clean", clean)):  # worded: objects, not copied text
-        table[column] = pd.Series([_limit_text(result, tag) for tag in exchangers], index=table.index, dtype=object)
+    for column, result in (("limits_fouled", fouled), ("limits_clean", clean)):
+        table[column] = worded_column((_limit_text(result, tag) for tag in exchangers), index=table.index)
     keys = [k for k in fouled.summary.index if k in TOTALS or k.endswith("_inlet_c")] + ["limit_violations", "warnings"]
     totals = pd.DataFrame({"fouled": fouled.summary[keys].astype(float), "clean": clean.summary[keys].astype(float)})
     totals["clean - fouled"] = totals["clean"] - totals["fouled"]

@@ -8,7 +8,7 @@ import pandas as pd
 
 from hxtrain.network import without_fouling
 from hxtrain.solver.simulation.evaluation import as_case
-from hxtrain.solver.simulation.results import simulate
+from hxtrain.solver.simulation.results import simulate, worded_column
 from hxtrain.units.protocol import FIRED_HEATERS, Worded
 
 from .compare import try_scenario
@@ -41,8 +41,8 @@ def cleaning_ranking(case) -> pd.DataFrame:
         row["answer"] = "ok"
         rows.append(row)
     table = pd.DataFrame(rows)
-    if "new_limits_when_clean" in table:  # worded messages kept as they are (objects, not copied text)
-        table["new_limits_when_clean"] = pd.Series([r.get("new_limits_when_clean") for r in rows], dtype=object)
+    if "new_limits_when_clean" in table:
+        table["new_limits_when_clean"] = worded_column(r.get("new_limits_when_clean") for r in rows)
     if table.empty:
         return table
     if "fired_duty_saved_kw" in table:

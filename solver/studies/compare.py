@@ -14,7 +14,7 @@ import pandas as pd
 from hxtrain.network import CaseError
 from hxtrain.network.study import Study
 from hxtrain.solver.reporting.files import with_whole_counts
-from hxtrain.solver.reporting.text import boxed, fitted
+from hxtrain.solver.reporting.text import boxed, fitted, note_lines
 from hxtrain.solver.simulation.engine import ConvergenceError
 from hxtrain.solver.simulation.results import CAUTION, SimulationResult, simulate
 
@@ -104,7 +104,7 @@ def study_text(study: Study, comparison: Comparison, specifications) -> str:
     from hxtrain.solver.reporting.display_units import current
 
     display = current()
-    lines = [f"hxtrain study: {study.title or study.file}", *fitted(f"NOTE: {CAUTION}", display, "      "), ""]
+    lines = [f"hxtrain study: {study.title or study.file}", *note_lines(display), ""]
     for name, (description, _, _) in study.variants.items():
         lines.append(f"  {name}: {description}" if description else f"  {name}")
     lines += ["", render_any(with_whole_counts(comparison.table), display)]

@@ -23,8 +23,9 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from hxtrain.network.changes import key_kind
 from hxtrain.units.protocol import FIRED_HEATERS, TOTALS
+
+from hxtrain.solver.reporting.display_units import ending_of_key
 
 from hxtrain.solver.simulation.batch import simulate_batch
 
@@ -53,20 +54,13 @@ class UncertaintyResult:
         result (each row converted by its quantity; ``E-101.duty`` is a duty), the tornado's
         duties named with their unit and each input's values in its own unit (``input_unit``),
         the samples' inputs named with their unit."""
-        from hxtrain.solver.reporting.display_units import ending_of_stored_unit
-
-        endings = {p: ending_of_stored_unit(key_kind(p).unit) for p in self.tornado["input"]}
         tornado = self.tornado.rename(columns={f"{FURNACE}_at_p10": "fired_heater_duty_at_p10_kw",
                                                f"{FURNACE}_at_p90": "fired_heater_duty_at_p90_kw"})
-        units = []
-        for row, path in enumerate(tornado["input"]):
-            column = display.column(f"x{endings[path]}") if endings[path] else None
-            units.append(column.label if column else "")
-            for end in ("input_p10", "input_p90"):
-                if column is not None:
-                    tornado.loc[tornado.index[row], end] = float(column.convert([tornado[end].iloc[row]])[0])
-        tornado.insert(1, "input_unit", units)
-        samples = self.samples.rename(columns={p: f"{p}{e}" for p, e in endings.items() if e})
+        columns = [_input_column(path, display) for path in tornado["input"]]
+        for end in ("input_p10", "input_p90"):
+            tornado[end] = [float(c.convert([v])[0]) if c else v for c, v in zip(columns, tornado[end])]
+        tornado.insert(1, "input_unit", [c.label if c else "" for c in columns])
+        samples = self.samples.rename(columns={p: f"{p}{ending_of_key(p)}" for p in self.tornado["input"]})
         return {"uncertainty_percentiles": self.percentiles.set_index("result"), "uncertainty_tornado": tornado,
                 "uncertainty_samples": samples}
 
@@ -190,12 +184,16 @@ def uncertainty_text(result: UncertaintyResult, study, display=None) -> str:
     return "\n".join(lines)
 
 
+def _input_column(path, display):
+    """How an uncertain input is shown (its unit, decimals, conversion); None without a unit."""
+    ending = ending_of_key(path)
+    return display.column(f"x{ending}") if ending else None
+
+
 def _input_digits(path, display) -> int:
     """Decimals of an uncertain input as shown: its unit's, or four for a number without one."""
-    from hxtrain.solver.reporting.display_units import ending_of_stored_unit
-
-    ending = ending_of_stored_unit(key_kind(path).unit)
-    return display.column(f"x{ending}").digits if ending else 4
+    column = _input_column(path, display)
+    return column.digits if column else 4
 
 
 def uncertainty_command(args, write, say_written) -> int:
@@ -204,7 +202,7 @@ def uncertainty_command(args, write, say_written) -> int:
     from hxtrain.network.study import load_study
 
     from hxtrain.solver.reporting.display_units import current
-    from hxtrain.solver.reporting.text import fitted
+    from hxtrain.solver.reporting.text import note_lines
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies.distributed import cluster_for
 
@@ -220,7 +218,7 @@ def uncertainty_command(args, write, say_written) -> int:
                     {"study": study.file, "title": study.title, "seed": result.seed, "caution": CAUTION},
                     {"study file": study.file, "base case": study.base.file})
     print(uncertainty_text(result, study))
-    print("\n" + "\n".join(fitted(f"NOTE: {CAUTION}", current(), "      ")))
+    print("\n" + "\n".join(note_lines(current())))
     say_written(written)
     return 0
 

@@ -58,11 +58,11 @@ def grid_columns_with_units(sweep, table) -> dict:
     """{swept key path: the same with its unit's column ending} for the swept values of a
     sweep's table that are in the key's own unit (not factors of the base: ``scale``), so that
     a report shows them with their unit, converted like any result column."""
-    from hxtrain.solver.reporting.display_units import ending_of_stored_unit
+    from hxtrain.solver.reporting.display_units import ending_of_key
 
     if sweep.scale:
         return {}
-    return {p: f"{p}{ending}" for p in sweep.grid if p in table and (ending := ending_of_stored_unit(key_kind(p).unit))}
+    return {p: f"{p}{ending}" for p in sweep.grid if p in table and (ending := ending_of_key(p))}
 
 
 def _whole(path: str) -> bool:
