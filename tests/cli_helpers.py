@@ -27,3 +27,16 @@ def run_in_process(capsys, *args) -> tuple[int, str, str]:
         code = exc.code
     captured = capsys.readouterr()
     return code, captured.out, captured.err
+
+
+CONSOLE_WIDTH = 120
+"""The width a console report keeps to (``console_tables.WIDTH``, not imported here so that the
+helpers load without the package)."""
+WHOLE_LINES = ("!!", "case file: ", "monitoring file: ", "schedule file: ", "wrote ")
+"""Lines printed whole: a file's path, to be copied (an installed demo's path is as long as the
+place it is installed in), and a boxed limit's line."""
+
+
+def fits_the_width(text: str, width: int = CONSOLE_WIDTH) -> bool:
+    """Every line of a console report within ``width`` but those in :data:`WHOLE_LINES`."""
+    return all(len(line) <= width for line in text.splitlines() if not line.startswith(WHOLE_LINES))

@@ -13,7 +13,7 @@ import re
 import numpy as np
 import pytest
 
-from cli_helpers import run_in_process
+from cli_helpers import fits_the_width, run_in_process
 from test_plant_cli import MONITORING
 from test_scheduling import small_schedule
 
@@ -112,7 +112,7 @@ def test_monitor_in_us_units_is_the_si_output_converted_by_hand(monitored, tmp_p
     assert "rate_per_day_m2_k_w" in si["fouling_laws"][0]  # law parameters as numbers with units
     assert "fired duty above 107.824 MMBtu/h" in {row["limit"] for row in us["limit_dates"]}  # 31.6 MW: 31 600 kW × 3600 / 1055.05585262 / 1000
     for text in (si_text, us_text):
-        assert max(len(line) for line in text.splitlines()) <= 120
+        assert fits_the_width(text)
     assert not SI_LABELS.findall(us_text), SI_LABELS.findall(us_text)
     for label in ("MMBtu/h", "Btu/h·ft²·°F", "h·ft²·°F/Btu", "lb/h", "Δ°F", "°F", "MMBtu/day"):
         assert label in us_text, label
@@ -149,7 +149,7 @@ def test_schedule_in_us_units_is_the_si_output_converted_by_hand(tmp_path, capsy
     assert not SI_LABELS.findall(us_text), SI_LABELS.findall(us_text)
     assert "fires at most 97.928 MMBtu/h" in us_text  # 28.7 MW: 28 700 kW × 3600 / 1055.05585262 / 1000
     for text in (si_text, us_text):
-        assert max(len(line) for line in text.splitlines() if not line.startswith("wrote")) <= 120
+        assert fits_the_width(text)
 
 
 def test_a_case_choice_of_unit_applies_to_schedule_files(tmp_path, capsys):

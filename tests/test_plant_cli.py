@@ -8,7 +8,7 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from cli_helpers import run_in_process
+from cli_helpers import fits_the_width, run_in_process
 from test_scheduling import small_schedule
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -40,7 +40,7 @@ def test_monitor_prints_the_state_cost_instruments_and_limits(monitor_run):
     instruments = out[out.index("Instruments to check"):out.index("Cleanings")]
     assert instruments.splitlines()[4].split()[0] == "TI-206"  # the drifting thermocouple heads the list
     assert out.rstrip().splitlines()[-1].startswith("wrote")
-    assert max(len(line) for line in out.splitlines() if not line.startswith("wrote")) <= 120
+    assert fits_the_width(out)
 
 
 def test_monitor_writes_its_tables(monitor_run):

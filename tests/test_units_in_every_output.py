@@ -11,6 +11,7 @@ import json
 import numpy as np
 import pandas as pd
 import pytest
+from cli_helpers import CONSOLE_WIDTH, fits_the_width
 from cli_helpers import run_in_process as run_cli
 
 from hxtrain.solver.demos import demo_case_path
@@ -61,7 +62,7 @@ def test_specification_results_carry_their_units_and_convert(tmp_path, capsys):
     assert us[outlet]["at_low_end_f"] == pytest.approx(1.8 * si[outlet]["at_low_end_c"] + 32.0, rel=1e-12)
     assert us[outlet]["value"] == si[outlet]["value"]  # a bypass fraction has no unit
     assert "(target 464 °F)" in us[outlet]["message"] and "°C" not in out.split("Specification")[1]
-    assert all(len(line) <= WIDTH for line in out.splitlines() if not line.startswith("!!"))
+    assert fits_the_width(out)
 
 
 def test_fouled_against_clean_in_us_units(capsys):
@@ -81,7 +82,21 @@ def test_the_cleaning_ranking_words_follow_the_units(tmp_path, capsys):
     words = " ".join(ranking["new_limits_when_clean"].dropna())
     assert "°F" in words and "°C" not in words
     assert "°C" not in out
-    assert all(len(line) <= WIDTH for line in out.splitlines())
+    assert fits_the_width(out)
+
+
+def test_a_long_case_path_is_printed_whole_on_its_own_line(tmp_path, capsys):
+    """An installed demo lies as deep as the environment it is installed in (CI's was past the width):
+    the path gets a line of its own, whole, and the tables still fit."""
+    deep = tmp_path.joinpath(*["a_rather_long_folder_name"] * 5)
+    deep.mkdir(parents=True)
+    case = deep / "crude_preheat.yaml"
+    case.write_bytes(demo_case_path("crude_preheat").read_bytes())
+    assert len(str(case)) > WIDTH
+    code, out, err = run_cli(capsys, "cleaning", case, "--units", "us")
+    assert code == 0, err
+    assert f"case file: {case}" in out.splitlines()
+    assert fits_the_width(out) and CONSOLE_WIDTH == WIDTH
 
 
 def test_a_sweep_shows_its_grid_in_the_units_and_width(tmp_path, capsys):
@@ -94,7 +109,7 @@ def test_a_sweep_shows_its_grid_in_the_units_and_width(tmp_path, capsys):
     rows = json.loads((tmp_path / "s.json").read_text())["water"]
     assert [row["streams.cooling_water.flow_lb_h"] for row in rows] == pytest.approx([476_198.5, 714_297.7], rel=1e-6)
     assert "lb/h" in out and "476,198" in out and "714,298" in out  # 60 and 90 kg/s
-    assert all(len(line) <= WIDTH for line in out.splitlines())
+    assert fits_the_width(out)
     np.testing.assert_allclose(60 * 3600 / 0.45359237, 476_198.6, rtol=1e-6)
 
 

@@ -177,9 +177,11 @@ def _cleaning(args) -> int:
     inputs = {"case file": path}
     if args.out:
         check_output_path(args.out, inputs, ["ranking"])
-    ranking = cleaning_ranking(load_case(path))
+    case = load_case(path)
+    ranking = cleaning_ranking(case)
     written = _write({"ranking": ranking}, args, {"case_file": str(path), "caution": CAUTION}, inputs)
-    print(f"Cleaning one exchanger at a time: {path}")
+    print(f"hxtrain cleaning, one exchanger at a time: {case.title or path}")
+    print(f"case file: {path}")  # whole, to be copied; the tables keep to the width
     print(render(ranking, current()) if len(ranking) else "no exchanger has fouling")
     print("\n" + "\n".join(note_lines(current())))
     _say_written(written)
