@@ -32,7 +32,7 @@ def run_in_process(capsys, *args) -> tuple[int, str, str]:
 CONSOLE_WIDTH = 120
 """The width a console report keeps to (``console_tables.WIDTH``, not imported here so that the
 helpers load without the package)."""
-WHOLE_LINES = ("!!", "case file: ", "monitoring file: ", "schedule file: ", "wrote ")
+WHOLE_LINES = ("!!", "case file: ", "monitoring file: ", "plant data file: ", "schedule file: ", "wrote ")
 """Lines printed whole: a file's path, to be copied (an installed demo's path is as long as the
 place it is installed in), and a boxed limit's line."""
 

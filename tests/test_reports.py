@@ -16,7 +16,7 @@ from hxtrain.solver.reporting.display_units import DISPLAY_TABLE, Display
 from hxtrain.solver.reporting.html_report import case_report
 from hxtrain.solver.reporting.text import text_report
 
-from cli_helpers import run_in_process
+from cli_helpers import fits_the_width, run_in_process
 
 DEMOS = ("crude_preheat", "feed_effluent", "product_cooling")
 
@@ -85,7 +85,7 @@ def test_a_volume_flow_without_a_density_is_refused_with_a_hint():
 def test_the_console_report_fits_120_columns_and_wide_prints_everything(demo, results):
     result = results[demo]
     fitted = text_report(result, display=Display())
-    assert max(map(len, fitted.splitlines())) <= 120
+    assert fits_the_width(fitted)
     wide = text_report(result, display=Display(wide=True))
     for column in ("hot in", "UA", "LMTD", "approach", "segment"):
         assert column in fitted and column in wide
@@ -98,7 +98,7 @@ def test_us_units_on_the_console(capsys):
     code, out, err = run_in_process(capsys, "run", "--units", "us")
     assert code == 0, err
     assert "°F" in out and "MMBtu/h" in out and "°C" not in out.split("Totals")[1]
-    assert max(map(len, out.splitlines())) <= 120
+    assert fits_the_width(out)
 
 
 # ----------------------------------------------------------------------------- files

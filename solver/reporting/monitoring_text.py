@@ -96,9 +96,10 @@ def monitoring_report(result, display: Display | None = None) -> str:
     display = (display or current()).with_case(m.case)
     windows = result.windows
     currency = (m.economics or {}).get("currency", "")
-    parts = [f"hxtrain monitor: {m.title or m.file}", f"monitoring file: {m.file}",
+    parts = [f"hxtrain monitor: {m.title or m.file}", f"monitoring file: {m.file}",  # paths whole, to be copied
+             f"plant data file: {m.data_path}",
              *textwrap.wrap(f"NOTE: {CAUTION}", WIDTH, subsequent_indent="      "), "",
-             f"Plant data: {m.data_path} — {len(history.samples)} rows from {_day(history.samples.index.min())} "
+             f"Plant data: {len(history.samples)} rows from {_day(history.samples.index.min())} "
              f"to {_day(history.samples.index.max())}"]
     parts += _skipped_lines(history.skipped)
     steady = int(windows["steady"].sum())
