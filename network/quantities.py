@@ -341,11 +341,17 @@ def conversion_to(unit_text: str, kind: Kind) -> tuple[float, float]:
     >>> round(conversion_to("MMBtu/h", DUTY)[0], 6)
     293.07107
     """
+    spelt = unit_spelling(str(unit_text).strip(), kind)
+    if spelt == kind.unit:  # a report in the stored units (SI) needs no registry
+        return 1.0, 0.0
+    factor = PLAIN_FACTORS.get((spelt, kind.unit))
+    if factor is not None:  # the very float pint gives (tests/test_input_surface.py)
+        return factor, 0.0
     import pint
 
     ureg = registry()
     try:
-        units = ureg.parse_units(unit_spelling(str(unit_text).strip(), kind))
+        units = ureg.parse_units(spelt)
         zero, one = (float(ureg.Quantity(v, units).to(kind.unit).magnitude) for v in (0.0, 1.0))
     except pint.DimensionalityError:
         raise QuantityError(f"{shorten(unit_text)} is not a unit of {kind.name} (such as "

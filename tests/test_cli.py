@@ -326,6 +326,18 @@ def test_check_loads_no_tables_plots_or_unit_registry():
     assert result.stdout.splitlines()[-1] == "0 []"
 
 
+def test_a_run_in_si_units_loads_no_unit_registry():
+    """Start-up: a report in the stored units converts nothing, so `hxtrain run` on the demo (whose
+    units are all common ones) loads no pint (~0.5 s)."""
+    probe = ("import contextlib, io, sys\nfrom hxtrain.solver.cli.main import main\n"
+             "with contextlib.redirect_stdout(io.StringIO()):\n"
+             f"    code = main(['run', {str(demo_case_path(DEMO_CASES[0]))!r}])\n"
+             "print(code, 'pint' in sys.modules)")
+    result = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, timeout=120)
+    assert result.returncode == 0, result.stderr
+    assert result.stdout.splitlines()[-1] == "0 False"
+
+
 def test_version(capsys):
     code, out, err = run_inprocess(capsys, "--version")
     assert code == 0

@@ -474,6 +474,10 @@ def test_units_read_without_pint_convert_to_the_very_number_pint_gives(unit, def
     for magnitude in (1.0, 0.3, 2.5, 7.1, 42.0, 310.0, 1e-4, 123456.789, 1 / 3, 9e-3):
         by_pint = float(ureg.Quantity(magnitude, ureg.parse_units(unit)).to(default).magnitude)
         assert q._parse(f"{magnitude!r} {unit}", kind) == by_pint, (magnitude, unit)
+    units = ureg.parse_units(unit)  # the reports' conversion, read from the same table
+    pint_scale = (float(ureg.Quantity(1.0, units).to(default).magnitude)
+                  - float(ureg.Quantity(0.0, units).to(default).magnitude))
+    assert q.conversion_to(unit, kind) == (pint_scale, 0.0)
 
 
 def geometry_case(**geometry_changes):
