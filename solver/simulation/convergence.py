@@ -3,7 +3,7 @@
 Stages, switched for the whole batch when progress stops:
 
 1. Quasi-Newton on the residual F(x) = g(x) - x: a forward-difference Jacobian (one extra sweep
-   per tear), then Broyden's rank-one update after every step (Broyden 1965, Math. Comp. 19), a
+   per tear, of the units that tear reaches where the caller can sweep part of a block), then Broyden's rank-one update after every step (Broyden 1965, Math. Comp. 19), a
    fresh Jacobian whenever a step gains less than :data:`REFRESH_RATIO`, and step halving where a
    full step does not lower the residual. With constant cp and fixed UA the sweep is affine in
    the tears and the first full step is the answer; with cp(T) and U(T) it is nearly so. Used
@@ -98,13 +98,16 @@ class _Counted:
     ``precision`` K (0: exact); ``error``: how far (K) the last sweep may lie from the exact one
     (0 unless some unit did stop early)."""
 
-    def __init__(self, evaluate):
-        self.evaluate, self.count, self.precision, self.error = evaluate, 0, 0.0, 0.0
+    def __init__(self, evaluate, one_tear=None):
+        self.evaluate, self.one_tear = evaluate, one_tear
+        self.count, self.precision, self.error = 0, 0.0, 0.0
 
-    def __call__(self, x):
+    def __call__(self, x, changed=None):
+        """g(x); ``changed``: the one tear in which x differs from the last point swept whole
+        (a Jacobian column), swept by ``one_tear`` where given."""
         self.count += 1
         with outlets_within(self.precision) as record:
-            g = self.evaluate(x)
+            g = self.evaluate(x) if changed is None or self.one_tear is None else self.one_tear(x, changed)
         self.error = record.kelvin if record.used else 0.0  # a unit stopped early: good to its precision only
         return g
 
@@ -119,9 +122,12 @@ class _Counted:
         self.precision = wanted if np.isfinite(wanted) and wanted >= EXACT_BELOW else 0.0
 
 
-def converge_tears(evaluate, x0, tolerance, max_iterations) -> TearResult:
-    """Solve x = evaluate(x) for x of shape (batch, tears); see the module notes for the method."""
-    evaluate = _Counted(evaluate)
+def converge_tears(evaluate, x0, tolerance, max_iterations, one_tear=None) -> TearResult:
+    """Solve x = evaluate(x) for x of shape (batch, tears); see the module notes for the method.
+    ``one_tear(x, j)``, where given, is evaluate(x) for an x that differs from the point last
+    evaluated only in tear j: the forward-difference Jacobian's columns, which a sweep of just
+    the units that tear reaches can give."""
+    evaluate = _Counted(evaluate, one_tear)
     x = np.array(x0, dtype=float)
     evaluate.precision = START_PRECISION
     g = evaluate(x)
@@ -206,7 +212,7 @@ def _newton_matrix(evaluate, x, g):
         step = FD_STEP * np.maximum(1.0, np.abs(x[:, j]))
         shifted = x.copy()
         shifted[:, j] += step
-        jac[:, :, j] = (evaluate(shifted) - g) / step[:, None]
+        jac[:, :, j] = (evaluate(shifted, changed=j) - g) / step[:, None]
     return np.eye(n)[None] - jac
 
 

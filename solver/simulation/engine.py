@@ -178,20 +178,58 @@ def _solve_block(net, layout, block, temperature, flow, guess, tolerance, max_it
                                                        max_iterations, outcomes) for part in block.parts])
     else:
         slots = {seg: j for j, seg in enumerate(block.tears)}
-        last = {}
+        last, whole = {}, {}
 
         # every evaluation rewrites all of the block's segments from the tears and the blocks
         # before it, so it may work in place; ``last`` says at which tears the array now is
+        # (None after a sweep of part of the block), ``whole`` what the last whole sweep left
         def evaluate(x):
             temperature[:, block.tears] = x
             last["x"] = x
-            return _sweep(net, layout, block.units, temperature, flow, slots)
+            whole.update(x=np.array(x), g=_sweep(net, layout, block.units, temperature, flow, slots), saved=None)
+            return whole["g"].copy()
 
-        result = converge_tears(evaluate, layout.guess(net, block.tears, guess), tolerance, max_iterations)
+        def one_tear(x, j):
+            """g at x, which differs from the last whole sweep's point in tear j only: the units
+            tear j does not reach keep what that sweep gave them (about half of the crude demo's)."""
+            others = np.arange(x.shape[1]) != j
+            if not whole or not np.array_equal(x[:, others], whole["x"][:, others]):
+                return evaluate(x)
+            if whole["saved"] is None:
+                whole["saved"] = temperature[:, _written(net, block)].copy()
+            else:  # back to the whole sweep's states before the next column
+                temperature[:, _written(net, block)] = whole["saved"]
+            temperature[:, block.tears] = x
+            last["x"] = None
+            units, produced = _reached(net, block, j)
+            computed = _sweep(net, layout, units, temperature, flow, slots)
+            g = whole["g"].copy()
+            g[:, produced] = computed[:, produced]
+            return g
+
+        result = converge_tears(evaluate, layout.guess(net, block.tears, guess), tolerance, max_iterations, one_tear)
         if not np.array_equal(last["x"], result.x):
             evaluate(result.x)
     outcomes.append(BlockOutcome(block, result))
     return result.converged
+
+
+def _written(net, block) -> list:
+    """The segments a sweep of ``block`` writes: its units' outlets and its tears."""
+    return sorted({seg for name in block.units for seg in net.outlets[name]}.union(block.tears))
+
+
+def _reached(net, block, j) -> tuple[list, list]:
+    """The units of ``block`` whose outlets change with its tear ``j`` (the rest held), in the
+    block's order, and the tears (their columns) those units compute."""
+    tears = set(block.tears)
+    changed, reached = {block.tears[j]}, []
+    for name in block.units:  # the block's order: a unit's inlets are computed before it
+        if changed.intersection(net.inlets[name]):
+            reached.append(name)
+            changed.update(seg for seg in net.outlets[name] if seg not in tears)
+    produced = [k for k, seg in enumerate(block.tears) if any(seg in net.outlets[name] for name in reached)]
+    return reached, produced
 
 
 def _converge_large_block(net, layout, block, temperature, flow, guess, tolerance, max_iterations) -> TearResult:
