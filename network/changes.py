@@ -7,6 +7,7 @@ A change is one mapping::
     {scale: streams.crude.flow, by: 1.15}               # a numeric key; not a temperature
     {bypass: E-110.cold, fraction: 0.2}                 # open (or close) an exchanger bypass
     {add_shells: E-104, count: 1}                       # add (or, negative, remove) shells in series
+                                                        # (identical ones: a total "ua" grows with them)
     {clean: E-112}                                      # every fouling resistance of E-112 to zero
 
 Every component of a key path except the last must exist in the case (a mapping of a numeric
@@ -286,6 +287,9 @@ def apply_change(data: dict, change: dict, where=()) -> None:
         shells = exchanger.get("shells")
         shells = 1 if shells is None else case_number(shells, WHOLE_NUMBER, f"exchangers.{target}.shells", at)
         exchanger["shells"] = shells + count
+        if "ua" in exchanger and shells + count > 0:  # a total UA: each shell added brings its share
+            ua = case_number(exchanger["ua"], q.CONDUCTANCE, f"exchangers.{target}.ua", at)
+            exchanger["ua"] = ua * (shells + count) / shells
     else:
         exchanger = _exchanger(data, target, at)
         if "fouling" not in exchanger:

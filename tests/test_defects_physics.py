@@ -205,3 +205,69 @@ def test_unmixed_crossflow_is_finite_at_extreme_ntu():
         upper = 1.0 if r <= 1.0 else 1.0 / r
         for ntu in (1e12, 1e200, math.inf):
             assert float(p_unmixed(ntu, r)) == pytest.approx(upper, rel=1e-5, abs=0.0), (r, ntu)
+
+
+# ============================================================ a third trial: approach in shells, design behind a bypass
+
+
+def _shells_one_by_one(t_hot_in, t_cold_in, c_hot, c_cold, ua_each, shells):
+    """Single 1-2 shells joined counter-currently, converged by substitution on the cold
+    temperatures between them: (hot outlet minus cold outlet of each shell, overall cold out)."""
+    from hxtrain.units.pntu_rating import rate_exchanger
+
+    cold_between = [t_cold_in] * shells  # cold into shell k; shell `shells - 1` takes the supply
+    for _ in range(500):
+        t_hot, differences, cold_out = t_hot_in, [], []
+        for k in range(shells):
+            one = rate_exchanger(t_hot, cold_between[k], c_hot, c_cold, ua_each, "tema_e", shells=1)
+            differences.append(float(one.t_hot_out - one.t_cold_out))
+            cold_out.append(float(one.t_cold_out))
+            t_hot = float(one.t_hot_out)
+        cold_between = [*cold_out[1:], t_cold_in]
+    return differences, cold_out[0]
+
+
+@pytest.mark.parametrize("shells", [1, 2, 3])
+def test_the_approach_of_multipass_shells_is_where_their_outlets_meet(shells):
+    """A 1-2 shell's outlets meet inside it: its approach is T_h,out - T_c,out where that is
+    smaller than the counterflow end differences (common practice: the 1-2 shell's "temperature
+    approach"); for shells in series, the smallest over the shells, each rated here alone and
+    joined counter-currently by substitution (an independent path)."""
+    from hxtrain.units.pntu_rating import rate_exchanger
+
+    c_hot, c_cold, ua = 20 * 2.5, 30 * 2.2, 60.0 * shells
+    whole = rate_exchanger(230.0, 30.0, c_hot, c_cold, ua, "tema_e", shells=shells)
+    differences, cold_out = _shells_one_by_one(230.0, 30.0, c_hot, c_cold, ua / shells, shells)
+    assert float(whole.t_cold_out) == pytest.approx(cold_out, abs=1e-9)
+    ends = min(230.0 - float(whole.t_cold_out), float(whole.t_hot_out) - 30.0)
+    assert min(differences) < ends  # the outlets' meeting is what decides here
+    assert float(whole.approach) == pytest.approx(min(differences), abs=1e-9)
+    counterflow = rate_exchanger(230.0, 30.0, c_hot, c_cold, ua, "counterflow")
+    assert float(counterflow.approach) == pytest.approx(min(230.0 - float(counterflow.t_cold_out),
+                                                            float(counterflow.t_hot_out) - 30.0), abs=1e-12)
+
+
+def _bypassed_water_case(design_c):
+    return {"settings": {"minimum_approach": 5},
+            "fluids": {"oil": {"cp": 2.4}, "water": {"cp": 4.18}},
+            "streams": {"oil": {"fluid": "oil", "flow": 20.0, "supply_temperature": 120.0, "path": "E-1.hot -> o"},
+                        "water": {"fluid": "water", "flow": 40.0, "supply_temperature": 30.0, "path": "E-1.cold -> w"}},
+            "exchangers": {"E-1": {"arrangement": "counterflow", "ua": 40.0, "bypass": {"cold": 0.3},
+                                   "design_temperature": {"cold": design_c}}},
+            "products": {"o": {}, "w": {}}}
+
+
+def test_a_design_temperature_is_checked_inside_the_exchanger_ahead_of_its_bypass():
+    """Water round a 30 % bypass rejoins colder: the tubes see the exchanger's own outlet,
+    30 + Q / (0.7 · 40 · 4.18), above the mixed outlet, and that is what the design
+    temperature limits."""
+    result = simulate(case_from_mapping(_bypassed_water_case(45.0), "<test>"))
+    duty = result.units.loc["E-1", "duty_kw"]
+    inside = 30.0 + duty / (0.7 * 40.0 * 4.18)
+    mixed = result.units.loc["E-1", "cold_out_c"]
+    assert mixed == pytest.approx(30.0 + duty / (40.0 * 4.18), rel=1e-12) and mixed < 45.0 < inside
+    limits = result.findings[result.findings["kind"] == "design_temperature"]
+    assert len(limits) == 1 and f"reaches {inside:.1f} °C" in limits["message"].iloc[0]
+    assert "ahead of its bypass" in limits["message"].iloc[0]
+    above = simulate(case_from_mapping(_bypassed_water_case(inside + 0.1), "<test>"))
+    assert not (above.findings["kind"] == "design_temperature").any()

@@ -115,3 +115,16 @@ def test_bad_uncertainty_input_names_the_key(tmp_path, inputs, key):
         load_study(path)
     assert str(path) in str(error.value) and key in str(error.value)
     assert main(["uncertainty", str(path)]) == 2
+
+
+def test_without_a_fired_heater_the_tornado_ranks_nothing(tmp_path, capsys):
+    """The product cooling train has no fired heater: its duty is zero in every sample, and rank
+    correlations with a constant (of round-off) mean nothing: none is given, and the report says
+    why instead of a table."""
+    study = tmp_path / "u.yaml"
+    study.write_text("base: {demo: product_cooling}\nuncertainty:\n  samples: 40\n  seed: 3\n  inputs:\n"
+                     "    streams.cooling_water.flow: {distribution: uniform, low: 60, high: 90}\n", encoding="utf-8")
+    result = run_uncertainty(load_study(study))
+    assert result.tornado["rank_correlation"].isna().all()
+    assert main(["uncertainty", str(study)]) == 0
+    assert "does not vary over the samples" in capsys.readouterr().out

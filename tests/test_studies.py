@@ -1155,3 +1155,26 @@ def test_metric_reads_the_named_result():
     assert metric(result, "naphtha_rundown.inlet") == result.units.loc["naphtha_rundown", "inlet_c"]
     with pytest.raises(CaseError):
         metric(result, "E-999.duty")
+
+
+def test_an_added_shell_brings_its_share_of_a_total_ua():
+    """'ua' is the total of an exchanger's shells: a shell added (identical to those there) adds
+    its share, as it adds area where U comes with an area per shell; removing one takes it away.
+    The variant rates as the case written with two shells and twice the UA."""
+    from hxtrain.network.changes import apply_changes
+    from hxtrain.solver import simulate
+
+    def case(shells, ua):
+        return {"fluids": {"oil": {"cp": 2.5}, "feed": {"cp": 2.2}},
+                "streams": {"hot": {"fluid": "oil", "flow": 20.0, "supply_temperature": 230.0, "path": "E-1.hot -> h"},
+                            "cold": {"fluid": "feed", "flow": 30.0, "supply_temperature": 40.0, "path": "E-1.cold -> c"}},
+                "exchangers": {"E-1": {"arrangement": "tema_e", "shells": shells, "ua": ua}},
+                "products": {"h": {}, "c": {}}}
+
+    added = apply_changes(case(1, "60 kW/K"), [{"add_shells": "E-1", "count": 1}])
+    assert added["exchangers"]["E-1"]["shells"] == 2 and added["exchangers"]["E-1"]["ua"] == pytest.approx(120.0)
+    removed = apply_changes(case(3, 90.0), [{"add_shells": "E-1", "count": -1}])
+    assert removed["exchangers"]["E-1"]["ua"] == pytest.approx(60.0)
+    duty = simulate(added).units.loc["E-1", "duty_kw"]
+    assert duty == pytest.approx(simulate(case(2, 120.0)).units.loc["E-1", "duty_kw"], rel=1e-12)
+    assert duty > 1.2 * simulate(case(1, 60.0)).units.loc["E-1", "duty_kw"]  # more area, more duty

@@ -333,9 +333,15 @@ class Exchanger(UnitBase):
         x, key = service.rating, self.key
         t_hot, t_cold = inlets.t[:, 0], inlets.t[:, 1]
         design = self.limits.get("design_temperature", {})
+        # a side's peak is inside the exchanger: its outlet there, ahead of any bypass that
+        # mixes back what went round (the mixed outlet lies between that and the inlet)
+        bypassed = {"hot": self.spec.bypass_hot, "cold": self.spec.bypass_cold}
         findings = design_temperature_findings(key, {
-            "the hot side ": (design.get("hot"), t_hot, x.t_hot_out),
-            "the cold side ": (design.get("cold"), t_cold, x.t_cold_out)})
+            f"the {side} side " + ("inside the exchanger (ahead of its bypass) " if np.any(bypassed[side]) else ""):
+            (design.get(side), t_in, t_out) for side, t_in, t_out in (
+                # rated by zones, x is of the exchanger proper already
+                ("hot", t_hot, getattr(x, "t_hot_out_exchanger", x.t_hot_out)),
+                ("cold", t_cold, getattr(x, "t_cold_out_exchanger", x.t_cold_out)))})
         for j, side in enumerate(("hot", "cold")):
             limit = self.limits.get("maximum_flow", {}).get(side)
             if limit is not None:

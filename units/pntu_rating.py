@@ -92,6 +92,26 @@ def _outlet(t_in, t_other_in, c, duty_out, ua):
     return np.where(c > 0.0, t_in - duty_out / safe_c, stagnant)
 
 
+def _unit_outlet_difference(t_hot_in, t_cold_out, p_c_min, c_hot, c_cold, shells):
+    """The smallest hot-outlet minus cold-outlet difference of any one unit of ``shells`` in
+    series, counter-current between units (hot enters the first, cold leaves it): in a
+    multipass shell the two outlets meet inside the shell (a 1-2 shell's "temperature
+    approach", common practice; below zero a temperature cross), while the ends of the series
+    show only the counterflow terminal differences. Marched from the hot end: in each unit
+    T_c,in = (T_c,out - a T_h,in) / (1 - a), a = P·C_min / C_cold, and
+    T_h,out = T_h,in - P·C_min / C_hot · (T_h,in - T_c,in), with ``p_c_min`` = P·C_min of one unit."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        a_cold = np.where(c_cold > 0.0, p_c_min / np.where(c_cold > 0.0, c_cold, 1.0), 0.0)
+        a_hot = np.where(c_hot > 0.0, p_c_min / np.where(c_hot > 0.0, c_hot, 1.0), 0.0)
+        t_hot, t_cold_leaving, smallest = t_hot_in, t_cold_out, np.inf
+        for _ in range(int(shells)):
+            t_cold_entering = (t_cold_leaving - a_cold * t_hot) / (1.0 - a_cold)
+            t_hot_leaving = t_hot - a_hot * (t_hot - t_cold_entering)
+            smallest = np.minimum(smallest, t_hot_leaving - t_cold_leaving)
+            t_hot, t_cold_leaving = t_hot_leaving, t_cold_entering
+    return np.where(np.isfinite(smallest), smallest, t_hot_in - t_cold_out)
+
+
 def rate_exchanger(
     t_hot_in,
     t_cold_in,
@@ -196,6 +216,9 @@ def rate_exchanger(
         approach = direction * (t_hot_x - t_cold_x)  # both streams leave at one end
     else:
         approach = np.minimum(direction * end_hot_in, direction * end_hot_out)
+        if a.line.cross(passes, options):  # a multipass unit: its outlets meet inside it too
+            approach = np.minimum(approach, direction * _unit_outlet_difference(
+                t_hot_in, t_cold_x, p_shell * c_min, c_hot, c_cold, shells))
     # a temperature cross inside one unit, P_hot + P_cold > 1 (the same for every unit of a
     # series, whose units share P and R): heat flows back inside a multipass unit, or, in units
     # joined in parallel flow, in the next unit

@@ -139,12 +139,13 @@ def findings_box(result: SimulationResult, display: Display | None = None) -> st
     findings = result.findings
     limits = findings[findings["severity"] == "limit"]
     warnings = findings[findings["severity"] == "warning"]
-    lines = boxed("LIMITS VIOLATED", (f"{row.unit}: {display.message(row.message)}  [{row.key}]"
-                                      for row in limits.itertuples()), display=display)
-    if len(warnings):
+    lines = []
+    if len(warnings):  # before the box: the violated limits are what the report ends on
         lines += ["", f"Warnings: {len(warnings)}"]
         for row in warnings.itertuples():
             lines += fitted(f"  * {row.unit}: {display.message(row.message)}", display)
+    lines += boxed("LIMITS VIOLATED", (f"{row.unit}: {display.message(row.message)}  [{row.key}]"
+                                       for row in limits.itertuples()), display=display)
     if not len(findings):
         lines += ["", "No limit violated and no warnings."]
     return "\n".join(lines)

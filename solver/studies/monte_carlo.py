@@ -154,13 +154,19 @@ def _tornado(case, drawn, table, ok) -> pd.DataFrame:
     return result.iloc[order].reset_index(drop=True)
 
 
+def _varies(values) -> bool:
+    """Whether ``values`` spread by more than round-off (1e-9 of their size)."""
+    values = np.asarray(values, float)
+    return bool(values.size) and float(np.ptp(values)) > 1e-9 * (1.0 + float(np.max(np.abs(values))))
+
+
 def _rank_correlation(x, y) -> float:
     """Spearman's rank correlation (Pearson's on the ranks; ties are rare in continuous samples)."""
     if len(x) < 3:
         return float("nan")
-    rx, ry = np.argsort(np.argsort(x)), np.argsort(np.argsort(y))
-    if np.std(rx) == 0 or np.std(ry) == 0:
+    if not _varies(x) or not _varies(y):  # ranks of round-off mean nothing
         return float("nan")
+    rx, ry = np.argsort(np.argsort(x)), np.argsort(np.argsort(y))
     return float(np.corrcoef(rx, ry)[0, 1])
 
 
@@ -180,7 +186,12 @@ def uncertainty_text(result: UncertaintyResult, study, display=None) -> str:
     for end in ("input_p10", "input_p90"):  # each input in its own unit's decimals (lb/h whole, °F one)
         tornado[end] = [fixed(value, _input_digits(path, display)) for path, value in zip(tornado["input"], tornado[end])]
     lines += ["", f"What moves the fired heaters' duty most (each input alone at its P10 and P90, the others at P50)",
-              "-" * 96, render(tornado, display, digits={"rank_correlation": 3})]
+              "-" * 96]
+    if _varies(result.samples[FURNACE].dropna()):
+        lines.append(render(tornado, display, digits={"rank_correlation": 3}))
+    else:
+        lines.append("The fired heaters' duty does not vary over the samples (none in this case, or none that the inputs "
+                     "reach): nothing to rank.")
     return "\n".join(lines)
 
 
