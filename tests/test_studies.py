@@ -835,7 +835,8 @@ def test_infeasible_specification_reports_the_achievable_range(tmp_path, goal):
     assert result.achievable[0] == pytest.approx(at_low, rel=1e-9)
     assert result.achievable[1] == pytest.approx(at_high, rel=1e-9)
     assert not min(at_low, at_high) <= goal <= max(at_low, at_high)
-    assert f"{min(at_low, at_high):.4g}" in result.message and f"{max(at_low, at_high):.4g}" in result.message
+    assert f"gives {min(at_low, at_high):.1f} °C to {max(at_low, at_high):.1f} °C" in result.message  # °C: 1 decimal
+    assert f"{min(at_low, at_high)!r}" in result.message.exact  # the full numbers beside them
 
 
 def test_infeasible_specification_through_the_command(tmp_path, capsys):

@@ -61,7 +61,7 @@ def test_specification_results_carry_their_units_and_convert(tmp_path, capsys):
     assert us[outlet]["target_f"] == pytest.approx(1.8 * si[outlet]["target_c"] + 32.0, rel=1e-12)
     assert us[outlet]["at_low_end_f"] == pytest.approx(1.8 * si[outlet]["at_low_end_c"] + 32.0, rel=1e-12)
     assert us[outlet]["value"] == si[outlet]["value"]  # a bypass fraction has no unit
-    assert "(target 464 °F)" in us[outlet]["message"] and "°C" not in out.split("Specification")[1]
+    assert "(target 464.0 °F)" in us[outlet]["message"]  # °F: one decimal, as the tables and "°C" not in out.split("Specification")[1]
     assert fits_the_width(out)
 
 

@@ -227,22 +227,25 @@ class Display:
             return text
         exact = [(m.group(1), m.group(2)) for m in _MESSAGE_NUMBER.finditer(getattr(text, "exact", ""))]
         rounded = list(_MESSAGE_NUMBER.finditer(text))
-        if len(exact) != len(rounded):
+        known = len(exact) == len(rounded)
+        if not known:
             exact = [(m.group(1), m.group(2)) for m in rounded]
         pieces, end = [], 0
         for match, values in zip(rounded, exact):
-            pieces += [text[end:match.start()], self._shown_number(match, values)]
+            pieces += [text[end:match.start()], self._shown_number(match, values, known)]
             end = match.end()
         return "".join(pieces) + text[end:]
 
-    def _shown_number(self, match, values) -> str:
+    def _shown_number(self, match, values, exact=False) -> str:
         """One matched number (or range) of a message in the shown unit; ``values``: the exact
-        texts of its number(s)."""
+        texts of its number(s), shown in the unit's own decimals where ``exact`` (as the tables
+        show them), else with the decimals the message wrote."""
         unit = match.group(3)
         column = self.column(f"x{ending_of_unit(unit)}")
         if column.label == unit:
             return match.group(0)
-        shown = [_converted(column, value, written) for value, written in zip(values, match.groups()[:2]) if written]
+        shown = [_converted(column, value, written, exact) for value, written in zip(values, match.groups()[:2])
+                 if written]
         return f"{' to '.join(shown)} {column.label}"
 
     def frame(self, frame: pd.DataFrame, differences=()) -> pd.DataFrame:
@@ -289,14 +292,18 @@ class Display:
         return frame.set_axis(pd.Index(names, name=frame.index.name))
 
 
-def _converted(column, value: str, written: str) -> str:
+def _converted(column, value: str, written: str, exact=False) -> str:
     """``value`` (a number's text, exact) in the column's unit, written like ``written`` (its
-    rounded text in the message): as many decimals, or in exponent form where it is."""
+    rounded text in the message): as many decimals, or in exponent form where it is; with
+    ``exact`` (the value is the full number) in the column's own decimals."""
     number = float(column.convert([float(value.replace(",", ""))])[0])
     if "e" in written.lower():
         mantissa = written.lower().partition("e")[0]
         return f"{number:.{len(mantissa.partition('.')[2])}e}"
-    decimals = max(len(written.partition(".")[2]), column.digits if column.quantity == "duty" else 0)
+    if exact:
+        decimals = column.digits
+    else:
+        decimals = max(len(written.partition(".")[2]), column.digits if column.quantity == "duty" else 0)
     text = f"{number:,.{decimals}f}"
     return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
 

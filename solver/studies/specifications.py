@@ -11,7 +11,9 @@ from scipy.optimize import brentq
 from hxtrain.network import CaseError
 from hxtrain.network.changes import value_changes
 from hxtrain.network.study import Study
-from hxtrain.solver.reporting.display_units import ending_of_unit
+from hxtrain.solver.reporting.console_tables import fixed
+from hxtrain.solver.reporting.display_units import Display, ending_of_unit
+from hxtrain.units.protocol import Worded
 from hxtrain.solver.simulation.results import simulate
 
 from .compare import metric
@@ -82,10 +84,10 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
     reach = (low, high)
     if (low - goal) * (high - goal) > 0:
         lo, hi = sorted(reach)
-        return SpecificationResult(spec.name, spec.adjust, False, None, None, goal, reach, count,
-                                   f"target {goal:g}{target_unit} is out of reach: adjusting {spec.adjust} over "
-                                   f"{spec.low:g} to {spec.high:g}{adjust_unit} gives {lo:.4g} to "
-                                   f"{hi:.4g}{target_unit}", adjust_unit.strip(), target_unit.strip())
+        return SpecificationResult(spec.name, spec.adjust, False, None, None, goal, reach, count, _worded(
+            "target {}{} is out of reach: adjusting {}{} over {}{} to {}{} gives {}{} to {}{}",
+            (goal, target_unit), ("", spec.adjust), (spec.low, adjust_unit), (spec.high, adjust_unit),
+            (lo, target_unit), (hi, target_unit)), adjust_unit.strip(), target_unit.strip())
     if low == goal or high == goal:
         x = spec.low if low == goal else spec.high
     else:
@@ -93,9 +95,26 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
         # (a fouling resistance of 5e-4 m²·K/W found only to within 1e-6)
         x = brentq(lambda v: achieved(v) - goal, spec.low, spec.high, xtol=tolerance * (spec.high - spec.low))
     reached = achieved(x)
-    return SpecificationResult(spec.name, spec.adjust, True, x, reached, goal, reach, count,
-                               f"{spec.adjust} = {x:.6g}{adjust_unit} gives {reached:.6g}{target_unit} "
-                               f"(target {goal:g}{target_unit})", adjust_unit.strip(), target_unit.strip())
+    return SpecificationResult(spec.name, spec.adjust, True, x, reached, goal, reach, count, _worded(
+        "{}{} = {}{} gives {}{} (target {}{})", ("", spec.adjust), (x, adjust_unit), (reached, target_unit),
+        (goal, target_unit)), adjust_unit.strip(), target_unit.strip())
+
+
+def _worded(template, *numbers):
+    """The message with each (number, unit) in its unit's decimals (four significant digits
+    without a unit), carrying the full numbers (:class:`.Worded`) that a report in other units
+    converts; a pair ("", text) puts the text in as it is. The template has two slots a pair."""
+    rounded, exact = [], []
+    for value, unit in numbers:
+        if isinstance(value, str):
+            rounded += [value, unit]
+            exact += [value, unit]
+            continue
+        ending = ending_of_unit(unit.strip())
+        column = Display("si").column(f"x{ending}") if ending else None
+        rounded += [fixed(value, column.digits) if column else f"{value:.4g}", unit]
+        exact += [repr(float(value)), unit]
+    return Worded(template.format(*rounded), template.format(*exact))
 
 
 def specification_table(specifications) -> pd.DataFrame:
