@@ -241,3 +241,27 @@ def test_the_side_by_side_rows_name_their_shown_unit(tmp_path):
         assert f"<th>{row}</th>" in page
     assert "mmbtu h" not in page
     assert "<th>limit violations</th><td>1<" in page  # a count as a whole number
+
+
+def test_the_html_reports_carry_what_the_console_does(tmp_path, capsys):
+    """A third trial found the HTML short of the console: the products' target deviations in a
+    case's report, the specifications (met or not, with their table) in a study's."""
+    result = simulate(demo_case_path("product_cooling"))
+    deviations = result.units["target_deviation_k"].dropna()
+    assert len(deviations) and "Products with a target temperature" in case_report(result)
+    study = demo_case_path("crude_preheat").with_name("crude_preheat_study.yaml")
+    code, out, err = run_in_process(capsys, "report", study, "--out", tmp_path / "s.html")
+    assert code == 0, err
+    page = (tmp_path / "s.html").read_text(encoding="utf-8")
+    section = page[page.index('<section id="specifications">'):]
+    assert "branch_balance" in section and "e110_outlet_by_bypass" in section and "met - " in section
+
+
+def test_colours_keep_their_meaning():
+    """Blue is heated and rust cooled, in the diagram and the T-Q pictures: lines of another
+    meaning (each stream, each variant) never take them; a heater is not drawn in the amber of a
+    warning or the red of a limit."""
+    from hxtrain.solver.reporting import figures, network_diagram
+
+    assert not {figures.HEATED, figures.COOLED, figures.LIMIT}.intersection(figures.PALETTE)
+    assert network_diagram.HEATS not in (network_diagram.WARNING, network_diagram.LIMIT)

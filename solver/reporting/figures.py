@@ -17,8 +17,10 @@ from .display_units import Display
 from .network_diagram import rows_of
 
 HEATED, COOLED, LIMIT = "#2f6690", "#b4532a", "#d62828"
-PALETTE = ("#2f6690", "#b4532a", "#3a7d44", "#7b4b94", "#c08a1e", "#4f7c8a", "#8e3b46", "#5c6b2f", "#a0522d",
-           "#386fa4", "#6d597a", "#b56576")
+PALETTE = ("#3a7d44", "#7b4b94", "#c08a1e", "#4f7c8a", "#8e3b46", "#5c6b2f", "#6d597a", "#b56576", "#2a9d8f",
+           "#8d6e63")
+"""Colours of lines and bars that are neither heated nor cooled (streams one by one, variants):
+never the blue and rust that mean heated and cooled in the diagram and the T-Q pictures."""
 STYLE = {"svg.fonttype": "none", "font.size": 9, "font.family": "sans-serif", "axes.spines.top": False,
          "axes.spines.right": False, "axes.grid": True, "grid.color": "#e4e4e4", "svg.hashsalt": "hxtrain"}
 """Text as text (not outlines), and a fixed hash salt so the same report gives the same SVG."""

@@ -26,9 +26,9 @@ from .display_units import Display, current, difference_columns
 from .files import with_whole_counts
 from .network_diagram import network_svg
 from .report_style import STYLE
-from .text import DRUM_DIGITS, DRUM_TITLE, DRUM_WORDS, EXCHANGER_WORDS, ONE_STREAM_WORDS, SEPARATOR_WORDS, \
-    SERVICE_WORDS, STREAM_WORDS, drum_table, exchanger_table, one_stream_table, separator_table, service_table, \
-    stream_table
+from .text import DRUM_DIGITS, DRUM_TITLE, DRUM_WORDS, EXCHANGER_WORDS, ONE_STREAM_WORDS, PRODUCT_TARGETS, \
+    SEPARATOR_WORDS, SERVICE_WORDS, STREAM_WORDS, drum_table, exchanger_table, one_stream_table, separator_table, \
+    service_table, stream_table
 
 FORMATS = (".html", ".htm")
 
@@ -149,6 +149,10 @@ def case_body(result: SimulationResult, display: Display) -> list[str]:
     if len(drums):
         tables.append(html_table(drums, display, DRUM_WORDS, DRUM_DIGITS, ids=True, limited=limited,
                                  caption=DRUM_TITLE))
+    targets = result.units.get("target_deviation_k")
+    if targets is not None and targets.notna().any():
+        tables.append(html_table(targets.dropna().to_frame("deviation_k"), display, {"deviation_k": "deviation"},
+                                 caption=PRODUCT_TARGETS))
     tables.append(html_table(stream_table(result), display, STREAM_WORDS, caption="Stream segments"))
     body.append("<section id=\"tables\"><h2>Tables</h2>" + "".join(tables) + "</section>")
     body.append(f"<footer>{escape(result.message)}</footer>")
@@ -161,8 +165,9 @@ def case_report(result: SimulationResult, display: Display | None = None) -> str
     return _page(result.title or "hxtrain report", body + case_body(result, display))
 
 
-def study_report(study, comparison, display: Display | None = None) -> str:
-    """A study's report: every scenario's limits, the charts, the comparison, the base network."""
+def study_report(study, comparison, display: Display | None = None, specifications=()) -> str:
+    """A study's report: every scenario's limits, the charts, the comparison, the specifications
+    (solved, :func:`.specifications.solve_specification`), the base network."""
     from .figures import study_duty_changes_svg, study_totals_svg
 
     base = comparison.results.get("base")
@@ -180,6 +185,16 @@ def study_report(study, comparison, display: Display | None = None) -> str:
                 + html_table(_restore_names(table, comparison.table, display), display.__class__(),
                              caption="Scenarios and their differences from the base (each row's unit in its name; "
                                      "a difference of two temperatures is in kelvin or Δ°F)") + "</section>")
+    if specifications:
+        from hxtrain.solver.studies.specifications import specification_table
+
+        unmet = ' class="limit"'
+        items = "".join(f"<li{'' if spec.success else unmet}><b>{escape(spec.name)}</b>: "
+                        f"{'met' if spec.success else 'NOT MET'} - {escape(display.message(spec.message))} "
+                        f"({spec.evaluations} simulations)</li>" for spec in specifications)
+        body.append(f"<section id=\"specifications\"><h2>Specifications</h2><ul>{items}</ul>"
+                    + html_table(specification_table(specifications).drop(columns="message"), display,
+                                 caption="Each specification's adjusted value and what it reached") + "</section>")
     if base is not None:
         body.append("<section id=\"network\"><h2>The base case</h2>"
                     f"<figure>{network_svg(base, display)}</figure></section>")
@@ -221,9 +236,12 @@ def report_command(args) -> int:
         from hxtrain.network.study import load_study
         from hxtrain.solver.studies import compare
 
+        from hxtrain.solver.studies.specifications import solve_specification
+
         study = load_study(target)
         check_output_path(out, {"study file": study.file, "base case": study.base.file}, formats=FORMATS)
-        page = study_report(study, compare(study))
+        page = study_report(study, compare(study), specifications=[solve_specification(study, spec)
+                                                                    for spec in study.specifications])
     else:
         from hxtrain.solver.simulation.results import simulate
 

@@ -35,7 +35,7 @@ STUB = 1.15
 CHARACTER = 7.0
 """Width of one character of a 12-unit label, for the margins (a generous estimate)."""
 HEATED, COOLED, UTILITY = "#2f6690", "#b4532a", "#8c8c8c"
-HEATS, COOLS = "#e9a23b", "#5aa9c9"
+HEATS, COOLS = "#9c4f96", "#5aa9c9"  # a heater in plum: amber is a warning's, red a limit's
 LIMIT, WARNING = "#d62828", "#e0a800"
 
 

@@ -100,6 +100,9 @@ RATING = ("ua_kw_per_k", "ntu_hot", "p_hot", "r_hot", "f", "lmtd_k")
 """The exchanger table's rating columns: a block of their own in the fitted report."""
 
 
+PRODUCT_TARGETS = "Products with a target temperature (deviation = actual - target)"
+
+
 def _exchanger_blocks(table: pd.DataFrame, display: Display) -> list[str]:
     """The exchanger table whole (wide), or as duties and temperatures, then the rating."""
     if display.wide:
@@ -197,7 +200,7 @@ def text_report(result: SimulationResult, extra: str = "", display: Display | No
         parts += [_section(DRUM_TITLE), render(drums, display, DRUM_WORDS, DRUM_DIGITS)]
     targets = result.units.get("target_deviation_k")
     if targets is not None and targets.notna().any():
-        parts += [_section("Products with a target temperature (deviation = actual - target)"),
+        parts += [_section(PRODUCT_TARGETS),
                   render(targets.dropna().to_frame("deviation_k"), display)]
     streams = stream_table(result)
     parts += [_section("Stream segments"), render(streams, display, STREAM_WORDS, index="")]
