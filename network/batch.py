@@ -46,8 +46,10 @@ def is_batchable(path: str) -> bool:
     return ".".join(pattern) in BATCHABLE
 
 
-def check_values(document: Document, values: dict, where=()):
-    """Check each path's extreme values as case-file values (the rules are ranges)."""
+def check_values(document: Document, values: dict, where=(), what="the range of values"):
+    """Check each path's extreme values as case-file values (the rules are ranges). Given
+    ``where`` (the key path the values come from, in a study), a value the case refuses is
+    blamed there, ``what`` reaching it, with the case's complaint beside it."""
     for path, array in values.items():
         if not is_batchable(path):
             raise CaseError(f"'{path}' cannot vary within a batch (it is not one of: {', '.join(BATCHABLE)})",
@@ -59,4 +61,11 @@ def check_values(document: Document, values: dict, where=()):
             data = copy.deepcopy(document.data)
             for change in value_changes(data, path, float(extreme), where):
                 apply_change(data, change, where)
-            case_from_document(Document(data, document.file, document.lines))
+            try:
+                case_from_document(Document(data, document.file, document.lines))
+            except CaseError as exc:
+                if not where:
+                    raise
+                # named where the values come from (a study's input), the case's complaint beside it
+                raise CaseError(f"{what} reaches {float(extreme):g}, where the case is not valid: "
+                                f"{exc.describe()}", path=where) from None

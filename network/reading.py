@@ -164,7 +164,10 @@ def parse_yaml(text, name) -> Document:
         if "nesting depth" in problem:  # libyaml's cap on nesting
             problem = "the document nests too deeply to be a case file"
         else:
-            problem = f"not valid YAML: {problem}"
+            column = f" (column {mark.column + 1})" if mark else ""
+            problem = (f"not valid YAML{column}: {problem}. Look at this line and the one above it for what "
+                       f"usually causes this: keys of one mapping not starting in the same column, a key "
+                       f"without ': ' after it, a tab used to indent, an unclosed [ or {{ or quote")
         raise CaseError(problem, file=name, line=mark.line + 1 if mark else None) from None
     except yaml.YAMLError as exc:
         raise CaseError(f"not valid YAML: {exc}", file=name) from None

@@ -116,8 +116,9 @@ def _input(section: Fields, path, base_document) -> Distribution:
     f.finish()
     _check_parameters(f, name, parameters, low, high)
     distribution = Distribution(path, name, parameters, low, high, where)
+    span = "its range (mean ± 4 sd without 'between')" if name == "normal" and not f.has("between") else "its range"
     with attributed(section.doc):
-        check_values(base_document, {path: np.array(distribution.span())}, where)
+        check_values(base_document, {path: np.array(distribution.span())}, where, span)
     return distribution
 
 

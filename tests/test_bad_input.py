@@ -313,3 +313,16 @@ def test_endless_special_file_is_refused(tmp_path):
     result = run_subprocess("check", "/dev/zero", timeout=60, preexec_fn=limit_memory)
     assert result.returncode == 2, f"exit {result.returncode}: {result.stderr[:500]}"
     assert_one_short_paragraph(result.stderr, "/dev/zero")
+
+
+def test_a_yaml_syntax_error_says_where_and_what_usually_causes_it():
+    """The parser's own words ("did not find expected key") with the line, the column and the
+    usual causes, so that a user can fix it without knowing YAML's grammar."""
+    from hxtrain.network import CaseError
+    from hxtrain.network.reading import parse_yaml
+
+    with pytest.raises(CaseError) as caught:
+        parse_yaml("exchangers:\n  E-1:\n    ua: 40\n   arrangement: counterflow\n", "bad.yaml")
+    error = caught.value
+    assert error.file == "bad.yaml" and error.line == 4
+    assert "column 4" in error.message and "same column" in error.message and "unclosed" in error.message

@@ -845,3 +845,36 @@ def test_the_study_surface_swept(folder, capsys):
             if code not in (0, 2) or (code == 2 and (str(study) not in err or entry not in err)):
                 failures.append(f"{format_path(path)} = {label}: exit {code}: {err.strip()[:300]}")
     assert not failures, "\n".join(failures)
+
+
+# ========================================================= a third trial: blame the study where its values are
+
+def test_an_uncertain_input_whose_range_the_case_refuses_is_blamed_in_the_study(tmp_path):
+    """A normal input without bounds is checked at mean ± 4 sd: 5 - 4 x 2 = -3 kg/s is no flow.
+    The error names the study file and the input's key path (and says where -3 comes from),
+    with the case's own complaint beside it."""
+    study = tmp_path / "u.yaml"
+    study.write_text(f"base: {demo_case_path('product_cooling')}\nuncertainty:\n  inputs:\n"
+                     "    streams.cooling_water.flow: {distribution: normal, mean: 5, sd: 2}\n", encoding="utf-8")
+    with pytest.raises(CaseError) as caught:
+        load_study(study)
+    error = caught.value
+    assert error.file == str(study) and error.path == ("uncertainty", "inputs", "streams.cooling_water.flow")
+    assert "mean ± 4 sd" in error.message and "reaches -3" in error.message and "below the smallest" in error.message
+
+
+def test_a_variant_with_no_answer_names_the_change_that_set_the_value(tmp_path):
+    """The case's complaint names the base file's key (where the value would be written); the
+    value is the variant's, so the variant's change is named too."""
+    from hxtrain.solver.studies import compare
+
+    (tmp_path / "c.yaml").write_text(yaml.safe_dump({
+        "fluids": {"oil": {"cp": 2.1}},
+        "streams": {"feed": {"fluid": "oil", "flow": 30.0, "supply_temperature": 40.0, "path": "H-1 -> out"}},
+        "heaters": {"H-1": {"duty": 2000.0}}, "products": {"out": {}}}), encoding="utf-8")
+    study = tmp_path / "s.yaml"
+    study.write_text("base: c.yaml\nvariants:\n  fine:\n    changes: [{set: heaters.H-1.duty, to: 2500}]\n"
+                     "  too_much:\n    changes: [{set: heaters.H-1.duty, to: 200000}]\n", encoding="utf-8")
+    failures = compare(load_study(study)).failures
+    assert set(failures) == {"too_much"}
+    assert "(a value the study set: variants.too_much.changes[0])" in failures["too_much"]

@@ -63,15 +63,27 @@ def _unit_rows(result: SimulationResult) -> pd.Series:
     return pd.Series(rows, dtype=float)
 
 
-def try_scenario(name: str, build):
+def try_scenario(name: str, build, changes=(), key=()):
     """Simulate the case ``build()`` makes, as scenario ``name`` of a study: (result, None), or
     (None, reason) where the scenario has no answer. Errors in the study itself (a change that
-    does not apply) still raise, naming the study file and key path."""
+    does not apply) still raise, naming the study file and key path. ``changes`` (at ``key`` in
+    the study): the scenario's changes, of which those that wrote at or under the key path the
+    case's complaint names are named beside it (the value there is the study's, not the case's)."""
     case = build()
     try:
         return simulate(case), None
     except (CaseError, ConvergenceError) as exc:
-        return None, f"scenario '{name}': {exc}"
+        return None, f"scenario '{name}': {exc}{_changed_here(exc, changes, key)}"
+
+
+def _changed_here(exc, changes, key) -> str:
+    from hxtrain.network.changes import written_path
+    from hxtrain.network.errors import format_path
+
+    blamed = tuple(getattr(exc, "path", ()))
+    made = [format_path(tuple(key) + (k,)) for k, change in enumerate(changes)
+            if blamed and written_path(change)[:len(blamed)] == blamed]
+    return f" (a value the study set: {', '.join(made)})" if made else ""
 
 
 def compare(study: Study) -> Comparison:
@@ -81,8 +93,9 @@ def compare(study: Study) -> Comparison:
     builds = {"base": study.case}
     builds.update({name: (lambda changes=changes, key=key: study.case(changes, key))
                    for name, (_, changes, key) in study.variants.items()})
+    made = {name: (changes, key) for name, (_, changes, key) in study.variants.items()}
     for name, build in builds.items():
-        results[name], reason = try_scenario(name, build)
+        results[name], reason = try_scenario(name, build, *made.get(name, ((), ())))
         if reason:
             failures[name] = reason
     answered = {n: r for n, r in results.items() if r is not None}
