@@ -878,3 +878,17 @@ def test_a_variant_with_no_answer_names_the_change_that_set_the_value(tmp_path):
     failures = compare(load_study(study)).failures
     assert set(failures) == {"too_much"}
     assert "(a value the study set: variants.too_much.changes[0])" in failures["too_much"]
+
+
+def test_a_scenario_that_is_not_valid_says_nothing_of_convergence():
+    """A not-valid point was not solved as asked: 'converged' is missing there (shown empty, null
+    in JSON), not a 'yes' beside 'valid: no'."""
+    from hxtrain.solver.simulation.batch import simulate_batch
+
+    case = case_from_mapping({
+        "fluids": {"oil": {"cp": 2.1}},
+        "streams": {"feed": {"fluid": "oil", "flow": 30.0, "supply_temperature": 40.0, "path": "H-1 -> out"}},
+        "heaters": {"H-1": {"duty": 2000.0}}, "products": {"out": {}}}, "<test>")
+    table = simulate_batch(case, {"heaters.H-1.duty": np.array([2000.0, 9e5, 3000.0])}).table
+    assert list(table["valid"]) == [True, False, True]
+    assert table["converged"].iloc[0] and table["converged"].iloc[2] and pd.isna(table["converged"].iloc[1])

@@ -233,7 +233,10 @@ def scenario_table(evaluation) -> pd.DataFrame:
         message[k] = evaluation.reason(k)
     table = pd.DataFrame({"success": status == SUCCESS, "status": status,
                           "status_text": names[np.searchsorted(sorted(STATUS_NAMES), status)],
-                          "converged": evaluation.solution.converged & (status != NOT_CONVERGED),
+                          # a scenario that is not valid was not solved as asked: converged says nothing
+                          "converged": pd.array(np.where(status == NOT_VALID, None,
+                                                         evaluation.solution.converged & (status != NOT_CONVERGED)),
+                                                dtype="boolean"),
                           "valid": status != NOT_VALID,
                           "message": message})
     for name, column in scenario_summary(evaluation).items():
