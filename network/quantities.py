@@ -354,8 +354,9 @@ def conversion_to(unit_text: str, kind: Kind) -> tuple[float, float]:
         units = ureg.parse_units(spelt)
         zero, one = (float(ureg.Quantity(v, units).to(kind.unit).magnitude) for v in (0.0, 1.0))
     except pint.DimensionalityError:
-        raise QuantityError(f"{shorten(unit_text)} is not a unit of {kind.name} (such as "
-                            f"{kind.example}){_degree_hint('1 ' + str(unit_text))}") from None
+        example = kind.shown_unit or "a fraction"
+        raise QuantityError(f"{shorten(unit_text)} is not a unit of {kind.name} (such as {example})"
+                            f"{_degree_hint('1 ' + str(unit_text))}") from None
     except Exception:  # pint's expression parser fails in many ways on junk
         raise QuantityError(f"cannot read the unit {shorten(unit_text)}{_degree_hint('1 ' + str(unit_text))}") from None
     return one - zero, zero
