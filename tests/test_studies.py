@@ -1179,3 +1179,18 @@ def test_an_added_shell_brings_its_share_of_a_total_ua():
     duty = simulate(added).units.loc["E-1", "duty_kw"]
     assert duty == pytest.approx(simulate(case(2, 120.0)).units.loc["E-1", "duty_kw"], rel=1e-12)
     assert duty > 1.2 * simulate(case(1, 60.0)).units.loc["E-1", "duty_kw"]  # more area, more duty
+
+
+def test_a_heaters_row_is_named_as_its_result_is():
+    """A heater's or cooler's outlet is its result 'TAG.outlet' in specifications and Monte Carlo:
+    the comparison names its row 'TAG outlet_c' alike, not after the side it is stored on."""
+    from hxtrain.solver.studies import compare, metric
+
+    study = load_study(demo_case_path("crude_preheat").with_name("crude_preheat_study.yaml"))
+    comparison = compare(study)
+    rows = list(comparison.table.index)
+    assert "F-101 outlet_c" in rows and "C-101 outlet_c" in rows
+    assert not [r for r in rows if r.startswith(("F-101 ", "C-101 ")) and ("cold_out" in r or "hot_out" in r)]
+    base = comparison.results["base"]
+    assert comparison.table.loc["F-101 outlet_c", "base"] == metric(base, "F-101.outlet")
+    assert comparison.table.loc["C-101 outlet_c", "base"] == metric(base, "C-101.outlet")

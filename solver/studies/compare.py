@@ -54,12 +54,15 @@ class Comparison:
 
 
 def _unit_rows(result: SimulationResult) -> pd.Series:
+    """Each exchanger's duty and outlets, each heater's and cooler's duty and outlet, named as the
+    units' results are (``E-101.hot_out``, ``H-1.outlet``; see :func:`metric`) with their unit."""
     units = result.units[result.units["group"].isin(["exchangers", "heaters_and_coolers"])]
     rows = {}
     for tag, row in units.iterrows():
+        one_stream = row["group"] == "heaters_and_coolers"
         for column in ("duty_kw", "hot_out_c", "cold_out_c"):
             if column in row and not pd.isna(row[column]):
-                rows[f"{tag} {column}"] = row[column]
+                rows[f"{tag} {'outlet_c' if one_stream and column != 'duty_kw' else column}"] = row[column]
     return pd.Series(rows, dtype=float)
 
 
