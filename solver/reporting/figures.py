@@ -92,7 +92,8 @@ def profiles_svg(result: SimulationResult, display: Display) -> str:
 
 def tq_svgs(result: SimulationResult, display: Display) -> dict:
     """One small T–Q picture per exchanger: the hot and cold sides' temperatures against the
-    duty, counter-current (the cold inlet at the left), the smallest approach marked; drawn in
+    duty, counter-current (the cold inlet at the left), the smallest difference in the picture
+    marked (a multipass shell's outlets, which meet inside it, are not in the picture); drawn in
     red where the exchanger violates a limit. Straight lines join the end temperatures, or the
     zones' boundaries where the exchanger is rated by zones (its exchanger proper: a bypass
     rejoins after it)."""

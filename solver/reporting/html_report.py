@@ -129,7 +129,8 @@ def case_body(result: SimulationResult, display: Display) -> list[str]:
     if pictures:
         body.append("<section id=\"tq\"><h2>T–Q picture of each exchanger</h2><p class=\"note\">Hot side (rust) "
                     "and cold side (blue) against the duty, counter-current; the dotted line is the smallest "
-                    "approach.</p><div class=\"grid\">"
+                    "difference in the picture. In a multipass shell the two outlets also meet inside the shell, "
+                    "which the picture does not show: the table's approach includes it.</p><div class=\"grid\">"
                     + "".join(f"<figure id=\"tq-{escape(t)}\">{svg}</figure>" for t, svg in pictures.items())
                     + "</div></section>")
     tables = [html_table(exchanger_table(result), display, EXCHANGER_WORDS, ids=True, limited=limited,
