@@ -96,3 +96,15 @@ def test_the_plant_data_benchmark_runs_and_reports_its_ratio(capsys):
     code, out, err = run_in_process(capsys, "benchmark", "--plant-data", "--windows", "60")
     assert code == 0, err
     assert "60 hourly windows" in out and "x the batch solve" in out and "windows reconciled: 60" in out
+
+
+def test_a_gap_in_the_plant_data_is_said_with_its_times():
+    """Windows without a single reading (a historian outage) are named as stretches, not only
+    counted among the unsteady ones."""
+    from hxtrain.solver.reporting.monitoring_text import _gap_lines
+
+    windows = pd.DataFrame({"samples": [6, 0, 0, 6, 0, 6]}, index=pd.date_range("2026-03-01", periods=6, freq="6h"))
+    text = " ".join(_gap_lines(windows, pd.Timedelta("6h")))
+    assert "no data at all in 3 windows" in text
+    assert "2026-03-01 06:00 to 2026-03-01 18:00; 2026-03-02 00:00 to 2026-03-02 06:00" in text
+    assert _gap_lines(windows.assign(samples=6), pd.Timedelta("6h")) == []

@@ -18,7 +18,7 @@ from hxtrain.solver.simulation.results import CAUTION
 from . import plant_tables as names
 from .console_tables import fixed, render
 from .display_units import Display, by_quantity, current
-from .text import boxed
+from .text import boxed, fitted
 
 TREND_DAYS = 90
 """The fouling trend is the weighted least-squares slope over the last this many days of
@@ -106,14 +106,17 @@ def monitoring_report(result, display: Display | None = None) -> str:
     parts.append(f"Windows of {_duration(m.window)}: {len(windows):,}; steady {steady:,}; reconciled "
                  f"{int(windows['reconciled'].sum())}; global test passed in {int(windows['passed'].sum())} "
                  f"(significance {m.significance:g})")
+    parts += _gap_lines(windows, m.window)
     parts += _redundancy_lines(result)
     today = today_table(result)
     if not today.empty:
         fouling_digits = {c: FOULING_DIGITS for c in today if c.endswith("_m2k_w")}
-        parts += ["", f"Exchangers at {_day(_last(result))} "
-                      "(fouling on the outside area; ± is the 95 % expanded uncertainty, k = 2; the trend is",
-                  f" over the last {TREND_DAYS} days; cost share: the fired duty cleaning it alone saves, as a share "
-                  "of the sum of those savings)",
+        span = (history.samples.index.max() - history.samples.index.min()) / pd.Timedelta(days=1)
+        trend = f"{TREND_DAYS} days" if span >= TREND_DAYS else f"{span:.0f} days (all the data)"
+        parts += ["", *textwrap.wrap(f"Exchangers at {_day(_last(result))} (fouling on the outside area; ± is the "
+                                     f"95 % expanded uncertainty, k = 2; the trend is over the last {trend}; cost "
+                                     "share: the fired duty cleaning it alone saves, as a share of the sum of those "
+                                     "savings)", WIDTH, subsequent_indent=" "),
                   render(today.assign(share_of_cost=_percent(today.get("share_of_cost"))), display, HEADINGS,
                          fouling_digits)]
     parts += _cost_lines(result, currency, display)
@@ -137,6 +140,20 @@ def monitoring_report(result, display: Display | None = None) -> str:
     return "\n".join(parts)
 
 
+def _gap_lines(windows: pd.DataFrame, window) -> list[str]:
+    """The stretches of windows without a single reading (a historian outage, a gap in the
+    export): said, not only counted as not steady."""
+    empty = (windows["samples"] == 0).to_numpy()
+    if not empty.any():
+        return []
+    starts = np.flatnonzero(empty & ~np.concatenate([[False], empty[:-1]]))
+    ends = np.flatnonzero(empty & ~np.concatenate([empty[1:], [False]]))
+    times = windows.index
+    gaps = [f"{times[a]:%Y-%m-%d %H:%M} to {times[b] + pd.Timedelta(window):%Y-%m-%d %H:%M}" for a, b in zip(starts, ends)]
+    return textwrap.wrap(f"  no data at all in {int(empty.sum())} windows: " + "; ".join(gaps), WIDTH,
+                         subsequent_indent="    ")
+
+
 def _redundancy_lines(result) -> list[str]:
     """Which measurements the balances check and which unmeasured values they determine."""
     table, unmeasured = result.measurements, result.unmeasured
@@ -146,8 +163,9 @@ def _redundancy_lines(result) -> list[str]:
     lines = [f"Redundancy: the balances check {int(checked.sum())} of {len(table)} tags in most windows"]
     lone = table.index[~checked]
     if len(lone):
-        lines += textwrap.wrap("  not checked (nothing else measures what they feed, so a fault there cannot be "
-                               "seen): " + ", ".join(lone), WIDTH, subsequent_indent="    ")
+        lines += textwrap.wrap("  checked in fewer than half the windows (little else measures what they feed: a "
+                               "fault there shows only where the balances reach it, as under 'Instruments to "
+                               "check'): " + ", ".join(lone), WIDTH, subsequent_indent="    ")
     if unmeasured is not None and not unmeasured.empty:
         hidden = unmeasured.index[unmeasured["observable_share"] < 0.5]
         lines.append(f"  unmeasured values: {len(unmeasured)}, determined by the balances in most windows: "
@@ -233,8 +251,10 @@ def _projection_lines(result, display: Display):
     if steps is None or steps.empty:
         return []
     first, last = steps.index[0], steps.index[-1]
-    lines = ["", f"Projection from {_day(first)} to {_day(last)} with each exchanger's fitted law, conditions held "
-                 "at the last window"]
+    lines = ["", *fitted(f"Projection from {_day(first)} to {_day(last)} with each exchanger's fitted law, "
+                         "conditions held at the last window (it starts from the laws' values there, which smooth "
+                         "the windows' scatter: its first figures differ a little from the last window's own)",
+                         display, indent="  ")]
     for column in steps.columns:
         if column.endswith(".fired_duty_kw") or column.endswith(".inlet_c"):
             unit, what = column.split(".", 1)

@@ -40,7 +40,8 @@ def fitted_laws(schedule: ScheduleFile, progress=None) -> tuple[dict, pd.DataFra
             began_clean = _history_began_at_cleaning(logged, name, row["since"])
             after = {**before, "r_f0": before.get("r_f0", 0.0) if began_clean else 0.0}
             laws[name] = ExchangerLaw(row["model"], before, after, float(row["fouling_now"]))
-            rows.append((name, row["model"], "fitted to plant data", float(row["fouling_now"])))
+            rows.append((name, row["model"], "fitted to plant data (initial: the law at the last window, not that "
+                                             "window's own value)", float(row["fouling_now"])))
         elif np.isfinite(today.loc[name, "fouling"]):
             held = {"r_f0": 0.0, "rate": 0.0}
             laws[name] = ExchangerLaw("linear", held, held, float(max(today.loc[name, "fouling"], 0.0)))
