@@ -60,7 +60,7 @@ TOLERANCE = Kind("a convergence tolerance", "delta_degC", '1e-6 or "1e-6 delta_d
 (see :mod:`hxtrain.solver.simulation.evaluation`), so any tolerance in this range gives either an
 answer or a non-convergence, never a failed balance check for its looseness."""
 MASS_FLOW = Kind("a mass flow", "kg/s", '85 or "310 t/h"', low=1e-6, high=1e5,
-                 basis="3.6 g/h to 360 000 t/h: below any process stream and above the largest cooling-water "
+                 basis="3.6 g/h to 360,000 t/h: below any process stream and above the largest cooling-water "
                        "circuit, and far from floating-point underflow: common practice")
 SPECIFIC_HEAT = Kind("a specific heat capacity", "kJ/kg/delta_degC", '2.3 or "0.55 Btu/lb/degF"', low=0.1, high=20.0,
                      basis="liquid metals ~0.14 (mercury) to hydrogen gas ~14.3 kJ/kg·K, from memory")
@@ -68,10 +68,10 @@ DUTY = Kind("a heat duty", "kW", '2500 or "25 MW"', low=0.0, high=1e6,
             basis="1 GW: above the largest fired heaters, ~100-300 MW: common practice")
 HEAT_TRANSFER_COEFFICIENT = Kind("a heat-transfer coefficient U", "W/m^2/delta_degC", '350 or "60 Btu/h/ft^2/degF"',
                                  low=0.0, high=3e4, basis="condensing steam against boiling water reaches "
-                                                          "~5000-10 000 W/m²·K: common practice")
+                                                          "~5,000-10,000 W/m²·K: common practice")
 CLEAN_COEFFICIENT = Kind("a clean heat-transfer coefficient U", "W/m^2/delta_degC", '450 or "80 Btu/h/ft^2/degF"',
                          low=1.0, high=3e4, basis="gas to gas ~5-35 to condensing steam against boiling water "
-                                                  "~5000-10 000 W/m²·K: common practice")
+                                                  "~5,000-10,000 W/m²·K: common practice")
 FILM_COEFFICIENT = Kind("a film coefficient", "W/m^2/delta_degC", '1500 or "250 Btu/h/ft^2/degF"', low=1.0, high=1e6,
                         basis="free convection in gases ~2-25 to dropwise condensation ~1e5 W/m²·K "
                               "(Incropera, Table 1.1, from memory)")

@@ -164,8 +164,8 @@ def _read_steps(evaluation, laws, fouling, times):
 
 def _limit_rows(steps, findings, limits):
     times, rows = steps.index, []
-    for kind, rising, what in (("fired_duty", True, "fired duty above {v:g} kW"),
-                               ("inlet_temperature", False, "inlet temperature below {v:g} °C")):
+    for kind, rising, what in (("fired_duty", True, "fired duty above {v:,.1f} kW"),
+                               ("inlet_temperature", False, "inlet temperature below {v:,.1f} °C")):
         column = "fired_duty_kw" if kind == "fired_duty" else "inlet_c"
         for heater, value in (limits or {}).get(kind, {}).items():
             series = steps.get(f"{heater}.{column}")
