@@ -271,3 +271,15 @@ def test_a_design_temperature_is_checked_inside_the_exchanger_ahead_of_its_bypas
     assert "ahead of its bypass" in limits["message"].iloc[0]
     above = simulate(case_from_mapping(_bypassed_water_case(inside + 0.1), "<test>"))
     assert not (above.findings["kind"] == "design_temperature").any()
+
+
+def test_a_bypassed_side_shows_its_outlet_inside_the_exchanger():
+    """The tables show, beside the mixed outlet, the one inside the exchanger (what its LMTD, R and
+    F refer to): 30 + Q / (0.7 · 40 · 4.18) on the 30 %-bypassed water side; none without a bypass."""
+    result = simulate(case_from_mapping(_bypassed_water_case(90.0), "<test>"))
+    row = result.units.loc["E-1"]
+    assert row["cold_out_inside_c"] == pytest.approx(30.0 + row["duty_kw"] / (0.7 * 40.0 * 4.18), rel=1e-12)
+    assert "hot_out_inside_c" not in result.units or np.isnan(row["hot_out_inside_c"])
+    plain = _bypassed_water_case(90.0)
+    del plain["exchangers"]["E-1"]["bypass"]
+    assert "cold_out_inside_c" not in simulate(case_from_mapping(plain, "<test>")).units

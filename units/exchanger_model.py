@@ -319,6 +319,9 @@ class Exchanger(UnitBase):
             "t_cold_out": x.t_cold_out, "ua": service.ua, "ntu": x.ntu, "p": x.p, "r": x.r,
             "effectiveness": x.effectiveness, "f": x.f, "lmtd": x.lmtd, "approach": x.approach,
         }
+        for side, bypass in (("hot", self.spec.bypass_hot), ("cold", self.spec.bypass_cold)):
+            if np.any(bypass):  # what the side reaches inside the exchanger, ahead of its bypass
+                quantities[f"t_{side}_out_inside"] = getattr(x, f"t_{side}_out_exchanger")
         coefficients = service.coefficients
         quantities.update(coefficient_quantities(self.spec, coefficients, x.duty.shape))
         for side, drop in service.pressure_drop.items():

@@ -23,7 +23,9 @@ from .display_units import Display, current
 EXCHANGER_WORDS = {"duty_kw": "duty", "hot_in_c": "hot in", "hot_out_c": "hot out", "cold_in_c": "cold in",
                    "cold_out_c": "cold out", "hot_out_vapour_fraction": "hot out vapour",
                    "cold_out_vapour_fraction": "cold out vapour", "air_flow_kg_s": "air flow", "ua_kw_per_k": "UA", "ntu_hot": "NTU", "p_hot": "P", "r_hot": "R",
-                   "f": "F", "lmtd_k": "LMTD", "min_approach_k": "approach", "internal_approach_k": "approach inside",
+                   "f": "F", "lmtd_k": "LMTD", "hot_out_inside_c": "hot out inside",
+                   "cold_out_inside_c": "cold out inside", "min_approach_k": "approach",
+                   "internal_approach_k": "approach inside",
                    "findings": "findings"}
 SERVICE_WORDS = {"u_source": "U from", "u_service_w_m2k": "U service", "u_clean_w_m2k": "U clean",
                  "fouling_shell_m2k_w": "fouling shell", "fouling_tube_m2k_w": "fouling tube",
@@ -96,8 +98,9 @@ def drum_table(result: SimulationResult) -> pd.DataFrame:
     return separator_table(result, "drums", DRUM_WORDS)
 
 
-RATING = ("ua_kw_per_k", "ntu_hot", "p_hot", "r_hot", "f", "lmtd_k")
-"""The exchanger table's rating columns: a block of their own in the fitted report."""
+RATING = ("ua_kw_per_k", "ntu_hot", "p_hot", "r_hot", "f", "lmtd_k", "hot_out_inside_c", "cold_out_inside_c")
+"""The exchanger table's rating columns: a block of their own in the fitted report (all of the
+exchanger proper: where a side has a bypass, its outlet inside, ahead of the bypass, too)."""
 
 
 PRODUCT_TARGETS = "Products with a target temperature (deviation = actual - target)"

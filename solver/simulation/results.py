@@ -38,6 +38,8 @@ UNIT_COLUMNS = {
     "lmtd": "lmtd_k",
     "approach": "min_approach_k",
     "approach_internal": "internal_approach_k",
+    "t_hot_out_inside": "hot_out_inside_c",
+    "t_cold_out_inside": "cold_out_inside_c",
     "u_service": "u_service_w_m2k",
     "u_clean": "u_clean_w_m2k",
     "h_shell": "h_shell_w_m2k",
