@@ -44,6 +44,18 @@ def _unit_after_unit(values, batch) -> np.ndarray:
 __all__ = ["Exchanger"]
 
 
+def _bypass(spec, side):
+    """The fraction of ``side`` ("hot", "cold") that goes round the exchanger."""
+    return spec.bypass_hot if side == "hot" else spec.bypass_cold
+
+
+def _outlets_inside(rating) -> dict:
+    """Each side's outlet from the exchanger proper, ahead of its bypass (a zone rating is of the
+    exchanger proper already: its outlets are those)."""
+    return {side: getattr(rating, f"t_{side}_out_exchanger", getattr(rating, f"t_{side}_out"))
+            for side in ("hot", "cold")}
+
+
 class Exchanger(UnitBase):
     """A two-stream exchanger rated by P–NTU in service (:func:`rate_in_service`).
 
@@ -319,9 +331,9 @@ class Exchanger(UnitBase):
             "t_cold_out": x.t_cold_out, "ua": service.ua, "ntu": x.ntu, "p": x.p, "r": x.r,
             "effectiveness": x.effectiveness, "f": x.f, "lmtd": x.lmtd, "approach": x.approach,
         }
-        for side, bypass in (("hot", self.spec.bypass_hot), ("cold", self.spec.bypass_cold)):
-            if np.any(bypass):  # what the side reaches inside the exchanger, ahead of its bypass
-                quantities[f"t_{side}_out_inside"] = getattr(x, f"t_{side}_out_exchanger")
+        for side, t_inside in _outlets_inside(x).items():
+            if np.any(_bypass(self.spec, side)):  # what the side reaches inside, ahead of its bypass
+                quantities[f"t_{side}_out_inside"] = t_inside
         coefficients = service.coefficients
         quantities.update(coefficient_quantities(self.spec, coefficients, x.duty.shape))
         for side, drop in service.pressure_drop.items():
@@ -338,13 +350,10 @@ class Exchanger(UnitBase):
         design = self.limits.get("design_temperature", {})
         # a side's peak is inside the exchanger: its outlet there, ahead of any bypass that
         # mixes back what went round (the mixed outlet lies between that and the inlet)
-        bypassed = {"hot": self.spec.bypass_hot, "cold": self.spec.bypass_cold}
+        inside, inlets_t = _outlets_inside(x), {"hot": t_hot, "cold": t_cold}
         findings = design_temperature_findings(key, {
-            f"the {side} side " + ("inside the exchanger (ahead of its bypass) " if np.any(bypassed[side]) else ""):
-            (design.get(side), t_in, t_out) for side, t_in, t_out in (
-                # rated by zones, x is of the exchanger proper already
-                ("hot", t_hot, getattr(x, "t_hot_out_exchanger", x.t_hot_out)),
-                ("cold", t_cold, getattr(x, "t_cold_out_exchanger", x.t_cold_out)))})
+            f"the {side} side " + ("inside the exchanger (ahead of its bypass) " if np.any(_bypass(self.spec, side))
+                                   else ""): (design.get(side), inlets_t[side], inside[side]) for side in inside})
         for j, side in enumerate(("hot", "cold")):
             limit = self.limits.get("maximum_flow", {}).get(side)
             if limit is not None:

@@ -111,11 +111,11 @@ def _load_study_for(args, table_names):
 
 def _compare(args) -> int:
     from hxtrain.solver.simulation.results import CAUTION
-    from hxtrain.solver.studies import compare, solve_specification, specification_table, study_text
+    from hxtrain.solver.studies import compare, solve_specifications, specification_table, study_text
 
     study = _load_study_for(args, lambda s: ["comparison", "findings"] + (["specifications"] if s.specifications else []))
     comparison = compare(study)
-    specifications = [solve_specification(study, spec) for spec in study.specifications]
+    specifications = solve_specifications(study)
     tables = {"comparison": comparison.table, "findings": comparison.findings}
     if specifications:
         tables["specifications"] = specification_table(specifications)

@@ -168,7 +168,7 @@ def case_report(result: SimulationResult, display: Display | None = None) -> str
 
 def study_report(study, comparison, display: Display | None = None, specifications=()) -> str:
     """A study's report: every scenario's limits, the charts, the comparison, the specifications
-    (solved, :func:`.specifications.solve_specification`), the base network."""
+    (solved, :func:`.specifications.solve_specifications`), the base network."""
     from .figures import study_duty_changes_svg, study_totals_svg
 
     base = comparison.results.get("base")
@@ -235,14 +235,11 @@ def report_command(args) -> int:
     document = read_document(target)
     if isinstance(document.data, dict) and "base" in document.data:
         from hxtrain.network.study import load_study
-        from hxtrain.solver.studies import compare
-
-        from hxtrain.solver.studies.specifications import solve_specification
+        from hxtrain.solver.studies import compare, solve_specifications
 
         study = load_study(target)
         check_output_path(out, {"study file": study.file, "base case": study.base.file}, formats=FORMATS)
-        page = study_report(study, compare(study), specifications=[solve_specification(study, spec)
-                                                                    for spec in study.specifications])
+        page = study_report(study, compare(study), specifications=solve_specifications(study))
     else:
         from hxtrain.solver.simulation.results import simulate
 

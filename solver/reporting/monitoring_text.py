@@ -13,12 +13,11 @@ import textwrap
 import numpy as np
 import pandas as pd
 
-from hxtrain.solver.simulation.results import CAUTION
 
 from . import plant_tables as names
 from .console_tables import fixed, render
 from .display_units import Display, by_quantity, current
-from .text import boxed, fitted
+from .text import boxed, fitted, note_lines
 
 TREND_DAYS = 90
 """The fouling trend is the weighted least-squares slope over the last this many days of
@@ -98,7 +97,7 @@ def monitoring_report(result, display: Display | None = None) -> str:
     currency = (m.economics or {}).get("currency", "")
     parts = [f"hxtrain monitor: {m.title or m.file}", f"monitoring file: {m.file}",  # paths whole, to be copied
              f"plant data file: {m.data_path}",
-             *textwrap.wrap(f"NOTE: {CAUTION}", WIDTH, subsequent_indent="      "), "",
+             *note_lines(display), "",
              f"Plant data: {len(history.samples)} rows from {_day(history.samples.index.min())} "
              f"to {_day(history.samples.index.max())}"]
     parts += _skipped_lines(history.skipped)
@@ -106,17 +105,16 @@ def monitoring_report(result, display: Display | None = None) -> str:
     parts.append(f"Windows of {_duration(m.window)}: {len(windows):,}; steady {steady:,}; reconciled "
                  f"{int(windows['reconciled'].sum())}; global test passed in {int(windows['passed'].sum())} "
                  f"(significance {m.significance:g})")
-    parts += _gap_lines(windows, m.window)
+    parts += _gap_lines(windows, m.window, display)
     parts += _redundancy_lines(result)
     today = today_table(result)
     if not today.empty:
         fouling_digits = {c: FOULING_DIGITS for c in today if c.endswith("_m2k_w")}
         span = (history.samples.index.max() - history.samples.index.min()) / pd.Timedelta(days=1)
         trend = f"{TREND_DAYS} days" if span >= TREND_DAYS else f"{span:.0f} days (all the data)"
-        parts += ["", *textwrap.wrap(f"Exchangers at {_day(_last(result))} (fouling on the outside area; ± is the "
-                                     f"95 % expanded uncertainty, k = 2; the trend is over the last {trend}; cost "
-                                     "share: the fired duty cleaning it alone saves, as a share of the sum of those "
-                                     "savings)", WIDTH, subsequent_indent=" "),
+        parts += ["", *fitted(f"Exchangers at {_day(_last(result))} (fouling on the outside area; ± is the 95 % "
+                              f"expanded uncertainty, k = 2; the trend is over the last {trend}; cost share: the fired "
+                              "duty cleaning it alone saves, as a share of the sum of those savings)", display, " "),
                   render(today.assign(share_of_cost=_percent(today.get("share_of_cost"))), display, HEADINGS,
                          fouling_digits)]
     parts += _cost_lines(result, currency, display)
@@ -140,18 +138,18 @@ def monitoring_report(result, display: Display | None = None) -> str:
     return "\n".join(parts)
 
 
-def _gap_lines(windows: pd.DataFrame, window) -> list[str]:
+def _gap_lines(windows: pd.DataFrame, window, display: Display | None = None) -> list[str]:
     """The stretches of windows without a single reading (a historian outage, a gap in the
-    export): said, not only counted as not steady."""
+    export): said, not only counted as not steady (within ``display``'s width)."""
     empty = (windows["samples"] == 0).to_numpy()
     if not empty.any():
         return []
     starts = np.flatnonzero(empty & ~np.concatenate([[False], empty[:-1]]))
     ends = np.flatnonzero(empty & ~np.concatenate([empty[1:], [False]]))
     times = windows.index
-    gaps = [f"{times[a]:%Y-%m-%d %H:%M} to {times[b] + pd.Timedelta(window):%Y-%m-%d %H:%M}" for a, b in zip(starts, ends)]
-    return textwrap.wrap(f"  no data at all in {int(empty.sum())} windows: " + "; ".join(gaps), WIDTH,
-                         subsequent_indent="    ")
+    gaps = [f"{times[a]:%Y-%m-%d %H:%M} to {times[b] + pd.Timedelta(window):%Y-%m-%d %H:%M}"
+            for a, b in zip(starts, ends)]
+    return fitted(f"  no data at all in {int(empty.sum())} windows: " + "; ".join(gaps), display or current(), "    ")
 
 
 def _redundancy_lines(result) -> list[str]:

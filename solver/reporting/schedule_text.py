@@ -12,13 +12,12 @@ import textwrap
 import numpy as np
 import pandas as pd
 
-from hxtrain.solver.simulation.results import CAUTION
 
 from . import plant_tables as names
 from .console_tables import fixed, render
 from .display_units import Display, current
 from .monitoring_text import FOULING_DIGITS, WIDTH, _count, amount
-from .text import boxed
+from .text import boxed, note_lines
 
 COST_HEADINGS = {"cleanings": "cleanings", "cleaning_cost": "cleaning", "fuel_gj": "fuel GJ", "fuel_cost": "fuel",
                  "co2_t": "CO2 t", "co2_cost": "CO2", "lost_throughput_t": "lost t", "lost_throughput_cost": "lost",
@@ -49,7 +48,7 @@ def schedule_report(result, display: Display | None = None) -> str:
     end = horizon.times[-1] + pd.Timedelta(days=horizon.step_days)
     cleanable = int(sum(1 for n in horizon.exchangers if n in schedule.cleaning and schedule.cleaning[n].allowed))
     parts = [f"hxtrain schedule: {schedule.title or schedule.file}", f"schedule file: {schedule.file}",
-             *textwrap.wrap(f"NOTE: {CAUTION}", WIDTH, subsequent_indent="      "), "",
+             *note_lines(display), "",
              f"Horizon: {_day(horizon.times[0])} to {_day(end)}, {_count(horizon.steps, 'step')} of "
              f"{_count(int(horizon.step_days), 'day') if horizon.step_days == int(horizon.step_days) else f'{horizon.step_days:g} days'}",
              f"  {len(horizon.exchangers)} exchangers with fouling laws, {cleanable} may be cleaned, at most "

@@ -3,9 +3,10 @@
 Stages, switched for the whole batch when progress stops:
 
 1. Quasi-Newton on the residual F(x) = g(x) - x: a forward-difference Jacobian (one extra sweep
-   per tear, of the units that tear reaches where the caller can sweep part of a block), then Broyden's rank-one update after every step (Broyden 1965, Math. Comp. 19), a
-   fresh Jacobian whenever a step gains less than :data:`REFRESH_RATIO`, and step halving where a
-   full step does not lower the residual. With constant cp and fixed UA the sweep is affine in
+   per tear, of just the units that tear reaches where the caller can sweep part of a block),
+   then Broyden's rank-one update after every step (Broyden 1965, Math. Comp. 19), a fresh
+   Jacobian whenever a step gains less than :data:`REFRESH_RATIO`, and step halving where a full
+   step does not lower the residual. With constant cp and fixed UA the sweep is affine in
    the tears and the first full step is the answer; with cp(T) and U(T) it is nearly so. Used
    first when a block has at most :data:`NEWTON_FIRST_TEARS` tears (its Jacobian is cheap).
 2. Wegstein's bounded secant acceleration, per tear variable (Wegstein 1958, Comm. ACM 1(6)):
@@ -125,7 +126,7 @@ class _Counted:
 def converge_tears(evaluate, x0, tolerance, max_iterations, one_tear=None) -> TearResult:
     """Solve x = evaluate(x) for x of shape (batch, tears); see the module notes for the method.
     ``one_tear(x, j)``, where given, is evaluate(x) for an x that differs from the point last
-    evaluated only in tear j: the forward-difference Jacobian's columns, which a sweep of just
+    evaluated whole only in tear j: the forward-difference Jacobian's columns, which a sweep of just
     the units that tear reaches can give."""
     evaluate = _Counted(evaluate, one_tear)
     x = np.array(x0, dtype=float)

@@ -178,7 +178,7 @@ def _solve_block(net, layout, block, temperature, flow, guess, tolerance, max_it
                                                        max_iterations, outcomes) for part in block.parts])
     else:
         slots = {seg: j for j, seg in enumerate(block.tears)}
-        last, whole = {}, {}
+        last, whole, reach = {}, {}, {}
 
         # every evaluation rewrites all of the block's segments from the tears and the blocks
         # before it, so it may work in place; ``last`` says at which tears the array now is
@@ -195,13 +195,15 @@ def _solve_block(net, layout, block, temperature, flow, guess, tolerance, max_it
             others = np.arange(x.shape[1]) != j
             if not whole or not np.array_equal(x[:, others], whole["x"][:, others]):
                 return evaluate(x)
+            if "written" not in reach:  # the block's structure: found once, on its first column
+                reach["written"] = _written(net, block)
             if whole["saved"] is None:
-                whole["saved"] = temperature[:, _written(net, block)].copy()
+                whole["saved"] = temperature[:, reach["written"]].copy()
             else:  # back to the whole sweep's states before the next column
-                temperature[:, _written(net, block)] = whole["saved"]
+                temperature[:, reach["written"]] = whole["saved"]
             temperature[:, block.tears] = x
             last["x"] = None
-            units, produced = _reached(net, block, j)
+            units, produced = reach[j] if j in reach else reach.setdefault(j, _reached(net, block, j))
             computed = _sweep(net, layout, units, temperature, flow, slots)
             g = whole["g"].copy()
             g[:, produced] = computed[:, produced]

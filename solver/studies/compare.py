@@ -16,7 +16,7 @@ from hxtrain.network.study import Study
 from hxtrain.solver.reporting.files import with_whole_counts
 from hxtrain.solver.reporting.text import boxed, fitted, note_lines
 from hxtrain.solver.simulation.engine import ConvergenceError
-from hxtrain.solver.simulation.results import CAUTION, SimulationResult, simulate
+from hxtrain.solver.simulation.results import SimulationResult, simulate
 
 
 def metric(result: SimulationResult, name: str) -> float:
@@ -93,12 +93,11 @@ def compare(study: Study) -> Comparison:
     """The base case and every variant, simulated and tabulated side by side; a variant with no
     answer is reported as such, beside the others."""
     results, failures = {}, {}
-    builds = {"base": study.case}
-    builds.update({name: (lambda changes=changes, key=key: study.case(changes, key))
-                   for name, (_, changes, key) in study.variants.items()})
-    made = {name: (changes, key) for name, (_, changes, key) in study.variants.items()}
-    for name, build in builds.items():
-        results[name], reason = try_scenario(name, build, *made.get(name, ((), ())))
+    scenarios = {"base": (study.case, (), ())}  # name: (the case it builds, its changes, their key)
+    scenarios.update({name: (lambda changes=changes, key=key: study.case(changes, key), changes, key)
+                      for name, (_, changes, key) in study.variants.items()})
+    for name, (build, changes, key) in scenarios.items():
+        results[name], reason = try_scenario(name, build, changes, key)
         if reason:
             failures[name] = reason
     answered = {n: r for n, r in results.items() if r is not None}

@@ -85,9 +85,9 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
     if (low - goal) * (high - goal) > 0:
         lo, hi = sorted(reach)
         return SpecificationResult(spec.name, spec.adjust, False, None, None, goal, reach, count, _worded(
-            "target {}{} is out of reach: adjusting {}{} over {}{} to {}{} gives {}{} to {}{}",
-            (goal, target_unit), ("", spec.adjust), (spec.low, adjust_unit), (spec.high, adjust_unit),
-            (lo, target_unit), (hi, target_unit)), adjust_unit.strip(), target_unit.strip())
+            "target {} is out of reach: adjusting {} over {} to {} gives {} to {}", (goal, target_unit), spec.adjust,
+            (spec.low, adjust_unit), (spec.high, adjust_unit), (lo, target_unit), (hi, target_unit)),
+            adjust_unit.strip(), target_unit.strip())
     if low == goal or high == goal:
         x = spec.low if low == goal else spec.high
     else:
@@ -96,24 +96,30 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
         x = brentq(lambda v: achieved(v) - goal, spec.low, spec.high, xtol=tolerance * (spec.high - spec.low))
     reached = achieved(x)
     return SpecificationResult(spec.name, spec.adjust, True, x, reached, goal, reach, count, _worded(
-        "{}{} = {}{} gives {}{} (target {}{})", ("", spec.adjust), (x, adjust_unit), (reached, target_unit),
-        (goal, target_unit)), adjust_unit.strip(), target_unit.strip())
+        "{} = {} gives {} (target {})", spec.adjust, (x, adjust_unit), (reached, target_unit), (goal, target_unit)),
+        adjust_unit.strip(), target_unit.strip())
 
 
-def _worded(template, *numbers):
-    """The message with each (number, unit) in its unit's decimals (four significant digits
-    without a unit), carrying the full numbers (:class:`.Worded`) that a report in other units
-    converts; a pair ("", text) puts the text in as it is. The template has two slots a pair."""
+def solve_specifications(study: Study) -> list[SpecificationResult]:
+    """Every specification of ``study``, solved in its order."""
+    return [solve_specification(study, spec) for spec in study.specifications]
+
+
+def _worded(template, *parts):
+    """The message, one template slot a part: a text as it is, or a (number, unit) in its unit's
+    decimals (four significant digits without a unit), carrying the full numbers
+    (:class:`.Worded`) that a report in other units converts."""
     rounded, exact = [], []
-    for value, unit in numbers:
-        if isinstance(value, str):
-            rounded += [value, unit]
-            exact += [value, unit]
+    for part in parts:
+        if isinstance(part, str):
+            rounded.append(part)
+            exact.append(part)
             continue
+        value, unit = part
         ending = ending_of_unit(unit.strip())
         column = Display("si").column(f"x{ending}") if ending else None
-        rounded += [fixed(value, column.digits) if column else f"{value:.4g}", unit]
-        exact += [repr(float(value)), unit]
+        rounded.append((fixed(value, column.digits) if column else f"{value:.4g}") + unit)
+        exact.append(repr(float(value)) + unit)
     return Worded(template.format(*rounded), template.format(*exact))
 
 
