@@ -70,6 +70,9 @@ DEFAULT_FLOW_CHANGE = 0.03
 DEFAULT_TEMPERATURE_CHANGE = 3.0
 """... or a temperature by more than 3 K (common practice)."""
 DEFAULT_MINIMUM_SAMPLES = 1
+DEFAULT_CONFIDENCE = 0.95
+"""How sure a window's own scatter must leave us that a drift exceeds its threshold before the
+window is set aside as transient: one-sided 95 %, the usual level (common practice)."""
 DEFAULT_UNCERTAINTY = {"temperature": (1.0, None), "flow": (None, 0.02), "duty": (None, 0.05)}
 """(absolute sigma, relative sigma) per instrument kind, one standard deviation: thermocouples and
 RTDs in service 1 K; orifice and other differential-pressure flow meters 2 % of reading; a heater
@@ -103,6 +106,9 @@ class SteadyState(NamedTuple):
     temperature_change: float = DEFAULT_TEMPERATURE_CHANGE
     """K."""
     minimum_samples: int = DEFAULT_MINIMUM_SAMPLES
+    confidence: float = DEFAULT_CONFIDENCE
+    """0.5 to below 1: the drift less this many one-sided standard errors (from the samples'
+    scatter) must exceed the threshold; 0.5 compares the drift itself."""
 
 
 class Projection(NamedTuple):
@@ -237,7 +243,11 @@ def _steady_state(f: Fields | None) -> SteadyState:
     result = SteadyState(
         read_quantity(f, "flow_change", q.FRACTION, default=DEFAULT_FLOW_CHANGE, above=0.0),
         read_quantity(f, "temperature_change", q.TEMPERATURE_DIFFERENCE, default=DEFAULT_TEMPERATURE_CHANGE, above=0.0),
-        f.integer("minimum_samples", DEFAULT_MINIMUM_SAMPLES, 1, 1_000_000))
+        f.integer("minimum_samples", DEFAULT_MINIMUM_SAMPLES, 1, 1_000_000),
+        read_quantity(f, "confidence", q.FRACTION, default=DEFAULT_CONFIDENCE, minimum=0.5))
+    if result.confidence >= 1.0:
+        raise f.error("confidence", f"{result.confidence:g} must be below 1: at full confidence no drift could be "
+                                    "shown to exceed its threshold (0.5 compares the drift itself)")
     f.finish()
     return result
 
