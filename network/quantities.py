@@ -16,6 +16,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 from hxtrain.units.properties import PHYSICAL_RANGE
+from hxtrain.units.protocol import LARGEST_DUTY
 
 
 @dataclass(frozen=True)
@@ -64,7 +65,7 @@ MASS_FLOW = Kind("a mass flow", "kg/s", '85 or "310 t/h"', low=1e-6, high=1e5,
                        "circuit, and far from floating-point underflow: common practice")
 SPECIFIC_HEAT = Kind("a specific heat capacity", "kJ/kg/delta_degC", '2.3 or "0.55 Btu/lb/degF"', low=0.1, high=20.0,
                      basis="liquid metals ~0.14 (mercury) to hydrogen gas ~14.3 kJ/kg·K, from memory")
-DUTY = Kind("a heat duty", "kW", '2500 or "25 MW"', low=0.0, high=1e6,
+DUTY = Kind("a heat duty", "kW", '2500 or "25 MW"', low=0.0, high=LARGEST_DUTY,
             basis="1 GW: above the largest fired heaters, ~100-300 MW: common practice")
 HEAT_TRANSFER_COEFFICIENT = Kind("a heat-transfer coefficient U", "W/m^2/delta_degC", '350 or "60 Btu/h/ft^2/degF"',
                                  low=0.0, high=3e4, basis="condensing steam against boiling water reaches "

@@ -131,6 +131,29 @@ def test_a_heater_already_above_its_target_idles_with_a_warning():
     assert list(warnings["unit"]) == ["F-101"] and "idles" in warnings["message"].iloc[0]
 
 
+def test_a_computed_heater_duty_beyond_any_plant_is_warned_of():
+    """Each input plausible, the result not: 20,000 t/h of oil (inside the flow range) heated
+    from 100 to 250 °C asks 2,083 MW of its furnace, above the 1 GW edge of a plausible duty (the
+    largest fired heaters ~100-300 MW, common practice); a cooler likewise. 500 t/h (104 MW)
+    gets no such warning."""
+    def case(flow):
+        return {"fluids": {"oil": {"cp": 2.5}},
+                "streams": {"oil": {"fluid": "oil", "flow": flow, "supply_temperature": 100,
+                                    "path": "F-1 -> C-1 -> out"}},
+                "heaters": {"F-1": {"outlet_temperature": 250}}, "coolers": {"C-1": {"outlet_temperature": 100}},
+                "products": {"out": {}}}
+
+    assert simulate(case_from_mapping(case("500 t/h"))).findings.empty
+    result = simulate(case_from_mapping(case("20000 t/h")))
+    duty = 20000 / 3.6 * 2.5 * 150.0
+    assert result.units.loc["F-1", "duty_kw"] == pytest.approx(duty, rel=1e-12)
+    warned = result.findings[result.findings["kind"] == "duty_beyond_plausible"]
+    assert list(warned["unit"]) == ["F-1", "C-1"] and set(warned["severity"]) == {"warning"}
+    assert warned["message"].iloc[0].startswith(f"the heater's duty comes out at {duty:,.0f} kW, above 1,000 MW, the "
+                                                "edge of a plausible duty")
+    assert "the cooler's duty" in warned["message"].iloc[1]
+
+
 def test_an_idle_heater_is_not_refused_on_round_off():
     """The heater's target equals its inlet to the last digit (22.265566722596922 °C against
     295.4155667225969 K): it idles, with no warning and no error."""

@@ -29,7 +29,7 @@ import numpy as np
 
 
 __all__ = ["UnitModel", "UnitBase", "Inlets", "takes_enthalpy_state", "splits_by_state", "StackedInlets", "outlet_temperatures_together", "reports_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
-           "HEAT_LOST", "TOTALS", "HEAT_SOURCES", "METRIC_UNITS", "Worded", "outlets_within", "outlet_precision",
+           "HEAT_LOST", "TOTALS", "HEAT_SOURCES", "LARGEST_DUTY", "METRIC_UNITS", "Worded", "outlets_within", "outlet_precision",
            "note_outlets_loosened"]
 
 
@@ -95,6 +95,9 @@ TOTALS = {
 """The totals a run reports, each fed by the units that declare a contribution to it in their
 report (:attr:`UnitReport.totals`): the solver adds them up without knowing unit types."""
 
+LARGEST_DUTY = 1e6
+"""kW: 1 GW, above the largest fired heaters (~100-300 MW, common practice): the edge of a
+plausible heat duty, given (the case format's range) or computed (a heater's warning)."""
 HEAT_SOURCES = ("fired", "utility", "reaction")
 """What a heater's heat is: burnt fuel (a furnace or fired heater), a bought utility (steam,
 hot oil, electricity), or heat released in the process itself (a reaction)."""

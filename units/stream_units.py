@@ -7,8 +7,8 @@ import numpy as np
 
 from . import balances
 from .properties import PHYSICAL_RANGE, Blend
-from .protocol import COOLERS, FIRED_HEATERS, OTHER_HEATERS, Inlets, Parameter, UnitBase, UnitReport, check, \
-    design_temperature_findings
+from .protocol import COOLERS, FIRED_HEATERS, LARGEST_DUTY, OTHER_HEATERS, Inlets, Parameter, UnitBase, UnitReport, \
+    check, design_temperature_findings
 
 __all__ = ["Source", "Sink", "Mixer", "Splitter", "Heater", "mix", "shared_fractions"]
 
@@ -339,15 +339,20 @@ class Heater(UnitBase):
         heat_added = np.where(m > 0.0, added + self._change_heat(t, m, inlets.fluids[0]), 0.0)
         labels = {"heat_source": self.heat_source} if self.heat_source else {}
         labels.update({"outlet_fluid": name for name in self.outlet_fluids.values()})
-        return UnitReport(quantities, self._findings(t, m, t_out, idle), heat_added=heat_added, labels=labels,
+        return UnitReport(quantities, self._findings(t, m, t_out, idle, duty), heat_added=heat_added, labels=labels,
                           totals={self.total: np.where(m > 0.0, duty, 0.0)},
                           metrics={"duty": duty, "inlet": t, "outlet": t_out},
                           highlights={f"{self.name}_inlet_c": t} if self.total == FIRED_HEATERS else {})
 
-    def _findings(self, t, m, t_out, idle):
-        """Its design temperature, and what its setting cannot do: a target behind the inlet (it
-        idles), a fixed duty without flow."""
+    def _findings(self, t, m, t_out, idle, duty):
+        """Its design temperature; what its setting cannot do: a target behind the inlet (it
+        idles), a fixed duty without flow; a computed duty beyond any plant's (a slip in the case
+        that no single input shows)."""
         findings = design_temperature_findings(self.key, {"the stream ": (self.design_temperature, t, t_out)})
+        findings.append(check("duty_beyond_plausible", "warning", np.abs(duty) > LARGEST_DUTY, self.key,
+                              f"the {self.kind}'s duty comes out at {{duty:,.0f}} kW, above {LARGEST_DUTY / 1e3:,.0f} "
+                              "MW, the edge of a plausible duty (the largest fired heaters deliver ~100-300 MW, common "
+                              "practice): check the flows and temperatures that set it", duty=np.abs(duty)))
         if self.target is not None:
             target = np.broadcast_to(self.target, t.shape)
             findings.append(
