@@ -404,6 +404,47 @@ def test_the_passes_stop_by_the_contraction_estimate_within_the_tolerance(monkey
             assert np.all(np.abs(getattr(result.rating, side) - getattr(tight.rating, side)) <= allowed)
 
 
+def test_a_warm_start_moved_with_the_inlets_saves_passes_and_keeps_the_fixed_point():
+    """moved_outlets: the last rating's outlets carried to new inlets at their fractions of the
+    inlet difference. With constant cp and a fixed U that is the answer itself (the outlets are
+    affine in the inlets); with cp(T) and film U it starts the passes closer than the last
+    outlets unmoved (fewer passes), and every start ends within the passes' tolerance of the
+    fixed point (found here with a tolerance 1000 times tighter from a cold start)."""
+    from hxtrain.units import service_rating
+    from hxtrain.units.service_rating import moved_outlets
+
+    t_hot, t_cold = np.linspace(250.0, 340.0, 50), np.linspace(40.0, 80.0, 50)
+    shifted_hot, shifted_cold = t_hot + 7.0, t_cold - 3.0
+    linear = ExchangerSpec("tema_e", ua=55.0, shells=2)
+    first = rate_in_service(linear, t_hot, t_cold, 30.0, 40.0, ConstantCp(2.6), ConstantCp(2.2)).rating
+    moved = moved_outlets((t_hot, t_cold), (first.t_hot_out_exchanger, first.t_cold_out_exchanger),
+                          shifted_hot, shifted_cold)
+    second = rate_in_service(linear, shifted_hot, shifted_cold, 30.0, 40.0, ConstantCp(2.6), ConstantCp(2.2)).rating
+    assert np.allclose(moved[0], second.t_hot_out_exchanger, rtol=0, atol=1e-12)
+    assert np.allclose(moved[1], second.t_cold_out_exchanger, rtol=0, atol=1e-12)
+
+    hot, cold = petroleum_fraction(0.90, 11.7), PolynomialCp([1.75, 0.0042, 2.0e-6])
+    thermal = ScaledFilms(SideFilm(1200.0, 30.0, 0.6), SideFilm(900.0, 40.0, 0.8), 3e-4, 5e-4,
+                          float(resistances.wall_resistance(DO, DI, K_WALL)), DO / DI)
+    spec = ExchangerSpec("tema_e", thermal=thermal, area_per_shell=150.0, shells=2)
+    last = rate_in_service(spec, t_hot, t_cold, 30.0, 40.0, hot, cold).rating
+    outlets = (last.t_hot_out_exchanger, last.t_cold_out_exchanger)
+    args = (spec, shifted_hot, shifted_cold, 30.0, 40.0, hot, cold)
+    warm = rate_in_service(*args, guess=moved_outlets((t_hot, t_cold), outlets, shifted_hot, shifted_cold))
+    unmoved = rate_in_service(*args, guess=outlets)
+    assert warm.passes < unmoved.passes
+    with pytest.MonkeyPatch.context() as m:
+        m.setattr(service_rating, "OUTLET_TOLERANCE", service_rating.OUTLET_TOLERANCE * 1e-3)
+        tight = rate_in_service(*args)
+    allowed = service_rating.OUTLET_TOLERANCE * (1.0 + shifted_hot)
+    for result in (warm, unmoved):
+        for side in ("t_hot_out", "t_cold_out"):
+            assert np.all(np.abs(getattr(result.rating, side) - getattr(tight.rating, side)) <= allowed)
+    assert moved_outlets(None, None, t_hot, t_cold) is None
+    other_batch = (t_hot[:3], t_cold[:3])
+    assert moved_outlets(other_batch, other_batch, t_hot, t_cold) is other_batch  # rate_in_service ignores it
+
+
 def test_cp_of_temperature_in_a_case_closes_on_enthalpy():
     result = simulate(case_from_mapping(two_stream_case(film_exchanger(), t_hot=330.0, t_cold=40.0)))
     row = e1(result)

@@ -12,8 +12,8 @@ from .arrangements import arranged
 from .pntu_rating import ExchangerRating
 from .u_models import Coefficients, FixedCoefficient, GeometryFilms
 from .back_calculation import back_calculate
-from .service_rating import ExchangerSpec, ServiceRating, coefficient_quantities, pressure_drops, rate_in_service, \
-    rates_linearly
+from .service_rating import ExchangerSpec, ServiceRating, coefficient_quantities, moved_outlets, pressure_drops, \
+    rate_in_service, rates_linearly
 from .properties import stacked, stacking_key
 from .zone_exchanger import rate_zoned, rated_by_zones, zone_problem, zone_report
 
@@ -80,7 +80,7 @@ class Exchanger(UnitBase):
         self.utility_inlets = frozenset(utility_inlets)
         """Sides ("hot"/"cold") carrying a utility stream: the duty then counts as heat to (or
         from) utilities rather than heat recovered between process streams."""
-        self._last_outlets = None  # warm start of the in-service iteration (speed only)
+        self._last_outlets = self._last_inlets = None  # warm start of the in-service iteration (speed only)
         self._affine = None  # the outlets' fixed fractions of the inlet difference, and what they hold for
         self._curves = {}  # cp models sampled as enthalpy curves for zone rating (speed only)
 
@@ -126,11 +126,14 @@ class Exchanger(UnitBase):
             self.spec.thermal.u = values
         else:
             self.spec.set_fouling(part, values)
-        self._last_outlets = self._affine = None
+        self._last_outlets = self._last_inlets = self._affine = None
 
     def rate(self, inlets, details=True):
-        service = rate_in_service(self.spec, inlets.t[:, 0], inlets.t[:, 1], inlets.m[:, 0], inlets.m[:, 1],
-                                  inlets.fluids[0], inlets.fluids[1], guess=self._last_outlets, details=details)
+        t_hot, t_cold = inlets.t[:, 0], inlets.t[:, 1]
+        guess = moved_outlets(self._last_inlets, self._last_outlets, t_hot, t_cold)
+        service = rate_in_service(self.spec, t_hot, t_cold, inlets.m[:, 0], inlets.m[:, 1],
+                                  inlets.fluids[0], inlets.fluids[1], guess=guess, details=details)
+        self._last_inlets = (t_hot, t_cold)
         self._last_outlets = (service.rating.t_hot_out_exchanger, service.rating.t_cold_out_exchanger)
         return service
 
@@ -289,8 +292,9 @@ class Exchanger(UnitBase):
                        ua=along(s.ua for s in specs) if fixed_ua else None,
                        thermal=specs[0].thermal if fixed_ua else FixedCoefficient(along(s.thermal.u for s in specs)),
                        area_per_shell=None if fixed_ua else along(s.area_per_shell for s in specs))
-        guesses = [u._last_outlets if u._last_outlets is not None and np.shape(u._last_outlets[0]) == (batch,)
-                   else (t[k, :, 0], t[k, :, 1]) for k, u in enumerate(units)]
+        moved = [moved_outlets(u._last_inlets, u._last_outlets, t[k, :, 0], t[k, :, 1]) for k, u in enumerate(units)]
+        guesses = [g if g is not None and np.shape(g[0]) == (batch,) else (t[k, :, 0], t[k, :, 1])
+                   for k, g in enumerate(moved)]
         guess = tuple(np.concatenate([g[side] for g in guesses]) for side in (0, 1))
         service = rate_in_service(spec, t[:, :, 0].reshape(-1), t[:, :, 1].reshape(-1), m[:, :, 0].reshape(-1),
                                   m[:, :, 1].reshape(-1), stacked([f[0] for f in fluids], batch),
@@ -298,7 +302,7 @@ class Exchanger(UnitBase):
         x = service.rating
         hot_x, cold_x = x.t_hot_out_exchanger.reshape(count, batch), x.t_cold_out_exchanger.reshape(count, batch)
         for k, unit in enumerate(units):
-            unit._last_outlets = (hot_x[k], cold_x[k])
+            unit._last_inlets, unit._last_outlets = (t[k, :, 0], t[k, :, 1]), (hot_x[k], cold_x[k])
         return service
 
     def _share(self, service, j, count, inlets):

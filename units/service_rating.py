@@ -226,6 +226,23 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
     return ServiceRating(rating, coefficients, ua, drops, stopped if members > 1 else passes)
 
 
+def moved_outlets(last_inlets, last_outlets, t_hot_in, t_cold_in):
+    """A warm start for :func:`rate_in_service` at new inlets from a rating at others: each
+    outlet keeps its fraction of the inlet difference, (T_h,in - T_h,out) / (T_h,in - T_c,in) and
+    (T_c,out - T_c,in) / (T_h,in - T_c,in) (exact where cp and U are constant, nearly so where
+    they follow the temperatures); the last outlets as they were where the last inlet difference
+    was too small to give fractions. None without a last rating of this batch's shape."""
+    if last_outlets is None or last_inlets is None or np.shape(last_outlets[0]) != np.shape(t_hot_in):
+        return last_outlets
+    (hot_in, cold_in), (hot_out, cold_out) = last_inlets, last_outlets
+    span = hot_in - cold_in
+    usable = np.abs(span) > 1e-6 * (1.0 + np.abs(hot_in))
+    safe = np.where(usable, span, 1.0)
+    new_span = t_hot_in - t_cold_in
+    return (np.where(usable, t_hot_in - (hot_in - hot_out) / safe * new_span, hot_out),
+            np.where(usable, t_cold_in + (cold_out - cold_in) / safe * new_span, cold_out))
+
+
 def _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, details):
     return rate_exchanger(t_hot_in, t_cold_in, c_hot, c_cold, ua, spec.arrangement, shells=spec.shells,
                           tube_passes=spec.tube_passes, shell_side=spec.shell_side, mixed_side=spec.mixed_side,
