@@ -11,8 +11,8 @@ import pytest
 from scipy.optimize import minimize
 from scipy.stats import norm
 
-from hxtrain.solver.monitoring.gross_errors import (global_test, measurement_test, serial_elimination,
-                                                    sidak_critical_value, sidak_level)
+from hxtrain.solver.monitoring.gross_errors import (first_of_largest, global_test, measurement_test,
+                                                    serial_elimination, sidak_critical_value, sidak_level)
 from hxtrain.solver.monitoring.observability import classify_variables
 from hxtrain.solver.monitoring.reconciliation import reconcile_linear, reconcile_nonlinear
 
@@ -222,6 +222,26 @@ def test_parallel_columns_are_reported_indistinguishable():
     assert len(out.eliminated[0]) == 1
     first = out.eliminated[0][0]
     assert set(first.indistinguishable_from) | {first.measurement} == {0, 1, 2}
+
+
+def test_among_indistinguishable_measurements_round_off_never_decides_which_is_removed():
+    """In one balance F1 = F2 + F3 all three |z| tie. Which one is removed must not follow the
+    last digits of the data (a plant-data run's results changed with the solver's round-off):
+    the least gross error is taken, the smallest bias in units of the measurement's own sigma.
+    With sigmas 1, 1, 3 and a 10-unit imbalance every candidate's bias is 10 (the balance's
+    residual), so F3 (10 / 3 sigma) is removed, whatever perturbation of 1e-9 the readings get;
+    with equal sigmas the first of the tied is."""
+    balance = [[1.0, -1.0, -1.0]]
+    for shift in ([0.0, 0.0, 0.0], [1e-9, 0.0, 0.0], [0.0, 1e-9, -1e-9], [0.0, 0.0, 1e-9]):
+        readings = np.array([[110.0, 60.0, 40.0]]) + shift
+        out = serial_elimination(lambda m, rows: reconcile_linear(m, np.array([1.0, 1.0, 3.0]), balance), readings)
+        removed = out.eliminated[0][0]
+        assert removed.measurement == 2 and set(removed.indistinguishable_from) == {0, 1}
+        assert removed.bias == pytest.approx(-10.0, abs=1e-6)
+        same = serial_elimination(lambda m, rows: reconcile_linear(m, 1.0, balance), readings)
+        assert same.eliminated[0][0].measurement == 0
+    chosen, ties = first_of_largest(np.array([[1.0, 3.0, 3.0 - 1e-12, 2.0], [-5.0, -1.0, -1.0, -np.inf]]))
+    assert list(chosen) == [1, 1] and ties.tolist() == [[False, False, True, False], [False, False, True, False]]
 
 
 def test_sidak_critical_value():

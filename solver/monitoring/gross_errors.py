@@ -164,6 +164,20 @@ def measurement_test(result, alpha=DEFAULT_ALPHA):
     return MeasurementTest(z, critical, testable & (np.abs(np.nan_to_num(z)) > critical[..., None]))
 
 
+def first_of_largest(values):
+    """(per row, the first column whose value is within :data:`_TIE` of the row's largest; the
+    other columns so tied, as a mask). A balance of two measurements gives both the same |z|, so
+    round-off alone would pick between them, and the results would change with the last digits
+    of the start values: the first of the tied is taken instead, and the others are reported as
+    indistinguishable from it."""
+    values = np.atleast_2d(values)
+    largest = values.max(axis=-1, keepdims=True)
+    ties = values >= largest - _TIE * np.abs(largest)
+    chosen = np.argmax(ties, axis=-1)
+    ties[np.arange(chosen.size), chosen] = False
+    return chosen, ties
+
+
 def serial_elimination(reconcile, measured, alpha=DEFAULT_ALPHA, max_eliminations=None):
     """Serial elimination of gross errors, all windows together (Ripps; Serth & Heenan [5]_).
 
@@ -208,18 +222,56 @@ def serial_elimination(reconcile, measured, alpha=DEFAULT_ALPHA, max_elimination
         go = global_test(current, alpha).rejected & testable & (counts < limit)
         if not go.any():
             break
-        chosen = np.argmax(np.where(np.isfinite(z[go]), np.abs(z[go]), -np.inf), axis=-1)
-        magnitude = np.abs(np.nan_to_num(z[go]))
-        ties = (magnitude >= (1.0 - _TIE) * magnitude.max(axis=-1, keepdims=True))
-        ties[np.arange(chosen.size), chosen] = False
-        rows, statistics = rows[go], z[go, chosen]
+        first, ties = first_of_largest(np.where(np.isfinite(z[go]), np.abs(z[go]), -np.inf))
+        rows, statistics = rows[go], z[go, first]
+        chosen, current = _removed(reconcile, original, y, rows, first, ties)
         y[rows, chosen] = np.nan
-        current = reconcile(y[rows].copy(), rows)
         k = np.arange(rows.size)
         bias = original[rows, chosen] - current["x"][k, chosen]
         bias_std = np.sqrt(current["sigma"][k, chosen] ** 2 + current["x_covariance"][k, chosen, chosen])
+        ties[k, first] = True
+        ties[k, chosen] = False
         for i, row in enumerate(rows):
             eliminated[row].append(Elimination(int(chosen[i]), float(statistics[i]), float(bias[i]),
                                                float(bias_std[i]), tuple(int(j) for j in np.flatnonzero(ties[i]))))
         result.put(rows, current)
     return SerialElimination(result, eliminated)
+
+
+def _removed(reconcile, original, y, rows, first, ties):
+    """(the measurement removed from each of windows ``rows``, their reconciliation without it).
+    ``first`` unless others tie with it (``ties``): the data cannot tell those apart, so the one
+    whose removal leaves the window reconciled with the smallest bias in units of its own sigma
+    is taken (the least gross error that explains the data; on equal terms the first)."""
+
+    def attempt(picked, columns):
+        trial = y[rows[picked]].copy()
+        trial[np.arange(picked.size), columns] = np.nan
+        found = reconcile(trial, rows[picked])
+        k = np.arange(picked.size)
+        bias = original[rows[picked], columns] - found["x"][k, columns]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            score = np.abs(bias) / found["sigma"][k, columns]
+        return found, np.where(np.asarray(found["success"], bool) & np.isfinite(score), score, np.inf)
+
+    everyone = np.arange(rows.size)
+    chosen = np.array(first)
+    current, score = attempt(everyone, chosen)
+    untried = ties.copy()
+    while untried.any():
+        picked = np.flatnonzero(untried.any(axis=1))
+        columns = np.argmax(untried[picked], axis=1)
+        untried[picked, columns] = False
+        other, other_score = attempt(picked, columns)
+        better = other_score < (1.0 - _TIE) * score[picked]  # clearly smaller: round-off does not decide
+        if better.any():
+            chosen[picked[better]] = columns[better]
+            score[picked[better]] = other_score[better]
+            current.put(picked[better], _taken(other, np.flatnonzero(better)))
+    return chosen, current
+
+
+def _taken(result, where):
+    """The windows ``where`` of a reconciliation result, as a result of its own."""
+    return type(result)({key: [value[i] for i in where] if isinstance(value, list) else value[where]
+                         for key, value in result.items()})

@@ -20,7 +20,8 @@ import pandas as pd
 
 from hxtrain.units.protocol import PortStates
 
-from .gross_errors import DEFAULT_ALPHA, global_test, measurement_test, serial_elimination, sidak_critical_value
+from .gross_errors import DEFAULT_ALPHA, first_of_largest, global_test, measurement_test, serial_elimination, \
+    sidak_critical_value
 from .network_balances import FLOW, TEMPERATURE, UNKNOWN, NetworkBalances
 from .reconciliation import reconcile_nonlinear
 
@@ -128,7 +129,7 @@ def reconcile_windows(net, evaluation, measured, values, sigma, alpha=DEFAULT_AL
         rows = np.flatnonzero(over.any(axis=1))
         if not rows.size:
             break
-        worst = np.argmax(np.where(over[rows], statistic[rows], -np.inf), axis=1)
+        worst, _ = first_of_largest(np.where(over[rows], statistic[rows], -np.inf))
         out.withheld[rows, worst] = True
         _reconcile_rows(out, rows, values, sigma, start, alpha)
     return out
