@@ -132,26 +132,35 @@ def test_a_heater_already_above_its_target_idles_with_a_warning():
 
 
 def test_a_computed_heater_duty_beyond_any_plant_is_warned_of():
-    """Each input plausible, the result not: 20,000 t/h of oil (inside the flow range) heated
-    from 100 to 250 °C asks 2,083 MW of its furnace, above the 1 GW edge of a plausible duty (the
-    largest fired heaters ~100-300 MW, common practice); a cooler likewise. 500 t/h (104 MW)
-    gets no such warning."""
-    def case(flow):
+    """Each input plausible, the result not: oil heated from 100 to 250 °C by a fired heater and
+    cooled back by a cooler. A fired heater is warned of above 500 MW (the largest deliver
+    ~100-300 MW, common practice), any other heater or cooler above 1 GW (the case format's edge
+    of a plausible duty): 500 t/h (104 MW) gets no warning, 6,000 t/h (625 MW) one on the fired
+    heater only, 20,000 t/h (2,083 MW) on both, and a utility heater of 625 MW none."""
+    def case(flow, source="fired"):
         return {"fluids": {"oil": {"cp": 2.5}},
                 "streams": {"oil": {"fluid": "oil", "flow": flow, "supply_temperature": 100,
                                     "path": "F-1 -> C-1 -> out"}},
-                "heaters": {"F-1": {"outlet_temperature": 250}}, "coolers": {"C-1": {"outlet_temperature": 100}},
-                "products": {"out": {}}}
+                "heaters": {"F-1": {"outlet_temperature": 250, "heat_source": source}},
+                "coolers": {"C-1": {"outlet_temperature": 100}}, "products": {"out": {}}}
 
-    assert simulate(case_from_mapping(case("500 t/h"))).findings.empty
-    result = simulate(case_from_mapping(case("20000 t/h")))
+    def warned(document):
+        result = simulate(case_from_mapping(document))
+        found = result.findings[result.findings["kind"] == "duty_beyond_plausible"]
+        assert set(found["severity"]) <= {"warning"}
+        return result, list(found["unit"]), list(found["message"])
+
+    assert warned(case("500 t/h"))[1] == []
+    _, units, messages = warned(case("6000 t/h"))
+    assert units == ["F-1"] and messages[0].startswith(f"the heater's duty comes out at {6000 / 3.6 * 2.5 * 150:,.0f} "
+                                                       "kW, above 500 MW, the edge of a plausible fired heater")
+    assert warned(case("6000 t/h", "utility"))[1] == []
+    result, units, messages = warned(case("20000 t/h"))
     duty = 20000 / 3.6 * 2.5 * 150.0
     assert result.units.loc["F-1", "duty_kw"] == pytest.approx(duty, rel=1e-12)
-    warned = result.findings[result.findings["kind"] == "duty_beyond_plausible"]
-    assert list(warned["unit"]) == ["F-1", "C-1"] and set(warned["severity"]) == {"warning"}
-    assert warned["message"].iloc[0].startswith(f"the heater's duty comes out at {duty:,.0f} kW, above 1,000 MW, the "
-                                                "edge of a plausible duty")
-    assert "the cooler's duty" in warned["message"].iloc[1]
+    assert units == ["F-1", "C-1"]
+    assert messages[1].startswith(f"the cooler's duty comes out at {duty:,.0f} kW, above 1,000 MW, the edge of a "
+                                  "plausible duty")
 
 
 def test_an_idle_heater_is_not_refused_on_round_off():

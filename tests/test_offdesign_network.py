@@ -445,6 +445,28 @@ def test_a_warm_start_moved_with_the_inlets_saves_passes_and_keeps_the_fixed_poi
     assert moved_outlets(other_batch, other_batch, t_hot, t_cold) is other_batch  # rate_in_service ignores it
 
 
+def test_a_film_scaled_far_from_its_reference_flow_is_warned_of():
+    """h ∝ ṁ^n is carried from one known point: a flow outside a third to three times the
+    reference (per shell) gets a warning naming the side; a side without flow does not. In a case:
+    the tube side of an exchanger at four times its reference flow, the shell side at one."""
+    thermal = ScaledFilms(SideFilm(1200.0, 30.0, 0.6), SideFilm(900.0, 40.0, 0.8))
+    shell, tube = thermal.scaling_findings("exchangers.E-1", np.array([5.0, 30.0, 95.0, 0.0]),
+                                           np.array([40.0, 130.0, 12.0, 0.0]))
+    assert shell.active.tolist() == [True, False, True, False]
+    assert tube.active.tolist() == [False, True, True, False]
+    data = {"fluids": {"oil": {"cp": 2.4}, "crude": {"cp": 2.1}},
+            "streams": {"oil": {"fluid": "oil", "flow": 30.0, "supply_temperature": 300, "path": "E-1.hot -> a"},
+                        "crude": {"fluid": "crude", "flow": 160.0, "supply_temperature": 40, "path": "E-1.cold -> b"}},
+            "exchangers": {"E-1": {"arrangement": "tema_e", "shell_side": "hot", "area_per_shell": 200,
+                                   "film": {"shell": 1200, "tube": 900}, "reference_flow": {"shell": 30, "tube": 40}}},
+            "products": {"a": {}, "b": {}}}
+    found = simulate(case_from_mapping(data)).findings
+    far = found[found["kind"] == "film_far_from_reference"]
+    assert len(far) == 1 and far["message"].iloc[0].startswith("the tube-side flow is 4.00 times the reference flow")
+    data["streams"]["crude"]["flow"] = 100.0
+    assert "film_far_from_reference" not in set(simulate(case_from_mapping(data)).findings["kind"])
+
+
 def test_cp_of_temperature_in_a_case_closes_on_enthalpy():
     result = simulate(case_from_mapping(two_stream_case(film_exchanger(), t_hot=330.0, t_cold=40.0)))
     row = e1(result)

@@ -29,7 +29,8 @@ import numpy as np
 
 
 __all__ = ["UnitModel", "UnitBase", "Inlets", "takes_enthalpy_state", "splits_by_state", "StackedInlets", "outlet_temperatures_together", "reports_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
-           "HEAT_LOST", "TOTALS", "HEAT_SOURCES", "LARGEST_DUTY", "METRIC_UNITS", "Worded", "outlets_within", "outlet_precision",
+           "HEAT_LOST", "TOTALS", "HEAT_SOURCES", "LARGEST_DUTY", "LARGEST_FIRED_DUTY",
+           "METRIC_UNITS", "Worded", "outlets_within", "outlet_precision",
            "note_outlets_loosened"]
 
 
@@ -97,7 +98,10 @@ report (:attr:`UnitReport.totals`): the solver adds them up without knowing unit
 
 LARGEST_DUTY = 1e6
 """kW: 1 GW, above the largest fired heaters (~100-300 MW, common practice): the edge of a
-plausible heat duty, given (the case format's range) or computed (a heater's warning)."""
+plausible heat duty, given (the case format's range) or computed (a heater's or cooler's warning)."""
+LARGEST_FIRED_DUTY = 5e5
+"""kW: 500 MW, well above the largest fired heaters (~100-300 MW, common practice): a fired
+heater's computed duty above it is warned of."""
 HEAT_SOURCES = ("fired", "utility", "reaction")
 """What a heater's heat is: burnt fuel (a furnace or fired heater), a bought utility (steam,
 hot oil, electricity), or heat released in the process itself (a reaction)."""

@@ -136,13 +136,19 @@ def _side(spec, hot_value, cold_value, side):
     return hot_value if (side == "shell") == shell_is_hot else cold_value
 
 
+def shell_flows(spec: ExchangerSpec, m_hot_x, m_cold_x):
+    """(shell side, tube side) flows through one shell, kg/s, from the hot and cold flows through
+    the exchanger proper (bypasses taken off): each parallel set takes its share."""
+    per_shell = 1.0 / spec.shells_in_parallel
+    return _side(spec, m_hot_x, m_cold_x, "shell") * per_shell, _side(spec, m_hot_x, m_cold_x, "tube") * per_shell
+
+
 def coefficients_at(spec: ExchangerSpec, m_hot_x, m_cold_x, t_mean_hot, t_mean_cold, fluid_hot, fluid_cold):
     """U and its parts (:class:`.u_models.Coefficients`) from the exchanger's U model at the flows
-    through the exchanger proper (kg/s, bypasses taken off; each parallel set takes its share) and
-    each side's mean temperature (°C), the hot and cold values given to the shell and tube sides."""
-    per_shell = 1.0 / spec.shells_in_parallel
+    through the exchanger proper (kg/s, bypasses taken off; see :func:`shell_flows`) and each
+    side's mean temperature (°C), the hot and cold values given to the shell and tube sides."""
     return spec.thermal.evaluate(
-        _side(spec, m_hot_x, m_cold_x, "shell") * per_shell, _side(spec, m_hot_x, m_cold_x, "tube") * per_shell,
+        *shell_flows(spec, m_hot_x, m_cold_x),
         _side(spec, t_mean_hot, t_mean_cold, "shell"), _side(spec, t_mean_hot, t_mean_cold, "tube"),
         _side(spec, fluid_hot, fluid_cold, "shell"), _side(spec, fluid_hot, fluid_cold, "tube"))
 

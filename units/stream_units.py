@@ -7,8 +7,8 @@ import numpy as np
 
 from . import balances
 from .properties import PHYSICAL_RANGE, Blend
-from .protocol import COOLERS, FIRED_HEATERS, LARGEST_DUTY, OTHER_HEATERS, Inlets, Parameter, UnitBase, UnitReport, \
-    check, design_temperature_findings
+from .protocol import COOLERS, FIRED_HEATERS, LARGEST_DUTY, LARGEST_FIRED_DUTY, OTHER_HEATERS, Inlets, Parameter, \
+    UnitBase, UnitReport, check, design_temperature_findings
 
 __all__ = ["Source", "Sink", "Mixer", "Splitter", "Heater", "mix", "shared_fractions"]
 
@@ -349,10 +349,12 @@ class Heater(UnitBase):
         idles), a fixed duty without flow; a computed duty beyond any plant's (a slip in the case
         that no single input shows)."""
         findings = design_temperature_findings(self.key, {"the stream ": (self.design_temperature, t, t_out)})
-        findings.append(check("duty_beyond_plausible", "warning", np.abs(duty) > LARGEST_DUTY, self.key,
-                              f"the {self.kind}'s duty comes out at {{duty:,.0f}} kW, above {LARGEST_DUTY / 1e3:,.0f} "
-                              "MW, the edge of a plausible duty (the largest fired heaters deliver ~100-300 MW, common "
-                              "practice): check the flows and temperatures that set it", duty=np.abs(duty)))
+        edge = LARGEST_FIRED_DUTY if self.total == FIRED_HEATERS else LARGEST_DUTY
+        findings.append(check("duty_beyond_plausible", "warning", np.abs(duty) > edge, self.key,
+                              f"the {self.kind}'s duty comes out at {{duty:,.0f}} kW, above {edge / 1e3:,.0f} MW, the "
+                              f"edge of a plausible {'fired heater' if edge < LARGEST_DUTY else 'duty'} (the largest "
+                              "fired heaters deliver ~100-300 MW, common practice): check the flows and temperatures "
+                              "that set it", duty=np.abs(duty)))
         if self.target is not None:
             target = np.broadcast_to(self.target, t.shape)
             findings.append(

@@ -14,9 +14,16 @@ from functools import cached_property
 import numpy as np
 
 from . import bell_delaware, bell_delaware_geometry, films
+from .protocol import check
 from .resistances import overall_coefficient
 
-__all__ = ["SideFilm", "FixedCoefficient", "ScaledFilms", "TubeBundle", "GeometryFilms", "Coefficients"]
+__all__ = ["SideFilm", "FixedCoefficient", "ScaledFilms", "TubeBundle", "GeometryFilms", "Coefficients",
+           "SCALING_RANGE"]
+
+SCALING_RANGE = 3.0
+"""A film scaled with flow from one reference point is trusted from a third to three times its
+reference flow (the range this tool takes; the exponent itself, 0.8 or 0.6, is common practice
+for turbulent flow near design); outside it the exchanger gets a warning."""
 
 
 @dataclass
@@ -102,6 +109,20 @@ class ScaledFilms:
         self.shell, self.tube = shell, tube
         self.fouling_shell, self.fouling_tube = fouling_shell, fouling_tube
         self.wall, self.diameter_ratio = wall, diameter_ratio
+
+    def scaling_findings(self, key, m_shell, m_tube):
+        """Warnings where a side's flow through one shell (kg/s) lies outside
+        :data:`SCALING_RANGE` times the reference flow its film is known at: h ∝ ṁ^n is carried
+        from that one point, and far from it the film should be rated from the geometry."""
+        found = []
+        for part, film, m in (("shell", self.shell, m_shell), ("tube", self.tube, m_tube)):
+            ratio = np.asarray(m, float) / film.reference_flow
+            far = (ratio > SCALING_RANGE) | ((ratio > 0.0) & (ratio < 1.0 / SCALING_RANGE))
+            found.append(check("film_far_from_reference", "warning", far, key,
+                               f"the {part}-side flow is {{r:.2f}} times the reference flow its film coefficient is "
+                               f"scaled from (h ∝ ṁ^{film.exponent:g}), outside a third to three times it: U is "
+                               "extrapolated; give the exchanger's geometry to rate it there", r=ratio))
+        return found
 
     def evaluate(self, m_shell, m_tube, t_shell, t_tube, fluid_shell, fluid_tube):
         h_shell, _ = self.shell.at(m_shell, t_shell, fluid_shell)
