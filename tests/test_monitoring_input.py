@@ -414,7 +414,7 @@ def test_too_few_samples_and_empty_windows_are_not_steady(tmp_path):
                             steady_state={"minimum_samples": 3})
     assert list(windows.steady) == [True, False, False, True]
     assert windows.reason.iloc[1] == "no data"
-    assert windows.reason.iloc[2].startswith("too few samples: TI-1011 2 samples")
+    assert windows.reason.iloc[2].startswith("too few samples (under 3): TI-1011 2 samples")
 
 
 def test_a_tag_without_samples_in_a_window_leaves_it_nan_and_steady(tmp_path):
@@ -459,3 +459,18 @@ def test_a_year_of_hourly_data_for_forty_tags_reads_and_averages_quickly(tmp_pat
     assert history.samples.shape == (8760, 40) and len(windows.mean) == 365
     with capsys.disabled():
         print(f"\n8760 rows x 40 tags: read_history {middle - start:.3f} s, windows {end - middle:.3f} s")
+
+
+def test_a_missing_tag_column_suggests_only_columns_no_other_tag_reads(tmp_path):
+    """TI-1011's column is missing; 'TI-1001' is as close, but tag TI-1001 reads it, so suggesting
+    it would send the user to break another tag; an unread 'TI-1O11' (a letter O) is suggested."""
+    tags = {"TI-1001": {"temperature": "crude", "unit": "degC"},
+            "TI-1011": {"temperature": "E-101.cold_out", "unit": "degC"}}
+    for extra, suggested in ((None, None), ("TI-1O11", "TI-1O11")):
+        columns = {"TI-1001": 25.0, **({extra: 60.0} if extra else {})}
+        monitoring = load_monitoring(write_plant(tmp_path, tags, hourly("2026-01-01", 6, **columns)))
+        with pytest.raises(CaseError) as caught:
+            read_history(monitoring)
+        text = str(caught.value)
+        assert "has no column 'TI-1011' for tag TI-1011" in text and "'TI-1001'?" not in text
+        assert (f"(did you mean '{suggested}'?)" in text) if suggested else "did you mean" not in text

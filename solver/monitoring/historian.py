@@ -222,10 +222,11 @@ def _check_header(header: list[str], name: str, monitoring: MonitoringFile, firs
         raise CaseError(f"row 1: no column {time!r} holding the time (time_column in {monitoring.file})"
                         f"{nearest(time, named)}; the columns are {shorten(', '.join(named), 300)}"
                         f"{_separator_hint(','.join(named), first_row) if len(named) <= 2 else ''}", file=name)
+    taken = {tag.column for tag in monitoring.tags.values()} | {time}
     for tag in monitoring.tags.values():
-        if tag.column not in position:
+        if tag.column not in position:  # a column another tag reads is no suggestion
             raise monitoring.error(tag.key, f"the data file {name} has no column {tag.column!r} for tag {tag.name}"
-                                            f"{nearest(tag.column, named)}")
+                                            f"{nearest(tag.column, [h for h in named if h not in taken])}")
     return position
 
 

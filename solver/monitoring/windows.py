@@ -111,8 +111,8 @@ def average_windows(samples: pd.DataFrame, monitoring: MonitoringFile) -> Window
         drifts = {"trend": (trend.abs(), (noise / np.sqrt(time_spread)).where(time_spread > 0.0, 0.0)),
                   "change": (change, (noise * np.sqrt(1.0 / count + 1.0 / count.shift())).fillna(0.0))}
     where_said = {"trend": "across the window", "change": "since the window before"}
-    tests = [("too few samples", (count > 0) & (count < rule.minimum_samples), count, count * 0.0, "{:.0f} samples",
-              "")]
+    tests = [(f"too few samples (under {rule.minimum_samples})", (count > 0) & (count < rule.minimum_samples), count,
+              count * 0.0, "{:.0f} samples", "")]
     for kind, threshold, unit in (("flow", rule.flow_change, " of the mean"),
                                   ("temperature", rule.temperature_change, " K")):
         names = [t.name for t in tags if t.quantity == kind]
