@@ -108,3 +108,7 @@ def test_a_gap_in_the_plant_data_is_said_with_its_times():
     assert "no data at all in 3 windows" in text
     assert "2026-03-01 06:00 to 2026-03-01 18:00; 2026-03-02 00:00 to 2026-03-02 06:00" in text
     assert _gap_lines(windows.assign(samples=6), pd.Timedelta("6h")) == []
+    assert " ".join(_gap_lines(windows, pd.Timedelta("6h"), spacing=pd.Timedelta("1h"))) == text  # data every hour
+    # a window shorter than the data's spacing: said as such, not as a list of gaps
+    short = " ".join(_gap_lines(windows, pd.Timedelta("30min"), spacing=pd.Timedelta("1h")))
+    assert "the window (0.5 h) is shorter than the data's usual spacing (1 h)" in short and "2026-03-01" not in short

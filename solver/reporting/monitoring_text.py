@@ -105,7 +105,7 @@ def monitoring_report(result, display: Display | None = None) -> str:
     parts.append(f"Windows of {_duration(m.window)}: {len(windows):,}; steady {steady:,}; reconciled "
                  f"{int(windows['reconciled'].sum())}; global test passed in {int(windows['passed'].sum())} "
                  f"(significance {m.significance:g})")
-    parts += _gap_lines(windows, m.window, display)
+    parts += _gap_lines(windows, m.window, display, history.samples.index.to_series().diff().median())
     parts += _redundancy_lines(result)
     today = today_table(result)
     if not today.empty:
@@ -138,12 +138,17 @@ def monitoring_report(result, display: Display | None = None) -> str:
     return "\n".join(parts)
 
 
-def _gap_lines(windows: pd.DataFrame, window, display: Display | None = None) -> list[str]:
+def _gap_lines(windows: pd.DataFrame, window, display: Display | None = None, spacing=None) -> list[str]:
     """The stretches of windows without a single reading (a historian outage, a gap in the
-    export): said, not only counted as not steady (within ``display``'s width)."""
+    export): said, not only counted as not steady (within ``display``'s width); where the window
+    is shorter than the data's usual ``spacing`` (their median), that is said instead."""
     empty = (windows["samples"] == 0).to_numpy()
     if not empty.any():
         return []
+    if spacing is not None and pd.notna(spacing) and pd.Timedelta(spacing) > pd.Timedelta(window):
+        return fitted(f"  no data at all in {int(empty.sum()):,} windows: the window ({_duration(pd.Timedelta(window))}) "
+                      f"is shorter than the data's usual spacing ({_duration(pd.Timedelta(spacing))}); a window of at "
+                      "least the spacing gives every window its readings", display or current(), "    ")
     starts = np.flatnonzero(empty & ~np.concatenate([[False], empty[:-1]]))
     ends = np.flatnonzero(empty & ~np.concatenate([empty[1:], [False]]))
     times = windows.index
