@@ -201,8 +201,13 @@ def _read_splitter(f: Fields, reading: Reading) -> dict:
                 raise b.error("fraction", "give a branch either a 'fraction' or a set 'flow' (kg/s), not both")
             set_flows[branch] = b.quantity("flow", q.MASS_FLOW)
         else:
-            fractions[branch] = b.quantity("fraction", q.FRACTION, required=not (by_flow and lone),
-                                           default=1.0)
+            if not b.has("fraction") and not (by_flow and lone):
+                sharing = [name for name, _ in branches if name not in by_flow]
+                raise b.error(None, "missing key 'fraction': " + (
+                    f"the branches sharing what the set flows leave ({', '.join(sharing)}) each need theirs; only a "
+                    "branch that takes all the rest alone may omit it" if by_flow else
+                    "every branch of a splitter without set flows needs its fraction (they sum to 1)"))
+            fractions[branch] = b.quantity("fraction", q.FRACTION, required=False, default=1.0)
         reading.starts_path(f"{f.path[-1]}.{branch}", b, f.path[-1], branch)
         b.text("description")
         b.finish()

@@ -185,6 +185,13 @@ def test_reversed_labels_move_heat_downhill_and_say_so():
     row = result.units.loc["E1"]
     assert row["duty_kw"] < 0 and row["hot_out_c"] > 40 and row["cold_out_c"] < 90
     assert "reversed_heat_flow" in set(result.findings["kind"])
+    # the heat recovered is what passes, whichever stream the case calls hot: the same as with
+    # the labels the right way round (it had come out negative)
+    case["streams"]["a"]["path"], case["streams"]["b"]["path"] = "E1.cold -> pa", "E1.hot -> pb"
+    swapped = simulate(case_from_mapping(case))
+    assert swapped.units.loc["E1", "duty_kw"] == pytest.approx(-row["duty_kw"], rel=1e-12)
+    recovered = [r.summary["heat_recovered_kw"] for r in (result, swapped)]
+    assert recovered[0] == pytest.approx(recovered[1], rel=1e-12) and recovered[0] == pytest.approx(-row["duty_kw"])
 
 
 def test_loosened_sweeps_far_from_the_answer_give_the_exact_answer_with_fewer_passes(monkeypatch):

@@ -7,7 +7,7 @@ from dataclasses import fields, replace
 import numpy as np
 
 from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, PropertyNeed, UnitReport, UnitBase, check, \
-    design_temperature_findings
+    design_temperature_findings, exchanger_totals
 from .arrangements import arranged
 from .pntu_rating import ExchangerRating
 from .u_models import Coefficients, FixedCoefficient, GeometryFilms
@@ -347,7 +347,7 @@ class Exchanger(UnitBase):
         if hasattr(self.spec.thermal, "scaling_findings") and self.spec.ua is None:  # U from films known at one flow
             m_x = (inlets.m[:, 0] * (1.0 - self.spec.bypass_hot), inlets.m[:, 1] * (1.0 - self.spec.bypass_cold))
             findings += self.spec.thermal.scaling_findings(self.key, *shell_flows(self.spec, *m_x))
-        totals = {} if self.total is None else {self.total: x.duty}
+        totals = exchanger_totals(self.total, x.duty)
         metrics = {"duty": x.duty, "hot_in": t_hot, "hot_out": x.t_hot_out, "cold_in": t_cold, "cold_out": x.t_cold_out}
         return UnitReport(quantities, findings, labels=labels, totals=totals, metrics=metrics)
 
@@ -381,7 +381,8 @@ class Exchanger(UnitBase):
         findings = [
             check("temperature_cross", "limit", x.temperature_cross, key,
                   "temperature cross inside a multipass shell (P_hot + P_cold = {s:.3f} per shell > 1): "
-                  "the cold stream leaves above the hot outlet; F = {f:.3f}", s=x.shell_p_sum, f=x.f),
+                  "the stream being heated leaves above the outlet of the stream being cooled; F = {f:.3f}",
+                  s=x.shell_p_sum, f=x.f),
             check("low_f", "warning", works & (x.f < self.minimum_f), key,
                   "F = {f:.3f} is below {lim:.2f}: steep, unreliable part of the F curve", f=x.f, lim=self.minimum_f),
             check("approach", "warning", works & (x.approach < self.minimum_approach), key,

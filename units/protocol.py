@@ -30,7 +30,7 @@ import numpy as np
 
 __all__ = ["UnitModel", "UnitBase", "Inlets", "takes_enthalpy_state", "splits_by_state", "StackedInlets", "outlet_temperatures_together", "reports_together", "Finding", "UnitReport", "Parameter", "PortStates", "PropertyNeed", "check", "design_temperature_findings",
            "HEAT_LOST", "TOTALS", "HEAT_SOURCES", "LARGEST_DUTY", "LARGEST_FIRED_DUTY",
-           "METRIC_UNITS", "Worded", "outlets_within", "outlet_precision",
+           "METRIC_UNITS", "Worded", "exchanger_totals", "outlets_within", "outlet_precision",
            "note_outlets_loosened"]
 
 
@@ -416,6 +416,16 @@ def splits_by_state(unit) -> bool:
 def takes_enthalpy_state(unit) -> bool:
     """Whether ``unit`` can take streams that carry enthalpy (it has ``outlet_states``)."""
     return callable(getattr(unit, "outlet_states", None))
+
+
+def exchanger_totals(total, duty) -> dict:
+    """The run totals an exchanger's duty (kW, hot side to cold side) counts in: heat recovered
+    between process streams is what passes, whichever way it flows (a case that labels the colder
+    stream "hot" still recovers it: |duty|); heat to or from utilities keeps its sign. ``total``
+    None: in no total."""
+    if total is None:
+        return {}
+    return {total: np.abs(duty) if total == HEAT_RECOVERED else duty}
 
 
 def check(kind, severity, active, key, template, **values):

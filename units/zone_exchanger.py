@@ -213,7 +213,7 @@ class _FilmView:
 
 def zone_report(unit, inlets, service: ZoneService | None, problem):
     """The report of exchanger ``unit`` rated by zones (``problem``: why it cannot be)."""
-    from .protocol import UnitReport, check
+    from .protocol import UnitReport, check, exchanger_totals
 
     key, batch = unit.key, inlets.batch
     if problem is not None:
@@ -257,7 +257,7 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
               "the hot-side stream enters colder ({th:.1f} °C) than the cold-side stream ({tc:.1f} °C): heat "
               "flows from the cold side to the hot side ({q:.1f} kW)", th=t_hot, tc=t_cold, q=-x.duty),
     ]
-    totals = {} if unit.total is None else {unit.total: x.duty}
+    totals = exchanger_totals(unit.total, x.duty)
     metrics = {"duty": x.duty, "hot_in": t_hot, "hot_out": service.t_hot_out, "cold_in": t_cold,
                "cold_out": service.t_cold_out, "hot_out_vapour_fraction": service.q_hot_out,
                "cold_out_vapour_fraction": service.q_cold_out}
