@@ -71,7 +71,7 @@ DEFAULT_TEMPERATURE_CHANGE = 3.0
 """... or a temperature by more than 3 K (common practice)."""
 DEFAULT_MINIMUM_SAMPLES = 1
 DEFAULT_CONFIDENCE = 0.95
-"""How sure a window's own scatter must leave us that a drift exceeds its threshold before the
+"""How sure the instrument's noise must leave us that a drift exceeds its threshold before the
 window is set aside as transient: one-sided 95 %, the usual level (common practice)."""
 DEFAULT_UNCERTAINTY = {"temperature": (1.0, None), "flow": (None, 0.02), "duty": (None, 0.05)}
 """(absolute sigma, relative sigma) per instrument kind, one standard deviation: thermocouples and
@@ -107,8 +107,9 @@ class SteadyState(NamedTuple):
     """K."""
     minimum_samples: int = DEFAULT_MINIMUM_SAMPLES
     confidence: float = DEFAULT_CONFIDENCE
-    """0.5 to below 1: the drift less this many one-sided standard errors (from the samples'
-    scatter) must exceed the threshold; 0.5 compares the drift itself."""
+    """0.5 to below 1: the drift less its standard error (from the tag's noise, pooled over the
+    data) times the one-sided normal quantile at this level must exceed the threshold; 0.5
+    compares the drift itself (see :mod:`hxtrain.solver.monitoring.windows`)."""
 
 
 class Projection(NamedTuple):

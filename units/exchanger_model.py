@@ -13,7 +13,7 @@ from .pntu_rating import ExchangerRating
 from .u_models import Coefficients, FixedCoefficient, GeometryFilms
 from .back_calculation import back_calculate
 from .service_rating import ExchangerSpec, ServiceRating, coefficient_quantities, moved_outlets, pressure_drops, \
-    rate_in_service, rates_linearly, shell_flows
+    rate_in_service, rates_linearly, shell_flows, through_exchanger
 from .properties import stacked, stacking_key
 from .zone_exchanger import rate_zoned, rated_by_zones, zone_problem, zone_report
 
@@ -345,7 +345,7 @@ class Exchanger(UnitBase):
         labels = {"u_source": "fixed UA" if self.spec.ua is not None else self.spec.thermal.source}
         findings = self._limit_findings(inlets, service) + self._rating_findings(x, coefficients, t_hot, t_cold)
         if hasattr(self.spec.thermal, "scaling_findings") and self.spec.ua is None:  # U from films known at one flow
-            m_x = (inlets.m[:, 0] * (1.0 - self.spec.bypass_hot), inlets.m[:, 1] * (1.0 - self.spec.bypass_cold))
+            m_x = through_exchanger(self.spec, inlets.m[:, 0], inlets.m[:, 1])
             findings += self.spec.thermal.scaling_findings(self.key, *shell_flows(self.spec, *m_x))
         totals = exchanger_totals(self.total, x.duty)
         metrics = {"duty": x.duty, "hot_in": t_hot, "hot_out": x.t_hot_out, "cold_in": t_cold, "cold_out": x.t_cold_out}

@@ -136,6 +136,11 @@ def _side(spec, hot_value, cold_value, side):
     return hot_value if (side == "shell") == shell_is_hot else cold_value
 
 
+def through_exchanger(spec: ExchangerSpec, m_hot, m_cold):
+    """(hot, cold) flows through the exchanger proper, kg/s: each side's bypass taken off."""
+    return m_hot * (1.0 - spec.bypass_hot), m_cold * (1.0 - spec.bypass_cold)
+
+
 def shell_flows(spec: ExchangerSpec, m_hot_x, m_cold_x):
     """(shell side, tube side) flows through one shell, kg/s, from the hot and cold flows through
     the exchanger proper (bypasses taken off): each parallel set takes its share."""
@@ -189,8 +194,7 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
     operating point (the coefficients are not kept per pass) and no pressure-drop models.
     """
     t_hot_in, t_cold_in, m_hot, m_cold = as_arrays(t_hot_in, t_cold_in, m_hot, m_cold)
-    m_hot_x = m_hot * (1.0 - spec.bypass_hot)
-    m_cold_x = m_cold * (1.0 - spec.bypass_cold)
+    m_hot_x, m_cold_x = through_exchanger(spec, m_hot, m_cold)
     simple = rates_linearly(spec, fluid_hot, fluid_cold)
     if guess is not None and np.shape(guess[0]) == t_hot_in.shape:
         t_hot_x, t_cold_x = (np.array(g, dtype=float) for g in guess)
@@ -258,7 +262,7 @@ def _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, details):
 def pressure_drops(spec, rating, t_hot_in, t_cold_in, m_hot, m_cold, fluid_hot, fluid_cold) -> dict:
     """Pa by side ("shell"/"tube") of the exchanger rated ``rating``, from its pressure-drop
     models at the flow through one shell and the side's mean temperature."""
-    m_x = {"hot": m_hot * (1.0 - spec.bypass_hot), "cold": m_cold * (1.0 - spec.bypass_cold)}
+    m_x = dict(zip(("hot", "cold"), through_exchanger(spec, m_hot, m_cold)))
     t_mean = {"hot": 0.5 * (t_hot_in + rating.t_hot_out_exchanger), "cold": 0.5 * (t_cold_in + rating.t_cold_out_exchanger)}
     drops = {}
     for side, model in spec.pressure_drop.items():

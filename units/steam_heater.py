@@ -133,8 +133,8 @@ class SteamHeater(Heater):
         report.labels = {"heat_source": f"steam at {self.steam_pressure:g} kPa (absolute)"}
         return report
 
-    def _findings(self, t, m, t_out, idle, duty):
-        return super()._findings(t, m, t_out, idle, duty) + self._saturation_findings(t, m, t_out)
+    def _findings(self, t, m, t_out, idle):
+        return super()._findings(t, m, t_out, idle) + self._saturation_findings(t, m, t_out)
 
     def _saturation_findings(self, t, m, t_out):
         """Input errors: what condensing steam at its saturation temperature cannot do."""

@@ -339,22 +339,25 @@ class Heater(UnitBase):
         heat_added = np.where(m > 0.0, added + self._change_heat(t, m, inlets.fluids[0]), 0.0)
         labels = {"heat_source": self.heat_source} if self.heat_source else {}
         labels.update({"outlet_fluid": name for name in self.outlet_fluids.values()})
-        return UnitReport(quantities, self._findings(t, m, t_out, idle, duty), heat_added=heat_added, labels=labels,
+        findings = self._findings(t, m, t_out, idle) + [self._duty_finding(duty)]
+        return UnitReport(quantities, findings, heat_added=heat_added, labels=labels,
                           totals={self.total: np.where(m > 0.0, duty, 0.0)},
                           metrics={"duty": duty, "inlet": t, "outlet": t_out},
                           highlights={f"{self.name}_inlet_c": t} if self.total == FIRED_HEATERS else {})
 
-    def _findings(self, t, m, t_out, idle, duty):
-        """Its design temperature; what its setting cannot do: a target behind the inlet (it
-        idles), a fixed duty without flow; a computed duty beyond any plant's (a slip in the case
-        that no single input shows)."""
+    def _duty_finding(self, duty):
+        """A computed duty beyond any plant's: a slip in the case that no single input shows."""
+        fired = self.total == FIRED_HEATERS
+        edge = LARGEST_FIRED_DUTY if fired else LARGEST_DUTY
+        return check("duty_beyond_plausible", "warning", np.abs(duty) > edge, self.key,
+                     f"the {self.kind}'s duty comes out at {{duty:,.0f}} kW, above {edge / 1e3:,.0f} MW, the edge of "
+                     f"a plausible {'fired heater' if fired else 'duty'} (the largest fired heaters deliver ~100-300 "
+                     "MW, common practice): check the flows and temperatures that set it", duty=np.abs(duty))
+
+    def _findings(self, t, m, t_out, idle):
+        """Its design temperature, and what its setting cannot do: a target behind the inlet (it
+        idles), a fixed duty without flow."""
         findings = design_temperature_findings(self.key, {"the stream ": (self.design_temperature, t, t_out)})
-        edge = LARGEST_FIRED_DUTY if self.total == FIRED_HEATERS else LARGEST_DUTY
-        findings.append(check("duty_beyond_plausible", "warning", np.abs(duty) > edge, self.key,
-                              f"the {self.kind}'s duty comes out at {{duty:,.0f}} kW, above {edge / 1e3:,.0f} MW, the "
-                              f"edge of a plausible {'fired heater' if edge < LARGEST_DUTY else 'duty'} (the largest "
-                              "fired heaters deliver ~100-300 MW, common practice): check the flows and temperatures "
-                              "that set it", duty=np.abs(duty)))
         if self.target is not None:
             target = np.broadcast_to(self.target, t.shape)
             findings.append(

@@ -62,7 +62,6 @@ NOISE_DIFFERENCES = 10
 """The fewest within-window differences of successive samples from which a tag's noise is taken."""
 MAD_TO_SIGMA = 1.4826
 """A normal distribution's standard deviation over its median absolute deviation."""
-"""The fewest samples whose scatter is taken as evidence of a window mean's uncertainty."""
 
 
 @dataclass

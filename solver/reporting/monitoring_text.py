@@ -13,7 +13,6 @@ import textwrap
 import numpy as np
 import pandas as pd
 
-
 from . import plant_tables as names
 from .console_tables import fixed, render
 from .display_units import Display, by_quantity, current
@@ -145,16 +144,17 @@ def _gap_lines(windows: pd.DataFrame, window, display: Display | None = None, sp
     empty = (windows["samples"] == 0).to_numpy()
     if not empty.any():
         return []
-    if spacing is not None and pd.notna(spacing) and pd.Timedelta(spacing) > pd.Timedelta(window):
-        return fitted(f"  no data at all in {int(empty.sum()):,} windows: the window ({_duration(pd.Timedelta(window))}) "
-                      f"is shorter than the data's usual spacing ({_duration(pd.Timedelta(spacing))}); a window of at "
-                      "least the spacing gives every window its readings", display or current(), "    ")
-    starts = np.flatnonzero(empty & ~np.concatenate([[False], empty[:-1]]))
-    ends = np.flatnonzero(empty & ~np.concatenate([empty[1:], [False]]))
-    times = windows.index
-    gaps = [f"{times[a]:%Y-%m-%d %H:%M} to {times[b] + pd.Timedelta(window):%Y-%m-%d %H:%M}"
-            for a, b in zip(starts, ends)]
-    return fitted(f"  no data at all in {int(empty.sum())} windows: " + "; ".join(gaps), display or current(), "    ")
+    window = pd.Timedelta(window)
+    if spacing is not None and pd.notna(spacing) and pd.Timedelta(spacing) > window:
+        said = (f"the window ({_duration(window)}) is shorter than the data's usual spacing "
+                f"({_duration(pd.Timedelta(spacing))}); a window of at least the spacing gives every window its "
+                "readings")
+    else:
+        starts = np.flatnonzero(empty & ~np.concatenate([[False], empty[:-1]]))
+        ends = np.flatnonzero(empty & ~np.concatenate([empty[1:], [False]]))
+        said = "; ".join(f"{windows.index[a]:%Y-%m-%d %H:%M} to {windows.index[b] + window:%Y-%m-%d %H:%M}"
+                         for a, b in zip(starts, ends))
+    return fitted(f"  no data at all in {int(empty.sum()):,} windows: {said}", display or current(), "    ")
 
 
 def _redundancy_lines(result) -> list[str]:

@@ -12,7 +12,6 @@ import textwrap
 import numpy as np
 import pandas as pd
 
-
 from . import plant_tables as names
 from .console_tables import fixed, render
 from .display_units import Display, current
