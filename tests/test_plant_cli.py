@@ -68,6 +68,12 @@ def test_monitor_names_the_file_and_key_of_bad_input(tmp_path, capsys):
     code, out, err = run_in_process(capsys, "monitor", bad, "--out", tmp_path / "x.json")
     assert code == 2 and str(bad) in err and "economics.furnace_efficiency" in err
     assert "Traceback" not in err and not (tmp_path / "x.json").exists()
+    # the steady-state confidence, a new key: the same
+    bad.write_text(bad.read_text().replace("furnace_efficiency: 1.7", "furnace_efficiency: 0.88").replace(
+        "steady_state:\n", "steady_state:\n  confidence: 0.3\n"))
+    code, out, err = run_in_process(capsys, "monitor", bad, "--out", tmp_path / "x.json")
+    assert code == 2 and str(bad) in err and "steady_state.confidence" in err and "cannot be below 0.5" in err
+    assert "Traceback" not in err and not (tmp_path / "x.json").exists()
 
 
 def test_schedule_prints_the_plan_and_the_baselines(tmp_path, capsys):
