@@ -144,13 +144,16 @@ def nearest_paths(data, parts, depth) -> list[str]:
 
 def locate(data, path, where, create_last=True):
     """The mapping holding the last component of ``path`` and that component's name. A missing
-    mapping below a unit (``exchangers.E-109.bypass``) is made when ``path`` is a numeric key."""
+    mapping below a unit (``exchangers.E-109.bypass``), or a missing ``settings`` section, is made
+    when ``path`` is a numeric key."""
     parts = split_path(path, where)
     pattern = next((p for p in _PATTERNS if _matches(p, parts)), None)
     node = data
     for depth, part in enumerate(parts[:-1]):
         if isinstance(node, dict) and node.get(part) is None:
-            key_of_the_format = pattern is not None and depth >= 2 and pattern[depth] is not None
+            # a unit's missing mapping (bypass, fouling), or a case's missing settings section
+            key_of_the_format = pattern is not None and (depth >= 2 and pattern[depth] is not None
+                                                         or (depth, part) == (0, "settings"))
             if key_of_the_format or (part in node and depth < len(parts) - 2):
                 node[part] = {}
         if not isinstance(node, dict) or part not in node:

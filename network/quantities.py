@@ -272,10 +272,10 @@ def _parse(text: str, kind: Kind) -> float:
             raise QuantityError(f"expected {kind.name}, got {shorten(text)}, whose units are not of that kind: a "
                                 f"volume flow; give the density after it, e.g. '{text.strip()} at 870 kg/m^3'") from None
         raise QuantityError(f"expected {kind.name} such as {kind.example}, got {shorten(text)}, whose units are not "
-                            f"of that kind{_degree_hint(text)}") from None
+                            f"of that kind{_degree_hint(text)}{_gauge_hint(text, kind)}") from None
     except Exception:  # pint's expression parser fails in many ways (even AssertionError) on junk
         raise QuantityError(f"expected {kind.name} such as {kind.example}; cannot read the units of "
-                            f"{shorten(text)}{_degree_hint(text)}") from None
+                            f"{shorten(text)}{_degree_hint(text)}{_gauge_hint(text, kind)}") from None
     return number
 
 
@@ -316,6 +316,8 @@ def unit_spelling(unit_text: str, kind: Kind) -> str:
     levels a degree is a difference (delta_degF)."""
     if unit_text == "%":
         return "percent"
+    if kind.unit in ("kPa", "Pa") and unit_text in _ABSOLUTE_PRESSURE:
+        return _ABSOLUTE_PRESSURE[unit_text]
     over, slash, under = unit_text.partition("/")
     if slash and "/" not in under and any(dot in under for dot in "\u00b7\u22c5"):
         unit_text = f"{over}/({under})"  # 'Btu/h·ft²·°F': the dotted units after the slash are all below it
@@ -368,6 +370,18 @@ def _spell_degrees(unit_text: str) -> str:
     for sign, name in _DEGREE_SIGNS.items():
         unit_text = unit_text.replace(sign, name)
     return _DEGREE_WORDS.sub(lambda m: "deg" + m.group(1)[0].upper(), unit_text)
+
+
+_ABSOLUTE_PRESSURE = {"psia": "psi", "bara": "bar", "kPaa": "kPa", "MPaa": "MPa"}
+"""The trade's spellings of absolute pressure units (pressures in a case are absolute)."""
+_GAUGE = re.compile(r"^(psig|barg|kPag|MPag|kPa\(?g\)?|bar\(?g\)?|psi\(?g\)?)$")
+
+
+def _gauge_hint(text: str, kind: Kind) -> str:
+    """For '150 psig' where an absolute pressure is asked: the local atmosphere is not known."""
+    if "absolute" not in kind.name or not _GAUGE.match(NUMBER_AT_START.match(text).group(2).strip()):
+        return ""
+    return " (a gauge pressure: give the absolute pressure, gauge plus the local atmospheric pressure, e.g. psia or bara)"
 
 
 def _degree_hint(text: str) -> str:

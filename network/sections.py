@@ -13,6 +13,8 @@ import copy
 from dataclasses import dataclass, field
 from typing import Callable
 
+import numpy as np
+
 from hxtrain.units import stream_units
 from hxtrain.units.desalter import Desalter
 from hxtrain.units.enthalpy_curves import EnthalpyCurve
@@ -89,32 +91,46 @@ def _read_stream(f: Fields, reading: Reading) -> dict:
     data = {
         "fluid": f.defined_name("fluid", sorted(reading.fluids)),
         "flow": f.quantity("flow", q.MASS_FLOW),
-        "supply_temperature": f.quantity("supply_temperature", q.TEMPERATURE),
         "utility": f.flag("utility"),
-        "vapour_fraction": _supply_vapour_fraction(f, reading),
     }
+    data["supply_temperature"], data["vapour_fraction"] = _supply_vapour_fraction(f, reading)
     reading.starts_path(name, f, name, "out")
     f.text("description")
     f.finish()
     return data
 
 
+SATURATION_MATCH = 0.1
+"""K: a supply temperature within this of a saturation plateau of its fluid is taken as that
+plateau's temperature (a saturated supply written to the nearest tenth of a degree, or converted
+from °F, is not a subcooled liquid or a superheated vapour by a hair's breadth: common practice is
+to read it as saturated), and so needs its vapour fraction."""
+
+
 def _supply_vapour_fraction(f: Fields, reading: Reading):
-    """A supply's vapour fraction: needed where its temperature is that of a saturation plateau
-    of its fluid (then T does not fix the state), refused anywhere else (T fixes it there)."""
+    """(supply temperature, vapour fraction): the fraction needed where the temperature is within
+    :data:`SATURATION_MATCH` of a saturation plateau of the fluid (there T does not fix the
+    state; the supply is then taken at the plateau's temperature), refused anywhere else (T fixes
+    it there)."""
     fluid = reading.fluids[f.raw("fluid")]
     t = f.quantity("supply_temperature", q.TEMPERATURE)
-    bounds = fluid.enthalpy_bounds(t) if fluid.state_by_enthalpy else None
-    on_plateau = bounds is not None and bool(bounds[0] < bounds[1])
+    plateaus = getattr(fluid, "plateau_temperatures", np.empty(0)) if fluid.state_by_enthalpy else np.empty(0)
+    nearest = plateaus[np.argmin(np.abs(plateaus - t))] if plateaus.size else None
+    saturated = nearest is not None and abs(t - nearest) <= SATURATION_MATCH
     given = f.quantity("vapour_fraction", q.FRACTION, required=False)
-    if on_plateau and given is None:
-        raise f.error("vapour_fraction", f"{t:g} °C is the saturation temperature of fluid '{fluid.name}' at its "
-                                         "pressure, where temperature does not fix the state: give the supply's "
-                                         "'vapour_fraction' (0 saturated liquid, 1 saturated vapour)")
-    if given is not None and not on_plateau:
-        raise f.error("vapour_fraction", f"the supply's temperature fixes its state ({t:g} °C is not a saturation "
-                                         f"temperature of fluid '{fluid.name}'): leave out 'vapour_fraction'")
-    return given
+    if saturated and given is None:
+        raise f.error("vapour_fraction", f"{t:g} °C is within {SATURATION_MATCH:g} K of the saturation temperature "
+                                         f"{nearest:.4f} °C of fluid '{fluid.name}' at its pressure, where "
+                                         "temperature does not fix the state: give the supply's 'vapour_fraction' "
+                                         "(0 saturated liquid, 1 saturated vapour; it is then taken at the "
+                                         "saturation temperature), or a temperature further from it for a "
+                                         "subcooled liquid or a superheated vapour")
+    if given is not None and not saturated:
+        where = "" if nearest is None else f"; its saturation temperature is {nearest:.4f} °C"
+        raise f.error("vapour_fraction", f"the supply's temperature fixes its state ({t:g} °C is not within "
+                                         f"{SATURATION_MATCH:g} K of a saturation temperature of fluid "
+                                         f"'{fluid.name}'{where}): leave out 'vapour_fraction'")
+    return (float(nearest) if saturated else t), given
 
 
 def _build_stream(name, key, data, building):

@@ -31,6 +31,9 @@ from .batch import BATCHABLE, check_values, is_batchable
 from .changes import key_kind, study_number
 from .fields import Fields, describe
 
+SEED_LARGEST = 2**32 - 1
+"""The largest seed a study takes (numpy's seed sequence takes any, this keeps files portable)."""
+
 DISTRIBUTIONS = {"normal": ("mean", "sd"), "uniform": ("low", "high"), "triangular": ("low", "mode", "high")}
 NORMAL_CHECK_SPAN = 4.0
 """Standard deviations either side of the mean checked as case values for an unbounded normal."""
@@ -73,7 +76,7 @@ def read_uncertainty(top: Fields, base_document):
     if f is None:
         return None
     samples = f.integer("samples", 1000, 2, MAX_SAMPLES)
-    seed = f.integer("seed", 1, 0, 2**32 - 1)
+    seed = f.integer("seed", 1, 0, SEED_LARGEST)
     section = f.mapping("inputs", required=True, what="a mapping of key paths to their distributions")
     inputs = []
     for path in section.value:
@@ -101,6 +104,8 @@ def _input(section: Fields, path, base_document) -> Distribution:
     parameters = {}
     for parameter in DISTRIBUTIONS[name]:
         raw = f.raw(parameter)
+        if parameter == "sd" and isinstance(raw, (int, float)) and not raw > 0:  # before the quantity's own range
+            raise f.error("sd", f"the standard deviation must be above 0, got {raw:g}")
         with attributed(section.doc):
             parameters[parameter] = study_number(raw, spread if parameter == "sd" else kind, where + (parameter,))
     low, high = -np.inf, np.inf

@@ -237,6 +237,29 @@ def test_a_cross_flags_heat_flowing_back_only_where_it_can():
     assert float(x.shell_p_sum) > 1.0 and not bool(x.temperature_cross)
 
 
+@pytest.mark.parametrize("tube_passes", [4, 8])
+@pytest.mark.parametrize("shells", [1, 2])
+def test_an_f_shell_crosses_and_approaches_as_its_two_e_halves(tube_passes, shells):
+    """Identity: a TEMA F shell with 2N tube passes is two 1-N E shells in series in counterflow
+    (its relation's own definition, Shah & Sekulić 2003, from memory), so its cross and its
+    outlets' meeting are those of each half: every number equals the same exchanger rated as
+    twice the shells of a 1-N E. Judged on the whole F shell, P_hot + P_cold had passed 1 where
+    no half crosses (a false limit on the shell type chosen to avoid a cross)."""
+    t_hot, t_cold, c_hot, c_cold, ua, *_ = _random_inputs(11)
+    f_shell = rate_exchanger(t_hot, t_cold, c_hot, c_cold, ua, shells=shells, **_config("tema_f", tube_passes))
+    halves = rate_exchanger(t_hot, t_cold, c_hot, c_cold, ua, shells=2 * shells, **_config("tema_e", tube_passes // 2))
+    np.testing.assert_allclose(f_shell.duty, halves.duty, rtol=1e-12, atol=1e-9)
+    # the halves' P comes from inverting the series relation: ~1e-7 K of round-off at deep crosses
+    np.testing.assert_allclose(f_shell.approach, halves.approach, rtol=1e-9, atol=1e-6)
+    np.testing.assert_allclose(f_shell.shell_p_sum, halves.shell_p_sum, rtol=1e-7)
+    np.testing.assert_array_equal(f_shell.temperature_cross, halves.temperature_cross)
+    one = dict(t_hot_in=200.0, t_cold_in=100.0, c_hot=10.0, c_cold=12.0, ua=22.0)  # the trial's shape: no half crosses
+    whole, half = (rate_exchanger(**one, **_config("tema_f", 4)), rate_exchanger(**one, shells=2, **_config("tema_e", 2)))
+    assert float(whole.effectiveness) * (1.0 + 10.0 / 12.0) > 1.2  # the whole shell's sum, as it was judged
+    assert not bool(whole.temperature_cross) and not bool(half.temperature_cross)
+    assert float(whole.approach) == pytest.approx(float(half.approach), rel=1e-9) and float(whole.approach) > 4.0
+
+
 def test_units_in_parallel_flow_approach_at_their_common_outlet_end():
     """Streams that leave at one end approach there: the approach of units in overall parallel
     flow, of a 1-1 parallel E shell and of a plate in overall parallel flow is T_hot,out -

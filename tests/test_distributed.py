@@ -75,3 +75,117 @@ def test_an_unreachable_scheduler_is_bad_input():
     with pytest.raises(ClusterError, match="cannot reach"):
         with on_cluster("tcp://127.0.0.1:9", timeout="1s"):
             pass
+
+
+@pytest.mark.parametrize("address, fragment", [
+    ("", "needs the scheduler's address"), ("   ", "needs the scheduler's address"),
+    ("http://127.0.0.1:8787", "is the scheduler's dashboard"), ("not a url", "has no port"),
+    ("tcp://10.0.0.5", "has no port"), ("10.0.0.5:port", "has no port"),
+])
+def test_what_cannot_be_a_scheduler_address_is_refused_before_connecting(address, fragment):
+    """A dashboard's http:// address, an address without a port, or none at all: bad input
+    (exit 2), said before any connection (these had been an internal error, or, for "", a
+    silent run in this process)."""
+    with pytest.raises(ClusterError, match=fragment):
+        with on_cluster(address):
+            pass
+
+
+def _server(answer):
+    """A local TCP server on a free port that sends ``answer`` (or nothing, and holds the
+    connection open, where it is None) to whoever connects; returns its address."""
+    import socket
+    import threading
+
+    listener = socket.socket()
+    listener.bind(("127.0.0.1", 0))
+    listener.listen(4)
+    held = []
+
+    def serve():
+        while True:
+            connection, _ = listener.accept()
+            held.append(connection)
+            if answer is not None:
+                connection.sendall(answer)
+
+    threading.Thread(target=serve, daemon=True).start()
+    return f"tcp://127.0.0.1:{listener.getsockname()[1]}"
+
+
+def test_a_service_that_is_not_a_scheduler_is_named_so():
+    """Something else on the port (here a server that greets like SSH): Dask reads its banner
+    as a message length of exabytes; reported as not a Dask scheduler, exit 2 (had been an
+    internal error asking for 2.8 EiB)."""
+    with pytest.raises(ClusterError, match="is not a Dask scheduler"):
+        with on_cluster(_server(b"SSH-2.0-OpenSSH_9.2p1 Debian\r\n" * 3), timeout="2s"):
+            pass
+
+
+def test_a_port_that_accepts_and_never_answers_is_given_up_on(monkeypatch):
+    """A web dashboard's port accepts the connection and waits for a request: Dask's timeout
+    does not cover that, and the command had hung for minutes. Given up after
+    CONNECT_SECONDS (+5 s), naming the likely mix-up of ports."""
+    monkeypatch.setattr(distributed_module, "CONNECT_SECONDS", 0.5)
+    start = time.perf_counter()
+    with pytest.raises(ClusterError, match="did not answer within 5.5 s: is that the scheduler's port"):
+        with on_cluster(_server(None), timeout="30s"):
+            pass
+    assert time.perf_counter() - start < 15.0
+
+
+def test_a_scheduler_without_workers_is_refused(monkeypatch):
+    """A scheduler with no worker would leave the study to this process without a word: after
+    WORKER_WAIT_SECONDS it is refused, saying how to start a worker."""
+    import distributed
+
+    monkeypatch.setattr(distributed_module, "WORKER_WAIT_SECONDS", 0.5)
+    with distributed.LocalCluster(n_workers=0, processes=False, dashboard_address=":0") as empty:
+        with pytest.raises(ClusterError, match="has no workers .* start some with 'dask worker"):
+            with on_cluster(empty.scheduler_address):
+                pass
+
+
+def test_a_cluster_lost_mid_run_is_its_own_failure_with_no_result(tmp_path, monkeypatch, capsys):
+    """The scheduler lost while the pieces are out: no result and no output file, exit 4 with
+    the reason (had been exit 1, "a fault in hxtrain"). A piece's own error is not this: it
+    comes back as it was raised."""
+    from distributed.client import FutureCancelledError
+
+    from hxtrain.solver.cli.main import main
+
+    class LostClient:
+        def map(self, function, *arguments, pure=False):
+            return list(arguments[0])
+
+        def gather(self, futures):
+            raise FutureCancelledError("piece-1", reason="scheduler-connection-lost")
+
+        def nthreads(self):
+            return {"w1": 1, "w2": 1}
+
+        def close(self):
+            pass
+
+    @__import__("contextlib").contextmanager
+    def lost(scheduler=None, local_workers=None, announce=None, **kwargs):
+        from hxtrain.solver.simulation.batch import batches_on
+
+        with batches_on(distributed_module.DaskPieces(LostClient(), minimum=5)):
+            yield None
+
+    monkeypatch.setattr(distributed_module, "on_cluster", lost)
+    study = tmp_path / "uncertain.yaml"
+    study.write_text(STUDY, encoding="utf-8")
+    out = tmp_path / "mc.csv"
+    assert main(["uncertainty", str(study), "--scheduler", "tcp://127.0.0.1:8786", "--out", str(out)]) == 4
+    err = capsys.readouterr().err
+    assert "the Dask cluster failed while the study ran" in err and "internal error" not in err
+    assert not list(tmp_path.glob("mc*"))
+
+    class Refusing(LostClient):
+        def gather(self, futures):
+            raise ClusterError("a piece's own bad input")
+
+    with pytest.raises(ClusterError, match="own bad input"):
+        distributed_module.DaskPieces(Refusing()).map(len, [1])

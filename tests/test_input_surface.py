@@ -465,6 +465,21 @@ def test_a_bare_c_or_f_is_refused_with_the_spelling_to_use(text, kind, hint):
         q.to_default_unit(text, kind)
 
 
+@pytest.mark.parametrize("text,expected", [("165 psia", 165 * 6.894757293168361), ("10 bara", 1000.0),
+                                           ("450 kPaa", 450.0)])
+def test_absolute_pressure_units_as_the_trade_writes_them_are_read(text, expected):
+    """psia and bara are psi and bar (pressures in a case are absolute); 1 psi = 6.894757293 kPa
+    (NIST SP 811, from memory)."""
+    assert q.to_default_unit(text, q.STEAM_PRESSURE) == pytest.approx(expected, rel=1e-12)
+
+
+@pytest.mark.parametrize("text", ["150 psig", "10 barg", "500 kPag", "10 bar(g)"])
+def test_a_gauge_pressure_is_refused_saying_to_give_the_absolute(text):
+    """The local atmosphere is not known here: a gauge pressure is refused with the reason."""
+    with pytest.raises(q.QuantityError, match="a gauge pressure: give the absolute pressure"):
+        q.to_default_unit(text, q.PRESSURE)
+
+
 @pytest.mark.parametrize("unit,default", sorted(q.PLAIN_FACTORS))
 def test_units_read_without_pint_convert_to_the_very_number_pint_gives(unit, default):
     """The common units are read from a table, without loading pint (start-up): each must give

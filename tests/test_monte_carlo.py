@@ -105,6 +105,7 @@ def test_the_command_reports_and_writes(study_file, tmp_path, capsys):
     ("exchangers.E-104.shells: {distribution: uniform, low: 1, high: 2}", "exchangers.E-104.shells"),
     ("streams.crude.flow: {distribution: lognormal, mean: 95}", "distribution"),
     ("streams.crude.flow: {distribution: normal, mean: 95, sd: 0}", "sd"),
+    ("streams.crude.flow: {distribution: normal, mean: 95, sd: -2}", "standard deviation must be above 0"),
     ("streams.crude.flow: {distribution: triangular, low: 90, mode: 80, high: 100}", "mode"),
     ("streams.crude.flow: {distribution: uniform, low: -10, high: 100}", "streams.crude.flow"),
 ])
@@ -128,3 +129,44 @@ def test_without_a_fired_heater_the_tornado_ranks_nothing(tmp_path, capsys):
     assert result.tornado["rank_correlation"].isna().all()
     assert main(["uncertainty", str(study)]) == 0
     assert "does not vary over the samples" in capsys.readouterr().out
+
+
+def test_the_report_names_the_limits_the_samples_violate(study_file, capsys):
+    """Most samples put E-112's cold side above its design temperature: the report boxes that
+    limit with its count, and each sample's row names the limits it violates (the count of the
+    box is that of the rows naming it; the rows' limit count agrees)."""
+    result = run_uncertainty(load_study(study_file))
+    named = result.samples["violated_limits"]
+    hit = named.str.contains("E-112 design_temperature")
+    assert 0 < hit.sum() < len(named)
+    counted = result.samples["limit_violations"].fillna(0).to_numpy()
+    assert np.array_equal(counted, [len(t.split("; ")) if t else 0 for t in named])
+    assert main(["uncertainty", str(study_file)]) == 0
+    out = capsys.readouterr().out
+    assert "LIMITS VIOLATED" in out and f"E-112 design_temperature: {hit.sum():,} of 60" in out
+
+
+def test_samples_without_an_answer_say_why_and_so_does_the_tornado(tmp_path, capsys):
+    """Charge flows below what the reactor branch takes have no answer: the report counts them
+    under their reason, with one of their messages, and where the tornado's P10 falls among
+    them its blank end says why (it had been left blank without a word)."""
+    study = tmp_path / "u.yaml"
+    study.write_text("base: {demo: desalter_and_reactor}\nuncertainty:\n  samples: 200\n  seed: 1\n  inputs:\n"
+                     "    streams.raw_charge.flow: {distribution: uniform, low: 15, high: 40}\n", encoding="utf-8")
+    result = run_uncertainty(load_study(study))
+    failed = ~result.samples["success"].astype(bool)
+    assert 0 < failed.sum() < 200 and result.failed == failed.sum()
+    assert [(path, q) for path, q, _, _ in result.tornado_gaps] == [("streams.raw_charge.flow", 10)]
+    assert main(["uncertainty", str(study)]) == 0
+    out = " ".join(capsys.readouterr().out.split())
+    assert f"SAMPLES WITH NO ANSWER, LEFT OUT OF THE PERCENTILES: {failed.sum()} of 200" in out
+    assert f"{failed.sum()} sample(s), e.g. splitters.charge_split" in out
+    assert "streams.raw_charge.flow at its P10 (" in out and "has no answer: splitters.charge_split" in out
+
+
+@pytest.mark.parametrize("seed", ["-1", "4294967296"])
+def test_a_seed_outside_the_study_files_range_is_refused_at_the_command_line(study_file, seed, capsys):
+    """The study file takes seeds 0 to 2^32 - 1; --seed the same (-1 had been an internal
+    error, a larger one taken)."""
+    assert main(["uncertainty", str(study_file), "--seed", seed]) == 2
+    assert "--seed must be a whole number from 0 to 4,294,967,295" in capsys.readouterr().err

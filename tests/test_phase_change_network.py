@@ -192,6 +192,32 @@ def test_supply_on_a_plateau_needs_its_vapour_fraction():
     assert error.value.path == ("streams", "hot", "vapour_fraction")
 
 
+@pytest.mark.parametrize("offset", [-0.05, 0.0004, 0.099])
+def test_a_supply_written_near_saturation_is_saturated(offset):
+    """Saturated steam written to a rounded temperature (0.05 K below, 0.4 mK above; the band's
+    edge, 0.099 K) is taken at the saturation temperature with its vapour fraction: the same
+    duty as the exact temperature, to 1e-9 (hand check: the closed form of the test above).
+    Read as subcooled liquid, 0.05 K below had given about a sixth of the duty, silently."""
+    exact, t_sat = _steam_heater(steam_flow=2.0, ua=12.0)
+    rounded, _ = _steam_heater(steam_flow=2.0, ua=12.0)
+    rounded["streams"]["hot"]["supply_temperature"] = t_sat + offset
+    assert _row(simulate(rounded))["duty_kw"] == pytest.approx(_row(simulate(exact))["duty_kw"], rel=1e-9)
+    del rounded["streams"]["hot"]["vapour_fraction"]
+    with pytest.raises(CaseError, match=r"within 0.1 K of the saturation temperature 179.88\d\d °C") as error:
+        case_from_mapping(rounded)
+    assert error.value.path == ("streams", "hot", "vapour_fraction")
+
+
+def test_a_vapour_fraction_beyond_the_saturation_band_is_refused():
+    """0.11 K below saturation is a subcooled liquid (its temperature fixes its state): a vapour
+    fraction there is refused, the message giving the saturation temperature to 1e-4 K."""
+    case, t_sat = _steam_heater(steam_flow=2.0, ua=12.0)
+    case["streams"]["hot"]["supply_temperature"] = t_sat - 0.11
+    with pytest.raises(CaseError, match=r"its saturation temperature is 179.88\d\d °C\): leave out") as error:
+        case_from_mapping(case)
+    assert error.value.path == ("streams", "hot", "vapour_fraction")
+
+
 @pytest.mark.parametrize("change, key, fragment", [
     (lambda c: c["fluids"].update(hot_fluid={"cp": 2.0}), ("streams", "hot", "vapour_fraction"), "leave out"),
     (lambda c: c.update(heaters={"H-1": {"duty": 100}}) or c["streams"]["hot"].update(path="E-1.hot -> H-1 -> hot_out"),
@@ -338,6 +364,36 @@ def test_a_cross_in_a_one_two_shell_rated_by_zones_is_a_limit():
         row = _row(result)
         assert row["cold_out_c"] > row["hot_out_c"]  # the outlets overlap in both
         assert ("temperature_cross" in set(result.limits["kind"])) == crossed
+
+
+def _bowman_one_two_f(p, r):
+    """F of a 1-2 shell (Bowman, Mueller & Nagle 1940, the 1-2 formula as Kern and every
+    textbook print it; written out here apart from the code)."""
+    root = np.sqrt(r * r + 1.0)
+    return root * np.log((1.0 - p) / (1.0 - p * r)) / ((r - 1.0) * np.log(
+        (2.0 - p * (r + 1.0 - root)) / (2.0 - p * (r + 1.0 + root))))
+
+
+@pytest.mark.parametrize("ua, warned", [(10.0, set()), (15.0, {"outlet_approach"}), (30.0, {"low_f"})])
+def test_a_one_two_shell_rated_by_zones_gives_its_outlet_approach_and_f(ua, warned):
+    """A 1-2 shell boiling a feed: its outlets meet inside the shell, so its approach is the
+    smaller of the ends and hot out - cold out (10.6 K at UA 10, 3.0 K at UA 15: warned below
+    the case's 10 K), and its F is that of its terminal temperatures (Bowman's 1-2 formula),
+    warned below 0.75 (0.72 at UA 30, where the outlets cross too). Before, the table gave the
+    ends only and no F: a vaporiser 3 K from a cross passed silently."""
+    result = simulate(_two_stream({"cp": 2.5}, BOILING, {"arrangement": "tema_e", "ua": ua}, t_hot=200.0,
+                                  t_cold=60.0, m_hot=4.0, m_cold=1.0))
+    row = _row(result)
+    ends = min(200.0 - row["cold_out_c"], row["hot_out_c"] - 60.0)
+    outlets = row["hot_out_c"] - row["cold_out_c"]
+    assert row["min_approach_k"] == pytest.approx(min(ends, outlets), abs=1e-9)
+    assert row["internal_approach_k"] <= row["min_approach_k"] + 1e-9
+    hot_change, cold_change = 200.0 - row["hot_out_c"], row["cold_out_c"] - 60.0
+    p = max(hot_change, cold_change) / 140.0
+    r = min(hot_change, cold_change) / max(hot_change, cold_change)
+    assert row["f"] == pytest.approx(_bowman_one_two_f(p, r), rel=1e-9)
+    assert warned <= set(result.findings["kind"]) and not ({"outlet_approach", "low_f"} - warned) & set(
+        result.findings["kind"])
 
 
 def test_a_furnace_on_a_wide_boiling_curve_adds_the_heat_of_vaporisation():

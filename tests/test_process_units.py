@@ -419,9 +419,10 @@ def test_the_flow_solve_paths_agree_on_set_flows_and_fluid_changes(monkeypatch):
 
 
 def test_a_steam_heaters_pressure_is_shown_in_the_chosen_units(tmp_path, capsys):
-    """The heat source "steam at 1000 kPa (absolute)" reads "145 psi" in US units, on the
+    """The heat source "steam at 1000.0 kPa (absolute)" reads "145.0 psi" in US units, on the
     screen, in the files and in the report (1 psi = 6.894757 kPa, NIST SP 811), and stays in
-    kPa in SI units."""
+    kPa in SI units; always to a tenth (written with the decimals of the value given, 1100 kPa
+    had read "160 psi" for 159.5 psi and 165 psia "165.00 psi")."""
     import pandas as pd
 
     from hxtrain.solver.cli.main import main
@@ -429,11 +430,11 @@ def test_a_steam_heaters_pressure_is_shown_in_the_chosen_units(tmp_path, capsys)
     case = Path(__file__).parent / "valid" / "process_units.yaml"
     assert main(["run", str(case), "--units", "us", "--out", str(tmp_path / "us.csv")]) == 0
     screen = capsys.readouterr().out
-    assert "steam at 145 psi (absolute)" in screen and "kPa" not in screen
+    assert "steam at 145.0 psi (absolute)" in screen and "kPa" not in screen
     units = pd.read_csv(tmp_path / "us.csv", index_col=0)
-    assert units.loc["S-1", "heat_source"] == "steam at 145 psi (absolute)"
+    assert units.loc["S-1", "heat_source"] == "steam at 145.0 psi (absolute)"
     assert main(["report", str(case), "--units", "us", "--out", str(tmp_path / "us.html")]) == 0
-    assert "steam at 145 psi (absolute)" in (tmp_path / "us.html").read_text(encoding="utf-8")
+    assert "steam at 145.0 psi (absolute)" in (tmp_path / "us.html").read_text(encoding="utf-8")
     capsys.readouterr()
     assert main(["run", str(case)]) == 0
-    assert "steam at 1000 kPa (absolute)" in capsys.readouterr().out
+    assert "steam at 1000.0 kPa (absolute)" in capsys.readouterr().out

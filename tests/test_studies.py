@@ -560,6 +560,16 @@ def test_bypass_changes_an_existing_bypass(crude_doc):
     assert case_from_mapping(changed).exchangers["E-110"]["spec"].bypass_cold == 0.3
 
 
+def test_set_creates_a_missing_settings_section(crude_doc):
+    """A case without a settings section takes its defaults; a study may still set one of them
+    (it had been refused: "'settings' does not exist")."""
+    bare = copy.deepcopy(crude_doc.data)
+    bare.pop("settings", None)
+    changed = apply_changes(bare, [{"set": "settings.minimum_approach", "to": 5}])
+    assert changed["settings"] == {"minimum_approach": 5} and "settings" not in bare
+    assert case_from_mapping(changed).settings.minimum_approach == 5
+
+
 def test_bypass_creates_the_bypass_mapping(crude_doc):
     assert "bypass" not in crude_doc.data["exchangers"]["E-109"]
     changed = apply_changes(crude_doc.data, [{"bypass": "E-109.hot", "fraction": 0.15},
@@ -1194,3 +1204,30 @@ def test_a_heaters_row_is_named_as_its_result_is():
     base = comparison.results["base"]
     assert comparison.table.loc["F-101 outlet_c", "base"] == metric(base, "F-101.outlet")
     assert comparison.table.loc["C-101 outlet_c", "base"] == metric(base, "C-101.outlet")
+
+
+def test_a_sweep_names_the_limits_its_points_violate(tmp_path, capsys):
+    """At 115 % crude flow four tube sides pass their allowable pressure drop: the sweep's
+    report boxes each violated limit with the points where it is (it had printed only counts),
+    and each row of the written table names its limits, the same ones a separate run of that
+    point reports."""
+    study = write(tmp_path, f"""
+        base: {CRUDE}
+        sweeps:
+          flow:
+            scale: true
+            grid:
+              streams.crude.flow: [0.85, 1.15]
+        """)
+    out_file = tmp_path / "sweep.csv"
+    code, out, err = run_cli(capsys, "sweep", study, "--out", out_file)
+    assert code == 0, err
+    assert "LIMITS VIOLATED" in out and "E-102 pressure_drop (tube): 1 of 2 (50%), points 2" in out
+    rows = pd.read_csv(out_file, keep_default_na=False)
+    data = read_document(CRUDE).data
+    for _, row in rows.iterrows():
+        data["streams"]["crude"]["flow"] = f"{row['streams.crude.flow'] * 342.0} t/h"
+        limits = simulate(case_from_mapping(copy.deepcopy(data), str(CRUDE))).limits
+        expected = {f"{u} {k}" for u, k in zip(limits["unit"], limits["kind"])}
+        named = {label.split(" (")[0] for label in row["violated_limits"].split("; ") if label}
+        assert named == expected

@@ -155,6 +155,9 @@ class Arrangement:
     shell; ``cross`` whether a temperature cross inside one unit (P_hot + P_cold > 1) means heat
     flowing back (a violated limit) rather than an ordinary counterflow approach; ``same_end``
     whether both fluids leave at one end (the approach is then their outlet difference);
+    ``halves`` how many multipass units one unit is, joined in counterflow, where its outlets
+    meet and a cross is judged (2 for a TEMA F shell with four or more tube passes: two 1-2N E
+    halves; else 1);
     ``shape`` how P1 rises with NTU1: ``"rising"``, ``"peak"`` (a maximum at finite NTU1, then a
     fall to its limit) or ``"dip"`` (a maximum, a shallow minimum, then a rise)."""
 
@@ -166,6 +169,7 @@ class Arrangement:
     sided: Callable = lambda passes, o: False
     cross: Callable = lambda passes, o: False
     same_end: Callable = lambda passes, o: False
+    halves: Callable = lambda passes, o: 1
     shape: Callable = lambda passes, o: "rising"
 
 
@@ -200,7 +204,7 @@ ARRANGEMENTS = {
         options={"both_mixed": (False, True)}, shape=lambda n, o: "peak" if o["both_mixed"] else "rising"),
     "tema_f": Arrangement(
         _shell_relation(pntu_shells.p_tema_f, _f_sided), "TEMA F, two shell passes (ideal longitudinal baffle)",
-        tube_passes=(4, 2, 8, 12, 16), sided=_f_sided, cross=lambda n, o: n >= 4,
+        tube_passes=(4, 2, 8, 12, 16), sided=_f_sided, cross=lambda n, o: n >= 4, halves=lambda n, o: 2 if n >= 4 else 1,
         shape=lambda n, o: "peak" if n >= 8 else "rising"),
     "tema_g": Arrangement(_shell_relation(pntu_shells.p_tema_g, _always), "TEMA G split flow", tube_passes=(2, 1),
                           sided=_always, cross=_always),

@@ -124,6 +124,15 @@ class EnthalpyCurve(FluidModel):
         return bool(self.plateaus.any())
 
     @property
+    def plateau_temperatures(self) -> np.ndarray:
+        """°C: the temperatures of the curve's saturation plateaus (none for a curve without).
+
+        >>> EnthalpyCurve([90.0, 100.0, 100.0], [377.0, 419.0, 2675.0], [0.0, 0.0, 1.0]).plateau_temperatures.tolist()
+        [100.0]
+        """
+        return self.t_points[:-1][self.plateaus]
+
+    @property
     def holds_vapour(self) -> bool:
         """True where any row has vapour: the fluid may boil or condense along the curve."""
         return bool(np.any(self.q_points > 0.0))

@@ -8,7 +8,7 @@ import numpy as np
 
 from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, PropertyNeed, UnitReport, UnitBase, check, \
     design_temperature_findings, exchanger_totals
-from .arrangements import arranged
+from .arrangements import arranged, single_pass_aware
 from .pntu_rating import ExchangerRating
 from .u_models import Coefficients, FixedCoefficient, GeometryFilms
 from .back_calculation import back_calculate
@@ -375,12 +375,19 @@ class Exchanger(UnitBase):
                                       dp=drop / 1000.0, lim=limit / 1000.0))
         return findings
 
+    def _cross_unit(self):
+        """Where a cross is judged: per shell, or per half of an F shell (see
+        :attr:`.arrangements.Arrangement.halves`)."""
+        a = arranged(self.spec.arrangement)
+        return "per half of the F shell" if a.line.halves(single_pass_aware(a, self.spec.tube_passes), a.options) > 1 \
+            else "per shell"
+
     def _rating_findings(self, x, coefficients, t_hot, t_cold):
         key = self.key
         works = x.duty != 0.0
         findings = [
             check("temperature_cross", "limit", x.temperature_cross, key,
-                  "temperature cross inside a multipass shell (P_hot + P_cold = {s:.3f} per shell > 1): "
+                  f"temperature cross inside a multipass shell (P_hot + P_cold = {{s:.3f}} {self._cross_unit()} > 1): "
                   "the stream being heated leaves above the outlet of the stream being cooled; F = {f:.3f}",
                   s=x.shell_p_sum, f=x.f),
             check("low_f", "warning", works & (x.f < self.minimum_f), key,

@@ -23,6 +23,7 @@ from . import pntu
 from .arrangements import ARRANGEMENTS, Arranged, arranged, basic_equivalent, p_of_units, p_one_unit, \
     single_pass_aware
 from .arrays import as_arrays, as_floats
+from .pntu_inverse import p_one_unit_of_series
 
 __all__ = ["ARRANGEMENTS", "ExchangerRating", "rate_exchanger", "p_one_unit", "carried", "HEAT_CAPACITY_RATE_FLOOR"]
 
@@ -216,13 +217,16 @@ def rate_exchanger(
         approach = direction * (t_hot_x - t_cold_x)  # both streams leave at one end
     else:
         approach = np.minimum(direction * end_hot_in, direction * end_hot_out)
-        if a.line.cross(passes, options):  # a multipass unit: its outlets meet inside it too
-            approach = np.minimum(approach, direction * _unit_outlet_difference(
-                t_hot_in, t_cold_x, p_shell * c_min, c_hot, c_cold, shells))
-    # a temperature cross inside one unit, P_hot + P_cold > 1 (the same for every unit of a
-    # series, whose units share P and R): heat flows back inside a multipass unit, or, in units
-    # joined in parallel flow, in the next unit
-    shell_p_sum = p_shell * (1.0 + r)
+    # a multipass unit's outlets meet inside it; an F shell's two E halves each have their own
+    halves = a.line.halves(passes, options)
+    p_part = p_shell if halves == 1 else p_one_unit_of_series(p_shell, r, halves)
+    if a.line.cross(passes, options) and not (a.line.same_end(passes, options) or series_in_parallel):
+        approach = np.minimum(approach, direction * _unit_outlet_difference(
+            t_hot_in, t_cold_x, p_part * c_min, c_hot, c_cold, shells * halves))
+    # a temperature cross inside one unit (or half), P_hot + P_cold > 1 (the same for every unit
+    # of a series, whose units share P and R): heat flows back inside a multipass unit, or, in
+    # units joined in parallel flow, in the next unit
+    shell_p_sum = p_part * (1.0 + r)
     if a.line.cross(passes, options) or series_in_parallel:
         cross = shell_p_sum > 1.0 + 1e-12
     else:

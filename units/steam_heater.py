@@ -130,7 +130,7 @@ class SteamHeater(Heater):
             report.quantities["effectiveness"] = np.where(
                 approach > 0.0, (t_out - t) / np.where(approach > 0.0, approach, 1.0), 0.0)
         report.metrics["steam_flow"] = steam
-        report.labels = {"heat_source": f"steam at {self.steam_pressure:g} kPa (absolute)"}
+        report.labels = {"heat_source": f"steam at {self.steam_pressure:.1f} kPa (absolute)"}
         return report
 
     def _findings(self, t, m, t_out, idle):

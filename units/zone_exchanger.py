@@ -39,8 +39,8 @@ from .enthalpy_curves import EnthalpyCurve, curve_from_model
 from .properties import Blend, ConstantCp
 from .service_rating import MAX_PASSES, coefficient_quantities, coefficients_at, outlets_settled
 from .u_models import FixedCoefficient, ScaledFilms
-from .zone_rating import ZoneRating, rate_by_zones
-from .zone_shells import shell_ends
+from .zone_rating import ZoneRating, rate_by_zones, shell_f
+from .zone_shells import shell_terminals
 
 __all__ = ["rated_by_zones", "zone_problem", "ZoneService", "rate_zoned", "zone_report", "SAMPLE_STEP"]
 
@@ -221,16 +221,22 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
         finding = check("zone_rating", "input", np.ones(batch, bool), f"{key}.{problem[0]}", problem[1])
         return UnitReport({"duty": nothing}, [finding])
     x, t_hot, t_cold = service.rating, inlets.t[:, 0], inlets.t[:, 1]
+    works = x.duty != 0.0
+    multipass = unit.spec.arrangement.name == "tema_e"
+    terminals = shell_terminals(x.profile, unit.spec.shells if multipass else 1)
+    worst = np.argmax(terminals[3] - terminals[1], axis=1)[:, None]  # the shell whose outlets come closest
+    giver_out, taker_out = (np.take_along_axis(ends, worst, axis=1)[:, 0] for ends in (terminals[1], terminals[3]))
+    crossed = taker_out > giver_out
+    # a multipass shell's outlets meet inside it (the approach of a 1-2 shell, as for the P-NTU
+    # rating); its F at its terminal temperatures is the one that corrects its zones
+    meeting = np.where(works, giver_out - taker_out, np.inf) if multipass else np.full(x.duty.shape, np.inf)
+    f = _smallest_shell_f(unit.spec, terminals, x.reversed) if multipass else np.ones(x.duty.shape)
     quantities = {"duty": x.duty, "t_hot_in": t_hot, "t_hot_out": service.t_hot_out, "t_cold_in": t_cold,
                   "t_cold_out": service.t_cold_out, "q_hot_out": service.q_hot_out, "q_cold_out": service.q_cold_out,
-                  "ua": service.ua, "approach": service.end_approach, "approach_internal": x.approach,
+                  "ua": service.ua, "f": f, "approach": np.minimum(service.end_approach, meeting),
+                  "approach_internal": np.minimum(x.approach, meeting),
                   **coefficient_quantities(unit.spec, service.coefficients, x.duty.shape)}
     findings = unit._limit_findings(inlets, service) + unit._film_findings(service.coefficients)
-    works = x.duty != 0.0
-    giver_ends, taker_ends = shell_ends(x.profile, unit.spec.shells if unit.spec.arrangement.name == "tema_e" else 1)
-    worst = np.argmax(taker_ends - giver_ends, axis=1)[:, None]
-    giver_out, taker_out = (np.take_along_axis(ends, worst, axis=1)[:, 0] for ends in (giver_ends, taker_ends))
-    crossed = taker_out > giver_out
     for j, side in enumerate(("hot", "cold")):
         limit = unit.limits.get("maximum_vapour_fraction", {}).get(side)
         if limit is not None:
@@ -244,6 +250,13 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
               "{e:.1f} K), is below the case's {lim:.1f} K", a=x.approach,
               at=np.where(works, x.pinch_position / np.where(works, x.duty, 1.0), 0.0), e=service.end_approach,
               lim=unit.minimum_approach),
+        check("outlet_approach", "warning", works & ~crossed & (meeting < unit.minimum_approach), key,
+              "the outlets of a multipass shell meet {m:.1f} K apart inside it (the stream giving heat leaves at "
+              "{th:.1f} °C, the one taking it at {tc:.1f} °C), below the case's {lim:.1f} K",
+              m=meeting, th=giver_out, tc=taker_out, lim=unit.minimum_approach),
+        check("low_f", "warning", works & multipass & (f < unit.minimum_f), key,
+              "F = {f:.3f} at the shell's terminal temperatures is below {lim:.2f}: steep, unreliable part of the F "
+              "curve (the zones are corrected by it)", f=f, lim=unit.minimum_f),
         # in a multipass shell the stream taking heat leaving above the giver's outlet is a
         # temperature cross (P_hot + P_cold > 1), whatever the zones: the P–NTU rating's limit
         check("temperature_cross", "limit", works & (unit.spec.arrangement.name == "tema_e") & crossed, key,
@@ -264,6 +277,18 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
     profile = {"duty": x.profile.position, "hot": x.profile.t_hot, "cold": x.profile.t_cold}
     return UnitReport(quantities, findings, profile=profile, labels={"u_source": u_source(unit.spec)}, totals=totals,
                       metrics=metrics)
+
+
+def _smallest_shell_f(spec, terminals, reversed_flow):
+    """The smallest F of the shells in series (:func:`.zone_rating.shell_f` at each shell's
+    terminal temperatures from :func:`.zone_shells.shell_terminals`, on the basis of the stream
+    giving heat: the shell holds it where the case's shell side is the hot one and heat flows
+    from hot to cold)."""
+    giver_in, giver_out, taker_in, taker_out = terminals
+    giver_in_shell = np.broadcast_to(((spec.shell_side == "hot") != reversed_flow)[:, None], giver_in.shape)
+    f = shell_f(giver_in.ravel(), giver_out.ravel(), taker_in.ravel(), taker_out.ravel(), spec.tube_passes,
+                giver_in_shell.ravel())
+    return np.min(f.reshape(giver_in.shape), axis=1)
 
 
 def u_source(spec) -> str:

@@ -31,7 +31,7 @@ import numpy as np
 from .enthalpy_curves import EnthalpyCurve
 from .zone_rating import ZoneProfile, solve_duty, zone_profile
 
-__all__ = ["series_profile", "shell_ends"]
+__all__ = ["series_profile", "shell_ends", "shell_terminals"]
 
 
 def series_profile(hot: EnthalpyCurve, cold: EnthalpyCurve, h_hot_in, h_cold_in, m_hot, m_cold, duty, ua,
@@ -105,8 +105,15 @@ def shell_ends(profile: ZoneProfile, shells):
     :func:`series_profile` (shells + 1 parts of equal width, the last the part left over) or,
     with one shell, of :func:`.zone_rating.zone_profile`. A 1-2 shell whose cold stream leaves
     above the hot stream's outlet runs with a temperature cross."""
+    hot_in, hot_out, cold_in, cold_out = shell_terminals(profile, shells)
+    return hot_out, cold_out
+
+
+def shell_terminals(profile: ZoneProfile, shells):
+    """Each shell's terminal temperatures (hot in, hot out, cold in, cold out), each (batch,
+    shells) in °C, ordered and based as in :func:`shell_ends`."""
     parts = shells + 1 if shells > 1 else 1
     width = profile.position.shape[1] // parts
     t_hot = profile.t_hot.reshape(len(profile.t_hot), parts, width)[:, :shells]
     t_cold = profile.t_cold.reshape(len(profile.t_cold), parts, width)[:, :shells]
-    return t_hot[:, :, 0], t_cold[:, :, -1]
+    return t_hot[:, :, -1], t_hot[:, :, 0], t_cold[:, :, 0], t_cold[:, :, -1]

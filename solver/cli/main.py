@@ -1,7 +1,7 @@
 """The ``hxtrain`` command.
 
 Exit codes: 0 done; 2 bad input (case file, output path, usage); 3 temperatures did not converge;
-1 an internal error (a bug: please report it with the case file; ``--debug`` shows the traceback);
+4 the Dask cluster a study ran on failed while it ran (no result); 1 an internal error (a bug: please report it with the case file; ``--debug`` shows the traceback);
 130 interrupted (Ctrl-C); 143 stopped by SIGTERM; 141 the standard output was closed before the
 report was printed in full (``... | head``): output files are written before the report, so they
 are complete. An interrupt or SIGTERM prints one line and removes any temporary file.
@@ -132,7 +132,7 @@ def _sweep(args) -> int:
     from hxtrain.solver.reporting.console_tables import render
     from hxtrain.solver.reporting.display_units import current
     from hxtrain.solver.reporting.files import with_whole_counts
-    from hxtrain.solver.reporting.text import boxed, note_lines
+    from hxtrain.solver.reporting.text import boxed, limits_over_scenarios, note_lines
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies import run_sweep
     from hxtrain.solver.studies.sweeps import grid_columns_with_units
@@ -151,12 +151,13 @@ def _sweep(args) -> int:
     display = current()
     for name, table in tables.items():
         print(f"\nSweep {name}\n{'-' * (6 + len(name))}")
-        print(render(with_whole_counts(table.drop(columns=["message", "status_text"])), display,
+        print(render(with_whole_counts(table.drop(columns=["message", "status_text", "violated_limits"])), display,
                      digits={"relative_imbalance": ".1e"}))
         failed = table[~table["success"].astype(bool)]
         print("\n".join(boxed(f"POINTS OF SWEEP {name} WITH NO ANSWER",
                                (f"point {k + 1}: {display.message(m)}"
                                 for k, m in zip(failed.index, failed["message"])))))
+        print("\n".join(limits_over_scenarios(table, f"points of sweep {name}", display, name_rows="point")))
     print("\n" + "\n".join(note_lines(current())))
     _say_written(written)
     return EXIT_OK
@@ -309,6 +310,9 @@ def _dispatch(args) -> int:
         if isinstance(exc, ConvergenceError):
             _complain(args, f"not converged: {exc}")
             return EXIT_NOT_CONVERGED
+        if getattr(exc, "exit_code", None):  # a failure outside hxtrain and the input: a cluster lost mid-run
+            _complain(args, f"error: {exc}")
+            return exc.exit_code
         # a bug: say so plainly; --debug gives the traceback
         _complain(args, f"internal error ({type(exc).__name__}: {exc}). This is a fault in hxtrain, not in the "
                         "case; please report it with the case file. Run with --debug for the traceback.")

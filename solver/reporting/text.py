@@ -129,6 +129,37 @@ def boxed(title: str, lines, count=None, display: Display | None = None) -> list
     return ["", "!" * 78, f"!! {title}: {count}", "!" * 78, *(f"!! {line}" for line in lines), "!" * 78]
 
 
+def limits_over_scenarios(table, noun: str, display: Display | None = None, name_rows: str = "") -> list[str]:
+    """The boxed lines naming each limit the scenarios of a batch ``table`` violate (its
+    ``violated_limits`` column) and in how many of them (``noun``: "points of sweep x",
+    "samples"), most often first; with ``name_rows`` ("point") also which rows, counted from 1
+    (a sweep's points); none where no scenario violates one."""
+    from hxtrain.solver.simulation.results import LIMIT_SEPARATOR
+
+    rows_of = {}
+    for row, text in enumerate(table.get("violated_limits", ())):
+        for label in (text.split(LIMIT_SEPARATOR) if text else ()):
+            rows_of.setdefault(label, []).append(row + 1)
+    total = len(table)
+    lines = [f"{label}: {len(rows):,} of {total:,} ({len(rows) / total:.0%})"
+             + (f", {name_rows}s {_row_list(rows)}" if name_rows else "")
+             for label, rows in sorted(rows_of.items(), key=lambda item: (-len(item[1]), item[0]))]
+    hit = len({row for rows in rows_of.values() for row in rows})
+    return boxed("LIMITS VIOLATED", lines, count=f"{len(lines)} limit(s), in {hit:,} of {total:,} {noun}",
+                 display=display)
+
+
+def _row_list(rows, shown=12) -> str:
+    """Row numbers as runs ("1-3, 7"), the first ``shown`` runs and how many more."""
+    runs, start = [], rows[0]
+    for before, row in zip(rows, rows[1:] + [None]):
+        if row != before + 1:
+            runs.append(f"{start}" if start == before else f"{start}-{before}")
+            start = row
+    more = f" and {len(runs) - shown} more run(s)" if len(runs) > shown else ""
+    return ", ".join(runs[:shown]) + more
+
+
 def fitted(text: str, display: Display, indent: str = "    ") -> list[str]:
     """``text`` as lines within the console width (unless the display is wide), continuation
     lines indented by ``indent``."""

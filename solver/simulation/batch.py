@@ -20,11 +20,13 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from hxtrain.network.graph import build_network
 from hxtrain.network.scenarios import scenario_count
 
 from hxtrain.solver.simulation import part_transfer
 from hxtrain.solver.simulation.evaluation import NOT_CONVERGED, NOT_VALID, STATUS_NAMES, SUCCESS, as_case, evaluate
-from hxtrain.solver.simulation.results import scenario_summary
+from hxtrain.solver.simulation.results import scenario_summary, violated_limits
+from hxtrain.solver.simulation.sequencing import plan_calculation
 
 
 @dataclass
@@ -172,19 +174,29 @@ def _probe(case, values, tolerance, max_iterations, metrics, pays):
     the fixed cost a split at that cost would not pay well (``pays``), or they cost more than
     :data:`CLEARLY_WORTH` each, that is the answer; else the next :data:`PROBE_GROWTH` times as
     many are timed too: the difference of the two timings, per extra scenario, is the cost of
-    one (the fixed cost cancels)."""
-    start = time.perf_counter()
-    first = _solve_batch(case, _take(values, slice(0, PROBE)), tolerance, max_iterations, metrics)
-    small = time.perf_counter() - start
+    one (the fixed cost cancels). Both probes are timed in this process's CPU time, so that
+    another program's load on the machine does not pass for a cost of the case, and both are
+    given the calculation order found before them (found inside the first, it would make the
+    difference too small by its cost)."""
+    plan = _calculation_order(case, values)
+    start = time.process_time()
+    first = _solve_batch(case, _take(values, slice(0, PROBE)), tolerance, max_iterations, metrics, plan)
+    small = time.process_time() - start
     if small / PROBE >= CLEARLY_WORTH:
         return [first], small / PROBE
     if not pays(small / PROBE):
         return [first], None
-    start = time.perf_counter()
+    start = time.process_time()
     second = _solve_batch(case, _take(values, slice(PROBE, (1 + PROBE_GROWTH) * PROBE)), tolerance, max_iterations,
-                          metrics, first.plan)
-    large = time.perf_counter() - start
+                          metrics, plan)
+    large = time.process_time() - start
     return [first, second], max(0.0, large - small) / ((PROBE_GROWTH - 1) * PROBE)
+
+
+def _calculation_order(case, values):
+    """The case's calculation order (:func:`.sequencing.plan_calculation`), which its scenarios
+    share: found from its first scenario's network."""
+    return plan_calculation(build_network(case, _take(values, slice(0, 1))).graph)
 
 
 def _take(values, where):
@@ -225,7 +237,8 @@ def scenario_table(evaluation) -> pd.DataFrame:
     """One row per scenario of an evaluation, the same columns for every batch: ``success``,
     ``status`` (0 success, 1 not converged, 2 not valid, 3 a check failed: see
     :mod:`.evaluation`), ``status_text``, ``converged``, ``valid``, ``message``, then the
-    headline numbers (NaN where the scenario is not a success)."""
+    headline numbers (NaN where the scenario is not a success), and last ``violated_limits``,
+    the limits the scenario violates (:func:`.results.violated_limits`)."""
     status = evaluation.status
     names = np.array([STATUS_NAMES[code] for code in sorted(STATUS_NAMES)], dtype=object)
     message = np.full(evaluation.batch, "", dtype=object)
@@ -242,4 +255,5 @@ def scenario_table(evaluation) -> pd.DataFrame:
     for name, column in scenario_summary(evaluation).items():
         table[name] = column
     table["relative_imbalance"] = evaluation.balance["relative_imbalance"]
+    table["violated_limits"] = violated_limits(evaluation)
     return table

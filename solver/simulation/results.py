@@ -166,6 +166,33 @@ def scenario_summary(evaluation: Evaluation) -> dict:
             "iterations": np.full(evaluation.batch, evaluation.iterations)}
 
 
+LIMIT_SEPARATOR = "; "
+"""Between the limits one scenario violates in its ``violated_limits`` text."""
+SIDE_WORDS = ("shell", "tube", "hot", "cold")
+
+
+def limit_label(unit: str, finding) -> str:
+    """A violated limit as a scenario's row names it: the unit, the check and the side where the
+    key names one ("E-102 pressure_drop (tube)", "E-301 temperature_cross")."""
+    side = next((part for part in finding.key.split(".")[2:] if part in SIDE_WORDS), None)
+    return f"{unit} {finding.kind}" + (f" ({side})" if side else "")
+
+
+def violated_limits(evaluation: Evaluation) -> np.ndarray:
+    """Per scenario, the limits it violates (:func:`limit_label`, joined by
+    :data:`LIMIT_SEPARATOR`); "" where none, or where the scenario has no answer."""
+    named = np.full(evaluation.batch, "", dtype=object)
+    ok = evaluation.success
+    for unit, finding in evaluation.findings:
+        if finding.severity != "limit":
+            continue
+        hit = np.flatnonzero(np.broadcast_to(finding.active, ok.shape) & ok)
+        if hit.size:
+            label = limit_label(unit, finding)
+            named[hit] = [f"{before}{LIMIT_SEPARATOR}{label}" if before else label for before in named[hit]]
+    return named
+
+
 def tabulate(evaluation: Evaluation, k: int = 0) -> SimulationResult:
     """The result tables of scenario ``k`` of a successful evaluation."""
     net = evaluation.net

@@ -11,6 +11,8 @@ for a local one (``--local-cluster N``: N worker processes on this machine).
 
 from __future__ import annotations
 
+import sys
+import threading
 from contextlib import contextmanager
 
 from hxtrain.network.errors import CaseError
@@ -18,11 +20,27 @@ from hxtrain.network.errors import CaseError
 PIECE_MINIMUM = 1000
 """Fewest scenarios sent to a worker as one piece: below that the transfer of the case and the
 results costs more than the piece saves."""
+CONNECT_SECONDS = 10.0
+"""Seconds to reach the scheduler and finish Dask's handshake with it."""
+WORKER_WAIT_SECONDS = 10.0
+"""Seconds to wait for a scheduler without workers to get one before refusing it."""
+SCHEMES = ("tcp", "tls", "ws", "wss", "ucx", "inproc")
+"""The address schemes Dask's schedulers listen on (``http`` is a dashboard, not a scheduler)."""
+EXIT_CLUSTER_LOST = 4
+"""Exit code of a study whose cluster failed while it ran (a network failure, not bad input)."""
 
 
 class ClusterError(CaseError):
-    """The cluster cannot be used: Dask is not installed, or the scheduler cannot be reached (bad
-    input to the command: exit 2 with the reason)."""
+    """The cluster cannot be used: Dask is not installed, the address is not a scheduler's, the
+    scheduler cannot be reached or has no workers (bad input to the command: exit 2 with the
+    reason)."""
+
+
+class ClusterLost(Exception):
+    """The cluster failed while the study ran (the scheduler or its workers lost): no result is
+    given (exit :data:`EXIT_CLUSTER_LOST`)."""
+
+    exit_code = EXIT_CLUSTER_LOST
 
 
 class DaskPieces:
@@ -39,44 +57,152 @@ class DaskPieces:
         return max(1, sum(threads.values()) if isinstance(threads, dict) else int(threads))
 
     def map(self, function, *arguments):
-        futures = self.client.map(function, *arguments, pure=False)
-        return self.client.gather(futures)
+        """The results of ``function`` over the argument lists, in order; a failure of the cluster
+        itself (not of a piece's own solve, whose error comes back as it was raised) is
+        :class:`ClusterLost`."""
+        try:
+            return self.client.gather(self.client.map(function, *arguments, pure=False))
+        except _cluster_failures() as exc:
+            raise ClusterLost(f"the Dask cluster failed while the study ran ({type(exc).__name__}: {exc}); no "
+                              "result is given: run again when the scheduler and its workers are up") from None
+
+
+def _cluster_failures():
+    import distributed
+    from distributed.client import FutureCancelledError
+
+    return FutureCancelledError, distributed.KilledWorker, OSError, TimeoutError
 
 
 def _import_distributed():
     try:
         import distributed
     except ImportError:
-        raise ClusterError("running on a cluster needs Dask: pip install \"hxtrain[cluster]\" "
-                           "(dask[distributed])") from None
+        raise ClusterError("running on a cluster needs Dask: pip install \"hxtrain[cluster]\" (from a clone: "
+                           "pip install \".[cluster]\"; it brings dask[distributed])") from None
     return distributed
 
 
+def checked_address(scheduler: str) -> str:
+    """The scheduler's address as given, refused (:class:`ClusterError`) where it cannot be one:
+    empty, a scheme Dask does not listen on (a dashboard's ``http://``), or no port.
+
+    >>> checked_address("tcp://10.0.0.5:8786"), checked_address("10.0.0.5:8786")
+    ('tcp://10.0.0.5:8786', '10.0.0.5:8786')
+    """
+    text = scheduler.strip()
+    example = "such as tcp://10.0.0.5:8786"
+    if not text:
+        raise ClusterError(f"--scheduler needs the scheduler's address, {example}")
+    scheme, given, rest = text.partition("://")
+    scheme, rest = (scheme, rest) if given else ("tcp", text)
+    if scheme not in SCHEMES:
+        raise ClusterError(f"{text!r} is not a Dask scheduler's address ({example}; the scheme one of "
+                           f"{', '.join(SCHEMES)}): an http:// address is the scheduler's dashboard, not the scheduler")
+    host, colon, port = rest.rpartition(":")
+    if scheme != "inproc" and not (colon and host and port.isdigit()):
+        raise ClusterError(f"{text!r} has no port: give the scheduler's, {example} (8786 unless it was started "
+                           "with another; 8787 is usually its dashboard)")
+    return text
+
+
+def _connected(distributed, scheduler, timeout):
+    """A client of the scheduler at ``scheduler``, within :data:`CONNECT_SECONDS` (Dask's own
+    timeout covers the connection, not a server that accepts it and never answers: a web
+    dashboard's port), else :class:`ClusterError` with the reason."""
+    outcome = {}
+
+    def connect():
+        try:
+            outcome["client"] = distributed.Client(scheduler, timeout=timeout)
+        except BaseException as exc:  # noqa: BLE001 - whatever it was, it is reported below
+            outcome["error"] = exc
+
+    attempt = threading.Thread(target=connect, daemon=True)
+    attempt.start()
+    attempt.join(CONNECT_SECONDS + 5.0)
+    if attempt.is_alive():
+        raise ClusterError(f"the Dask scheduler {scheduler} did not answer within {CONNECT_SECONDS + 5.0:g} s: is that "
+                           "the scheduler's port (8786 unless started with another), not its dashboard's (8787)?")
+    error = outcome.get("error")
+    if isinstance(error, (OSError, TimeoutError)):
+        raise ClusterError(f"cannot reach the Dask scheduler {scheduler}: {error}")
+    if error is not None:
+        raise ClusterError(f"what answers at {scheduler} is not a Dask scheduler ({type(error).__name__}: "
+                           f"{str(error)[:120]})")
+    return outcome["client"]
+
+
+def _with_workers(client, scheduler):
+    """``client``, once its scheduler has a worker (waited for :data:`WORKER_WAIT_SECONDS`)."""
+    try:
+        client.wait_for_workers(1, timeout=WORKER_WAIT_SECONDS)
+    except (TimeoutError, OSError):
+        client.close()
+        raise ClusterError(f"the Dask scheduler {scheduler} has no workers (waited {WORKER_WAIT_SECONDS:g} s): start "
+                           f"some with 'dask worker {scheduler}'") from None
+    return client
+
+
+def describe(client, where) -> str:
+    """One line saying which cluster a study runs on and what it has."""
+    threads = client.nthreads()
+    return f"on the Dask cluster {where}: {len(threads)} worker(s), {sum(threads.values())} thread(s)"
+
+
 @contextmanager
-def on_cluster(scheduler=None, local_workers=None, *, minimum=PIECE_MINIMUM, processes=True, timeout="10s"):
+def on_cluster(scheduler=None, local_workers=None, *, minimum=PIECE_MINIMUM, processes=True, timeout="10s",
+               announce=None):
     """Run every batch inside this block on a Dask cluster: the scheduler at ``scheduler`` (an
-    address such as ``tcp://10.0.0.5:8786``), or a local cluster of ``local_workers`` worker
-    processes (threads with ``processes=False``) started here and closed on leaving."""
+    address such as ``tcp://10.0.0.5:8786``, which must have a worker), or a local cluster of
+    ``local_workers`` worker processes (threads with ``processes=False``) started here and
+    closed on leaving. ``announce``: called with a line saying which cluster and its workers."""
     from hxtrain.solver.simulation.batch import batches_on
 
     distributed = _import_distributed()
     cluster = None
-    try:
-        if scheduler:
-            client = distributed.Client(scheduler, timeout=timeout)
-        else:
+    if scheduler is not None:
+        scheduler = checked_address(scheduler)
+        client = _with_workers(_connected(distributed, scheduler, timeout), scheduler)
+    else:
+        try:
             cluster = distributed.LocalCluster(n_workers=int(local_workers or 1), threads_per_worker=1,
                                                processes=processes, dashboard_address=None)
-            client = distributed.Client(cluster)
-    except (OSError, TimeoutError) as exc:
-        raise ClusterError(f"cannot reach the Dask scheduler {scheduler or '(local)'}: {exc}") from None
+        except (OSError, TimeoutError) as exc:
+            raise ClusterError(f"cannot start a local Dask cluster: {exc}") from None
+        client = distributed.Client(cluster)
     try:
-        with batches_on(DaskPieces(client, minimum)):
+        if announce is not None:
+            announce(describe(client, scheduler or "started here"))
+        with batches_on(DaskPieces(client, minimum)), _quiet_dask():
             yield client
     finally:
-        client.close()
-        if cluster is not None:
-            cluster.close()
+        with _quiet_dask():
+            client.close()
+            if cluster is not None:
+                cluster.close()
+
+
+@contextmanager
+def _quiet_dask():
+    """Dask's own log lines and warnings kept off the screen (a lost scheduler logs tracebacks
+    while the client tries to reconnect; a large piece warns of its size): what matters reaches
+    the user as :class:`ClusterLost` or the study's result."""
+    import logging
+    import warnings
+
+    loggers = [logging.getLogger(name) for name in list(logging.root.manager.loggerDict)
+               if name == "distributed" or name.startswith("distributed.")]  # dask sets some children's levels
+    levels = [logger.level for logger in loggers]
+    for logger in loggers:
+        logger.setLevel(logging.CRITICAL + 1)
+    try:
+        with warnings.catch_warnings():
+            warnings.filterwarnings("ignore", category=UserWarning, module="distributed")
+            yield
+    finally:
+        for logger, level in zip(loggers, levels):
+            logger.setLevel(level)
 
 
 def cluster_for(args):
@@ -87,9 +213,9 @@ def cluster_for(args):
     scheduler, local = getattr(args, "scheduler", None), getattr(args, "local_cluster", None)
     if local is not None and local < 1:
         raise ClusterError("--local-cluster needs at least 1 worker")
-    if not scheduler and not local:
+    if scheduler is None and not local:
         return nullcontext()
-    return on_cluster(scheduler, local)
+    return on_cluster(scheduler, local, announce=lambda line: print(line, file=sys.stderr))
 
 
-__all__ = ["on_cluster", "DaskPieces", "ClusterError", "PIECE_MINIMUM", "cluster_for"]
+__all__ = ["on_cluster", "DaskPieces", "ClusterError", "ClusterLost", "PIECE_MINIMUM", "cluster_for", "checked_address"]

@@ -18,11 +18,13 @@ statistics, never averaged in.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import re
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
+from hxtrain.network.uncertainty import SEED_LARGEST
 from hxtrain.units.protocol import FIRED_HEATERS, TOTALS
 
 from hxtrain.solver.reporting.display_units import ending_of_key
@@ -44,6 +46,9 @@ class UncertaintyResult:
     and its rank correlation with the furnace duty over the samples."""
     seed: int
     failed: int
+    tornado_gaps: list = field(default_factory=list)
+    """Why a tornado end has no answer: (input, percentile, its value there, the message) per
+    input end whose scenario has none."""
 
     def tables(self) -> dict:
         return {"uncertainty_percentiles": self.percentiles, "uncertainty_tornado": self.tornado,
@@ -106,8 +111,8 @@ def run_uncertainty(study, samples=None, seed=None) -> UncertaintyResult:
     table = batch.table
     ok = table["success"].to_numpy(bool)
     percentiles = _percentiles(table[ok], _result_columns(table))
-    tornado = _tornado(case, drawn, table, ok)
-    return UncertaintyResult(table, percentiles, tornado, seed, int(np.sum(~ok)))
+    tornado, gaps = _tornado(case, drawn, table, ok)
+    return UncertaintyResult(table, percentiles, tornado, seed, int(np.sum(~ok)), gaps)
 
 
 def _result_columns(table) -> list:
@@ -141,17 +146,20 @@ def _tornado(case, drawn, table, ok) -> pd.DataFrame:
         for q in (10, 90):
             for p in paths:
                 values[p].append(float(np.percentile(drawn[path], q)) if p == path else middle[p])
-    swings = simulate_batch(case, {p: np.array(v) for p, v in values.items()}).table[FURNACE].to_numpy(float)
-    rows = []
+    ends = simulate_batch(case, {p: np.array(v) for p, v in values.items()}).table
+    swings = ends[FURNACE].to_numpy(float)
+    rows, gaps = [], []
     duty = table[FURNACE].to_numpy(float)
     for i, path in enumerate(paths):
         low, high = swings[1 + 2 * i], swings[2 + 2 * i]
+        gaps += [(path, q, values[path][k], ends["message"][k])
+                 for q, k in ((10, 1 + 2 * i), (90, 2 + 2 * i)) if not ends["success"][k]]
         rows.append({"input": path, "input_p10": values[path][1 + 2 * i], "input_p90": values[path][2 + 2 * i],
                      f"{FURNACE}_at_p10": low, f"{FURNACE}_at_p90": high, "swing_kw": high - low,
                      "rank_correlation": _rank_correlation(drawn[path][ok], duty[ok])})
     result = pd.DataFrame(rows)
     order = np.argsort(-np.abs(result["swing_kw"].to_numpy(float)), kind="stable")
-    return result.iloc[order].reset_index(drop=True)
+    return result.iloc[order].reset_index(drop=True), gaps
 
 
 def _varies(values) -> bool:
@@ -175,6 +183,7 @@ def uncertainty_text(result: UncertaintyResult, study, display=None) -> str:
     command's units and width)."""
     from hxtrain.solver.reporting.console_tables import fixed, render, render_any
     from hxtrain.solver.reporting.display_units import current
+    from hxtrain.solver.reporting.text import boxed, fitted, limits_over_scenarios
 
     display = display or current()
     tables = result.shown_tables(display)
@@ -189,10 +198,33 @@ def uncertainty_text(result: UncertaintyResult, study, display=None) -> str:
               "-" * 96]
     if _varies(result.samples[FURNACE].dropna()):
         lines.append(render(tornado, display, digits={"rank_correlation": 3}))
+        for path, q, value, message in result.tornado_gaps:
+            column = _input_column(path, display)
+            shown = (f"{fixed(float(column.convert([value])[0]), column.digits)} {column.label}" if column
+                     else f"{value:.4g}")
+            lines += fitted(f"{path} at its P{q} ({shown}), the others at P50, has no answer: "
+                            f"{display.message(message)}", display)
     else:
         lines.append("The fired heaters' duty does not vary over the samples (none in this case, or none that the inputs "
                      "reach): nothing to rank.")
+    lines += boxed("SAMPLES WITH NO ANSWER, LEFT OUT OF THE PERCENTILES", _reasons(result.samples, display),
+                   count=f"{result.failed:,} of {samples:,}")
+    lines += limits_over_scenarios(result.samples, "samples", display)
     return "\n".join(lines)
+
+
+_NUMBER = re.compile(r"-?\d[\d,]*(?:\.\d+)?(?:[eE][-+]?\d+)?")
+
+
+def _reasons(samples, display) -> list:
+    """The reasons samples have no answer, alike messages (the same words, other numbers)
+    counted together, most common first, each with one of its messages."""
+    failed = samples.loc[~samples["success"].astype(bool), "message"]
+    groups = {}
+    for message in failed:
+        groups.setdefault(_NUMBER.sub("#", str(message)), []).append(message)
+    return [f"{len(group):,} sample(s), e.g. {display.message(group[0])}"
+            for group in sorted(groups.values(), key=len, reverse=True)]
 
 
 def _input_column(path, display):
@@ -223,6 +255,9 @@ def uncertainty_command(args, write, say_written) -> int:
                         path=("uncertainty",))
     if args.samples is not None and not 2 <= args.samples <= 1_000_000:
         raise CaseError("--samples must be from 2 to 1,000,000")
+    if args.seed is not None and not 0 <= args.seed <= SEED_LARGEST:
+        raise CaseError(f"--seed must be a whole number from 0 to {SEED_LARGEST:,} (as the study file's "
+                        "'uncertainty.seed')")
     with cluster_for(args):
         result = run_uncertainty(study, args.samples, args.seed)
     written = write(result.shown_tables(current()), args,
