@@ -104,8 +104,10 @@ def fake_solves(monkeypatch):
     def solve(case, values, tolerance, max_iterations, metrics=False, plan=None):
         count = len(next(iter(values.values())))
         solved.append(count)
-        clock[0] += costs["fixed"] + costs["each"] * count + (costs["planning"] if plan is None else 0.0)
-        return BatchResult(pd.DataFrame({"n": np.arange(count)}), 1, np.zeros((count, 1)))
+        planning = costs["planning"] if plan is None else 0.0
+        clock[0] += costs["fixed"] + costs["each"] * count + planning
+        return BatchResult(pd.DataFrame({"n": np.arange(count)}), 1, np.zeros((count, 1)), plan=["the order"],
+                           planning_seconds=planning)
 
     def refuse(*args, **kwargs):
         raise AssertionError("a process pool was started")
@@ -113,7 +115,6 @@ def fake_solves(monkeypatch):
     monkeypatch.setattr(batch_module, "time", Clock)
     monkeypatch.setattr(batch_module, "_solve_batch", solve)
     monkeypatch.setattr(batch_module, "ProcessPoolExecutor", refuse)
-    monkeypatch.setattr(batch_module, "_calculation_order", lambda case, values: ["the order"])
 
     def costing(fixed, each, planning=0.0):
         costs.update(fixed=fixed, each=each, planning=planning)
@@ -125,8 +126,8 @@ def fake_solves(monkeypatch):
 def test_the_probe_times_a_scenario_without_the_fixed_cost_of_a_batch(fake_solves):
     """A batch costs a fixed time besides its time per scenario; only the latter is split, so
     the probe must not take the fixed cost for a cost per scenario (30 ms a batch, 14 µs a
-    scenario), nor the finding of the calculation order (10 ms, once) for a saving: both probes
-    are given the order."""
+    scenario), nor the first probe's finding of the calculation order (10 ms, once; the second
+    reuses the order) for a saving."""
     fake_solves(0.030, 14e-6, planning=0.010)
     values = {"streams.crude.flow": np.linspace(70.0, 110.0, 20_000)}
     probes, each = batch_module._probe(None, values, None, None, False, lambda cost: True)

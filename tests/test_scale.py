@@ -244,7 +244,7 @@ def test_a_cheap_batch_stays_in_one_process_and_a_costly_one_splits(monkeypatch)
 
 def test_a_batch_finds_its_calculation_order_once_for_all_its_parts(monkeypatch):
     """The probes, this process's part and the workers' parts share the order and tear sets
-    found once before the probes (part of every batch's fixed cost): one search, same answers."""
+    found by the first probe (part of every batch's fixed cost): one search, same answers."""
     from hxtrain.solver.simulation import evaluation
 
     monkeypatch.setattr(batch_module, "PROBE", 4)
@@ -261,7 +261,6 @@ def test_a_batch_finds_its_calculation_order_once_for_all_its_parts(monkeypatch)
         return search(graph)
 
     monkeypatch.setattr(evaluation, "plan_calculation", counted)
-    monkeypatch.setattr(batch_module, "plan_calculation", counted)
     split = simulate_batch(path, values, workers=2)
     assert len(searches) == 1 and split.processes == 2
     assert [b.tears for b in split.plan] == [b.tears for b in whole.plan]

@@ -23,3 +23,24 @@ def as_floats(*values):
     """Float64 arrays of the values, each keeping its own shape: for pure arithmetic, where numpy
     broadcasts anyway and filling scalars out to the batch shape would only cost time."""
     return [np.asarray(v, dtype=float) for v in values]
+
+
+def select(condition, x, y):
+    """``np.where(condition, x, y)`` at the cost of a check where the condition is the same
+    everywhere, the usual case of a guard over a batch (flow on both sides, temperatures
+    apart): then ``x`` (or ``y``) itself as a float array of the result's shape, not a copy.
+    Callers must not write into the result.
+
+    >>> select(np.array([True, True]), np.array([1.0, 2.0]), 0.0).tolist(), select([True, False], 1.0, 2.0).tolist()
+    ([1.0, 2.0], [1.0, 2.0])
+    """
+    condition = np.asarray(condition)
+    if condition.all():
+        chosen = x
+    elif not condition.any():
+        chosen = y
+    else:
+        return np.where(condition, x, y)
+    shape = np.broadcast_shapes(condition.shape, np.shape(x), np.shape(y))
+    chosen = np.asarray(chosen, dtype=np.result_type(x, y))
+    return chosen if chosen.shape == shape else np.broadcast_to(chosen, shape)

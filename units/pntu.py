@@ -32,7 +32,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .arrays import as_arrays
+from .arrays import as_arrays, select
 
 # scipy.special loads where crossflow with both fluids unmixed is rated: reading and checking a
 # case, which builds exchangers but rates none, does without it (a quarter of a second).
@@ -55,7 +55,8 @@ def _within_bounds(p, r1):
     """Clip P1 to its physical range [0, min(1, 1/R1)]: round-off can put a saturated P a few
     ulp above its limit, which would make the F factor's logarithm blow up."""
     with np.errstate(divide="ignore"):
-        upper = np.minimum(1.0, np.where(r1 > 0.0, 1.0 / np.where(r1 > 0.0, r1, 1.0), 1.0))
+        positive = r1 > 0.0
+        upper = np.minimum(1.0, select(positive, 1.0 / select(positive, r1, 1.0), 1.0))
     return np.clip(p, 0.0, upper)
 
 
@@ -82,13 +83,14 @@ def lmtd(dt1, dt2):
     """
     dt1, dt2 = as_arrays(dt1, dt2)
     same_sign = dt1 * dt2 > 0.0
-    a = np.where(same_sign, np.abs(dt1), 1.0)
-    b = np.where(same_sign, np.abs(dt2), 1.0)
+    a = select(same_sign, np.abs(dt1), 1.0)
+    b = select(same_sign, np.abs(dt2), 1.0)
     # mean = b * (a/b - 1) / ln(a/b) = b * expm1(L) / L with L = ln(a/b): exact as L -> 0
     log_ratio = np.log(a / b)
-    safe = np.where(log_ratio == 0.0, 1.0, log_ratio)
-    factor = np.where(log_ratio == 0.0, 1.0, np.expm1(safe) / safe)
-    return np.where(same_sign, np.sign(dt1) * b * factor, 0.0)
+    equal = log_ratio == 0.0
+    safe = select(equal, 1.0, log_ratio)
+    factor = select(equal, 1.0, np.expm1(safe) / safe)
+    return select(same_sign, np.sign(dt1) * b * factor, 0.0)
 
 
 def p_counterflow(ntu1, r1):
@@ -131,9 +133,10 @@ def p_parallel_flow(ntu1, r1):
 
 def _x_coth(x, scale):
     """x * coth(scale * x), with its limit 1/scale at x = 0 (scale > 0)."""
-    safe = np.where(x == 0.0, 1.0, x)
+    zero = x == 0.0
+    safe = select(zero, 1.0, x)
     with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(x == 0.0, 1.0 / np.where(scale == 0.0, 1.0, scale), safe / np.tanh(scale * safe))
+        return select(zero, 1.0 / select(scale == 0.0, 1.0, scale), safe / np.tanh(scale * safe))
 
 
 def p_tema_e(ntu1, r1, tube_passes=2, side1="shell"):
@@ -168,7 +171,7 @@ def p_tema_e(ntu1, r1, tube_passes=2, side1="shell"):
     with np.errstate(invalid="ignore"):
         denominator_times_ntu = _tema_e_denominator(ntu1, r1, n1, half, side1)
     with np.errstate(invalid="ignore", divide="ignore"):
-        return _within_bounds(np.where(ntu1 == 0.0, 0.0, 2.0 * ntu1 / denominator_times_ntu), r1)
+        return _within_bounds(select(ntu1 == 0.0, 0.0, 2.0 * ntu1 / denominator_times_ntu), r1)
 
 
 def _tema_e_denominator(ntu1, r1, n1, half, side1):
@@ -353,12 +356,14 @@ def p_shells_in_series(p_one, r1, shells):
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         u = p_one / (1.0 - p_one)
         y = (1.0 - r1) * u
-        safe = np.where(y == 0.0, 1.0, y)
-        psi = np.where(y == 0.0, float(shells), np.expm1(shells * np.log1p(safe)) / safe)
+        zero = y == 0.0
+        safe = select(zero, 1.0, y)
+        psi = select(zero, float(shells), np.expm1(shells * np.log1p(safe)) / safe)
         p = 1.0 / (1.0 + 1.0 / (u * psi))
-        saturated = np.where(r1 > 1.0, 1.0 / np.where(r1 > 1.0, r1, 1.0), 1.0)
+        above_one = r1 > 1.0
+        saturated = select(above_one, 1.0 / select(above_one, r1, 1.0), 1.0)
     # a unit already at its limit (P = 1, or P = 1/R for R > 1) keeps the series there
-    p = np.where(p_one * np.maximum(r1, 1.0) >= 1.0, saturated, np.where(p_one <= 0.0, 0.0, p))
+    p = select(p_one * np.maximum(r1, 1.0) >= 1.0, saturated, select(p_one <= 0.0, 0.0, p))
     return _within_bounds(p, r1)
 
 
@@ -378,8 +383,9 @@ def ntu_counterflow(p1, r1):
     with np.errstate(invalid="ignore", divide="ignore"):
         u = p1 / (1.0 - p1)
         z = (1.0 - r1) * u
-        safe = np.where(z == 0.0, 1.0, z)
-        return u * np.where(z == 0.0, 1.0, np.log1p(safe) / safe)
+        zero = z == 0.0
+        safe = select(zero, 1.0, z)
+        return u * select(zero, 1.0, np.log1p(safe) / safe)
 
 
 def f_factor(p1, r1, ntu1):

@@ -22,7 +22,7 @@ import numpy as np
 from . import pntu
 from .arrangements import ARRANGEMENTS, Arranged, arranged, basic_equivalent, p_of_units, p_one_unit, \
     single_pass_aware
-from .arrays import as_arrays, as_floats
+from .arrays import as_arrays, as_floats, select
 from .pntu_inverse import p_one_unit_of_series
 
 __all__ = ["ARRANGEMENTS", "ExchangerRating", "rate_exchanger", "p_one_unit", "carried", "HEAT_CAPACITY_RATE_FLOOR"]
@@ -88,9 +88,10 @@ def carried(c):
 def _outlet(t_in, t_other_in, c, duty_out, ua):
     """Outlet temperature of one side losing ``duty_out``; a side without flow leaves at the
     other inlet temperature (the limit P -> 1 as its NTU -> inf), or at its own with UA = 0."""
-    safe_c = np.where(c > 0.0, c, 1.0)
-    stagnant = np.where(ua > 0.0, t_other_in, t_in)
-    return np.where(c > 0.0, t_in - duty_out / safe_c, stagnant)
+    flows = c > 0.0
+    safe_c = select(flows, c, 1.0)
+    stagnant = select(ua > 0.0, t_other_in, t_in)
+    return select(flows, t_in - duty_out / safe_c, stagnant)
 
 
 def _unit_outlet_difference(t_hot_in, t_cold_out, p_c_min, c_hot, c_cold, shells):
@@ -175,8 +176,8 @@ def rate_exchanger(
     c_min = np.minimum(c_hot, c_cold)
     c_max = np.maximum(c_hot, c_cold)
     has_flow = c_min > 0.0
-    r = np.where(has_flow, c_min / np.where(has_flow, c_max, 1.0), 0.0)
-    ntu = np.where(has_flow, ua / np.where(has_flow, c_min, 1.0), 0.0)
+    r = select(has_flow, c_min / select(has_flow, c_max, 1.0), 0.0)
+    ntu = select(has_flow, ua / select(has_flow, c_min, 1.0), 0.0)
 
     p_shell = p_one_unit(
         ntu / shells,

@@ -30,6 +30,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from .arrays import select
+
 __all__ = ["stacking_key", "stacked", "PHYSICAL_RANGE", "FluidModel", "ConstantCp", "PolynomialCp", "TabulatedCp", "petroleum_fraction", "api_to_specific_gravity",
            "AndradeViscosity", "Blend"]
 
@@ -99,7 +101,9 @@ class FluidModel:
         t1, t2 = np.broadcast_arrays(_t(t1), _t(t2))
         dt = t2 - t1
         close = np.abs(dt) < 1e-9
-        mean = (self.enthalpy(t2) - (self.enthalpy(t1) if h1 is None else h1)) / np.where(close, 1.0, dt)
+        mean = (self.enthalpy(t2) - (self.enthalpy(t1) if h1 is None else h1)) / select(close, 1.0, dt)
+        if not close.any():  # the usual case: no cp to evaluate
+            return mean
         return np.where(close, self.cp(0.5 * (t1 + t2)), mean)
 
     def temperature(self, h, guess=None):

@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .arrays import as_arrays, as_floats
+from .arrays import as_arrays, as_floats, select
 
 __all__ = ["wall_resistance", "overall_coefficient", "films_from_clean_coefficient"]
 
@@ -50,7 +50,7 @@ def overall_coefficient(h_shell, h_tube, fouling_shell=0.0, fouling_tube=0.0, wa
     hs, ht, rfs, rft, rw, ratio = as_floats(h_shell, h_tube, fouling_shell, fouling_tube, wall, diameter_ratio)
     with np.errstate(divide="ignore"):
         total = 1.0 / hs + rfs + rw + rft * ratio + ratio / ht
-    return np.where((hs > 0.0) & (ht > 0.0), 1.0 / total, 0.0)
+    return select((hs > 0.0) & (ht > 0.0), 1.0 / total, 0.0)
 
 
 def films_from_clean_coefficient(clean_u, shell_fraction, wall=0.0, diameter_ratio=1.0):

@@ -20,13 +20,11 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from hxtrain.network.graph import build_network
 from hxtrain.network.scenarios import scenario_count
 
 from hxtrain.solver.simulation import part_transfer
 from hxtrain.solver.simulation.evaluation import NOT_CONVERGED, NOT_VALID, STATUS_NAMES, SUCCESS, as_case, evaluate
 from hxtrain.solver.simulation.results import scenario_summary, violated_limits
-from hxtrain.solver.simulation.sequencing import plan_calculation
 
 
 @dataclass
@@ -46,6 +44,8 @@ class BatchResult:
     plan: list | None = field(default=None, repr=False)
     """The calculation order and tear sets (:mod:`.sequencing`), found once and reused by the
     batch's other parts: scenarios vary values, never the network's structure."""
+    planning_seconds: float = 0.0
+    """CPU seconds this part spent finding the calculation order (0 where it was given)."""
 
 
 PROCESS_MINIMUM = 4000
@@ -175,28 +175,21 @@ def _probe(case, values, tolerance, max_iterations, metrics, pays):
     :data:`CLEARLY_WORTH` each, that is the answer; else the next :data:`PROBE_GROWTH` times as
     many are timed too: the difference of the two timings, per extra scenario, is the cost of
     one (the fixed cost cancels). Both probes are timed in this process's CPU time, so that
-    another program's load on the machine does not pass for a cost of the case, and both are
-    given the calculation order found before them (found inside the first, it would make the
-    difference too small by its cost)."""
-    plan = _calculation_order(case, values)
+    another program's load on the machine does not pass for a cost of the case, and the first
+    without its finding of the calculation order (which the second reuses; counted in, it made
+    the difference too small by its cost)."""
     start = time.process_time()
-    first = _solve_batch(case, _take(values, slice(0, PROBE)), tolerance, max_iterations, metrics, plan)
-    small = time.process_time() - start
+    first = _solve_batch(case, _take(values, slice(0, PROBE)), tolerance, max_iterations, metrics)
+    small = time.process_time() - start - first.planning_seconds
     if small / PROBE >= CLEARLY_WORTH:
         return [first], small / PROBE
     if not pays(small / PROBE):
         return [first], None
     start = time.process_time()
     second = _solve_batch(case, _take(values, slice(PROBE, (1 + PROBE_GROWTH) * PROBE)), tolerance, max_iterations,
-                          metrics, plan)
+                          metrics, first.plan)
     large = time.process_time() - start
     return [first, second], max(0.0, large - small) / ((PROBE_GROWTH - 1) * PROBE)
-
-
-def _calculation_order(case, values):
-    """The case's calculation order (:func:`.sequencing.plan_calculation`), which its scenarios
-    share: found from its first scenario's network."""
-    return plan_calculation(build_network(case, _take(values, slice(0, 1))).graph)
 
 
 def _take(values, where):
@@ -230,7 +223,8 @@ def _solve_batch(case, values, tolerance, max_iterations, metrics=False, plan=No
                                    for name, report in evaluation.reports.items() for m, v in report.metrics.items()}))
     table = pd.concat(parts, axis=1)
     return BatchResult(table, evaluation.iterations, evaluation.temperature,
-                       plan=[outcome.block for outcome in evaluation.solution.blocks])
+                       plan=[outcome.block for outcome in evaluation.solution.blocks],
+                       planning_seconds=evaluation.planning_seconds)
 
 
 def scenario_table(evaluation) -> pd.DataFrame:

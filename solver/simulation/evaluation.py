@@ -33,6 +33,8 @@ overall one, tears included.
 
 from __future__ import annotations
 
+import time
+
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -80,6 +82,9 @@ class Evaluation:
     """(batch,) the case-file key path (a tuple) the reason is about, where one is known."""
     tolerance: float = 0.0
     labels: dict = field(default_factory=dict)
+    planning_seconds: float = 0.0
+    """CPU seconds spent finding the calculation order (0 where it was given): a batch's timing
+    probe leaves it out (:func:`.batch._probe`)."""
 
     @property
     def success(self) -> np.ndarray:
@@ -123,15 +128,20 @@ def evaluate(case, values: dict | None = None, *, tolerance=None, max_iterations
     tolerance = case.settings.tolerance if tolerance is None else tolerance
     max_iterations = case.settings.max_iterations if max_iterations is None else max_iterations
     net = build_network(case, values or {})
+    planning = time.process_time()
     plan = plan_calculation(net.graph) if plan is None else plan
+    planning = time.process_time() - planning
     drums = [name for name, unit in net.units.items() if splits_by_state(unit)]
     with np.errstate(all="ignore"):  # rows that are not valid may hold NaN; they are masked in assess
         if not drums:  # flows first, once: nothing they carry depends on the states
             solution = solve_temperatures(net, tolerance=tolerance, max_iterations=max_iterations, batch=net.batch,
                                           plan=plan)
-            return assess(net, solution, tolerance)
-        solution, unsettled = settle_splits(net, drums, plan, tolerance, max_iterations)
-    return assess(net, solution, tolerance, unsettled)
+            evaluation = assess(net, solution, tolerance)
+        else:
+            solution, unsettled = settle_splits(net, drums, plan, tolerance, max_iterations)
+            evaluation = assess(net, solution, tolerance, unsettled)
+    evaluation.planning_seconds = planning
+    return evaluation
 
 
 def settle_splits(net: Network, drums, plan, tolerance, max_iterations):
