@@ -347,12 +347,13 @@ def read_economics(f: Fields | None) -> dict | None:
     if f is None:
         return None
     result = {
-        "fuel_price": read_quantity(f, "fuel_price", q.NUMBER, required=True, minimum=0.0),
+        "fuel_price": read_quantity(f, "fuel_price", q.NUMBER, required=True, minimum=0.0, per="GJ of fuel"),
         "currency": f.text("currency", required=True),
         "furnace_efficiency": read_quantity(f, "furnace_efficiency", q.FRACTION, default=DEFAULT_FURNACE_EFFICIENCY,
                                         above=0.0),
         "co2_per_fuel": read_quantity(f, "co2_per_fuel", q.EMISSION_FACTOR, default=DEFAULT_CO2_PER_FUEL),
-        "co2_price": read_quantity(f, "co2_price", q.NUMBER, default=DEFAULT_CO2_PRICE, minimum=0.0),
+        "co2_price": read_quantity(f, "co2_price", q.NUMBER, default=DEFAULT_CO2_PRICE, minimum=0.0,
+                                   per="tonne of CO2"),
     }
     if not result["currency"].strip() or len(result["currency"]) > 12:
         raise f.error("currency", f"expected a currency's short name such as USD or EUR, got "
@@ -383,15 +384,21 @@ def error_at(f: Fields, key) -> Callable[[str], CaseError]:
     return lambda message: f.error(key, message)
 
 
-def read_quantity(f: Fields, key, kind: q.Kind, required=False, default=None, above=None, minimum=None):
-    """Fields.quantity, with the trade's MMBtu understood."""
+def read_quantity(f: Fields, key, kind: q.Kind, required=False, default=None, above=None, minimum=None, per=None):
+    """Fields.quantity, with the trade's MMBtu understood; ``per``: for a plain number that is a
+    price, what it is per ("GJ of fuel"), said where units are written with it."""
     raw = f.raw(key, required, None)
     if raw is None:
         return default
+    written = q.NUMBER_AT_START.match(raw) if isinstance(raw, str) else None
+    if per is not None and isinstance(raw, str) and (written is None or written.group(2)):
+        raise f.error(key, f"expected a plain number, the price per {per} in the economics' currency, got "
+                           f"{shorten(raw)} (convert it: 1 MMBtu = 1.05506 GJ, 1 t = 1000 kg)")
     try:
         number = q.to_default_unit(trade_units(raw) if isinstance(raw, str) else raw, kind)
-    except q.QuantityError as exc:
-        raise f.error(key, str(exc)) from None
+    except q.QuantityError as exc:  # worded with the text as written, not the spelling read
+        raise f.error(key, str(exc).replace(shorten(trade_units(raw)), shorten(raw)) if isinstance(raw, str)
+                      else str(exc)) from None
     unit = f" {kind.shown_unit}" if kind.shown_unit else ""
     if above is not None and number <= above:
         raise f.error(key, f"{shorten(raw)} must be greater than {above:g}{unit}")

@@ -202,3 +202,63 @@ def test_a_limit_the_uncleaned_train_already_breaks_is_standing_not_new():
     assert new_violations(plans, reference, 2, steps).tolist() == [[0, 1, 0, 0], [1, 1, 0, 0]]
     # a limit the reference never reports at all is new too
     assert new_violations({"other": np.ones(steps, bool)}, reference, 1, steps).tolist() == [[1, 1, 1, 1]]
+
+
+def test_an_exchanger_in_service_keeps_the_cases_own_bypass(tmp_path):
+    """X-1's cold side has a 5 % bypass in the case: in service every step keeps it (the
+    schedule had set it to 0, rating another plant than `run` does: ~20 kW of fired duty a step
+    on the crude demo), out of service both sides go round whole. Every in-service step's fired
+    duty equals a separate evaluation of the case with that step's fouling written in."""
+    import yaml
+
+    from hxtrain.units.protocol import FIRED_HEATERS
+
+    small_schedule(tmp_path, ("X-1",), 4)
+    data = yaml.safe_load(SMALL_CASE)
+    data["exchangers"]["X-1"] = dict(data["exchangers"]["X-1"], bypass={"cold": 0.05})
+    (tmp_path / "small.yaml").write_text(yaml.safe_dump(data))
+    horizon, _ = build_horizon(load_schedule(tmp_path / "schedule.yaml"))
+    plan = np.zeros((1, 1, 4), bool)
+    plan[0, 0, 2] = True
+    outcome = march(horizon, plan)
+    values = scenario_values(horizon, outcome.fouling, outcome.out_of_service)
+    assert values["exchangers.X-1.bypass.cold"].tolist() == [0.05, 0.05, 1.0, 0.05]
+    assert values["exchangers.X-1.bypass.hot"].tolist() == [0.0, 0.0, 1.0, 0.0]
+    for step in (0, 1, 3):
+        data["exchangers"]["X-1"]["fouling"] = {"shell": float(outcome.fouling[0, 0, step]), "tube": 0.0}
+        alone = evaluate(case_from_mapping(data)).totals[FIRED_HEATERS]
+        assert outcome.fired[0, step] == pytest.approx(float(alone[0]), rel=1e-9)
+
+
+def test_a_threshold_law_the_case_cannot_feed_is_refused_naming_it(tmp_path, capsys):
+    """Ebert-Panchal follows the tube side's Re, film temperature and shear, which need the
+    tube-side fluid's viscosity, conductivity and density: the small case gives cp only, so the
+    law is refused at its key (exit 2) before any plan is rated (it had been an internal error
+    from the optimiser's costs, which had no number)."""
+    from hxtrain.network import CaseError
+    from hxtrain.solver.cli.main import main
+
+    small_schedule(tmp_path, ("X-1",), 4)
+    path = tmp_path / "schedule.yaml"
+    path.write_text(path.read_text().replace(
+        "{model: linear, rate: 8.0e-6, initial: 0.0004}",
+        "{model: ebert_panchal, alpha: 1.0e+3, beta: -0.66, activation_energy: 68000, gamma: 1.0e-9, initial: 0.0006}"))
+    with pytest.raises(CaseError, match="X-1's ebert_panchal law follows the tube side's conditions") as error:
+        build_horizon(load_schedule(path))
+    assert error.value.path == ("fouling", "exchangers", "X-1", "model")
+    assert main(["schedule", str(path)]) == 2
+    assert "viscosity, conductivity and density" in capsys.readouterr().err
+
+
+def test_a_limit_is_quoted_at_its_worst_step():
+    """A limit violated over many steps is quoted where it is farthest past the limit, not where
+    it first is (the crude schedule's box had said 287.3 °C, its first step, where the plan
+    reached 292.8 °C): the finding keeps how far past each scenario is."""
+    from hxtrain.units.protocol import design_temperature_findings
+
+    peaks = np.array([279.0, 281.0, 292.8, 285.0, np.nan])
+    finding, = design_temperature_findings("exchangers.E-9", {"the cold side ": (280.0, peaks - 30.0, peaks)})
+    assert finding.worst() == 2 and "292.8 °C" in finding.messages[finding.worst()]
+    assert np.flatnonzero(finding.active)[0] == 1
+    none, = design_temperature_findings("exchangers.E-9", {"the cold side ": (300.0, peaks - 30.0, peaks)})
+    assert none.worst() == -1

@@ -76,7 +76,13 @@ def test_fouled_against_clean_in_us_units(capsys):
 
 
 def test_the_cleaning_ranking_words_follow_the_units(tmp_path, capsys):
-    code, out, err = run_cli(capsys, "cleaning", "--units", "us", "--out", tmp_path / "r.csv")
+    """E-111's tube side rated for 255 °C, which it passes (254.4 °C fouled) only when cleaned:
+    a new limit whose words carry a temperature, in °F with --units us."""
+    text = demo_case_path("crude_preheat").read_text(encoding="utf-8")
+    case = tmp_path / "crude.yaml"
+    case.write_text(text.replace("    tubes: *tubes\n  E-112:", "    tubes: *tubes\n    design_temperature: {tube: 255}\n"
+                                 "  E-112:"), encoding="utf-8")
+    code, out, err = run_cli(capsys, "cleaning", case, "--units", "us", "--out", tmp_path / "r.csv")
     assert code == 0, err
     ranking = pd.read_csv(tmp_path / "r.csv")
     words = " ".join(ranking["new_limits_when_clean"].dropna())

@@ -49,6 +49,15 @@ def _bypass(spec, side):
     return spec.bypass_hot if side == "hot" else spec.bypass_cold
 
 
+def _inside_words(bypass) -> str:
+    """Where a side's peak is read: inside the exchanger where the side has a bypass (in every
+    scenario: "its"; in some: "any", as in a schedule whose cleanings bypass the exchanger)."""
+    bypass = np.asarray(bypass)
+    if not bypass.any():
+        return ""
+    return f"inside the exchanger (ahead of {'its' if bypass.all() else 'any'} bypass) "
+
+
 def _outlets_inside(rating) -> dict:
     """Each side's outlet from the exchanger proper, ahead of its bypass (a zone rating is of the
     exchanger proper already: its outlets are those)."""
@@ -359,20 +368,20 @@ class Exchanger(UnitBase):
         # mixes back what went round (the mixed outlet lies between that and the inlet)
         inside, inlets_t = _outlets_inside(x), {"hot": t_hot, "cold": t_cold}
         findings = design_temperature_findings(key, {
-            f"the {side} side " + ("inside the exchanger (ahead of its bypass) " if np.any(_bypass(self.spec, side))
-                                   else ""): (design.get(side), inlets_t[side], inside[side]) for side in inside})
+            f"the {side} side {_inside_words(_bypass(self.spec, side))}": (design.get(side), inlets_t[side], inside[side])
+            for side in inside})
         for j, side in enumerate(("hot", "cold")):
             limit = self.limits.get("maximum_flow", {}).get(side)
             if limit is not None:
                 findings.append(check("maximum_flow", "limit", inlets.m[:, j] > limit, f"{key}.maximum_flow.{side}",
                                       f"the {side} side carries {{m:.2f}} kg/s, above its maximum of {{lim:.2f}} kg/s",
-                                      m=inlets.m[:, j], lim=limit))
+                                      excess=inlets.m[:, j] - limit, m=inlets.m[:, j], lim=limit))
         for side, drop in service.pressure_drop.items():
             limit = self.limits.get("allowable_pressure_drop", {}).get(side)
             if limit is not None:
                 findings.append(check("pressure_drop", "limit", drop > limit, f"{key}.pressure_drop.{side}.allowable",
                                       f"{side}-side pressure drop {{dp:.1f}} kPa is above the allowable {{lim:.1f}} kPa",
-                                      dp=drop / 1000.0, lim=limit / 1000.0))
+                                      excess=drop - limit, dp=drop / 1000.0, lim=limit / 1000.0))
         return findings
 
     def _cross_unit(self):
@@ -389,7 +398,7 @@ class Exchanger(UnitBase):
             check("temperature_cross", "limit", x.temperature_cross, key,
                   f"temperature cross inside a multipass shell (P_hot + P_cold = {{s:.3f}} {self._cross_unit()} > 1): "
                   "the stream being heated leaves above the outlet of the stream being cooled; F = {f:.3f}",
-                  s=x.shell_p_sum, f=x.f),
+                  excess=x.shell_p_sum - 1.0, s=x.shell_p_sum, f=x.f),
             check("low_f", "warning", works & (x.f < self.minimum_f), key,
                   "F = {f:.3f} is below {lim:.2f}: steep, unreliable part of the F curve", f=x.f, lim=self.minimum_f),
             check("approach", "warning", works & (x.approach < self.minimum_approach), key,

@@ -163,6 +163,20 @@ class Finding:
     template: str
     values: dict
     key: str
+    excess: object = None
+    """How far past its limit a violated limit is, per scenario, in the limit's own terms (K over
+    a design temperature, Pa over an allowable drop): which scenario is the worst (:meth:`worst`)."""
+
+    def worst(self) -> int:
+        """The active scenario farthest past the limit (the first where the check gives no
+        excess or several tie); -1 where none is active."""
+        active = np.flatnonzero(self.active)
+        if not active.size:
+            return -1
+        if self.excess is None:
+            return int(active[0])
+        excess = np.broadcast_to(np.asarray(self.excess, float), self.active.shape)[active]
+        return int(active[np.argmax(np.where(np.isfinite(excess), excess, -np.inf))])
 
     @cached_property
     def messages(self) -> np.ndarray:
@@ -428,9 +442,10 @@ def exchanger_totals(total, duty) -> dict:
     return {total: np.abs(duty) if total == HEAT_RECOVERED else duty}
 
 
-def check(kind, severity, active, key, template, **values):
-    """A Finding whose message is ``template`` formatted with the values at each active scenario."""
-    return Finding(kind, severity, np.atleast_1d(np.asarray(active, dtype=bool)), template, values, key)
+def check(kind, severity, active, key, template, excess=None, **values):
+    """A Finding whose message is ``template`` formatted with the values at each active scenario;
+    ``excess``: how far past the limit each scenario is (see :attr:`Finding.excess`)."""
+    return Finding(kind, severity, np.atleast_1d(np.asarray(active, dtype=bool)), template, values, key, excess)
 
 
 def design_temperature_findings(key, sides):
@@ -450,6 +465,7 @@ def design_temperature_findings(key, sides):
                 peak > design,
                 f"{key}.design_temperature",
                 label + "reaches {peak:.1f} °C, above its design temperature of {design:.1f} °C",
+                excess=peak - design,
                 peak=peak,
                 design=design,
             )

@@ -243,7 +243,7 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
             q_out = (service.q_hot_out, service.q_cold_out)[j]
             findings.append(check("vapour_fraction", "limit", q_out > limit + 1e-12, f"{key}.maximum_vapour_fraction.{side}",
                                   f"the {side} side leaves {{q:.3f}} vapour (mass fraction), above its maximum of "
-                                  "{lim:.3f}", q=q_out, lim=limit))
+                                  "{lim:.3f}", excess=q_out - limit, q=q_out, lim=limit))
     findings += [
         check("approach", "warning", works & (x.approach < unit.minimum_approach), key,
               "smallest approach {a:.1f} K, inside the exchanger at {at:.0%} of the duty from the cold end (ends "
@@ -261,7 +261,8 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
         # temperature cross (P_hot + P_cold > 1), whatever the zones: the P–NTU rating's limit
         check("temperature_cross", "limit", works & (unit.spec.arrangement.name == "tema_e") & crossed, key,
               "temperature cross inside a multipass shell: the stream taking heat leaves it at {tc:.1f} °C, above the "
-              "outlet of the stream giving heat at {th:.1f} °C", tc=taker_out, th=giver_out),
+              "outlet of the stream giving heat at {th:.1f} °C", excess=taker_out - giver_out, tc=taker_out,
+              th=giver_out),
         check("past_peak", "input", x.past_peak, key,
               f"the UA ({{ua:.1f}} kW/K) is beyond the NTU at which P of a shell with {unit.spec.tube_passes} tube "
               "passes peaks at these flows: the duty is not unique in UA and no number is given (two tube passes, "

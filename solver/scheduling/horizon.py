@@ -169,15 +169,18 @@ def fouling_paths(horizon: Horizon, plans, conditions=None):
 
 
 def scenario_values(horizon: Horizon, fouling, busy, throughput=None) -> dict:
-    """Key path -> one value per scenario (plans × steps, plan-major) for the rating."""
+    """Key path -> one value per scenario (plans × steps, plan-major) for the rating: each
+    exchanger's fouling, and its bypasses, whole while it is out of service, else the case's own."""
     count, exchangers, steps = fouling.shape
     values = {k: np.tile(np.asarray(v, float), count) for k, v in horizon.settings.items()}
     for e, name in enumerate(horizon.exchangers):
         base = ".".join(horizon.case.keys[name])
         values[f"{base}.fouling.shell"] = fouling[:, e, :].reshape(-1)
         values[f"{base}.fouling.tube"] = np.zeros(count * steps)
-        side = busy[:, e, :].reshape(-1).astype(float)
-        values[f"{base}.bypass.hot"], values[f"{base}.bypass.cold"] = side, side.copy()
+        out = busy[:, e, :].reshape(-1)
+        spec = horizon.case.exchangers[name]["spec"]  # in service, each side keeps the case's own bypass
+        values[f"{base}.bypass.hot"] = np.where(out, 1.0, spec.bypass_hot)
+        values[f"{base}.bypass.cold"] = np.where(out, 1.0, spec.bypass_cold)
     if throughput is not None and horizon.furnace is not None:
         key = horizon.furnace.throughput
         values[key] = values[key] * throughput.reshape(-1)

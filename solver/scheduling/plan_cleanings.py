@@ -132,7 +132,8 @@ def _step_table(horizon: Horizon, search: Search) -> pd.DataFrame:
     rows = []
     for unit, finding in evaluation.findings:
         if finding.severity == "limit" and finding.active.any():
-            first = int(np.argmax(finding.active))
+            first, worst = int(np.argmax(finding.active)), finding.worst()
             rows.append({"unit": unit, "limit": finding.kind, "key": finding.key, "steps": int(finding.active.sum()),
-                         "first": horizon.times[first], "message": finding.messages[first]})
-    return table, pd.DataFrame(rows, columns=["unit", "limit", "key", "steps", "first", "message"])
+                         "first": horizon.times[first], "worst": horizon.times[worst],
+                         "message": finding.messages[worst]})
+    return table, pd.DataFrame(rows, columns=["unit", "limit", "key", "steps", "first", "worst", "message"])

@@ -114,7 +114,37 @@ def build_horizon(schedule: ScheduleFile, progress=None) -> tuple[Horizon, pd.Da
     horizon = Horizon(schedule.case, exchangers, laws, duration, cost, schedule.step / pd.Timedelta(days=1),
                       schedule.steps, operating_settings(schedule), dict(schedule.economics), schedule.furnace,
                       schedule.start, new_limits_allowed=schedule.new_limits_allowed)
+    _check_threshold_conditions(schedule, horizon, written)
     return horizon, sources.set_index("exchanger")
+
+
+def _check_threshold_conditions(schedule: ScheduleFile, horizon: Horizon, written):
+    """A threshold law's rate follows the tube side's Reynolds number, film temperature and wall
+    shear, which the network gives only from film coefficients and the tube-side fluid's
+    viscosity, conductivity and density: without them it is refused, naming the law, before
+    any plan is rated (its costs would have no number)."""
+    from hxtrain.solver.monitoring.fouling_fits import fouling_side_conditions
+    from hxtrain.solver.monitoring.projection import evaluation_conditions
+    from hxtrain.solver.simulation.evaluation import evaluate
+    from hxtrain.units.fouling_models import MODELS
+
+    adaptive = [n for n in horizon.exchangers if MODELS[horizon.laws[n].model].conditions]
+    if not adaptive:
+        return
+    evaluation = evaluate(horizon.case)
+    table = evaluation_conditions(evaluation, adaptive)
+    side = fouling_side_conditions(evaluation.net, table)
+    for name in adaptive:
+        needed = [c.name for c in MODELS[horizon.laws[name].model].conditions]
+        rows = side.loc[(table["unit"] == name).to_numpy(), needed]
+        if rows.notna().all().all():
+            continue
+        where = ("fouling", "exchangers", name, "model") if name in written else ("fouling", "from_monitoring")
+        raise schedule.error(where, f"{name}'s {horizon.laws[name].model} law follows the tube side's conditions "
+                                    f"({', '.join(needed)}), which the case cannot give for {name}: they need its U "
+                                    "from films ('film' or 'geometry') and its tube-side fluid's viscosity, "
+                                    "conductivity and density; give those in the case, or use a law without "
+                                    "conditions (linear, asymptotic)")
 
 
 def allowed_starts(schedule: ScheduleFile, horizon: Horizon) -> np.ndarray:

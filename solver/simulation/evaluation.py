@@ -309,7 +309,8 @@ def unit_reports(net, solution: TemperatureSolution, flow) -> dict:
 
 
 def _masked(finding: Finding, ok) -> Finding:
-    return Finding(finding.kind, finding.severity, finding.active & ok, finding.template, finding.values, finding.key)
+    return Finding(finding.kind, finding.severity, finding.active & ok, finding.template, finding.values, finding.key,
+                   finding.excess)
 
 
 def _not_converged_text(t):

@@ -34,7 +34,11 @@ def cleaning_ranking(case) -> pd.DataFrame:
         row.update({"fired_duty_saved_kw": fouled.summary[FIRED_HEATERS] - clean.summary[FIRED_HEATERS],
                     "exchanger_duty_gained_kw": clean.units.loc[tag, "duty_kw"] - fouled.units.loc[tag, "duty_kw"]})
         row.update({f"{h.removesuffix('_inlet_c')}_inlet_gain_k": clean.summary[h] - fouled.summary[h] for h in heaters})
-        new_limits = clean.limits[~clean.limits["message"].isin(fouled.limits["message"])]
+        # a limit is new where the fouled train keeps it (the same unit, kind and key), whatever
+        # its numbers: a design temperature already passed fouled is standing, not new
+        standing = set(zip(fouled.limits["unit"], fouled.limits["kind"], fouled.limits["key"]))
+        new_limits = clean.limits[[k not in standing for k in zip(clean.limits["unit"], clean.limits["kind"],
+                                                                  clean.limits["key"])]]
         row["limits_when_clean"] = int(len(clean.limits))
         row["new_limits_when_clean"] = Worded.joined("; ", (Worded.joined(": ", (r.unit, r.message))
                                                             for r in new_limits.itertuples()))
