@@ -118,10 +118,11 @@ class FluidModel:
         low, high = np.full(h.shape, low_limit), np.full(h.shape, high_limit)
         tolerance = 1e-13 * np.maximum(1.0, np.abs(h))
         met = np.zeros(h.shape, bool)
+        unknown = ~np.isfinite(h)  # no temperature to search for: NaN below
         for _ in range(200):
             error = self.enthalpy(t) - h
             met = np.abs(error) <= tolerance
-            if np.all(met):
+            if np.all(met | unknown):
                 break
             high = np.where(error > 0, np.minimum(high, t), high)
             low = np.where(error <= 0, np.maximum(low, t), low)

@@ -62,7 +62,8 @@ def outlets_settled(change, t_hot_in, previous_change=None):
         contracting = ratio < CONTRACTION_LIMIT
         factor = np.minimum(1.0, CONTRACTION_SAFETY * ratio / (1.0 - np.where(contracting, ratio, 0.0)))
         distance = np.where(contracting, change * factor, change)
-    own = distance <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot_in))
+    # a scenario whose numbers are gone (NaN from inlets no state has) has nothing to settle
+    own = (distance <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot_in))) | ~np.isfinite(change)
     allowed = outlet_precision()
     if allowed <= 0.0:
         return own

@@ -83,6 +83,8 @@ class TearResult:
     methods: list = field(default_factory=list)
     evaluations: int = 0
     """Sweeps of the block (evaluations of g), Jacobian columns and step halvings included."""
+    taken: np.ndarray | None = None
+    """Per scenario, the iterations it took part in (None: ``iterations`` for every one)."""
     held: np.ndarray | None = None
     """Segments whose temperatures are held within the tolerance of what their units compute,
     where more than the tears are (a block converged on all its segments); None: the tears."""
@@ -144,8 +146,10 @@ def converge_tears(evaluate, x0, tolerance, max_iterations, one_tear=None) -> Te
     x_prev = g_prev = None
     stage_start, best = 0, np.inf
     iteration = 0
+    taken = np.zeros(x.shape[0], int)
     while np.any(active) and iteration < max_iterations:
         iteration += 1
+        taken += active
         size = np.max(np.abs(residual[active]))
         evaluate.within(size)
         history.append(np.max(np.abs(residual[active]), axis=0))
@@ -165,7 +169,9 @@ def converge_tears(evaluate, x0, tolerance, max_iterations, one_tear=None) -> Te
         x = np.where(active[:, None], x_new, x)
         g = evaluate(x) if g_new is None else np.where(active[:, None], g_new, g)
         residual = g - x
-        active = active & ~_small(residual, tolerance - evaluate.error)
+        # a scenario whose tears or their sweep left the numbers (a unit met a state no
+        # temperature has) cannot come back by any step: it stops here, not converged
+        active = active & ~_small(residual, tolerance - evaluate.error) & np.all(np.isfinite(residual), axis=1)
     evaluate.precision = 0.0
     if evaluate.loose:  # what is decided and kept from here on comes from an exact sweep
         g = evaluate(x)
@@ -174,7 +180,7 @@ def converge_tears(evaluate, x0, tolerance, max_iterations, one_tear=None) -> Te
     if np.any(converged) and x.shape[1] <= MAX_POLISH_TEARS:
         x, g, residual = _polish(evaluate, x, g, residual, converged, newton.matrix, POLISH_BELOW * tolerance)
     return TearResult(x, converged, iteration, np.abs(residual), history, methods, evaluations=evaluate.count,
-                      computed=g)
+                      computed=g, taken=taken)
 
 
 def _stuck(stage, steps, size, best, history, newton):

@@ -64,6 +64,24 @@ class TemperatureSolution:
     def iterations(self) -> int:
         return sum(b.tears.iterations for b in self.blocks if b.tears is not None)
 
+    def left_the_numbers(self, batch) -> np.ndarray:
+        """Per scenario, whether some block's tears or their sweep stopped on a value that is not
+        a number (a unit met a state no temperature has)."""
+        lost = np.zeros(batch, bool)
+        for b in self.blocks:
+            if b.tears is not None:
+                lost |= ~np.all(np.isfinite(b.tears.residual), axis=1)
+        return lost
+
+    def scenario_iterations(self, batch) -> np.ndarray:
+        """Per scenario, the tear iterations it took part in, summed over the blocks (a
+        scenario that converged early is not charged with another's iterations)."""
+        total = np.zeros(batch, int)
+        for b in self.blocks:
+            if b.tears is not None:
+                total = total + (b.tears.taken if b.tears.taken is not None else b.tears.iterations)
+        return total
+
 
 @dataclass
 class UnitGroup:
@@ -280,9 +298,13 @@ def _failure_message(net, block, result: TearResult, tolerance):
     trail = [float(np.max(h)) for h in result.history]
     shown = trail[:: max(1, len(trail) // 8)][-8:]
     failed = int(np.sum(~result.converged))
+    lost = "" if np.all(np.isfinite(last)) else (
+        " The temperatures left the physical range on the way (a unit met a state no temperature has: most "
+        "often a duty or a target inside the loop that no temperature can meet, such as a cooler taking more "
+        "than the loop's flow holds above absolute zero); the iteration stopped there.")
     return (
         f"temperatures did not converge in the block of units {', '.join(block.units)} after "
         f"{result.iterations} iterations ({' -> '.join(result.methods)}); tolerance {tolerance:g} K, "
         f"{failed} of {result.converged.size} scenario(s) unconverged. Largest last residuals by tear stream: "
-        f"{listing}. Residual history (K): {', '.join(f'{v:.3g}' for v in shown)}. No results are reported."
+        f"{listing}. Residual history (K): {', '.join(f'{v:.3g}' for v in shown)}.{lost} No results are reported."
     )

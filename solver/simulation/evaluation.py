@@ -268,7 +268,8 @@ def assess(net: Network, solution: TemperatureSolution, tolerance, unsettled=Non
     for name, finding in findings:
         if finding.severity == "input":
             fail(finding.active, NOT_VALID, finding.messages, tuple(finding.key.split(".")))
-    fail(~solution.converged, NOT_CONVERGED, lambda k: _not_converged_text(t[k]), None)
+    lost = solution.left_the_numbers(net.batch)
+    fail(~solution.converged, NOT_CONVERGED, lambda k: _not_converged_text(t[k], lost[k]), None)
     if unsettled is not None:
         fail(unsettled != "", NOT_CONVERGED, unsettled, None)
     range_findings = _temperature_checks(net, t, flow, fail)
@@ -313,9 +314,10 @@ def _masked(finding: Finding, ok) -> Finding:
                    finding.excess)
 
 
-def _not_converged_text(t):
-    """Why a scenario with temperatures ``t`` (segments,) did not converge (worded only where one did not)."""
-    if np.all(np.isfinite(t)):
+def _not_converged_text(t, lost=False):
+    """Why a scenario with temperatures ``t`` (segments,) did not converge (worded only where one
+    did not); ``lost``: its iteration stopped on a value that is not a number."""
+    if np.all(np.isfinite(t)) and not lost:
         return "temperatures did not converge"
     return ("temperatures did not converge (some left the physical range on the way: a duty or target that no "
             "temperature can meet?)")

@@ -163,7 +163,7 @@ def scenario_summary(evaluation: Evaluation) -> dict:
     ok = evaluation.success
     return {**evaluation.totals, **evaluation.highlights,
             "limit_violations": np.where(ok, limits, np.nan), "warnings": np.where(ok, warnings, np.nan),
-            "iterations": np.full(evaluation.batch, evaluation.iterations)}
+            "iterations": evaluation.solution.scenario_iterations(evaluation.batch)}
 
 
 LIMIT_SEPARATOR = "; "
