@@ -390,21 +390,25 @@ def read_quantity(f: Fields, key, kind: q.Kind, required=False, default=None, ab
     raw = f.raw(key, required, None)
     if raw is None:
         return default
-    written = q.NUMBER_AT_START.match(raw) if isinstance(raw, str) else None
-    if per is not None and isinstance(raw, str) and (written is None or written.group(2)):
+    if per is not None and isinstance(raw, str) and not _plain_number(raw):
         raise f.error(key, f"expected a plain number, the price per {per} in the economics' currency, got "
                            f"{shorten(raw)} (convert it: 1 MMBtu = 1.05506 GJ, 1 t = 1000 kg)")
+    read = trade_units(raw) if isinstance(raw, str) else raw
     try:
-        number = q.to_default_unit(trade_units(raw) if isinstance(raw, str) else raw, kind)
+        number = q.to_default_unit(read, kind)
     except q.QuantityError as exc:  # worded with the text as written, not the spelling read
-        raise f.error(key, str(exc).replace(shorten(trade_units(raw)), shorten(raw)) if isinstance(raw, str)
-                      else str(exc)) from None
+        raise f.error(key, str(exc).replace(shorten(read), shorten(raw)) if read is not raw else str(exc)) from None
     unit = f" {kind.shown_unit}" if kind.shown_unit else ""
     if above is not None and number <= above:
         raise f.error(key, f"{shorten(raw)} must be greater than {above:g}{unit}")
     if minimum is not None and number < minimum:
         raise f.error(key, f"{shorten(raw)} cannot be below {minimum:g}{unit}")
     return number
+
+
+def _plain_number(text: str) -> bool:
+    written = q.NUMBER_AT_START.match(text)
+    return written is not None and not written.group(2)
 
 
 def read_duration(f: Fields, key, default) -> pd.Timedelta:

@@ -381,7 +381,8 @@ def _gauge_hint(text: str, kind: Kind) -> str:
     """For '150 psig' where an absolute pressure is asked: the local atmosphere is not known."""
     if "absolute" not in kind.name or not _GAUGE.match(NUMBER_AT_START.match(text).group(2).strip()):
         return ""
-    return " (a gauge pressure: give the absolute pressure, gauge plus the local atmospheric pressure, e.g. psia or bara)"
+    return (" (a gauge pressure: give the absolute pressure, gauge plus the local atmospheric pressure, e.g. psia "
+            "or bara)")
 
 
 def _degree_hint(text: str) -> str:

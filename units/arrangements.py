@@ -204,7 +204,8 @@ ARRANGEMENTS = {
         options={"both_mixed": (False, True)}, shape=lambda n, o: "peak" if o["both_mixed"] else "rising"),
     "tema_f": Arrangement(
         _shell_relation(pntu_shells.p_tema_f, _f_sided), "TEMA F, two shell passes (ideal longitudinal baffle)",
-        tube_passes=(4, 2, 8, 12, 16), sided=_f_sided, cross=lambda n, o: n >= 4, halves=lambda n, o: 2 if n >= 4 else 1,
+        tube_passes=(4, 2, 8, 12, 16), sided=_f_sided, cross=lambda n, o: n >= 4,
+        halves=lambda n, o: 2 if n >= 4 else 1,
         shape=lambda n, o: "peak" if n >= 8 else "rising"),
     "tema_g": Arrangement(_shell_relation(pntu_shells.p_tema_g, _always), "TEMA G split flow", tube_passes=(2, 1),
                           sided=_always, cross=_always),
@@ -340,6 +341,13 @@ def setting_problem(arrangement, tube_passes):
 def single_pass_aware(a: Arranged, tube_passes):
     """The tube passes the relation sees: a single-pass relation ignores the argument."""
     return 1 if a.line.tube_passes == (1,) else tube_passes
+
+
+def unit_halves(arrangement, tube_passes) -> int:
+    """How many multipass parts one unit of ``arrangement`` is where a cross is judged
+    (:attr:`Arrangement.halves`: 2 for an F shell of four or more tube passes, else 1)."""
+    a = arranged(arrangement)
+    return a.line.halves(single_pass_aware(a, tube_passes), a.options)
 
 
 def p_one_unit(ntu, r, arrangement, *, basis_is_shell=None, basis_is_mixed=None, tube_passes=2):

@@ -8,7 +8,7 @@ import numpy as np
 
 from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, PropertyNeed, UnitReport, UnitBase, check, \
     design_temperature_findings, exchanger_totals
-from .arrangements import arranged, single_pass_aware
+from .arrangements import arranged, unit_halves
 from .pntu_rating import ExchangerRating
 from .u_models import Coefficients, FixedCoefficient, GeometryFilms
 from .back_calculation import back_calculate
@@ -368,8 +368,8 @@ class Exchanger(UnitBase):
         # mixes back what went round (the mixed outlet lies between that and the inlet)
         inside, inlets_t = _outlets_inside(x), {"hot": t_hot, "cold": t_cold}
         findings = design_temperature_findings(key, {
-            f"the {side} side {_inside_words(_bypass(self.spec, side))}": (design.get(side), inlets_t[side], inside[side])
-            for side in inside})
+            f"the {side} side {_inside_words(_bypass(self.spec, side))}":
+                (design.get(side), inlets_t[side], inside[side]) for side in inside})
         for j, side in enumerate(("hot", "cold")):
             limit = self.limits.get("maximum_flow", {}).get(side)
             if limit is not None:
@@ -387,9 +387,8 @@ class Exchanger(UnitBase):
     def _cross_unit(self):
         """Where a cross is judged: per shell, or per half of an F shell (see
         :attr:`.arrangements.Arrangement.halves`)."""
-        a = arranged(self.spec.arrangement)
-        return "per half of the F shell" if a.line.halves(single_pass_aware(a, self.spec.tube_passes), a.options) > 1 \
-            else "per shell"
+        halved = unit_halves(self.spec.arrangement, self.spec.tube_passes) > 1
+        return "per half of the F shell" if halved else "per shell"
 
     def _rating_findings(self, x, coefficients, t_hot, t_cold):
         key = self.key

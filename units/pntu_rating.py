@@ -21,7 +21,7 @@ import numpy as np
 
 from . import pntu
 from .arrangements import ARRANGEMENTS, Arranged, arranged, basic_equivalent, p_of_units, p_one_unit, \
-    single_pass_aware
+    single_pass_aware, unit_halves
 from .arrays import as_arrays, as_floats, select
 from .pntu_inverse import p_one_unit_of_series
 
@@ -219,7 +219,7 @@ def rate_exchanger(
     else:
         approach = np.minimum(direction * end_hot_in, direction * end_hot_out)
     # a multipass unit's outlets meet inside it; an F shell's two E halves each have their own
-    halves = a.line.halves(passes, options)
+    halves = unit_halves(a, tube_passes)
     p_part = p_shell if halves == 1 else p_one_unit_of_series(p_shell, r, halves)
     if a.line.cross(passes, options) and not (a.line.same_end(passes, options) or series_in_parallel):
         approach = np.minimum(approach, direction * _unit_outlet_difference(

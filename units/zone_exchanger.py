@@ -224,8 +224,9 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
     works = x.duty != 0.0
     multipass = unit.spec.arrangement.name == "tema_e"
     terminals = shell_terminals(x.profile, unit.spec.shells if multipass else 1)
-    worst = np.argmax(terminals[3] - terminals[1], axis=1)[:, None]  # the shell whose outlets come closest
-    giver_out, taker_out = (np.take_along_axis(ends, worst, axis=1)[:, 0] for ends in (terminals[1], terminals[3]))
+    _, giver_outs, _, taker_outs = terminals
+    worst = np.argmax(taker_outs - giver_outs, axis=1)[:, None]  # the shell whose outlets come closest
+    giver_out, taker_out = (np.take_along_axis(ends, worst, axis=1)[:, 0] for ends in (giver_outs, taker_outs))
     crossed = taker_out > giver_out
     # a multipass shell's outlets meet inside it (the approach of a 1-2 shell, as for the P-NTU
     # rating); its F at its terminal temperatures is the one that corrects its zones

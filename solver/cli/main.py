@@ -1,7 +1,8 @@
 """The ``hxtrain`` command.
 
 Exit codes: 0 done; 2 bad input (case file, output path, usage); 3 temperatures did not converge;
-4 the Dask cluster a study ran on failed while it ran (no result); 1 an internal error (a bug: please report it with the case file; ``--debug`` shows the traceback);
+4 the Dask cluster a study ran on failed while it ran (no result); 1 an internal error (a bug:
+please report it with the case file; ``--debug`` shows the traceback);
 130 interrupted (Ctrl-C); 143 stopped by SIGTERM; 141 the standard output was closed before the
 report was printed in full (``... | head``): output files are written before the report, so they
 are complete. An interrupt or SIGTERM prints one line and removes any temporary file.

@@ -16,8 +16,9 @@ with qualified engineers and the applicable codes and standards."""
 
 EPILOG = """\
 exit codes: 0 done, 2 bad input (message names the file and key path), 3 did not converge,
-4 the Dask cluster failed during a study, 1 internal error, 130 interrupted (Ctrl-C), 143 stopped by SIGTERM, 141 standard output closed
-early (e.g. by "| head"; files given with --out are written first and complete).
+4 the Dask cluster failed during a study, 1 internal error, 130 interrupted (Ctrl-C),
+143 stopped by SIGTERM, 141 standard output closed early (e.g. by "| head"; files given with
+--out are written first and complete).
 examples:
   hxtrain run                          run the bundled crude preheat demo
   hxtrain run --demo feed_effluent     run another bundled demo

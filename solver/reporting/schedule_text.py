@@ -44,7 +44,8 @@ def schedule_report(result, display: Display | None = None) -> str:
     schedule, horizon = result.schedule, result.horizon
     display = (display or current()).with_case(schedule.case)
     currency = schedule.economics.get("currency", "")
-    end = horizon.times[-1] + pd.Timedelta(days=horizon.step_days) - pd.Timedelta(seconds=1)  # its last day, as periods are
+    # the horizon's last day, as periods are given (its end less a second, whatever the step)
+    end = horizon.times[-1] + pd.Timedelta(days=horizon.step_days) - pd.Timedelta(seconds=1)
     cleanable = int(sum(1 for n in horizon.exchangers if n in schedule.cleaning and schedule.cleaning[n].allowed))
     parts = [f"hxtrain schedule: {schedule.title or schedule.file}", f"schedule file: {schedule.file}",
              *note_lines(display), "",
@@ -111,8 +112,8 @@ def _cost_text(comparison: pd.DataFrame) -> str:
 def _limit_lines(result, display: Display):
     lines = []
     for row in result.limits.itertuples():
-        text = (f"{row.unit}: at worst {display.message(row.message)} — in {row.steps} of {result.horizon.steps} steps, "
-                f"first at {_day(row.first)}, worst at {_day(row.worst)}  [{row.key}]")
+        text = (f"{row.unit}: at worst {display.message(row.message)} — in {row.steps} of {result.horizon.steps} "
+                f"steps, first at {_day(row.first)}, worst at {_day(row.worst)}  [{row.key}]")
         lines += textwrap.wrap(text, WIDTH - 3, subsequent_indent="   ")
     return lines
 

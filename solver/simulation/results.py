@@ -181,16 +181,16 @@ def limit_label(unit: str, finding) -> str:
 def violated_limits(evaluation: Evaluation) -> np.ndarray:
     """Per scenario, the limits it violates (:func:`limit_label`, joined by
     :data:`LIMIT_SEPARATOR`); "" where none, or where the scenario has no answer."""
-    named = np.full(evaluation.batch, "", dtype=object)
     ok = evaluation.success
-    for unit, finding in evaluation.findings:
-        if finding.severity != "limit":
-            continue
-        hit = np.flatnonzero(np.broadcast_to(finding.active, ok.shape) & ok)
-        if hit.size:
-            label = limit_label(unit, finding)
-            named[hit] = [f"{before}{LIMIT_SEPARATOR}{label}" if before else label for before in named[hit]]
-    return named
+    limits = [(limit_label(unit, f), np.broadcast_to(f.active, ok.shape) & ok) for unit, f in evaluation.findings
+              if f.severity == "limit" and f.active.any()]
+    if not limits:
+        return np.full(evaluation.batch, "", dtype=object)
+    # worded once per distinct combination of limits (a batch has few), not once per scenario
+    combinations, which = np.unique(np.stack([hit for _, hit in limits], axis=1), axis=0, return_inverse=True)
+    words = np.array([LIMIT_SEPARATOR.join(label for (label, _), on in zip(limits, row) if on)
+                      for row in combinations], dtype=object)
+    return words[which.reshape(-1)]
 
 
 def tabulate(evaluation: Evaluation, k: int = 0) -> SimulationResult:
