@@ -253,6 +253,8 @@ def _drop_model(f: Fields, spec, part, reference):
         return hydraulics.BundleDrop(spec.thermal.bundle, part)
     film = getattr(spec.thermal, part, None)
     if film is None:
-        raise f.error("pressure_drop", "a reference pressure drop needs 'reference_flow' (give U by 'clean_u' or "
-                                       "'film' with reference flows)")
+        fixed = "a fixed 'ua' or 'u'" if spec.ua is not None or spec.u_is_fixed else "this U"
+        raise f.error("pressure_drop", "a reference pressure drop is scaled with flow from the films' reference "
+                                       f"flows, which {fixed} does not have: give U by 'clean_u' or 'film' (with "
+                                       "'reference_flow'), or the geometry, to have pressure drops checked")
     return hydraulics.ScaledDrop(reference / spec.shells, film.reference_flow, film.reference_temperature)

@@ -43,7 +43,10 @@ class Fields:
                 if misspelt is not None:
                     raise self.error(misspelt, f"missing key '{key}'; found unknown key {shorten(misspelt)} — did you "
                                                f"mean '{key}'?")
-                raise self.doc.error(self.path, f"missing key '{key}'")
+                like = self._resembling(key)
+                raise self.doc.error(self.path, f"missing key '{key}'" + (
+                    f" (if {shorten(like)} is meant for it, write '{key}')"
+                    if like is not None else ""))
             return default
         return self.value[key]
 
@@ -53,6 +56,17 @@ class Fields:
         for candidate in difflib.get_close_matches(key, unread, n=3):
             if is_misspelling(candidate, key):
                 return candidate
+        return None
+
+    def _resembling(self, key):
+        """A key of this mapping, not read so far, that may stand for ``key`` under another name:
+        one shares a word of four letters or more with it (inlet_temperature, temperature for
+        supply_temperature) or is its start (supply_temp). Only a hint beside a missing key."""
+        words = {w for w in key.lower().split("_") if len(w) >= 4}
+        for k in self.value:
+            if isinstance(k, str) and k not in self.allowed and (
+                    words.intersection(k.lower().split("_")) or (len(k) >= 4 and key.startswith(k))):
+                return k
         return None
 
     def quantity(self, key, kind: Kind, required=True, default=None, minimum=None, maximum=None, above=None):

@@ -443,16 +443,21 @@ def read_timestamp(f: Fields, key) -> pd.Timestamp:
 
 
 def shown_duration(duration: pd.Timedelta) -> str:
-    """A duration as a person writes it: '3 weeks', '10 days', else pandas' text.
+    """A duration as a person writes it: in the largest of weeks, days, hours, minutes and
+    seconds that divides it, else in the largest it is at least one of.
 
     >>> shown_duration(pd.Timedelta(days=21)), shown_duration(pd.Timedelta(days=1))
     ('3 weeks', '1 day')
+    >>> shown_duration(pd.Timedelta(hours=36)), shown_duration(pd.Timedelta(minutes=1))
+    ('36 h', '1 min')
     """
-    for unit, length in (("week", pd.Timedelta(weeks=1)), ("day", pd.Timedelta(days=1))):
-        if duration % length == pd.Timedelta(0):
-            count = duration // length
-            return f"{count} {unit}{'s' * (count != 1)}"
-    return str(duration)
+    duration = pd.Timedelta(duration)
+    units = (("week", pd.Timedelta(weeks=1)), ("day", pd.Timedelta(days=1)), ("h", pd.Timedelta(hours=1)),
+             ("min", pd.Timedelta(minutes=1)), ("s", pd.Timedelta(seconds=1)))
+    whole = next(((unit, length) for unit, length in units if duration % length == pd.Timedelta(0)), None)
+    unit, length = whole or next(((u, n) for u, n in units if duration >= n), units[-1])
+    count = duration / length
+    return f"{count:g} {unit}" + ("s" if unit in ("week", "day") and count != 1 else "")
 
 
 def whole_steps(f: Fields, key, duration: pd.Timedelta, step: pd.Timedelta, step_key=None) -> int:

@@ -272,10 +272,10 @@ def _parse(text: str, kind: Kind) -> float:
             raise QuantityError(f"expected {kind.name}, got {shorten(text)}, whose units are not of that kind: a "
                                 f"volume flow; give the density after it, e.g. '{text.strip()} at 870 kg/m^3'") from None
         raise QuantityError(f"expected {kind.name} such as {kind.example}, got {shorten(text)}, whose units are not "
-                            f"of that kind{_degree_hint(text)}{_gauge_hint(text, kind)}") from None
+                            f"of that kind{_hints(text, kind)}") from None
     except Exception:  # pint's expression parser fails in many ways (even AssertionError) on junk
         raise QuantityError(f"expected {kind.name} such as {kind.example}; cannot read the units of "
-                            f"{shorten(text)}{_degree_hint(text)}{_gauge_hint(text, kind)}") from None
+                            f"{shorten(text)}{_hints(text, kind)}") from None
     return number
 
 
@@ -375,6 +375,25 @@ def _spell_degrees(unit_text: str) -> str:
 _ABSOLUTE_PRESSURE = {"psia": "psi", "bara": "bar", "kPaa": "kPa", "MPaa": "MPa"}
 """The trade's spellings of absolute pressure units (pressures in a case are absolute)."""
 _GAUGE = re.compile(r"^(psig|barg|kPag|MPag|kPa\(?g\)?|bar\(?g\)?|psi\(?g\)?)$")
+
+
+TRADE_SPELLINGS = {"kW": ("Btu/h", "MMBtu/h", "kcal/h", "Gcal/h"), "kg/s": ("lb/h", "klb/h", "t/d"),
+                   "degC": ("degF", "K"), "kPa": ("psi", "psia"), "Pa": ("psi", "psia")}
+"""Units the trade writes for a kind besides those of PLAIN_FACTORS: the spellings a unit written
+in another case is matched against (:func:`_case_hint`)."""
+
+
+def _hints(text: str, kind: Kind) -> str:
+    return _degree_hint(text) + _gauge_hint(text, kind) + _case_hint(text, kind)
+
+
+def _case_hint(text: str, kind: Kind) -> str:
+    """For '2500 kw', '8.5 MMBTU/h' or '108 T/h': units are read case by case (T is the tesla, m
+    the metre, M mega): the spelling of the same letters in another case that is a unit of the kind."""
+    written = NUMBER_AT_START.match(text).group(2).strip()
+    known = [u for u, default in PLAIN_FACTORS if default == kind.unit] + list(TRADE_SPELLINGS.get(kind.unit, ()))
+    meant = next((u for u in known if u.lower() == written.lower() and u != written), None)
+    return "" if meant is None else f" (letter case matters in units: write {meant!r})"
 
 
 def _gauge_hint(text: str, kind: Kind) -> str:

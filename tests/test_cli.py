@@ -249,8 +249,12 @@ def test_not_converged_is_exit_3_naming_tears_and_residuals(unconverging_case, t
     before = snapshot(tmp_path)
     code, out, err = run_inprocess(capsys, "run", unconverging_case, "--out", target)
     assert code == 3, err
-    assert err.startswith("not converged")
+    assert err.startswith(f"not converged: {unconverging_case}: ")  # the file, as bad input names it
     assert "Traceback" not in err
+    # the history ends at the last residual, the largest of those listed by tear (it had stopped a step short)
+    history = err.split("Residual history (K): ")[1].split(". ")[0].split(", ")
+    last = max(float(v) for v in re.findall(r"\S+ -> \S+: ([-+0-9.e]+) K", err))
+    assert float(history[-1]) == pytest.approx(last, rel=1e-2)
     assert "tear stream" in err and "residual" in err
     # each tear stream named with its last residual: "E-110.cold -> E-111.cold: 15.6 K"
     assert re.search(r"\S+ -> \S+: [-+0-9.e]+ K", err), err

@@ -283,3 +283,29 @@ def test_a_bypassed_side_shows_its_outlet_inside_the_exchanger():
     plain = _bypassed_water_case(90.0)
     del plain["exchangers"]["E-1"]["bypass"]
     assert "cold_out_inside_c" not in simulate(case_from_mapping(plain, "<test>")).units
+
+
+@pytest.mark.parametrize("maximum, violated", [(30.0, False), (39.0, False), (25.0, True)])
+def test_a_maximum_flow_is_checked_on_the_flow_through_the_exchanger(maximum, violated):
+    """Of 40 kg/s of water a 30 % bypass takes 12 round E-1: 28 kg/s pass its tubes, the flow the
+    films and pressure drops see, and the one a maximum limits (a new user's trial: 40 kg/s had
+    been compared, a false limit)."""
+    data = _bypassed_water_case(90.0)
+    data["exchangers"]["E-1"]["maximum_flow"] = {"cold": maximum}
+    limits = simulate(case_from_mapping(data, "<test>")).findings
+    limits = limits[limits["kind"] == "maximum_flow"]
+    assert len(limits) == violated
+    if violated:
+        assert "carries 28.00 kg/s through the exchanger (past its bypass)" in limits["message"].iloc[0]
+
+
+def test_an_exchanger_with_a_side_not_flowing_shows_no_p_r_f_or_lmtd():
+    """All the oil round a full bypass: no duty, and no P, R, NTU, F, LMTD, approach or outlet
+    inside to speak of: blank (a new user's trial found P 1.00, F 1.00, LMTD 0.00 and R inf on
+    such sides, numbers that look like answers)."""
+    data = _bypassed_water_case(90.0)
+    data["exchangers"]["E-1"]["bypass"] = {"hot": 1.0}
+    row = simulate(case_from_mapping(data, "<test>")).units.loc["E-1"]
+    assert row["duty_kw"] == 0.0 and row["cold_out_c"] == 30.0 and row["hot_out_c"] == 120.0
+    for column in ("p", "r", "ntu", "f", "lmtd_k", "approach_k", "hot_out_inside_c"):  # an empty column is left out
+        assert np.isnan(row.get(column, np.nan)), column

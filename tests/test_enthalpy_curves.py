@@ -132,3 +132,17 @@ def test_blend_with_a_curve():
 def test_bad_tables_are_refused_naming_the_row(table, message):
     with pytest.raises(ValueError, match=message):
         EnthalpyCurve(**table)
+
+
+@pytest.mark.parametrize("coefficients", [[1.75, 0.0037], [2.1, 0.0], [2.0, -0.002], [-0.5, 0.01],
+                                          [1.6, 0.004, 2e-6]])
+def test_a_polynomial_fluid_gives_back_the_temperature_of_its_enthalpy(coefficients):
+    """T(h(T)) = T to 1e-9 K over -50 to 400 °C on the rising branch (cp > 0): by the quadratic's
+    root for a linear cp (written to subtract no near-equal numbers, checked here with cp falling
+    to zero at 50 °C and with cp falling with T), by Newton's iteration for a higher degree; NaN
+    for an enthalpy no temperature of the physical range has."""
+    fluid = PolynomialCp(coefficients)
+    t = np.linspace(-50.0, 400.0, 2001)
+    t = t[fluid.cp(t) > 1e-3]
+    assert np.max(np.abs(fluid.temperature(fluid.enthalpy(t)) - t)) < 1e-9
+    assert np.isnan(fluid.temperature(np.array([-1e9, np.nan]))).all()

@@ -271,3 +271,29 @@ def test_demo_script_regenerates_the_shipped_files(tmp_path):
     numbers = [pd.to_numeric(t.stack(), errors="coerce") for t in (made, shipped)]
     assert (numbers[0].isna() == numbers[1].isna()).all()
     assert np.allclose(numbers[0].dropna(), numbers[1].dropna(), rtol=0, atol=0.0101)
+
+
+def test_laws_fitted_at_the_mean_time_of_each_window():
+    """Three-day windows of hourly samples of a linear fouling labelled by their start: a
+    window's mean fouling is the law at the mean time of its samples (linear: exact), so fitted
+    at those times (Windows.centre) the law comes back exactly, where fitted at the windows'
+    starts r_f0 came out high by more than the rate times 35.5 h (a new user's synthetic-truth
+    trial: 22 standard errors). The last window, which the data end inside, stands for its samples' mean."""
+    from hxtrain.solver.monitoring.windows import _centres
+
+    hours = pd.date_range(START, periods=20 * 24 + 30, freq="h")  # 20 days and a part window
+    starts = pd.date_range(START, hours[-1], freq="3D")
+    centres = _centres(hours, starts, pd.Timedelta(days=3))
+    assert (centres.iloc[0] - starts[0]) == pd.Timedelta(hours=35.5)
+    assert centres.iloc[-1] == hours[hours >= starts[-1]].mean()
+    days = np.asarray((hours - START) / pd.Timedelta(days=1), float)
+    law = linear_fouling(days, LINEAR["rate"], LINEAR["r_f0"])
+    means = pd.Series(law, index=hours).resample("3D", closed="left", label="left").mean()
+    table = pd.DataFrame({"unit": "A", "fouling": means.to_numpy(), "fouling_sigma": 1e-6, "identifiable": True,
+                          "status": "identified"}, index=means.index.rename("time"))
+    row = fit_fouling(table, models=("linear",), centres=centres).fits.iloc[0]
+    assert row["parameters"]["r_f0"] == pytest.approx(LINEAR["r_f0"], rel=1e-9)
+    assert row["parameters"]["rate"] == pytest.approx(LINEAR["rate"], rel=1e-9)
+    assert row["now"] == centres.iloc[-1]
+    at_starts = fit_fouling(table, models=("linear",)).fits.iloc[0]["parameters"]["r_f0"]
+    assert at_starts - LINEAR["r_f0"] > LINEAR["rate"] * 35.5 / 24  # the bias this replaced (and the last window's)

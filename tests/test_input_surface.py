@@ -563,3 +563,50 @@ def test_a_real_recycle_is_not_taken_for_a_loop_without_supply():
 
     case = load_case(demo_case_path("feed_effluent"))
     assert case.mixers and case.splitters
+
+
+@pytest.mark.parametrize("written, hinted", [("supply_temp", True), ("temperature", True), ("inlet_temperature", True),
+                                             ("tin", False)])
+def test_a_missing_key_names_the_key_written_in_its_place(written, hinted):
+    """A stream written with 'supply_temp', 'temperature' or 'inlet_temperature' for
+    'supply_temperature' is refused for the missing key, and the message names the key the user
+    wrote (a new user's trial: only the missing key was named, the unknown one never, as its
+    check comes after); a key with nothing in common gets no hint."""
+    stream = {"fluid": "oil", "flow": 3.0, written: 250.0, "path": "E-1.hot -> o"}
+    data = {"fluids": {"oil": {"cp": 2.0}},
+            "streams": {"hot": stream, "cold": {"fluid": "oil", "flow": 3.0, "supply_temperature": 50.0,
+                                                "path": "E-1.cold -> c"}},
+            "exchangers": {"E-1": {"arrangement": "counterflow", "ua": 4.0}}, "products": {"o": {}, "c": {}}}
+    with pytest.raises(CaseError) as raised:
+        case_from_mapping(data, "x.yaml")
+    message = str(raised.value)
+    assert "streams.hot: missing key 'supply_temperature'" in message
+    assert (f"if '{written}' is meant for it, write 'supply_temperature'" in message) == hinted
+
+
+def test_a_pressure_drop_on_a_fixed_u_exchanger_says_what_it_needs():
+    """A reference pressure drop scales with flow from the films' reference flows: an exchanger
+    rated by a fixed U has none, and the message says so and what would do (a new user's trial
+    read "needs 'reference_flow'" with 'reference_flow' in the file, refused there as unknown)."""
+    data = {"fluids": {"oil": {"cp": 2.0}},
+            "streams": {"hot": {"fluid": "oil", "flow": 3.0, "supply_temperature": 250.0, "path": "E-1.hot -> o"},
+                        "cold": {"fluid": "oil", "flow": 3.0, "supply_temperature": 50.0, "path": "E-1.cold -> c"}},
+            "exchangers": {"E-1": {"arrangement": "counterflow", "u": 300.0, "area_per_shell": 20.0,
+                                   "pressure_drop": {"tube": {"reference": "0.5 bar"}}}},
+            "products": {"o": {}, "c": {}}}
+    with pytest.raises(CaseError) as raised:
+        case_from_mapping(data, "x.yaml")
+    message = str(raised.value)
+    assert "exchangers.E-1.pressure_drop" in message and "a fixed 'ua' or 'u' does not have" in message
+    assert "'clean_u' or 'film'" in message
+
+
+@pytest.mark.parametrize("text, kind, meant", [("2500 kw", q.DUTY, "kW"), ("5 mw", q.DUTY, "MW"),
+                                               ("8.53 MMBTU/h", q.DUTY, "MMBtu/h"), ("108 T/h", q.MASS_FLOW, "t/h")])
+def test_a_unit_in_the_wrong_letter_case_is_refused_with_its_spelling(text, kind, meant):
+    """Units are read as written (T is the tesla, M mega, m milli or the metre): a unit of the
+    right letters in the wrong case is refused, and the message gives the spelling meant (a new
+    user's trial: '2500 kw' and '108 T/h' had been refused without it)."""
+    with pytest.raises(q.QuantityError) as raised:
+        q.to_default_unit(text, kind)
+    assert f"letter case matters in units: write {meant!r}" in str(raised.value)

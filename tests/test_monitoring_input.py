@@ -474,3 +474,23 @@ def test_a_missing_tag_column_suggests_only_columns_no_other_tag_reads(tmp_path)
         text = str(caught.value)
         assert "has no column 'TI-1011' for tag TI-1011" in text and "'TI-1001'?" not in text
         assert (f"(did you mean '{suggested}'?)" in text) if suggested else "did you mean" not in text
+
+
+def test_a_transmitter_out_of_service_leaves_its_tag_unmeasured_not_the_file_refused(tmp_path):
+    """FI-1001 reads "comm fail" in 8 of 12 rows, every other cell good: its text cells are left
+    out (the tag unmeasured there) and the file is read (a new user's trial: one dead transmitter
+    had refused the whole file as "probably a wrong unit"). Eight of twelve readings impossible
+    (a negative flow) still refuse it, naming the column: that is a unit slip or the wrong tag."""
+    first, later = good_data(), good_data()
+    later["time"] = pd.date_range("2026-01-01 06:00", periods=6, freq="h").strftime("%Y-%m-%d %H:%M")
+    data = pd.concat([first, later], ignore_index=True)
+    data["FI-1001"] = data["FI-1001"].astype(object)
+    data.loc[2:9, "FI-1001"] = "comm fail"
+    history = read_history(load_monitoring(write_plant(tmp_path, GOOD_TAGS, data)))
+    left = history.skipped[history.skipped["reason"] == "not a number"]
+    assert len(left) == 8 and set(left["column"]) == {"FI-1001"}
+    assert history.samples["FI-1001"].notna().sum() == 4
+    data.loc[2:9, "FI-1001"] = -50.0
+    with pytest.raises(CaseError) as refused:
+        read_history(load_monitoring(write_plant(tmp_path, GOOD_TAGS, data)))
+    assert "8 of 12 data rows (67%) are bad" in str(refused.value) and "in column 'FI-1001'" in str(refused.value)

@@ -49,6 +49,10 @@ def test_monitor_writes_its_tables(monitor_run):
     for name in ("today", "state", "windows", "instruments", "cost", "fouling_laws", "cleanings", "projection",
                  "limit_dates", "skipped_rows"):
         assert any(s.startswith(name) for s in sheets), name
+    for name, sheet in sheets.items():  # no column twice (the skipped rows had had 'row' twice: '.1' from pandas)
+        assert not any(str(c).endswith(".1") for c in sheet.columns), name
+    skipped = next(sheet for name, sheet in sheets.items() if name.startswith("skipped_rows"))
+    assert "data_file_row" in skipped.columns
 
 
 def test_monitor_refuses_to_write_over_its_inputs(tmp_path, capsys):
@@ -117,4 +121,4 @@ def test_a_gap_in_the_plant_data_is_said_with_its_times():
     assert " ".join(_gap_lines(windows, pd.Timedelta("6h"), spacing=pd.Timedelta("1h"))) == text  # data every hour
     # a window shorter than the data's spacing: said as such, not as a list of gaps
     short = " ".join(_gap_lines(windows, pd.Timedelta("30min"), spacing=pd.Timedelta("1h")))
-    assert "the window (0.5 h) is shorter than the data's usual spacing (1 h)" in short and "2026-03-01" not in short
+    assert "the window (30 min) is shorter than the data's usual spacing (1 h)" in short and "2026-03-01" not in short

@@ -4,6 +4,7 @@ and the trade's units on input."""
 import json
 import re
 
+import numpy as np
 import openpyxl
 import pytest
 import yaml
@@ -265,3 +266,52 @@ def test_colours_keep_their_meaning():
 
     assert not {figures.HEATED, figures.COOLED, figures.LIMIT}.intersection(figures.PALETTE)
     assert network_diagram.HEATS not in (network_diagram.WARNING, network_diagram.LIMIT)
+
+
+def test_a_bypassed_side_ends_its_tq_line_at_its_outlet_inside_the_exchanger(monkeypatch):
+    """An exchanger's T–Q picture is of the exchanger proper: the 30 %-bypassed water's line ends
+    at 30 + Q / (0.7 · 40 · 4.18), its outlet inside (what UA, LMTD and F refer to), not at the
+    mixed outlet after the bypass rejoins (a new user read the mixed one off the picture)."""
+    import matplotlib.axes
+
+    from hxtrain.solver.reporting import figures
+    from test_defects_physics import _bypassed_water_case
+
+    result = simulate(case_from_mapping(_bypassed_water_case(90.0), "<test>"))
+    drawn = {}
+    original = matplotlib.axes.Axes.plot
+
+    def recording(self, x, y, *args, **kwargs):
+        drawn.setdefault(kwargs.get("label"), []).append(np.asarray(y, float))
+        return original(self, x, y, *args, **kwargs)
+
+    monkeypatch.setattr(matplotlib.axes.Axes, "plot", recording)
+    figures.tq_svgs(result, Display())
+    row = result.units.loc["E-1"]
+    inside = 30.0 + row["duty_kw"] / (0.7 * 40.0 * 4.18)
+    assert drawn["cold side"][0][-1] == pytest.approx(inside, rel=1e-12)
+    assert row["cold_out_c"] < inside - 1.0
+    assert drawn["hot side"][0][0] == pytest.approx(row["hot_out_c"], rel=1e-12)  # no bypass on the hot side
+
+
+def test_the_energy_balance_line_says_what_added_holds_where_a_unit_changes_the_fluid():
+    """Where a reactor changes the fluid, 'added' in the balance line holds more than the duties
+    (a new user could not tie it to them: the difference of the two fluids' enthalpy references
+    at the inlet temperature): the line says so, naming the unit; with no fluid change it does not."""
+    with_reactor = text_report(simulate(demo_case_path("desalter_and_reactor")))
+    assert "'added' is the heat from outside plus, at R-301, the difference of the fluids' enthalpy" in with_reactor
+    assert "'added' is" not in text_report(simulate(demo_case_path("crude_preheat")))
+
+
+def test_the_limits_box_is_green_only_when_there_is_nothing_to_see():
+    """The HTML report's box: red with a limit violated, amber with warnings only (a new user saw
+    warnings listed in a green 'No limit violated' box), green with neither."""
+    from hxtrain.solver.reporting.html_report import limits_section
+
+    findings = simulate(demo_case_path("crude_preheat")).findings
+    assert (findings["severity"] == "limit").any() and (findings["severity"] == "warning").any()
+    box = {name: limits_section(part, Display()) for name, part in (
+        ("limit", findings), ("warnings", findings[findings["severity"] == "warning"]), ("nothing", findings.iloc[:0]))}
+    assert 'class="limits"' in box["limit"] and "Limits violated: " in box["limit"]
+    assert 'class="limits warned"' in box["warnings"] and "Warnings: " in box["warnings"]
+    assert 'class="limits none"' in box["nothing"]

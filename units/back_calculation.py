@@ -130,6 +130,9 @@ def back_calculate(spec, t_hot_in, t_hot_out, t_cold_in, t_cold_out, m_hot, m_co
     reason[~np.isfinite(fouling)] = "no clean film model (U is fixed)" if not spec.fouling else "no value"
     reason[sane & ~np.isfinite(ntu1)] = "P is beyond what this arrangement can reach at this R"
     reason[~sane] = "the temperatures do not describe heat flowing from the hot to the cold side"
+    known = np.all(np.isfinite([t_hi, t_ho, t_ci, t_co, m_h, m_c]), axis=0)
+    reason[~known] = ("not determined: a temperature or flow at the exchanger is neither measured nor found by the "
+                      "balances")
     return ExchangerCondition(duty, duty_hot - duty_cold, np.where(sane, drop_hot / span, np.nan),
                               np.where(sane, c_hot / c_cold, np.nan), ua, u_service, u_clean, fouling, films, reason)
 

@@ -344,9 +344,14 @@ class Exchanger(UnitBase):
             "t_cold_out": x.t_cold_out, "ua": service.ua, "ntu": x.ntu, "p": x.p, "r": x.r,
             "effectiveness": x.effectiveness, "f": x.f, "lmtd": x.lmtd, "approach": x.approach,
         }
+        still = dict(zip(("hot", "cold"), (m <= 0.0 for m in through_exchanger(self.spec, *inlets.m.T))))
+        idle = still["hot"] | still["cold"]
+        if np.any(idle):  # a side with nothing flowing through: no P, R, NTU, F, LMTD or approach (blank, not 1 or 0)
+            quantities.update({k: np.where(idle, np.nan, quantities[k])
+                               for k in ("ntu", "p", "r", "effectiveness", "f", "lmtd", "approach")})
         for side, t_inside in _outlets_inside(x).items():
             if np.any(_bypass(self.spec, side)):  # what the side reaches inside, ahead of its bypass
-                quantities[f"t_{side}_out_inside"] = t_inside
+                quantities[f"t_{side}_out_inside"] = np.where(still[side], np.nan, t_inside)
         coefficients = service.coefficients
         quantities.update(coefficient_quantities(self.spec, coefficients, x.duty.shape))
         for side, drop in service.pressure_drop.items():
@@ -356,6 +361,8 @@ class Exchanger(UnitBase):
         if hasattr(self.spec.thermal, "scaling_findings") and self.spec.ua is None:  # U from films known at one flow
             m_x = through_exchanger(self.spec, inlets.m[:, 0], inlets.m[:, 1])
             findings += self.spec.thermal.scaling_findings(self.key, *shell_flows(self.spec, *m_x))
+            shell, tube = inlets.fluids if self.spec.shell_side == "hot" else inlets.fluids[::-1]
+            findings += self.spec.thermal.reference_findings(self.key, shell, tube, x.duty.shape)
         totals = exchanger_totals(self.total, x.duty)
         metrics = {"duty": x.duty, "hot_in": t_hot, "hot_out": x.t_hot_out, "cold_in": t_cold, "cold_out": x.t_cold_out}
         return UnitReport(quantities, findings, labels=labels, totals=totals, metrics=metrics)
@@ -370,12 +377,17 @@ class Exchanger(UnitBase):
         findings = design_temperature_findings(key, {
             f"the {side} side {_inside_words(_bypass(self.spec, side))}":
                 (design.get(side), inlets_t[side], inside[side]) for side in inside})
-        for j, side in enumerate(("hot", "cold")):
+        # what passes through the shells and tubes counts, not what goes round them
+        through = dict(zip(("hot", "cold"), through_exchanger(self.spec, inlets.m[:, 0], inlets.m[:, 1])))
+        for side, m in through.items():
             limit = self.limits.get("maximum_flow", {}).get(side)
             if limit is not None:
-                findings.append(check("maximum_flow", "limit", inlets.m[:, j] > limit, f"{key}.maximum_flow.{side}",
-                                      f"the {side} side carries {{m:.2f}} kg/s, above its maximum of {{lim:.2f}} kg/s",
-                                      excess=inlets.m[:, j] - limit, m=inlets.m[:, j], lim=limit))
+                where = _bypass(self.spec, side)
+                words = (f" through the exchanger ({'past' if np.all(where) else 'less any'} its bypass)"
+                         if np.any(where) else "")
+                findings.append(check("maximum_flow", "limit", m > limit, f"{key}.maximum_flow.{side}",
+                                      f"the {side} side carries {{m:.2f}} kg/s{words}, above its maximum of "
+                                      "{lim:.2f} kg/s", excess=m - limit, m=m, lim=limit))
         for side, drop in service.pressure_drop.items():
             limit = self.limits.get("allowable_pressure_drop", {}).get(side)
             if limit is not None:

@@ -41,6 +41,8 @@ __all__ = [
     "reynolds",
     "prandtl",
     "scaled_film_coefficient",
+    "property_correction",
+    "log_property_correction",
 ]
 
 LAMINAR_LIMIT = 2300.0
@@ -207,6 +209,28 @@ def scaled_film_coefficient(h_ref, mass_flow, reference_flow, exponent, property
     return h_ref * np.power(np.maximum(m, 0.0) / m_ref, n) * phi
 
 
+def log_property_correction(exponent, log_viscosity_ratio, cp_ratio=1.0, conductivity_ratio=1.0):
+    r"""ln φ of :func:`property_correction` from ln(μ/μ_ref) (which an Andrade fluid gives
+    without an exp and a log) and the ratios of cp and conductivity to their reference values:
+    the solver's form, φ = exp(ln φ), since on a batch numpy's exp and log run several times
+    faster than its power and cube root (14 and 17-24 ns an element against ~5 on a 2-core x86
+    machine):
+
+    .. math:: \ln\phi = (1/3 - n)\ln(\mu/\mu_{ref}) + \tfrac13\ln(c_p/c_{p,ref})
+              + \tfrac23\ln(k/k_{ref})
+
+    >>> round(float(log_property_correction(0.8, np.log(2.0))), 6)
+    -0.323469
+    """
+    n, log_mu, cp, k = as_floats(exponent, log_viscosity_ratio, cp_ratio, conductivity_ratio)
+    log_phi = (1.0 / 3.0 - n) * log_mu
+    if cp.ndim or cp != 1.0:  # a constant cp or conductivity leaves its term 0: no log over the batch
+        log_phi = log_phi + np.log(cp) / 3.0
+    if k.ndim or k != 1.0:
+        log_phi = log_phi + np.log(k) * (2.0 / 3.0)
+    return log_phi
+
+
 def property_correction(exponent, viscosity, reference_viscosity, cp=1.0, reference_cp=1.0,
                         conductivity=1.0, reference_conductivity=1.0):
     r"""Property factor for :func:`scaled_film_coefficient`, from Nu ∝ Re^n Pr^{1/3}:
@@ -216,6 +240,6 @@ def property_correction(exponent, viscosity, reference_viscosity, cp=1.0, refere
     >>> round(float(property_correction(0.8, 2e-3, 1e-3)), 6)
     0.723635
     """
-    n, mu, mu_ref, cp, cp_ref, k, k_ref = as_floats(exponent, viscosity, reference_viscosity, cp, reference_cp,
-                                                    conductivity, reference_conductivity)
-    return (mu / mu_ref) ** (1.0 / 3.0 - n) * np.cbrt(cp / cp_ref) * (k / k_ref) ** (2.0 / 3.0)
+    mu, mu_ref, cp, cp_ref, k, k_ref = as_floats(viscosity, reference_viscosity, cp, reference_cp, conductivity,
+                                                 reference_conductivity)
+    return np.exp(log_property_correction(exponent, np.log(mu / mu_ref), cp / cp_ref, k / k_ref))

@@ -77,6 +77,16 @@ class FluidModel:
     def viscosity(self, t):
         return None if self.viscosity_model is None else self.viscosity_model(t)
 
+    def log_viscosity(self, t):
+        """ln μ (μ in Pa·s), or None without viscosity data: the form a film's property
+        correction takes (:func:`.films.log_property_correction`). A viscosity model is a
+        function of °C; one that knows its logarithm directly (:meth:`AndradeViscosity.log`)
+        spares an exp and a log over the batch."""
+        model = self.viscosity_model
+        if model is None:
+            return None
+        return model.log(t) if hasattr(model, "log") else np.log(model(t))
+
     def conductivity(self, t):
         return None if self.conductivity_value is None else np.broadcast_to(self.conductivity_value, np.shape(t)) * 1.0
 
@@ -194,6 +204,27 @@ class PolynomialCp(FluidModel):
     def enthalpy(self, t):
         return _horner(self._h_high_first, _t(t))
 
+    def temperature(self, h, guess=None):
+        r"""Temperature (°C) at enthalpy ``h`` (kJ/kg). A cp linear in T (the petroleum-fraction
+        correlations' form) makes h quadratic, :math:`h = a_0T + a_1T^2/2`, and T its root on the
+        rising branch (cp = a_0 + a_1T = \sqrt{a_0^2 + 2a_1h} > 0 there), taken in the form that
+        subtracts no near-equal numbers; NaN where no T within the physical range has ``h``.
+        Higher degrees: Newton's iteration (:meth:`FluidModel.temperature`).
+
+        >>> oil = PolynomialCp([1.8, 0.004])
+        >>> round(float(oil.temperature(oil.enthalpy(250.0))), 9), float(PolynomialCp([-0.5, 0.01]).temperature(37.5))
+        (250.0, 150.0)
+        """
+        if len(self.coefficients) > 2:
+            return super().temperature(h, guess)
+        a0, a1 = self.coefficients[0], self.coefficients[1] if len(self.coefficients) == 2 else 0.0
+        h = _t(h)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            root = np.sqrt(a0 * a0 + 2.0 * a1 * h)
+            t = 2.0 * h / (a0 + root) if a0 > 0.0 else (root - a0) / a1
+        low, high = PHYSICAL_RANGE
+        return np.where((t >= low) & (t <= high) & (root > 0.0), t, np.nan)
+
 
 def _horner(high_first, t):
     """The polynomial with coefficients ``high_first`` (highest power first) at ``t``: what
@@ -287,7 +318,11 @@ class AndradeViscosity:
         self.a = np.log(mu1) - self.b * x1
 
     def __call__(self, t):
-        return np.exp(self.a + self.b / (_t(t) + 273.15))
+        return np.exp(self.log(t))
+
+    def log(self, t):
+        """ln μ (μ in Pa·s) at ``t`` (°C)."""
+        return self.a + self.b / (_t(t) + 273.15)
 
 
 class Blend(FluidModel):
@@ -318,16 +353,18 @@ class Blend(FluidModel):
     def enthalpy(self, t):
         return sum(w * f.enthalpy(t) for f, w in zip(self.fluids, self.fractions))
 
-    def _weighted(self, name, t, log=False):
+    def _weighted(self, name, t):
         values = [getattr(f, name)(t) for f in self.fluids]
         if any(v is None for v in values):
             return None
-        if log:
-            return np.exp(sum(w * np.log(v) for v, w in zip(values, self.fractions)))
         return sum(w * v for v, w in zip(values, self.fractions))
 
     def viscosity(self, t):
-        return self._weighted("viscosity", t, log=True)
+        log_mu = self.log_viscosity(t)
+        return None if log_mu is None else np.exp(log_mu)
+
+    def log_viscosity(self, t):
+        return self._weighted("log_viscosity", t)
 
     def conductivity(self, t):
         return self._weighted("conductivity", t)

@@ -42,7 +42,7 @@ def overall_coefficient(h_shell, h_tube, fouling_shell=0.0, fouling_tube=0.0, wa
     r"""Overall coefficient U referred to the outside area (W/m²·K) from the resistances.
 
     ``diameter_ratio`` is D_o/D_i (tube-side resistances are per inside area, so they scale by
-    it). A zero film coefficient (a side without flow) gives U = 0.
+    it). A zero film coefficient (a side without flow) gives U = 0; one that is not a number, NaN.
 
     >>> round(float(overall_coefficient(1000.0, 2000.0, 0.0002, 0.0001, 5e-5, 1.25)), 6)
     500.0
@@ -50,7 +50,7 @@ def overall_coefficient(h_shell, h_tube, fouling_shell=0.0, fouling_tube=0.0, wa
     hs, ht, rfs, rft, rw, ratio = as_floats(h_shell, h_tube, fouling_shell, fouling_tube, wall, diameter_ratio)
     with np.errstate(divide="ignore"):
         total = 1.0 / hs + rfs + rw + rft * ratio + ratio / ht
-    return select((hs > 0.0) & (ht > 0.0), 1.0 / total, 0.0)
+    return select((hs <= 0.0) | (ht <= 0.0), 0.0, 1.0 / total)  # a film not known (NaN) leaves U not known
 
 
 def films_from_clean_coefficient(clean_u, shell_fraction, wall=0.0, diameter_ratio=1.0):

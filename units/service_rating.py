@@ -149,14 +149,18 @@ def shell_flows(spec: ExchangerSpec, m_hot_x, m_cold_x):
     return _side(spec, m_hot_x, m_cold_x, "shell") * per_shell, _side(spec, m_hot_x, m_cold_x, "tube") * per_shell
 
 
-def coefficients_at(spec: ExchangerSpec, m_hot_x, m_cold_x, t_mean_hot, t_mean_cold, fluid_hot, fluid_cold):
-    """U and its parts (:class:`.u_models.Coefficients`) from the exchanger's U model at the flows
-    through the exchanger proper (kg/s, bypasses taken off; see :func:`shell_flows`) and each
-    side's mean temperature (°C), the hot and cold values given to the shell and tube sides."""
-    return spec.thermal.evaluate(
-        *shell_flows(spec, m_hot_x, m_cold_x),
-        _side(spec, t_mean_hot, t_mean_cold, "shell"), _side(spec, t_mean_hot, t_mean_cold, "tube"),
-        _side(spec, fluid_hot, fluid_cold, "shell"), _side(spec, fluid_hot, fluid_cold, "tube"))
+def coefficients_at(spec: ExchangerSpec, m_hot_x, m_cold_x, fluid_hot, fluid_cold):
+    """U and its parts (:class:`.u_models.Coefficients`) from the exchanger's U model as a
+    function of each side's mean temperature (°C; hot, cold), at the flows through the exchanger
+    proper (kg/s, bypasses taken off; see :func:`shell_flows`): what the flows alone fix is
+    worked out once for all of an exchanger's passes."""
+    at_flows = spec.thermal.at_flows(*shell_flows(spec, m_hot_x, m_cold_x))
+    fluids = _side(spec, fluid_hot, fluid_cold, "shell"), _side(spec, fluid_hot, fluid_cold, "tube")
+
+    def at_temperatures(t_mean_hot, t_mean_cold):
+        return at_flows(_side(spec, t_mean_hot, t_mean_cold, "shell"), _side(spec, t_mean_hot, t_mean_cold, "tube"),
+                        *fluids)
+    return at_temperatures
 
 
 def coefficient_quantities(spec: ExchangerSpec, coefficients, shape) -> dict:
@@ -202,6 +206,7 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
     else:
         t_hot_x, t_cold_x = t_hot_in.copy(), t_cold_in.copy()
     coefficients = None
+    u_at = None if spec.ua is not None else coefficients_at(spec, m_hot_x, m_cold_x, fluid_hot, fluid_cold)
     h_in = (fluid_hot.enthalpy(t_hot_in), fluid_cold.enthalpy(t_cold_in))  # every pass's mean cp starts here
     frozen = np.zeros(t_hot_in.shape, bool)  # stacked exchangers that stopped at an earlier pass
     stopped = np.zeros(t_hot_in.shape, int)  # and the pass each stopped at
@@ -211,7 +216,7 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
         if spec.ua is not None:
             ua = np.broadcast_to(np.asarray(spec.ua, dtype=float), t_hot_in.shape)
         else:
-            coefficients = coefficients_at(spec, m_hot_x, m_cold_x, t_mean_hot, t_mean_cold, fluid_hot, fluid_cold)
+            coefficients = u_at(t_mean_hot, t_mean_cold)
             ua = coefficients.u_service * spec.total_area / 1000.0
         c_hot = m_hot * fluid_hot.mean_cp(t_hot_in, t_hot_x, h_in[0])
         c_cold = m_cold * fluid_cold.mean_cp(t_cold_in, t_cold_x, h_in[1])

@@ -9,7 +9,7 @@ tube outside area; resistances m²·K/W.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from functools import cached_property
+from functools import cached_property, partial
 
 import numpy as np
 
@@ -47,7 +47,16 @@ class Coefficients:
         return self.clean
 
 
-class FixedCoefficient:
+class _AtFlows:
+    """The U models' :meth:`at_flows`, for models with nothing to keep from the flows alone."""
+
+    def at_flows(self, m_shell, m_tube):
+        """U as a function of (t_shell, t_tube, fluid_shell, fluid_tube) at these flows through
+        one shell (kg/s): what stays fixed over an exchanger's passes is worked out once."""
+        return partial(self.evaluate, m_shell, m_tube)
+
+
+class FixedCoefficient(_AtFlows):
     """U given directly; it does not change with flow or temperature (the results say so)."""
 
     source = "fixed U"
@@ -76,17 +85,26 @@ class SideFilm:
     reference_temperature: float | None = None
     reference_reynolds: float | None = None
 
-    def at(self, mass_flow, temperature, fluid):
-        ratio = 1.0
-        mu = None if self.reference_temperature is None else fluid.viscosity(temperature)
-        if mu is not None:
-            t_ref = self.reference_temperature
-            k_ref = fluid.conductivity(t_ref)
-            k = fluid.conductivity(temperature) if fluid.conductivity_follows_temperature else k_ref
-            ratio = films.property_correction(
-                self.exponent, mu, fluid.viscosity(t_ref), fluid.cp(temperature), fluid.cp(t_ref),
-                1.0 if k is None else k, 1.0 if k_ref is None else k_ref)
-        return films.scaled_film_coefficient(self.h_ref, mass_flow, self.reference_flow, self.exponent, ratio), mu
+    def at_reference_properties(self, mass_flow):
+        """h at ``mass_flow`` with the reference properties: the flow part of the scaling, fixed
+        while an exchanger's passes move its temperatures (:meth:`ScaledFilms.at_flows`)."""
+        return films.scaled_film_coefficient(self.h_ref, mass_flow, self.reference_flow, self.exponent)
+
+    def at(self, mass_flow, temperature, fluid, flow_part=None):
+        """(h at ``mass_flow`` and ``temperature``, ln(μ_ref/μ) there or None without the
+        property correction). ``flow_part``: :meth:`at_reference_properties` of ``mass_flow``
+        where the caller has it."""
+        h = self.at_reference_properties(mass_flow) if flow_part is None else flow_part
+        log_mu = None if self.reference_temperature is None else fluid.log_viscosity(temperature)
+        if log_mu is None:
+            return h, None
+        t_ref = self.reference_temperature
+        k_ref = fluid.conductivity(t_ref)
+        k = fluid.conductivity(temperature) if fluid.conductivity_follows_temperature else k_ref
+        log_mu_ratio = fluid.log_viscosity(t_ref) - log_mu
+        log_ratio = films.log_property_correction(self.exponent, -log_mu_ratio, fluid.cp(temperature) / fluid.cp(t_ref),
+                                                  1.0 if k is None or k_ref is None else k / k_ref)
+        return h * np.exp(log_ratio), log_mu_ratio
 
 
 class ScaledFilms:
@@ -124,12 +142,48 @@ class ScaledFilms:
                                "extrapolated; give the exchanger's geometry to rate it there", r=ratio))
         return found
 
+    def reference_findings(self, key, fluid_shell, fluid_tube, shape):
+        """``input`` findings where a side's reference temperature lies outside its fluid's data
+        range (without ``extrapolate``): its properties there, which the property correction
+        divides by, are not known (at absolute zero an Andrade viscosity is infinite)."""
+        found = []
+        for part, film, fluid in (("shell", self.shell, fluid_shell), ("tube", self.tube, fluid_tube)):
+            t_ref = film.reference_temperature
+            outside = [m for m in fluid.members() if t_ref is not None and not m.extrapolate and m.valid_range
+                       and bool(m.outside_range(t_ref))]
+            for member in outside:
+                low, high = member.valid_range
+                found.append(check("property_range", "input", np.ones(shape, bool),
+                                   f"{key}.reference_temperature.{part}",
+                                   f"the {part} side's reference temperature, {t_ref:g} °C, is outside the data range "
+                                   f"{low:g} to {high:g} °C of fluid '{member.name}': its film cannot be scaled from "
+                                   "there"))
+        return found
+
     def evaluate(self, m_shell, m_tube, t_shell, t_tube, fluid_shell, fluid_tube):
-        h_shell, _ = self.shell.at(m_shell, t_shell, fluid_shell)
-        h_tube, mu_tube = self.tube.at(m_tube, t_tube, fluid_tube)
+        return self.at_flows(m_shell, m_tube)(t_shell, t_tube, fluid_shell, fluid_tube)
+
+    def at_flows(self, m_shell, m_tube):
+        """U as a function of (t_shell, t_tube, fluid_shell, fluid_tube) at these flows through
+        one shell (kg/s): each film's flow part (ṁ/ṁ_ref)^n is worked out here, once."""
+        flow_parts = (self.shell.at_reference_properties(m_shell), self.tube.at_reference_properties(m_tube),
+                      self._laminar_tube.at_reference_properties(m_tube) if self._laminar_tube else None)
+        return partial(self._at, m_shell, m_tube, flow_parts)
+
+    @cached_property
+    def _laminar_tube(self):
+        """The tube film scaled as laminar flow, from a laminar reference (None otherwise)."""
+        reference = self.tube.reference_reynolds
+        if reference is None or reference >= films.LAMINAR_LIMIT:
+            return None
+        return SideFilm(self.tube.h_ref, self.tube.reference_flow, 1.0 / 3.0, self.tube.reference_temperature)
+
+    def _at(self, m_shell, m_tube, flow_parts, t_shell, t_tube, fluid_shell, fluid_tube):
+        h_shell, _ = self.shell.at(m_shell, t_shell, fluid_shell, flow_parts[0])
+        h_tube, log_mu_ratio = self.tube.at(m_tube, t_tube, fluid_tube, flow_parts[1])
         notes, reynolds = {}, None
         if self.tube.reference_reynolds is not None:
-            mu_ratio = 1.0 if mu_tube is None else fluid_tube.viscosity(self.tube.reference_temperature) / mu_tube
+            mu_ratio = 1.0 if log_mu_ratio is None else np.exp(log_mu_ratio)
             reynolds = self.tube.reference_reynolds * np.asarray(m_tube, float) / self.tube.reference_flow * mu_ratio
             laminar = reynolds < films.LAMINAR_LIMIT
             bend = self.tube.exponent - 1.0 / 3.0
@@ -138,8 +192,7 @@ class ScaledFilms:
             if self.tube.reference_reynolds >= films.LAMINAR_LIMIT:
                 h_tube = np.where(laminar, h_tube * to_transition**bend, h_tube)
             else:
-                lam = SideFilm(self.tube.h_ref, self.tube.reference_flow, 1.0 / 3.0, self.tube.reference_temperature)
-                h_laminar, _ = lam.at(m_tube, t_tube, fluid_tube)
+                h_laminar, _ = self._laminar_tube.at(m_tube, t_tube, fluid_tube, flow_parts[2])
                 h_tube = np.where(laminar, h_laminar, h_laminar * (1.0 / to_transition) ** bend)
             notes["laminar_tube_side"] = laminar
             notes["transitional_tube_side"] = (reynolds >= films.LAMINAR_LIMIT) & (reynolds < films.TURBULENT_LIMIT)
@@ -220,7 +273,7 @@ class TubeBundle:
             sealing_strip_pairs=self.sealing_strip_pairs, tube_passes=self.tube_passes)
 
 
-class GeometryFilms:
+class GeometryFilms(_AtFlows):
     """Film coefficients from geometry and fluid properties: tube side by
     :func:`films.nusselt_tube_side` (Gnielinski, with Gnielinski's laminar–turbulent
     interpolation), shell side by Kern's method (:func:`films.nusselt_kern_shell`) or, with the

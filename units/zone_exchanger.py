@@ -173,9 +173,9 @@ def _rated_with_films(spec, inlets, m_hot_x, m_cold_x, rated, cache):
     last = cache.get("outlets")
     t_hot_x, t_cold_x = last if last is not None and last[0].shape == t_hot.shape else (t_hot, t_cold)
     u_before = moved_before = None
+    u_at = coefficients_at(spec, m_hot_x, m_cold_x, *fluids)
     for _ in range(MAX_PASSES):
-        coefficients = coefficients_at(spec, m_hot_x, m_cold_x, 0.5 * (t_hot + t_hot_x), 0.5 * (t_cold + t_cold_x),
-                                       *fluids)
+        coefficients = u_at(0.5 * (t_hot + t_hot_x), 0.5 * (t_cold + t_cold_x))
         if u_before is not None and np.array_equal(coefficients.u_service, u_before):
             break
         ua = coefficients.u_service * spec.total_area / 1000.0
@@ -199,6 +199,9 @@ class _FilmView:
 
     def viscosity(self, t):
         return self.fluid.viscosity(t)
+
+    def log_viscosity(self, t):
+        return self.fluid.log_viscosity(t)
 
     def conductivity(self, t):
         return self.fluid.conductivity(t)

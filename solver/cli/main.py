@@ -309,7 +309,7 @@ def _dispatch(args) -> int:
             _complain(args, f"error: {exc}")
             return EXIT_BAD_INPUT
         if isinstance(exc, ConvergenceError):
-            _complain(args, f"not converged: {exc}")
+            _complain(args, f"not converged: {_input_of(args)}{exc}")
             return EXIT_NOT_CONVERGED
         if getattr(exc, "exit_code", None):  # a failure outside hxtrain and the input: a cluster lost mid-run
             _complain(args, f"error: {exc}")
@@ -318,6 +318,13 @@ def _dispatch(args) -> int:
         _complain(args, f"internal error ({type(exc).__name__}: {exc}). This is a fault in hxtrain, not in the "
                         "case; please report it with the case file. Run with --debug for the traceback.")
         return EXIT_INTERNAL
+
+
+def _input_of(args) -> str:
+    """'FILE: ', the input a command's message is about ('' where it names none)."""
+    named = next((getattr(args, k) for k in ("case", "study", "monitoring", "schedule") if getattr(args, k, None)),
+                 None)
+    return f"{named}: " if named else ""
 
 
 def _complain(args, message):

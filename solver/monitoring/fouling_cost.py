@@ -43,8 +43,9 @@ def window_settings(states: WindowStates):
         for parameter, array in unit.settings_from_states(unit_states(states, name), unknowns).items():
             array = np.asarray(array, dtype=float)
             missing = ~np.isfinite(array)
-            if missing.all():
-                continue  # the data never determine it: the case's value stands
+            if missing.all() and kinds.get(parameter) != FOULING:
+                continue  # the data never determine it: the case's value stands (a fouling's never does: what it
+                # costs would be left out of the penalty unsaid)
             path = ".".join(net.case.keys[name]) + "." + parameter
             undetermined[missing & (undetermined == "")] = path
             values[path] = array
@@ -53,11 +54,12 @@ def window_settings(states: WindowStates):
     return values, fouling, undetermined
 
 
-def fouling_cost(case, states: WindowStates, index, window_days, economics=None) -> pd.DataFrame:
+def fouling_cost(case, states: WindowStates, index, window_days, economics=None, not_costed=None) -> pd.DataFrame:
     """Per window: fired duty as fouled and as clean (kW), the penalty, the largest difference
     between the simulated fouled temperatures and the reconciled ones (model against plant), and
     with ``economics`` fuel (GJ/day), cost (per day and cumulative) and CO₂ (t/day and
-    cumulative). ``window_days`` is each window's length in days."""
+    cumulative). ``window_days`` is each window's length in days; ``not_costed``: window time ->
+    why that window's fouling is not to be costed (an excursion, :mod:`.excursions`)."""
     values, fouling, undetermined = window_settings(states)
     windows = states.values.shape[0]
     clean = {k: (np.zeros(windows) if k in fouling else v) for k, v in values.items()}
@@ -69,7 +71,11 @@ def fouling_cost(case, states: WindowStates, index, window_days, economics=None)
                 & (undetermined == ""))
     reason = np.where(states.success, "", "no reconciled data in this window")
     reason = np.where((reason == "") & (undetermined != ""),
-                      [f"{u} is not determined by the plant data in this window" for u in undetermined], reason)
+                      [f"{u} is not determined by the plant data" for u in undetermined], reason)
+    if not_costed is not None and len(not_costed):
+        set_aside = not_costed.reindex(index).fillna("").to_numpy(object)
+        answered &= set_aside == ""
+        reason = np.where((reason == "") & (set_aside != ""), set_aside, reason)
     failed = ~fouled_rows["success"].to_numpy() | ~clean_rows["success"].to_numpy()
     messages = np.where(fouled_rows["success"], clean_rows["message"], fouled_rows["message"])
     reason = np.where((reason == "") & failed, messages, reason)

@@ -324,7 +324,9 @@ class FoulingFits:
         return self.fits[self.fits["chosen"]].set_index("exchanger")
 
 
-def _usable(table: pd.DataFrame) -> np.ndarray:
+def usable_rows(table: pd.DataFrame) -> np.ndarray:
+    """(rows,) True where a row's fouling enters fits: a fitted status, a value and a finite,
+    positive uncertainty."""
     return (table["status"].isin(FITTED_STATUSES) & np.isfinite(table["fouling"])
             & np.isfinite(table["fouling_sigma"]) & (table["fouling_sigma"] > 0)).to_numpy()
 
@@ -336,7 +338,7 @@ def find_cleanings(table: pd.DataFrame, logged=(), step_sigmas=STEP_SIGMAS, matc
     (logged / detected / both), step_time (first window after the step, NaT if none), drop and
     drop_sigma (m²K/W, NaN without a step), lasting (see :data:`PERSISTENCE`; True for a log
     without a step), note."""
-    usable = _usable(table)
+    usable = usable_rows(table)
     steps = []
     for name in table["unit"].unique():
         part = table[(table["unit"] == name).to_numpy() & usable].sort_index()
@@ -371,19 +373,22 @@ def find_cleanings(table: pd.DataFrame, logged=(), step_sigmas=STEP_SIGMAS, matc
 
 
 def fit_fouling(table: pd.DataFrame, logged=(), net=None, models=tuple(MODELS), hold=HELD,
-                step_sigmas=STEP_SIGMAS) -> FoulingFits:
+                step_sigmas=STEP_SIGMAS, centres=None) -> FoulingFits:
     """Fit every model of ``models`` to every exchanger's fouling history in ``table`` (rows as
     :func:`.plant_state.conditions`, indexed by window time) since its latest cleaning (logged in
     ``logged`` or detected), and choose one model per exchanger (module text). Threshold models
     need ``net`` (the built network of the rows' units) for their conditions; without it, or
     where the conditions cannot be found, they are reported as not fitted. ``hold``: model ->
-    parameters held (name -> value), default :data:`HELD`."""
+    parameters held (name -> value), default :data:`HELD`. ``centres``: window time -> the time
+    its values stand for (:attr:`.windows.Windows.centre`), at which the laws are fitted and
+    ``now`` is; the window times themselves where not given."""
     if len(table):  # units whose fouling is never found (a fixed UA) have no history
         table = table[table["fouling"].notna().groupby(table["unit"].to_numpy()).transform("any").to_numpy()]
     cleanings = find_cleanings(table, logged, step_sigmas)
     needs_conditions = net is not None and any(MODELS[m].conditions for m in models)
     side = fouling_side_conditions(net, table) if needs_conditions else None
-    usable, rows, day = _usable(table), [], pd.Timedelta(days=1)
+    usable, rows, day = usable_rows(table), [], pd.Timedelta(days=1)
+    at = table.index if centres is None else pd.DatetimeIndex(centres.reindex(table.index).to_numpy())
     for name in table["unit"].unique():
         mine = (table["unit"] == name).to_numpy()
         times = table.index[mine]
@@ -396,9 +401,9 @@ def fit_fouling(table: pd.DataFrame, logged=(), net=None, models=tuple(MODELS), 
         reasons = np.where(~fitted_status, part["status"].astype(str).to_numpy(),
                            np.where(np.isfinite(part["fouling"].to_numpy(float)), "no uncertainty", "no value"))
         left_out = ", ".join(f"{v} {k}" for k, v in pd.Series(reasons[~used]).value_counts().items())
-        all_days = ((part.index - since) / day).to_numpy(float)
+        all_days = np.asarray((at[segment] - since) / day, float)
         days, r_f, sigma = all_days[used], part["fouling"].to_numpy(float)[used], part["fouling_sigma"].to_numpy(float)[used]
-        base = {"exchanger": name, "since": since, "left_out": left_out, "now": times.max()}
+        base = {"exchanger": name, "since": since, "left_out": left_out, "now": at[mine].max()}
         results = []
         for model in models:
             if MODELS[model].conditions:

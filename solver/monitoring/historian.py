@@ -413,29 +413,43 @@ def screen_unit_slips(history: History, monitoring: MonitoringFile):
         if off:
             unit = _SHOWN_UNIT[tag.quantity]
             reading = tag.from_default_unit(median)
-            raise monitoring.error(tag.key, f"the median reading of {tag.name}, {reading:.6g} {tag.unit} = {median:.6g} "
-                                            f"{unit}, is {how} the base case's {tag.quantity} at {tag.point} "
+            same = f" = {median:.6g} {unit}" if tag.unit != unit else ""
+            raise monitoring.error(tag.key, f"the median reading of {tag.name}, {reading:.6g} {tag.unit}{same}, "
+                                            f"is {how} the base case's {tag.quantity} at {tag.point} "
                                             f"({simulated:.6g} {unit}): a unit slip (check its unit), or the wrong "
                                             f"point? (a screen of common practice: flows and duties within "
                                             f"{1 / SLIP_RATIO:g} to {SLIP_RATIO:g} times the case, temperatures "
                                             f"within {SLIP_KELVIN:g} K)")
+    for heater, limit in monitoring.limits["fired_duty"].items():  # a bare number is kW: 40 meant as MW is a slip
+        simulated = abs(float(base.reports[heater].metrics["duty"][0]))
+        ratio = limit / simulated if simulated > 0.0 else 1.0
+        if not 1.0 / SLIP_RATIO <= ratio <= SLIP_RATIO:
+            raise monitoring.error(("limits", "fired_duty", heater), (
+                f"the limit, {limit:.6g} kW, is {ratio:.3g} times the base case's fired duty of {heater} "
+                f"({simulated:.6g} kW): a unit slip? (a bare number is kW; write the unit, e.g. '40 MW'; a screen of "
+                f"common practice: within {1 / SLIP_RATIO:g} to {SLIP_RATIO:g} times the case)"))
 
 
 def _check_bad_share(history: History, monitoring: MonitoringFile):
-    """Refuse a file with more than MAX_BAD_SHARE of its rows bad, or a tag with no usable value."""
+    """Refuse a file with more than MAX_BAD_SHARE of its rows skipped whole (their time), or of
+    one tag's readings impossible (a unit slip), or a tag with no usable value. A tag whose
+    readings are mostly text or blank (a transmitter out of service, "comm fail") is not refused:
+    it is unmeasured where it has no reading, as the report's count of skipped cells says."""
     skipped, name = history.skipped, history.file
     bad = skipped[skipped["reason"] != MISSING]
-    bad_rows = bad["row"].nunique()
-    if bad_rows > MAX_BAD_SHARE * history.rows:
-        column = bad["column"].value_counts().index[0]
-        worst = bad[bad["column"] == column]
-        reason = worst["reason"].value_counts().index[0]
-        first = worst[worst["reason"] == reason].iloc[0]
-        where = f"in column {column!r}" if column else f"whole rows, for the time in column {monitoring.time_column!r}"
-        raise CaseError(
-            f"{bad_rows} of {history.rows} data rows ({bad_rows / history.rows:.0%}) are bad, more than the "
-            f"{MAX_BAD_SHARE:.0%} accepted: {_likely_cause(reason, monitoring)}. Most are {where}: {reason}, first at "
-            f"row {first['row']}{': ' + first['detail'] if first['detail'] else ''}", file=name)
+    whole = bad[bad["reason"].isin(ROW_REASONS)]
+    impossible = bad[bad["reason"] == IMPOSSIBLE]
+    by_column = impossible.groupby("column", sort=False)
+    for cells, where in ((whole, f"whole rows, for the time in column {monitoring.time_column!r}"),
+                         *((part, f"in column {column!r}") for column, part in by_column)):
+        bad_rows = cells["row"].nunique()
+        if bad_rows > MAX_BAD_SHARE * history.rows:
+            reason = cells["reason"].value_counts().index[0]
+            first = cells[cells["reason"] == reason].iloc[0]
+            raise CaseError(
+                f"{bad_rows} of {history.rows} data rows ({bad_rows / history.rows:.0%}) are bad, more than the "
+                f"{MAX_BAD_SHARE:.0%} accepted: {_likely_cause(reason, monitoring)}. They are {where}: {reason}, first "
+                f"at row {first['row']}{': ' + first['detail'] if first['detail'] else ''}", file=name)
     for tag in monitoring.tags.values():
         if history.samples.empty or history.samples[tag.name].notna().sum() == 0:
             cells = skipped[skipped["column"] == tag.column]

@@ -20,9 +20,10 @@ import numpy as np
 import pandas as pd
 
 from hxtrain.network.errors import CaseError
-from hxtrain.network.monitoring_file import MonitoringFile, load_monitoring
+from hxtrain.network.monitoring_file import MonitoringFile, load_monitoring, shown_duration
 from hxtrain.solver.simulation.evaluation import evaluate
 
+from .excursions import mark_excursions
 from .fouling_cost import fouling_cost
 from .fouling_fits import fit_fouling
 from .historian import History, read_history
@@ -42,7 +43,8 @@ class MonitoringResult:
     monitoring: MonitoringFile
     history: History
     windows: pd.DataFrame
-    """Per window: samples, steady (and why not), reconciled, global test statistic, degrees of
+    """Per window: samples, the mean time of its samples (what its values stand for: fouling laws
+    are fitted at it), steady (and why not), reconciled, global test statistic, degrees of
     freedom, passed, measurements eliminated."""
     state: pd.DataFrame
     """Per (window, unit): duty, UA, U in service and clean, fouling with its standard and
@@ -50,7 +52,8 @@ class MonitoringResult:
     flagged: pd.DataFrame
     """Per (window, tag) a measurement removed as a gross error: its statistic and estimated bias."""
     instruments: pd.DataFrame
-    """Per tag: windows flagged, first and last time, median bias: the instruments to check."""
+    """Per tag: windows flagged, first and last time, the first window it read persistently off,
+    median bias: the instruments to check."""
     cost: pd.DataFrame
     """Per window: fired duty fouled and clean, the penalty, fuel, money and CO₂."""
     shares: pd.DataFrame
@@ -97,9 +100,10 @@ def monitor(path_or_monitoring, *, progress=None) -> MonitoringResult:
     if not steady.any():
         reasons = windows.reason[windows.reason != ""].value_counts()
         why = "; ".join(f"{count} {reason}" for reason, count in reasons.head(3).items())
-        raise monitoring.error(("steady_state",), f"no steady window among {len(steady)} windows of "
-                                                  f"{monitoring.window}: nothing to reconcile ({why}); check the "
-                                                  "window and the steady_state thresholds against the data")
+        counted = f"{len(steady)} window{'s' * (len(steady) != 1)}"
+        raise monitoring.error(("steady_state",), f"no steady window among {counted} of "
+                                                  f"{shown_duration(monitoring.window)}: nothing to reconcile ({why}); "
+                                                  "check the window and the steady_state thresholds against the data")
     say(f"reconciling {int(steady.sum())} steady windows")
     base = evaluate(monitoring.case)
     net = base.net
@@ -110,11 +114,11 @@ def monitor(path_or_monitoring, *, progress=None) -> MonitoringResult:
     states = reconcile_windows(net, base, measured, values, sigma, monitoring.significance)
     drifts = _persistent_table(states.withheld, values, states, index, columns)
     say("back-calculating every exchanger")
-    state = _state_table(conditions(states, index))
+    state, excursions = mark_excursions(_state_table(conditions(states, index)))
     flagged = _flagged(states, index, columns)
     say("simulating each window fouled and clean")
     days = np.full(len(index), monitoring.window / pd.Timedelta(days=1))
-    cost = fouling_cost(monitoring.case, states, index, days, monitoring.economics)
+    cost = fouling_cost(monitoring.case, states, index, days, monitoring.economics, excursions)
     shares = _cost_shares(monitoring.case, states, cost)
     result = MonitoringResult(monitoring, history, _window_table(windows, steady, states), state, flagged,
                               _instruments(states, values, index, columns), cost, shares, drifts=drifts,
@@ -140,7 +144,7 @@ def _state_table(table: pd.DataFrame) -> pd.DataFrame:
 
 
 def _window_table(windows, steady, states: WindowStates) -> pd.DataFrame:
-    table = pd.DataFrame({"samples": windows.count.sum(axis=1), "steady": windows.steady,
+    table = pd.DataFrame({"samples": windows.count.sum(axis=1), "mean_time": windows.centre, "steady": windows.steady,
                           "not_steady_because": windows.reason}, index=windows.mean.index)
     for column in ("reconciled", "passed"):
         table[column] = False
@@ -231,9 +235,11 @@ def _instruments(states: WindowStates, values, index, columns) -> pd.DataFrame:
         finite = finite[np.isfinite(finite)]
         rows.append({"tag": columns[j], "windows_eliminated": int(removed[:, j].sum()),
                      "windows_persistently_off": int(off[:, j].sum()), "first": when.min(), "last": when.max(),
+                     # where a drift began, apart from a removal months before it (first/last span both)
+                     "off_from": index[off[:, j]].min() if off[:, j].any() else pd.NaT,
                      "median_bias": float(np.median(finite)) if finite.size else np.nan})
     table = pd.DataFrame(rows, columns=["tag", "windows_eliminated", "windows_persistently_off", "first", "last",
-                                        "median_bias"]).set_index("tag")
+                                        "off_from", "median_bias"]).set_index("tag")
     order = table["windows_eliminated"] + table["windows_persistently_off"]
     return table.loc[order.sort_values(ascending=False, kind="stable").index]
 
@@ -271,12 +277,14 @@ def _fit_and_project(result: MonitoringResult, states: WindowStates, index, say)
     monitoring file's horizon and step, or half a year in weekly steps)."""
     monitoring = result.monitoring
     say("fitting fouling models")
-    found = fit_fouling(result.state, monitoring.cleanings, states.balances.net)
+    centres = result.windows["mean_time"]
+    found = fit_fouling(result.state, monitoring.cleanings, states.balances.net, centres=centres)
     result.fits, result.cleanings = found.fits, found.cleanings
     horizon, step = monitoring.projection or (DEFAULT_HORIZON, DEFAULT_STEP)
     say("projecting forward")
-    try:
-        ahead = project(monitoring.case, states, index, found, monitoring.limits, horizon, step)
+    try:  # from the time the last window's values stand for, not its start
+        ahead = project(monitoring.case, states, pd.DatetimeIndex(centres.reindex(index).to_numpy()), found,
+                        monitoring.limits, horizon, step)
     except CaseError as exc:  # the state is still answered; only the projection has no start
         result.notes.append(f"no projection: {exc.message}")
         return

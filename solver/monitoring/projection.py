@@ -130,9 +130,12 @@ def evaluation_conditions(evaluation, units=None) -> pd.DataFrame:
     return pd.concat(frames).rename_axis("scenario") if frames else pd.DataFrame()
 
 
+_FOULING_KEYS = (".fouling.shell", ".fouling.tube")
+
+
 def _fouling_paths(case, name):
     base = ".".join(case.keys[name])
-    return f"{base}.fouling.shell", f"{base}.fouling.tube"
+    return tuple(base + key for key in _FOULING_KEYS)
 
 
 def _read_steps(evaluation, laws, fouling, times):
@@ -256,8 +259,10 @@ def project(case, states, index, fits, limits=None, horizon=DEFAULT_HORIZON, ste
         complete &= np.isfinite(v)
     if not complete.any():
         first = next((u for u in undetermined if u), "")
+        advice = ("the temperatures and flows around it must be measured or follow from the balances"
+                  if first.endswith(_FOULING_KEYS) else "measure it, or give it in the case")
         raise CaseError("no window has every setting the simulation needs determined by the plant data, so the "
-                        "train cannot be projected" + (f" (for example {first}: measure it, or give it in the case)"
+                        "train cannot be projected" + (f" (for example {first}: {advice})"
                                                        if first else " (no window was reconciled)"))
     last = int(np.flatnonzero(complete)[-1])
     settings = {k: float(v[last]) for k, v in values.items()}

@@ -95,8 +95,8 @@ def tq_svgs(result: SimulationResult, display: Display) -> dict:
     duty, counter-current (the cold inlet at the left), the smallest difference in the picture
     marked (a multipass shell's outlets, which meet inside it, are not in the picture); drawn in
     red where the exchanger violates a limit. Straight lines join the end temperatures, or the
-    zones' boundaries where the exchanger is rated by zones (its exchanger proper: a bypass
-    rejoins after it)."""
+    zones' boundaries where the exchanger is rated by zones; either way of the exchanger proper
+    (a bypass rejoins after it: a bypassed side's line ends at its outlet inside)."""
     plt = _pyplot()
     units = result.units[result.units["group"] == "exchangers"]
     limited = set(result.limits["unit"])
@@ -109,8 +109,8 @@ def tq_svgs(result: SimulationResult, display: Display) -> dict:
             zones = result.profiles.get(tag)
             if zones is None:
                 q = display.value("duty", np.array([0.0, abs(row["duty_kw"])]))
-                hot = display.value("temperature", np.array([row["hot_out_c"], row["hot_in_c"]]))
-                cold = display.value("temperature", np.array([row["cold_in_c"], row["cold_out_c"]]))
+                hot = display.value("temperature", np.array([_inside(row, "hot"), row["hot_in_c"]]))
+                cold = display.value("temperature", np.array([row["cold_in_c"], _inside(row, "cold")]))
             else:
                 q = display.value("duty", np.abs(zones["duty"]))
                 hot, cold = (display.value("temperature", zones[side]) for side in ("hot", "cold"))
@@ -131,6 +131,14 @@ def tq_svgs(result: SimulationResult, display: Display) -> dict:
             figure.tight_layout()
             figures[tag] = svg_of(figure)
     return figures
+
+
+def _inside(row, side) -> float:
+    """A side's outlet from the exchanger proper (°C): ahead of its bypass where it has one, the
+    end of its line in the exchanger's T–Q picture (what the exchanger's duty, LMTD and F refer
+    to; the bypass rejoins after it)."""
+    inside = row.get(f"{side}_out_inside_c", np.nan)
+    return float(inside) if np.isfinite(inside) else float(row[f"{side}_out_c"])
 
 
 def study_totals_svg(comparison, display: Display) -> str:

@@ -63,7 +63,9 @@ def limits_section(findings: pd.DataFrame, display: Display, scenario=False, fai
     """Violated limits first, boxed; then warnings; then scenarios with no answer (a study)."""
     limits = findings[findings["severity"] == "limit"]
     warnings = findings[findings["severity"] == "warning"]
-    parts = [f"<section id=\"limits\" class=\"limits{'' if len(limits) else ' none'}\">"]
+    # red with a limit violated, amber with only warnings or scenarios without an answer, green with nothing
+    tone = "" if len(limits) else " warned" if len(warnings) or failures else " none"
+    parts = [f"<section id=\"limits\" class=\"limits{tone}\">"]
     if len(limits):
         parts.append(f"<h2>Limits violated: {len(limits)}</h2>{_finding_items(limits, display, scenario)}")
     else:

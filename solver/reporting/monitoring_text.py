@@ -18,6 +18,9 @@ from .console_tables import fixed, render
 from .display_units import Display, by_quantity, current
 from .text import boxed, fitted, note_lines
 
+from hxtrain.network.monitoring_file import shown_duration
+from hxtrain.solver.monitoring.excursions import EXCURSION
+
 TREND_DAYS = 90
 """The fouling trend is the weighted least-squares slope over the last this many days of
 identifiable windows since the exchanger's last cleaning, given per 30 days with its expanded
@@ -60,6 +63,7 @@ HEADINGS = {"duty_kw": "duty", "u_w_m2k": "U", "u_clean_w_m2k": "U clean", "foul
 FOULING_DIGITS = 6
 """Decimals of fouling resistances on the console: 0.000043 m²·K/W of trend is two digits."""
 INSTRUMENT_WORDS = {"windows_eliminated": "windows removed", "windows_persistently_off": "windows off",
+                    "off_from": "off from",
                     "median_bias_k": "T bias", "median_bias_kg_s": "flow bias", "median_bias_kw": "duty bias"}
 
 
@@ -101,7 +105,7 @@ def monitoring_report(result, display: Display | None = None) -> str:
              f"to {_day(history.samples.index.max())}"]
     parts += _skipped_lines(history.skipped)
     steady = int(windows["steady"].sum())
-    parts.append(f"Windows of {_duration(m.window)}: {len(windows):,}; steady {steady:,}; reconciled "
+    parts.append(f"Windows of {shown_duration(m.window)}: {len(windows):,}; steady {steady:,}; reconciled "
                  f"{int(windows['reconciled'].sum())}; global test passed in {int(windows['passed'].sum())} "
                  f"(significance {m.significance:g})")
     parts += _gap_lines(windows, m.window, display, history.samples.index.to_series().diff().median())
@@ -114,15 +118,17 @@ def monitoring_report(result, display: Display | None = None) -> str:
         parts += ["", *fitted(f"Exchangers at {_day(_last(result))} (fouling on the outside area; ± is the 95 % "
                               f"expanded uncertainty, k = 2; the trend is over the last {trend}; cost share: the fired "
                               "duty cleaning it alone saves, as a share of the sum of those savings)", display, " "),
-                  render(today.assign(share_of_cost=_percent(today.get("share_of_cost"))), display, HEADINGS,
+                  render(today.assign(share_of_cost=_percent(today["share_of_cost"])) if "share_of_cost" in today
+                         else today, display, HEADINGS,
                          fouling_digits)]
+    parts += _excursion_lines(result.state)
     parts += _cost_lines(result, currency, display)
     if not result.instruments.empty:
         instruments = names.by_tag_quantity(result.instruments, names.tag_quantities(m, result.instruments.index),
                                             ["median_bias"])
         parts += ["", "Instruments to check (removed as a gross error in a window, or reading persistently off",
                   "the others; bias: the reading less the others' estimate, median over those windows)",
-                  render(instruments.assign(first=instruments["first"].map(_day), last=instruments["last"].map(_day)),
+                  render(instruments.assign(**{c: instruments[c].map(_day) for c in ("first", "last", "off_from")}),
                          display, INSTRUMENT_WORDS)]
     if not result.cleanings.empty:
         shown = result.cleanings[["exchanger", "time", "source", "drop", "lasting"]].rename(columns=names.CLEANING_NAMES)
@@ -146,8 +152,8 @@ def _gap_lines(windows: pd.DataFrame, window, display: Display | None = None, sp
         return []
     window = pd.Timedelta(window)
     if spacing is not None and pd.notna(spacing) and pd.Timedelta(spacing) > window:
-        said = (f"the window ({_duration(window)}) is shorter than the data's usual spacing "
-                f"({_duration(pd.Timedelta(spacing))}); a window of at least the spacing gives every window its "
+        said = (f"the window ({shown_duration(window)}) is shorter than the data's usual spacing "
+                f"({shown_duration(pd.Timedelta(spacing))}); a window of at least the spacing gives every window its "
                 "readings")
     else:
         starts = np.flatnonzero(empty & ~np.concatenate([[False], empty[:-1]]))
@@ -186,14 +192,40 @@ def _skipped_lines(skipped: pd.DataFrame) -> list[str]:
     for reason, rows in skipped.groupby("reason", sort=False):
         cells = rows["column"].notna() & (rows["column"] != "")
         whole = rows.loc[~cells, "row"].nunique()
-        parts = ([f"{whole} rows"] if whole else []) + ([f"{int(cells.sum())} cells"] if cells.any() else [])
+        columns = rows.loc[cells, "column"].value_counts()
+        if len(columns) == 1:
+            most = f" (column {columns.index[0]})"
+        elif len(columns) > 1:
+            most = f" (in {len(columns)} columns" + (f", most in {columns.index[0]}: {columns.iloc[0]})"
+                                                     if columns.iloc[0] > columns.iloc[1] else ")")
+        else:
+            most = ""
+        parts = ([f"{whole} rows"] if whole else []) + ([f"{int(cells.sum())} cells{most}"] if cells.any() else [])
         lines.append(f"  left out ({reason}): {' and '.join(parts)}")
     return lines
 
 
+def _excursion_lines(state: pd.DataFrame) -> list[str]:
+    """The windows whose fouling stands above the level before and after them
+    (:mod:`.monitoring.excursions`), per exchanger."""
+    if state.empty or "status" not in state:
+        return []
+    hit = state[state["status"] == EXCURSION]
+    if hit.empty:
+        return []
+    days = hit.groupby("unit", sort=False).apply(lambda rows: ", ".join(map(_day, rows.index)))
+    return ["", *textwrap.wrap("Excursions (a window's fouling above the level both before and after it: an "
+                               "unmeasured bypass, an instrument reading off or an upset; left out of the fitted laws, "
+                               "the cleanings and the cost): "
+                               + "; ".join(f"{unit} {when}" for unit, when in days.items()),
+                               WIDTH)]
+
+
 def _last(result):
-    done = result.windows.index[result.windows["reconciled"]]
-    return done[-1] if len(done) else result.windows.index[-1]
+    """The time the last reconciled window's values stand for (the mean time of its samples)."""
+    windows = result.windows
+    done = windows[windows["reconciled"]] if windows["reconciled"].any() else windows
+    return done["mean_time"].iloc[-1] if "mean_time" in done else done.index[-1]
 
 
 def _count(n, word) -> str:
@@ -202,18 +234,11 @@ def _count(n, word) -> str:
 
 
 def _percent(shares):
-    if shares is None:
-        return ""
     return shares.map(lambda v: f"{100 * v:.1f} %" if np.isfinite(v) else "")
 
 
 def _day(when) -> str:
     return "" if pd.isna(when) else pd.Timestamp(when).strftime("%Y-%m-%d")
-
-
-def _duration(delta: pd.Timedelta) -> str:
-    days = delta / pd.Timedelta(days=1)
-    return f"{days:g} day" + ("s" if days != 1 else "") if days >= 1 else f"{delta / pd.Timedelta(hours=1):g} h"
 
 
 def amount(display: Display, quantity: str, value, digits=None, difference=False) -> str:
@@ -227,7 +252,9 @@ def _cost_lines(result, currency, display: Display):
     cost, windows = result.cost, len(result.windows)
     answered = cost[cost["answer"] == "ok"]
     if answered.empty:
-        return ["", "What fouling costs: no window with an answer"]
+        why = cost["answer"].value_counts()
+        return ["", "What fouling costs: no window with an answer"
+                + (f" ({why.index[0]}{'' if len(why) == 1 else ', and other reasons'})" if len(why) else "")]
     last = answered.iloc[-1]
     duty = [amount(display, "duty", last[c]) for c in ("fired_duty_fouled_kw", "fired_duty_clean_kw", "fouling_penalty_kw")]
     lines = ["", f"What fouling costs at {_day(answered.index[-1])}: fired duty {duty[0]} as fouled against {duty[1]} "
@@ -238,9 +265,10 @@ def _cost_lines(result, currency, display: Display):
         lines.append(f"  over the {_count(len(answered), 'steady window')} with an answer: "
                      f"{answered['cost_cumulative'].iloc[-1]:,.0f} {currency}, CO2 {answered['co2_t_cumulative'].iloc[-1]:,.0f} t")
         lines.append(f"  (of {_count(windows, 'window')} in the data: transient windows are not costed)")
-    unanswered = len(cost) - len(answered)
-    if unanswered:
-        lines.append(f"  {_count(unanswered, 'window')} without a cost: {cost.loc[cost['answer'] != 'ok', 'answer'].iloc[0]}")
+    unanswered = cost.loc[cost["answer"] != "ok", "answer"]
+    for reason, count in unanswered.value_counts(sort=False).items():  # each reason once, in order of first window
+        lines += textwrap.wrap(f"{_count(count, 'window')} without a cost: {reason}", WIDTH - 2, initial_indent="  ",
+                               subsequent_indent="    ")
     mismatch = cost["model_mismatch_k"].dropna()
     if len(mismatch):
         lines.append(f"  the fouled simulation reproduces the reconciled temperatures to "
@@ -301,7 +329,9 @@ def monitoring_tables(result, display: Display | None = None) -> dict:
             "cost_shares": result.shares, "fouling_laws": fits,
             "cleanings": result.cleanings.rename(columns=names.CLEANING_NAMES),
             "projection": result.projection, "limit_dates": _limit_dates(result.limit_dates, display),
-            "skipped_rows": result.history.skipped}
+            # the file's own row number, apart from the row each written table numbers itself by
+            "skipped_rows": result.history.skipped.rename(columns={"row": "data_file_row"})}
+
 
 def _limit_dates(dates, display: Display):
     """The limit dates with each limit's value under its unit's ending (a fired duty's in kW, an

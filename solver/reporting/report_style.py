@@ -17,6 +17,8 @@ h3 { font-size: 14.5px; margin: 12px 0 4px; }
 .limits h2 { color: var(--limit); border: none; margin-top: 8px; }
 .limits.none { border-color: #3a7d44; background: #eef7ef; }
 .limits.none h2 { color: #2d6a36; }
+.limits.warned { border-color: var(--warn); background: #fdf5e6; }
+.limits.warned h2, .limits.warned a { color: var(--warn); }
 .limits ul { margin: 4px 0; padding-left: 20px; }
 .limits a { color: var(--limit); font-weight: 600; }
 code { font-size: 12px; color: var(--muted); }

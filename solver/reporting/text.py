@@ -203,6 +203,12 @@ def totals_lines(result: SimulationResult, display: Display) -> list[str]:
              ("enthalpy_in_supplies_kw", "heat_added_net_kw", "enthalpy_out_products_kw")]
     lines.append(f"  energy balance: in {flows[0]} + added {flows[1]} - out {flows[2]} {duty.label} = "
                  f"{display.value('duty', b['imbalance_kw']):.3g} {duty.label} (relative {b['relative_imbalance']:.1e})")
+    changing = result.units.index[result.units["outlet_fluid"].notna()] if "outlet_fluid" in result.units else []
+    if len(changing):  # enthalpies are on each fluid's own reference: a change of fluid moves it
+        lines += textwrap.wrap(f"'added' is the heat from outside plus, at {', '.join(changing)}, the difference of "
+                               "the fluids' enthalpy references (the outlet fluid's enthalpy less the inlet fluid's at "
+                               "the inlet temperature): not a duty", WIDTH - 4, initial_indent="    ",
+                               subsequent_indent="    ")
     return lines
 
 

@@ -296,7 +296,7 @@ def _failure_message(net, block, result: TearResult, tolerance):
     worst = sorted(zip(last, labels), reverse=True)[:5]
     listing = "; ".join(f"{label}: {value:.3g} K" for value, label in worst)
     trail = [float(np.max(h)) for h in result.history]
-    shown = trail[:: max(1, len(trail) // 8)][-8:]
+    shown = trail[:: max(1, len(trail) // 8)][-7:] + [float(np.max(last))]  # the history ends at the last residual
     failed = int(np.sum(~result.converged))
     lost = "" if np.all(np.isfinite(last)) else (
         " The temperatures left the physical range on the way (a unit met a state no temperature has: most "

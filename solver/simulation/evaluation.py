@@ -268,6 +268,9 @@ def assess(net: Network, solution: TemperatureSolution, tolerance, unsettled=Non
     for name, finding in findings:
         if finding.severity == "input":
             fail(finding.active, NOT_VALID, finding.messages, tuple(finding.key.split(".")))
+    # a supply outside its fluid's data is the reason first: an iteration it sent off the numbers is its consequence
+    supplies = [net.outlets[name][0] for name, unit in net.units.items() if not unit.inlets]
+    _temperature_checks(net, t, np.where(np.isin(np.arange(t.shape[1]), supplies), flow, 0.0), fail)
     lost = solution.left_the_numbers(net.batch)
     fail(~solution.converged, NOT_CONVERGED, lambda k: _not_converged_text(t[k], lost[k]), None)
     if unsettled is not None:

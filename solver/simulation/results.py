@@ -174,8 +174,13 @@ SIDE_WORDS = ("shell", "tube", "hot", "cold")
 def limit_label(unit: str, finding) -> str:
     """A violated limit as a scenario's row names it: the unit, the check and the side where the
     key names one ("E-102 pressure_drop (tube)", "E-301 temperature_cross")."""
+    return f"{unit} {finding_label(finding)}"
+
+
+def finding_label(finding) -> str:
+    """A finding's check and the side where its key names one ("design_temperature (cold)")."""
     side = next((part for part in finding.key.split(".")[2:] if part in SIDE_WORDS), None)
-    return f"{unit} {finding.kind}" + (f" ({side})" if side else "")
+    return finding.kind + (f" ({side})" if side else "")
 
 
 def violated_limits(evaluation: Evaluation) -> np.ndarray:
@@ -187,10 +192,28 @@ def violated_limits(evaluation: Evaluation) -> np.ndarray:
     if not limits:
         return np.full(evaluation.batch, "", dtype=object)
     # worded once per distinct combination of limits (a batch has few), not once per scenario
-    combinations, which = np.unique(np.stack([hit for _, hit in limits], axis=1), axis=0, return_inverse=True)
+    combinations, which = _distinct_rows(np.stack([hit for _, hit in limits], axis=1))
     words = np.array([LIMIT_SEPARATOR.join(label for (label, _), on in zip(limits, row) if on)
                       for row in combinations], dtype=object)
-    return words[which.reshape(-1)]
+    return words[which]
+
+
+def _distinct_rows(hits):
+    """(the distinct rows of boolean ``hits`` (scenarios, limits), each row's index among them).
+    Each row packed into 64-bit words first: np.unique over the rows themselves sorts them as
+    records of one-byte fields, ~50 times slower (0.3 s for 100,000 scenarios)."""
+    packed = np.packbits(hits, axis=1)
+    words = -(-packed.shape[1] // 8)
+    codes = np.zeros((len(hits), 8 * words), np.uint8)
+    codes[:, :packed.shape[1]] = packed
+    codes = codes.view(np.uint64)
+    if words == 1:
+        distinct, which = np.unique(codes[:, 0], return_inverse=True)
+        distinct = distinct[:, None]
+    else:
+        distinct, which = np.unique(codes, axis=0, return_inverse=True)
+    rows = np.unpackbits(np.ascontiguousarray(distinct).view(np.uint8), axis=1)[:, :hits.shape[1]].astype(bool)
+    return rows, which.reshape(-1)
 
 
 def tabulate(evaluation: Evaluation, k: int = 0) -> SimulationResult:
@@ -211,9 +234,10 @@ def tabulate(evaluation: Evaluation, k: int = 0) -> SimulationResult:
         if finding.active[k]:
             findings.append({"unit": name, "severity": finding.severity, "kind": finding.kind,
                              "key": finding.key, "message": finding.messages[k]})
-            notes.setdefault(name, []).append(finding.kind)
-    for name, row in rows.items():
-        row["findings"] = ", ".join(notes.get(name, []))
+            notes.setdefault(name, []).append(finding_label(finding))
+    for name, row in rows.items():  # a check hit on two sides the key does not tell apart: named once, counted
+        counts = {label: notes[name].count(label) for label in dict.fromkeys(notes.get(name, []))}
+        row["findings"] = ", ".join(label + (f" ×{n}" if n > 1 else "") for label, n in counts.items())
     columns = ["type", "group", "u_source", "heat_source", "outlet_fluid", *UNIT_COLUMNS.values(), "findings"]
     units = pd.DataFrame.from_dict(rows, orient="index", columns=columns).dropna(axis=1, how="all")
     units.index.name = "unit"
