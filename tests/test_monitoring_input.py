@@ -494,3 +494,17 @@ def test_a_transmitter_out_of_service_leaves_its_tag_unmeasured_not_the_file_ref
     with pytest.raises(CaseError) as refused:
         read_history(load_monitoring(write_plant(tmp_path, GOOD_TAGS, data)))
     assert "8 of 12 data rows (67%) are bad" in str(refused.value) and "in column 'FI-1001'" in str(refused.value)
+
+
+def test_the_window_after_a_ramp_is_not_judged_by_its_change_from_the_ramp(tmp_path):
+    """A temperature ramps 10 K across 12:00-18:00 and stays: that window moved within itself
+    (its trend) and is transient; the next, level at the new value, differs from its mean by 5 K,
+    which says nothing of it (a new user's trial: a steady day had been set aside only for its
+    difference from the transient day before). A step at a window boundary after a steady window is
+    still caught (test above)."""
+    hours = np.arange(48)
+    temperature = 60.0 + np.clip(hours - 12, 0, 6) * 10.0 / 6.0
+    _, windows = windows_of(tmp_path, FLOW_AND_TEMPERATURE,
+                            hourly("2026-01-01", 48, **{"FI-1001": 342.0, "TI-1011": temperature}), window="6 h")
+    assert list(windows.steady.index[~windows.steady]) == [pd.Timestamp("2026-01-01 12:00")]
+    assert "across the window" in windows.reason.iloc[2]

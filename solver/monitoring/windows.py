@@ -12,7 +12,8 @@ tag against ``temperature_change`` K,
   the window's length (the change a straight line through the window's samples makes across
   it; needs two samples), or
 * its *change of mean* from the window just before exceeds it (not tested where that window had
-  no sample of the tag; a single-sample window keeps this test alone),
+  no sample of the tag, nor where some tag's trend failed in it: a window that moved within
+  itself has a mean that says nothing of the next; a single-sample window keeps this test alone),
 
 in each case by more than the instrument's noise explains: the drift less z·se must exceed the
 threshold, with z the normal one-sided quantile at ``confidence`` (0.95 unless the file says;
@@ -117,16 +118,22 @@ def average_windows(samples: pd.DataFrame, monitoring: MonitoringFile) -> Window
     where_said = {"trend": "across the window", "change": "since the window before"}
     tests = [(f"too few samples (under {rule.minimum_samples})", (count > 0) & (count < rule.minimum_samples), count,
               count * 0.0, "{:.0f} samples", "")]
+    drift_tests = []
     for kind, threshold, unit in (("flow", rule.flow_change, " of the mean"),
                                   ("temperature", rule.temperature_change, " K")):
         names = [t.name for t in tags if t.quantity == kind]
         scale = mean[names].abs() if kind == "flow" else 1.0
         for test, (drift, allowance) in drifts.items():
             measured, allowed = drift[names] / scale, allowance[names] / scale
-            tests.append((f"{kind} {test} above {threshold:{'.3g' if kind == 'flow' else 'g'}}{unit}",
-                          measured - allowed > threshold, measured, allowed,
-                          "{:.3g}" + (" of its mean " if kind == "flow" else " K ") + where_said[test],
-                          "" if kind == "flow" else " K"))
+            drift_tests.append((test, f"{kind} {test} above {threshold:{'.3g' if kind == 'flow' else 'g'}}{unit}",
+                                measured - allowed > threshold, measured, allowed,
+                                "{:.3g}" + (" of its mean " if kind == "flow" else " K ") + where_said[test],
+                                "" if kind == "flow" else " K"))
+    # a window some tag moved within says nothing, by its mean, of whether the next one is steady
+    moving = np.any([failed.any(axis=1).to_numpy() for test, _, failed, *_ in drift_tests if test == "trend"], axis=0)
+    after_moving = np.concatenate([[False], moving[:-1]])[:, None]
+    tests += [(title, failed & ~after_moving if test == "change" else failed, *rest)
+              for test, title, failed, *rest in drift_tests]
     no_data = count.sum(axis=1) == 0
     steady = ~no_data.to_numpy()
     parts = [np.where(no_data, "no data", "")]
