@@ -23,6 +23,7 @@ from test_pntu_reference import dec_mason
 
 from hxtrain.network import CaseError, case_from_mapping
 from hxtrain.solver import simulate
+from hxtrain.solver.simulation.batch import simulate_batch
 from hxtrain.units import pntu
 
 # ============================================================================ 1. tube passes
@@ -271,6 +272,20 @@ def test_a_design_temperature_is_checked_inside_the_exchanger_ahead_of_its_bypas
     assert "ahead of its bypass" in limits["message"].iloc[0]
     above = simulate(case_from_mapping(_bypassed_water_case(inside + 0.1), "<test>"))
     assert not (above.findings["kind"] == "design_temperature").any()
+
+
+def test_a_design_temperature_exceeded_on_both_sides_names_each_side():
+    """Both sides above their design temperatures: each limit's key names its side, and the unit's
+    row, the findings and the scenario's violated limits say 'hot' and 'cold' (a new user's trial
+    found 'design_temperature ×2': two limits, which ones unsaid)."""
+    data = _bypassed_water_case(45.0)
+    data["exchangers"]["E-1"]["design_temperature"]["hot"] = 100.0
+    result = simulate(case_from_mapping(data, "<test>"))
+    limits = result.findings[result.findings["kind"] == "design_temperature"]
+    assert sorted(limits["key"]) == ["exchangers.E-1.design_temperature.cold", "exchangers.E-1.design_temperature.hot"]
+    assert result.units.loc["E-1", "findings"] == "design_temperature (hot), design_temperature (cold)"
+    named = simulate_batch(case_from_mapping(data, "<test>"), {"streams.oil.flow": [20.0]}).table["violated_limits"]
+    assert named.iloc[0] == "E-1 design_temperature (hot); E-1 design_temperature (cold)"
 
 
 def test_a_bypassed_side_shows_its_outlet_inside_the_exchanger():

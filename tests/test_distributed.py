@@ -77,6 +77,30 @@ def test_an_unreachable_scheduler_is_bad_input():
             pass
 
 
+def test_a_failed_connection_leaves_no_half_made_client_behind():
+    """The client Dask half-made before failing is collected where it failed: left to a later
+    garbage collection, its close ran inside another client's start, which holds Dask's
+    loop-runner lock, and waited on that lock for ever (a CI run hung so)."""
+    import gc
+
+    import distributed
+
+    def clients():
+        return {id(o) for o in gc.get_objects() if isinstance(o, distributed.Client)}
+
+    gc.collect()
+    before = clients()
+    gc.disable()  # no collection by chance: only the one made where the connection failed
+    try:
+        with pytest.raises(ClusterError, match="cannot reach"):
+            with on_cluster("tcp://127.0.0.1:9", timeout="1s"):
+                pass
+        left = clients() - before
+    finally:
+        gc.enable()
+    assert not left
+
+
 @pytest.mark.parametrize("address, fragment", [
     ("", "needs the scheduler's address"), ("   ", "needs the scheduler's address"),
     ("http://127.0.0.1:8787", "is the scheduler's dashboard"), ("not a url", "has no port"),

@@ -143,7 +143,7 @@ def test_the_report_names_the_limits_the_samples_violate(study_file, capsys):
     assert np.array_equal(counted, [len(t.split("; ")) if t else 0 for t in named])
     assert main(["uncertainty", str(study_file)]) == 0
     out = capsys.readouterr().out
-    assert "LIMITS VIOLATED" in out and f"E-112 design_temperature: {hit.sum():,} of 60" in out
+    assert "LIMITS VIOLATED" in out and f"E-112 design_temperature (cold): {hit.sum():,} of 60" in out
 
 
 def test_samples_without_an_answer_say_why_and_so_does_the_tornado(tmp_path, capsys):

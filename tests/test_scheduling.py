@@ -257,8 +257,9 @@ def test_a_limit_is_quoted_at_its_worst_step():
     from hxtrain.units.protocol import design_temperature_findings
 
     peaks = np.array([279.0, 281.0, 292.8, 285.0, np.nan])
-    finding, = design_temperature_findings("exchangers.E-9", {"the cold side ": (280.0, peaks - 30.0, peaks)})
+    key = "exchangers.E-9.design_temperature.cold"
+    finding, = design_temperature_findings({"the cold side ": (key, 280.0, peaks - 30.0, peaks)})
     assert finding.worst() == 2 and "292.8 °C" in finding.messages[finding.worst()]
     assert np.flatnonzero(finding.active)[0] == 1
-    none, = design_temperature_findings("exchangers.E-9", {"the cold side ": (300.0, peaks - 30.0, peaks)})
+    none, = design_temperature_findings({"the cold side ": (key, 300.0, peaks - 30.0, peaks)})
     assert none.worst() == -1

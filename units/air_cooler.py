@@ -177,7 +177,8 @@ class AirCooler(UnitBase):
             u_service = service.ua * 1000.0 / self.area
             clean = u_service if self.clean_u is None else np.broadcast_to(self.clean_u, t.shape)
             quantities.update(u_service=u_service, u_clean=clean)
-        findings = design_temperature_findings(self.key, {"the process side ": (self.design_temperature, t, out)})
+        findings = design_temperature_findings(
+            {"the process side ": (f"{self.key}.design_temperature", self.design_temperature, t, out)})
         findings.append(check("reversed_heat_flow", "warning", x.reversed, self.key,
                               "the process enters colder ({t:.1f} °C) than the air ({ta:.1f} °C): the air heats it "
                               "({q:.1f} kW)", t=t, ta=t_air, q=-duty))

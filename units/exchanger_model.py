@@ -374,9 +374,9 @@ class Exchanger(UnitBase):
         # a side's peak is inside the exchanger: its outlet there, ahead of any bypass that
         # mixes back what went round (the mixed outlet lies between that and the inlet)
         inside, inlets_t = _outlets_inside(x), {"hot": t_hot, "cold": t_cold}
-        findings = design_temperature_findings(key, {
+        findings = design_temperature_findings({
             f"the {side} side {_inside_words(_bypass(self.spec, side))}":
-                (design.get(side), inlets_t[side], inside[side]) for side in inside})
+                (f"{key}.design_temperature.{side}", design.get(side), inlets_t[side], inside[side]) for side in inside})
         # what passes through the shells and tubes counts, not what goes round them
         through = dict(zip(("hot", "cold"), through_exchanger(self.spec, inlets.m[:, 0], inlets.m[:, 1])))
         for side, m in through.items():

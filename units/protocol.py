@@ -448,28 +448,19 @@ def check(kind, severity, active, key, template, excess=None, **values):
     return Finding(kind, severity, np.atleast_1d(np.asarray(active, dtype=bool)), template, values, key, excess)
 
 
-def design_temperature_findings(key, sides):
+def design_temperature_findings(sides):
     """Limit findings for sides whose highest temperature exceeds their design temperature.
 
-    ``sides`` maps a label to (design temperature or None, inlet T, outlet T).
+    ``sides`` maps a label to (the limit's key path, design temperature or None, inlet T, outlet T).
     """
     findings = []
-    for label, (design, t_in, t_out) in sides.items():
+    for label, (key, design, t_in, t_out) in sides.items():
         if design is None:
             continue
         peak = np.maximum(t_in, t_out)
-        findings.append(
-            check(
-                "design_temperature",
-                "limit",
-                peak > design,
-                f"{key}.design_temperature",
-                label + "reaches {peak:.1f} °C, above its design temperature of {design:.1f} °C",
-                excess=peak - design,
-                peak=peak,
-                design=design,
-            )
-        )
+        findings.append(check("design_temperature", "limit", peak > design, key,
+                              label + "reaches {peak:.1f} °C, above its design temperature of {design:.1f} °C",
+                              excess=peak - design, peak=peak, design=design))
     return findings
 
 

@@ -357,7 +357,8 @@ class Heater(UnitBase):
     def _findings(self, t, m, t_out, idle):
         """Its design temperature, and what its setting cannot do: a target behind the inlet (it
         idles), a fixed duty without flow."""
-        findings = design_temperature_findings(self.key, {"the stream ": (self.design_temperature, t, t_out)})
+        findings = design_temperature_findings(
+            {"the stream ": (f"{self.key}.design_temperature", self.design_temperature, t, t_out)})
         if self.target is not None:
             target = np.broadcast_to(self.target, t.shape)
             findings.append(

@@ -11,6 +11,7 @@ for a local one (``--local-cluster N``: N worker processes on this machine).
 
 from __future__ import annotations
 
+import gc
 import sys
 import threading
 from contextlib import contextmanager
@@ -116,7 +117,12 @@ def _connected(distributed, scheduler, timeout):
         try:
             outcome["client"] = distributed.Client(scheduler, timeout=timeout)
         except BaseException as exc:  # noqa: BLE001 - whatever it was, it is reported below
-            outcome["error"] = exc
+            # The kind and text only: the exception's frames hold the half-made client, and were
+            # that garbage collected later in a thread starting another Dask loop, its close would
+            # wait forever on the loop-runner lock that thread holds (a test run hung so).
+            outcome["error"] = (type(exc), str(exc))
+        if "error" in outcome:
+            gc.collect()
 
     attempt = threading.Thread(target=connect, daemon=True)
     attempt.start()
@@ -124,12 +130,11 @@ def _connected(distributed, scheduler, timeout):
     if attempt.is_alive():
         raise ClusterError(f"the Dask scheduler {scheduler} did not answer within {CONNECT_SECONDS + 5.0:g} s: is that "
                            "the scheduler's port (8786 unless started with another), not its dashboard's (8787)?")
-    error = outcome.get("error")
-    if isinstance(error, (OSError, TimeoutError)):
-        raise ClusterError(f"cannot reach the Dask scheduler {scheduler}: {error}")
-    if error is not None:
-        raise ClusterError(f"what answers at {scheduler} is not a Dask scheduler ({type(error).__name__}: "
-                           f"{str(error)[:120]})")
+    if "error" in outcome:
+        kind, text = outcome["error"]
+        if issubclass(kind, (OSError, TimeoutError)):
+            raise ClusterError(f"cannot reach the Dask scheduler {scheduler}: {text}")
+        raise ClusterError(f"what answers at {scheduler} is not a Dask scheduler ({kind.__name__}: {text[:120]})")
     return outcome["client"]
 
 
