@@ -189,7 +189,40 @@ def test_the_diagram_draws_a_bypass_branch_with_its_stream_and_no_unit_on_anothe
             if a < b and x[a] == x[b]:
                 assert max(spans[a]) < min(spans[b]) or max(spans[b]) < min(spans[a]), (a, b)
     svg = diagram.network_svg(result, Display())
-    assert svg.count('stroke="#2f6690"') == 1  # only the feed row is drawn in the heated colour
+    assert svg.count('stroke="#2f6690" stroke-width="3"') == 1  # only the feed row is drawn in the heated colour
+
+
+def test_a_bypass_is_in_the_table_and_drawn_round_its_unit_on_its_side():
+    """A quarter of the oil round E-1 and 40 % of the water round E-2: the exchanger table gives
+    each fraction on its side, and the diagram draws one dashed arc per bypass, on the row of
+    the side bypassed, titled with the fraction; E-1's tag is lifted over its arc (a new user's
+    trial: bypasses had not been drawn at all)."""
+    from hxtrain.solver.reporting import network_diagram as diagram
+
+    data = {"fluids": {"oil": {"cp": 2.4}, "water": {"cp": 4.18}},
+            "streams": {"oil": {"fluid": "oil", "flow": 20, "supply_temperature": 180,
+                                "path": "E-1.hot -> E-2.hot -> oil_out"},
+                        "water": {"fluid": "water", "flow": 40, "supply_temperature": 30,
+                                  "path": "E-2.cold -> E-1.cold -> water_out"}},
+            "exchangers": {"E-1": {"arrangement": "counterflow", "ua": 40, "bypass": {"hot": 0.25}},
+                           "E-2": {"arrangement": "counterflow", "ua": 30, "bypass": {"cold": 0.4}}},
+            "products": {"oil_out": {}, "water_out": {}}}
+    result = simulate(case_from_mapping(data, "<test>"))
+    table = result.units
+    assert table.at["E-1", "hot_bypass_fraction"] == 0.25 and np.isnan(table.at["E-1", "cold_bypass_fraction"])
+    assert table.at["E-2", "cold_bypass_fraction"] == 0.4 and np.isnan(table.at["E-2", "hot_bypass_fraction"])
+    svg = diagram.network_svg(result, Display())
+    arcs = re.findall(r'<path d="M[^"]+ Q([\d.]+),([\d.]+) [^"]+" fill="none" stroke="(#\w+)"[^>]*><title>([^<]+)</title>',
+                      svg)
+    assert sorted(a[3] for a in arcs) == ["E-1: 25% of the hot side goes round it (bypass)",
+                                          "E-2: 40% of the cold side goes round it (bypass)"]
+    drawn = diagram.rows_of(result)[0]
+    rows = {r.name: diagram.TOP + diagram.ROW * k
+            for k, r in enumerate(diagram.ordered_rows(drawn, diagram.columns(drawn)))}
+    by_unit = {title[:3]: (float(y), colour) for _, y, colour, title in arcs}
+    assert by_unit["E-1"] == (rows["oil"] - 2 * diagram.BYPASS_RISE, diagram.COOLED)    # above the oil, the top row
+    assert by_unit["E-2"] == (rows["water"] + 2 * diagram.BYPASS_RISE, diagram.HEATED)  # below the water
+    assert f'y="{rows["oil"] - 14 - diagram.BYPASS_RISE}" text-anchor="middle" font-weight="bold"' in svg
 
 
 def test_profile_points_keep_each_unit_at_its_own_temperature():

@@ -22,7 +22,9 @@ one of :data:`REASONS`; a detail):
 * a bad cell (missing, not a number, not finite, physically impossible: a temperature below
   absolute zero or above 2000 °C, a negative or implausibly large flow or duty) blanks that tag
   in that row only, and the row's other tags stay: one failed instrument must not discard the
-  others, and the reconciliation treats a missing reading as unmeasured.
+  others, and the reconciliation treats a missing reading as unmeasured;
+* an isolated spike, one reading far beyond both of its neighbours (:mod:`.spikes`), is blanked
+  the same way: a glitch that would move a window's mean and fail its steady-state test.
 
 Errors (:class:`CaseError`, exit 2) name the file and, where it applies, the row and column:
 a data file that is missing, unreadable or empty; no time column; a tag with no column in the
@@ -52,6 +54,7 @@ from hxtrain.network.fields import nearest
 from hxtrain.network.monitoring_file import ISO_TIME, MonitoringFile, Tag
 from hxtrain.network.quantities import shorten
 
+from .spikes import isolated_spikes
 from .windows import Windows, average_windows
 
 __all__ = ["History", "Windows", "read_history", "screen_unit_slips", "MAX_BAD_SHARE", "MAX_DATA_BYTES", "REASONS",
@@ -78,8 +81,10 @@ OTHER_DATE = re.compile(r"\d{1,4}[/.\-]\d{1,2}[/.\-]\d{1,4}|(?i:jan|feb|mar|apr|
 """A date in some form other than ISO 8601 (day/month/year, month names, ...)."""
 TIME_MISSING, TIME_UNREADABLE, TIME_REPEATED, TIME_BACKWARDS = (
     "time missing", "time unreadable", "time repeated", "time goes backwards")
-MISSING, NOT_A_NUMBER, NOT_FINITE, IMPOSSIBLE = "missing value", "not a number", "not a finite number", "impossible"
-REASONS = (TIME_MISSING, TIME_UNREADABLE, TIME_REPEATED, TIME_BACKWARDS, MISSING, NOT_A_NUMBER, NOT_FINITE, IMPOSSIBLE)
+MISSING, NOT_A_NUMBER, NOT_FINITE, IMPOSSIBLE, SPIKE = (
+    "missing value", "not a number", "not a finite number", "impossible", "isolated spike")
+REASONS = (TIME_MISSING, TIME_UNREADABLE, TIME_REPEATED, TIME_BACKWARDS, MISSING, NOT_A_NUMBER, NOT_FINITE, IMPOSSIBLE,
+           SPIKE)
 """The values of ``History.skipped.reason``; the first four skip the whole row."""
 ROW_REASONS = REASONS[:4]
 MAX_PEEK = 1 << 16
@@ -141,7 +146,8 @@ def read_history(monitoring: MonitoringFile) -> History:
     rows = np.arange(len(body)) + 2  # file rows: the header is row 1
     skips = _Skips()
     times, keep = _times(body.iloc[:, position[monitoring.time_column]], rows, skips.column(""), monitoring, name)
-    values = {tag.name: _readings(body.iloc[:, position[tag.column]], tag, keep, skips.column(tag.column))
+    values = {tag.name: _without_spikes(_readings(body.iloc[:, position[tag.column]], tag, keep,
+                                                  skips.column(tag.column)), tag, keep, skips.column(tag.column))
               for tag in monitoring.tags.values()}
     skipped = skips.table(rows, times)
     samples = pd.DataFrame({k: v[keep] for k, v in values.items()}, index=pd.DatetimeIndex(times[keep], name="time"))
@@ -353,6 +359,21 @@ def _readings(raw: pd.Series, tag: Tag, keep: np.ndarray, skip) -> np.ndarray:
     skip(impossible, IMPOSSIBLE, [f"{n:g} {tag.unit} = {v:.6g} {unit}, {_why(v, tag.quantity)}"
                                   for n, v in zip(numbers[impossible], values[impossible])])
     values[missing | not_number | not_finite | impossible] = np.nan
+    return values
+
+
+def _without_spikes(values: np.ndarray, tag: Tag, keep: np.ndarray, skip) -> np.ndarray:
+    """``values`` with the isolated spikes among the kept rows' readings blanked
+    (:mod:`.spikes`); ``skip`` is told each, with its neighbours, in the tag's unit."""
+    spike, before, after = isolated_spikes(values[keep], tag.sigma_of)
+    if not spike.any():
+        return values
+    where = np.zeros(values.shape, dtype=bool)
+    where[np.flatnonzero(keep)[spike]] = True
+    shown = [tag.from_default_unit(np.array(v)) for v in (values[where], before[spike], after[spike])]
+    skip(where, SPIKE, [f"{x:.6g} {tag.unit} between {b:.6g} and {a:.6g}" for x, b, a in zip(*shown)])
+    values = values.copy()
+    values[where] = np.nan
     return values
 
 

@@ -122,7 +122,8 @@ def case_body(result: SimulationResult, display: Display) -> list[str]:
     limited = set(result.limits["unit"])
     body = [limits_section(result.findings, display), _totals(result, display),
             "<section id=\"network\"><h2>Network</h2><p class=\"note\">Heated streams run left to right (blue), cooled "
-            "streams right to left (rust); each exchanger joins its two streams; temperatures are on the segments; a "
+            "streams right to left (rust); each exchanger joins its two streams; a dashed arc round one is a bypass; "
+            "temperatures are on the segments; a "
             "unit with a violated limit is ringed in red and marked !, one with a warning in amber. Click a unit for "
             f"its table row.</p><figure>{network_svg(result, display)}</figure></section>",
             "<section id=\"profiles\"><h2>Temperature along each stream</h2>"

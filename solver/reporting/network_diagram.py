@@ -11,8 +11,10 @@ cooled streams go above, heated ones below, each group ordered by where it start
 Symbols and colours are our own: an exchanger is two dots on its two rows joined by a line; a
 unit on one stream a rounded square, warm where it heats the stream and cool where it cools
 it; a junction (a split or a mix) a small diamond joined to the rows it feeds or collects (a
-flash drum's with its tag). Segment temperatures are written on each row; a unit with a violated limit is ringed in red with
-a "!", one with a warning in amber; every unit links to its row in the report's tables.
+flash drum's with its tag); a bypass a dashed arc round the unit on its stream's row, away from
+the unit's other row. Segment temperatures are written on each row; a unit with a violated limit
+is ringed in red with a "!", one with a warning in amber; every unit links to its row in the
+report's tables.
 """
 
 from __future__ import annotations
@@ -37,6 +39,8 @@ CHARACTER = 7.0
 HEATED, COOLED, UTILITY = "#2f6690", "#b4532a", "#8c8c8c"
 HEATS, COOLS = "#9c4f96", "#5aa9c9"  # a heater in plum: amber is a warning's, red a limit's
 LIMIT, WARNING = "#d62828", "#e0a800"
+BYPASS_REACH, BYPASS_RISE = 26, 15
+"""A bypass arc's half-width and height (SVG units)."""
 
 
 @dataclass
@@ -176,8 +180,15 @@ def network_svg(result: SimulationResult, display: Display) -> str:
                          f'stroke-width="1.6"{dash}/>')
     for row in rows:
         parts += _row(row, x, y[row.name], junctions, display)
+    bypassed = {}
+    for row in rows:
+        for node, yy, fraction in _bypasses(row, y[row.name], units):
+            away = -1 if yy == min(rows_at[node]) else 1
+            parts.append(_bypass_arc(node, x[node], yy, away, fraction, row))
+            bypassed[node] = bypassed.get(node, False) or away == -1
     for node in placed:
-        parts += _unit(node, x[node], rows_at[node], node in junctions, units, severity, display)
+        parts += _unit(node, x[node], rows_at[node], node in junctions, units, severity, display,
+                       lifted=bypassed.get(node, False))
     parts.append("</svg>")
     return "".join(parts)
 
@@ -243,12 +254,34 @@ def _row(row: Row, x: dict, y: float, junctions, display: Display) -> list[str]:
     return parts
 
 
+def _bypasses(row: Row, y: float, units: pd.DataFrame):
+    """(unit, the row's y, fraction) where the row's stream goes partly round a unit on it (its
+    side's bypass fraction in the units table)."""
+    for node in row.nodes:
+        column = f"{row.sides.get(node)}_bypass_fraction"
+        if column in units and node in units.index:
+            fraction = units.at[node, column]
+            if fraction == fraction and fraction > 0.0:
+                yield node, y, float(fraction)
+
+
+def _bypass_arc(node, x, y, away, fraction, row: Row) -> str:
+    """A dashed arc leaving the row before the unit and rejoining it after, on the side away
+    from the unit's other row (``away``: -1 above, 1 below), titled with the fraction."""
+    colour = UTILITY if row.utility else (HEATED if row.heated else COOLED)
+    side = row.sides.get(node)
+    return (f'<path d="M{x - BYPASS_REACH},{y} Q{x},{y + away * 2 * BYPASS_RISE} {x + BYPASS_REACH},{y}" fill="none" '
+            f'stroke="{colour}" stroke-width="1.8" stroke-dasharray="4 3"><title>{escape(node)}: '
+            f'{fraction:.0%} of the {side} side goes round it (bypass)</title></path>')
+
+
 def _arrow(x, y, step, colour) -> str:
     return (f'<path d="M{x - step * 7},{y - 6} L{x + step * 3},{y} L{x - step * 7},{y + 6} z" fill="{colour}"/>')
 
 
-def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display) -> list[str]:
-    """A unit's symbol, tag and duty, ringed by its worst finding, linked to its table row."""
+def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display, lifted=False) -> list[str]:
+    """A unit's symbol, tag and duty, ringed by its worst finding, linked to its table row; the
+    tag ``lifted`` above a bypass arc on its top row."""
     worst = severity.get(node)
     ring = LIMIT if worst == "limit" else WARNING if worst == "warning" else "#333"
     thick = 3.2 if worst else 1.2
@@ -274,7 +307,8 @@ def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display
                      f'stroke="{ring}" stroke-width="{thick}"/>')
     colour = LIMIT if worst == "limit" else "#222"
     mark = " !" if worst == "limit" else ""
-    parts.append(f'<text x="{x}" y="{top - 14}" text-anchor="middle" font-weight="bold" fill="{colour}">'
+    parts.append(f'<text x="{x}" y="{top - (14 + BYPASS_RISE if lifted else 14)}" text-anchor="middle" '
+                 f'font-weight="bold" fill="{colour}">'
                  f'{escape(node)}{mark}</text>')
     if duty == duty:
         column = display.column("x_kw")

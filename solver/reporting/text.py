@@ -24,7 +24,8 @@ EXCHANGER_WORDS = {"duty_kw": "duty", "hot_in_c": "hot in", "hot_out_c": "hot ou
                    "cold_out_c": "cold out", "hot_out_vapour_fraction": "hot out vapour",
                    "cold_out_vapour_fraction": "cold out vapour", "air_flow_kg_s": "air flow", "ua_kw_per_k": "UA", "ntu_hot": "NTU", "p_hot": "P", "r_hot": "R",
                    "f": "F", "lmtd_k": "LMTD", "hot_out_inside_c": "hot out inside",
-                   "cold_out_inside_c": "cold out inside", "min_approach_k": "approach",
+                   "cold_out_inside_c": "cold out inside", "hot_bypass_fraction": "hot bypass",
+                   "cold_bypass_fraction": "cold bypass", "min_approach_k": "approach",
                    "internal_approach_k": "approach inside",
                    "findings": "findings"}
 SERVICE_WORDS = {"u_source": "U from", "u_service_w_m2k": "U service", "u_clean_w_m2k": "U clean",
@@ -98,9 +99,11 @@ def drum_table(result: SimulationResult) -> pd.DataFrame:
     return separator_table(result, "drums", DRUM_WORDS)
 
 
-RATING = ("ua_kw_per_k", "ntu_hot", "p_hot", "r_hot", "f", "lmtd_k", "hot_out_inside_c", "cold_out_inside_c")
+RATING = ("ua_kw_per_k", "ntu_hot", "p_hot", "r_hot", "f", "lmtd_k", "hot_bypass_fraction", "hot_out_inside_c",
+          "cold_bypass_fraction", "cold_out_inside_c")
 """The exchanger table's rating columns: a block of their own in the fitted report (all of the
-exchanger proper: where a side has a bypass, its outlet inside, ahead of the bypass, too)."""
+exchanger proper: where a side has a bypass, the fraction going round and its outlet inside,
+ahead of the bypass, too)."""
 
 
 PRODUCT_TARGETS = "Products with a target temperature (deviation = actual - target)"
