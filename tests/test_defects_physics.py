@@ -288,6 +288,18 @@ def test_a_design_temperature_exceeded_on_both_sides_names_each_side():
     assert named.iloc[0] == "E-1 design_temperature (hot); E-1 design_temperature (cold)"
 
 
+def test_a_side_bypassed_whole_is_not_held_to_its_design_temperature():
+    """All the water round E-1 (the exchanger isolated on that side): nothing of it is inside to
+    limit, though it arrives above the design temperature; with 99 % round, the 1 % inside is
+    held to it (a new user's trial: the limit was reported at the inlet temperature)."""
+    data = _bypassed_water_case(25.0)
+    data["exchangers"]["E-1"]["bypass"] = {"cold": 1.0}
+    assert not (simulate(case_from_mapping(data, "<test>")).findings["kind"] == "design_temperature").any()
+    data["exchangers"]["E-1"]["bypass"] = {"cold": 0.99}
+    limits = simulate(case_from_mapping(data, "<test>")).findings
+    assert (limits["kind"] == "design_temperature").sum() == 1
+
+
 def test_a_bypassed_side_shows_its_outlet_inside_the_exchanger():
     """The tables show, beside the mixed outlet, the one inside the exchanger (what its LMTD, R and
     F refer to): 30 + Q / (0.7 · 40 · 4.18) on the 30 %-bypassed water side; none without a bypass."""

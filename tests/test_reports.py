@@ -223,6 +223,23 @@ def test_a_bypass_is_in_the_table_and_drawn_round_its_unit_on_its_side():
     assert by_unit["E-1"] == (rows["oil"] - 2 * diagram.BYPASS_RISE, diagram.COOLED)    # above the oil, the top row
     assert by_unit["E-2"] == (rows["water"] + 2 * diagram.BYPASS_RISE, diagram.HEATED)  # below the water
     assert f'y="{rows["oil"] - 14 - diagram.BYPASS_RISE}" text-anchor="middle" font-weight="bold"' in svg
+    assert ">bypass hot 25%</text>" in svg and ">bypass cold 40%</text>" in svg  # in print too, not only a title
+
+
+def test_a_hot_stream_whose_exchanger_is_bypassed_whole_is_still_drawn_cooled():
+    """The oil all round its one exchanger: its temperature does not change, but it passes a hot
+    side, so it is drawn cooled (rust, right to left) and profiled among the cooled streams (a new
+    user's trial found it drawn as a heated stream)."""
+    from hxtrain.solver.reporting import network_diagram as diagram
+
+    data = {"fluids": {"oil": {"cp": 2.4}, "water": {"cp": 4.18}},
+            "streams": {"oil": {"fluid": "oil", "flow": 20, "supply_temperature": 180, "path": "E-1.hot -> oil_out"},
+                        "water": {"fluid": "water", "flow": 40, "supply_temperature": 30,
+                                  "path": "E-1.cold -> water_out"}},
+            "exchangers": {"E-1": {"arrangement": "counterflow", "ua": 40, "bypass": {"hot": 1.0}}},
+            "products": {"oil_out": {}, "water_out": {}}}
+    rows = {r.name: r for r in diagram.rows_of(simulate(case_from_mapping(data, "<test>")))[0]}
+    assert not rows["oil"].heated and rows["water"].heated
 
 
 def test_profile_points_keep_each_unit_at_its_own_temperature():

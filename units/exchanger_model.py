@@ -375,11 +375,13 @@ class Exchanger(UnitBase):
         # a side's peak is inside the exchanger: its outlet there, ahead of any bypass that
         # mixes back what went round (the mixed outlet lies between that and the inlet)
         inside, inlets_t = _outlets_inside(x), {"hot": t_hot, "cold": t_cold}
+        # what passes through the shells and tubes counts, not what goes round them: a side
+        # bypassed whole (an exchanger isolated) has no temperature inside to limit
+        through = dict(zip(("hot", "cold"), through_exchanger(self.spec, inlets.m[:, 0], inlets.m[:, 1])))
         findings = design_temperature_findings({
             f"the {side} side {_inside_words(_bypass(self.spec, side))}":
-                (f"{key}.design_temperature.{side}", design.get(side), inlets_t[side], inside[side]) for side in inside})
-        # what passes through the shells and tubes counts, not what goes round them
-        through = dict(zip(("hot", "cold"), through_exchanger(self.spec, inlets.m[:, 0], inlets.m[:, 1])))
+                (f"{key}.design_temperature.{side}", design.get(side),
+                 np.where(through[side] > 0.0, inlets_t[side], np.nan), inside[side]) for side in inside})
         for side, m in through.items():
             limit = self.limits.get("maximum_flow", {}).get(side)
             if limit is not None:

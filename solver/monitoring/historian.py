@@ -24,7 +24,8 @@ one of :data:`REASONS`; a detail):
   in that row only, and the row's other tags stay: one failed instrument must not discard the
   others, and the reconciliation treats a missing reading as unmeasured;
 * an isolated spike, one reading far beyond both of its neighbours (:mod:`.spikes`), is blanked
-  the same way: a glitch that would move a window's mean and fail its steady-state test.
+  the same way: a glitch that would move a window's mean and fail its steady-state test (but not
+  where another tag spikes in the same row: that is the process moving).
 
 Errors (:class:`CaseError`, exit 2) name the file and, where it applies, the row and column:
 a data file that is missing, unreadable or empty; no time column; a tag with no column in the
@@ -146,9 +147,9 @@ def read_history(monitoring: MonitoringFile) -> History:
     rows = np.arange(len(body)) + 2  # file rows: the header is row 1
     skips = _Skips()
     times, keep = _times(body.iloc[:, position[monitoring.time_column]], rows, skips.column(""), monitoring, name)
-    values = {tag.name: _without_spikes(_readings(body.iloc[:, position[tag.column]], tag, keep,
-                                                  skips.column(tag.column)), tag, keep, skips.column(tag.column))
+    values = {tag.name: _readings(body.iloc[:, position[tag.column]], tag, keep, skips.column(tag.column))
               for tag in monitoring.tags.values()}
+    values = _without_spikes(values, monitoring, keep, skips)
     skipped = skips.table(rows, times)
     samples = pd.DataFrame({k: v[keep] for k, v in values.items()}, index=pd.DatetimeIndex(times[keep], name="time"))
     samples = samples[samples.notna().any(axis=1)]
@@ -362,19 +363,27 @@ def _readings(raw: pd.Series, tag: Tag, keep: np.ndarray, skip) -> np.ndarray:
     return values
 
 
-def _without_spikes(values: np.ndarray, tag: Tag, keep: np.ndarray, skip) -> np.ndarray:
-    """``values`` with the isolated spikes among the kept rows' readings blanked
-    (:mod:`.spikes`); ``skip`` is told each, with its neighbours, in the tag's unit."""
-    spike, before, after = isolated_spikes(values[keep], tag.sigma_of)
-    if not spike.any():
-        return values
-    where = np.zeros(values.shape, dtype=bool)
-    where[np.flatnonzero(keep)[spike]] = True
-    shown = [tag.from_default_unit(np.array(v)) for v in (values[where], before[spike], after[spike])]
-    skip(where, SPIKE, [f"{x:.6g} {tag.unit} between {b:.6g} and {a:.6g}" for x, b, a in zip(*shown)])
-    values = values.copy()
-    values[where] = np.nan
-    return values
+def _without_spikes(values: dict, monitoring: MonitoringFile, keep: np.ndarray, skips: _Skips) -> dict:
+    """``values`` with the isolated spikes among the kept rows' readings blanked (:mod:`.spikes`)
+    and told to ``skips`` with their neighbours, in the tag's unit. Spikes of two or more tags in
+    one row are not glitches but the process moving (a throughput cut seen by the total and its
+    branches): kept, for the steady-state test to judge."""
+    tags = monitoring.tags.values()
+    found = {tag.name: isolated_spikes(values[tag.name][keep], tag.sigma_of) for tag in tags}
+    alone = sum(spike.astype(int) for spike, _, _ in found.values()) == 1 if found else None
+    cleaned = dict(values)
+    for tag in tags:
+        spike, before, after = found[tag.name]
+        spike = spike & alone
+        if not spike.any():
+            continue
+        where = np.zeros(keep.shape, dtype=bool)
+        where[np.flatnonzero(keep)[spike]] = True
+        shown = [tag.from_default_unit(np.array(v)) for v in (values[tag.name][where], before[spike], after[spike])]
+        skips.column(tag.column)(where, SPIKE, [f"{x:.6g} {tag.unit} between {b:.6g} and {a:.6g}"
+                                                for x, b, a in zip(*shown)])
+        cleaned[tag.name] = np.where(where, np.nan, values[tag.name])
+    return cleaned
 
 
 def _why(value: float, quantity: str) -> str:

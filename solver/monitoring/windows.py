@@ -36,7 +36,9 @@ threshold alone about one window in seven with four such meters was set aside fo
 synthetic data of steady flows), hence the allowance. Duty tags are not
 tested: a heater's duty follows the flows and temperatures that are. A window with fewer than
 ``minimum_samples`` samples of a tag that it does have ("too few samples") or with no sample at
-all ("no data") is not steady either. A tag with no sample in a window leaves that window's mean
+all ("no data") is not steady either, nor one where a flow or duty meter whose uncertainty is a
+share of its reading averages zero ("reading zero": the unit out of operation or the transmitter
+dead; its uncertainty would be zero, which no reconciliation can weigh). A tag with no sample in a window leaves that window's mean
 NaN and does not by itself make it unsteady: the reconciliation treats it as unmeasured there.
 
 A window mean's uncertainty is the instrument's stated one (its accuracy: a calibration error
@@ -116,8 +118,13 @@ def average_windows(samples: pd.DataFrame, monitoring: MonitoringFile) -> Window
         drifts = {"trend": (trend.abs(), (noise / np.sqrt(time_spread)).where(time_spread > 0.0, 0.0)),
                   "change": (change, (noise * np.sqrt(1.0 / count + 1.0 / count.shift())).fillna(0.0))}
     where_said = {"trend": "across the window", "change": "since the window before"}
+    stated = pd.DataFrame({t.name: t.sigma_of(mean[t.name].to_numpy()) for t in tags}, index=mean.index)
     tests = [(f"too few samples (under {rule.minimum_samples})", (count > 0) & (count < rule.minimum_samples), count,
-              count * 0.0, "{:.0f} samples", "")]
+              count * 0.0, "{:.0f} samples", ""),
+             # a meter whose uncertainty is a share of its reading says nothing at zero: a unit out
+             # of operation or a dead transmitter, not a measurement to reconcile
+             ("reading zero (out of operation, or a dead transmitter?)", (count > 0) & ~(stated > 0.0), mean,
+              count * 0.0, "{:.3g} on average", "")]
     drift_tests = []
     for kind, threshold, unit in (("flow", rule.flow_change, " of the mean"),
                                   ("temperature", rule.temperature_change, " K")):
@@ -143,7 +150,6 @@ def average_windows(samples: pd.DataFrame, monitoring: MonitoringFile) -> Window
         parts.append(_describe(title, hit, (measure.to_numpy(), allowance.to_numpy(), unit), list(failed.columns),
                                detail))
     reason = pd.Series(_join(parts), index=mean.index, name="reason")
-    stated = pd.DataFrame({t.name: t.sigma_of(mean[t.name].to_numpy()) for t in tags}, index=mean.index)
     scatter = (binned.std() / np.sqrt(count)).where(count >= SCATTER_SAMPLES)
     wide = scatter > stated
     return Windows(mean, count, pd.Series(steady, index=mean.index, name="steady"), reason,

@@ -20,8 +20,11 @@ from .text import boxed, fitted, note_lines
 
 from hxtrain.network.monitoring_file import shown_duration
 from hxtrain.solver.monitoring.excursions import EXCURSION
+from hxtrain.solver.monitoring.historian import SPIKE
 
 TREND_DAYS = 90
+SPIKES_SHOWN = 8
+"""Spikes named one by one in the report (the rest are counted; all are in the skipped rows)."""
 """The fouling trend is the weighted least-squares slope over the last this many days of
 identifiable windows since the exchanger's last cleaning, given per 30 days with its expanded
 uncertainty (k = 2): over a shorter span the noise of daily back-calculated fouling swamps it."""
@@ -202,7 +205,18 @@ def _skipped_lines(skipped: pd.DataFrame) -> list[str]:
             most = ""
         parts = ([f"{whole} rows"] if whole else []) + ([f"{int(cells.sum())} cells{most}"] if cells.any() else [])
         lines.append(f"  left out ({reason}): {' and '.join(parts)}")
+        if reason == SPIKE:  # readings taken out of the data: each named, with its neighbours
+            lines += [f"    {r.column} at {pd.Timestamp(r.time):%Y-%m-%d %H:%M} (data file row {r.row}): {r.detail}"
+                      for r in rows.head(SPIKES_SHOWN).itertuples()]
+            if len(rows) > SPIKES_SHOWN:
+                lines.append(f"    and {len(rows) - SPIKES_SHOWN} more (the skipped rows table, written by --out)")
     return lines
+
+
+def _numbered(table: pd.DataFrame, name: str) -> pd.DataFrame:
+    """``table`` with its rows numbered from 1 under ``name`` (a file's 'row' would be read as the
+    data file's row beside data_file_row)."""
+    return table.set_axis(pd.RangeIndex(1, len(table) + 1, name=name))
 
 
 def _excursion_lines(state: pd.DataFrame) -> list[str]:
@@ -330,7 +344,7 @@ def monitoring_tables(result, display: Display | None = None) -> dict:
             "cleanings": result.cleanings.rename(columns=names.CLEANING_NAMES),
             "projection": result.projection, "limit_dates": _limit_dates(result.limit_dates, display),
             # the file's own row number, apart from the row each written table numbers itself by
-            "skipped_rows": result.history.skipped.rename(columns={"row": "data_file_row"})}
+            "skipped_rows": _numbered(result.history.skipped.rename(columns={"row": "data_file_row"}), "skip")}
 
 
 def _limit_dates(dates, display: Display):

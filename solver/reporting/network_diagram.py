@@ -12,7 +12,7 @@ Symbols and colours are our own: an exchanger is two dots on its two rows joined
 unit on one stream a rounded square, warm where it heats the stream and cool where it cools
 it; a junction (a split or a mix) a small diamond joined to the rows it feeds or collects (a
 flash drum's with its tag); a bypass a dashed arc round the unit on its stream's row, away from
-the unit's other row. Segment temperatures are written on each row; a unit with a violated limit
+the unit's other row, its fraction written under the unit's duty. Segment temperatures are written on each row; a unit with a violated limit
 is ringed in red with a "!", one with a warning in amber; every unit links to its row in the
 report's tables.
 """
@@ -41,6 +41,8 @@ HEATS, COOLS = "#9c4f96", "#5aa9c9"  # a heater in plum: amber is a warning's, r
 LIMIT, WARNING = "#d62828", "#e0a800"
 BYPASS_REACH, BYPASS_RISE = 26, 15
 """A bypass arc's half-width and height (SVG units)."""
+HALO = ' stroke="#fff" stroke-width="3" paint-order="stroke"'
+"""A white edge under a label's letters: legible where a link or an arc runs behind it."""
 
 
 @dataclass
@@ -79,19 +81,28 @@ def rows_of(result: SimulationResult) -> tuple[list[Row], set, set]:
             if end in junctions:
                 nodes.append(end)
             chunk = temperatures[first:last + 1]
-            rows.append(Row(origin.name if k == 0 else f"{origin.name} ({k + 1})", nodes,
-                            {s.unit: s.side for s in origin.path}, start, end,
-                            len(chunk) < 2 or chunk[-1] >= chunk[0], utility, chunk))
+            sides = {s.unit: s.side for s in origin.path}
+            rows.append(Row(origin.name if k == 0 else f"{origin.name} ({k + 1})", nodes, sides, start, end,
+                            _heated(chunk, [sides.get(n) for n in nodes]), utility, chunk))
     _level_rows_follow_their_stream(rows)
     placed = {n for row in rows for n in row.nodes}
     return rows, placed, junctions
+
+
+def _heated(temperatures: list, sides: list) -> bool:
+    """A row is heated where its temperature rises along it; where it stays level (its exchangers
+    bypassed, or no duty), where it passes an exchanger's cold side rather than its hot one."""
+    if len(temperatures) >= 2 and temperatures[-1] != temperatures[0]:
+        return temperatures[-1] > temperatures[0]
+    return "hot" not in sides or "cold" in sides
 
 
 def _level_rows_follow_their_stream(rows: list[Row]):
     """A row whose temperature does not change (a splitter's branch straight to a mixer) runs the
     way the row that feeds it runs (else the row it feeds), not left to right by default: a
     branch of a cooled stream is drawn with that stream, through any number of such rows."""
-    level = [r for r in rows if r.temperatures[-1:] == r.temperatures[:1]]  # one segment, or no change
+    level = [r for r in rows if r.temperatures[-1:] == r.temperatures[:1]  # one segment, or no change,
+             and not {"hot", "cold"} & {r.sides.get(n) for n in r.nodes}]   # and no exchanger side to tell
     known = [r for r in rows if r not in level]
     while level:
         for row in level:
@@ -180,15 +191,15 @@ def network_svg(result: SimulationResult, display: Display) -> str:
                          f'stroke-width="1.6"{dash}/>')
     for row in rows:
         parts += _row(row, x, y[row.name], junctions, display)
-    bypassed = {}
+    bypassed = {}  # unit -> {side: fraction}; a unit's tag is lifted over an arc on its top row
     for row in rows:
         for node, yy, fraction in _bypasses(row, y[row.name], units):
             away = -1 if yy == min(rows_at[node]) else 1
             parts.append(_bypass_arc(node, x[node], yy, away, fraction, row))
-            bypassed[node] = bypassed.get(node, False) or away == -1
+            bypassed.setdefault(node, {})[row.sides.get(node)] = (fraction, away == -1)
     for node in placed:
         parts += _unit(node, x[node], rows_at[node], node in junctions, units, severity, display,
-                       lifted=bypassed.get(node, False))
+                       bypassed.get(node, {}))
     parts.append("</svg>")
     return "".join(parts)
 
@@ -242,7 +253,7 @@ def _row(row: Row, x: dict, y: float, junctions, display: Display) -> list[str]:
     for k, temperature in enumerate(row.temperatures[: len(stops) - 1]):
         middle = (stops[k] + stops[k + 1]) / 2
         shown = f"{display.value('temperature', temperature):,.1f}"
-        parts.append(f'<text x="{middle}" y="{y - 7}" text-anchor="middle" fill="{colour}" font-size="11">'
+        parts.append(f'<text x="{middle}" y="{y - 7}" text-anchor="middle" fill="{colour}" font-size="11"{HALO}>'
                      f'{shown} {label.label}</text>')
     anchor_start, anchor_end = ("end", "start") if row.heated else ("start", "end")
     if row.start not in junctions:
@@ -279,9 +290,12 @@ def _arrow(x, y, step, colour) -> str:
     return (f'<path d="M{x - step * 7},{y - 6} L{x + step * 3},{y} L{x - step * 7},{y + 6} z" fill="{colour}"/>')
 
 
-def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display, lifted=False) -> list[str]:
-    """A unit's symbol, tag and duty, ringed by its worst finding, linked to its table row; the
-    tag ``lifted`` above a bypass arc on its top row."""
+def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display, bypasses=None) -> list[str]:
+    """A unit's symbol, tag and duty, ringed by its worst finding, linked to its table row;
+    ``bypasses`` ({side: (fraction, on the top row)}): the fractions written under the duty, and
+    the tag lifted above an arc on the top row."""
+    bypasses = bypasses or {}
+    lifted = any(top_row for _, top_row in bypasses.values())
     worst = severity.get(node)
     ring = LIMIT if worst == "limit" else WARNING if worst == "warning" else "#333"
     thick = 3.2 if worst else 1.2
@@ -310,9 +324,14 @@ def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display
     parts.append(f'<text x="{x}" y="{top - (14 + BYPASS_RISE if lifted else 14)}" text-anchor="middle" '
                  f'font-weight="bold" fill="{colour}">'
                  f'{escape(node)}{mark}</text>')
+    # an exchanger's words beside its link, not across it; a one-stream unit's under its symbol
+    beside = f'x="{x + 6}" text-anchor="start"' if len(ys) > 1 else f'x="{x}" text-anchor="middle"'
     if duty == duty:
         column = display.column("x_kw")
-        parts.append(f'<text x="{x}" y="{top + 24}" text-anchor="middle" font-size="10" fill="#444">'
+        parts.append(f'<text {beside} y="{top + 24}" font-size="10" fill="#444"{HALO}>'
                      f'{display.value("duty", duty):,.{min(column.digits, 1)}f} {column.label}</text>')
+    if bypasses:
+        words = ", ".join(f"{side} {fraction:.0%}" for side, (fraction, _) in sorted(bypasses.items(), reverse=True))
+        parts.append(f'<text {beside} y="{top + 36}" font-size="10" fill="#444"{HALO}>bypass {escape(words)}</text>')
     parts.append("</g></a>")
     return parts
