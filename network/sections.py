@@ -230,7 +230,9 @@ def _read_splitter(f: Fields, reading: Reading) -> dict:
     total = sum(fractions.values())
     if abs(total - 1.0) > 1e-6:
         shared = "branch fractions" if not by_flow else "fractions of the branches sharing the rest"
-        raise f.error("branches", f"the {shared} sum to {total:.6g}, not 1 (tolerance 1e-6)")
+        raise f.error("branches", f"the {shared} sum to {total:.6g}, not 1 (tolerance 1e-6); a study's 'set' of one "
+                                  "branch must set the others too (a sweep, adjust or uncertainty input on one "
+                                  "branch rescales the others)")
     f.text("description")
     f.finish()
     return {"fractions": {k: v / total for k, v in fractions.items()}, "set_flows": set_flows,

@@ -892,3 +892,17 @@ def test_a_scenario_that_is_not_valid_says_nothing_of_convergence():
     table = simulate_batch(case, {"heaters.H-1.duty": np.array([2000.0, 9e5, 3000.0])}).table
     assert list(table["valid"]) == [True, False, True]
     assert table["converged"].iloc[0] and table["converged"].iloc[2] and pd.isna(table["converged"].iloc[1])
+
+
+def test_a_variant_setting_one_branch_is_told_to_set_the_others(tmp_path, capsys):
+    """A variant's 'set' of one splitter branch leaves the fractions summing to 1.1: refused,
+    exit 2, saying to set the other branches too (a sweep or adjust rescales them; a new user's
+    trial expected the same of 'set')."""
+    from hxtrain.solver.cli.main import main
+
+    study = tmp_path / "study.yaml"
+    study.write_text("base: {demo: crude_preheat}\nvariants:\n  split:\n    changes:\n"
+                     "      - {set: splitters.crude_split.branches.north.fraction, to: 0.6}\n", encoding="utf-8")
+    assert main(["compare", str(study)]) == 2
+    err = capsys.readouterr().err
+    assert "variants.split.changes[0]" in err and "must set the others too" in err

@@ -263,3 +263,16 @@ def test_a_limit_is_quoted_at_its_worst_step():
     assert np.flatnonzero(finding.active)[0] == 1
     none, = design_temperature_findings({"the cold side ": (key, 300.0, peaks - 30.0, peaks)})
     assert none.worst() == -1
+
+
+def test_a_furnace_limit_far_from_the_case_is_refused_as_a_unit_slip(tmp_path):
+    """'maximum_duty: 40' (kW, as a bare number is) against a furnace firing ~30 MW: refused
+    naming furnace.maximum_duty, as the monitoring file's fired-duty limit is (a new user's
+    trial: every plan had cut the throughput to nothing); 28.7 MW is read as it is."""
+    from hxtrain.network.errors import CaseError
+    from hxtrain.solver.scheduling.setup import build_horizon
+
+    with pytest.raises(CaseError, match=r"furnace\.maximum_duty.*a unit slip"):
+        build_horizon(small_schedule(tmp_path, ("X-1",), 4, furnace="40"))
+    horizon, _ = build_horizon(small_schedule(tmp_path, ("X-1",), 4, furnace="28.7 MW"))
+    assert horizon.furnace.maximum_duty == pytest.approx(28700.0)

@@ -59,7 +59,7 @@ from .spikes import isolated_spikes
 from .windows import Windows, average_windows
 
 __all__ = ["History", "Windows", "read_history", "screen_unit_slips", "MAX_BAD_SHARE", "MAX_DATA_BYTES", "REASONS",
-           "PHYSICAL_LIMITS", "SLIP_RATIO", "SLIP_KELVIN"]
+           "PHYSICAL_LIMITS", "SLIP_RATIO", "SLIP_KELVIN", "fired_limit_slip"]
 
 MAX_BAD_SHARE = 0.5
 """More than half the rows bad (skipped, or with a cell that is bad other than merely missing) is
@@ -450,14 +450,25 @@ def screen_unit_slips(history: History, monitoring: MonitoringFile):
                                             f"point? (a screen of common practice: flows and duties within "
                                             f"{1 / SLIP_RATIO:g} to {SLIP_RATIO:g} times the case, temperatures "
                                             f"within {SLIP_KELVIN:g} K)")
-    for heater, limit in monitoring.limits["fired_duty"].items():  # a bare number is kW: 40 meant as MW is a slip
-        simulated = abs(float(base.reports[heater].metrics["duty"][0]))
-        ratio = limit / simulated if simulated > 0.0 else 1.0
-        if not 1.0 / SLIP_RATIO <= ratio <= SLIP_RATIO:
-            raise monitoring.error(("limits", "fired_duty", heater), (
-                f"the limit, {limit:.6g} kW, is {ratio:.3g} times the base case's fired duty of {heater} "
-                f"({simulated:.6g} kW): a unit slip? (a bare number is kW; write the unit, e.g. '40 MW'; a screen of "
-                f"common practice: within {1 / SLIP_RATIO:g} to {SLIP_RATIO:g} times the case)"))
+    for heater, limit in monitoring.limits["fired_duty"].items():
+        slip = fired_limit_slip(limit, heater, base)
+        if slip:
+            raise monitoring.error(("limits", "fired_duty", heater), slip)
+
+
+def fired_limit_slip(limit: float, heater: str, base) -> str:
+    """Why a fired-duty limit (kW) looks like a unit slip against the base case's evaluation
+    ``base`` (more than :data:`SLIP_RATIO` times away from the heater's fired duty there: a bare
+    number is kW, and 40 meant as MW is a slip); "" where it does not, or the base has no answer."""
+    if not base.success[0]:
+        return ""
+    simulated = abs(float(base.reports[heater].metrics["duty"][0]))
+    ratio = limit / simulated if simulated > 0.0 else 1.0
+    if 1.0 / SLIP_RATIO <= ratio <= SLIP_RATIO:
+        return ""
+    return (f"the limit, {limit:.6g} kW, is {ratio:.3g} times the base case's fired duty of {heater} "
+            f"({simulated:.6g} kW): a unit slip? (a bare number is kW; write the unit, e.g. '40 MW'; a screen of "
+            f"common practice: within {1 / SLIP_RATIO:g} to {SLIP_RATIO:g} times the case)")
 
 
 def _check_bad_share(history: History, monitoring: MonitoringFile):

@@ -115,7 +115,22 @@ def build_horizon(schedule: ScheduleFile, progress=None) -> tuple[Horizon, pd.Da
                       schedule.steps, operating_settings(schedule), dict(schedule.economics), schedule.furnace,
                       schedule.start, new_limits_allowed=schedule.new_limits_allowed)
     _check_threshold_conditions(schedule, horizon, written)
+    _check_furnace_limit(schedule)
     return horizon, sources.set_index("exchanger")
+
+
+def _check_furnace_limit(schedule: ScheduleFile):
+    """A furnace limit far from the case's fired duty is a unit slip (a bare 40 read as kW would
+    cut the throughput to nothing in every plan): refused, as the monitoring file's is."""
+    from hxtrain.solver.monitoring.historian import fired_limit_slip
+    from hxtrain.solver.simulation.evaluation import evaluate
+
+    furnace = schedule.furnace
+    if furnace is None:
+        return
+    slip = fired_limit_slip(furnace.maximum_duty, furnace.heater, evaluate(schedule.case))
+    if slip:
+        raise schedule.error(("furnace", "maximum_duty"), slip)
 
 
 def _check_threshold_conditions(schedule: ScheduleFile, horizon: Horizon, written):
