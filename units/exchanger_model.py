@@ -350,9 +350,10 @@ class Exchanger(UnitBase):
             quantities.update({k: np.where(idle, np.nan, quantities[k])
                                for k in ("ntu", "p", "r", "effectiveness", "f", "lmtd", "approach")})
         for side, t_inside in _outlets_inside(x).items():
-            if np.any(_bypass(self.spec, side)):  # what the side reaches inside, ahead of its bypass
+            fraction = _bypass(self.spec, side)
+            if np.any(fraction):  # what the side reaches inside, ahead of its bypass
                 quantities[f"t_{side}_out_inside"] = np.where(still[side], np.nan, t_inside)
-                quantities[f"bypass_{side}"] = np.broadcast_to(_bypass(self.spec, side), x.duty.shape)
+                quantities[f"bypass_{side}"] = np.broadcast_to(fraction, x.duty.shape)
         coefficients = service.coefficients
         quantities.update(coefficient_quantities(self.spec, coefficients, x.duty.shape))
         for side, drop in service.pressure_drop.items():

@@ -370,7 +370,7 @@ def _without_spikes(values: dict, monitoring: MonitoringFile, keep: np.ndarray, 
     branches): kept, for the steady-state test to judge."""
     tags = monitoring.tags.values()
     found = {tag.name: isolated_spikes(values[tag.name][keep], tag.sigma_of) for tag in tags}
-    alone = sum(spike.astype(int) for spike, _, _ in found.values()) == 1 if found else None
+    alone = np.sum([spike for spike, _, _ in found.values()], axis=0) == 1  # the only tag spiking in its row
     cleaned = dict(values)
     for tag in tags:
         spike, before, after = found[tag.name]

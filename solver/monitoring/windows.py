@@ -38,8 +38,9 @@ tested: a heater's duty follows the flows and temperatures that are. A window wi
 ``minimum_samples`` samples of a tag that it does have ("too few samples") or with no sample at
 all ("no data") is not steady either, nor one where a flow or duty meter whose uncertainty is a
 share of its reading averages zero ("reading zero": the unit out of operation or the transmitter
-dead; its uncertainty would be zero, which no reconciliation can weigh). A tag with no sample in a window leaves that window's mean
-NaN and does not by itself make it unsteady: the reconciliation treats it as unmeasured there.
+dead; its uncertainty would be zero, which no reconciliation can weigh). A tag with no sample in
+a window leaves that window's mean NaN and does not by itself make it unsteady: the
+reconciliation treats it as unmeasured there.
 
 A window mean's uncertainty is the instrument's stated one (its accuracy: a calibration error
 does not average out), unless the readings scatter more: with n >= :data:`SCATTER_SAMPLES`

@@ -23,11 +23,11 @@ from hxtrain.solver.monitoring.excursions import EXCURSION
 from hxtrain.solver.monitoring.historian import SPIKE
 
 TREND_DAYS = 90
-SPIKES_SHOWN = 8
-"""Spikes named one by one in the report (the rest are counted; all are in the skipped rows)."""
 """The fouling trend is the weighted least-squares slope over the last this many days of
 identifiable windows since the exchanger's last cleaning, given per 30 days with its expanded
 uncertainty (k = 2): over a shorter span the noise of daily back-calculated fouling swamps it."""
+SPIKES_SHOWN = 8
+"""Spikes named one by one in the report (the rest are counted; all are in the skipped rows)."""
 
 
 def fouling_trend(state: pd.DataFrame, cleanings: pd.DataFrame, days=TREND_DAYS) -> pd.DataFrame:

@@ -12,9 +12,9 @@ Symbols and colours are our own: an exchanger is two dots on its two rows joined
 unit on one stream a rounded square, warm where it heats the stream and cool where it cools
 it; a junction (a split or a mix) a small diamond joined to the rows it feeds or collects (a
 flash drum's with its tag); a bypass a dashed arc round the unit on its stream's row, away from
-the unit's other row, its fraction written under the unit's duty. Segment temperatures are written on each row; a unit with a violated limit
-is ringed in red with a "!", one with a warning in amber; every unit links to its row in the
-report's tables.
+the unit's other row, its fraction written under the unit's duty. Segment temperatures are
+written on each row; a unit with a violated limit is ringed in red with a "!", one with a
+warning in amber; every unit links to its row in the report's tables.
 """
 
 from __future__ import annotations
@@ -191,12 +191,12 @@ def network_svg(result: SimulationResult, display: Display) -> str:
                          f'stroke-width="1.6"{dash}/>')
     for row in rows:
         parts += _row(row, x, y[row.name], junctions, display)
-    bypassed = {}  # unit -> {side: fraction}; a unit's tag is lifted over an arc on its top row
+    bypassed = {}  # unit -> {side: (fraction, on its top row)}: its words, and its tag lifted over a top arc
     for row in rows:
-        for node, yy, fraction in _bypasses(row, y[row.name], units):
-            away = -1 if yy == min(rows_at[node]) else 1
-            parts.append(_bypass_arc(node, x[node], yy, away, fraction, row))
-            bypassed.setdefault(node, {})[row.sides.get(node)] = (fraction, away == -1)
+        for node, side, fraction in _bypasses(row, units):
+            top_row = y[row.name] == min(rows_at[node])
+            parts.append(_bypass_arc(node, side, fraction, x[node], y[row.name], -1 if top_row else 1, _colour(row)))
+            bypassed.setdefault(node, {})[side] = (fraction, top_row)
     for node in placed:
         parts += _unit(node, x[node], rows_at[node], node in junctions, units, severity, display,
                        bypassed.get(node, {}))
@@ -245,7 +245,7 @@ def _row(row: Row, x: dict, y: float, junctions, display: Display) -> list[str]:
     start, end = _ends(row, x, junctions)
     inner = [p for n, p in zip(row.nodes, points) if n not in (row.start, row.end) or n not in junctions]
     stops = [start, *inner, end]
-    colour = UTILITY if row.utility else (HEATED if row.heated else COOLED)
+    colour = _colour(row)
     dash = ' stroke-dasharray="6 4"' if row.utility else ""
     parts = [f'<line x1="{start}" y1="{y}" x2="{end}" y2="{y}" stroke="{colour}" stroke-width="3"{dash}/>',
              _arrow(end - step * 10, y, step, colour)]
@@ -265,25 +265,29 @@ def _row(row: Row, x: dict, y: float, junctions, display: Display) -> list[str]:
     return parts
 
 
-def _bypasses(row: Row, y: float, units: pd.DataFrame):
-    """(unit, the row's y, fraction) where the row's stream goes partly round a unit on it (its
-    side's bypass fraction in the units table)."""
+def _bypasses(row: Row, units: pd.DataFrame):
+    """(unit, side, fraction) where the row's stream goes partly round a unit on it (its side's
+    bypass fraction in the units table)."""
     for node in row.nodes:
-        column = f"{row.sides.get(node)}_bypass_fraction"
+        side = row.sides.get(node)
+        column = f"{side}_bypass_fraction"
         if column in units and node in units.index:
             fraction = units.at[node, column]
             if fraction == fraction and fraction > 0.0:
-                yield node, y, float(fraction)
+                yield node, side, float(fraction)
 
 
-def _bypass_arc(node, x, y, away, fraction, row: Row) -> str:
+def _bypass_arc(node, side, fraction, x, y, away, colour) -> str:
     """A dashed arc leaving the row before the unit and rejoining it after, on the side away
     from the unit's other row (``away``: -1 above, 1 below), titled with the fraction."""
-    colour = UTILITY if row.utility else (HEATED if row.heated else COOLED)
-    side = row.sides.get(node)
     return (f'<path d="M{x - BYPASS_REACH},{y} Q{x},{y + away * 2 * BYPASS_RISE} {x + BYPASS_REACH},{y}" fill="none" '
             f'stroke="{colour}" stroke-width="1.8" stroke-dasharray="4 3"><title>{escape(node)}: '
             f'{fraction:.0%} of the {side} side goes round it (bypass)</title></path>')
+
+
+def _colour(row: Row) -> str:
+    """A row's colour: a utility's grey, else heated blue or cooled rust."""
+    return UTILITY if row.utility else (HEATED if row.heated else COOLED)
 
 
 def _arrow(x, y, step, colour) -> str:

@@ -12,6 +12,8 @@ zero), and says so.
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 import pandas as pd
 
@@ -114,39 +116,41 @@ def build_horizon(schedule: ScheduleFile, progress=None) -> tuple[Horizon, pd.Da
     horizon = Horizon(schedule.case, exchangers, laws, duration, cost, schedule.step / pd.Timedelta(days=1),
                       schedule.steps, operating_settings(schedule), dict(schedule.economics), schedule.furnace,
                       schedule.start, new_limits_allowed=schedule.new_limits_allowed)
-    _check_threshold_conditions(schedule, horizon, written)
-    _check_furnace_limit(schedule)
+    from hxtrain.solver.simulation.evaluation import evaluate
+
+    base = functools.cache(lambda: evaluate(schedule.case))  # the case as written: evaluated once, if needed
+    _check_threshold_conditions(schedule, horizon, written, base)
+    _check_furnace_limit(schedule, base)
     return horizon, sources.set_index("exchanger")
 
 
-def _check_furnace_limit(schedule: ScheduleFile):
-    """A furnace limit far from the case's fired duty is a unit slip (a bare 40 read as kW would
-    cut the throughput to nothing in every plan): refused, as the monitoring file's is."""
+def _check_furnace_limit(schedule: ScheduleFile, base):
+    """A furnace limit far from the case's fired duty (``base()``: the case's evaluation) is a
+    unit slip (a bare 40 read as kW would cut the throughput to nothing in every plan): refused,
+    as the monitoring file's is."""
     from hxtrain.solver.monitoring.historian import fired_limit_slip
-    from hxtrain.solver.simulation.evaluation import evaluate
 
     furnace = schedule.furnace
     if furnace is None:
         return
-    slip = fired_limit_slip(furnace.maximum_duty, furnace.heater, evaluate(schedule.case))
+    slip = fired_limit_slip(furnace.maximum_duty, furnace.heater, base())
     if slip:
         raise schedule.error(("furnace", "maximum_duty"), slip)
 
 
-def _check_threshold_conditions(schedule: ScheduleFile, horizon: Horizon, written):
+def _check_threshold_conditions(schedule: ScheduleFile, horizon: Horizon, written, base):
     """A threshold law's rate follows the tube side's Reynolds number, film temperature and wall
     shear, which the network gives only from film coefficients and the tube-side fluid's
     viscosity, conductivity and density: without them it is refused, naming the law, before
     any plan is rated (its costs would have no number)."""
     from hxtrain.solver.monitoring.fouling_fits import fouling_side_conditions
     from hxtrain.solver.monitoring.projection import evaluation_conditions
-    from hxtrain.solver.simulation.evaluation import evaluate
     from hxtrain.units.fouling_models import MODELS
 
     adaptive = [n for n in horizon.exchangers if MODELS[horizon.laws[n].model].conditions]
     if not adaptive:
         return
-    evaluation = evaluate(horizon.case)
+    evaluation = base()
     table = evaluation_conditions(evaluation, adaptive)
     side = fouling_side_conditions(evaluation.net, table)
     for name in adaptive:
