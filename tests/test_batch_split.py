@@ -130,7 +130,7 @@ def test_the_probe_times_a_scenario_without_the_fixed_cost_of_a_batch(fake_solve
     reuses the order) for a saving."""
     fake_solves(0.030, 14e-6, planning=0.010)
     values = {"streams.crude.flow": np.linspace(70.0, 110.0, 20_000)}
-    probes, each = batch_module._probe(None, values, None, None, False, lambda cost: True)
+    probes, each, _ = batch_module._probe(None, values, None, None, False, lambda cost: True)
     assert [len(r.table) for r in probes] == [batch_module.PROBE, batch_module.PROBE_GROWTH * batch_module.PROBE]
     assert each == pytest.approx(14e-6, rel=1e-6)
 
@@ -143,3 +143,43 @@ def test_a_first_probe_that_cannot_pay_well_is_not_followed_by_a_second(fake_sol
     result = simulate_batch(demo_case_path("crude_preheat"), {"streams.crude.flow": np.linspace(70.0, 110.0, 20_000)},
                             workers=2)
     assert solved == [batch_module.PROBE, 20_000 - batch_module.PROBE] and result.processes == 1
+
+
+def test_a_later_batch_of_the_same_case_is_decided_without_a_probe(fake_solves):
+    """A study sends many batches of one case; the probe is a batch with its own fixed cost,
+    lost wherever the batch then stays in one process (20 ms of a 100 ms batch here). The first
+    batch's probe is remembered for the case object and its varied keys: a later batch that it
+    says stays here is solved whole at once. Another case, or other varied keys, probe again."""
+    solved = fake_solves(0.020, 4e-6)
+    case = batch_module.as_case(demo_case_path("crude_preheat"))
+    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 20_000)}
+    simulate_batch(case, values, workers=2)
+    assert solved == [batch_module.PROBE, 20_000 - batch_module.PROBE]
+    solved.clear()
+    assert simulate_batch(case, values, workers=2).processes == 1
+    assert solved == [20_000]
+    solved.clear()
+    simulate_batch(case, {"streams.crude.supply_temperature": np.linspace(20.0, 40.0, 20_000)}, workers=2)
+    simulate_batch(batch_module.as_case(demo_case_path("crude_preheat")), values, workers=2)
+    assert solved == [batch_module.PROBE, 20_000 - batch_module.PROBE] * 2
+
+
+def test_a_remembered_cost_that_says_split_splits_the_whole_batch_alike(monkeypatch):
+    """Where the first batch's probes found a split pays, a later batch is split from its first
+    scenario (no probe solved here first): the same table and temperatures as one process."""
+    monkeypatch.setattr(batch_module, "PROBE", 4)
+    monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 4)
+    monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
+    monkeypatch.setattr(batch_module, "CLEARLY_WORTH", 0.0)
+    case = batch_module.as_case(demo_case_path("crude_preheat"))
+    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 30)}
+    whole = simulate_batch(case, values)
+    first = simulate_batch(case, values, workers=2)
+    known = batch_module._remembered(case, values, False)
+    assert first.processes == 2 and known is not None and known.exact
+    solved = []
+    monkeypatch.setattr(batch_module, "_probe", lambda *args: solved.append(args) or pytest.fail("probed again"))
+    later = simulate_batch(case, values, workers=2)
+    assert later.processes == 2 and not solved
+    pd.testing.assert_frame_equal(later.table, whole.table, check_exact=False, rtol=1e-11, atol=1e-9)
+    np.testing.assert_allclose(later.temperature, whole.temperature, rtol=0, atol=1e-9)

@@ -13,6 +13,7 @@ import contextvars
 import multiprocessing
 import sys
 import time
+import weakref
 from concurrent.futures import ProcessPoolExecutor
 from contextlib import contextmanager
 from dataclasses import dataclass, field
@@ -75,6 +76,40 @@ scenario, 37 µs without the fixed cost) and ~0.02 s in the fixed-property form 
 6.5 µs); a second probe costs that fixed cost again, which as shipped ate the gain of a split
 of 20,000 scenarios."""
 
+
+@dataclass
+class _Measured:
+    """What the probes of a case's first split-allowed batch found, kept for its later batches
+    (:func:`_remembered`): a study sends many batches of one case, and each probe is a batch with
+    its own fixed cost, which is lost wherever the batch then stays in one process."""
+
+    each: float
+    """Seconds a scenario costs: without the batch's fixed cost (``exact``, two probes), or the
+    first probe's cost with it (an upper bound: one probe was enough to refuse a split)."""
+    exact: bool
+    segments: int
+    float_columns: tuple
+    """What a worker's shared block is sized after (see :mod:`.part_transfer`)."""
+
+
+_MEASURED: dict = {}
+"""(id of a case, its varied key paths, metrics or not) -> :class:`_Measured`, dropped when the
+case is. Only a split is decided from it: the calculation order is found again (a study may
+change the case between batches)."""
+
+
+def _remembered(case, values, metrics) -> _Measured | None:
+    return _MEASURED.get((id(case), tuple(sorted(values)), bool(metrics)))
+
+
+def _remember(case, values, metrics, each, exact, probe) -> _Measured:
+    key = (id(case), tuple(sorted(values)), bool(metrics))
+    if key not in _MEASURED:
+        weakref.finalize(case, _MEASURED.pop, key, None)
+    _MEASURED[key] = _Measured(each, exact, probe.temperature.shape[1], part_transfer.float_columns(probe.table))
+    return _MEASURED[key]
+
+
 _CLUSTER = contextvars.ContextVar("hxtrain_batch_cluster", default=None)
 
 
@@ -101,7 +136,9 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
     are solved here, timed (:func:`_probe`); only where the time other processes would save
     exceeds what they cost (:func:`_pays`) is the rest cut into contiguous parts (at least
     :data:`PROCESS_MINIMUM` scenarios a part), this process solving one of them while worker
-    processes solve the others and return their floats through shared memory. Inside
+    processes solve the others and return their floats through shared memory. A later batch of
+    the same case object with the same varied keys is decided from what the first one's probes
+    measured (:func:`_remembered`), without probing again: split whole, or solved here. Inside
     :func:`batches_on` the parts go to that cluster instead. Every scenario converges on its own
     either way; ``iterations`` is the largest over the parts. ``metrics`` adds a column per named
     result of every unit (``TAG.duty``, ``TAG.cold_out``, ...: what a study may target), NaN where
@@ -118,16 +155,22 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
     if int(workers) <= 1 or scenarios < (1 + PROBE_GROWTH) * PROBE + 2 * PROCESS_MINIMUM:
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
-    first, each = _probe(case, values, tolerance, max_iterations, metrics, lambda cost: _pays(
+    known, parts = _remembered(case, values, metrics), _parts(workers, scenarios)
+    if known is not None and (known.exact or not _pays(known.each / SECOND_PROBE_WORTH, scenarios, parts)):
+        if not (known.exact and _pays(known.each, scenarios, parts)):
+            return _solve_batch(case, values, tolerance, max_iterations, metrics)
+        return _joined(_split(case, _pieces(values, scenarios, parts), tolerance, max_iterations, metrics, None,
+                              known), processes=parts)
+    first, each, bound = _probe(case, values, tolerance, max_iterations, metrics, lambda cost: _pays(
         cost / SECOND_PROBE_WORTH, scenarios - PROBE, _parts(workers, scenarios - PROBE)))
+    measured = _remember(case, values, metrics, bound if each is None else each, each is not None, first[0])
     probed = sum(len(r.table) for r in first)
     rest = _take(values, slice(probed, scenarios))
     parts = _parts(workers, scenarios - probed)
-    plan = first[0].plan
     if parts == 1 or each is None or not _pays(each, scenarios - probed, parts):
-        return _joined([*first, _solve_batch(case, rest, tolerance, max_iterations, metrics, plan)])
+        return _joined([*first, _solve_batch(case, rest, tolerance, max_iterations, metrics, first[0].plan)])
     return _joined([*first, *_split(case, _pieces(rest, scenarios - probed, parts), tolerance, max_iterations,
-                                    metrics, plan, first[0])], processes=parts)
+                                    metrics, first[0].plan, measured)], processes=parts)
 
 
 def _parts(workers, scenarios) -> int:
@@ -144,12 +187,12 @@ def _pays(each, scenarios, parts) -> bool:
     return parts > 1 and saved > PROCESS_COST * (parts - 1)
 
 
-def _split(case, jobs, tolerance, max_iterations, metrics, plan, probe):
+def _split(case, jobs, tolerance, max_iterations, metrics, plan, measured: _Measured):
     """The results of ``jobs`` (value sets), the first solved in this process, the others by
-    worker processes that return their floats through shared memory sized after ``probe``."""
+    worker processes that return their floats through shared memory sized after ``measured``;
+    ``plan``: the calculation order, or None to find it in each process."""
     sizes = [scenario_count(job) for job in jobs[1:]]
-    with part_transfer.reserve(sizes, probe.temperature.shape[1], part_transfer.float_columns(probe.table)) as (
-            blocks, shared):
+    with part_transfer.reserve(sizes, measured.segments, measured.float_columns) as (blocks, shared):
         others = len(jobs) - 1
         with ProcessPoolExecutor(others, mp_context=_process_context()) as pool:
             sent = pool.map(_solve_part, [case] * others, jobs[1:], [tolerance] * others, [max_iterations] * others,
@@ -166,7 +209,8 @@ def _solve_part(case, values, tolerance, max_iterations, metrics, plan, shared):
 
 def _probe(case, values, tolerance, max_iterations, metrics, pays):
     """(the probes' results, the seconds one more scenario costs, or None where a split would
-    not pay well even at the first probe's cost per scenario). Every batch has a fixed cost
+    not pay well even at the first probe's cost per scenario; and that first probe's cost per
+    scenario, its fixed cost included). Every batch has a fixed cost
     (order, tears, each unit's per-call overhead in every sweep: ~0.02 s for the crude demo's
     fixed-property form, ~0.09 s as shipped) besides its cost per scenario, and a split saves only
     the latter: timed alone, 2,000 scenarios of the fixed form cost 15 µs each against 6.5 µs
@@ -182,14 +226,14 @@ def _probe(case, values, tolerance, max_iterations, metrics, pays):
     first = _solve_batch(case, _take(values, slice(0, PROBE)), tolerance, max_iterations, metrics)
     small = time.process_time() - start - first.planning_seconds
     if small / PROBE >= CLEARLY_WORTH:
-        return [first], small / PROBE
+        return [first], small / PROBE, small / PROBE
     if not pays(small / PROBE):
-        return [first], None
+        return [first], None, small / PROBE
     start = time.process_time()
     second = _solve_batch(case, _take(values, slice(PROBE, (1 + PROBE_GROWTH) * PROBE)), tolerance, max_iterations,
                           metrics, first.plan)
     large = time.process_time() - start
-    return [first, second], max(0.0, large - small) / ((PROBE_GROWTH - 1) * PROBE)
+    return [first, second], max(0.0, large - small) / ((PROBE_GROWTH - 1) * PROBE), small / PROBE
 
 
 def _take(values, where):

@@ -88,7 +88,8 @@ def time_case(case, label, scenarios, loop, workers, repeats=3):
     runs = [lambda: simulate_batch(case, {path: flows})]
     if workers > 1:
         runs.append(lambda: simulate_batch(case, {path: flows}, workers=workers))
-    timed = _alternated(runs, repeats)
+    firsts = []
+    timed = _alternated(runs, repeats, firsts)
     (one_process, batch), (several, split) = timed[0], timed[-1]  # one process allowed: the same run
     worst = float(np.nanmax(np.abs(split.temperature - batch.temperature)))
     start = time.perf_counter()
@@ -100,22 +101,27 @@ def time_case(case, label, scenarios, loop, workers, repeats=3):
     loop_seconds = time.perf_counter() - start
     return {"label": label, "batch_seconds": one_process, "batch_rate": scenarios / one_process,
             "workers_seconds": several, "workers_rate": scenarios / several, "processes": split.processes,
+            "first_seconds": firsts[0], "workers_first_seconds": firsts[-1],
             "loop_seconds": loop_seconds,
             "loop_rate": loop / loop_seconds, "largest_difference_k": worst,
             "all_converged": bool(batch.table["converged"].all() and split.table["converged"].all()),
             "iterations": batch.iterations}
 
 
-def _alternated(functions, repeats):
+def _alternated(functions, repeats, firsts=None):
     """[(the shortest of ``repeats`` timings, the result of that run)] for each of ``functions``,
     run in turn ``repeats`` times: on a shared machine a run is disturbed now and then, and
-    alternating lets the disturbances fall on both sides alike."""
+    alternating lets the disturbances fall on both sides alike. ``firsts``, where given, gets
+    each function's first timing (a split batch's first run probes; later ones remember)."""
     best = [(float("inf"), None) for _ in functions]
-    for _ in range(repeats):
+    for round_ in range(repeats):
         for k, function in enumerate(functions):
             start = time.perf_counter()
             result = function()
-            best[k] = min(best[k], (time.perf_counter() - start, result), key=lambda pair: pair[0])
+            seconds = time.perf_counter() - start
+            if round_ == 0 and firsts is not None:
+                firsts.append(seconds)
+            best[k] = min(best[k], (seconds, result), key=lambda pair: pair[0])
     return best
 
 
@@ -179,7 +185,8 @@ def benchmark_text(figures) -> str:
             f"    batch, 1 process:  {row['batch_seconds']:7.2f} s = {row['batch_rate']:10,.0f} scenario-solves/s "
             f"({row['iterations']} tear iterations)",
             *([f"    batch, {split}: {row['workers_seconds']:7.2f} s = {row['workers_rate']:10,.0f} "
-               f"scenario-solves/s ({row['workers_rate'] / row['batch_rate']:.2f} x 1 process)"]
+               f"scenario-solves/s ({row['workers_rate'] / row['batch_rate']:.2f} x 1 process; first runs, where it "
+            f"probes the case's cost: {row['first_seconds'] / row['workers_first_seconds']:.2f} x)"]
               if f["workers"] > 1 else []),
             f"    loop of single solves:       {row['loop_rate']:10,.2f} scenario-solves/s",
             f"    batch / loop: {row['batch_rate'] / row['loop_rate']:,.0f} x (1 process)"
