@@ -369,7 +369,9 @@ def _grid_values(doc: Document, where, raw, kind: q.Kind, path) -> np.ndarray:
         start, stop = r.quantity("from", kind), r.quantity("to", kind)
         steps = r.integer("steps", None, 2, 10_000)
         r.finish()
-        values = np.linspace(start, stop, steps)
+        # to 12 significant digits: 0.8, not linspace's 0.7999999999999999, in the tables and files
+        # (and so in the case solved: the point is the value the user reads)
+        values = np.array([float(f"{v:.12g}") for v in np.linspace(start, stop, steps)])
     elif isinstance(raw, list) and raw:
         with attributed(doc):
             values = np.array([study_number(v, kind, where + (i,)) for i, v in enumerate(raw)], dtype=float)

@@ -790,7 +790,22 @@ def test_a_point_found_impossible_while_solving_gets_a_row_that_names_it(folder,
     assert "heaters.H-2.outlet_temperature = 450" in message and "fluids.crude.valid_range" in message
     assert np.isnan(table["heat_recovered_kw"].iloc[1]) and np.isfinite(table["heat_recovered_kw"].iloc[0])
     code, out, err = run_cli(capsys, "sweep", study_file)
-    assert code == 0 and "WITH NO ANSWER" in out and "point 2:" in out
+    assert code == 0 and "WITH NO ANSWER (key paths in the case every_key.yaml)" in out and "point 2:" in out
+
+
+def test_a_grid_from_to_steps_gives_the_values_a_user_reads(folder):
+    """{from: 0.7, to: 1.15, steps: 10} is 0.7, 0.75, 0.8, ...: linspace's 0.7999999999999999 and
+    1.0499999999999998 had reached the tables and files (and the case solved)."""
+    study = load_study(write(folder, """
+        base: every_key.yaml
+        sweeps:
+          s:
+            grid:
+              streams.feed.flow: {from: 0.7, to: 1.15, steps: 10}
+            scale: true
+        """))
+    values = study.sweeps[0].grid["streams.feed.flow"]
+    assert [repr(float(v)) for v in values] == ["0.7", "0.75", "0.8", "0.85", "0.9", "0.95", "1.0", "1.05", "1.1", "1.15"]
 
 
 # ----------------------------------------------------------------------------- the study surface, swept

@@ -159,7 +159,8 @@ def test_samples_without_an_answer_say_why_and_so_does_the_tornado(tmp_path, cap
     assert [(path, q) for path, q, _, _ in result.tornado_gaps] == [("streams.raw_charge.flow", 10)]
     assert main(["uncertainty", str(study)]) == 0
     out = " ".join(capsys.readouterr().out.split())
-    assert f"SAMPLES WITH NO ANSWER, LEFT OUT OF THE PERCENTILES: {failed.sum()} of 200" in out
+    assert (f"SAMPLES WITH NO ANSWER, LEFT OUT OF THE PERCENTILES (key paths in the case desalter_and_reactor.yaml): "
+            f"{failed.sum()} of 200") in out
     assert f"{failed.sum()} sample(s), e.g. splitters.charge_split" in out
     assert "streams.raw_charge.flow at its P10 (" in out and "has no answer: splitters.charge_split" in out
 

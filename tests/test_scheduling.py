@@ -276,3 +276,30 @@ def test_a_furnace_limit_far_from_the_case_is_refused_as_a_unit_slip(tmp_path):
         build_horizon(small_schedule(tmp_path, ("X-1",), 4, furnace="40"))
     horizon, _ = build_horizon(small_schedule(tmp_path, ("X-1",), 4, furnace="28.7 MW"))
     assert horizon.furnace.maximum_duty == pytest.approx(28700.0)
+
+
+def test_a_limit_the_plan_violates_is_shown_beside_the_train_with_no_cleaning(tmp_path):
+    """A cleaning warms the train downstream, so a plan may make a standing violation worse (the
+    crude schedule: E-112 at 293.2 °C at worst against 288.0 °C with no cleaning, which the box
+    had not said). Each limit the plan violates is shown with the same limit on the train with
+    no cleaning: its steps and its worst; 'kept in every step' where that train keeps it."""
+    import yaml
+
+    from hxtrain.solver.reporting.schedule_text import schedule_report
+    from hxtrain.solver.scheduling.plan_cleanings import _beside_no_cleaning, plan_cleanings
+
+    small_schedule(tmp_path, ("X-1", "X-3"), 6)
+    data = yaml.safe_load(SMALL_CASE)
+    data["exchangers"]["X-3"]["design_temperature"] = {"cold": 150}  # below every step's outlet, fouled or clean
+    (tmp_path / "small.yaml").write_text(yaml.safe_dump(data))
+    result = plan_cleanings(tmp_path / "schedule.yaml")
+    row = result.limits.set_index("unit").loc["X-3"]
+    assert row["steps"] == 6 and row["no_cleaning_steps"] == 6
+    hottest = [float(text.split("reaches ")[1].split(" °C")[0]) for text in (row["message"], row["no_cleaning_message"])]
+    cleaned = bool(result.plans["optimised"][1].any())
+    assert (hottest[0] > hottest[1]) if cleaned else (hottest[0] == hottest[1])
+    text = " ".join(schedule_report(result).split())
+    assert "with no cleaning: in 6 of 6 steps, at worst the cold side" in text and f"reaches {hottest[1]:.1f} °C" in text
+    own = result.limits[["unit", "limit", "key", "steps", "first", "worst", "message"]]
+    beside = _beside_no_cleaning(own.assign(unit="X-9"), own)  # a limit the train with no cleaning keeps throughout
+    assert beside["no_cleaning_steps"].tolist() == [0] and beside["no_cleaning_message"].tolist() == [""]

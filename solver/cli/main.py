@@ -133,7 +133,7 @@ def _sweep(args) -> int:
     from hxtrain.solver.reporting.console_tables import render
     from hxtrain.solver.reporting.display_units import current
     from hxtrain.solver.reporting.files import with_whole_counts
-    from hxtrain.solver.reporting.text import boxed, limits_over_scenarios, note_lines
+    from hxtrain.solver.reporting.text import boxed, limits_over_scenarios, note_lines, paths_of_the_case
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies import run_sweep
     from hxtrain.solver.studies.sweeps import grid_columns_with_units
@@ -155,7 +155,7 @@ def _sweep(args) -> int:
         print(render(with_whole_counts(table.drop(columns=["message", "status_text", "violated_limits"])), display,
                      digits={"relative_imbalance": ".1e"}))
         failed = table[~table["success"].astype(bool)]
-        print("\n".join(boxed(f"POINTS OF SWEEP {name} WITH NO ANSWER",
+        print("\n".join(boxed(f"POINTS OF SWEEP {name} WITH NO ANSWER ({paths_of_the_case(study)})",
                                (f"point {k + 1}: {display.message(m)}"
                                 for k, m in zip(failed.index, failed["message"])))))
         print("\n".join(limits_over_scenarios(table, f"points of sweep {name}", display, name_rows="point")))

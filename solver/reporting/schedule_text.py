@@ -115,6 +115,10 @@ def _limit_lines(result, display: Display):
         text = (f"{row.unit}: at worst {display.message(row.message)} — in {row.steps} of {result.horizon.steps} "
                 f"steps, first at {_day(row.first)}, worst at {_day(row.worst)}  [{row.key}]")
         lines += textwrap.wrap(text, WIDTH - 3, subsequent_indent="   ")
+        reference = (f"with no cleaning: in {row.no_cleaning_steps} of {result.horizon.steps} steps, at worst "
+                     f"{display.message(row.no_cleaning_message)} at {_day(row.no_cleaning_worst)}"
+                     if row.no_cleaning_steps else "with no cleaning: kept in every step")
+        lines += textwrap.wrap(reference, WIDTH - 3, initial_indent="   ", subsequent_indent="   ")
     return lines
 
 

@@ -9,6 +9,7 @@ limits and warnings come last, boxed, so they are the last thing on the screen.
 from __future__ import annotations
 
 import textwrap
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -130,6 +131,12 @@ def boxed(title: str, lines, count=None, display: Display | None = None) -> list
     if not display.wide:
         lines = [part for line in lines for part in (textwrap.wrap(line, WIDTH - 3, subsequent_indent="   ") or [""])]
     return ["", "!" * 78, f"!! {title}: {count}", "!" * 78, *(f"!! {line}" for line in lines), "!" * 78]
+
+
+def paths_of_the_case(study) -> str:
+    """Where the key paths of a study's scenario messages are: the study's base case file (a
+    scenario's reason names a key of the case, e.g. a fluid's data range, not of the study)."""
+    return f"key paths in the case {Path(study.base.file).name}"
 
 
 def limits_over_scenarios(table, noun: str, display: Display | None = None, name_rows: str = "") -> list[str]:

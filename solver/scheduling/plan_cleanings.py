@@ -47,8 +47,11 @@ class ScheduleResult:
     plans: dict
     seconds: float
     limits: pd.DataFrame = None
-    """The limits the optimised plan violates: unit, limit, key, steps violated, first step and
-    its date, the first message."""
+    """The limits the optimised plan violates: unit, limit, key, steps violated, the dates of
+    the first and the worst, the worst's message; and the same limit on the train with no
+    cleaning: ``no_cleaning_steps`` (0 where it keeps the limit), ``no_cleaning_worst`` and
+    ``no_cleaning_message`` (a plan may make a standing violation worse: a cleaning warms the
+    train downstream)."""
 
 
 def plan_cleanings(path_or_schedule, progress=None) -> ScheduleResult:
@@ -71,7 +74,8 @@ def plan_cleanings(path_or_schedule, progress=None) -> ScheduleResult:
     clean = _never_fouling(horizon)
     comparison = _comparison(search, outcome, names, clean)
     plans = {OPTIMISED: search.plan, **baselines}
-    steps, limits = _step_table(horizon, search)
+    steps, limits = _step_table(horizon, search.outcome)
+    limits = _beside_no_cleaning(limits, _step_table(horizon, none)[1])
     return ScheduleResult(schedule, horizon, comparison, _plan_table(schedule, horizon, search.plan), steps, laws,
                           search.history, plans, time.perf_counter() - started, limits)
 
@@ -108,12 +112,23 @@ def _plan_table(schedule: ScheduleFile, horizon: Horizon, plan) -> pd.DataFrame:
     return table.sort_values(["start", "exchanger"]).reset_index(drop=True)
 
 
-def _step_table(horizon: Horizon, search: Search) -> pd.DataFrame:
-    """Per step of the optimised plan: each exchanger's fouling (m²·K/W, NaN while out of service)
-    and duty, the fired duty, the heaters' inlet temperatures, the throughput share, limits."""
+def _beside_no_cleaning(limits: pd.DataFrame, reference: pd.DataFrame) -> pd.DataFrame:
+    """The plan's ``limits`` with the same limit (unit, kind, key) on the train with no cleaning:
+    its steps violated (0: kept), the date and message of its worst step."""
+    named = reference.set_index(["unit", "limit", "key"])
+    shown = limits.join(named[["steps", "worst", "message"]].rename(columns=lambda c: f"no_cleaning_{c}"),
+                        on=["unit", "limit", "key"])
+    shown["no_cleaning_steps"] = shown["no_cleaning_steps"].fillna(0).astype(int)
+    shown["no_cleaning_message"] = shown["no_cleaning_message"].fillna("")
+    return shown
+
+
+def _step_table(horizon: Horizon, outcome) -> pd.DataFrame:
+    """Per step of a marched plan (``outcome``'s first): each exchanger's fouling (m²·K/W, NaN
+    while out of service) and duty, the fired duty, the heaters' inlet temperatures, the
+    throughput share, limits; and the limits violated, one row each."""
     from hxtrain.solver.simulation.evaluation import evaluate
 
-    outcome = search.outcome
     fouling, busy = outcome.fouling[:1], outcome.out_of_service[:1]
     values = scenario_values(horizon, fouling, busy, outcome.throughput[:1])
     evaluation = evaluate(horizon.case, values)

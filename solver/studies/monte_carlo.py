@@ -183,7 +183,7 @@ def uncertainty_text(result: UncertaintyResult, study, display=None) -> str:
     command's units and width)."""
     from hxtrain.solver.reporting.console_tables import fixed, render, render_any
     from hxtrain.solver.reporting.display_units import current
-    from hxtrain.solver.reporting.text import boxed, fitted, limits_over_scenarios
+    from hxtrain.solver.reporting.text import boxed, fitted, limits_over_scenarios, paths_of_the_case
 
     display = display or current()
     tables = result.shown_tables(display)
@@ -207,7 +207,8 @@ def uncertainty_text(result: UncertaintyResult, study, display=None) -> str:
     else:
         lines.append("The fired heaters' duty does not vary over the samples (none in this case, or none that the inputs "
                      "reach): nothing to rank.")
-    lines += boxed("SAMPLES WITH NO ANSWER, LEFT OUT OF THE PERCENTILES", _reasons(result.samples, display),
+    lines += boxed(f"SAMPLES WITH NO ANSWER, LEFT OUT OF THE PERCENTILES ({paths_of_the_case(study)})",
+                   _reasons(result.samples, display),
                    count=f"{result.failed:,} of {samples:,}")
     lines += limits_over_scenarios(result.samples, "samples", display)
     return "\n".join(lines)
