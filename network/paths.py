@@ -99,7 +99,8 @@ def check_connections(case, doc: Document, sections):
     check_supply_reaches_every_unit(case, doc)
 
 
-def _listed(words, last=" and ") -> str:
+def listed(words, last=" and ") -> str:
+    """Words in a sentence: "a", "a and b", "a, b and c" (repeats once)."""
     words = list(dict.fromkeys(words))
     return words[0] if len(words) == 1 else ", ".join(words[:-1]) + last + words[-1]
 
@@ -112,14 +113,14 @@ class _Words:
         sided = [s.word for s in sections if len(s.through) > 1]
         single = [s.word for s in sections if s.through == (None,)]
         ends = [s.word for s in sections if s.path_end]
-        self.single = _listed(single, " or ")
-        self.passable = _listed(sided + single, " or ")
-        self.one_stream = f"each {_listed(sided, ' and each ')} side and each {self.single} takes exactly one stream"
+        self.single = listed(single, " or ")
+        self.passable = listed(sided + single, " or ")
+        self.one_stream = f"each {listed(sided, ' and each ')} side and each {self.single} takes exactly one stream"
         ordered = sorted(ends, key=lambda w: w != "product")  # the usual end first
-        self.ends = _listed([f"a {w}" for w in ordered], " or ")
-        self.ends_bare = _listed(ordered, " or ")
-        self.many = _listed([s.word for s in sections if s.path_end == "many"], " or ")
-        self.fed = _listed([f"{w} side" if w in sided else w for w in sided + single + ends])
+        self.ends = listed([f"a {w}" for w in ordered], " or ")
+        self.ends_bare = listed(ordered, " or ")
+        self.many = listed([s.word for s in sections if s.path_end == "many"], " or ")
+        self.fed = listed([f"{w} side" if w in sided else w for w in sided + single + ends])
 
 
 def check_supply_reaches_every_unit(case, doc: Document):

@@ -442,8 +442,10 @@ def _furnace(top: Fields, case: Case, net: Network) -> FurnaceLimit | None:
 def _baselines(top: Fields, step, steps, design: dict) -> dict:
     f = top.mapping("baselines", what="a mapping with fixed_intervals and fouling_threshold")
     raw = None if f is None else f.raw("fixed_intervals", required=False)
+    left_out = []  # default intervals not shorter than the horizon: the report says so
     if raw is None:
         intervals = [_nearest_steps(d, step) for d in DEFAULT_FIXED_INTERVALS if d < step * steps]
+        left_out = [d for d in DEFAULT_FIXED_INTERVALS if d >= step * steps]
     elif not isinstance(raw, list) or not raw:
         raise f.error("fixed_intervals", f"expected a list of durations such as [26 weeks, 52 weeks], got "
                                          f"{describe(raw)}")
@@ -459,5 +461,5 @@ def _baselines(top: Fields, step, steps, design: dict) -> dict:
     threshold = None if f is None else read_quantity(f, "fouling_threshold", q.FOULING, above=0.0)
     if f is not None:
         f.finish()
-    return {"fixed_intervals": sorted(set(intervals)),
+    return {"fixed_intervals": sorted(set(intervals)), "intervals_left_out": left_out,
             "fouling_threshold": {t: design[t] if threshold is None else threshold for t in design}}

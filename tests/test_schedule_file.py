@@ -181,14 +181,16 @@ def test_cleaning_terms_and_baselines(good):
     assert good.cleaning == {"E-101": CleaningTerms(45000.0, 2, False), "E-104": CleaningTerms(45000.0, 2, True),
                              "E-112": CleaningTerms(70000.0, 2, True)}
     assert good.at_most_at_once == 2 and good.not_allowed == []
-    assert good.baselines == {"fixed_intervals": [26, 39],
+    assert good.baselines == {"fixed_intervals": [26, 39], "intervals_left_out": [],
                               "fouling_threshold": {t: pytest.approx(0.002) for t in ("E-101", "E-104", "E-112")}}
 
 
 def test_baselines_default_to_the_intervals_shorter_than_the_horizon():
-    """The design's defaults are 26, 39, 52 and 78 weeks; over 52 weeks only 26 and 39 remain."""
+    """The design's defaults are 26, 39, 52 and 78 weeks; over 52 weeks only 26 and 39 remain,
+    and the two left out are kept for the report to say so."""
     plan = schedule()
     assert plan.baselines["fixed_intervals"] == [26, 39]
+    assert plan.baselines["intervals_left_out"] == [pd.Timedelta(weeks=52), pd.Timedelta(weeks=78)]
     assert plan.cleaning == {"E-104": CleaningTerms(45000.0, 2, True)}
     assert plan.at_most_at_once == 1
 

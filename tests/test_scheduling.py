@@ -303,3 +303,26 @@ def test_a_limit_the_plan_violates_is_shown_beside_the_train_with_no_cleaning(tm
     own = result.limits[["unit", "limit", "key", "steps", "first", "worst", "message"]]
     beside = _beside_no_cleaning(own.assign(unit="X-9"), own)  # a limit the train with no cleaning keeps throughout
     assert beside["no_cleaning_steps"].tolist() == [0] and beside["no_cleaning_message"].tolist() == [""]
+
+
+def test_the_baselines_cleanings_are_written_and_default_intervals_left_out_are_said(tmp_path):
+    """Each baseline's cleanings are a table of their own (its dates had not been written: a
+    baseline's cost could not be checked against its plan), dated like the optimised plan's;
+    the default fixed intervals (26 to 78 weeks) not shorter than a 6-week horizon had been
+    dropped without a word."""
+    from hxtrain.solver.reporting.schedule_text import schedule_report, schedule_tables
+    from hxtrain.solver.scheduling.plan_cleanings import plan_cleanings
+
+    schedule = small_schedule(tmp_path, ("X-1", "X-3"), 6)
+    schedule.baselines["fouling_threshold"] = {"X-1": 1e-4, "X-3": 1e-4}  # below the start: cleaned when allowed
+    result = plan_cleanings(schedule)
+    table = schedule_tables(result)["baseline_cleanings"]
+    assert list(table.columns) == ["baseline", "exchanger", "start", "back_in_service", "steps_out", "cost_usd"]
+    counts = table.groupby("baseline").size()
+    for name, plan in result.plans.items():
+        if name != "optimised":
+            assert counts.get(name, 0) == int(np.sum(plan))
+    assert counts["fouling threshold"] >= 2 and str(table["start"].dtype).startswith("datetime64")
+    text = " ".join(schedule_report(result).split())
+    assert ("the default fixed-interval baselines of 26 weeks, 39 weeks, 52 weeks and 78 weeks are not shorter than "
+            "the horizon: left out") in text

@@ -12,6 +12,9 @@ import textwrap
 import numpy as np
 import pandas as pd
 
+from hxtrain.network.monitoring_file import shown_duration
+from hxtrain.network.paths import listed
+
 from . import plant_tables as names
 from .console_tables import fixed, render
 from .display_units import Display, current
@@ -56,6 +59,10 @@ def schedule_report(result, display: Display | None = None) -> str:
     for first, last, why in schedule.not_allowed:
         parts.append(f"  no cleaning in the steps from {_day(horizon.start + first * schedule.step)} to "
                      f"{_day(horizon.start + (last + 1) * schedule.step - pd.Timedelta(days=1))} (whole steps): {why}")
+    left_out = schedule.baselines.get("intervals_left_out") or []
+    if left_out:
+        parts.append(f"  the default fixed-interval baselines of {listed([shown_duration(d) for d in left_out])} "
+                     "are not shorter than the horizon: left out")
     if schedule.furnace is not None:
         f = schedule.furnace
         parts.append(f"  {f.heater} fires at most {amount(display, 'duty', f.maximum_duty)}; beyond it {f.throughput} "
@@ -144,4 +151,5 @@ def schedule_tables(result) -> dict:
     return {"plan": names.money(result.plan, currency), "plan_by_month": plan_grid(result),
             "comparison": names.money(result.comparison, currency), "steps": names.money(result.steps, currency),
             "fouling_laws": law_table(result), "search": names.money(result.search, currency),
+            "baseline_cleanings": names.money(result.baseline_cleanings, currency),
             "limits": result.limits}

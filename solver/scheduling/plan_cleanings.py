@@ -46,6 +46,8 @@ class ScheduleResult:
     search: pd.DataFrame
     plans: dict
     seconds: float
+    baseline_cleanings: pd.DataFrame = None
+    """Every baseline's cleanings, one row each: ``baseline``, then the columns of ``plan``."""
     limits: pd.DataFrame = None
     """The limits the optimised plan violates: unit, limit, key, steps violated, the dates of
     the first and the worst, the worst's message; and the same limit on the train with no
@@ -76,8 +78,12 @@ def plan_cleanings(path_or_schedule, progress=None) -> ScheduleResult:
     plans = {OPTIMISED: search.plan, **baselines}
     steps, limits = _step_table(horizon, search.outcome)
     limits = _beside_no_cleaning(limits, _step_table(horizon, none)[1])
+    cleanings = pd.concat([_plan_table(schedule, horizon, plan).assign(baseline=name) for name, plan in baselines.items()],
+                          ignore_index=True)
+    cleanings = cleanings[["baseline", *cleanings.columns.drop("baseline")]].astype(
+        {"start": "datetime64[ns]", "back_in_service": "datetime64[ns]"})  # a plan with none had left them text
     return ScheduleResult(schedule, horizon, comparison, _plan_table(schedule, horizon, search.plan), steps, laws,
-                          search.history, plans, time.perf_counter() - started, limits)
+                          search.history, plans, time.perf_counter() - started, cleanings, limits)
 
 
 def _never_fouling(horizon: Horizon) -> float:
