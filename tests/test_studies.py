@@ -1231,3 +1231,36 @@ def test_a_sweep_names_the_limits_its_points_violate(tmp_path, capsys):
         expected = {f"{u} {k}" for u, k in zip(limits["unit"], limits["kind"])}
         named = {label.split(" (")[0] for label in row["violated_limits"].split("; ") if label}
         assert named == expected
+
+
+@pytest.mark.parametrize("peak, goal, met", [(250.0, 245.0, True), (250.0, 255.0, False)])
+def test_a_specification_whose_result_turns_inside_the_range_is_scanned(monkeypatch, peak, goal, met):
+    """A result that peaks inside the adjusted range (a trial's exchanger duty against a flow)
+    lies on one side of its target at both ends: checking the ends alone had said 'out of reach'
+    of a target met inside. The range is scanned; the target is met where a turn crosses it (and
+    the message says the ends do not bracket it and that another value meets it too), and where
+    none does the reach quoted is the scan's, not the ends'. By hand: 230 + (peak - 230)·(1 -
+    ((x - 0.3)/0.3)²) over [0, 0.6] meets 245 at x = 0.3 ± 0.3·√(1 - 15/20) = 0.15 and 0.45."""
+    import hxtrain.solver.studies.specifications as specifications
+
+    study = load_study(demo_case_path("crude_preheat").with_name("crude_preheat_study.yaml"))
+    spec = next(s for s in study.specifications if s.name == "e110_outlet_by_bypass")
+    spec.target = dict(spec.target, equals=goal)
+    last = {}
+    original = specifications.adjust_changes
+
+    def remembered(study, path, value, *args):
+        last["x"] = value
+        return original(study, path, value, *args)
+
+    monkeypatch.setattr(specifications, "adjust_changes", remembered)
+    monkeypatch.setattr(specifications, "simulate_at", lambda *args: None)
+    monkeypatch.setattr(specifications, "metric", lambda result, name: 230.0 + (peak - 230.0) * (1.0 - ((last["x"] - 0.3) / 0.3) ** 2))
+    result = specifications.solve_specification(study, spec)
+    assert result.achievable == pytest.approx((230.0, 230.0))
+    if met:
+        assert result.success and result.value == pytest.approx(0.15, abs=1e-6) and result.achieved == pytest.approx(245.0)
+        assert "the ends do not bracket the target, and another value meets it too" in result.message
+    else:
+        assert not result.success and result.value is None
+        assert "out of reach" in result.message and "gives 230.0 °C to 250.0 °C" in result.message

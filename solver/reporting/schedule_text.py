@@ -61,8 +61,9 @@ def schedule_report(result, display: Display | None = None) -> str:
                      f"{_day(horizon.start + (last + 1) * schedule.step - pd.Timedelta(days=1))} (whole steps): {why}")
     left_out = schedule.baselines.get("intervals_left_out") or []
     if left_out:
-        parts.append(f"  the default fixed-interval baselines of {listed([shown_duration(d) for d in left_out])} "
-                     "are not shorter than the horizon: left out")
+        parts += textwrap.wrap(f"the default fixed-interval baselines of {listed([shown_duration(d) for d in left_out])}"
+                               " are not shorter than the horizon: left out", WIDTH, initial_indent="  ",
+                               subsequent_indent="    ")
     if schedule.furnace is not None:
         f = schedule.furnace
         parts.append(f"  {f.heater} fires at most {amount(display, 'duty', f.maximum_duty)}; beyond it {f.throughput} "

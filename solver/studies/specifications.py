@@ -5,6 +5,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
 import pandas as pd
 from scipy.optimize import brentq
 
@@ -82,22 +83,43 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
     goal = spec.target["equals"]
     low, high = achieved(spec.low), achieved(spec.high)
     reach = (low, high)
-    if (low - goal) * (high - goal) > 0:
-        lo, hi = sorted(reach)
-        return SpecificationResult(spec.name, spec.adjust, False, None, None, goal, reach, count, _worded(
-            "target {} is out of reach: adjusting {} over {} to {} gives {} to {}", (goal, target_unit), spec.adjust,
-            (spec.low, adjust_unit), (spec.high, adjust_unit), (lo, target_unit), (hi, target_unit)),
-            adjust_unit.strip(), target_unit.strip())
-    if low == goal or high == goal:
-        x = spec.low if low == goal else spec.high
-    else:
-        # xtol relative to the range searched: an absolute one would be coarse for small values
-        # (a fouling resistance of 5e-4 m²·K/W found only to within 1e-6)
-        x = brentq(lambda v: achieved(v) - goal, spec.low, spec.high, xtol=tolerance * (spec.high - spec.low))
+    bracket, scanned = (spec.low, spec.high), None
+    if (low - goal) * (high - goal) > 0:  # the ends do not bracket it: a result may turn inside the range
+        points = np.linspace(spec.low, spec.high, SCAN_INTERVALS + 1)
+        scanned = [low, *(achieved(x) for x in points[1:-1]), high]
+        crossing = np.flatnonzero(np.diff(np.sign(np.asarray(scanned) - goal)) != 0)
+        if not crossing.size:
+            lo, hi = min(scanned), max(scanned)
+            return SpecificationResult(spec.name, spec.adjust, False, None, None, goal, reach, count, _worded(
+                "target {} is out of reach: adjusting {} over {} to {} gives {} to {} (at its ends and "
+                f"{SCAN_INTERVALS - 1} points between)", (goal, target_unit), spec.adjust, (spec.low, adjust_unit),
+                (spec.high, adjust_unit), (lo, target_unit), (hi, target_unit)), adjust_unit.strip(), target_unit.strip())
+        bracket = tuple(points[crossing[0]:crossing[0] + 2])
+    at_ends = (low, high) if scanned is None else scanned[crossing[0]:crossing[0] + 2]
+    x = _root(lambda v: achieved(v) - goal, *bracket, [v - goal for v in at_ends], tolerance * (spec.high - spec.low))
     reached = achieved(x)
+    more = "" if scanned is None else (
+        f" (the result turns inside the range: found between {bracket[0]:g} and {bracket[1]:g}; the ends do not "
+        "bracket the target" + (", and another value meets it too)" if crossing.size > 1 else ")"))
     return SpecificationResult(spec.name, spec.adjust, True, x, reached, goal, reach, count, _worded(
-        "{} = {} gives {} (target {})", spec.adjust, (x, adjust_unit), (reached, target_unit), (goal, target_unit)),
-        adjust_unit.strip(), target_unit.strip())
+        "{} = {} gives {} (target {})" + more, spec.adjust, (x, adjust_unit), (reached, target_unit),
+        (goal, target_unit)), adjust_unit.strip(), target_unit.strip())
+
+
+SCAN_INTERVALS = 16
+"""Where a result at the two ends of the range lies on one side of its target, the range is
+scanned at this many equal intervals for a turn that crosses it (a duty that peaks inside a
+flow range: checking the ends alone had said 'out of reach' of a target met inside)."""
+
+
+def _root(shortfall, a, b, ends, xtol):
+    """The adjusted value in [a, b], where ``shortfall`` (known there as ``ends``) changes sign,
+    by Brent's method; an end itself where the shortfall is zero there."""
+    if ends[0] == 0.0 or ends[1] == 0.0:
+        return a if ends[0] == 0.0 else b
+    # xtol relative to the range searched: an absolute one would be coarse for small values
+    # (a fouling resistance of 5e-4 m²·K/W found only to within 1e-6)
+    return brentq(shortfall, a, b, xtol=xtol)
 
 
 def solve_specifications(study: Study) -> list[SpecificationResult]:
