@@ -267,7 +267,10 @@ def apply_change(data: dict, change: dict, where=()) -> None:
     target, at = change[verb], where + (verb,)
     if verb == "set":
         node, key = locate(data, target, at)
+        shells = _shell_count(data, target, at)
         node[key] = copy.deepcopy(change["to"])
+        if shells is not None:
+            _keep_drop_per_shell(node, target.split(".")[1], shells, _shell_count(data, target, at), at)
     elif verb == "scale":
         node, key, kind, value = existing_number(data, target, at)
         refuse_temperature_multiple(target, kind, at)
@@ -293,6 +296,7 @@ def apply_change(data: dict, change: dict, where=()) -> None:
         if "ua" in exchanger and shells + count > 0:  # a total UA: each shell added brings its share
             ua = case_number(exchanger["ua"], q.CONDUCTANCE, f"exchangers.{target}.ua", at)
             exchanger["ua"] = ua * (shells + count) / shells
+        _keep_drop_per_shell(exchanger, target, shells, shells + count, at)
     else:
         exchanger = _exchanger(data, target, at)
         if "fouling" not in exchanger:
@@ -335,6 +339,32 @@ def rescaled_branches(fractions: dict, branch, value) -> dict:
 def is_branch_fraction(path) -> bool:
     parts = path.split(".") if isinstance(path, str) else []
     return len(parts) == 5 and parts[0] == "splitters" and parts[2] == "branches" and parts[4] == "fraction"
+
+
+def _shell_count(data, path, at):
+    """The shells in series of the exchanger whose ``shells`` key ``path`` is (1 where unwritten);
+    None where ``path`` is another key or the count is not a whole number yet (the case's own
+    check names it)."""
+    parts = path.split(".") if isinstance(path, str) else []
+    if len(parts) != 3 or parts[0] != "exchangers" or parts[2] != "shells":
+        return None
+    exchanger = (data.get("exchangers") or {}).get(parts[1]) if isinstance(data.get("exchangers"), dict) else None
+    shells = exchanger.get("shells", 1) if isinstance(exchanger, dict) else None
+    return shells if isinstance(shells, int) and not isinstance(shells, bool) and shells > 0 else None
+
+
+def _keep_drop_per_shell(exchanger, tag, before, after, at):
+    """Each side's reference pressure drop (the whole exchanger's, at its reference flow) scaled
+    from ``before`` to ``after`` shells in series: a shell added adds its drop (a third shell on a
+    two-shell exchanger, 1.5 times the drop). A geometry's drop is per shell already."""
+    section = exchanger.get("pressure_drop") if isinstance(exchanger, dict) else None
+    if not isinstance(section, dict) or not isinstance(after, int) or after <= 0 or after == before:
+        return
+    for side, entry in section.items():
+        if isinstance(entry, dict) and entry.get("reference") is not None:
+            reference = case_number(entry["reference"], q.PRESSURE_DROP,
+                                    f"exchangers.{tag}.pressure_drop.{side}.reference", at)
+            section[side] = dict(entry, reference=reference * after / before)
 
 
 def value_changes(data: dict, path, value, where=()) -> list:
