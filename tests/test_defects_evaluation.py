@@ -232,6 +232,22 @@ def test_cleaning_ranking_carries_the_limits_of_each_cleaned_case():
         assert row["limits_when_clean"] == len(clean.limits)
 
 
+def test_the_cleaning_command_boxes_the_limits_in_full(capsys):
+    """Every console report ends with its violated limits in a box: the ranking had only counted
+    them, cut each cleaning's new ones short at the table's width and never named the case's
+    own (the demo's E-112 design temperature). Now: the case's own limits as it is, then each
+    cleaning's new ones, in full."""
+    ranking = cleaning_ranking(demo_case_path("crude_preheat"))
+    new = ranking[ranking["new_limits_when_clean"].astype(str) != ""]
+    assert main(["cleaning"]) == 0
+    out = " ".join(capsys.readouterr().out.replace("\n!! ", " ").split())  # the box's wrapped lines joined
+    assert f"LIMITS VIOLATED: {1 + len(new)}" in out
+    assert ("as it is: E-112: the cold side reaches 280.8 °C, above its design temperature of 280.0 °C "
+            "[exchangers.E-112.design_temperature.cold]") in out
+    for row in new.itertuples():
+        assert f"new with {row.exchanger} clean: {' '.join(str(row.new_limits_when_clean).split())}" in out
+
+
 # ----------------------------------------------------------------------------- item 7
 
 

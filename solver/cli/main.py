@@ -171,8 +171,8 @@ def _cleaning(args) -> int:
     from hxtrain.solver.reporting.console_tables import render
     from hxtrain.solver.reporting.display_units import current
     from hxtrain.solver.reporting.files import check_output_path
-    from hxtrain.solver.reporting.text import note_lines
-    from hxtrain.solver.simulation.results import CAUTION
+    from hxtrain.solver.reporting.text import boxed, note_lines
+    from hxtrain.solver.simulation.results import CAUTION, simulate
     from hxtrain.solver.studies import cleaning_ranking
 
     path = args.case or demo_case_path(DEMO_CASES[0])
@@ -180,14 +180,26 @@ def _cleaning(args) -> int:
     if args.out:
         check_output_path(args.out, inputs, ["ranking"])
     case = load_case(path)
-    ranking = cleaning_ranking(case)
+    fouled = simulate(case)
+    ranking = cleaning_ranking(case, fouled)
     written = _write({"ranking": ranking}, args, {"case_file": str(path), "caution": CAUTION}, inputs)
     print(f"hxtrain cleaning, one exchanger at a time: {case.title or path}")
     print(f"case file: {path}")  # whole, to be copied; the tables keep to the width
     print(render(ranking, current()) if len(ranking) else "no exchanger has fouling")
+    print("\n".join(boxed("LIMITS VIOLATED", _cleaning_limit_lines(fouled, ranking, current()))))
     print("\n" + "\n".join(note_lines(current())))
     _say_written(written)
     return EXIT_OK
+
+
+def _cleaning_limit_lines(fouled, ranking, display) -> list[str]:
+    """The limits the case violates as it is (standing: every cleaned case but those that cure
+    them violates them too), then each cleaning's new ones, in full (the table cuts them short)."""
+    lines = [f"as it is: {r.unit}: {display.message(r.message)}  [{r.key}]" for r in fouled.limits.itertuples()]
+    for row in ranking.itertuples():
+        if getattr(row, "new_limits_when_clean", ""):
+            lines.append(f"new with {row.exchanger} clean: {display.message(row.new_limits_when_clean)}")
+    return lines
 
 
 def _benchmark(args) -> int:

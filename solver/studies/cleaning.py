@@ -14,13 +14,13 @@ from hxtrain.units.protocol import FIRED_HEATERS, Worded
 from .compare import try_scenario
 
 
-def cleaning_ranking(case) -> pd.DataFrame:
+def cleaning_ranking(case, fouled=None) -> pd.DataFrame:
     """For each fouled exchanger, what cleaning it alone gains: fired-heater (furnace) duty saved,
     the exchanger's own duty gained and the heater inlet temperatures gained, with the limits
     the cleaned case violates; ranked by the duty saved. A cleaned case with no answer stays in
-    the table, last, with its reason."""
+    the table, last, with its reason. ``fouled``: the case's own result, where already at hand."""
     case = as_case(case)
-    fouled = simulate(case)
+    fouled = simulate(case) if fouled is None else fouled
     heaters = [k for k in fouled.summary.index if k.endswith("_inlet_c")]
     rows = []
     for tag, data in case.exchangers.items():
