@@ -50,31 +50,33 @@ def _header(title: str, source: str, display: Display) -> list[str]:
             f"<section id=\"caution\" class=\"caution\"><strong>Caution.</strong> {escape(CAUTION)}</section>"]
 
 
-def _finding_items(findings: pd.DataFrame, display: Display, scenario=False) -> str:
+def _finding_items(findings: pd.DataFrame, display: Display, scenario=False, linked=frozenset()) -> str:
+    """The findings as list items, each unit linked to its table row where it has one (``linked``)."""
     items = []
     for row in findings.itertuples():
         where = f"[{escape(row.scenario)}] " if scenario else ""
-        link = f"<a href=\"#unit-{escape(row.unit)}\">{escape(row.unit)}</a>" if not scenario else escape(row.unit)
+        link = f"<a href=\"#unit-{escape(row.unit)}\">{escape(row.unit)}</a>" if row.unit in linked else escape(row.unit)
         items.append(f"<li>{where}{link}: {escape(display.message(row.message))} <code>{escape(str(row.key))}</code></li>")
     return "<ul>" + "".join(items) + "</ul>"
 
 
-def limits_section(findings: pd.DataFrame, display: Display, scenario=False, failures=None) -> str:
-    """Violated limits first, boxed; then warnings; then scenarios with no answer (a study)."""
+def limits_section(findings: pd.DataFrame, display: Display, scenario=False, failures=None, linked=frozenset()) -> str:
+    """Violated limits first, boxed; then warnings; then scenarios with no answer (a study);
+    ``linked``: the units with a table row to link to."""
     limits = findings[findings["severity"] == "limit"]
     warnings = findings[findings["severity"] == "warning"]
     # red with a limit violated, amber with only warnings or scenarios without an answer, green with nothing
     tone = "" if len(limits) else " warned" if len(warnings) or failures else " none"
     parts = [f"<section id=\"limits\" class=\"limits{tone}\">"]
     if len(limits):
-        parts.append(f"<h2>Limits violated: {len(limits)}</h2>{_finding_items(limits, display, scenario)}")
+        parts.append(f"<h2>Limits violated: {len(limits)}</h2>{_finding_items(limits, display, scenario, linked)}")
     else:
         parts.append("<h2>No limit violated</h2>")
     if failures:
         parts.append(f"<h3>Scenarios with no answer: {len(failures)}</h3><ul>"
                      + "".join(f"<li>{escape(m)}</li>" for m in failures.values()) + "</ul>")
     if len(warnings):
-        parts.append(f"<h3>Warnings: {len(warnings)}</h3>{_finding_items(warnings, display, scenario)}")
+        parts.append(f"<h3>Warnings: {len(warnings)}</h3>{_finding_items(warnings, display, scenario, linked)}")
     parts.append("</section>")
     return "".join(parts)
 
@@ -120,12 +122,15 @@ def case_body(result: SimulationResult, display: Display) -> list[str]:
     from .figures import profiles_svg, tq_svgs
 
     limited = set(result.limits["unit"])
-    body = [limits_section(result.findings, display), _totals(result, display),
+    with_rows = {"exchangers": exchanger_table(result), "one_stream": one_stream_table(result),
+                 "separators": separator_table(result), "drums": drum_table(result)}  # tables whose rows are link targets
+    linked = frozenset().union(*(frame.index for frame in with_rows.values()))
+    body = [limits_section(result.findings, display, linked=linked), _totals(result, display),
             "<section id=\"network\"><h2>Network</h2><p class=\"note\">Heated streams run left to right (blue), cooled "
             "streams right to left (rust); each exchanger joins its two streams; a dashed arc round one is a bypass; "
             "temperatures are on the segments; a "
             "unit with a violated limit is ringed in red and marked !, one with a warning in amber. Click a unit for "
-            f"its table row.</p><figure>{network_svg(result, display)}</figure></section>",
+            f"its table row.</p><figure>{network_svg(result, display, linked)}</figure></section>",
             "<section id=\"profiles\"><h2>Temperature along each stream</h2>"
             f"<figure>{profiles_svg(result, display)}</figure></section>"]
     pictures = tq_svgs(result, display)
@@ -136,20 +141,20 @@ def case_body(result: SimulationResult, display: Display) -> list[str]:
                     "which the picture does not show: the table's approach includes it.</p><div class=\"grid\">"
                     + "".join(f"<figure id=\"tq-{escape(t)}\">{svg}</figure>" for t, svg in pictures.items())
                     + "</div></section>")
-    tables = [html_table(exchanger_table(result), display, EXCHANGER_WORDS, ids=True, limited=limited,
+    tables = [html_table(with_rows["exchangers"], display, EXCHANGER_WORDS, ids=True, limited=limited,
                          caption="Exchangers (P, R, NTU on the hot-side basis)")]
     service = service_table(result)
     if len(service):
         tables.append(html_table(service, display, SERVICE_WORDS, {"re_tube": 0}, caption="Exchangers in service"))
-    one_stream = one_stream_table(result)
+    one_stream = with_rows["one_stream"]
     if len(one_stream):
         tables.append(html_table(one_stream, display, ONE_STREAM_WORDS, ids=True, limited=limited,
                                  caption="Heaters and coolers"))
-    separators = separator_table(result)
+    separators = with_rows["separators"]
     if len(separators):
         tables.append(html_table(separators, display, SEPARATOR_WORDS, ids=True, limited=limited,
                                  caption="Desalters (outlets leave at one temperature from the balance)"))
-    drums = drum_table(result)
+    drums = with_rows["drums"]
     if len(drums):
         tables.append(html_table(drums, display, DRUM_WORDS, DRUM_DIGITS, ids=True, limited=limited,
                                  caption=DRUM_TITLE))

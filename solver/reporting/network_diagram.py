@@ -161,8 +161,9 @@ def ordered_rows(rows: list[Row], column: dict) -> list[Row]:
     return cooled + heated
 
 
-def network_svg(result: SimulationResult, display: Display) -> str:
-    """The diagram as an inline SVG element."""
+def network_svg(result: SimulationResult, display: Display, linked=frozenset()) -> str:
+    """The diagram as an inline SVG element; each unit of ``linked`` (those with a table row in
+    the page) links to its row."""
     rows, placed, junctions = rows_of(result)
     column = columns(rows)
     rows = ordered_rows(rows, column)
@@ -199,7 +200,7 @@ def network_svg(result: SimulationResult, display: Display) -> str:
             bypassed.setdefault(node, {})[side] = (fraction, top_row)
     for node in placed:
         parts += _unit(node, x[node], rows_at[node], node in junctions, units, severity, display,
-                       bypassed.get(node, {}))
+                       bypassed.get(node, {}), node in linked)
     parts.append("</svg>")
     return "".join(parts)
 
@@ -294,8 +295,10 @@ def _arrow(x, y, step, colour) -> str:
     return (f'<path d="M{x - step * 7},{y - 6} L{x + step * 3},{y} L{x - step * 7},{y + 6} z" fill="{colour}"/>')
 
 
-def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display, bypasses=None) -> list[str]:
-    """A unit's symbol, tag and duty, ringed by its worst finding, linked to its table row;
+def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display, bypasses=None,
+          linked=False) -> list[str]:
+    """A unit's symbol, tag and duty, ringed by its worst finding, linked to its table row (where
+    ``linked``);
     ``bypasses`` ({side: (fraction, on the top row)}): the fractions written under the duty, and
     the tag lifted above an arc on the top row."""
     bypasses = bypasses or {}
@@ -305,7 +308,8 @@ def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display
     thick = 3.2 if worst else 1.2
     top = min(ys)
     title = escape(node + ("" if worst is None else f": {worst} (see the limits section)"))
-    parts = [f'<a href="#unit-{escape(node)}"><g class="unit"><title>{title}</title>']
+    opening, closing = (f'<a href="#unit-{escape(node)}">', "</a>") if linked else ("", "")
+    parts = [f'{opening}<g class="unit"><title>{title}</title>']
     if junction:
         for yy in ys[:1]:
             parts.append(f'<path d="M{x},{yy - 8} L{x + 8},{yy} L{x},{yy + 8} L{x - 8},{yy} z" fill="#fff" '
@@ -313,7 +317,7 @@ def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display
         if "group" in units and node in units.index and units.at[node, "group"] == "drums":  # a vessel: its tag
             parts.append(f'<text x="{x}" y="{ys[0] - 12}" text-anchor="middle" font-weight="bold" fill="#222">'
                          f'{escape(node)}</text>')
-        parts.append("</g></a>")
+        parts.append(f"</g>{closing}")
         return parts
     duty = units.at[node, "duty_kw"] if node in units.index and "duty_kw" in units else float("nan")
     if len(ys) > 1:
@@ -337,5 +341,5 @@ def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display
     if bypasses:
         words = ", ".join(f"{side} {fraction:.0%}" for side, (fraction, _) in sorted(bypasses.items(), reverse=True))
         parts.append(f'<text {beside} y="{top + 36}" font-size="10" fill="#444"{HALO}>bypass {escape(words)}</text>')
-    parts.append("</g></a>")
+    parts.append(f"</g>{closing}")
     return parts
