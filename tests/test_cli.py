@@ -352,6 +352,8 @@ def test_benchmark_reports_both_forms_of_the_crude_train(capsys):
     """A small run (not a timing): both forms, three rates each, agreement between the paths."""
     code, out, err = run_inprocess(capsys, "benchmark", "--scenarios", 8, "--loop", 1, "--workers", 2)
     assert code == 0, err
+    assert max(len(line) for line in out.splitlines()) <= 120  # lines wrapped to the console width
+    out = " ".join(out.split())
     assert "as shipped: cp(T), film U" in out and "fixed properties: constant cp, fixed UA" in out
     assert out.count("scenario-solves/s") == 6 and out.count("all converged: True") == 2
     assert out.count("batch, 1 process of 2 allowed:") == 2  # 8 scenarios never pay for a second process

@@ -69,7 +69,9 @@ def schedule_report(result, display: Display | None = None) -> str:
         parts.append(f"  {f.heater} fires at most {amount(display, 'duty', f.maximum_duty)}; beyond it {f.throughput} "
                      f"is cut, {f.lost_value:g} {currency} a tonne not processed")
     laws = law_table(result)
-    parts += ["", "Fouling laws (initial: the fouling at the start; r_f0 after cleaning: just after a cleaning)",
+    parts += ["", *textwrap.wrap("Fouling laws (initial: the fouling at the horizon's start; r_f0: the law's own value "
+                                 "at its time origin, as fitted or written; r_f0 after cleaning: where it starts again "
+                                 "after a cleaning)", WIDTH),
               render(laws, display, names.parameter_words(laws.columns.drop(["model", "source"]), display),
                      {c: ".3g" if "_per_day" in c else FOULING_DIGITS for c in laws if c.endswith("_m2k_w")})]
     parts += ["", f"Optimised plan: {_count(len(result.plan), 'cleaning')} ({result.plan['cost'].sum():,.0f} {currency}); "

@@ -22,6 +22,7 @@ from __future__ import annotations
 import copy
 import os
 import platform
+import textwrap
 import time
 
 import numpy as np
@@ -205,4 +206,17 @@ def benchmark_text(figures) -> str:
         lines.append("  start-up (best of 5): " + ", ".join(f"{label} {seconds:.2f} s ({seconds / base:.1f}x)"
                                                           for label, seconds in f["startup"].items()))
     lines.append(f"  machine: {f['machine']}")
-    return "\n".join(lines)
+    return "\n".join(wrapped(lines))
+
+
+CONSOLE_WIDTH = 120
+"""Columns a console report keeps to (the reports' width, :data:`.reporting.console_tables.WIDTH`)."""
+
+
+def wrapped(lines) -> list[str]:
+    """Each line wrapped to :data:`CONSOLE_WIDTH`, its continuations indented four past it."""
+    out = []
+    for line in lines:
+        indent = " " * (len(line) - len(line.lstrip()) + 4)
+        out += textwrap.wrap(line, CONSOLE_WIDTH, subsequent_indent=indent, break_on_hyphens=False) or [""]
+    return out

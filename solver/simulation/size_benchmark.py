@@ -144,7 +144,9 @@ def ladder_text(rows, properties) -> str:
     shapes = list(dict.fromkeys(r["shape"] for r in rows))
     lines.append("fitted exponent of the total time (sizes >= 1000 units): " +
                  ", ".join(f"{s} {_shown(exponent(rows, s))}" for s in shapes))
-    return "\n".join(lines)
+    from hxtrain.solver.simulation.benchmark import wrapped  # not in the ladder's child processes, which time imports
+
+    return "\n".join(wrapped(lines))
 
 
 if __name__ == "__main__":  # a child of :func:`ladder`: one network, one JSON line
