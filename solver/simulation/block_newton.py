@@ -116,7 +116,8 @@ class BlockEquations:
 
 def solve_block(net, layout, units, temperature, flow, guess, tolerance, max_iterations):
     """Converge the block of ``units`` on all its internal segments (see the module notes),
-    starting from ``guess`` (batch,) on every one.
+    starting from ``guess`` (a :class:`.segment_state.StartingPoint`: a previous solution's
+    states where given, else its mean on every one).
 
     ``temperature`` (batch, segments) holds the converged inlets from earlier blocks; the
     block's segments (inside it and leaving it) are written in place, at the last point
@@ -124,7 +125,7 @@ def solve_block(net, layout, units, temperature, flow, guess, tolerance, max_ite
     residual, sweeps, G at that point (batch, internal segments))."""
     equations = BlockEquations(net, units)
     batch = temperature.shape[0]
-    x = layout.guess(net, equations.segments, np.asarray(guess, float).reshape(batch))
+    x = layout.start(net, equations.segments, guess)
     state = equations.evaluate(net, layout, temperature, flow, x)  # (G, Jacobian entries, leaving) at x
     converged, polished = np.zeros(batch, bool), np.zeros(batch, bool)
     active = np.ones(batch, bool)

@@ -19,7 +19,7 @@ from hxtrain.network.errors import HxtrainError
 from hxtrain.units.protocol import Inlets, StackedInlets, outlet_temperatures_together
 
 from hxtrain.solver.simulation.convergence import TearResult, converge_tears
-from hxtrain.solver.simulation.segment_state import SegmentState, segment_state
+from hxtrain.solver.simulation.segment_state import SegmentState, StartingPoint, segment_state
 
 if TYPE_CHECKING:  # the order is found by networkx, loaded only when a network is solved
     from hxtrain.solver.simulation.sequencing import Block
@@ -160,8 +160,9 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None, st
     unconverged in ``TemperatureSolution.converged`` (their temperatures must not be reported;
     :func:`convergence_error` words the diagnosis). Runs of chained cyclic blocks are converged
     together (:mod:`.block_runs`). ``start``: a solution whose segments outside ``plan``'s
-    blocks stand as they are (``plan`` then the part of the calculation order to solve again);
-    the result's blocks are ``plan``'s."""
+    blocks stand as they are (``plan`` then the part of the calculation order to solve again)
+    and whose states start the iterations of the blocks solved again; the result's blocks are
+    ``plan``'s."""
     from hxtrain.solver.simulation.block_runs import with_runs
     from hxtrain.solver.simulation.sequencing import plan_calculation
 
@@ -175,7 +176,7 @@ def solve_temperatures(net, *, tolerance, max_iterations, batch=1, plan=None, st
         np.array(start.state, order="F")
     outcomes = []
     converged = np.ones(batch, bool)
-    guess = initial_guess(net, batch)
+    guess = StartingPoint(initial_guess(net, batch), None if start is None else np.asarray(start.state))
     for block in with_runs(net, plan, batch, LARGE_BLOCK_TEARS):
         converged &= _solve_block(net, layout, block, temperature, flow, guess, tolerance, max_iterations, outcomes)
     return TemperatureSolution(layout.temperatures(net, temperature), outcomes, converged, temperature, layout)
@@ -227,7 +228,7 @@ def _solve_block(net, layout, block, temperature, flow, guess, tolerance, max_it
             g[:, produced] = computed[:, produced]
             return g
 
-        result = converge_tears(evaluate, layout.guess(net, block.tears, guess), tolerance, max_iterations, one_tear)
+        result = converge_tears(evaluate, layout.start(net, block.tears, guess), tolerance, max_iterations, one_tear)
         if not np.array_equal(last["x"], result.x):
             evaluate(result.x)
     outcomes.append(BlockOutcome(block, result))

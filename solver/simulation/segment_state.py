@@ -87,6 +87,26 @@ class SegmentState:
                 x[:, j] = np.where(np.isfinite(h), h, np.mean(curve.h_points)) / self.scale[seg]
         return x
 
+    def start(self, net, segments, point: StartingPoint):
+        """First states of ``segments`` (batch, len(segments)) from ``point``: a previous solution's
+        states where it holds them, else :meth:`guess` at its mean."""
+        fresh = self.guess(net, segments, point.mean)
+        if point.previous is None:
+            return fresh
+        held = point.previous[:, segments]
+        return np.where(np.isfinite(held), held, fresh)
+
+
+@dataclass
+class StartingPoint:
+    """Where the iterations of a solve start. ``mean`` (batch,) °C: a guess for any segment (the
+    mean of the supply temperatures); ``previous`` (batch, segments): the states of a solution
+    given to start from (an outer pass of flows and states solving its blocks again, nearer the
+    answer than any guess), or None."""
+
+    mean: np.ndarray
+    previous: np.ndarray | None = None
+
 
 def segment_state(net) -> SegmentState:
     """Which segments of ``net`` carry enthalpy (their fluid has a saturation plateau)."""
