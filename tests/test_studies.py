@@ -1260,10 +1260,11 @@ def test_a_specification_whose_result_turns_inside_the_range_is_scanned(monkeypa
     assert result.achievable == pytest.approx((230.0, 230.0))
     if met:
         assert result.success and result.value == pytest.approx(0.15, abs=1e-6) and result.achieved == pytest.approx(245.0)
-        assert "the ends do not bracket the target, and another value meets it too" in result.message
+        assert "the ends do not bracket the target; another value meets it too, between 0.45 and 0.4875" in result.message
     else:
         assert not result.success and result.value is None
-        assert "out of reach" in result.message and "gives 230.0 °C to 250.0 °C" in result.message
+        assert "not found in reach" in result.message and "gives 230.0 °C to 250.0 °C" in result.message
+        assert "a narrower peak or dip between them is not seen" in result.message
 
 
 def test_a_shell_added_adds_its_share_of_a_reference_pressure_drop():
@@ -1285,3 +1286,35 @@ def test_a_shell_added_adds_its_share_of_a_reference_pressure_drop():
     changed = apply_changes(data, [{"add_shells": "E-104", "count": 1}])
     assert changed["exchangers"]["E-104"]["pressure_drop"]["tube"]["reference"] == pytest.approx(142.5e3)
     assert data["exchangers"]["E-104"]["pressure_drop"]["tube"]["reference"] == "95 kPa"  # the input untouched
+
+
+def test_a_specification_without_an_answer_at_a_value_leaves_the_rest_of_the_study_answered(tmp_path, capsys):
+    """A trial's specification whose range reached values where the case has no answer (there:
+    no steady state; here: a 340 °C tank heats the desalter's wash water past its data) had
+    stopped the whole compare (exit 3, or exit 2 for a value found out of range while solving),
+    naming neither the specification nor the value. Now that specification is reported without
+    an answer, naming the value and the reason; the base, the variant and the other
+    specification are answered."""
+    (tmp_path / "case.yaml").write_text(Path(demo_case_path("crude_preheat")).read_text(encoding="utf-8"),
+                                        encoding="utf-8")
+    study = write(tmp_path, """
+        base: case.yaml
+        variants:
+          warm: {changes: [{set: streams.crude.supply_temperature, to: 40}]}
+        specifications:
+          hot_tank:
+            adjust: streams.crude.supply_temperature
+            between: [30, 340]
+            target: {value: E-101.cold_out, equals: 100}
+          fine:
+            adjust: streams.crude.supply_temperature
+            between: [20, 40]
+            target: {value: E-101.cold_out, equals: 60}
+        """)
+    code, out, err = run_cli(capsys, "compare", study)
+    assert code == 0, err
+    out = " ".join(out.split())
+    assert ("Specification hot_tank: NOT MET - no answer: at streams.crude.supply_temperature = 340.0 °C the case has "
+            "none (") in out and "wash_water" in out and "narrow 'between'" in out
+    assert "Specification fine: met - streams.crude.supply_temperature = 34.9 °C gives 60.0 °C" in out
+    assert "base warm warm - base" in out  # the comparison itself, answered

@@ -15,6 +15,7 @@ from hxtrain.network.study import Study
 from hxtrain.solver.reporting.console_tables import fixed
 from hxtrain.solver.reporting.display_units import Display, ending_of_unit
 from hxtrain.units.protocol import Worded
+from hxtrain.solver.simulation.engine import ConvergenceError
 from hxtrain.solver.simulation.results import simulate
 
 from .compare import metric
@@ -29,13 +30,22 @@ def adjust_changes(study: Study, path: str, value: float, where=(), changes=(), 
         return value_changes(data, path, value, where)
 
 
-def simulate_at(study: Study, case, where, at: str):
-    """simulate(case), an error found while solving naming the study file, ``where`` and the
-    setting ``at`` that led to it."""
+class NoAnswerAt(Exception):
+    """The case has no answer at an adjusted value (it does not converge there, or asks for the
+    impossible): the specification is reported without an answer, the study goes on."""
+
+    def __init__(self, value, reason):
+        super().__init__(reason)
+        self.value, self.reason = value, reason
+
+
+def simulate_at(study: Study, case, where, at: str, value=None):
+    """simulate(case); where it has no answer (not converged, or a value the case cannot take
+    found while solving), :class:`NoAnswerAt` ``value`` with the reason."""
     try:
         return simulate(case)
-    except CaseError as exc:
-        raise study.error(where, f"at {at}: {exc.describe()}") from None
+    except (CaseError, ConvergenceError) as exc:
+        raise NoAnswerAt(value, exc.describe() if isinstance(exc, CaseError) else str(exc)) from None
 
 
 @dataclass
@@ -70,7 +80,7 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
         at = f"{spec.adjust} = {x:g}{adjust_unit}"
         settings = adjust_changes(study, spec.adjust, x, adjust_key, spec.changes, changes_key)
         result = simulate_at(study, study.case(spec.changes, changes_key, settings, adjust_key, context=f"at {at}"),
-                              adjust_key, at)
+                              adjust_key, at, x)
         target = spec.target
         try:
             if "value" in target:
@@ -81,27 +91,40 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
             raise study.error(target_key, exc.message) from None
 
     goal = spec.target["equals"]
+    try:
+        return _solved(spec, achieved, goal, tolerance, adjust_unit, target_unit, lambda: count)
+    except NoAnswerAt as missing:
+        return SpecificationResult(spec.name, spec.adjust, False, None, None, goal, (np.nan, np.nan), count, _worded(
+            "no answer: at {} = {} the case has none ({}); narrow 'between' to values where it has one",
+            spec.adjust, (missing.value, adjust_unit), missing.reason), adjust_unit.strip(), target_unit.strip())
+
+
+def _solved(spec, achieved, goal, tolerance, adjust_unit, target_unit, evaluations) -> SpecificationResult:
+    """The specification's answer, or what its range can reach (see :func:`solve_specification`);
+    ``evaluations()`` how many simulations it took so far."""
     low, high = achieved(spec.low), achieved(spec.high)
     reach = (low, high)
     bracket, scanned = (spec.low, spec.high), None
     if (low - goal) * (high - goal) > 0:  # the ends do not bracket it: a result may turn inside the range
         points = np.linspace(spec.low, spec.high, SCAN_INTERVALS + 1)
         scanned = [low, *(achieved(x) for x in points[1:-1]), high]
-        crossing = np.flatnonzero(np.diff(np.sign(np.asarray(scanned) - goal)) != 0)
+        crossing = np.flatnonzero(np.diff(np.asarray(scanned) >= goal))  # a point on the target counts as above
         if not crossing.size:
             lo, hi = min(scanned), max(scanned)
-            return SpecificationResult(spec.name, spec.adjust, False, None, None, goal, reach, count, _worded(
-                "target {} is out of reach: adjusting {} over {} to {} gives {} to {} (at its ends and "
-                f"{SCAN_INTERVALS - 1} points between)", (goal, target_unit), spec.adjust, (spec.low, adjust_unit),
+            return SpecificationResult(spec.name, spec.adjust, False, None, None, goal, reach, evaluations(), _worded(
+                "target {} not found in reach: adjusting {} over {} to {} gives {} to {} at its ends and "
+                f"{SCAN_INTERVALS - 1} points between (a narrower peak or dip between them is not seen: narrow "
+                "'between' round it to be sure)", (goal, target_unit), spec.adjust, (spec.low, adjust_unit),
                 (spec.high, adjust_unit), (lo, target_unit), (hi, target_unit)), adjust_unit.strip(), target_unit.strip())
         bracket = tuple(points[crossing[0]:crossing[0] + 2])
     at_ends = (low, high) if scanned is None else scanned[crossing[0]:crossing[0] + 2]
     x = _root(lambda v: achieved(v) - goal, *bracket, [v - goal for v in at_ends], tolerance * (spec.high - spec.low))
     reached = achieved(x)
+    others = [f"{a:g} and {b:g}" for a, b in zip(points[crossing[1:]], points[crossing[1:] + 1])] if scanned else []
     more = "" if scanned is None else (
         f" (the result turns inside the range: found between {bracket[0]:g} and {bracket[1]:g}; the ends do not "
-        "bracket the target" + (", and another value meets it too)" if crossing.size > 1 else ")"))
-    return SpecificationResult(spec.name, spec.adjust, True, x, reached, goal, reach, count, _worded(
+        "bracket the target" + (f"; another value meets it too, between {'; '.join(others)})" if others else ")"))
+    return SpecificationResult(spec.name, spec.adjust, True, x, reached, goal, reach, evaluations(), _worded(
         "{} = {} gives {} (target {})" + more, spec.adjust, (x, adjust_unit), (reached, target_unit),
         (goal, target_unit)), adjust_unit.strip(), target_unit.strip())
 
