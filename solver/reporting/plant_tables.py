@@ -28,7 +28,7 @@ COST_NAMES = {"fuel_gj_per_day": "fuel_per_day_gj", "co2_t_per_day": "co2_per_da
 """Fuel energy is a quantity of the units table (GJ or MMBtu); CO₂ and throughput stay in
 tonnes (metric tonnes are what emissions are reported in, in either system)."""
 MONEY = ("cost_per_day", "cost_cumulative", "cleaning_cost", "fuel_cost", "co2_cost", "lost_throughput_cost",
-         "total_cost", "objective", "cost_of_fouling", "optimised_saves", "cost")
+         "total_cost", "ranked_cost", "cost_of_fouling", "optimised_saves", "cost")
 """Columns of money, in the economics' currency."""
 TAG_ENDINGS = {"temperature": "_k", "flow": "_kg_s", "duty": "_kw"}
 """The ending of a reading less another estimate of it (a bias, an adjustment), by what the tag

@@ -80,8 +80,9 @@ def schedule_report(result, display: Display | None = None) -> str:
         shown = result.plan.assign(start=result.plan["start"].map(_day),
                                    back_in_service=result.plan["back_in_service"].map(_day))
         parts += ["", render(shown, display, {"cost": f"cost {currency}"}, {"cost": 0})]
-    rule = ("new limit violations are refused: a plan may not break a limit the train with no cleaning keeps "
-            "throughout" if not horizon.new_limits_allowed else "new limit violations are allowed and only counted")
+    rule = ("the optimised plan may not break a limit the train with no cleaning keeps throughout; the baselines "
+            "are shown as their rules make them, new violations and all" if not horizon.new_limits_allowed
+            else "new limit violations are allowed and only counted")
     heading = (f"Costs over the horizon ({currency}; saves: the plan's total less the optimised plan's; share: of "
                f"that plan's cost of fouling; limit steps: steps with a limit violated; new: of them, steps "
                f"breaking a limit the train with no cleaning never breaks — {rule})")

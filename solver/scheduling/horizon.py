@@ -363,9 +363,10 @@ def _cut_throughput(horizon, fouling, busy, throughput, rating: Rating):
 def plan_costs(horizon: Horizon, plans, fired, throughput, limits, success, new=None) -> pd.DataFrame:
     """The cost lines of each plan over the horizon (NaN for a plan without an answer): each
     step's lines (:func:`step_lines`) added up, the cleanings, the steps with limits violated
-    and with new ones, and the ``objective`` the optimiser ranks by: the total cost plus
+    and with new ones, and the ``ranked_cost`` the optimiser ranks by: the total cost plus
     :attr:`Horizon.penalty` per step with a new violation (so that where new violations are
-    refused a plan keeping the rule always ranks first)."""
+    refused a plan keeping the rule always ranks first; not money spent: a plan that breaks no new
+    limit ranks at its total cost)."""
     lines = step_lines(horizon, fired, throughput)
     cleanings = plans.sum(axis=2)
     new = np.zeros_like(limits) if new is None else new
@@ -375,7 +376,7 @@ def plan_costs(horizon: Horizon, plans, fired, throughput, limits, success, new=
                           "limit_steps": (limits > 0).sum(axis=1), "new_limit_steps": (new > 0).sum(axis=1)})
     table["total_cost"] = table[["cleaning_cost", "fuel_cost", "co2_cost", "lost_throughput_cost"]].sum(axis=1)
     table.loc[~np.asarray(success), ["fuel_gj", "fuel_cost", "co2_t", "co2_cost", "total_cost"]] = np.nan
-    table["objective"] = table["total_cost"] + horizon.penalty * table["new_limit_steps"]
+    table["ranked_cost"] = table["total_cost"] + horizon.penalty * table["new_limit_steps"]
     return table
 
 

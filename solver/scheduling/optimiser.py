@@ -139,7 +139,7 @@ def optimise(horizon: Horizon, allowed, at_once, progress=None) -> Search:
             break
         trial = march(horizon, options)
         marched += len(options)
-        totals = np.where(trial.success, trial.costs["objective"].to_numpy(), np.inf)
+        totals = np.where(trial.success, trial.costs["ranked_cost"].to_numpy(), np.inf)
         k = int(np.argmin(totals))
         if not totals[k] < current * (1.0 - 1e-9):
             rows.append(("local search", round_, current, int(best.sum()), len(options)))
@@ -157,7 +157,7 @@ def optimise(horizon: Horizon, allowed, at_once, progress=None) -> Search:
     if not _objective(best_outcome, 0) <= _objective(idle_outcome, 0):
         best, best_outcome = idle, idle_outcome
         messages.append("no plan found that keeps the limits and costs less than no cleaning")
-    return Search(best, best_outcome, pd.DataFrame(rows, columns=["stage", "round", "objective", "cleanings",
+    return Search(best, best_outcome, pd.DataFrame(rows, columns=["stage", "round", "ranked_cost", "cleanings",
                                                                   "plans_marched"]), marched, messages)
 
 
@@ -168,7 +168,7 @@ def _total(outcome, k) -> float:
 def _objective(outcome, k) -> float:
     """What the search minimises for plan ``k``: its total cost, plus the penalty for steps with
     new limit violations where those are refused (:func:`.horizon.plan_costs`)."""
-    return float(outcome.costs["objective"].iloc[k]) if outcome.success[k] else np.inf
+    return float(outcome.costs["ranked_cost"].iloc[k]) if outcome.success[k] else np.inf
 
 
 def _combined(plan, options, totals, current, allowed, duration, at_once):
