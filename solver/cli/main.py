@@ -185,8 +185,12 @@ def _cleaning(args) -> int:
     written = _write({"ranking": ranking}, args, {"case_file": str(path), "caution": CAUTION}, inputs)
     print(f"hxtrain cleaning, one exchanger at a time: {case.title or path}")
     print(f"case file: {path}")  # whole, to be copied; the tables keep to the width
-    print(render(ranking, current()) if len(ranking) else "no exchanger has fouling")
-    print("\n".join(boxed("LIMITS VIOLATED", _cleaning_limit_lines(fouled, ranking, current()))))
+    shown = ranking.drop(columns="standing_limits_when_clean", errors="ignore")  # in the box below, in full
+    print(render(shown, current()) if len(ranking) else "no exchanger has fouling")
+    lines = _cleaning_limit_lines(fouled, ranking, current())
+    new = sum(line.startswith("new with") for line in lines)
+    print("\n".join(boxed("LIMITS VIOLATED", lines, count=f"{len(fouled.limits)} as it is, {new} new with one "
+                                                         "cleaning, each cleaning's standing ones")))
     print("\n" + "\n".join(note_lines(current())))
     _say_written(written)
     return EXIT_OK
@@ -199,6 +203,8 @@ def _cleaning_limit_lines(fouled, ranking, display) -> list[str]:
     for row in ranking.itertuples():
         if getattr(row, "new_limits_when_clean", ""):
             lines.append(f"new with {row.exchanger} clean: {display.message(row.new_limits_when_clean)}")
+        if getattr(row, "standing_limits_when_clean", ""):
+            lines.append(f"still with {row.exchanger} clean: {display.message(row.standing_limits_when_clean)}")
     return lines
 
 

@@ -40,13 +40,18 @@ def cleaning_ranking(case, fouled=None) -> pd.DataFrame:
         new_limits = clean.limits[[k not in standing for k in zip(clean.limits["unit"], clean.limits["kind"],
                                                                   clean.limits["key"])]]
         row["limits_when_clean"] = int(len(clean.limits))
-        row["new_limits_when_clean"] = Worded.joined("; ", (Worded.joined(": ", (r.unit, r.message))
-                                                            for r in new_limits.itertuples()))
+        row["new_limits_when_clean"] = _listed(new_limits.itertuples())
+        # a standing limit the cleaning moves (a cleaning warms the train downstream: E-112's design
+        # temperature passed by more), in the cleaned case's words
+        before = {(r.unit, r.kind, r.key): str(r.message) for r in fouled.limits.itertuples()}
+        row["standing_limits_when_clean"] = _listed(r for r in clean.limits.itertuples()
+                                                    if before.get((r.unit, r.kind, r.key), str(r.message)) != str(r.message))
         row["answer"] = "ok"
         rows.append(row)
     table = pd.DataFrame(rows)
-    if "new_limits_when_clean" in table:
-        table["new_limits_when_clean"] = worded_column(r.get("new_limits_when_clean") for r in rows)
+    for column in ("new_limits_when_clean", "standing_limits_when_clean"):
+        if column in table:
+            table[column] = worded_column(r.get(column) for r in rows)
     if table.empty:
         return table
     if "fired_duty_saved_kw" in table:
@@ -54,3 +59,8 @@ def cleaning_ranking(case, fouled=None) -> pd.DataFrame:
     table = table.reset_index(drop=True)
     table.index = np.arange(1, len(table) + 1)
     return table.rename_axis("rank")
+
+
+def _listed(limits) -> Worded:
+    """Limit rows (unit, message) as one text: "E-105: temperature cross ...; E-107: ..."."""
+    return Worded.joined("; ", (Worded.joined(": ", (r.unit, r.message)) for r in limits))
