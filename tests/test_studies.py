@@ -1318,3 +1318,14 @@ def test_a_specification_without_an_answer_at_a_value_leaves_the_rest_of_the_stu
             "none (") in out and "wash_water" in out and "narrow 'between'" in out
     assert "Specification fine: met - streams.crude.supply_temperature = 34.9 °C gives 60.0 °C" in out
     assert "base warm warm - base" in out  # the comparison itself, answered
+
+
+def test_a_variants_name_is_shown_as_the_study_writes_it(capsys):
+    """Underscores of a result's column name become spaces in its heading; a variant's name is
+    the user's own and keeps them (the comparison had headed 'extra shell E-104' where the list
+    and every warning said 'extra_shell_E-104')."""
+    code, out, err = run_cli(capsys, "compare", demo_case_path("crude_preheat").with_name("crude_preheat_study.yaml"),
+                             "--wide")
+    assert code == 0, err
+    heading = next(line for line in out.splitlines() if line.startswith("quantity"))
+    assert "extra_shell_E-104" in heading and "extra_shell_E-104 - base" in heading and "extra shell" not in heading

@@ -74,12 +74,13 @@ def cells(frame: pd.DataFrame, display: Display, words: dict | None = None, digi
     return headings, units, columns
 
 
-def render_any(frame: pd.DataFrame, display: Display, digits: dict | None = None, index: str | None = None) -> str:
+def render_any(frame: pd.DataFrame, display: Display, digits: dict | None = None, index: str | None = None,
+               words: dict | None = None) -> str:
     """:func:`render` of any result table: one listing quantities in its rows (a comparison, a
     summary) converted row by row first, each row name given its shown unit's ending."""
     if lists_quantities(frame):
         frame = display.rows(frame, difference_columns(frame))
-    return render(frame, display, digits=digits, index=index)
+    return render(frame, display, words, digits=digits, index=index)
 
 
 def render(frame: pd.DataFrame, display: Display, words: dict | None = None, digits: dict | None = None,

@@ -192,6 +192,7 @@ def study_report(study, comparison, display: Display | None = None, specificatio
     table = display.frame(with_whole_counts(comparison.table), difference_columns(comparison.table))
     body.append("<section id=\"tables\"><h2>Side by side</h2>"
                 + html_table(_restore_names(table, comparison.table, display), display.__class__(),
+                             {column: column for column in comparison.table.columns},
                              caption="Scenarios and their differences from the base (each row's unit in its name; "
                                      "a difference of two temperatures is in kelvin or Δ°F)") + "</section>")
     if specifications:

@@ -122,7 +122,8 @@ def study_text(study: Study, comparison: Comparison, specifications) -> str:
     lines = [f"hxtrain study: {study.title or study.file}", *note_lines(display), ""]
     for name, (description, _, _) in study.variants.items():
         lines.append(f"  {name}: {description}" if description else f"  {name}")
-    lines += ["", render_any(with_whole_counts(comparison.table), display)]
+    as_named = {column: column for column in comparison.table.columns}  # scenario names as the study writes them
+    lines += ["", render_any(with_whole_counts(comparison.table), display, words=as_named)]
     for spec in specifications:
         lines += ["", *fitted(f"Specification {spec.name}: {'met' if spec.success else 'NOT MET'} - "
                               f"{display.message(spec.message)} ({spec.evaluations} simulations)", display)]
