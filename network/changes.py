@@ -267,10 +267,10 @@ def apply_change(data: dict, change: dict, where=()) -> None:
     target, at = change[verb], where + (verb,)
     if verb == "set":
         node, key = locate(data, target, at)
-        shells = _shell_count(data, target, at)
+        shells = _shell_count(data, target)
         node[key] = copy.deepcopy(change["to"])
-        if shells is not None:
-            _keep_drop_per_shell(node, target.split(".")[1], shells, _shell_count(data, target, at), at)
+        if shells is not None:  # node is the exchanger: its new count, checked in _keep_drop_per_shell
+            _keep_drop_per_shell(node, target.split(".")[1], shells, node[key], at)
     elif verb == "scale":
         node, key, kind, value = existing_number(data, target, at)
         refuse_temperature_multiple(target, kind, at)
@@ -341,7 +341,7 @@ def is_branch_fraction(path) -> bool:
     return len(parts) == 5 and parts[0] == "splitters" and parts[2] == "branches" and parts[4] == "fraction"
 
 
-def _shell_count(data, path, at):
+def _shell_count(data, path):
     """The shells in series of the exchanger whose ``shells`` key ``path`` is (1 where unwritten);
     None where ``path`` is another key or the count is not a whole number yet (the case's own
     check names it)."""
@@ -358,7 +358,8 @@ def _keep_drop_per_shell(exchanger, tag, before, after, at):
     from ``before`` to ``after`` shells in series: a shell added adds its drop (a third shell on a
     two-shell exchanger, 1.5 times the drop). A geometry's drop is per shell already."""
     section = exchanger.get("pressure_drop") if isinstance(exchanger, dict) else None
-    if not isinstance(section, dict) or not isinstance(after, int) or after <= 0 or after == before:
+    if not isinstance(section, dict) or isinstance(after, bool) or not isinstance(after, int) or after <= 0 \
+            or after == before:
         return
     for side, entry in section.items():
         if isinstance(entry, dict) and entry.get("reference") is not None:

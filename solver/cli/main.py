@@ -187,8 +187,7 @@ def _cleaning(args) -> int:
     print(f"case file: {path}")  # whole, to be copied; the tables keep to the width
     shown = ranking.drop(columns="standing_limits_when_clean", errors="ignore")  # in the box below, in full
     print(render(shown, current()) if len(ranking) else "no exchanger has fouling")
-    lines = _cleaning_limit_lines(fouled, ranking, current())
-    new = sum(line.startswith("new with") for line in lines)
+    lines, new = _cleaning_limit_lines(fouled, ranking, current())
     print("\n".join(boxed("LIMITS VIOLATED", lines, count=f"{len(fouled.limits)} as it is, {new} new with one "
                                                          "cleaning, each cleaning's standing ones")))
     print("\n" + "\n".join(note_lines(current())))
@@ -196,16 +195,19 @@ def _cleaning(args) -> int:
     return EXIT_OK
 
 
-def _cleaning_limit_lines(fouled, ranking, display) -> list[str]:
+def _cleaning_limit_lines(fouled, ranking, display) -> tuple[list[str], int]:
     """The limits the case violates as it is (standing: every cleaned case but those that cure
-    them violates them too), then each cleaning's new ones, in full (the table cuts them short)."""
+    them violates them too), then each cleaning's new ones, in full (the table cuts them short),
+    and each standing one a cleaning moves; and how many cleanings bring new ones."""
     lines = [f"as it is: {r.unit}: {display.message(r.message)}  [{r.key}]" for r in fouled.limits.itertuples()]
+    new = 0
     for row in ranking.itertuples():
         if getattr(row, "new_limits_when_clean", ""):
+            new += 1
             lines.append(f"new with {row.exchanger} clean: {display.message(row.new_limits_when_clean)}")
         if getattr(row, "standing_limits_when_clean", ""):
             lines.append(f"still with {row.exchanger} clean: {display.message(row.standing_limits_when_clean)}")
-    return lines
+    return lines, new
 
 
 def _benchmark(args) -> int:

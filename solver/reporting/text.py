@@ -170,10 +170,11 @@ def _row_list(rows, shown=12) -> str:
     return ", ".join(runs[:shown]) + more
 
 
-def fitted(text: str, display: Display, indent: str = "    ") -> list[str]:
+def fitted(text: str, display: Display, indent: str = "    ", break_on_hyphens=True) -> list[str]:
     """``text`` as lines within the console width (unless the display is wide), continuation
-    lines indented by ``indent``."""
-    return [text] if display.wide else (textwrap.wrap(text, WIDTH, subsequent_indent=indent) or [""])
+    lines indented by ``indent``; ``break_on_hyphens=False`` keeps 1.0e-10 and E-112 whole."""
+    return [text] if display.wide else (textwrap.wrap(text, WIDTH, subsequent_indent=indent,
+                                                      break_on_hyphens=break_on_hyphens) or [""])
 
 
 def note_lines(display: Display, caution: str = CAUTION) -> list[str]:

@@ -22,7 +22,6 @@ from __future__ import annotations
 import copy
 import os
 import platform
-import textwrap
 import time
 
 import numpy as np
@@ -209,14 +208,11 @@ def benchmark_text(figures) -> str:
     return "\n".join(wrapped(lines))
 
 
-CONSOLE_WIDTH = 120
-"""Columns a console report keeps to (the reports' width, :data:`.reporting.console_tables.WIDTH`)."""
-
-
 def wrapped(lines) -> list[str]:
-    """Each line wrapped to :data:`CONSOLE_WIDTH`, its continuations indented four past it."""
-    out = []
-    for line in lines:
-        indent = " " * (len(line) - len(line.lstrip()) + 4)
-        out += textwrap.wrap(line, CONSOLE_WIDTH, subsequent_indent=indent, break_on_hyphens=False) or [""]
-    return out
+    """Each line within the console width (:func:`.reporting.text.fitted`), its continuations
+    indented four past it."""
+    from hxtrain.solver.reporting.display_units import current
+    from hxtrain.solver.reporting.text import fitted
+
+    return [part for line in lines
+            for part in fitted(line, current(), " " * (len(line) - len(line.lstrip()) + 4), break_on_hyphens=False)]

@@ -22,6 +22,7 @@ def cleaning_ranking(case, fouled=None) -> pd.DataFrame:
     case = as_case(case)
     fouled = simulate(case) if fouled is None else fouled
     heaters = [k for k in fouled.summary.index if k.endswith("_inlet_c")]
+    standing = {(r.unit, r.kind, r.key): str(r.message) for r in fouled.limits.itertuples()}  # limits as it is
     rows = []
     for tag, data in case.exchangers.items():
         if not any(data["spec"].fouling.values()):
@@ -35,17 +36,13 @@ def cleaning_ranking(case, fouled=None) -> pd.DataFrame:
                     "exchanger_duty_gained_kw": clean.units.loc[tag, "duty_kw"] - fouled.units.loc[tag, "duty_kw"]})
         row.update({f"{h.removesuffix('_inlet_c')}_inlet_gain_k": clean.summary[h] - fouled.summary[h] for h in heaters})
         # a limit is new where the fouled train keeps it (the same unit, kind and key), whatever
-        # its numbers: a design temperature already passed fouled is standing, not new
-        standing = set(zip(fouled.limits["unit"], fouled.limits["kind"], fouled.limits["key"]))
-        new_limits = clean.limits[[k not in standing for k in zip(clean.limits["unit"], clean.limits["kind"],
-                                                                  clean.limits["key"])]]
-        row["limits_when_clean"] = int(len(clean.limits))
-        row["new_limits_when_clean"] = _listed(new_limits.itertuples())
-        # a standing limit the cleaning moves (a cleaning warms the train downstream: E-112's design
-        # temperature passed by more), in the cleaned case's words
-        before = {(r.unit, r.kind, r.key): str(r.message) for r in fouled.limits.itertuples()}
-        row["standing_limits_when_clean"] = _listed(r for r in clean.limits.itertuples()
-                                                    if before.get((r.unit, r.kind, r.key), str(r.message)) != str(r.message))
+        # its numbers: a design temperature already passed fouled is standing, not new; a standing
+        # one the cleaning moves (a cleaning warms the train downstream) is given in its new words
+        limits = list(clean.limits.itertuples())
+        row["limits_when_clean"] = len(limits)
+        row["new_limits_when_clean"] = _listed(r for r in limits if (r.unit, r.kind, r.key) not in standing)
+        row["standing_limits_when_clean"] = _listed(r for r in limits if standing.get((r.unit, r.kind, r.key),
+                                                                                      str(r.message)) != str(r.message))
         row["answer"] = "ok"
         rows.append(row)
     table = pd.DataFrame(rows)

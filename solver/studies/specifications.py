@@ -39,7 +39,7 @@ class NoAnswerAt(Exception):
         self.value, self.reason = value, reason
 
 
-def simulate_at(study: Study, case, where, at: str, value=None):
+def simulate_at(case, value):
     """simulate(case); where it has no answer (not converged, or a value the case cannot take
     found while solving), :class:`NoAnswerAt` ``value`` with the reason."""
     try:
@@ -79,8 +79,7 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
         count += 1
         at = f"{spec.adjust} = {x:g}{adjust_unit}"
         settings = adjust_changes(study, spec.adjust, x, adjust_key, spec.changes, changes_key)
-        result = simulate_at(study, study.case(spec.changes, changes_key, settings, adjust_key, context=f"at {at}"),
-                              adjust_key, at, x)
+        result = simulate_at(study.case(spec.changes, changes_key, settings, adjust_key, context=f"at {at}"), x)
         target = spec.target
         try:
             if "value" in target:
@@ -91,17 +90,24 @@ def solve_specification(study: Study, spec, tolerance=1e-6) -> SpecificationResu
             raise study.error(target_key, exc.message) from None
 
     goal = spec.target["equals"]
+
+    def result(value, reached, reach, message):
+        """The result with what every one carries; a success where a value was found."""
+        return SpecificationResult(spec.name, spec.adjust, value is not None, value, reached, goal, reach, count,
+                                   message, adjust_unit.strip(), target_unit.strip())
+
     try:
-        return _solved(spec, achieved, goal, tolerance, adjust_unit, target_unit, lambda: count)
+        return _solved(spec, achieved, goal, tolerance, result)
     except NoAnswerAt as missing:
-        return SpecificationResult(spec.name, spec.adjust, False, None, None, goal, (np.nan, np.nan), count, _worded(
+        return result(None, None, (np.nan, np.nan), _worded(
             "no answer: at {} = {} the case has none ({}); narrow 'between' to values where it has one",
-            spec.adjust, (missing.value, adjust_unit), missing.reason), adjust_unit.strip(), target_unit.strip())
+            spec.adjust, (missing.value, adjust_unit), missing.reason))
 
 
-def _solved(spec, achieved, goal, tolerance, adjust_unit, target_unit, evaluations) -> SpecificationResult:
+def _solved(spec, achieved, goal, tolerance, result) -> SpecificationResult:
     """The specification's answer, or what its range can reach (see :func:`solve_specification`);
-    ``evaluations()`` how many simulations it took so far."""
+    ``result(value, achieved, reach, message)`` makes it."""
+    adjust_unit, target_unit = spec.adjust_unit, spec.target_unit
     low, high = achieved(spec.low), achieved(spec.high)
     reach = (low, high)
     bracket, scanned = (spec.low, spec.high), None
@@ -111,11 +117,11 @@ def _solved(spec, achieved, goal, tolerance, adjust_unit, target_unit, evaluatio
         crossing = np.flatnonzero(np.diff(np.asarray(scanned) >= goal))  # a point on the target counts as above
         if not crossing.size:
             lo, hi = min(scanned), max(scanned)
-            return SpecificationResult(spec.name, spec.adjust, False, None, None, goal, reach, evaluations(), _worded(
+            return result(None, None, reach, _worded(
                 "target {} not found in reach: adjusting {} over {} to {} gives {} to {} at its ends and "
                 f"{SCAN_INTERVALS - 1} points between (a narrower peak or dip between them is not seen: narrow "
                 "'between' round it to be sure)", (goal, target_unit), spec.adjust, (spec.low, adjust_unit),
-                (spec.high, adjust_unit), (lo, target_unit), (hi, target_unit)), adjust_unit.strip(), target_unit.strip())
+                (spec.high, adjust_unit), (lo, target_unit), (hi, target_unit)))
         bracket = tuple(points[crossing[0]:crossing[0] + 2])
     at_ends = (low, high) if scanned is None else scanned[crossing[0]:crossing[0] + 2]
     x = _root(lambda v: achieved(v) - goal, *bracket, [v - goal for v in at_ends], tolerance * (spec.high - spec.low))
@@ -124,9 +130,8 @@ def _solved(spec, achieved, goal, tolerance, adjust_unit, target_unit, evaluatio
     more = "" if scanned is None else (
         f" (the result turns inside the range: found between {bracket[0]:g} and {bracket[1]:g}; the ends do not "
         "bracket the target" + (f"; another value meets it too, between {'; '.join(others)})" if others else ")"))
-    return SpecificationResult(spec.name, spec.adjust, True, x, reached, goal, reach, evaluations(), _worded(
-        "{} = {} gives {} (target {})" + more, spec.adjust, (x, adjust_unit), (reached, target_unit),
-        (goal, target_unit)), adjust_unit.strip(), target_unit.strip())
+    return result(x, reached, reach, _worded("{} = {} gives {} (target {})" + more, spec.adjust, (x, adjust_unit),
+                                             (reached, target_unit), (goal, target_unit)))
 
 
 SCAN_INTERVALS = 16
