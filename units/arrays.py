@@ -35,12 +35,16 @@ def select(condition, x, y):
     ([1.0, 2.0], [1.0, 2.0])
     """
     condition = np.asarray(condition)
-    if condition.all():
-        chosen = x
-    elif not condition.any():
-        chosen = y
+    true = np.count_nonzero(condition)  # one pass, and on a small batch several times cheaper than all() and any()
+    if true == condition.size:
+        chosen, other = x, y
+    elif true == 0:
+        chosen, other = y, x
     else:
         return np.where(condition, x, y)
+    if (type(chosen) is np.ndarray and chosen.dtype == np.float64 and chosen.shape == condition.shape
+            and (type(other) is float or np.shape(other) in ((), condition.shape))):
+        return chosen  # the usual case, without the general broadcast's cost
     shape = np.broadcast_shapes(condition.shape, np.shape(x), np.shape(y))
     chosen = np.asarray(chosen, dtype=np.result_type(x, y))
     return chosen if chosen.shape == shape else np.broadcast_to(chosen, shape)

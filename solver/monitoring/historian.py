@@ -25,7 +25,9 @@ one of :data:`REASONS`; a detail):
   others, and the reconciliation treats a missing reading as unmeasured;
 * an isolated spike, one reading far beyond both of its neighbours (:mod:`.spikes`), is blanked
   the same way: a glitch that would move a window's mean and fail its steady-state test (but not
-  where another tag spikes in the same row: that is the process moving).
+  where another tag spikes in the same row: that is the process moving); so is a value held
+  unchanged far longer than the tag repeats by chance (a frozen transmitter, or the historian
+  logging a tag's last good value), each run reported with its first and last time.
 
 Errors (:class:`CaseError`, exit 2) name the file and, where it applies, the row and column:
 a data file that is missing, unreadable or empty; no time column; a tag with no column in the
@@ -55,7 +57,7 @@ from hxtrain.network.fields import nearest
 from hxtrain.network.monitoring_file import ISO_TIME, MonitoringFile, Tag
 from hxtrain.network.quantities import shorten
 
-from .spikes import isolated_spikes
+from .spikes import HELD, SPIKE, without_glitches
 from .windows import Windows, average_windows
 
 __all__ = ["History", "Windows", "read_history", "screen_unit_slips", "MAX_BAD_SHARE", "MAX_DATA_BYTES", "REASONS",
@@ -82,10 +84,9 @@ OTHER_DATE = re.compile(r"\d{1,4}[/.\-]\d{1,2}[/.\-]\d{1,4}|(?i:jan|feb|mar|apr|
 """A date in some form other than ISO 8601 (day/month/year, month names, ...)."""
 TIME_MISSING, TIME_UNREADABLE, TIME_REPEATED, TIME_BACKWARDS = (
     "time missing", "time unreadable", "time repeated", "time goes backwards")
-MISSING, NOT_A_NUMBER, NOT_FINITE, IMPOSSIBLE, SPIKE = (
-    "missing value", "not a number", "not a finite number", "impossible", "isolated spike")
+MISSING, NOT_A_NUMBER, NOT_FINITE, IMPOSSIBLE = "missing value", "not a number", "not a finite number", "impossible"
 REASONS = (TIME_MISSING, TIME_UNREADABLE, TIME_REPEATED, TIME_BACKWARDS, MISSING, NOT_A_NUMBER, NOT_FINITE, IMPOSSIBLE,
-           SPIKE)
+           SPIKE, HELD)
 """The values of ``History.skipped.reason``; the first four skip the whole row."""
 ROW_REASONS = REASONS[:4]
 MAX_PEEK = 1 << 16
@@ -149,7 +150,7 @@ def read_history(monitoring: MonitoringFile) -> History:
     times, keep = _times(body.iloc[:, position[monitoring.time_column]], rows, skips.column(""), monitoring, name)
     values = {tag.name: _readings(body.iloc[:, position[tag.column]], tag, keep, skips.column(tag.column))
               for tag in monitoring.tags.values()}
-    values = _without_spikes(values, monitoring, keep, skips)
+    values = without_glitches(values, monitoring.tags.values(), keep, times, skips.column)
     skipped = skips.table(rows, times)
     samples = pd.DataFrame({k: v[keep] for k, v in values.items()}, index=pd.DatetimeIndex(times[keep], name="time"))
     samples = samples[samples.notna().any(axis=1)]
@@ -361,29 +362,6 @@ def _readings(raw: pd.Series, tag: Tag, keep: np.ndarray, skip) -> np.ndarray:
                                   for n, v in zip(numbers[impossible], values[impossible])])
     values[missing | not_number | not_finite | impossible] = np.nan
     return values
-
-
-def _without_spikes(values: dict, monitoring: MonitoringFile, keep: np.ndarray, skips: _Skips) -> dict:
-    """``values`` with the isolated spikes among the kept rows' readings blanked (:mod:`.spikes`)
-    and told to ``skips`` with their neighbours, in the tag's unit. Spikes of two or more tags in
-    one row are not glitches but the process moving (a throughput cut seen by the total and its
-    branches): kept, for the steady-state test to judge."""
-    tags = monitoring.tags.values()
-    found = {tag.name: isolated_spikes(values[tag.name][keep], tag.sigma_of) for tag in tags}
-    alone = np.sum([spike for spike, _, _ in found.values()], axis=0) == 1  # the only tag spiking in its row
-    cleaned = dict(values)
-    for tag in tags:
-        spike, before, after = found[tag.name]
-        spike = spike & alone
-        if not spike.any():
-            continue
-        where = np.zeros(keep.shape, dtype=bool)
-        where[np.flatnonzero(keep)[spike]] = True
-        shown = [tag.from_default_unit(np.array(v)) for v in (values[tag.name][where], before[spike], after[spike])]
-        skips.column(tag.column)(where, SPIKE, [f"{x:.6g} {tag.unit} between {b:.6g} and {a:.6g}"
-                                                for x, b, a in zip(*shown)])
-        cleaned[tag.name] = np.where(where, np.nan, values[tag.name])
-    return cleaned
 
 
 def _why(value: float, quantity: str) -> str:

@@ -20,7 +20,7 @@ from .text import boxed, fitted, note_lines
 
 from hxtrain.network.monitoring_file import shown_duration
 from hxtrain.solver.monitoring.excursions import EXCURSION
-from hxtrain.solver.monitoring.historian import SPIKE
+from hxtrain.solver.monitoring.historian import HELD, SPIKE
 
 TREND_DAYS = 90
 """The fouling trend is the weighted least-squares slope over the last this many days of
@@ -210,6 +210,11 @@ def _skipped_lines(skipped: pd.DataFrame) -> list[str]:
                       for r in rows.head(SPIKES_SHOWN).itertuples()]
             if len(rows) > SPIKES_SHOWN:
                 lines.append(f"    and {len(rows) - SPIKES_SHOWN} more (the skipped rows table, written by --out)")
+        if reason == HELD:  # a frozen reading: each run named once
+            lines += [part for (column, detail), run in rows.groupby(["column", "detail"], sort=False)
+                      for part in textwrap.wrap(f"    {column} (data file rows {run['row'].min()}-{run['row'].max()}): "
+                                                f"{detail}; a frozen transmitter, or the historian holding its last "
+                                                "value?", WIDTH, subsequent_indent="      ", break_on_hyphens=False)]
     return lines
 
 
