@@ -169,8 +169,8 @@ def _read_thermal(f: Fields, spec: ExchangerSpec, shell_side_given):
     forms = [k for k in ("ua", "u") + THERMAL_KEYS if f.has(k)]
     if len(forms) != 1:
         what = "none" if not forms else " and ".join(forms)
-        raise f.error(None if not forms else forms[1],
-                      f"give exactly one way to find U: 'ua', 'u', 'clean_u', 'film' or 'geometry' (found {what})")
+        raise f.one_of_error(("ua", "u") + THERMAL_KEYS, "give exactly one way to find U: 'ua', 'u', 'clean_u', 'film' "
+                                                         f"or 'geometry' (found {what})", forms)
     form = forms[0]
     if form == "ua":
         spec.ua = f.quantity("ua", q.CONDUCTANCE)

@@ -31,6 +31,18 @@ class Fields:
     def error(self, key, message):
         return self.doc.error(self.path + ((key,) if key is not None else ()), message)
 
+    def one_of_error(self, keys, message, given=()):
+        """The error for a section that gives not exactly one of ``keys`` (``given``: those it
+        does, the second named): where it gives none, a key of it that is a slip of the keyboard
+        for one of them is named instead (a misspelled 'outlet_temprature' had been reported as
+        neither key given)."""
+        if not given:
+            for key in self.value:
+                meant = [k for k in keys if isinstance(key, str) and key not in keys and is_misspelling(key, k)]
+                if meant:
+                    return self.error(key, f"unknown key {shorten(key)} (did you mean '{meant[0]}'?)")
+        return self.error(given[1] if len(given) > 1 else None, message)
+
     def has(self, key) -> bool:
         self.allowed.add(key)
         return key in self.value and self.value[key] is not None

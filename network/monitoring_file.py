@@ -49,7 +49,7 @@ from . import quantities as q
 from .case import Case, load_case
 from .demos import DEMO_CASES, demo_case_path
 from .errors import CaseError
-from .fields import Fields, describe, is_misspelling, nearest
+from .fields import Fields, describe, nearest
 from .graph import Network, build_network
 from .measurement_points import (DUTY_PARAMETERS, QUANTITIES, Tag, read_uncertainty, resolve_duty_unit,
                                  resolve_point, trade_units, unit_conversion, unit_points)
@@ -292,12 +292,7 @@ def _measured_quantity(f: Fields) -> str:
     given = [k for k in QUANTITIES if f.has(k)]
     if len(given) == 1:
         return given[0]
-    if not given:
-        for key in f.value:
-            meant = [k for k in QUANTITIES if isinstance(key, str) and is_misspelling(key, k)]
-            if meant:
-                raise f.error(key, f"unknown key {shorten(key)} (did you mean '{meant[0]}'?)")
-    raise f.error(None, f"give exactly one of {', '.join(QUANTITIES)} (what the tag measures, and where); "
+    raise f.one_of_error(QUANTITIES, f"give exactly one of {', '.join(QUANTITIES)} (what the tag measures, and where); "
                         f"got {', '.join(given) if given else 'none'}")
 
 

@@ -151,7 +151,7 @@ def _build_exchanger(name, key, data, building):
 
 def _read_one_side_unit(f: Fields, heater: bool, reading: Reading) -> dict:
     if f.has("duty") == f.has("outlet_temperature"):
-        raise f.error(None, "give exactly one of 'duty' (kW) and 'outlet_temperature' (°C)")
+        raise f.one_of_error(("duty", "outlet_temperature"), "give exactly one of 'duty' (kW) and 'outlet_temperature' (°C)")
     data = {
         "duty": f.quantity("duty", q.DUTY, required=False),
         "outlet_temperature": f.quantity("outlet_temperature", q.TEMPERATURE, required=False),
@@ -257,7 +257,8 @@ def _build_product(name, key, data, building):
 def _read_steam_heater(f: Fields, reading: Reading) -> dict:
     settings = [key for key in ("outlet_temperature", "duty", "ua") if f.has(key)]
     if len(settings) != 1:
-        raise f.error(None, "give exactly one of 'outlet_temperature' (°C), 'duty' (kW) and 'ua' (kW/K)")
+        raise f.one_of_error(("outlet_temperature", "duty", "ua"), "give exactly one of 'outlet_temperature' (°C), "
+                                                                  "'duty' (kW) and 'ua' (kW/K)")
     data = {
         "steam_pressure": f.quantity("steam_pressure", q.STEAM_PRESSURE),
         "outlet_temperature": f.quantity("outlet_temperature", q.TEMPERATURE, required=False),

@@ -30,7 +30,7 @@ BY_HAND = [  # (ending of an SI column in files, ending of its US counterpart, S
     ("_c", "_f", lambda v: v * 9 / 5 + 32),
     ("_k", "_delta_f", lambda v: v * DELTA_F_PER_K),
 ]
-NO_UNIT = {"p", "r", "re_tube", "samples", "statistic", "degrees_of_freedom", "eliminated", "windows_used",
+NO_UNIT = {"p", "r", "p_hot", "r_hot", "standardised", "re_tube", "samples", "statistic", "degrees_of_freedom", "eliminated", "windows_used",
            "redundant_share", "mean_standardised", "observable_share", "windows_eliminated",
            "windows_persistently_off", "windows", "share", "share_of_cost", "points", "beta", "beta_sigma",
            "chi_square", "reduced_chi_square", "aicc", "row", "throughput_share", "limits_violated", "cleanings",

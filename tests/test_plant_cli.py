@@ -116,7 +116,9 @@ def test_a_gap_in_the_plant_data_is_said_with_its_times():
     windows = pd.DataFrame({"samples": [6, 0, 0, 6, 0, 6]}, index=pd.date_range("2026-03-01", periods=6, freq="6h"))
     text = " ".join(_gap_lines(windows, pd.Timedelta("6h")))
     assert "no data at all in 3 windows" in text
-    assert "2026-03-01 06:00 to 2026-03-01 18:00; 2026-03-02 00:00 to 2026-03-02 06:00" in text
+    # each stretch by its number of windows and first window (a trial read "06:00 to 18:00", the end
+    # exclusive, as one window more than it was)
+    assert "2 from 2026-03-01 06:00; 1 from 2026-03-02 00:00" in text
     assert _gap_lines(windows.assign(samples=6), pd.Timedelta("6h")) == []
     assert " ".join(_gap_lines(windows, pd.Timedelta("6h"), spacing=pd.Timedelta("1h"))) == text  # data every hour
     # a window shorter than the data's spacing: said as such, not as a list of gaps

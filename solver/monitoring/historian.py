@@ -472,6 +472,10 @@ def _check_bad_share(history: History, monitoring: MonitoringFile):
     for tag in monitoring.tags.values():
         if history.samples.empty or history.samples[tag.name].notna().sum() == 0:
             cells = skipped[skipped["column"] == tag.column]
-            first = f"; row {cells['row'].iloc[0]}: {cells['reason'].iloc[0]}" if len(cells) else ""
+            detail = cells["detail"].iloc[0] if len(cells) else ""
+            separator = re.fullmatch(r"'?[+-]?\d{1,3}(,\d{3})+(\.\d*)?'?", detail)
+            first = (f"; row {cells['row'].iloc[0]}: {cells['reason'].iloc[0]}" + (f" ({detail})" if detail else "")
+                     + ("; a thousands separator? hxtrain reads numbers written without one" if separator else "")
+                     if len(cells) else "")
             raise CaseError(f"column {tag.column!r} (tag {tag.name}) holds no usable value in its "
                             f"{history.rows} rows{first}", file=name)

@@ -66,6 +66,11 @@ class MonitoringResult:
     measurements: pd.DataFrame = field(default_factory=pd.DataFrame)
     """Per tag: what it measures, windows used, the share of them in which the balances check it
     (redundant), its mean adjustment and mean standardised adjustment."""
+    readings: pd.DataFrame = field(default_factory=pd.DataFrame)
+    """Per steady window (the index) and tag (a column), in default units: the window's mean reading, the reconciled value
+    of what it measures, their difference (reading less reconciled), the standardised
+    disagreement, and whether the reconciliation used the reading (not eliminated, not withheld,
+    not missing): what a back-calculation can be checked from by hand."""
     unmeasured: pd.DataFrame = field(default_factory=pd.DataFrame)
     """Per variable no tag measures: the share of windows in which the balances determine it
     (observable)."""
@@ -122,7 +127,8 @@ def monitor(path_or_monitoring, *, progress=None) -> MonitoringResult:
     shares = _cost_shares(monitoring.case, states, cost)
     result = MonitoringResult(monitoring, history, _window_table(windows, steady, states), state, flagged,
                               _instruments(states, values, index, columns), cost, shares, drifts=drifts,
-                              measurements=_measurement_table(states, tags), unmeasured=_unmeasured_table(states))
+                              measurements=_measurement_table(states, tags), unmeasured=_unmeasured_table(states),
+                              readings=_readings_table(states, values, index, tags))
     _fit_and_project(result, states, index, say)
     return result
 
@@ -181,6 +187,19 @@ def _measurement_table(states: WindowStates, tags) -> pd.DataFrame:
             "mean_adjustment": np.nanmean(np.where(used, states.adjustments, np.nan), axis=0),
             "mean_standardised": np.nanmean(np.where(used, states.standardized, np.nan), axis=0)},
             index=pd.Index([t.name for t in tags], name="tag"))
+    return table
+
+
+def _readings_table(states: WindowStates, values, index, tags) -> pd.DataFrame:
+    """Each steady window's readings beside their reconciled values (:class:`MonitoringResult`)."""
+    reconciled = states.values[:, states.balances.tag_column]
+    windows, count = len(index), len(tags)
+    table = pd.DataFrame({
+        "tag": np.tile([t.name for t in tags], windows), "quantity": np.tile([t.quantity for t in tags], windows), "point": np.tile([t.point for t in tags], windows),
+        "reading": values.reshape(-1), "reconciled": reconciled.reshape(-1),
+        "reading_less_reconciled": (values - reconciled).reshape(-1), "standardised": states.standardized.reshape(-1),
+        "used": np.isfinite(states.adjustments).reshape(-1)},
+        index=pd.Index(np.repeat(np.asarray(index), count), name="time"))  # a column per tag, as the state's units
     return table
 
 

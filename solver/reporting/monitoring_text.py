@@ -105,13 +105,14 @@ def monitoring_report(result, display: Display | None = None) -> str:
              f"plant data file: {m.data_path}",
              *note_lines(display), "",
              f"Plant data: {len(history.samples)} rows from {_day(history.samples.index.min())} "
-             f"to {_day(history.samples.index.max())}"]
+             f"to {_day(history.samples.index.max())}" + _rows_without_readings(history)]
     parts += _skipped_lines(history.skipped)
     steady = int(windows["steady"].sum())
     parts.append(f"Windows of {shown_duration(m.window)}: {len(windows):,}; steady {steady:,}; reconciled "
                  f"{int(windows['reconciled'].sum())}; global test passed in {int(windows['passed'].sum())} "
                  f"(significance {m.significance:g})")
     parts += _gap_lines(windows, m.window, display, history.samples.index.to_series().diff().median())
+    parts += _unsteady_lines(windows, display)
     parts += _redundancy_lines(result)
     today = today_table(result)
     if not today.empty:
@@ -161,9 +162,34 @@ def _gap_lines(windows: pd.DataFrame, window, display: Display | None = None, sp
     else:
         starts = np.flatnonzero(empty & ~np.concatenate([[False], empty[:-1]]))
         ends = np.flatnonzero(empty & ~np.concatenate([empty[1:], [False]]))
-        said = "; ".join(f"{windows.index[a]:%Y-%m-%d %H:%M} to {windows.index[b] + window:%Y-%m-%d %H:%M}"
-                         for a, b in zip(starts, ends))
+        said = "; ".join(f"{b - a + 1:,} from {windows.index[a]:%Y-%m-%d %H:%M}" for a, b in zip(starts, ends))
     return fitted(f"  no data at all in {int(empty.sum()):,} windows: {said}", display or current(), "    ")
+
+
+def _rows_without_readings(history) -> str:
+    """Where rows of the file with a readable time had no usable reading of any tag (left out of
+    the row count): how many."""
+    empty = history.rows - history.skipped_rows - len(history.samples)
+    return f" ({empty:,} more with no usable reading of any tag)" if empty > 0 else ""
+
+
+def _unsteady_lines(windows: pd.DataFrame, display: Display | None = None) -> list[str]:
+    """The windows with data that the steady-state test set aside, by reason: how many, the tags
+    named first and the first and last window (a flow meter reading zero for a week had shown only
+    as a smaller steady count)."""
+    unsteady = windows[~windows["steady"].astype(bool) & (windows["samples"] > 0)]
+    if unsteady.empty:
+        return []
+    said, display = [], display or current()
+    reasons = unsteady["not_steady_because"].astype(str)
+    kinds = reasons.str.split(": ", n=1).str[0]
+    for kind, rows in unsteady.groupby(kinds.to_numpy(), sort=False):
+        tags = sorted(set(reasons[rows.index].str.split(": ", n=1).str[1].str.split(" ").str[0].dropna()))
+        when = f"{rows.index.min():%Y-%m-%d}" + (f" to {rows.index.max():%Y-%m-%d}" if len(rows) > 1 else "")
+        kind = display.message(kind)  # "above 5 K" in the units shown
+        said.append(f"{kind} in {len(rows):,} ({', '.join(tags)}; {when})" if tags else f"{kind} in {len(rows):,} ({when})")
+    return fitted(f"  not steady, with data, in {len(unsteady):,} windows: " + "; ".join(said), display,
+                  "    ", break_on_hyphens=False)
 
 
 def _redundancy_lines(result) -> list[str]:
@@ -203,7 +229,9 @@ def _skipped_lines(skipped: pd.DataFrame) -> list[str]:
                                                      if columns.iloc[0] > columns.iloc[1] else ")")
         else:
             most = ""
-        parts = ([f"{whole} rows"] if whole else []) + ([f"{int(cells.sum())} cells{most}"] if cells.any() else [])
+        numbers = rows.loc[~cells, "row"].drop_duplicates()
+        shown = ", ".join(map(str, numbers.head(SPIKES_SHOWN))) + (", ..." if len(numbers) > SPIKES_SHOWN else "")
+        parts = ([f"{whole} rows (data file row{'s' if whole > 1 else ''} {shown})"] if whole else []) + ([f"{int(cells.sum())} cells{most}"] if cells.any() else [])
         lines.append(f"  left out ({reason}): {' and '.join(parts)}")
         if reason == SPIKE:  # readings taken out of the data: each named, with its neighbours
             lines += [f"    {r.column} at {pd.Timestamp(r.time):%Y-%m-%d %H:%M} (data file row {r.row}): {r.detail}"
@@ -340,6 +368,9 @@ def monitoring_tables(result, display: Display | None = None) -> dict:
             "windows": result.windows,
             "measurements": names.by_tag_quantity(result.measurements, result.measurements.get("quantity", []),
                                                   ["mean_adjustment"]),
+            "readings": names.by_tag_quantity(
+                names.by_tag_quantity(result.readings, result.readings.get("quantity", []), ["reading_less_reconciled"]),
+                result.readings.get("quantity", []), ["reading", "reconciled"], names.VALUE_ENDINGS),
             "unmeasured": result.unmeasured,
             "instruments": _by_tag(m, result.instruments, ["median_bias"]),
             "persistently_off": _by_tag(m, result.drifts, ["mean_bias", "last_bias"]),

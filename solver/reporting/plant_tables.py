@@ -19,8 +19,9 @@ from hxtrain.units.fouling_models import MODELS
 STATE_NAMES = {"duty": "duty_kw", "ua": "ua_kw_per_k", "u_service": "u_service_w_m2k", "u_clean": "u_clean_w_m2k",
                "fouling": "fouling_m2k_w", "t_mean_shell": "t_mean_shell_c", "t_mean_tube": "t_mean_tube_c",
                "h_shell": "h_shell_w_m2k", "h_tube": "h_tube_w_m2k", "fouling_sigma": "fouling_sigma_m2k_w",
-               "fouling_expanded": "fouling_expanded_m2k_w"}
-"""The back-calculated state (kW, kW/K, W/m²·K, m²·K/W, °C) with its units' endings."""
+               "fouling_expanded": "fouling_expanded_m2k_w", "p": "p_hot", "r": "r_hot"}
+"""The back-calculated state (kW, kW/K, W/m²·K, m²·K/W, °C) with its units' endings; P and R on the
+hot-side basis, as in a simulation's units table."""
 FIT_NAMES = {"residual_rms": "residual_rms_m2k_w", "fouling_now": "fouling_now_m2k_w"}
 CLEANING_NAMES = {"drop": "drop_m2k_w", "drop_sigma": "drop_sigma_m2k_w"}
 COST_NAMES = {"fuel_gj_per_day": "fuel_per_day_gj", "co2_t_per_day": "co2_per_day_t",
@@ -45,7 +46,11 @@ def money(table: pd.DataFrame, currency: str) -> pd.DataFrame:
     return table.rename(columns={c: f"{c}_{slug}" for c in MONEY if c in table.columns}) if slug else table
 
 
-def by_tag_quantity(table: pd.DataFrame, quantities, columns) -> pd.DataFrame:
+VALUE_ENDINGS = {**TAG_ENDINGS, "temperature": "_c"}
+"""The ending of a reading itself, by what the tag measures."""
+
+
+def by_tag_quantity(table: pd.DataFrame, quantities, columns, endings=None) -> pd.DataFrame:
     """Each of ``columns`` (in the unit of the quantity its row's tag measures: ``quantities``,
     one per row) split into one column per quantity present, named with that unit's ending
     (``bias`` -> ``bias_k``, ``bias_kg_s``, ``bias_kw``), in the place of the original."""
@@ -56,7 +61,7 @@ def by_tag_quantity(table: pd.DataFrame, quantities, columns) -> pd.DataFrame:
             continue
         at = table.columns.get_loc(column)
         values = pd.to_numeric(table.pop(column), errors="coerce")
-        for quantity, ending in TAG_ENDINGS.items():
+        for quantity, ending in (endings or TAG_ENDINGS).items():
             rows = (kinds == quantity).to_numpy()
             if rows.any():
                 table.insert(at, f"{column}{ending}", values.where(rows))
