@@ -217,7 +217,7 @@ def test_networks_without_drums_take_the_old_path_once(monkeypatch):
 def test_console_and_report_show_the_drum(tmp_path, capsys):
     code, out, err = run_in_process(capsys, "run", PREFLASH)
     assert code == 0, err
-    assert "Flash drums (split at the inlet state" in out and "vapour fraction in" in out
+    assert "Flash drums (split at the inlet state" in out and "feed vaporised" in out
     report = tmp_path / "report.html"
     code, _, err = run_in_process(capsys, "report", PREFLASH, "--out", report)
     assert code == 0, err

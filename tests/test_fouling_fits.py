@@ -250,6 +250,9 @@ def test_demo_fits_recover_the_generating_laws():
     tag = list(monitoring.tags).index("TI-206")
     left_out = states.withheld[:, tag]
     assert left_out[-120:].all() and not left_out[:100].any()
+    # no sound instrument read persistently off for more than a window (a trial found four, in 1-11
+    # windows each, while the critical value counted the tags of one window only)
+    assert np.delete(states.withheld, tag, axis=1).sum(axis=0).max() <= 1
     cleanings = fits.cleanings
     assert cleanings[cleanings["source"] == "both"][["exchanger", "time"]].values.tolist() == [
         ["E-108", pd.Timestamp("2026-07-02")]]

@@ -202,7 +202,11 @@ def persistence_statistic(states: WindowStates, span=None, alpha=DEFAULT_ALPHA):
     |sum| / sqrt(n) is a standard normal statistic, and a bias of a fraction of a standard
     deviation, too small for any one window's test, shows once it persists (a drifting
     thermocouple, a flow meter out of calibration). The critical value is Šidák's over the tags
-    tested in the window, as in the measurement test."""
+    tested in the window times the W windows: the test is made at every window, so over the tags
+    alone a sound instrument somewhere crossed it in every year of daily windows of pure noise
+    (200 simulated years of 47 tags; the plant-data demo had four sound instruments called
+    persistently off besides the drifting one); over every test made, in 2.5 % of those years
+    (conservative: successive windows share 27 of their 28)."""
     span = PERSISTENCE_SPAN if span is None else span
     z = states.standardized
     present = np.isfinite(z)
@@ -214,7 +218,7 @@ def persistence_statistic(states: WindowStates, span=None, alpha=DEFAULT_ALPHA):
     total, n = cumulative[ends] - cumulative[starts], counts[ends] - counts[starts]
     tested = (n >= MIN_PERSISTENCE) & present
     statistic = np.where(tested, np.abs(total) / np.sqrt(np.maximum(n, 1)), 0.0)
-    critical = sidak_critical_value(alpha, np.maximum(tested.sum(axis=1), 1))
+    critical = sidak_critical_value(alpha, np.maximum(tested.sum(axis=1), 1) * z.shape[0])
     return statistic, critical
 
 

@@ -42,7 +42,7 @@ ONE_STREAM_WORDS = {"type": "type", "heat_source": "heat source", "outlet_fluid"
 SEPARATOR_WORDS = {"type": "type", "inlet_c": "crude in", "wash_water_in_c": "wash water in", "outlet_c": "outlet",
                    "crude_drop_k": "crude drop", "brine_kg_s": "brine", "findings": "findings"}
 """The desalters' table (units in the ``separators`` group)."""
-DRUM_WORDS = {"inlet_c": "inlet", "inlet_vapour_fraction": "vapour fraction in", "vapour_kg_s": "vapour",
+DRUM_WORDS = {"inlet_c": "inlet", "inlet_vapour_fraction": "feed vaporised", "vapour_kg_s": "vapour",
               "liquid_kg_s": "liquid", "outlet_c": "out (both)", "outer_iterations": "outer iterations",
               "findings": "findings"}
 """The flash drums' table (units in the ``drums`` group)."""
