@@ -88,14 +88,17 @@ def apply_values(net, values: dict):
     for path, array in values.items():
         unit, parameter = unit_parameter(net, path)
         array = np.broadcast_to(np.asarray(array, dtype=float).reshape(-1), (batch,))
+        # the case file's own message first (a flow of 0 is below the smallest plausible flow, as a
+        # case file says: "it must be above 0" was not the bound)
+        implausible = _implausible(path, array, valid, message, key)
+        valid &= ~implausible
         outside = parameter.outside(array)
         for k in np.flatnonzero(outside & valid):
-            message[k] = f"{array[k]:g} is not a possible value (it must be {parameter.bounds_text()})"
+            message[k] = (f"{array[k]:g} is not a possible value (it must be {parameter.bounds_text()})"
+                          if np.isfinite(array[k]) else f"{array[k]:g} is not a finite number")
             key[k] = tuple(path.split("."))
         valid &= ~outside
-        implausible = _implausible(path, array, valid, message, key)
         outside |= implausible
-        valid &= ~implausible
         safe = np.where(outside, _inside(parameter), array)  # keep the arithmetic of bad rows finite
         unit.set_parameter(parameter.name, safe)
     return batch, valid, message, key

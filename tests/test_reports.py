@@ -121,6 +121,12 @@ def test_the_workbook_has_units_formats_frozen_headers_and_a_limits_sheet(tmp_pa
     assert any(units.cell(row, duty).number_format == "#,##0.000" for row in range(2, units.max_row + 1))
     about = dict((a, b) for a, b in book["about"].iter_rows(min_row=2, values_only=True))
     assert about["units"].startswith("US customary") and "caution" in about
+    # a value too small for its column's decimals is shown in scientific form (a trial saw the
+    # energy balance's 1.2e-14 as 0.00)
+    for row in book["about"].iter_rows(min_row=2):
+        if isinstance(row[1].value, float) and 0.0 < abs(row[1].value) < 0.005:
+            assert row[1].number_format == "0.00E+00", row[0].value
+    assert any(isinstance(b, float) and 0.0 < abs(b) < 0.005 for b in about.values())
 
 
 def test_json_and_csv_carry_the_unit_in_every_key(tmp_path, capsys):
@@ -306,6 +312,9 @@ def test_the_html_reports_carry_what_the_console_does(tmp_path, capsys):
     page = (tmp_path / "s.html").read_text(encoding="utf-8")
     section = page[page.index('<section id="specifications">'):]
     assert "branch_balance" in section and "e110_outlet_by_bypass" in section and "met - " in section
+    # the table's value as the text gives it (a fraction had shown 0.60 beside 0.5995 in the text)
+    values = re.findall(r"fraction = (0\.\d{4}) gives", section)[:1] + re.findall(r"cold = (0\.\d{4}) gives", section)[:1]
+    assert len(values) == 2 and all(f"<td>{value}</td>" in section for value in values), values
 
 
 @pytest.mark.parametrize("demo", ["crude_preheat", "desalter_and_reactor", "naphtha_vaporiser", "study"])

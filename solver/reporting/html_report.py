@@ -204,6 +204,7 @@ def study_report(study, comparison, display: Display | None = None, specificatio
                         f"({spec.evaluations} simulations)</li>" for spec in specifications)
         body.append(f"<section id=\"specifications\"><h2>Specifications</h2><ul>{items}</ul>"
                     + html_table(specification_table(specifications).drop(columns="message"), display,
+                                 digits={"value": 4},  # a fraction as the text above gives it (0.5995, not 0.60)
                                  caption="Each specification's adjusted value and what it reached") + "</section>")
     if base is not None:
         body.append("<section id=\"network\"><h2>The base case</h2>"

@@ -166,7 +166,10 @@ def _format(sheet, display: Display, bold, header, highlight):
         number_format = "#,##0" + (f".{'0' * places}" if places else "")
         for cell in cells[1:]:
             if isinstance(cell.value, float):
-                cell.number_format = number_format
+                # a value the column's decimals would show as 0.00 (an energy balance's 1.2e-14) in
+                # scientific form
+                tiny = cell.value != 0.0 and abs(cell.value) < 0.5 * 10.0 ** -places
+                cell.number_format = "0.00E+00" if tiny else number_format
             if highlight is not None:
                 cell.fill = highlight
         if sheet.title != "about":
