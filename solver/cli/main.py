@@ -133,12 +133,14 @@ def _sweep(args) -> int:
     from hxtrain.solver.reporting.console_tables import render
     from hxtrain.solver.reporting.display_units import current
     from hxtrain.solver.reporting.files import with_whole_counts
-    from hxtrain.solver.reporting.text import boxed, limits_over_scenarios, note_lines, paths_of_the_case
+    import pandas as pd
+
+    from hxtrain.solver.reporting.text import boxed, limit_counts, limits_over_scenarios, note_lines, paths_of_the_case
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies import run_sweep
     from hxtrain.solver.studies.sweeps import grid_columns_with_units
 
-    study = _load_study_for(args, lambda s: [sweep.name for sweep in s.sweeps])
+    study = _load_study_for(args, lambda s: [sweep.name for sweep in s.sweeps] + [_limits_name(s)])
     if not study.sweeps:
         raise CaseError("the study has no sweeps", file=study.file, path=("sweeps",))
     from hxtrain.solver.studies.distributed import cluster_for
@@ -147,8 +149,11 @@ def _sweep(args) -> int:
         # the swept values named with their unit (streams.crude.flow_kg_s): converted like any result
         tables = {sweep.name: (table := run_sweep(study, sweep)).rename(columns=grid_columns_with_units(sweep, table))
                   for sweep in study.sweeps}
-    written = _write(tables, args, {"study": study.file, "title": study.title, "caution": CAUTION},
-                     _study_inputs(study))
+    # each sweep's violated limits, counted over its points, in the files as on the console
+    limits = pd.concat([limit_counts(table).rename(columns={"scenarios": "points", "rows": "point_numbers"})
+                        .assign(sweep=name) for name, table in tables.items()], ignore_index=True)
+    written = _write({**tables, _limits_name(study): limits[["sweep", *limits.columns[:-1]]]}, args,
+                     {"study": study.file, "title": study.title, "caution": CAUTION}, _study_inputs(study))
     display = current()
     for name, table in tables.items():
         print(f"\nSweep {name}\n{'-' * (6 + len(name))}")
@@ -162,6 +167,11 @@ def _sweep(args) -> int:
     print("\n" + "\n".join(note_lines(current())))
     _say_written(written)
     return EXIT_OK
+
+
+def _limits_name(study) -> str:
+    """The name of a sweep's limits table: ``limits``, unless a sweep is called that."""
+    return "limits" if "limits" not in {sweep.name for sweep in study.sweeps} else "violated_limits"
 
 
 def _cleaning(args) -> int:
@@ -178,11 +188,12 @@ def _cleaning(args) -> int:
     path = args.case or demo_case_path(DEMO_CASES[0])
     inputs = {"case file": path}
     if args.out:
-        check_output_path(args.out, inputs, ["ranking"])
+        check_output_path(args.out, inputs, ["ranking", "limits"])
     case = load_case(path)
     fouled = simulate(case)
     ranking = cleaning_ranking(case, fouled)
-    written = _write({"ranking": ranking}, args, {"case_file": str(path), "caution": CAUTION}, inputs)
+    written = _write({"ranking": ranking, "limits": _cleaning_limits(fouled, ranking, current())}, args,
+                     {"case_file": str(path), "caution": CAUTION}, inputs)
     print(f"hxtrain cleaning, one exchanger at a time: {case.title or path}")
     print(f"case file: {path}")  # whole, to be copied; the tables keep to the width
     shown = ranking.drop(columns="standing_limits_when_clean", errors="ignore")  # in the box below, in full
@@ -193,6 +204,20 @@ def _cleaning(args) -> int:
     print("\n" + "\n".join(note_lines(current())))
     _say_written(written)
     return EXIT_OK
+
+
+def _cleaning_limits(fouled, ranking, display):
+    """The limits of the console's box as a table, worded in ``display``'s units: the case's own
+    as it is, then each cleaning's new ones and the standing ones it moves, one row each."""
+    import pandas as pd
+
+    rows = [("none (as it is)", "as it is", f"{r.unit}: {display.message(r.message)}", r.key)
+            for r in fouled.limits.itertuples()]
+    for row in ranking.itertuples():
+        for column, when in (("new_limits_when_clean", "new"), ("standing_limits_when_clean", "still")):
+            if getattr(row, column, ""):
+                rows.append((row.exchanger, when, display.message(getattr(row, column)), ""))
+    return pd.DataFrame(rows, columns=["cleaned", "limit_is", "limit", "key"])
 
 
 def _cleaning_limit_lines(fouled, ranking, display) -> tuple[list[str], int]:

@@ -23,7 +23,7 @@ SHEET_NAME_LIMIT = 31
 RESERVED_SHEETS = ("about", "History")
 """Sheet names not available to tables: ours for the notes, Excel's own."""
 LIMITS_SHEET = "limits"
-LIMIT_TABLES = ("limits", "limit_dates")
+LIMIT_TABLES = ("limits", "violated_limits", "limit_dates")
 """Tables that are themselves lists of limits (a schedule's, a monitor's): highlighted like the
 limits sheet."""
 WORKBOOK_ILLEGAL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f]")
@@ -126,6 +126,11 @@ def workbook_bytes(tables: dict, notes: dict, display: Display, sheets: list, re
     about = about_table(notes, zip(tables, sheets), display, plain)
     if limits is not None:
         about.loc[len(about)] = ("limits violated", f"{len(limits)}: see the sheet '{LIMITS_SHEET}'")
+    else:  # a table of limits of its own (a sweep's, a Monte Carlo's, a cleaning ranking's; projected ones)
+        for table, sheet in zip(tables, sheets):
+            if table in LIMIT_TABLES:
+                about.loc[len(about)] = ("limits violated", f"{len(tables[table])}: see the sheet '{sheet}'")
+                break
     _cell_safe(about).to_excel(writer, sheet_name="about", index=False)
     if limits is not None:
         shown = limits if len(limits) else pd.DataFrame({"limits violated": ["none"]})

@@ -142,21 +142,31 @@ def paths_of_the_case(study) -> str:
 def limits_over_scenarios(table, noun: str, display: Display | None = None, name_rows: str = "") -> list[str]:
     """The boxed lines naming each limit the scenarios of a batch ``table`` violate (its
     ``violated_limits`` column) and in how many of them (``noun``: "points of sweep x",
-    "samples"), most often first; with ``name_rows`` ("point") also which rows, counted from 1
-    (a sweep's points); none where no scenario violates one."""
+    "samples"), most often first (:func:`limit_counts`); with ``name_rows`` ("point") also which
+    rows, counted from 1 (a sweep's points); none where no scenario violates one."""
+    counts, total = limit_counts(table), len(table)
+    lines = [f"{row.limit}: {row.scenarios:,} of {total:,} ({row.share:.0%})"
+             + (f", {name_rows}s {row.rows}" if name_rows else "") for row in counts.itertuples()]
+    hit = int(sum(bool(text) for text in table.get("violated_limits", ())))
+    return boxed("LIMITS VIOLATED", lines, count=f"{len(lines)} limit(s), in {hit:,} of {total:,} {noun}",
+                 display=display)
+
+
+def limit_counts(table) -> pd.DataFrame:
+    """Each limit the scenarios of a batch ``table`` violate (its ``violated_limits`` column), most
+    often first: in how many scenarios, their share, and which rows (counted from 1, as runs):
+    the console's box and the files' ``limits`` table."""
     from hxtrain.solver.simulation.results import LIMIT_SEPARATOR
 
     rows_of = {}
     for row, text in enumerate(table.get("violated_limits", ())):
         for label in (text.split(LIMIT_SEPARATOR) if text else ()):
             rows_of.setdefault(label, []).append(row + 1)
-    total = len(table)
-    lines = [f"{label}: {len(rows):,} of {total:,} ({len(rows) / total:.0%})"
-             + (f", {name_rows}s {_row_list(rows)}" if name_rows else "")
-             for label, rows in sorted(rows_of.items(), key=lambda item: (-len(item[1]), item[0]))]
-    hit = len({row for rows in rows_of.values() for row in rows})
-    return boxed("LIMITS VIOLATED", lines, count=f"{len(lines)} limit(s), in {hit:,} of {total:,} {noun}",
-                 display=display)
+    ordered = sorted(rows_of.items(), key=lambda item: (-len(item[1]), item[0]))
+    return pd.DataFrame({"limit": [label for label, _ in ordered], "scenarios": [len(rows) for _, rows in ordered],
+                         "share": [len(rows) / max(len(table), 1) for _, rows in ordered],
+                         "rows": [_row_list(rows) for _, rows in ordered]},
+                        columns=["limit", "scenarios", "share", "rows"])
 
 
 def _row_list(rows, shown=12) -> str:

@@ -66,8 +66,11 @@ class UncertaintyResult:
             tornado[end] = [float(c.convert([v])[0]) if c else v for c, v in zip(columns, tornado[end])]
         tornado.insert(1, "input_unit", [c.label if c else "" for c in columns])
         samples = self.samples.rename(columns={p: f"{p}{ending_of_key(p)}" for p in self.tornado["input"]})
+        from hxtrain.solver.reporting.text import limit_counts
+
+        limits = limit_counts(self.samples).drop(columns="rows").rename(columns={"scenarios": "samples"})
         return {"uncertainty_percentiles": self.percentiles.set_index("result"), "uncertainty_tornado": tornado,
-                "uncertainty_samples": samples}
+                "uncertainty_samples": samples, "limits": limits}
 
 
 def draw(uncertainty, samples=None, seed=None) -> dict:
