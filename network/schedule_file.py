@@ -40,7 +40,7 @@ from hxtrain.units.fouling_models import MODELS
 from . import quantities as q
 from .case import Case
 from .changes import key_kind, study_number
-from .errors import CaseError
+from .errors import CaseError, format_path
 from .fields import Fields, describe, nearest
 from .graph import Network, build_network
 from .monitoring_file import (DEFAULT_STEP, read_base_case, read_duration, read_economics, error_at, read_quantity,
@@ -127,6 +127,10 @@ class ScheduleFile:
     furnace: FurnaceLimit | None
     baselines: dict
     new_limits_allowed: bool = False
+    beyond_horizon: list = field(default_factory=list)
+    """What the file gives for times the horizon does not reach, left out and said in the report
+    (key path, what): closed periods, operating changes, fixed intervals. A horizon shortened to
+    try a plan had been refused until each was taken out."""
     lines: dict[tuple, int] = field(default_factory=dict, repr=False)
     network: Network | None = field(default=None, repr=False)
 
@@ -200,15 +204,17 @@ def schedule_from_document(doc: Document, folder: Path) -> ScheduleFile:
     terms = _cleaning_terms(cleaning, case, cleanable, step, steps)
     at_most = cleaning.integer("at_most_at_once", DEFAULT_AT_MOST_AT_ONCE, 1, 1000)
     new_limits_allowed = cleaning.flag("allow_new_limit_violations", False)
-    not_allowed = _not_allowed(cleaning, start, step, steps)
+    beyond = []
+    not_allowed = _not_allowed(cleaning, start, step, steps, beyond)
     cleaning.finish()
     return ScheduleFile(
         file=doc.file, title=top.text("title", default="") or "", case=case, start=start, step=step, steps=steps,
-        fouling=laws, monitoring_file=monitoring, operation=_operation(top, net, laws, monitoring, start, step * steps),
+        fouling=laws, monitoring_file=monitoring, operation=_operation(top, net, laws, monitoring, start, step * steps, beyond),
         economics=read_economics(top.mapping("economics", required=True)), cleaning=terms, at_most_at_once=at_most,
         not_allowed=not_allowed, furnace=_furnace(top, case, net),
-        baselines=_baselines(top, step, steps, {t: lumped_fouling(case.exchangers[t]["spec"]) for t in cleanable}),
-        new_limits_allowed=new_limits_allowed, lines=doc.lines, network=net)
+        baselines=_baselines(top, step, steps, {t: lumped_fouling(case.exchangers[t]["spec"]) for t in cleanable},
+                             beyond),
+        new_limits_allowed=new_limits_allowed, beyond_horizon=beyond, lines=doc.lines, network=net)
 
 
 # ----------------------------------------------------------------------------- sections
@@ -341,7 +347,7 @@ def _terms(f: Fields, default: CleaningTerms | None, step, steps) -> CleaningTer
     return CleaningTerms(fallback.cost if cost is None else cost, count, allowed)
 
 
-def _not_allowed(f: Fields, start, step, steps) -> list:
+def _not_allowed(f: Fields, start, step, steps, beyond: list) -> list:
     raw = f.raw("not_allowed", required=False)
     if raw is None:
         return []
@@ -355,16 +361,18 @@ def _not_allowed(f: Fields, start, step, steps) -> list:
         if until < begin:
             raise p.error("to", f"the period ends ({_day(until)}) before it begins ({_day(begin)})")
         stop = until + DAY if until == until.normalize() else until  # a date: to the end of that day
-        if stop <= start or begin >= end:
-            raise p.error(None, f"the period {_day(begin)} to {_day(until)} lies outside the horizon "
-                                f"({start.date()} to {(end - DAY).date()}): it forbids nothing")
+        if stop <= start or begin >= end:  # it forbids nothing
+            beyond.append((format_path(p.path), f"no cleaning from {_day(begin)} to {_day(until)}"))
+            p.text("why", default="")
+            p.finish()
+            continue
         first, last = max(0, (begin - start) // step), min(steps - 1, -(-(stop - start) // step) - 1)
         periods.append((int(first), int(last), p.text("why", default="") or ""))
         p.finish()
     return periods
 
 
-def _operation(top: Fields, net: Network, laws: dict, monitoring, start, horizon) -> list:
+def _operation(top: Fields, net: Network, laws: dict, monitoring, start, horizon, beyond: list) -> list:
     raw = top.raw("operation", required=False)
     if raw is None:
         return []
@@ -375,9 +383,9 @@ def _operation(top: Fields, net: Network, laws: dict, monitoring, start, horizon
     for i, item in enumerate(raw):
         f = Fields(top.doc, ("operation", i), item, "an operating period: {from: DATE, set: {KEY PATH: VALUE}}")
         when = read_timestamp(f, "from")
-        if not start <= when < start + horizon:
+        if when < start:
             raise f.error("from", f"{_day(when)} lies outside the horizon ({start.date()} to "
-                                  f"{(start + horizon - DAY).date()})")
+                                  f"{(start + horizon - DAY).date()}): the operation at the start is the case's own")
         if entries and when <= entries[-1][0]:
             raise f.error("from", f"{_day(when)} is not after the previous entry's {_day(entries[-1][0])}: entries go "
                                   "in date order, each from a later date")
@@ -390,6 +398,9 @@ def _operation(top: Fields, net: Network, laws: dict, monitoring, start, horizon
             values[path] = _operating_value(s, path, value, net, laws, monitoring)
         f.text("description")
         f.finish()
+        if when >= start + horizon:
+            beyond.append((format_path(f.path), f"the operation set from {_day(when)}"))
+            continue
         entries.append((when, values))
     return entries
 
@@ -439,7 +450,7 @@ def _furnace(top: Fields, case: Case, net: Network) -> FurnaceLimit | None:
     return FurnaceLimit(heater, maximum, throughput, lost)
 
 
-def _baselines(top: Fields, step, steps, design: dict) -> dict:
+def _baselines(top: Fields, step, steps, design: dict, beyond: list) -> dict:
     f = top.mapping("baselines", what="a mapping with fixed_intervals and fouling_threshold")
     raw = None if f is None else f.raw("fixed_intervals", required=False)
     left_out = []  # default intervals not shorter than the horizon: the report says so
@@ -454,9 +465,11 @@ def _baselines(top: Fields, step, steps, design: dict) -> dict:
         intervals = []
         for i in items.value:
             interval = read_duration(items, i, None)
-            if interval is None or interval >= step * steps:
-                raise items.error(i, f"expected a duration shorter than the horizon ({shown_duration(step * steps)}), "
-                                     f"got {describe(raw[i])}")
+            if interval is None:
+                raise items.error(i, f"expected a duration such as 26 weeks, got {describe(raw[i])}")
+            if interval >= step * steps:  # no cleaning within the horizon: the same as no cleaning
+                beyond.append((format_path(items.path + (i,)), f"a fixed interval of {shown_duration(interval)}"))
+                continue
             intervals.append(whole_steps(items, i, interval, step))
     threshold = None if f is None else read_quantity(f, "fouling_threshold", q.FOULING, above=0.0)
     if f is not None:

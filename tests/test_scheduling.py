@@ -4,6 +4,7 @@ marched through the same network)."""
 
 import itertools
 import textwrap
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -330,3 +331,33 @@ def test_the_baselines_cleanings_are_written_and_default_intervals_left_out_are_
     comparison = schedule_tables(result)["comparison"]
     assert "ranked_cost_usd" in comparison and "objective_usd" not in comparison
     assert "the baselines are shown as their rules make them, new violations and all" in text
+
+
+def test_a_shortened_horizon_leaves_out_what_lies_beyond_it_and_says_so(tmp_path):
+    """A 52-week schedule cut to 20 weeks: its closed period, its later operating change and its
+    26-week fixed interval lie beyond the horizon and are left out, named in the report with their
+    key paths (a trial had the demo schedule refused three times, exit 2, until each was taken out
+    of the file); what lies within stays. An operating change before the start is still refused
+    (the start's operation is the case's own)."""
+    from hxtrain.network.errors import CaseError
+    from hxtrain.solver.reporting.schedule_text import schedule_report
+    from hxtrain.solver.scheduling.plan_cleanings import plan_cleanings
+
+    base = (Path(__file__).parent / "malformed_schedules" / "base.yaml").read_text(encoding="utf-8")
+    assert "horizon: 52 weeks" in base and "from: 2027-07-05" in base
+    short = tmp_path / "short.yaml"
+    short.write_text(base.replace("horizon: 52 weeks", "horizon: 20 weeks"), encoding="utf-8")
+    schedule = load_schedule(short)
+    beyond = dict(schedule.beyond_horizon)
+    assert beyond == {"cleaning.not_allowed[0]": "no cleaning from 2027-12-01 to 2027-12-31",
+                      "operation[1]": "the operation set from 2027-07-05",
+                      "baselines.fixed_intervals[1]": "a fixed interval of 26 weeks"}
+    assert schedule.baselines["fixed_intervals"] == [13] and len(schedule.operation) == 1 and not schedule.not_allowed
+    text = " ".join(schedule_report(plan_cleanings(schedule)).split())
+    assert ("left out, beyond the horizon: no cleaning from 2027-12-01 to 2027-12-31 (cleaning.not_allowed[0]); the "
+            "operation set from 2027-07-05 (operation[1]); a fixed interval of 26 weeks (baselines.fixed_intervals[1])"
+            in text)
+    early = tmp_path / "early.yaml"
+    early.write_text(short.read_text(encoding="utf-8").replace("from: 2027-07-05", "from: 2026-07-05"), encoding="utf-8")
+    with pytest.raises(CaseError, match="the operation at the start is the case's own"):
+        load_schedule(early)

@@ -59,6 +59,10 @@ def schedule_report(result, display: Display | None = None) -> str:
     for first, last, why in schedule.not_allowed:
         parts.append(f"  no cleaning in the steps from {_day(horizon.start + first * schedule.step)} to "
                      f"{_day(horizon.start + (last + 1) * schedule.step - pd.Timedelta(days=1))} (whole steps): {why}")
+    if schedule.beyond_horizon:
+        parts += textwrap.wrap("left out, beyond the horizon: " + "; ".join(f"{what} ({key})" for key, what
+                                                                              in schedule.beyond_horizon),
+                               WIDTH, initial_indent="  ", subsequent_indent="    ", break_on_hyphens=False)
     left_out = schedule.baselines.get("intervals_left_out") or []
     if left_out:
         parts += textwrap.wrap(f"the default fixed-interval baselines of {listed([shown_duration(d) for d in left_out])}"
