@@ -361,3 +361,34 @@ def test_a_shortened_horizon_leaves_out_what_lies_beyond_it_and_says_so(tmp_path
     early.write_text(short.read_text(encoding="utf-8").replace("from: 2027-07-05", "from: 2026-07-05"), encoding="utf-8")
     with pytest.raises(CaseError, match="the operation at the start is the case's own"):
         load_schedule(early)
+
+
+def test_each_baselines_limits_are_tabled_and_its_new_ones_named(tmp_path):
+    """A trial saw a baseline's 'new' limit steps counted (72 for every 26 weeks in the demo) but
+    never which limit: every baseline's limits are a table beside the train with no cleaning, and
+    the report names the new ones (those the train with no cleaning keeps). On a small schedule
+    the table agrees with the comparison's counts; the wording is checked on a made table."""
+    import types
+
+    import pandas as pd
+
+    from hxtrain.solver.reporting.schedule_text import _new_baseline_limits, schedule_tables
+    from hxtrain.solver.scheduling.plan_cleanings import plan_cleanings
+
+    schedule = small_schedule(tmp_path, ("X-1", "X-3"), 6)
+    schedule.baselines["fouling_threshold"] = {"X-1": 1e-4, "X-3": 1e-4}
+    result = plan_cleanings(schedule)
+    table = schedule_tables(result)["baseline_limits"]
+    assert list(table.columns[:4]) == ["baseline", "unit", "limit", "key"]
+    comparison = result.comparison
+    for name in comparison.index.drop("optimised"):
+        rows = table[table["baseline"] == name]
+        assert (rows["steps"] <= comparison.at[name, "limit_steps"]).all()
+        assert ((rows["no_cleaning_steps"] == 0).any()) == (comparison.at[name, "new_limit_steps"] > 0), name
+    made = types.SimpleNamespace(baseline_limits=pd.DataFrame({
+        "baseline": ["no cleaning", "every 26 steps", "every 26 steps"], "unit": ["E-112", "E-112", "E-103"],
+        "limit": ["design_temperature", "design_temperature", "temperature_cross"], "steps": [91, 84, 71],
+        "worst": pd.to_datetime(["2028-12-25", "2028-12-25", "2027-08-02"]), "no_cleaning_steps": [91, 91, 0]}))
+    text = " ".join(_new_baseline_limits(made))
+    assert "every 26 steps: E-103 temperature_cross in 71 steps (worst 2027-08-02)" in text
+    assert "E-112" not in text and "no cleaning:" not in text

@@ -90,7 +90,7 @@ def schedule_report(result, display: Display | None = None) -> str:
     heading = (f"Costs over the horizon ({currency}; saves: the plan's total less the optimised plan's; share: of "
                f"that plan's cost of fouling; limit steps: steps with a limit violated; new: of them, steps "
                f"breaking a limit the train with no cleaning never breaks — {rule})")
-    parts += ["", *textwrap.wrap(heading, WIDTH), _cost_text(result.comparison)]
+    parts += ["", *textwrap.wrap(heading, WIDTH), _cost_text(result.comparison), *_new_baseline_limits(result)]
     history = result.search
     parts += ["", f"Search: {_count(int(history['plans_marched'].sum()), 'plan')} marched in {result.seconds:,.0f} s, "
                   f"{_count(len(history), 'round')}", "  (cycle MILP about each trajectory, then local search on the network)"]
@@ -152,6 +152,21 @@ def law_table(result) -> pd.DataFrame:
     return laws.drop(columns="model_name")
 
 
+def _new_baseline_limits(result) -> list[str]:
+    """The limits each baseline breaks that the train with no cleaning keeps (its "new" limit
+    steps), named: a trial saw their count and could not tell which limit it was."""
+    table = result.baseline_limits
+    if table is None or table.empty or not (table["no_cleaning_steps"] == 0).any():
+        return []
+    lines = ["", *textwrap.wrap("New limit violations of the baselines (limits the train with no cleaning keeps; each "
+                                "worst step's message in the baseline_limits table of --out):", WIDTH)]
+    for baseline, rows in table[table["no_cleaning_steps"] == 0].groupby("baseline", sort=False):
+        said = "; ".join(f"{r.unit} {r.limit} in {_count(r.steps, 'step')} (worst {_day(r.worst)})"
+                         for r in rows.itertuples())
+        lines += textwrap.wrap(f"  {baseline}: {said}", WIDTH, subsequent_indent="      ", break_on_hyphens=False)
+    return lines
+
+
 def schedule_tables(result) -> dict:
     """The tables ``--out`` writes, by name: quantities under their unit endings (converted on
     writing), money in the economics' currency, the laws' parameters in columns of their own."""
@@ -160,4 +175,4 @@ def schedule_tables(result) -> dict:
             "comparison": names.money(result.comparison, currency), "steps": names.money(result.steps, currency),
             "fouling_laws": law_table(result), "search": names.money(result.search, currency),
             "baseline_cleanings": names.money(result.baseline_cleanings, currency),
-            "limits": result.limits}
+            "limits": result.limits, "baseline_limits": result.baseline_limits}

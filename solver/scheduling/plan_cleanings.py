@@ -54,6 +54,9 @@ class ScheduleResult:
     cleaning: ``no_cleaning_steps`` (0 where it keeps the limit), ``no_cleaning_worst`` and
     ``no_cleaning_message`` (a plan may make a standing violation worse: a cleaning warms the
     train downstream)."""
+    baseline_limits: pd.DataFrame = None
+    """The same for every baseline, one row per (baseline, limit): ``baseline``, then the columns
+    of ``limits``; a limit with ``no_cleaning_steps`` 0 is one the baseline breaks anew."""
 
 
 def plan_cleanings(path_or_schedule, progress=None) -> ScheduleResult:
@@ -77,13 +80,19 @@ def plan_cleanings(path_or_schedule, progress=None) -> ScheduleResult:
     comparison = _comparison(search, outcome, names, clean)
     plans = {OPTIMISED: search.plan, **baselines}
     steps, limits = _step_table(horizon, search.outcome)
-    limits = _beside_no_cleaning(limits, _step_table(horizon, none)[1])
+    reference = _step_table(horizon, none)[1]
+    limits = _beside_no_cleaning(limits, reference)
+    # each baseline's limits, those the train with no cleaning keeps among them (its new ones)
+    beside = [_beside_no_cleaning(_step_table(horizon, outcome, k)[1], reference).assign(baseline=name)
+              for k, name in enumerate(names)]
+    baseline_limits = pd.concat(beside, ignore_index=True) if beside else limits.iloc[:0].assign(baseline="")
     cleanings = pd.concat([_plan_table(schedule, horizon, plan).assign(baseline=name) for name, plan in baselines.items()],
                           ignore_index=True)
     cleanings = cleanings[["baseline", *cleanings.columns.drop("baseline")]].astype(
         {"start": "datetime64[ns]", "back_in_service": "datetime64[ns]"})  # a plan with none had left them text
     return ScheduleResult(schedule, horizon, comparison, _plan_table(schedule, horizon, search.plan), steps, laws,
-                          search.history, plans, time.perf_counter() - started, cleanings, limits)
+                          search.history, plans, time.perf_counter() - started, cleanings, limits,
+                          baseline_limits[["baseline", *baseline_limits.columns.drop("baseline")]])
 
 
 def _never_fouling(horizon: Horizon) -> float:
@@ -129,14 +138,15 @@ def _beside_no_cleaning(limits: pd.DataFrame, reference: pd.DataFrame) -> pd.Dat
     return shown
 
 
-def _step_table(horizon: Horizon, outcome) -> pd.DataFrame:
-    """Per step of a marched plan (``outcome``'s first): each exchanger's fouling (m²·K/W, NaN
-    while out of service) and duty, the fired duty, the heaters' inlet temperatures, the
+def _step_table(horizon: Horizon, outcome, which=0) -> pd.DataFrame:
+    """Per step of a marched plan (``outcome``'s ``which``-th): each exchanger's fouling (m²·K/W,
+    NaN while out of service) and duty, the fired duty, the heaters' inlet temperatures, the
     throughput share, limits; and the limits violated, one row each."""
     from hxtrain.solver.simulation.evaluation import evaluate
 
-    fouling, busy = outcome.fouling[:1], outcome.out_of_service[:1]
-    values = scenario_values(horizon, fouling, busy, outcome.throughput[:1])
+    one = slice(which, which + 1)
+    fouling, busy = outcome.fouling[one], outcome.out_of_service[one]
+    values = scenario_values(horizon, fouling, busy, outcome.throughput[one])
     evaluation = evaluate(horizon.case, values)
     table = pd.DataFrame(index=horizon.times)
     for e, name in enumerate(horizon.exchangers):
@@ -146,10 +156,10 @@ def _step_table(horizon: Horizon, outcome) -> pd.DataFrame:
         if FIRED_HEATERS in report.totals:
             table[f"{name}.fired_duty_kw"] = report.metrics["duty"]
             table[f"{name}.inlet_c"] = report.metrics["inlet"]
-    table["throughput_share"] = outcome.throughput[0]
-    for column, values in step_lines(horizon, outcome.fired[:1], outcome.throughput[:1]).items():
+    table["throughput_share"] = outcome.throughput[which]
+    for column, values in step_lines(horizon, outcome.fired[one], outcome.throughput[one]).items():
         table[column] = values[0]
-    table["limits_violated"] = outcome.limits[0]
+    table["limits_violated"] = outcome.limits[which]
     rows = []
     for unit, finding in evaluation.findings:
         if finding.severity == "limit" and finding.active.any():
