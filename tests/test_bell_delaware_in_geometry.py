@@ -72,7 +72,7 @@ def test_the_film_and_the_drop_are_the_bell_delaware_functions(geometry, direct)
     geometry (keys as the case gives them), at the shell flow, to 1e-12."""
     reported = row(bd_case(**geometry))
     expected = shell_side_bell_delaware(30.0, RHO, MU, 1000.0 * CP, K, {**SHELL, "baffle_cut": 0.25, **direct})
-    assert reported["h_shell_w_m2k"] == pytest.approx(float(expected.heat_transfer_coefficient), rel=1e-12)
+    assert reported["h_shell_w_m2_k"] == pytest.approx(float(expected.heat_transfer_coefficient), rel=1e-12)
     assert reported["dp_shell_kpa"] == pytest.approx(float(expected.pressure_drop) / 1000.0, rel=1e-12)
 
 
@@ -84,16 +84,16 @@ def test_kern_stays_the_default():
     written = copy.deepcopy(kern)
     written["exchangers"]["E-1"]["geometry"]["shell_side_method"] = "kern"
     assert row(kern).equals(row(written))
-    assert row(kern)["h_shell_w_m2k"] != pytest.approx(row(bd_case())["h_shell_w_m2k"], rel=1e-3)
+    assert row(kern)["h_shell_w_m2_k"] != pytest.approx(row(bd_case())["h_shell_w_m2_k"], rel=1e-3)
 
 
 def test_leakage_and_bypass_move_h_the_way_the_method_says():
     """Larger shell-baffle and tube-baffle clearances leak more (J_l falls): h falls. Sealing strips
     block the bundle bypass (J_b rises): h rises (Taborek, HEDH 3.3, from memory)."""
-    base = row(bd_case(bundle_shell_clearance="35 mm"))["h_shell_w_m2k"]
+    base = row(bd_case(bundle_shell_clearance="35 mm"))["h_shell_w_m2_k"]
     leaky = row(bd_case(bundle_shell_clearance="35 mm", shell_baffle_clearance="12 mm",
-                        tube_baffle_clearance="1.6 mm"))["h_shell_w_m2k"]
-    sealed = row(bd_case(bundle_shell_clearance="35 mm", sealing_strip_pairs=3))["h_shell_w_m2k"]
+                        tube_baffle_clearance="1.6 mm"))["h_shell_w_m2_k"]
+    sealed = row(bd_case(bundle_shell_clearance="35 mm", sealing_strip_pairs=3))["h_shell_w_m2_k"]
     assert leaky < 0.95 * base < sealed
 
 

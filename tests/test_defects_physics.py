@@ -78,7 +78,7 @@ def hand_calculation(passes):
 
 def tube_side(data):
     row = simulate(case_from_mapping(data)).units.loc["E-1"]
-    return {"re": row["re_tube"], "h": row["h_tube_w_m2k"], "dp": row["dp_tube_kpa"] * 1000.0}
+    return {"re": row["re_tube"], "h": row["h_tube_w_m2_k"], "dp": row["dp_tube_kpa"] * 1000.0}
 
 
 def check_against_hand(got, passes):

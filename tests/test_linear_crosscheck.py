@@ -345,7 +345,7 @@ def disagreement(case, result=None):
     assert table.index.is_unique and set(table.index) == set(keys)
     rows = table.loc[keys]
     np.testing.assert_allclose(rows["flow_kg_s"].to_numpy(), m, rtol=1e-12, atol=1e-12)
-    np.testing.assert_allclose(rows["heat_capacity_rate_kw_per_k"].to_numpy(), c, rtol=1e-12, atol=1e-12)
+    np.testing.assert_allclose(rows["heat_capacity_rate_kw_k"].to_numpy(), c, rtol=1e-12, atol=1e-12)
     return float(np.max(np.abs(rows["temperature_c"].to_numpy() - t)))
 
 

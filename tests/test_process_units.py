@@ -78,8 +78,8 @@ def test_a_reactor_effluent_of_another_cp_makes_the_feed_effluent_exchanger_r_di
     assert e1["r_hot"] == pytest.approx(c_h / c_c, rel=1e-12) and abs(e1["r_hot"] - 1.0) > 0.2
     assert r1["cold_in_c"] == pytest.approx(t1, rel=1e-9) and r1["cold_out_c"] == pytest.approx(t2, rel=1e-9)
     assert segment(result, "E-1.hot -> rundown")["temperature_c"] == pytest.approx(t2 - q / c_h, rel=1e-9)
-    assert segment(result, "R-1 -> E-1.hot")["heat_capacity_rate_kw_per_k"] == pytest.approx(c_h, rel=1e-12)
-    assert segment(result, "E-1.cold -> R-1")["heat_capacity_rate_kw_per_k"] == pytest.approx(c_c, rel=1e-12)
+    assert segment(result, "R-1 -> E-1.hot")["heat_capacity_rate_kw_k"] == pytest.approx(c_h, rel=1e-12)
+    assert segment(result, "E-1.cold -> R-1")["heat_capacity_rate_kw_k"] == pytest.approx(c_c, rel=1e-12)
     assert closes(result)
     # the balance counts the heat of reaction at 0 °C: duty + ṁ·(cp_e − cp_f)·T_in (Kirchhoff)
     assert result.balance["heat_added_net_kw"] == pytest.approx(duty + flow * (cp_e - cp_f) * t1, rel=1e-9)
@@ -108,9 +108,9 @@ def test_an_effluent_recycled_to_the_feed_makes_a_blend_and_the_balance_closes()
     loop = fresh / 0.75
     charge = segment(result, "feed_mix -> E-201.cold")
     assert charge["flow_kg_s"] == pytest.approx(loop, rel=1e-12)
-    assert charge["heat_capacity_rate_kw_per_k"] == pytest.approx(fresh * 2.75 + (loop - fresh) * 2.95, rel=1e-12)
+    assert charge["heat_capacity_rate_kw_k"] == pytest.approx(fresh * 2.75 + (loop - fresh) * 2.95, rel=1e-12)
     after = segment(result, "R-201 -> E-202.hot")
-    assert after["heat_capacity_rate_kw_per_k"] == pytest.approx(loop * 2.95, rel=1e-12)
+    assert after["heat_capacity_rate_kw_k"] == pytest.approx(loop * 2.95, rel=1e-12)
     assert result.units.loc["E-202", "r_hot"] == pytest.approx(2.95 / (0.75 * 2.75 + 0.25 * 2.95), rel=1e-9)
     net = build_network(case_from_mapping(data))
     assert isinstance(net.fluids[charge.name], Blend)
@@ -193,7 +193,7 @@ def test_a_recycle_set_by_flow_keeps_its_flow_and_the_blend_of_both_supplies():
     assert segment(result, "split.rest -> out")["flow_kg_s"] == pytest.approx(40.0, rel=1e-12)
     cp = 0.75 * 2.3 + 0.25 * 1.9
     for label, flow in (("mix -> H-1", 54.0), ("split.metered -> C-1", 14.0), ("split.rest -> out", 40.0)):
-        assert segment(result, label)["heat_capacity_rate_kw_per_k"] == pytest.approx(flow * cp, rel=1e-12)
+        assert segment(result, label)["heat_capacity_rate_kw_k"] == pytest.approx(flow * cp, rel=1e-12)
     assert closes(result)
     # energy: 600 kW net heats 40 kg/s from the supplies' mixed temperature
     t_mix = (30.0 * 2.3 * 80.0 + 10.0 * 1.9 * 40.0) / (40.0 * cp)
@@ -250,7 +250,7 @@ def test_desalter_outlets_leave_at_the_mixing_temperature_less_the_heat_loss():
     assert row["brine_kg_s"] == pytest.approx(5.7, rel=1e-12)
     assert segment(result, "D-1.crude -> desalted")["flow_kg_s"] == pytest.approx(100.3, rel=1e-12)
     assert segment(result, "D-1.water -> brine")["temperature_c"] == pytest.approx(t, rel=1e-12)
-    assert segment(result, "D-1.crude -> desalted")["heat_capacity_rate_kw_per_k"] == pytest.approx(
+    assert segment(result, "D-1.crude -> desalted")["heat_capacity_rate_kw_k"] == pytest.approx(
         c_crude + 0.3 * 4.18, rel=1e-12)
     assert closes(result)
     assert result.balance["heat_added_net_kw"] == pytest.approx(-120.0)
@@ -404,7 +404,7 @@ def test_the_flow_solve_paths_agree_on_set_flows_and_fluid_changes(monkeypatch):
     monkeypatch.setattr(flows, "SHARE_LIMIT", 0)
     for case, expected in zip(cases, shares):
         got = simulate(case).streams
-        for column in ("flow_kg_s", "heat_capacity_rate_kw_per_k", "temperature_c"):
+        for column in ("flow_kg_s", "heat_capacity_rate_kw_k", "temperature_c"):
             np.testing.assert_allclose(got[column], expected[column], rtol=1e-12, atol=1e-9)
     monkeypatch.undo()
     varied = simulate_batch(cases[1], {"splitters.effluent_split.branches.recycle.fraction": [0.25, 0.4]},

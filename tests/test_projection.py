@@ -59,7 +59,7 @@ def test_zero_growth_is_the_steady_simulation_at_every_step(stepped):
     assert np.allclose(steps["F-101.fired_duty_kw"], reference.loc["F-101", "duty_kw"], rtol=1e-9)
     assert np.allclose(steps["F-101.inlet_c"], reference.loc["F-101", "cold_in_c"], rtol=0, atol=1e-6)
     for tag, value in start_fouling().items():
-        assert np.all(steps[f"{tag}.fouling_m2k_w"] == value)
+        assert np.all(steps[f"{tag}.fouling_m2_k_w"] == value)
 
 
 def test_linear_and_asymptotic_laws_follow_their_closed_forms():
@@ -73,11 +73,11 @@ def test_linear_and_asymptotic_laws_follow_their_closed_forms():
     steps = result.steps
     elapsed = ((steps.index - START) / DAY).to_numpy()
     assert elapsed[-1] == 100.0 and elapsed[-2] == 98.0
-    assert np.allclose(steps["E-104.fouling_m2k_w"], linear_fouling(elapsed, 3e-6, 4e-4), rtol=1e-14, atol=0)
-    assert np.allclose(steps["E-112.fouling_m2k_w"], linear_fouling(elapsed, 2e-6, 5e-4), rtol=1e-14, atol=0)
-    assert np.allclose(steps["E-110.fouling_m2k_w"], asymptotic_fouling(elapsed, 8e-4, 60.0, 3e-4), rtol=1e-13, atol=0)
+    assert np.allclose(steps["E-104.fouling_m2_k_w"], linear_fouling(elapsed, 3e-6, 4e-4), rtol=1e-14, atol=0)
+    assert np.allclose(steps["E-112.fouling_m2_k_w"], linear_fouling(elapsed, 2e-6, 5e-4), rtol=1e-14, atol=0)
+    assert np.allclose(steps["E-110.fouling_m2_k_w"], asymptotic_fouling(elapsed, 8e-4, 60.0, 3e-4), rtol=1e-13, atol=0)
     for k in (0, len(steps) - 1):
-        reference = steady({tag: steps[f"{tag}.fouling_m2k_w"].iloc[k] for tag in laws})
+        reference = steady({tag: steps[f"{tag}.fouling_m2_k_w"].iloc[k] for tag in laws})
         assert steps["F-101.fired_duty_kw"].iloc[k] == pytest.approx(reference.loc["F-101", "duty_kw"], rel=1e-9)
     assert np.all(np.diff(steps["F-101.fired_duty_kw"]) > 0.0)  # more fouling, more firing
 
@@ -90,11 +90,11 @@ def test_threshold_steps_advance_at_the_rate_of_the_previous_state():
                                        "gamma": 2e-7}, 5e-4)
     laws = {"E-112": law, "E-104": FoulingLaw("linear", {"r_f0": 0.0, "rate": 3e-6}, 4e-4)}
     steps = project_network(CASE, laws, start=START, horizon=21 * DAY, step=7 * DAY).steps
-    r = steps["E-112.fouling_m2k_w"].to_numpy()
+    r = steps["E-112.fouling_m2_k_w"].to_numpy()
     assert np.all(np.diff(r) > 0.0)
     for s in range(len(steps) - 1):
         values = {"exchangers.E-112.fouling.shell": [r[s]], "exchangers.E-112.fouling.tube": [0.0],
-                  "exchangers.E-104.fouling.shell": [steps["E-104.fouling_m2k_w"].iloc[s]],
+                  "exchangers.E-104.fouling.shell": [steps["E-104.fouling_m2_k_w"].iloc[s]],
                   "exchangers.E-104.fouling.tube": [0.0]}
         ev = evaluate(CASE, values)
         table = evaluation_conditions(ev)
@@ -103,7 +103,7 @@ def test_threshold_steps_advance_at_the_rate_of_the_previous_state():
         rate = MODELS["ebert_panchal"].rate(r[s], **law.parameters, re=c["re"], pr=c["pr"], t_film=c["t_film"],
                                             tau_w=c["tau_w"])
         assert r[s + 1] - r[s] == pytest.approx(float(rate) * 7.0, rel=1e-8)
-    assert np.allclose(steps["E-104.fouling_m2k_w"], 4e-4 + 3e-6 * 7.0 * np.arange(4), rtol=1e-14)
+    assert np.allclose(steps["E-104.fouling_m2_k_w"], 4e-4 + 3e-6 * 7.0 * np.arange(4), rtol=1e-14)
 
 
 def test_crossing_dates_are_linear_interpolations():
@@ -127,7 +127,7 @@ def test_limit_dates_on_a_constructed_case():
             "E-112": FoulingLaw("linear", {"r_f0": 0.0, "rate": 2e-5}, 2e-4)}
     probe = project_network(CASE, laws, start=START, horizon=56 * DAY, step=7 * DAY).steps
     duty, inlet = probe["F-101.fired_duty_kw"].to_numpy(), probe["F-101.inlet_c"].to_numpy()
-    cooler = [steady({t: probe[f"{t}.fouling_m2k_w"].iloc[k] for t in laws}).loc["C-101", "hot_in_c"] for k in (0, 8)]
+    cooler = [steady({t: probe[f"{t}.fouling_m2_k_w"].iloc[k] for t in laws}).loc["C-101", "hot_in_c"] for k in (0, 8)]
     mapping = demo_mapping()
     mapping["coolers"]["C-101"]["design_temperature"] = float(np.mean(cooler))
     limits = {"fired_duty": {"F-101": 0.5 * (duty[3] + duty[4])},
@@ -183,4 +183,4 @@ def test_projection_from_reconciled_windows_starts_at_the_last_window():
     mapping["streams"]["crude"]["flow"] = float(flows[-1])
     reference = steady(dict(truth, **{"E-112": 7e-4}), mapping)
     assert result.steps["F-101.fired_duty_kw"].iloc[0] == pytest.approx(reference.loc["F-101", "duty_kw"], rel=1e-6)
-    assert list(result.steps["E-112.fouling_m2k_w"]) == pytest.approx([7e-4, 7e-4 + 7e-6, 7e-4 + 14e-6], rel=1e-14)
+    assert list(result.steps["E-112.fouling_m2_k_w"]) == pytest.approx([7e-4, 7e-4 + 7e-6, 7e-4 + 14e-6], rel=1e-14)

@@ -40,8 +40,8 @@ def test_the_units_table_covers_every_quantity_a_case_may_choose():
     ("duty_kw", 293.07107, 1.0),                # 1 MMBtu/h = 293.07107 kW (NIST SP 811, Btu_IT, from memory)
     ("flow_kg_s", 1.0, 7936.6414),              # 1 kg/s = 3600 / 0.45359237 lb/h (the pound's definition)
     ("dp_tube_kpa", 6.894757, 1.0),             # 1 psi = 6.894757 kPa (NIST SP 811, from memory)
-    ("u_service_w_m2k", 5.678263, 1.0),         # 1 Btu/h·ft²·°F = 5.678263 W/m²·K (NIST SP 811, from memory)
-    ("fouling_shell_m2k_w", 0.17611, 1.0),      # 1 h·ft²·°F/Btu = 0.17611 m²·K/W (the inverse)
+    ("u_service_w_m2_k", 5.678263, 1.0),         # 1 Btu/h·ft²·°F = 5.678263 W/m²·K (NIST SP 811, from memory)
+    ("fouling_shell_m2_k_w", 0.17611, 1.0),      # 1 h·ft²·°F/Btu = 0.17611 m²·K/W (the inverse)
 ])
 def test_us_units_against_published_factors(column, stored, shown):
     converted = Display("us").column(column).convert([stored])[0]

@@ -84,7 +84,7 @@ def test_films_in_a_network_rated_by_zones():
                  "fouling": {"shell": 0.0002, "tube": 0.0003}}
     today = simulate(_two_stream({"cp": 2.3}, {"cp": 2.6}, exchanger))
     zoned = simulate(_two_stream(_line(2.3, boiling="plateau"), _line(2.6, boiling="plateau"), exchanger))
-    for column in ("hot_out_c", "cold_out_c", "duty_kw", "u_service_w_m2k", "u_clean_w_m2k"):
+    for column in ("hot_out_c", "cold_out_c", "duty_kw", "u_service_w_m2_k", "u_clean_w_m2_k"):
         assert abs(_row(zoned)[column] - _row(today)[column]) <= 1e-9 * max(1.0, abs(_row(today)[column]))
     assert "one U for all zones" in _row(zoned)["u_source"]
     assert "rated by zones" in _row(zoned)["u_source"]

@@ -177,7 +177,7 @@ def solve_year(case, values):
     if not year.steps["success"].all():
         day = int(np.flatnonzero(~year.steps["success"].to_numpy())[0])
         raise RuntimeError(f"day {day}: {year.evaluation.reason(day)}")
-    fouling = {name: year.steps[f"{name}.fouling_m2k_w"].to_numpy() for name in laws}
+    fouling = {name: year.steps[f"{name}.fouling_m2_k_w"].to_numpy() for name in laws}
     fouling[CLEANED] = values[f"exchangers.{CLEANED}.fouling.shell"]
     return year.evaluation, dict(sorted(fouling.items()))
 

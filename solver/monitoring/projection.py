@@ -71,7 +71,7 @@ class FoulingLaw:
 @dataclass
 class Projection:
     """``steps``: indexed by time, columns ``success``, ``message``, ``HEATER.fired_duty_kw``
-    and ``HEATER.inlet_c`` per fired heater, ``TAG.fouling_m2k_w`` per exchanger with a law.
+    and ``HEATER.inlet_c`` per fired heater, ``TAG.fouling_m2_k_w`` per exchanger with a law.
     ``limits``: one row per limit: source (monitoring file / case), unit, limit (what), key,
     value (the limit, NaN for case findings), date (NaT when not reached), at_start,
     interpolated. ``laws``: per exchanger, the model, its parameters, starting fouling and
@@ -148,7 +148,7 @@ def _read_steps(evaluation, laws, fouling, times):
             for column, metric in (("fired_duty_kw", "duty"), ("inlet_c", "inlet")):
                 rows[f"{name}.{column}"] = np.where(ok, report.metrics[metric], np.nan)
     for name in laws:
-        rows[f"{name}.fouling_m2k_w"] = fouling[name]
+        rows[f"{name}.fouling_m2_k_w"] = fouling[name]
     findings, seen = {}, {}
     for unit, finding in evaluation.findings:
         if finding.severity != "limit":

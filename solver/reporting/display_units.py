@@ -5,7 +5,7 @@ Values are SI inside (the result tables hold °C, K, kW, kg/s, kW/K, W/m²·K, m
 are converted only on their way out, through one table, :data:`DISPLAY_TABLE`: for each quantity
 the column-name endings that hold it, the unit the tables store it in, its SI and US units, their
 labels and the decimals shown. A column's quantity is read from its name's ending (``duty_kw``,
-``hot_in_c``, ``ua_kw_per_k``): the convention every result table follows. A column whose name
+``hot_in_c``, ``ua_kw_k``): the convention every result table follows. A column whose name
 carries no unit ending (P, R, NTU, F, counts, text) is shown as it is.
 
 A difference of two temperatures (a comparison's "variant - base" of an outlet temperature) is
@@ -51,9 +51,9 @@ class Shown:
 
 
 DISPLAY_TABLE = (
-    Shown("heat_capacity_rate", "_kw_per_k", "kW/K", "kW/K", "Btu/h/degF", (2, 0)),
-    Shown("heat_transfer_coefficient", "_w_m2k", "W/m^2/K", "W/m^2/K", "Btu/h/ft^2/degF", (1, 1)),
-    Shown("fouling", "_m2k_w", "m^2*K/W", "m^2*K/W", "h*ft^2*degF/Btu", (5, 5)),
+    Shown("heat_capacity_rate", "_kw_k", "kW/K", "kW/K", "Btu/h/degF", (2, 0)),
+    Shown("heat_transfer_coefficient", "_w_m2_k", "W/m^2/K", "W/m^2/K", "Btu/h/ft^2/degF", (1, 1)),
+    Shown("fouling", "_m2_k_w", "m^2*K/W", "m^2*K/W", "h*ft^2*degF/Btu", (5, 5)),
     Shown("mass_flow", "_kg_s", "kg/s", "kg/s", "lb/h", (2, 0)),
     Shown("pressure_drop", "_kpa", "kPa", "kPa", "psi", (1, 2)),
     Shown("area", "_m2", "m^2", "m^2", "ft^2", (1, 0)),
@@ -63,7 +63,7 @@ DISPLAY_TABLE = (
     Shown("energy", "_gj", "GJ", "GJ", "MMBtu", (1, 1)),
 )
 """Quantity -> column ending, stored unit, SI and US units, decimals. Longer endings come first
-(``_kw_per_k`` before ``_k``)."""
+(``_kw_k`` before ``_k``)."""
 
 LABELS = {"degC": "°C", "degF": "°F", "K": "K", "kW/K": "kW/K", "Btu/h/degF": "Btu/h·°F", "W/m^2/K": "W/m²·K",
           "Btu/h/ft^2/degF": "Btu/h·ft²·°F", "m^2*K/W": "m²·K/W", "h*ft^2*degF/Btu": "h·ft²·°F/Btu",
@@ -100,7 +100,7 @@ def ending_of_stored_unit(unit: str) -> str:
     fraction, a count).
 
     >>> ending_of_stored_unit("kg/s"), ending_of_stored_unit("m^2*delta_degC/W"), ending_of_stored_unit("dimensionless")
-    ('_kg_s', '_m2k_w', '')
+    ('_kg_s', '_m2_k_w', '')
     """
     stored = unit.replace("delta_degC", "K")
     return next((row.ending for row in DISPLAY_TABLE if row.stored == stored), "")

@@ -60,9 +60,9 @@ def _last_cleaning(cleanings, unit):
 
 WIDTH = 118
 """Console lines are kept within 120 columns."""
-HEADINGS = {"duty_kw": "duty", "u_w_m2k": "U", "u_clean_w_m2k": "U clean", "fouling_m2k_w": "R_f",
-            "plus_minus_95_m2k_w": "± (95 %)", "trend_per_30_days_m2k_w": "trend/30 d",
-            "trend_plus_minus_m2k_w": "±", "law": "law", "share_of_cost": "cost share", "status": "status"}
+HEADINGS = {"duty_kw": "duty", "u_w_m2_k": "U", "u_clean_w_m2_k": "U clean", "fouling_m2_k_w": "R_f",
+            "plus_minus_95_m2_k_w": "± (95 %)", "trend_per_30_days_m2_k_w": "trend/30 d",
+            "trend_plus_minus_m2_k_w": "±", "law": "law", "share_of_cost": "cost share", "status": "status"}
 FOULING_DIGITS = 6
 """Decimals of fouling resistances on the console: 0.000043 m²·K/W of trend is two digits."""
 INSTRUMENT_WORDS = {"windows_eliminated": "windows removed", "windows_persistently_off": "windows off",
@@ -78,13 +78,13 @@ def today_table(result) -> pd.DataFrame:
         return today
     table = pd.DataFrame(index=today.index)
     table["duty_kw"] = today["duty"]
-    table["u_w_m2k"] = today["u_service"]
-    table["u_clean_w_m2k"] = today["u_clean"]
-    table["fouling_m2k_w"] = today["fouling"]
-    table["plus_minus_95_m2k_w"] = today.get("fouling_expanded")
+    table["u_w_m2_k"] = today["u_service"]
+    table["u_clean_w_m2_k"] = today["u_clean"]
+    table["fouling_m2_k_w"] = today["fouling"]
+    table["plus_minus_95_m2_k_w"] = today.get("fouling_expanded")
     trend = fouling_trend(result.state, result.cleanings).reindex(table.index)
-    table["trend_per_30_days_m2k_w"] = trend["trend_per_30_days"]
-    table["trend_plus_minus_m2k_w"] = trend["trend_plus_minus"]
+    table["trend_per_30_days_m2_k_w"] = trend["trend_per_30_days"]
+    table["trend_plus_minus_m2_k_w"] = trend["trend_plus_minus"]
     if not result.shares.empty:
         table["share_of_cost"] = result.shares["share"].reindex(table.index)
     if not result.fits.empty:
@@ -116,7 +116,7 @@ def monitoring_report(result, display: Display | None = None) -> str:
     parts += _redundancy_lines(result)
     today = today_table(result)
     if not today.empty:
-        fouling_digits = {c: FOULING_DIGITS for c in today if c.endswith("_m2k_w")}
+        fouling_digits = {c: FOULING_DIGITS for c in today if c.endswith("_m2_k_w")}
         span = (history.samples.index.max() - history.samples.index.min()) / pd.Timedelta(days=1)
         trend = f"{TREND_DAYS} days" if span >= TREND_DAYS else f"{span:.0f} days (all the data)"
         parts += ["", *fitted(f"Exchangers at {_day(_last(result))} (fouling on the outside area; ± is the 95 % "
@@ -137,7 +137,7 @@ def monitoring_report(result, display: Display | None = None) -> str:
     if not result.cleanings.empty:
         shown = result.cleanings[["exchanger", "time", "source", "drop", "lasting"]].rename(columns=names.CLEANING_NAMES)
         parts += ["", "Cleanings (logged, found in the data as a lasting drop, or both; drop: the fall in R_f)",
-                  render(shown.assign(time=shown["time"].map(_day)), display, digits={"drop_m2k_w": FOULING_DIGITS})]
+                  render(shown.assign(time=shown["time"].map(_day)), display, digits={"drop_m2_k_w": FOULING_DIGITS})]
     parts += _projection_lines(result, display)
     for note in getattr(result, "notes", []):
         parts += [""] + textwrap.wrap(f"Note: {display.message(note)}", WIDTH)

@@ -1,5 +1,5 @@
 """The tables of ``monitor`` and ``schedule`` as they are shown and written: every column that
-holds a quantity is named with its unit's ending (``duty_kw``, ``fouling_m2k_w``, ``bias_k``), so
+holds a quantity is named with its unit's ending (``duty_kw``, ``fouling_m2_k_w``, ``bias_k``), so
 that :class:`.display_units.Display` converts and labels it like any result table; money carries
 the economics' currency (``cost_per_day_usd``); fitted fouling-law parameters are numbers in
 columns of their own, each named with its unit.
@@ -16,14 +16,14 @@ import pandas as pd
 
 from hxtrain.units.fouling_models import MODELS
 
-STATE_NAMES = {"duty": "duty_kw", "ua": "ua_kw_per_k", "u_service": "u_service_w_m2k", "u_clean": "u_clean_w_m2k",
-               "fouling": "fouling_m2k_w", "t_mean_shell": "t_mean_shell_c", "t_mean_tube": "t_mean_tube_c",
-               "h_shell": "h_shell_w_m2k", "h_tube": "h_tube_w_m2k", "fouling_sigma": "fouling_sigma_m2k_w",
-               "fouling_expanded": "fouling_expanded_m2k_w", "p": "p_hot", "r": "r_hot"}
+STATE_NAMES = {"duty": "duty_kw", "ua": "ua_kw_k", "u_service": "u_service_w_m2_k", "u_clean": "u_clean_w_m2_k",
+               "fouling": "fouling_m2_k_w", "t_mean_shell": "t_mean_shell_c", "t_mean_tube": "t_mean_tube_c",
+               "h_shell": "h_shell_w_m2_k", "h_tube": "h_tube_w_m2_k", "fouling_sigma": "fouling_sigma_m2_k_w",
+               "fouling_expanded": "fouling_expanded_m2_k_w", "p": "p_hot", "r": "r_hot"}
 """The back-calculated state (kW, kW/K, W/m²·K, m²·K/W, °C) with its units' endings; P and R on the
 hot-side basis, as in a simulation's units table."""
-FIT_NAMES = {"residual_rms": "residual_rms_m2k_w", "fouling_now": "fouling_now_m2k_w"}
-CLEANING_NAMES = {"drop": "drop_m2k_w", "drop_sigma": "drop_sigma_m2k_w"}
+FIT_NAMES = {"residual_rms": "residual_rms_m2_k_w", "fouling_now": "fouling_now_m2_k_w"}
+CLEANING_NAMES = {"drop": "drop_m2_k_w", "drop_sigma": "drop_sigma_m2_k_w"}
 COST_NAMES = {"fuel_gj_per_day": "fuel_per_day_gj", "co2_t_per_day": "co2_per_day_t",
               "co2_t_cumulative": "co2_cumulative_t"}
 """Fuel energy is a quantity of the units table (GJ or MMBtu); CO₂ and throughput stay in
@@ -34,7 +34,7 @@ MONEY = ("cost_per_day", "cost_cumulative", "cleaning_cost", "fuel_cost", "co2_c
 TAG_ENDINGS = {"temperature": "_k", "flow": "_kg_s", "duty": "_kw"}
 """The ending of a reading less another estimate of it (a bias, an adjustment), by what the tag
 measures: a temperature's is a difference (K; °F of difference in US units, never offset)."""
-PARAMETER_ENDINGS = {"m2.K/W": "_m2k_w", "m2.K/W/day": "_per_day_m2k_w", "m2.K/W/day/Pa": "_per_day_per_pa_m2k_w",
+PARAMETER_ENDINGS = {"m2.K/W": "_m2_k_w", "m2.K/W/day": "_per_day_m2_k_w", "m2.K/W/day/Pa": "_per_day_per_pa_m2_k_w",
                      "day": "_days", "J/mol": "_j_per_mol", "-": ""}
 """A fouling model's parameter units (units/fouling_models.py) as column endings: the fouling
 part of a rate is converted like any fouling resistance, per day (and per pascal) stays."""
@@ -75,8 +75,8 @@ def tag_quantities(monitoring, tags) -> list:
 
 
 def parameter_column(name: str, unit: str, suffix: str = "") -> str:
-    """A law parameter's column: ``rate`` in m²·K/W per day -> ``rate_per_day_m2k_w``
-    (``suffix`` before the ending: ``rate_sigma_per_day_m2k_w``)."""
+    """A law parameter's column: ``rate`` in m²·K/W per day -> ``rate_per_day_m2_k_w``
+    (``suffix`` before the ending: ``rate_sigma_per_day_m2_k_w``)."""
     ending = PARAMETER_ENDINGS.get(unit)
     if ending is None:
         ending = "_" + re.sub(r"[^0-9a-z]+", "_", unit.lower()).strip("_")

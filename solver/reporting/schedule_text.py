@@ -77,7 +77,7 @@ def schedule_report(result, display: Display | None = None) -> str:
                                  "at its time origin, as fitted or written; r_f0 after cleaning: where it starts again "
                                  "after a cleaning)", WIDTH),
               render(laws, display, names.parameter_words(laws.columns.drop(["model", "source"]), display),
-                     {c: ".3g" if "_per_day" in c else FOULING_DIGITS for c in laws if c.endswith("_m2k_w")})]
+                     {c: ".3g" if "_per_day" in c else FOULING_DIGITS for c in laws if c.endswith("_m2_k_w")})]
     parts += ["", f"Optimised plan: {_count(len(result.plan), 'cleaning')} ({result.plan['cost'].sum():,.0f} {currency}); "
                   "## = out of service for cleaning in that month", _grid_text(plan_grid(result))]
     if len(result.plan):
@@ -140,15 +140,15 @@ def _limit_lines(result, display: Display):
 def law_table(result) -> pd.DataFrame:
     """Each exchanger's fouling law: where it came from, its fouling at the start, its parameters
     in columns of their own (each named with its unit) and ``r_f0`` after a cleaning."""
-    laws = result.laws.rename(columns={"initial": "initial_m2k_w"})  # indexed by exchanger
+    laws = result.laws.rename(columns={"initial": "initial_m2_k_w"})  # indexed by exchanger
     horizon = result.horizon.laws
     model = [horizon[n].model if n in horizon else m for n, m in zip(laws.index, laws["model"])]
     laws["parameters"] = [horizon[n].before if n in horizon else {} for n in laws.index]
     laws = names.spread_parameters(laws.assign(model_name=model), {"parameters": ""}, "model_name")
     after = [horizon[n].after.get("r_f0", np.nan) if n in horizon else np.nan for n in laws.index]
-    at = laws.columns.get_loc("r_f0_m2k_w") + 1 if "r_f0_m2k_w" in laws else len(laws.columns)
-    laws.insert(at, "r_f0_after_cleaning_m2k_w", np.asarray(after, float))
-    laws["initial_m2k_w"] = pd.to_numeric(laws["initial_m2k_w"], errors="coerce")
+    at = laws.columns.get_loc("r_f0_m2_k_w") + 1 if "r_f0_m2_k_w" in laws else len(laws.columns)
+    laws.insert(at, "r_f0_after_cleaning_m2_k_w", np.asarray(after, float))
+    laws["initial_m2_k_w"] = pd.to_numeric(laws["initial_m2_k_w"], errors="coerce")
     return laws.drop(columns="model_name")
 
 

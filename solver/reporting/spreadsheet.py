@@ -30,7 +30,7 @@ WORKBOOK_ILLEGAL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f]")
 """Control characters a worksheet cell cannot hold (openpyxl refuses them)."""
 NOTE_WORDS = {"case_file": "case file", "study": "study file", "written": "date written",
               "hxtrain_version": "hxtrain version"}
-UNIT_WORDS = (("_kw_per_k", "kW/K"), ("_kg_s", "kg/s"), ("_kw", "kW"), ("_c", "°C"), ("_k", "K"))
+UNIT_WORDS = (("_kw_k", "kW/K"), ("_kg_s", "kg/s"), ("_kw", "kW"), ("_c", "°C"), ("_k", "K"))
 HIGHLIGHT = "FFC7CE"
 """Light red: the fill of violated limits (and the limits sheet's tab)."""
 HEADER_FILL = "DDE4EE"

@@ -23,19 +23,19 @@ from .display_units import Display, current
 
 EXCHANGER_WORDS = {"duty_kw": "duty", "hot_in_c": "hot in", "hot_out_c": "hot out", "cold_in_c": "cold in",
                    "cold_out_c": "cold out", "hot_out_vapour_fraction": "hot out vapour",
-                   "cold_out_vapour_fraction": "cold out vapour", "air_flow_kg_s": "air flow", "ua_kw_per_k": "UA", "ntu_hot": "NTU", "p_hot": "P", "r_hot": "R",
+                   "cold_out_vapour_fraction": "cold out vapour", "air_flow_kg_s": "air flow", "ua_kw_k": "UA", "ntu_hot": "NTU", "p_hot": "P", "r_hot": "R",
                    "f": "F", "lmtd_k": "LMTD", "hot_out_inside_c": "hot out inside",
                    "cold_out_inside_c": "cold out inside", "hot_bypass_fraction": "hot bypass",
                    "cold_bypass_fraction": "cold bypass", "min_approach_k": "approach",
                    "internal_approach_k": "approach inside",
                    "findings": "findings"}
-SERVICE_WORDS = {"u_source": "U from", "u_service_w_m2k": "U service", "u_clean_w_m2k": "U clean",
-                 "fouling_shell_m2k_w": "fouling shell", "fouling_tube_m2k_w": "fouling tube",
-                 "h_shell_w_m2k": "h shell", "h_tube_w_m2k": "h tube", "re_tube": "Re tube",
+SERVICE_WORDS = {"u_source": "U from", "u_service_w_m2_k": "U service", "u_clean_w_m2_k": "U clean",
+                 "fouling_shell_m2_k_w": "fouling shell", "fouling_tube_m2_k_w": "fouling tube",
+                 "h_shell_w_m2_k": "h shell", "h_tube_w_m2_k": "h tube", "re_tube": "Re tube",
                  "dp_shell_kpa": "dp shell", "dp_tube_kpa": "dp tube"}
 ONE_STREAM_WORDS = {"type": "type", "heat_source": "heat source", "outlet_fluid": "outlet fluid", "duty_kw": "duty",
                     "in_c": "inlet",
-                    "out_c": "outlet", "ua_kw_per_k": "UA", "effectiveness": "effectiveness",
+                    "out_c": "outlet", "ua_kw_k": "UA", "effectiveness": "effectiveness",
                     "steam_saturation_c": "steam at", "steam_kg_s": "steam",
                     "condensate_kg_s": "condensate",
                     "findings": "findings"}
@@ -48,7 +48,7 @@ DRUM_WORDS = {"inlet_c": "inlet", "inlet_vapour_fraction": "feed vaporised", "va
 """The flash drums' table (units in the ``drums`` group)."""
 DRUM_DIGITS = {"inlet_vapour_fraction": 4, "outer_iterations": 0}
 DRUM_TITLE = "Flash drums (split at the inlet state; vapour and liquid leave at one temperature from the balance)"
-STREAM_WORDS = {"segment": "segment", "flow_kg_s": "flow", "heat_capacity_rate_kw_per_k": "m·cp",
+STREAM_WORDS = {"segment": "segment", "flow_kg_s": "flow", "heat_capacity_rate_kw_k": "m·cp",
                 "temperature_c": "temperature", "vapour_fraction": "vapour fraction"}
 DIGITS = {"re_tube": 0}
 def stream_table(result: SimulationResult) -> pd.DataFrame:
@@ -100,7 +100,7 @@ def drum_table(result: SimulationResult) -> pd.DataFrame:
     return separator_table(result, "drums", DRUM_WORDS)
 
 
-RATING = ("ua_kw_per_k", "ntu_hot", "p_hot", "r_hot", "f", "lmtd_k", "hot_bypass_fraction", "hot_out_inside_c",
+RATING = ("ua_kw_k", "ntu_hot", "p_hot", "r_hot", "f", "lmtd_k", "hot_bypass_fraction", "hot_out_inside_c",
           "cold_bypass_fraction", "cold_out_inside_c")
 """The exchanger table's rating columns: a block of their own in the fitted report (all of the
 exchanger proper: where a side has a bypass, the fraction going round and its outlet inside,

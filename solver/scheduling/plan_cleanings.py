@@ -150,7 +150,7 @@ def _step_table(horizon: Horizon, outcome, which=0) -> pd.DataFrame:
     evaluation = evaluate(horizon.case, values)
     table = pd.DataFrame(index=horizon.times)
     for e, name in enumerate(horizon.exchangers):
-        table[f"{name}.fouling_m2k_w"] = np.where(busy[0, e], np.nan, fouling[0, e])
+        table[f"{name}.fouling_m2_k_w"] = np.where(busy[0, e], np.nan, fouling[0, e])
         table[f"{name}.duty_kw"] = evaluation.reports[name].metrics["duty"]
     for name, report in evaluation.reports.items():
         if FIRED_HEATERS in report.totals:

@@ -57,7 +57,7 @@ def fixed_property_variant(path):
         data["fluids"][name] = {"cp": float(np.asarray(model.cp(0.5 * (low + high))))}
     for tag, entry in data.get("exchangers", {}).items():
         kept = {k: v for k, v in entry.items() if k in KEPT_WITH_FIXED_UA}
-        kept["ua"] = float(original.units.loc[tag, "ua_kw_per_k"])
+        kept["ua"] = float(original.units.loc[tag, "ua_kw_k"])
         data["exchangers"][tag] = kept
     for tag, entry in data.pop("flash_drums", {}).items():
         q = float(original.units.loc[tag, "inlet_vapour_fraction"])

@@ -54,7 +54,7 @@ def compare_clean_and_fouled(case) -> FoulingComparison:
     f, c = fouled.units.loc[exchangers], clean.units.loc[exchangers]
     table = pd.DataFrame({"duty_fouled_kw": f["duty_kw"], "duty_clean_kw": c["duty_kw"]})
     table["duty_lost_to_fouling_kw"] = table["duty_clean_kw"] - table["duty_fouled_kw"]
-    for column in ("u_service_w_m2k", "u_clean_w_m2k"):
+    for column in ("u_service_w_m2_k", "u_clean_w_m2_k"):
         if column in f:
             table[column] = f[column]
     for column, result in (("limits_fouled", fouled), ("limits_clean", clean)):
