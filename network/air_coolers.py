@@ -33,7 +33,8 @@ def _read_air(f: Fields) -> dict:
     data = {"air_temperature": air.quantity("inlet_temperature", q.TEMPERATURE),
             "air_cp": air.quantity("cp", q.SPECIFIC_HEAT, required=False, default=AIR_CP)}
     if air.has("flow") == air.has("fan_control"):
-        raise air.one_of_error(("flow", "fan_control"), "give exactly one of 'flow' (kg/s, fixed) and 'fan_control' (the flow set between a "
+        raise air.one_of_error(("flow", "fan_control"), "give exactly one of 'flow' (kg/s, fixed) and 'fan_control' "
+                                                        "(the flow set between a "
                               "minimum and a maximum to meet an outlet temperature)")
     data["air_flow"] = air.quantity("flow", q.MASS_FLOW, required=False)
     fan = air.mapping("fan_control", what="a mapping with 'outlet_temperature', 'minimum_flow' and 'maximum_flow'")
@@ -56,8 +57,8 @@ def _read_u(f: Fields) -> dict:
     forms = [k for k in U_FORMS if f.has(k)]
     if len(forms) != 1:
         what = "none" if not forms else " and ".join(forms)
-        raise f.one_of_error(U_FORMS, f"give exactly one way to find U: 'ua', 'u' with 'area', or 'clean_u' with 'area' "
-                                      f"(found {what})", forms)
+        raise f.one_of_error(U_FORMS, "give exactly one way to find U: 'ua', 'u' with 'area', or 'clean_u' with "
+                                      f"'area' (found {what})", forms)
     if forms == ["ua"]:
         if f.has("area"):
             raise f.error("area", "'area' goes with 'u' or 'clean_u'; 'ua' is already U times the area")

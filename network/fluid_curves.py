@@ -44,7 +44,8 @@ def read_curve(f: Fields, transport) -> EnthalpyCurve:
     form = f.mapping("enthalpy_curve")
     pressure = form.quantity("pressure", q.PRESSURE)
     if form.has("rows") == form.has("file"):
-        raise form.one_of_error(("rows", "file"), "give exactly one of 'rows' ([[temperature, enthalpy, vapour fraction], ...]) and "
+        raise form.one_of_error(("rows", "file"), "give exactly one of 'rows' ([[temperature, enthalpy, vapour "
+                                                  "fraction], ...]) and "
                                "'file' (a CSV file next to the case)")
     inline = form.has("rows")
     rows, source = (_rows(form), None) if inline else _csv_rows(form)

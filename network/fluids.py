@@ -60,8 +60,8 @@ def _read_model(f: Fields) -> props.FluidModel:
     f.text("description")
     forms = [k for k in ("cp", "petroleum") + CURVE_FORMS if f.has(k)]
     if len(forms) != 1:
-        raise f.one_of_error(("cp", "petroleum") + CURVE_FORMS, "give exactly one of 'cp', 'petroleum', 'enthalpy_curve' "
-                             f"and 'water_steam' (found {' and '.join(forms) or 'none'})", forms)
+        raise f.one_of_error(("cp", "petroleum") + CURVE_FORMS, "give exactly one of 'cp', 'petroleum', "
+                             f"'enthalpy_curve' and 'water_steam' (found {' and '.join(forms) or 'none'})", forms)
     if forms[0] in CURVE_FORMS:
         return read_curve(f, transport)
     if f.has("petroleum"):
@@ -80,7 +80,8 @@ def _cp(f: Fields, transport):
         return props.ConstantCp(f.quantity("cp", q.SPECIFIC_HEAT), **transport)
     form = Fields(f.doc, f.path + ("cp",), raw)
     if form.has("polynomial") == form.has("table"):
-        raise form.one_of_error(("polynomial", "table"), "give exactly one of 'polynomial' (coefficients) and 'table' ([[T, cp], ...])")
+        raise form.one_of_error(("polynomial", "table"), "give exactly one of 'polynomial' (coefficients) and 'table' "
+                                                         "([[T, cp], ...])")
     if form.has("polynomial"):
         model = props.PolynomialCp(_coefficients(form), **transport)
     else:
@@ -125,7 +126,8 @@ def _table(form: Fields):
 
 def _petroleum(f: Fields, transport):
     if f.has("api_gravity") == f.has("specific_gravity"):
-        raise f.one_of_error(("api_gravity", "specific_gravity"), "give exactly one of 'api_gravity' and 'specific_gravity'")
+        raise f.one_of_error(("api_gravity", "specific_gravity"),
+                             "give exactly one of 'api_gravity' and 'specific_gravity'")
     if f.has("api_gravity"):
         sg = float(props.api_to_specific_gravity(f.quantity("api_gravity", q.API_GRAVITY)))
     else:

@@ -209,7 +209,8 @@ def schedule_from_document(doc: Document, folder: Path) -> ScheduleFile:
     cleaning.finish()
     return ScheduleFile(
         file=doc.file, title=top.text("title", default="") or "", case=case, start=start, step=step, steps=steps,
-        fouling=laws, monitoring_file=monitoring, operation=_operation(top, net, laws, monitoring, start, step * steps, beyond),
+        fouling=laws, monitoring_file=monitoring,
+        operation=_operation(top, net, laws, monitoring, start, step * steps, beyond),
         economics=read_economics(top.mapping("economics", required=True)), cleaning=terms, at_most_at_once=at_most,
         not_allowed=not_allowed, furnace=_furnace(top, case, net),
         baselines=_baselines(top, step, steps, {t: lumped_fouling(case.exchangers[t]["spec"]) for t in cleanable},

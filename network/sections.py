@@ -151,7 +151,8 @@ def _build_exchanger(name, key, data, building):
 
 def _read_one_side_unit(f: Fields, heater: bool, reading: Reading) -> dict:
     if f.has("duty") == f.has("outlet_temperature"):
-        raise f.one_of_error(("duty", "outlet_temperature"), "give exactly one of 'duty' (kW) and 'outlet_temperature' (°C)")
+        raise f.one_of_error(("duty", "outlet_temperature"),
+                             "give exactly one of 'duty' (kW) and 'outlet_temperature' (°C)")
     data = {
         "duty": f.quantity("duty", q.DUTY, required=False),
         "outlet_temperature": f.quantity("outlet_temperature", q.TEMPERATURE, required=False),

@@ -313,7 +313,7 @@ def test_the_html_reports_carry_what_the_console_does(tmp_path, capsys):
     section = page[page.index('<section id="specifications">'):]
     assert "branch_balance" in section and "e110_outlet_by_bypass" in section and "met - " in section
     # the table's value as the text gives it (a fraction had shown 0.60 beside 0.5995 in the text)
-    values = re.findall(r"fraction = (0\.\d{4}) gives", section)[:1] + re.findall(r"cold = (0\.\d{4}) gives", section)[:1]
+    values = [re.findall(rf"{key} = (0\.\d{{4}}) gives", section)[0] for key in ("fraction", "cold")]
     assert len(values) == 2 and all(f"<td>{value}</td>" in section for value in values), values
 
 

@@ -358,7 +358,8 @@ def test_a_shortened_horizon_leaves_out_what_lies_beyond_it_and_says_so(tmp_path
             "operation set from 2027-07-05 (operation[1]); a fixed interval of 26 weeks (baselines.fixed_intervals[1])"
             in text)
     early = tmp_path / "early.yaml"
-    early.write_text(short.read_text(encoding="utf-8").replace("from: 2027-07-05", "from: 2026-07-05"), encoding="utf-8")
+    early.write_text(short.read_text(encoding="utf-8").replace("from: 2027-07-05", "from: 2026-07-05"),
+                     encoding="utf-8")
     with pytest.raises(CaseError, match="the operation at the start is the case's own"):
         load_schedule(early)
 

@@ -192,15 +192,16 @@ def _cleaning(args) -> int:
     case = load_case(path)
     fouled = simulate(case)
     ranking = cleaning_ranking(case, fouled)
-    written = _write({"ranking": ranking, "limits": _cleaning_limits(fouled, ranking, current())}, args,
-                     {"case_file": str(path), "caution": CAUTION}, inputs)
+    limits = _cleaning_limits(fouled, ranking, current())
+    written = _write({"ranking": ranking, "limits": limits}, args, {"case_file": str(path), "caution": CAUTION}, inputs)
     print(f"hxtrain cleaning, one exchanger at a time: {case.title or path}")
     print(f"case file: {path}")  # whole, to be copied; the tables keep to the width
     shown = ranking.drop(columns="standing_limits_when_clean", errors="ignore")  # in the box below, in full
     print(render(shown, current()) if len(ranking) else "no exchanger has fouling")
-    lines, new = _cleaning_limit_lines(fouled, ranking, current())
-    print("\n".join(boxed("LIMITS VIOLATED", lines, count=f"{len(fouled.limits)} as it is, {new} new with one "
-                                                         "cleaning, each cleaning's standing ones")))
+    new = limits.loc[limits["limit_is"] == "new", "cleaned"].nunique()
+    print("\n".join(boxed("LIMITS VIOLATED", _cleaning_limit_lines(limits), count=f"{len(fouled.limits)} as it is, "
+                                                                                  f"{new} new with one cleaning, each "
+                                                                                  "cleaning's standing ones")))
     print("\n" + "\n".join(note_lines(current())))
     _say_written(written)
     return EXIT_OK
@@ -220,19 +221,12 @@ def _cleaning_limits(fouled, ranking, display):
     return pd.DataFrame(rows, columns=["cleaned", "limit_is", "limit", "key"])
 
 
-def _cleaning_limit_lines(fouled, ranking, display) -> tuple[list[str], int]:
-    """The limits the case violates as it is (standing: every cleaned case but those that cure
-    them violates them too), then each cleaning's new ones, in full (the table cuts them short),
-    and each standing one a cleaning moves; and how many cleanings bring new ones."""
-    lines = [f"as it is: {r.unit}: {display.message(r.message)}  [{r.key}]" for r in fouled.limits.itertuples()]
-    new = 0
-    for row in ranking.itertuples():
-        if getattr(row, "new_limits_when_clean", ""):
-            new += 1
-            lines.append(f"new with {row.exchanger} clean: {display.message(row.new_limits_when_clean)}")
-        if getattr(row, "standing_limits_when_clean", ""):
-            lines.append(f"still with {row.exchanger} clean: {display.message(row.standing_limits_when_clean)}")
-    return lines, new
+def _cleaning_limit_lines(limits) -> list[str]:
+    """The box's lines from :func:`_cleaning_limits`: the limits the case violates as it is
+    (standing: every cleaned case but those that cure them violates them too), then each
+    cleaning's new ones, in full (the table cuts them short), and each standing one it moves."""
+    return [f"as it is: {r.limit}  [{r.key}]" if r.limit_is == "as it is" else f"{r.limit_is} with {r.cleaned} clean: "
+            f"{r.limit}" for r in limits.itertuples()]
 
 
 def _benchmark(args) -> int:

@@ -6,8 +6,9 @@ from __future__ import annotations
 
 import sys
 
-MONITOR_TABLES = ("today", "state", "windows", "measurements", "readings", "unmeasured", "instruments", "persistently_off", "removed", "cost", "cost_shares",
-                  "fouling_laws", "cleanings", "projection", "limit_dates", "skipped_rows")
+MONITOR_TABLES = ("today", "state", "windows", "measurements", "readings", "unmeasured", "instruments",
+                  "persistently_off", "removed", "cost", "cost_shares", "fouling_laws", "cleanings", "projection",
+                  "limit_dates", "skipped_rows")
 SCHEDULE_TABLES = ("plan", "plan_by_month", "comparison", "steps", "fouling_laws", "search", "baseline_cleanings",
                    "limits", "baseline_limits")
 

@@ -67,10 +67,11 @@ class MonitoringResult:
     """Per tag: what it measures, windows used, the share of them in which the balances check it
     (redundant), its mean adjustment and mean standardised adjustment."""
     readings: pd.DataFrame = field(default_factory=pd.DataFrame)
-    """Per steady window (the index) and tag (a column), in default units: the window's mean reading, the reconciled value
-    of what it measures, their difference (reading less reconciled), the standardised
-    disagreement, and whether the reconciliation used the reading (not eliminated, not withheld,
-    not missing): what a back-calculation can be checked from by hand."""
+    """Per steady window (the index) and tag (a column), in default units: the window's mean
+    reading, the reconciled value of what it measures, their difference (reading less
+    reconciled), the standardised disagreement, and whether the reconciliation used the reading
+    (not eliminated, not withheld, not missing): what a back-calculation can be checked from by
+    hand."""
     unmeasured: pd.DataFrame = field(default_factory=pd.DataFrame)
     """Per variable no tag measures: the share of windows in which the balances determine it
     (observable)."""
@@ -193,14 +194,13 @@ def _measurement_table(states: WindowStates, tags) -> pd.DataFrame:
 def _readings_table(states: WindowStates, values, index, tags) -> pd.DataFrame:
     """Each steady window's readings beside their reconciled values (:class:`MonitoringResult`)."""
     reconciled = states.values[:, states.balances.tag_column]
-    windows, count = len(index), len(tags)
-    table = pd.DataFrame({
-        "tag": np.tile([t.name for t in tags], windows), "quantity": np.tile([t.quantity for t in tags], windows), "point": np.tile([t.point for t in tags], windows),
-        "reading": values.reshape(-1), "reconciled": reconciled.reshape(-1),
-        "reading_less_reconciled": (values - reconciled).reshape(-1), "standardised": states.standardized.reshape(-1),
-        "used": np.isfinite(states.adjustments).reshape(-1)},
-        index=pd.Index(np.repeat(np.asarray(index), count), name="time"))  # a column per tag, as the state's units
-    return table
+    each_tag = {"tag": [t.name for t in tags], "quantity": [t.quantity for t in tags], "point": [t.point for t in tags]}
+    return pd.DataFrame({**{k: np.tile(v, len(index)) for k, v in each_tag.items()},
+                         "reading": values.reshape(-1), "reconciled": reconciled.reshape(-1),
+                         "reading_less_reconciled": (values - reconciled).reshape(-1),
+                         "standardised": states.standardized.reshape(-1),
+                         "used": np.isfinite(states.adjustments).reshape(-1)},
+                        index=pd.Index(np.repeat(np.asarray(index), len(tags)), name="time"))  # tags in a column
 
 
 def _unmeasured_table(states: WindowStates) -> pd.DataFrame:

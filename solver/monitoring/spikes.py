@@ -36,7 +36,8 @@ import numpy as np
 
 from .windows import MAD_TO_SIGMA
 
-__all__ = ["without_glitches", "isolated_spikes", "held_runs", "SPIKE", "HELD", "SPIKE_MULTIPLE", "FEWEST_DIFFERENCES", "HELD_CHANCE", "FEWEST_HELD"]
+__all__ = ["without_glitches", "isolated_spikes", "held_runs", "SPIKE", "HELD", "SPIKE_MULTIPLE", "FEWEST_DIFFERENCES",
+           "HELD_CHANCE", "FEWEST_HELD"]
 
 SPIKE, HELD = "isolated spike", "value held unchanged"
 """The reasons a glitch's readings are left out (the skipped-rows table's ``reason``)."""
@@ -122,21 +123,22 @@ def without_glitches(values: dict, tags, keep: np.ndarray, times: np.ndarray, sk
     alone = np.sum([spike for spike, _, _ in found.values()], axis=0) == 1  # the only tag spiking in its row
     cleaned = dict(values)
     for tag in tags:
+        readings, shown = values[tag.name], tag.from_default_unit
         spike, before, after = found[tag.name]
         spike = spike & alone
-        shown = tag.from_default_unit
+        blank = _at(rows[spike], keep.shape)  # over the file's rows
         if spike.any():
-            skips(tag.column)(_at(rows[spike], keep.shape), SPIKE, [
-                f"{x:.6g} {tag.unit} between {b:.6g} and {a:.6g}"
-                for x, b, a in zip(*(shown(np.array(v)) for v in (values[tag.name][rows[spike]], before[spike], after[spike])))])
-        for first, last in held_runs(np.where(spike, np.nan, values[tag.name][keep])):
-            run = rows[first:last + 1][np.isfinite(values[tag.name][rows[first:last + 1]])]
-            detail = (f"{shown(np.array(values[tag.name][run[0]])):.6g} {tag.unit} in each of {run.size} readings, "
+            skips(tag.column)(blank, SPIKE, [f"{x:.6g} {tag.unit} between {b:.6g} and {a:.6g}" for x, b, a in
+                                             zip(*(shown(v) for v in (readings[blank], before[spike], after[spike])))])
+        for first, last in held_runs(np.where(spike, np.nan, readings[keep])):
+            run = rows[first:last + 1][np.isfinite(readings[rows[first:last + 1]])]
+            detail = (f"{shown(np.array(readings[run[0]])):.6g} {tag.unit} in each of {run.size} readings, "
                       f"{_minute(times[run[0]])} to {_minute(times[run[-1]])}")
-            skips(tag.column)(_at(run, keep.shape), HELD, [detail] * run.size)
-            spike = spike | _at(run, keep.shape)[keep]
-        if spike.any():
-            cleaned[tag.name] = np.where(_at(rows[spike], keep.shape), np.nan, values[tag.name])
+            held = _at(run, keep.shape)
+            skips(tag.column)(held, HELD, [detail] * run.size)
+            blank |= held
+        if blank.any():
+            cleaned[tag.name] = np.where(blank, np.nan, readings)
     return cleaned
 
 

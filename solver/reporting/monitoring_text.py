@@ -187,7 +187,8 @@ def _unsteady_lines(windows: pd.DataFrame, display: Display | None = None) -> li
         tags = sorted(set(reasons[rows.index].str.split(": ", n=1).str[1].str.split(" ").str[0].dropna()))
         when = f"{rows.index.min():%Y-%m-%d}" + (f" to {rows.index.max():%Y-%m-%d}" if len(rows) > 1 else "")
         kind = display.message(kind)  # "above 5 K" in the units shown
-        said.append(f"{kind} in {len(rows):,} ({', '.join(tags)}; {when})" if tags else f"{kind} in {len(rows):,} ({when})")
+        named = f"{', '.join(tags)}; " if tags else ""
+        said.append(f"{kind} in {len(rows):,} ({named}{when})")
     return fitted(f"  not steady, with data, in {len(unsteady):,} windows: " + "; ".join(said), display,
                   "    ", break_on_hyphens=False)
 
@@ -231,7 +232,8 @@ def _skipped_lines(skipped: pd.DataFrame) -> list[str]:
             most = ""
         numbers = rows.loc[~cells, "row"].drop_duplicates()
         shown = ", ".join(map(str, numbers.head(SPIKES_SHOWN))) + (", ..." if len(numbers) > SPIKES_SHOWN else "")
-        parts = ([f"{whole} rows (data file row{'s' if whole > 1 else ''} {shown})"] if whole else []) + ([f"{int(cells.sum())} cells{most}"] if cells.any() else [])
+        parts = (([f"{whole} rows (data file row{'s' if whole > 1 else ''} {shown})"] if whole else [])
+                 + ([f"{int(cells.sum())} cells{most}"] if cells.any() else []))
         lines.append(f"  left out ({reason}): {' and '.join(parts)}")
         if reason == SPIKE:  # readings taken out of the data: each named, with its neighbours
             lines += [f"    {r.column} at {pd.Timestamp(r.time):%Y-%m-%d %H:%M} (data file row {r.row}): {r.detail}"
@@ -368,9 +370,7 @@ def monitoring_tables(result, display: Display | None = None) -> dict:
             "windows": result.windows,
             "measurements": names.by_tag_quantity(result.measurements, result.measurements.get("quantity", []),
                                                   ["mean_adjustment"]),
-            "readings": names.by_tag_quantity(
-                names.by_tag_quantity(result.readings, result.readings.get("quantity", []), ["reading_less_reconciled"]),
-                result.readings.get("quantity", []), ["reading", "reconciled"], names.VALUE_ENDINGS),
+            "readings": _readings_by_quantity(result.readings),
             "unmeasured": result.unmeasured,
             "instruments": _by_tag(m, result.instruments, ["median_bias"]),
             "persistently_off": _by_tag(m, result.drifts, ["mean_bias", "last_bias"]),
@@ -381,6 +381,14 @@ def monitoring_tables(result, display: Display | None = None) -> dict:
             "projection": result.projection, "limit_dates": _limit_dates(result.limit_dates, display),
             # the file's own row number, apart from the row each written table numbers itself by
             "skipped_rows": _numbered(result.history.skipped.rename(columns={"row": "data_file_row"}), "skip")}
+
+
+def _readings_by_quantity(readings):
+    """The readings table's values under their quantity's ending: a reading and its reconciled
+    value as values (``_c``), their difference as a difference (``_k``)."""
+    quantities = readings.get("quantity", [])
+    split = names.by_tag_quantity(readings, quantities, ["reading_less_reconciled"])
+    return names.by_tag_quantity(split, quantities, ["reading", "reconciled"], names.VALUE_ENDINGS)
 
 
 def _limit_dates(dates, display: Display):

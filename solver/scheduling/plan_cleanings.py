@@ -80,11 +80,12 @@ def plan_cleanings(path_or_schedule, progress=None) -> ScheduleResult:
     comparison = _comparison(search, outcome, names, clean)
     plans = {OPTIMISED: search.plan, **baselines}
     steps, limits = _step_table(horizon, search.outcome)
-    reference = _step_table(horizon, none)[1]
+    reference = _plan_limits(horizon, _rated(horizon, none), 1)[0]
     limits = _beside_no_cleaning(limits, reference)
-    # each baseline's limits, those the train with no cleaning keeps among them (its new ones)
-    beside = [_beside_no_cleaning(_step_table(horizon, outcome, k)[1], reference).assign(baseline=name)
-              for k, name in enumerate(names)]
+    # each baseline's limits, those the train with no cleaning keeps among them (its new ones): the
+    # baselines rated in one batch, plans x steps
+    beside = [_beside_no_cleaning(table, reference).assign(baseline=name)
+              for name, table in zip(names, _plan_limits(horizon, _rated(horizon, outcome), len(names)))]
     baseline_limits = pd.concat(beside, ignore_index=True) if beside else limits.iloc[:0].assign(baseline="")
     cleanings = pd.concat([_plan_table(schedule, horizon, plan).assign(baseline=name) for name, plan in baselines.items()],
                           ignore_index=True)
@@ -138,16 +139,12 @@ def _beside_no_cleaning(limits: pd.DataFrame, reference: pd.DataFrame) -> pd.Dat
     return shown
 
 
-def _step_table(horizon: Horizon, outcome, which=0) -> pd.DataFrame:
-    """Per step of a marched plan (``outcome``'s ``which``-th): each exchanger's fouling (m²·K/W,
-    NaN while out of service) and duty, the fired duty, the heaters' inlet temperatures, the
+def _step_table(horizon: Horizon, outcome) -> pd.DataFrame:
+    """Per step of a marched plan (``outcome``'s first): each exchanger's fouling (m²·K/W, NaN
+    while out of service) and duty, the fired duty, the heaters' inlet temperatures, the
     throughput share, limits; and the limits violated, one row each."""
-    from hxtrain.solver.simulation.evaluation import evaluate
-
-    one = slice(which, which + 1)
-    fouling, busy = outcome.fouling[one], outcome.out_of_service[one]
-    values = scenario_values(horizon, fouling, busy, outcome.throughput[one])
-    evaluation = evaluate(horizon.case, values)
+    fouling, busy = outcome.fouling[:1], outcome.out_of_service[:1]
+    evaluation = _rated(horizon, outcome, 1)
     table = pd.DataFrame(index=horizon.times)
     for e, name in enumerate(horizon.exchangers):
         table[f"{name}.fouling_m2_k_w"] = np.where(busy[0, e], np.nan, fouling[0, e])
@@ -156,15 +153,37 @@ def _step_table(horizon: Horizon, outcome, which=0) -> pd.DataFrame:
         if FIRED_HEATERS in report.totals:
             table[f"{name}.fired_duty_kw"] = report.metrics["duty"]
             table[f"{name}.inlet_c"] = report.metrics["inlet"]
-    table["throughput_share"] = outcome.throughput[which]
-    for column, values in step_lines(horizon, outcome.fired[one], outcome.throughput[one]).items():
+    table["throughput_share"] = outcome.throughput[0]
+    for column, values in step_lines(horizon, outcome.fired[:1], outcome.throughput[:1]).items():
         table[column] = values[0]
-    table["limits_violated"] = outcome.limits[which]
-    rows = []
-    for unit, finding in evaluation.findings:
-        if finding.severity == "limit" and finding.active.any():
-            first, worst = int(np.argmax(finding.active)), finding.worst()
-            rows.append({"unit": unit, "limit": finding.kind, "key": finding.key, "steps": int(finding.active.sum()),
-                         "first": horizon.times[first], "worst": horizon.times[worst],
-                         "message": finding.messages[worst]})
-    return table, pd.DataFrame(rows, columns=["unit", "limit", "key", "steps", "first", "worst", "message"])
+    table["limits_violated"] = outcome.limits[0]
+    return table, _plan_limits(horizon, evaluation, 1)[0]
+
+
+def _rated(horizon: Horizon, outcome, plans=None):
+    """The evaluation of ``outcome``'s first ``plans`` plans (all by default), plans x steps."""
+    from hxtrain.solver.simulation.evaluation import evaluate
+
+    some = slice(0, plans)
+    return evaluate(horizon.case, scenario_values(horizon, outcome.fouling[some], outcome.out_of_service[some],
+                                                  outcome.throughput[some]))
+
+
+def _plan_limits(horizon: Horizon, evaluation, plans) -> list[pd.DataFrame]:
+    """The limits each of ``plans`` plans violates, one row each, from the ``evaluation`` of them
+    all (plans x steps, plan-major): the steps violated, the first and the worst, its message."""
+    steps, tables = horizon.steps, []
+    for k in range(plans):
+        mine = np.zeros(plans * steps, bool)
+        mine[k * steps:(k + 1) * steps] = True
+        rows = []
+        for unit, finding in evaluation.findings:
+            if finding.severity != "limit" or not (finding.active & mine).any():
+                continue
+            own = replace(finding, active=finding.active & mine)
+            first, worst = int(np.argmax(own.active)), own.worst()
+            rows.append({"unit": unit, "limit": finding.kind, "key": finding.key, "steps": int(own.active.sum()),
+                         "first": horizon.times[first - k * steps], "worst": horizon.times[worst - k * steps],
+                         "message": own.messages[worst]})
+        tables.append(pd.DataFrame(rows, columns=["unit", "limit", "key", "steps", "first", "worst", "message"]))
+    return tables

@@ -18,8 +18,8 @@ from hxtrain.network import Network
 from hxtrain.units.protocol import TOTALS
 
 from hxtrain.solver.simulation.engine import ConvergenceError, TemperatureSolution, convergence_error, tear_labels
-from hxtrain.solver.simulation.evaluation import (CHECK_FAILED, NOT_CONVERGED, NOT_VALID, SUCCESS, Evaluation, enthalpies,
-                                                  evaluate)
+from hxtrain.solver.simulation.evaluation import (CHECK_FAILED, NOT_CONVERGED, NOT_VALID, SUCCESS, Evaluation,
+                                                  enthalpies, evaluate)
 
 UNIT_COLUMNS = {
     "duty": "duty_kw",
@@ -167,7 +167,8 @@ def scenario_summary(evaluation: Evaluation) -> dict:
     return {**evaluation.totals, **evaluation.highlights,
             "limit_violations": np.where(ok, limits, np.nan), "warnings": np.where(ok, warnings, np.nan),
             # a scenario that is not valid was not solved as asked: it took part in no iteration
-            "iterations": np.where(evaluation.status == NOT_VALID, 0, evaluation.solution.scenario_iterations(evaluation.batch))}
+            "iterations": np.where(evaluation.status == NOT_VALID, 0,
+                                   evaluation.solution.scenario_iterations(evaluation.batch))}
 
 
 LIMIT_SEPARATOR = "; "
