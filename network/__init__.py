@@ -10,12 +10,12 @@ from hxtrain.units import lazy_exports
 
 _EXPORTS = {
     "Case": ".case", "Settings": ".case", "Step": ".case", "case_from_mapping": ".case", "load_case": ".case",
-    "without_fouling": ".case", "CaseError": ".errors", "HxtrainError": ".errors", "Network": ".graph",
-    "Segment": ".graph", "build_network": ".graph",
+    "without_fouling": ".case", "fouled_units": ".case", "CaseError": ".errors", "HxtrainError": ".errors",
+    "Network": ".graph", "Segment": ".graph", "build_network": ".graph",
 }
 
-__all__ = ["Case", "Settings", "Step", "load_case", "case_from_mapping", "without_fouling", "CaseError", "HxtrainError",
-           "Network", "Segment", "build_network"]
+__all__ = ["Case", "Settings", "Step", "load_case", "case_from_mapping", "without_fouling", "fouled_units", "CaseError",
+           "HxtrainError", "Network", "Segment", "build_network"]
 
 
 __getattr__, __dir__ = lazy_exports(__name__, _EXPORTS)

@@ -74,4 +74,5 @@ def _read_u(f: Fields) -> dict:
 
 
 def build_air_cooler(name, key, data, building):
-    return AirCooler(name, key, **data)
+    s = building.case.settings
+    return AirCooler(name, key, **data, minimum_approach=s.minimum_approach, minimum_f=s.minimum_f)

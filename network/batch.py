@@ -10,6 +10,8 @@ Only values that leave the topology and the calculation order alone can vary acr
   ``splitters.NAME.branches.BRANCH.flow`` (a branch set by flow)
 * ``steam_heaters.TAG.outlet_temperature`` / ``.duty`` / ``.ua``
 * ``desalters.TAG.carry_over`` / ``.heat_loss``
+* ``air_coolers.TAG.air.inlet_temperature`` / ``.air.flow`` / ``.air.fan_control.outlet_temperature``
+  and ``.ua`` / ``.u`` / ``.fouling`` (whichever the cooler's U is given by)
 
 Values are numbers in the default units. Each path's smallest and largest values are checked
 like case-file values before anything runs (the checks are ranges, so the rest pass too).
@@ -33,6 +35,9 @@ BATCHABLE = (
     "coolers.TAG.outlet_temperature", "coolers.TAG.duty", "splitters.NAME.branches.BRANCH.fraction",
     "splitters.NAME.branches.BRANCH.flow", "steam_heaters.TAG.outlet_temperature", "steam_heaters.TAG.duty",
     "steam_heaters.TAG.ua", "desalters.TAG.carry_over", "desalters.TAG.heat_loss",
+    "air_coolers.TAG.air.inlet_temperature", "air_coolers.TAG.air.flow",
+    "air_coolers.TAG.air.fan_control.outlet_temperature", "air_coolers.TAG.ua",
+    "air_coolers.TAG.u", "air_coolers.TAG.fouling",
 )
 
 

@@ -19,7 +19,7 @@ from . import sections as registry
 from .sections import Reading
 
 __all__ = ["Case", "Settings", "Step", "Origin", "load_case", "case_from_mapping", "case_from_document",
-           "without_fouling"]
+           "without_fouling", "fouled_units", "fouling_of"]
 
 DEFAULT_MINIMUM_APPROACH = 10.0
 DEFAULT_MINIMUM_F = 0.75
@@ -163,17 +163,39 @@ def _register_names(case: Case, top: Fields):
             case.keys[name] = (section, name)
 
 
+def fouling_of(case: Case, tag) -> dict:
+    """The fouling resistances (m²·K/W) of exchanger or air cooler ``tag`` by part (an
+    exchanger's ``shell`` and ``tube``, an air cooler's ``bundle``); empty where its U takes none
+    (a fixed UA or service U)."""
+    if tag in case.exchangers:
+        return dict(case.exchangers[tag]["spec"].fouling)
+    cooler = case.air_coolers.get(tag)
+    return {"bundle": cooler["fouling"]} if cooler is not None and "fouling" in cooler else {}
+
+
+def fouled_units(case: Case) -> list[str]:
+    """The exchangers and air coolers with a fouling resistance above zero, in file order."""
+    import numpy as np  # not at the top: `check` reads cases without loading numpy
+
+    return [tag for tag in (*case.exchangers, *case.air_coolers) if any(np.any(np.asarray(r) != 0.0)
+                                                                         for r in fouling_of(case, tag).values())]
+
+
 def without_fouling(case: Case, exchangers=None) -> Case:
-    """A copy of ``case`` with the fouling resistances of ``exchangers`` (default: all) set to
-    zero: the exchangers as clean. The case passed in is not changed."""
+    """A copy of ``case`` with the fouling resistances of ``exchangers`` (tags of exchangers or
+    air coolers; default: all) set to zero: the units as clean. The case passed in is not changed."""
     import copy
 
     clean = copy.deepcopy(case)
-    chosen = clean.exchangers if exchangers is None else exchangers
+    chosen = (*clean.exchangers, *clean.air_coolers) if exchangers is None else exchangers
     for tag in chosen:
-        if tag not in clean.exchangers:
-            raise CaseError(f"no exchanger '{tag}' in the case", file=case.file, path=("exchangers",))
-        spec = clean.exchangers[tag]["spec"]
-        for part in spec.fouling:
-            spec.set_fouling(part, 0.0)
+        if tag in clean.exchangers:
+            spec = clean.exchangers[tag]["spec"]
+            for part in spec.fouling:
+                spec.set_fouling(part, 0.0)
+        elif tag in clean.air_coolers:
+            if "fouling" in clean.air_coolers[tag]:
+                clean.air_coolers[tag]["fouling"] = 0.0
+        else:
+            raise CaseError(f"no exchanger or air cooler '{tag}' in the case", file=case.file, path=("exchangers",))
     return clean

@@ -8,7 +8,8 @@ A change is one mapping::
     {bypass: E-110.cold, fraction: 0.2}                 # open (or close) an exchanger bypass
     {add_shells: E-104, count: 1}                       # add (or, negative, remove) shells in series
                                                         # (identical ones: a total "ua" grows with them)
-    {clean: E-112}                                      # every fouling resistance of E-112 to zero
+    {clean: E-112}                                      # every fouling resistance of E-112 (an exchanger
+                                                        # or an air cooler) to zero
 
 Every component of a key path except the last must exist in the case (a mapping of a numeric
 key, such as ``bypass`` or ``fouling``, is made when missing); a wrong one is an error naming the
@@ -31,6 +32,8 @@ from .fields import describe
 from .quantities import QuantityError, shorten, to_default_unit
 
 VERBS = ("set", "scale", "bypass", "add_shells", "clean")
+CLEANED_SECTIONS = ("exchangers", "air_coolers")
+"""The sections whose units ``clean`` takes: those with fouling resistances."""
 _VERB_KEYS = {"set": {"to"}, "scale": {"by"}, "bypass": {"fraction"}, "add_shells": {"count"}, "clean": set()}
 
 WHOLE_NUMBER = q.Kind("a whole number", "dimensionless", "2")
@@ -83,6 +86,18 @@ NUMERIC_KEYS = {
     "steam_heaters.*.outlet_temperature|design_temperature": q.TEMPERATURE,
     "steam_heaters.*.duty": q.DUTY,
     "steam_heaters.*.ua": q.CONDUCTANCE,
+    "air_coolers.*.tube_rows|tube_passes": WHOLE_NUMBER,
+    "air_coolers.*.air.inlet_temperature": q.TEMPERATURE,
+    "air_coolers.*.air.flow": q.MASS_FLOW,
+    "air_coolers.*.air.cp": q.SPECIFIC_HEAT,
+    "air_coolers.*.air.fan_control.outlet_temperature": q.TEMPERATURE,
+    "air_coolers.*.air.fan_control.minimum_flow|maximum_flow": q.MASS_FLOW,
+    "air_coolers.*.ua": q.CONDUCTANCE,
+    "air_coolers.*.u": q.HEAT_TRANSFER_COEFFICIENT,
+    "air_coolers.*.clean_u": q.CLEAN_COEFFICIENT,
+    "air_coolers.*.area": q.AREA,
+    "air_coolers.*.fouling": q.FOULING,
+    "air_coolers.*.design_temperature": q.TEMPERATURE,
     "desalters.*.carry_over": q.FRACTION,
     "desalters.*.heat_loss": q.DUTY,
     "products.*.target_temperature": q.TEMPERATURE,
@@ -128,7 +143,7 @@ def _closest_numeric_keys(parts) -> str:
     section = sorted({".".join("|".join(c) if c else "NAME" for c in p) for p in _PATTERNS if parts[0] in p[0]})
     return f"; numeric keys there: {', '.join(s.split('.', 2)[-1] for s in section)}" if section else (
         "; numeric keys are under settings, fluids, streams, exchangers, heaters, coolers, steam_heaters, "
-        "desalters, splitters and products")
+        "air_coolers, desalters, splitters and products")
 
 
 def nearest_paths(data, parts, depth) -> list[str]:
@@ -222,17 +237,31 @@ def refuse_temperature_multiple(path, kind: q.Kind, where, advice=None):
 
 
 def _exchanger(data, tag, where) -> dict:
+    return _unit_entry(data, tag, where)[1]
+
+
+_WHAT = {"exchangers": "exchanger", "air_coolers": "air cooler"}
+
+
+def _unit_entry(data, tag, where, sections=("exchangers",)) -> tuple[str, dict]:
+    """(section, entry) of the unit ``tag`` in the first of ``sections`` that has it; an error
+    naming the nearest tags of those sections where none has."""
+    what = " or ".join(_WHAT[s] for s in sections)
     if not isinstance(tag, str) or not tag.strip():
-        raise CaseError(f"expected an exchanger tag such as E-104, got {describe(tag)}", path=where)
-    units = data.get("exchangers")
-    if not isinstance(units, dict) or not units:
-        raise CaseError(f"the case has no exchangers ('exchangers' holds {describe(units)})", path=where)
-    if tag not in units:
-        hint = ", ".join(difflib.get_close_matches(tag, list(units), n=3)) or ", ".join(list(units)[:5])
-        raise CaseError(f"no exchanger '{tag}' in the case; nearest: {hint}", path=where)
-    if not isinstance(units[tag], dict):
-        raise CaseError(f"'exchangers.{tag}' holds {describe(units[tag])}, not an exchanger's keys", path=where)
-    return units[tag]
+        raise CaseError(f"expected an {what} tag such as E-104, got {describe(tag)}", path=where)
+    tables = {s: data.get(s) for s in sections if isinstance(data.get(s), dict) and data.get(s)}
+    if not tables:
+        raise CaseError(f"the case has no {what.replace('exchanger', 'exchangers').replace('cooler', 'coolers')} "
+                        f"('{sections[0]}' holds {describe(data.get(sections[0]))})", path=where)
+    section = next((s for s, units in tables.items() if tag in units), None)
+    if section is None:
+        names = [name for units in tables.values() for name in units]
+        hint = ", ".join(difflib.get_close_matches(tag, names, n=3)) or ", ".join(names[:5])
+        raise CaseError(f"no {what} '{tag}' in the case; nearest: {hint}", path=where)
+    if not isinstance(tables[section][tag], dict):
+        raise CaseError(f"'{section}.{tag}' holds {describe(tables[section][tag])}, not an {_WHAT[section]}'s keys",
+                        path=where)
+    return section, tables[section][tag]
 
 
 def _side_mapping(exchanger, tag, key, where) -> dict:
@@ -298,21 +327,30 @@ def apply_change(data: dict, change: dict, where=()) -> None:
             exchanger["ua"] = ua * (shells + count) / shells
         _keep_drop_per_shell(exchanger, target, shells, shells + count, at)
     else:
-        exchanger = _exchanger(data, target, at)
-        if "fouling" not in exchanger:
+        section, unit = _unit_entry(data, target, at, CLEANED_SECTIONS)
+        if section == "air_coolers":
+            if "fouling" not in unit:
+                raise CaseError(f"air cooler '{target}' has no fouling resistance to clean (it needs 'fouling' with "
+                                "'clean_u')", path=at)
+            unit["fouling"] = 0.0
+            return
+        if "fouling" not in unit:
             raise CaseError(f"exchanger '{target}' has no fouling resistances to clean (it needs 'fouling' with "
                             "'clean_u', 'film' or 'geometry')", path=at)
-        exchanger["fouling"] = {side: 0.0 for side in _side_mapping(exchanger, target, "fouling", at)}
+        unit["fouling"] = {side: 0.0 for side in _side_mapping(unit, target, "fouling", at)}
 
 
-def written_path(change) -> tuple:
-    """The case-file key path a (valid) change writes, e.g. ('exchangers', 'E-104', 'shells')."""
+def written_path(change, data=None) -> tuple:
+    """The case-file key path a (valid) change writes, e.g. ('exchangers', 'E-104', 'shells');
+    ``data``, the case document it applies to, tells an air cooler's ``clean`` from an
+    exchanger's."""
     verb = next(v for v in VERBS if v in change)
     target = str(change[verb])
     if verb in ("set", "scale"):
         return tuple(part.strip() for part in target.split("."))
     tag, _, side = target.partition(".")
-    return ("exchangers", tag) + {"bypass": ("bypass", side), "add_shells": ("shells",), "clean": ("fouling",)}[verb]
+    section = "air_coolers" if verb == "clean" and tag in ((data or {}).get("air_coolers") or {}) else "exchangers"
+    return (section, tag) + {"bypass": ("bypass", side), "add_shells": ("shells",), "clean": ("fouling",)}[verb]
 
 
 def apply_changes(data: dict, changes, where=()) -> dict:

@@ -38,7 +38,8 @@ class Fields:
         neither key given)."""
         if not given:
             for key in self.value:
-                meant = [k for k in keys if isinstance(key, str) and key not in keys and is_misspelling(key, k)]
+                meant = sorted((k for k in keys if isinstance(key, str) and key not in keys and is_misspelling(key, k)),
+                               key=lambda k: k.lower() != key.lower())  # "U" is 'u' before it is 'ua'
                 if meant:
                     return self.error(key, f"unknown key {shorten(key)} (did you mean '{meant[0]}'?)")
         return self.error(given[1] if len(given) > 1 else None, message)
@@ -213,7 +214,9 @@ def edit_distance(a: str, b: str) -> int:
 
 
 def nearest(word, options) -> str:
-    close = difflib.get_close_matches(str(word), [str(o) for o in options], n=1)
+    options = [str(o) for o in options]
+    same = [o for o in options if o.lower() == str(word).lower()]  # "U" for "u": the case alone differs
+    close = same or difflib.get_close_matches(str(word), options, n=1)
     return f" (did you mean '{close[0]}'?)" if close else ""
 
 

@@ -58,7 +58,8 @@ def unit_parameter(net, path: str):
     raise CaseError(f"'{path}' is not a value a scenario can vary in this case{hint} (the values that can: flows and "
                     "supply temperatures, bypass fractions, UA or a fixed U, fouling resistances, heater and cooler "
                     "settings, splitter fractions and set branch flows, steam heater settings, desalter carry-over "
-                    "and heat loss; other changes are new cases)")
+                    "and heat loss, an air cooler's air temperature, air flow or fan target; other changes are new "
+                    "cases)")
 
 
 def varied_paths(net) -> list[str]:

@@ -130,6 +130,13 @@ def _supply_vapour_fraction(f: Fields, reading: Reading):
         raise f.error("vapour_fraction", f"the supply's temperature fixes its state ({t:g} °C is not within "
                                          f"{SATURATION_MATCH:g} K of a saturation temperature of fluid "
                                          f"'{fluid.name}'{where}): leave out 'vapour_fraction'")
+    for member in fluid.members():  # what the solved temperatures are checked against, known here already
+        if not member.extrapolate and np.any(member.outside_range(t)):
+            low, high = member.valid_range
+            raise f.error("supply_temperature", f"{t:g} °C is outside the data range {low:g} to {high:g} °C of fluid "
+                                                f"'{member.name}' ({member.range_key}): give a supply temperature "
+                                                "within it, or widen the data (or set 'extrapolate: true' on the fluid "
+                                                "to accept extrapolated properties)")
     return (float(nearest) if saturated else t), given
 
 

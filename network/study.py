@@ -133,7 +133,7 @@ class Study:
         except CaseError as exc:
             if not changes and not settings:
                 raise
-            at = settings_where if settings else tuple(where) + _culprit(changes, exc.path)
+            at = settings_where if settings else tuple(where) + _culprit(changes, exc.path, self.base.data)
             why = f"{context or 'after these changes'} the case is not valid: {exc.describe()}"
             raise self.error(at, why) from None
 
@@ -148,12 +148,12 @@ class Study:
             return existing_number(copy.deepcopy(self.base.data), path, where)[3]
 
 
-def _culprit(changes, case_path) -> tuple:
+def _culprit(changes, case_path, data=None) -> tuple:
     """(index,) of the last change that wrote where the case reader found the fault (one key path
     lies within the other, and they share a unit where both name one); () when no change did."""
     case_path = tuple(case_path)
     for i in reversed(range(len(changes))):
-        written = written_path(changes[i])
+        written = written_path(changes[i], data)
         shared = min(len(written), len(case_path))
         if shared >= max(1, min(2, len(written), len(case_path))) and written[:shared] == case_path[:shared]:
             return (i,)

@@ -845,7 +845,7 @@ def test_infeasible_specification_reports_the_achievable_range(tmp_path, goal):
     assert result.achievable[0] == pytest.approx(at_low, rel=1e-9)
     assert result.achievable[1] == pytest.approx(at_high, rel=1e-9)
     assert not min(at_low, at_high) <= goal <= max(at_low, at_high)
-    assert f"gives {min(at_low, at_high):.1f} °C to {max(at_low, at_high):.1f} °C" in result.message  # °C: 1 decimal
+    assert f"gives {at_low:.1f} °C at the low end, {at_high:.1f} °C at the high end" in result.message  # 1 decimal
     assert f"{min(at_low, at_high)!r}" in result.message.exact  # the full numbers beside them
 
 
@@ -1147,7 +1147,7 @@ def test_cleaning_command_prints_and_writes_the_ranking(tmp_path, capsys):
 def test_cleaning_command_on_a_case_without_fouling(capsys):
     code, out, err = run_cli(capsys, "cleaning", COOLING)
     assert code == 0, err
-    assert "no exchanger has fouling" in out
+    assert "no exchanger or air cooler has fouling" in out
 
 
 def test_cleaning_command_bad_case_exits_2(tmp_path, capsys):
@@ -1263,7 +1263,7 @@ def test_a_specification_whose_result_turns_inside_the_range_is_scanned(monkeypa
         assert "the ends do not bracket the target; another value meets it too, between 0.45 and 0.4875" in result.message
     else:
         assert not result.success and result.value is None
-        assert "not found in reach" in result.message and "gives 230.0 °C to 250.0 °C" in result.message
+        assert "not found in reach" in result.message and "from 230.0 °C to 250.0 °C over those" in result.message
         assert "a narrower peak or dip between them is not seen" in result.message
 
 

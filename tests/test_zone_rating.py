@@ -256,3 +256,26 @@ def test_one_two_shell_f_against_the_closed_form():
     assert error <= 1e-12
     assert (by_cold[~reachable] == 0.0).all() and reachable.sum() > 100 and (~reachable).sum() > 10
     assert float(shell_f(180.0, 180.0, 40.0, 120.0)) == 1.0 == float(shell_f(180.0, 150.0, 120.0, 120.0))
+
+
+
+def test_a_root_near_a_pinch_is_found_in_few_steps():
+    """The UA a duty needs rises without bound at the pinch (a pure phase change against a
+    stream of constant C: UA = -C ln(1 - Q/Q_max)). With roots up to 2e-7 of the limit short of
+    it, the bracketed solve had crept up on them, about halving the distance a step (23 steps
+    here, 31 for a shell of a two-shell series); the secant through the latest trials, kept in
+    the bracket, finds them in half as many, to the solve's tolerance."""
+    from hxtrain.units.zone_rating import UA_TOLERANCE, solve_duty
+
+    upper, ua, c = np.full(3, 1000.0), np.array([5.0, 12.0, 25.0]), 1.6
+    steps = []
+
+    def needed(q):
+        steps.append(1)
+        with np.errstate(divide="ignore"):
+            return -c * np.log1p(-q / upper)
+
+    duty = solve_duty(needed, ua, upper)
+    assert np.all(np.abs(needed(duty) - ua) <= 10 * UA_TOLERANCE * ua)
+    assert duty == pytest.approx(-upper * np.expm1(-ua / c), rel=1e-14)
+    assert len(steps) - 1 <= 12

@@ -26,7 +26,8 @@ import numpy as np
 
 from .arrangements import arranged
 from .properties import ConstantCp
-from .protocol import HEAT_TO_UTILITIES, Parameter, UnitBase, UnitReport, check, design_temperature_findings
+from .protocol import HEAT_TO_UTILITIES, Parameter, UnitBase, UnitReport, blanked_where_idle, check, \
+    design_temperature_findings, warning_line_findings
 from .service_rating import ExchangerSpec, rate_in_service
 
 __all__ = ["FanControl", "AirCooler", "AIR_CP"]
@@ -55,14 +56,16 @@ class AirCooler(UnitBase):
     ``rows``, ``passes``: tube rows and process passes (a combination of
     :data:`.pntu_air_cooler.AIR_COOLER_PASSES`). ``air_temperature`` °C; ``air_flow`` kg/s or
     ``fan`` a :class:`FanControl`; ``air_cp`` kJ/kg·K. U: ``ua`` (kW/K), or ``area`` (m²) with
-    ``u`` or with ``clean_u`` and ``fouling`` (W/m²·K, m²·K/W).
+    ``u`` or with ``clean_u`` and ``fouling`` (W/m²·K, m²·K/W). ``minimum_approach`` (K) and
+    ``minimum_f`` are the warning lines (by default none).
     """
 
     kind = "air cooler"
     group = "exchangers"
 
     def __init__(self, name, key, *, rows, passes, air_temperature, air_flow=None, fan=None, air_cp=AIR_CP,
-                 ua=None, u=None, clean_u=None, fouling=0.0, area=None, design_temperature=None):
+                 ua=None, u=None, clean_u=None, fouling=0.0, area=None, design_temperature=None,
+                 minimum_approach=-np.inf, minimum_f=0.0):
         if (air_flow is None) == (fan is None):
             raise ValueError("give exactly one of air_flow and fan")
         if sum(x is not None for x in (ua, u, clean_u)) != 1 or (ua is None and area is None):
@@ -76,6 +79,7 @@ class AirCooler(UnitBase):
         self.ua, self.u, self.clean_u = ua, u, clean_u
         self.fouling, self.area = np.asarray(fouling, dtype=float), area
         self.design_temperature = design_temperature
+        self.minimum_approach, self.minimum_f = minimum_approach, minimum_f
 
     # -- settings ----------------------------------------------------------------------------
     def service_ua(self):
@@ -173,12 +177,14 @@ class AirCooler(UnitBase):
         quantities = {"duty": duty, "t_hot_in": t, "t_hot_out": out, "t_cold_in": t_air, "t_cold_out": air_out,
                       "ua": service.ua, "ntu": x.ntu, "p": x.p, "r": x.r, "effectiveness": x.effectiveness, "f": x.f,
                       "lmtd": x.lmtd, "approach": x.approach, "air_flow": flow}
+        quantities = blanked_where_idle(quantities, ~(m > 0.0))
         if self.area is not None:
             u_service = service.ua * 1000.0 / self.area
             clean = u_service if self.clean_u is None else np.broadcast_to(self.clean_u, t.shape)
             quantities.update(u_service=u_service, u_clean=clean)
         findings = design_temperature_findings(
             {"the process side ": (f"{self.key}.design_temperature", self.design_temperature, t, out)})
+        findings += warning_line_findings(x, self.key, duty != 0.0, self.minimum_f, self.minimum_approach)
         findings.append(check("reversed_heat_flow", "warning", x.reversed, self.key,
                               "the process enters colder ({t:.1f} °C) than the air ({ta:.1f} °C): the air heats it "
                               "({q:.1f} kW)", t=t, ta=t_air, q=-duty))

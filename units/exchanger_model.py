@@ -7,7 +7,7 @@ from dataclasses import fields, replace
 import numpy as np
 
 from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, PropertyNeed, UnitReport, UnitBase, check, \
-    design_temperature_findings, exchanger_totals
+    blanked_where_idle, design_temperature_findings, exchanger_totals, warning_line_findings
 from .arrangements import arranged, unit_halves
 from .pntu_rating import ExchangerRating
 from .u_models import Coefficients, FixedCoefficient, GeometryFilms
@@ -345,10 +345,7 @@ class Exchanger(UnitBase):
             "effectiveness": x.effectiveness, "f": x.f, "lmtd": x.lmtd, "approach": x.approach,
         }
         still = dict(zip(("hot", "cold"), (m <= 0.0 for m in through_exchanger(self.spec, *inlets.m.T))))
-        idle = still["hot"] | still["cold"]
-        if np.any(idle):  # a side with nothing flowing through: no P, R, NTU, F, LMTD or approach (blank, not 1 or 0)
-            quantities.update({k: np.where(idle, np.nan, quantities[k])
-                               for k in ("ntu", "p", "r", "effectiveness", "f", "lmtd", "approach")})
+        quantities = blanked_where_idle(quantities, still["hot"] | still["cold"])
         for side, t_inside in _outlets_inside(x).items():
             fraction = _bypass(self.spec, side)
             if np.any(fraction):  # what the side reaches inside, ahead of its bypass
@@ -400,24 +397,25 @@ class Exchanger(UnitBase):
                                       excess=drop - limit, dp=drop / 1000.0, lim=limit / 1000.0))
         return findings
 
-    def _cross_unit(self):
-        """Where a cross is judged: per shell, or per half of an F shell (see
-        :attr:`.arrangements.Arrangement.halves`)."""
+    def _cross_place(self):
+        """Where a cross is judged, in words: (the part it is inside, per what P is summed): a
+        multipass shell, per shell or per half of an F shell (see
+        :attr:`.arrangements.Arrangement.halves`), or a plate pack with passes."""
+        if self.spec.arrangement.name == "plate":
+            return "a plate pack with passes", "per pack"
         halved = unit_halves(self.spec.arrangement, self.spec.tube_passes) > 1
-        return "per half of the F shell" if halved else "per shell"
+        return "a multipass shell", "per half of the F shell" if halved else "per shell"
 
     def _rating_findings(self, x, coefficients, t_hot, t_cold):
         key = self.key
         works = x.duty != 0.0
+        inside, per = self._cross_place()
         findings = [
             check("temperature_cross", "limit", x.temperature_cross, key,
-                  f"temperature cross inside a multipass shell (P_hot + P_cold = {{s:.3f}} {self._cross_unit()} > 1): "
+                  f"temperature cross inside {inside} (P_hot + P_cold = {{s:.3f}} {per} > 1): "
                   "the stream being heated leaves above the outlet of the stream being cooled; F = {f:.3f}",
                   excess=x.shell_p_sum - 1.0, s=x.shell_p_sum, f=x.f),
-            check("low_f", "warning", works & (x.f < self.minimum_f), key,
-                  "F = {f:.3f} is below {lim:.2f}: steep, unreliable part of the F curve", f=x.f, lim=self.minimum_f),
-            check("approach", "warning", works & (x.approach < self.minimum_approach), key,
-                  "minimum approach {a:.1f} K is below the case's {lim:.1f} K", a=x.approach, lim=self.minimum_approach),
+            *warning_line_findings(x, key, works, self.minimum_f, self.minimum_approach),
             check("reversed_heat_flow", "warning", x.reversed, key,
                   "the hot-side stream enters colder ({th:.1f} °C) than the cold-side stream ({tc:.1f} °C): heat "
                   "flows from the cold side to the hot side ({q:.1f} kW)", th=t_hot, tc=t_cold, q=-x.duty),

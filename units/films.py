@@ -206,7 +206,9 @@ def scaled_film_coefficient(h_ref, mass_flow, reference_flow, exponent, property
     1157.031005
     """
     h_ref, m, m_ref, n, phi = as_floats(h_ref, mass_flow, reference_flow, exponent, property_ratio)
-    return h_ref * np.power(np.maximum(m, 0.0) / m_ref, n) * phi
+    with np.errstate(divide="ignore"):  # no flow: ln 0 = -inf, and exp(-inf) = 0
+        # exp(n ln x) rather than x**n: on a batch a third cheaper (see log_property_correction)
+        return h_ref * np.exp(n * np.log(np.maximum(m, 0.0) / m_ref)) * phi
 
 
 def log_property_correction(exponent, log_viscosity_ratio, cp_ratio=1.0, conductivity_ratio=1.0):

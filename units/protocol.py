@@ -464,6 +464,26 @@ def design_temperature_findings(sides):
     return findings
 
 
+def blanked_where_idle(quantities: dict, idle) -> dict:
+    """A rating's report quantities with P, R, NTU, effectiveness, F, LMTD and approach blank (NaN,
+    not 1 or 0) where ``idle``: a side with nothing flowing through has none of them."""
+    if not np.any(idle):
+        return quantities
+    shape = ("ntu", "p", "r", "effectiveness", "f", "lmtd", "approach")
+    return {k: np.where(idle, np.nan, v) if k in shape else v for k, v in quantities.items()}
+
+
+def warning_line_findings(rating, key, works, minimum_f, minimum_approach):
+    """The warnings of a P–NTU rating (:class:`.pntu_rating.ExchangerRating`) against the case's
+    warning lines, where the unit ``works`` (transfers heat): F below ``minimum_f`` and the
+    smallest approach below ``minimum_approach`` (K)."""
+    return [check("low_f", "warning", works & (rating.f < minimum_f), key,
+                  "F = {f:.3f} is below {lim:.2f}: steep, unreliable part of the F curve", f=rating.f, lim=minimum_f),
+            check("approach", "warning", works & (rating.approach < minimum_approach), key,
+                  "minimum approach {a:.1f} K is below the case's {lim:.1f} K", a=rating.approach,
+                  lim=minimum_approach)]
+
+
 class UnitBase:
     """Defaults for a unit with one inlet and one outlet that passes its flow through and has
     nothing a scenario may vary; concrete units override what differs."""

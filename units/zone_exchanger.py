@@ -214,6 +214,19 @@ class _FilmView:
         return np.ones(np.shape(t))
 
 
+def _pinch_words(rating, end_approach, active):
+    """Where the smallest approach lies, in words, for the ``active`` scenarios: at the cold or
+    hot end, or inside the exchanger at a share of the duty from the cold end."""
+    words = np.full(rating.duty.shape, "", dtype=object)
+    for k in np.flatnonzero(active):
+        share = rating.pinch_position[k] / rating.duty[k]
+        if abs(rating.approach[k] - end_approach[k]) <= 1e-9 * (1.0 + abs(end_approach[k])):
+            words[k] = "at the cold end" if share < 0.5 else "at the hot end"
+        else:
+            words[k] = f"inside the exchanger at {share:.0%} of the duty from the cold end"
+    return words
+
+
 def zone_report(unit, inlets, service: ZoneService | None, problem):
     """The report of exchanger ``unit`` rated by zones (``problem``: why it cannot be)."""
     from .protocol import UnitReport, check, exchanger_totals
@@ -248,12 +261,12 @@ def zone_report(unit, inlets, service: ZoneService | None, problem):
             findings.append(check("vapour_fraction", "limit", q_out > limit + 1e-12, f"{key}.maximum_vapour_fraction.{side}",
                                   f"the {side} side leaves {{q:.3f}} vapour (mass fraction), above its maximum of "
                                   "{lim:.3f}", excess=q_out - limit, q=q_out, lim=limit))
+    # a cross in a multipass shell is its own limit below: the zones' approach is not the point there
+    close = works & ~(multipass & crossed) & (x.approach < unit.minimum_approach)
     findings += [
-        check("approach", "warning", works & (x.approach < unit.minimum_approach), key,
-              "smallest approach {a:.1f} K, inside the exchanger at {at:.0%} of the duty from the cold end (ends "
-              "{e:.1f} K), is below the case's {lim:.1f} K", a=x.approach,
-              at=np.where(works, x.pinch_position / np.where(works, x.duty, 1.0), 0.0), e=service.end_approach,
-              lim=unit.minimum_approach),
+        check("approach", "warning", close, key,
+              "smallest approach {a:.1f} K, {where} (ends {e:.1f} K), is below the case's {lim:.1f} K", a=x.approach,
+              where=_pinch_words(x, service.end_approach, close), e=service.end_approach, lim=unit.minimum_approach),
         check("outlet_approach", "warning", works & ~crossed & (meeting < unit.minimum_approach), key,
               "the outlets of a multipass shell meet {m:.1f} K apart inside it (the stream giving heat leaves at "
               "{th:.1f} °C, the one taking it at {tc:.1f} °C), below the case's {lim:.1f} K",

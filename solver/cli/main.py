@@ -91,8 +91,9 @@ def _check(args) -> int:
 
     case = load_case(args.case)
     net = build_network(case)
-    print(f"{args.case}: ok — {len(net.units)} units, {len(net.segments)} stream segments, "
-          f"{len(case.exchangers)} exchanger{'' if len(case.exchangers) == 1 else 's'}; flows balance.")
+    counted = [(len(case.exchangers), "exchanger", "exchangers"), (len(case.air_coolers), "air cooler", "air coolers")]
+    kinds = ", ".join(f"{n} {one if n == 1 else many}" for n, one, many in counted if n or one == "exchanger")
+    print(f"{args.case}: ok — {len(net.units)} units, {len(net.segments)} stream segments, {kinds}; flows balance.")
     return EXIT_OK
 
 
@@ -197,7 +198,7 @@ def _cleaning(args) -> int:
     print(f"hxtrain cleaning, one exchanger at a time: {case.title or path}")
     print(f"case file: {path}")  # whole, to be copied; the tables keep to the width
     shown = ranking.drop(columns="standing_limits_when_clean", errors="ignore")  # in the box below, in full
-    print(render(shown, current()) if len(ranking) else "no exchanger has fouling")
+    print(render(shown, current()) if len(ranking) else "no exchanger or air cooler has fouling")
     new = limits.loc[limits["limit_is"] == "new", "cleaned"].nunique()
     print("\n".join(boxed("LIMITS VIOLATED", _cleaning_limit_lines(limits), count=f"{len(fouled.limits)} as it is, "
                                                                                   f"{new} new with one cleaning, each "
@@ -234,6 +235,19 @@ def _benchmark(args) -> int:
 
     from hxtrain.solver.simulation.benchmark import benchmark_text, run_benchmark
 
+    mode = "--plant-data" if args.plant_data else "--sizes" if args.sizes else None
+    if args.plant_data and args.sizes:
+        raise CaseError("give one of --plant-data and --sizes: each is a benchmark of its own")
+    for option, value, used_by in (("--scenarios", args.scenarios, None), ("--loop", args.loop, None),
+                                   ("--workers", args.workers, None), ("--windows", args.windows, "--plant-data"),
+                                   ("--properties", args.properties, "--sizes")):
+        if value is not None and used_by != mode:
+            what = used_by or "the scenario benchmark (without --plant-data or --sizes)"
+            raise CaseError(f"{option} is for {what}, not for {mode or 'the scenario benchmark'}")
+    args.scenarios = 20000 if args.scenarios is None else args.scenarios
+    args.loop = 5 if args.loop is None else args.loop
+    args.windows = 8760 if args.windows is None else args.windows
+    args.properties = args.properties or "varying"
     if args.scenarios < 2 or args.loop < 1 or (args.workers is not None and args.workers < 1) or args.windows < 30:
         raise CaseError("--scenarios must be at least 2, --loop and --workers at least 1, --windows at least 30")
     if args.plant_data:

@@ -97,26 +97,26 @@ def build_parser():
     uncertainty.add_argument("--seed", type=int, help="seed of the draw (default: the study's, or 1)")
     _cluster_options(uncertainty)
     _subcommand(commands, "cleaning", "rank exchangers by what cleaning each alone gains",
-                "For every fouled exchanger, simulate the case with that exchanger clean and rank them by the "
+                "For every fouled exchanger or air cooler, simulate the case with it clean and rank them by the "
                 "furnace duty saved.", ("case", "?", "case file (YAML); omit for the crude preheat demo"), out=True)
     bench = commands.add_parser("benchmark", help="measure scenario-solves per second, batch against one by one",
                                 description="Solve many crude-flow scenarios of the crude preheat demo, as shipped "
                                             "and with fixed properties (constant cp, fixed UA), in one vectorized "
                                             "batch, in the same batch allowed several processes (it says how many "
                                             "it used), and a few one by one; print the rates and their ratios.")
-    bench.add_argument("--scenarios", type=int, default=20000, help="scenarios in the batch (default 20000)")
-    bench.add_argument("--loop", type=int, default=5, help="single solves timed in the loop (default 5)")
+    bench.add_argument("--scenarios", type=int, default=None, help="scenarios in the batch (default 20000)")
+    bench.add_argument("--loop", type=int, default=None, help="single solves timed in the loop (default 5)")
     bench.add_argument("--workers", type=int, default=None,
                        help="processes the split batch may use (default: the machine's CPU count)")
     bench.add_argument("--plant-data", action="store_true",
                        help="instead: reconcile and back-calculate a year of hourly plant-data windows of the crude "
                             "demo, timed beside the batch solve of the same windows")
-    bench.add_argument("--windows", type=int, default=8760, help="windows for --plant-data (default 8760)")
+    bench.add_argument("--windows", type=int, default=None, help="windows for --plant-data (default 8760)")
     bench.add_argument("--sizes", nargs="?", const="10,100,1000,3000,10000", metavar="N,N,...",
                        help="instead: the size ladder, networks of these many units (default "
                             "10,100,1000,3000,10000) in four shapes, seconds and peak memory per stage and the "
                             "fitted exponent")
-    bench.add_argument("--properties", choices=("varying", "fixed"), default="varying",
+    bench.add_argument("--properties", choices=("varying", "fixed"), default=None,
                        help="for --sizes: cp varying with temperature (default) or constant")
     bench.add_argument("--debug", action="store_true", help="show tracebacks on errors")
     _subcommand(commands, "check", "validate a case file without simulating it",

@@ -74,8 +74,10 @@ with ^2, ^3 and * typeset."""
 
 
 MESSAGE_UNITS = {"°C": "temperature", "K": "temperature_difference", "kW": "duty", "kg/s": "mass_flow",
-                 "kPa": "pressure_drop"}
-"""Units the units' messages write their numbers in ("reaches 281.1 °C"), and their quantity."""
+                 "kPa": "pressure_drop", "kW/K": "heat_capacity_rate", "W/m²/K": "heat_transfer_coefficient",
+                 "W/m²·K": "heat_transfer_coefficient", "m²·K/W": "fouling", "m²": "area"}
+"""Units the units' messages write their numbers in ("reaches 281.1 °C"), and their quantity (a
+specification's messages write the adjusted key's default unit: a UA in kW/K, a U in W/m²/K)."""
 COUNT_COLUMNS = frozenset({"samples"})
 """Columns of a table listing quantities in its rows that count things (the samples behind a
 percentile): left as they are when the rows are converted."""
@@ -89,7 +91,8 @@ def holds_words(values) -> bool:
 
 
 _NUMBER = r"-?\d[\d,]*(?:\.\d+)?(?:[eE][+-]?\d+)?"
-_MESSAGE_NUMBER = re.compile(rf"(?<![\w.])(?<![eE][+-])(?:({_NUMBER}) to )?({_NUMBER}) (°C|K|kW|kg/s|kPa)(?![\w/])")
+_MESSAGE_UNIT = "|".join(re.escape(u) for u in sorted(MESSAGE_UNITS, key=len, reverse=True))
+_MESSAGE_NUMBER = re.compile(rf"(?<![\w.])(?<![eE][+-])(?:({_NUMBER}) to )?({_NUMBER}) ({_MESSAGE_UNIT})(?![\w/²·])")
 """A number with its unit ("280.8 °C", "1.6e-08 K"), or a range of two sharing one unit ("174 to
 348.4 °C")."""
 

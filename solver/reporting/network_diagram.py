@@ -307,7 +307,7 @@ def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display
     ring = LIMIT if worst == "limit" else WARNING if worst == "warning" else "#333"
     thick = 3.2 if worst else 1.2
     top = min(ys)
-    title = escape(node + ("" if worst is None else f": {worst} (see the limits section)"))
+    title = escape(node + ("" if worst is None else f": {worst} (listed with the limits and warnings)"))
     opening, closing = (f'<a href="#unit-{escape(node)}">', "</a>") if linked else ("", "")
     parts = [f'{opening}<g class="unit"><title>{title}</title>']
     if junction:

@@ -429,8 +429,13 @@ def _temperature_checks(net, t, flow, fail):
                 warnings.append((seg.target, check("property_extrapolation", "warning", outside, member.range_key,
                                                    text + ": properties extrapolated", **values)))
             else:
-                finding = check("property_range", "input", outside, member.range_key,
-                                text + "; widen the data (or set 'extrapolate: true' on the fluid to accept "
-                                       "extrapolated properties)", **values)
-                fail(outside, NOT_VALID, finding.messages, tuple(member.range_key.split(".")))
+                # a supply outside its own fluid's data is the supply temperature's fault, not the data's
+                supply = net.case.keys.get(seg.source, ())[:1] == ("streams",)
+                key = (*net.case.keys[seg.source], "supply_temperature") if supply else \
+                    tuple(member.range_key.split("."))
+                finding = check("property_range", "input", outside, ".".join(key),
+                                text + ("; give a supply temperature within it, or widen the data" if supply else
+                                        "; widen the data") + " (or set 'extrapolate: true' on the fluid to accept "
+                                                              "extrapolated properties)", **values)
+                fail(outside, NOT_VALID, finding.messages, key)
     return warnings

@@ -1,4 +1,4 @@
-"""The cleaning ranking: each fouled exchanger cleaned alone, ranked by the fired-heater duty saved,
+"""The cleaning ranking: each fouled exchanger (or air cooler) cleaned alone, ranked by the fired-heater duty saved,
 with the limits each cleaned case violates beside its numbers."""
 
 from __future__ import annotations
@@ -6,7 +6,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from hxtrain.network import without_fouling
+from hxtrain.network import fouled_units, without_fouling
 from hxtrain.solver.simulation.evaluation import as_case
 from hxtrain.solver.simulation.results import simulate, worded_column
 from hxtrain.units.protocol import FIRED_HEATERS, Worded
@@ -24,9 +24,7 @@ def cleaning_ranking(case, fouled=None) -> pd.DataFrame:
     heaters = [k for k in fouled.summary.index if k.endswith("_inlet_c")]
     standing = {(r.unit, r.kind, r.key): str(r.message) for r in fouled.limits.itertuples()}  # limits as it is
     rows = []
-    for tag, data in case.exchangers.items():
-        if not any(data["spec"].fouling.values()):
-            continue
+    for tag in fouled_units(case):
         clean, reason = try_scenario(f"{tag} clean", lambda tag=tag: without_fouling(case, [tag]))
         row = {"exchanger": tag}
         if clean is None:

@@ -118,10 +118,11 @@ def _solved(spec, achieved, goal, tolerance, result) -> SpecificationResult:
         if not crossing.size:
             lo, hi = min(scanned), max(scanned)
             return result(None, None, reach, _worded(
-                "target {} not found in reach: adjusting {} over {} to {} gives {} to {} at its ends and "
-                f"{SCAN_INTERVALS - 1} points between (a narrower peak or dip between them is not seen: narrow "
-                "'between' round it to be sure)", (goal, target_unit), spec.adjust, (spec.low, adjust_unit),
-                (spec.high, adjust_unit), (lo, target_unit), (hi, target_unit)))
+                "target {} not found in reach: adjusting {} over {} to {} gives {} at the low end, {} at the high "
+                f"end, and from {{}} to {{}} over those and {SCAN_INTERVALS - 1} points between (a narrower peak or "
+                "dip between them is not seen: narrow 'between' round it to be sure)", (goal, target_unit),
+                spec.adjust, (spec.low, adjust_unit), (spec.high, adjust_unit), (low, target_unit),
+                (high, target_unit), (lo, target_unit), (hi, target_unit)))
         bracket = tuple(points[crossing[0]:crossing[0] + 2])
     at_ends = (low, high) if scanned is None else scanned[crossing[0]:crossing[0] + 2]
     x = _root(lambda v: achieved(v) - goal, *bracket, [v - goal for v in at_ends], tolerance * (spec.high - spec.low))
