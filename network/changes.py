@@ -237,6 +237,10 @@ def refuse_temperature_multiple(path, kind: q.Kind, where, advice=None):
 
 
 def _exchanger(data, tag, where) -> dict:
+    if isinstance(tag, str) and tag in ((data.get("air_coolers") if isinstance(data.get("air_coolers"), dict) else None)
+                                        or {}):
+        raise CaseError(f"'{tag}' is an air cooler: bypasses and shells are changed on exchangers (an air cooler's "
+                        "keys can be set, scaled and swept)", path=where)
     return _unit_entry(data, tag, where)[1]
 
 

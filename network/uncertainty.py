@@ -93,11 +93,11 @@ def _input(section: Fields, path, base_document) -> Distribution:
     from .study import attributed  # the study reader's: errors without a file get the study's
 
     where = section.path + (path,)
+    with attributed(section.doc):  # a path that is no key at all is named with the nearest that are
+        kind = key_kind(path, where)
     if not is_batchable(path):
         raise section.error(path, f"'{path}' cannot vary within a batch, so it cannot be sampled; the paths that can: "
                                   f"{', '.join(BATCHABLE)}")
-    with attributed(section.doc):
-        kind = key_kind(path, where)
     f = Fields(section.doc, where, section.value[path], "a mapping with 'distribution' and its parameters")
     name = f.choice("distribution", tuple(DISTRIBUTIONS))
     spread = q.TEMPERATURE_DIFFERENCE if kind is q.TEMPERATURE else kind

@@ -186,3 +186,20 @@ def test_a_capital_u_on_an_air_cooler_is_taken_for_u(tmp_path, capsys):
     path.write_text(yaml.safe_dump(data), encoding="utf-8")
     code, out, err = run_in_process(capsys, "check", path)
     assert code == 2 and "unknown key 'U' (did you mean 'u'?)" in err
+
+
+def test_a_bypass_or_shell_asked_of_an_air_cooler_says_what_it_is():
+    """It had been 'no exchanger 'A-1' in the case; nearest: E-1' while A-1 was in the case."""
+    for change in ({"bypass": "A-1.hot", "fraction": 0.2}, {"add_shells": "A-1", "count": 1}):
+        with pytest.raises(CaseError, match="'A-1' is an air cooler: bypasses and shells are changed on exchangers"):
+            apply_change(cooler_document(), change)
+
+
+def test_a_misspelt_uncertain_input_is_named_with_the_key_meant(cooler_file, tmp_path):
+    """It had been refused as 'cannot vary within a batch', with no word of the slip."""
+    study_path = tmp_path / "typo.yaml"
+    study_path.write_text(yaml.safe_dump({"base": cooler_file.name, "uncertainty": {"inputs": {
+        "air_coolers.A-1.air.inlet_temp": {"distribution": "uniform", "low": 25.0, "high": 45.0}}}}),
+        encoding="utf-8")
+    with pytest.raises(CaseError, match="did you mean air_coolers.A-1.air.inlet_temperature"):
+        load_study(study_path)

@@ -178,12 +178,21 @@ def test_a_cluster_lost_mid_run_is_its_own_failure_with_no_result(tmp_path, monk
 
     from hxtrain.solver.cli.main import main
 
+    class Piece:
+        def __init__(self, error):
+            self.error = error
+
+        def result(self, timeout=None):
+            raise self.error
+
     class LostClient:
+        error = FutureCancelledError("piece-1", reason="scheduler-connection-lost")
+
         def map(self, function, *arguments, pure=False):
-            return list(arguments[0])
+            return [Piece(self.error) for _ in arguments[0]]
 
         def gather(self, futures):
-            raise FutureCancelledError("piece-1", reason="scheduler-connection-lost")
+            raise self.error
 
         def nthreads(self):
             return {"w1": 1, "w2": 1}
@@ -208,8 +217,29 @@ def test_a_cluster_lost_mid_run_is_its_own_failure_with_no_result(tmp_path, monk
     assert not list(tmp_path.glob("mc*"))
 
     class Refusing(LostClient):
-        def gather(self, futures):
-            raise ClusterError("a piece's own bad input")
+        error = ClusterError("a piece's own bad input")
 
     with pytest.raises(ClusterError, match="own bad input"):
         distributed_module.DaskPieces(Refusing()).map(len, [1])
+
+
+def test_a_cluster_whose_workers_are_all_lost_is_given_up_on(monkeypatch):
+    """Every worker gone while its pieces are out, the scheduler still up: the pieces would wait
+    for a worker forever (a trial killed an external cluster's workers: no end, no word). After
+    WORKERS_GONE_SECONDS without any, the study is lost (ClusterLost, exit 4)."""
+    import distributed
+
+    from hxtrain.solver.studies.distributed import ClusterLost, DaskPieces
+
+    monkeypatch.setattr(distributed_module, "WATCH_SECONDS", 0.2)
+    monkeypatch.setattr(distributed_module, "WORKERS_GONE_SECONDS", 1.0)
+    with distributed.LocalCluster(n_workers=1, processes=False, threads_per_worker=1, dashboard_address=":0") as lone:
+        with distributed.Client(lone) as client:
+            name = next(iter(lone.workers))
+            closer = __import__("threading").Timer(0.5, lambda: lone.sync(lone.workers[name].close))
+            closer.start()
+            start = time.monotonic()
+            with pytest.raises(ClusterLost, match="every worker of the Dask cluster was lost"):
+                DaskPieces(client).map(time.sleep, [1.0, 1.0, 1.0])
+            closer.join()
+            assert time.monotonic() - start < 15.0

@@ -29,6 +29,12 @@ SCHEMES = ("tcp", "tls", "ws", "wss", "ucx", "inproc")
 """The address schemes Dask's schedulers listen on (``http`` is a dashboard, not a scheduler)."""
 EXIT_CLUSTER_LOST = 4
 """Exit code of a study whose cluster failed while it ran (a network failure, not bad input)."""
+WATCH_SECONDS = 1.0
+"""While the pieces are out, how often the scheduler is asked whether it still has workers."""
+WORKERS_GONE_SECONDS = 30.0
+"""Seconds a scheduler may go without any worker while pieces are out before the study is given
+up as lost: a worker's nanny restarts it within seconds, and a scheduler left with none would
+hold the pieces forever (a trial killed every worker of an external cluster: no end, no word)."""
 
 
 class ClusterError(CaseError):
@@ -62,10 +68,35 @@ class DaskPieces:
         itself (not of a piece's own solve, whose error comes back as it was raised) is
         :class:`ClusterLost`."""
         try:
-            return self.client.gather(self.client.map(function, *arguments, pure=False))
+            futures = self.client.map(function, *arguments, pure=False)
+            self._wait_while_workers(futures)
+            return self.client.gather(futures)
         except _cluster_failures() as exc:
             raise ClusterLost(f"the Dask cluster failed while the study ran ({type(exc).__name__}: {exc}); no "
                               "result is given: run again when the scheduler and its workers are up") from None
+
+    def _wait_while_workers(self, futures):
+        """Until every piece is done, or the scheduler has had no worker for
+        :data:`WORKERS_GONE_SECONDS` (then :class:`ClusterLost`, the pieces cancelled)."""
+        import time
+
+        gone_since, waiting = None, list(futures)
+        while waiting:
+            try:  # a piece's own error is raised here, as gather would
+                waiting[0].result(timeout=WATCH_SECONDS)
+                waiting.pop(0)
+                continue
+            except TimeoutError:
+                pass
+            if self.client.scheduler_info().get("workers"):
+                gone_since = None
+                continue
+            gone_since = gone_since or time.monotonic()
+            if time.monotonic() - gone_since >= WORKERS_GONE_SECONDS:
+                self.client.cancel(futures)
+                raise ClusterLost(f"every worker of the Dask cluster was lost while the study ran, and none came "
+                                  f"back in {WORKERS_GONE_SECONDS:g} s; no result is given: run again when the "
+                                  "scheduler has workers")
 
 
 def _cluster_failures():
