@@ -203,3 +203,26 @@ def test_a_misspelt_uncertain_input_is_named_with_the_key_meant(cooler_file, tmp
         encoding="utf-8")
     with pytest.raises(CaseError, match="did you mean air_coolers.A-1.air.inlet_temperature"):
         load_study(study_path)
+
+
+def test_study_commands_show_the_base_case_display_units(tmp_path, capsys):
+    """A case's settings.display_units had been honoured by run and report only: compare, sweep,
+    uncertainty, cleaning and run --against-clean showed and wrote kW and °C."""
+    data = cooler_document()
+    data["settings"] = {"display_units": {"duty": "MW", "temperature": "degF"}}
+    (tmp_path / "cooling.yaml").write_text(yaml.safe_dump(data), encoding="utf-8")
+    study = tmp_path / "study.yaml"
+    study.write_text(yaml.safe_dump({
+        "base": "cooling.yaml", "variants": {"clean_a1": {"changes": [{"clean": "A-1"}]}},
+        "sweeps": {"ambient": {"grid": {"air_coolers.A-1.air.inlet_temperature": [25.0, 35.0]}}},
+        "uncertainty": {"samples": 5, "inputs": {
+            "air_coolers.A-1.air.inlet_temperature": {"distribution": "uniform", "low": 25.0, "high": 45.0}}}}),
+        encoding="utf-8")
+    case = tmp_path / "cooling.yaml"
+    for command in (("compare", study), ("sweep", study), ("uncertainty", study), ("cleaning", case),
+                    ("run", case, "--against-clean")):
+        code, out, err = run_in_process(capsys, *command)
+        assert code == 0, err
+        assert "MW" in out.replace("_mw", " MW") and "kW" not in out.replace("kW/K", ""), (command[0], out)
+    code, out, err = run_in_process(capsys, "compare", study, "--out", tmp_path / "cmp.csv")
+    assert code == 0 and "heat_to_utilities_mw" in (tmp_path / "cmp.csv").read_text(encoding="utf-8")

@@ -71,8 +71,11 @@ def _run(args) -> int:
         check_output_path(args.out, inputs, RUN_TABLES + (FOULING_TABLES if args.against_clean else ()))
     extra = None
     if args.against_clean:
+        from hxtrain.solver.reporting.display_units import adopt_case_units
+
         comparison = compare_clean_and_fouled(path)
         result = comparison.fouled
+        adopt_case_units(getattr(result.network, "case", None))
         report = text_report(result, comparison_text(comparison))
         extra = comparison.tables()
     else:
@@ -116,6 +119,7 @@ def _compare(args) -> int:
     from hxtrain.solver.studies import compare, solve_specifications, specification_table, study_text
 
     study = _load_study_for(args, lambda s: ["comparison", "findings"] + (["specifications"] if s.specifications else []))
+    _adopt_study_units(study)
     comparison = compare(study)
     specifications = solve_specifications(study)
     tables = {"comparison": comparison.table, "findings": comparison.findings}
@@ -144,6 +148,7 @@ def _sweep(args) -> int:
     study = _load_study_for(args, lambda s: [sweep.name for sweep in s.sweeps] + [_limits_name(s)])
     if not study.sweeps:
         raise CaseError("the study has no sweeps", file=study.file, path=("sweeps",))
+    _adopt_study_units(study)
     from hxtrain.solver.studies.distributed import cluster_for
 
     with cluster_for(args):
@@ -170,6 +175,14 @@ def _sweep(args) -> int:
     return EXIT_OK
 
 
+def _adopt_study_units(study):
+    """The study's base case's ``settings.display_units`` over the command's units, for the rest
+    of the command."""
+    from hxtrain.solver.reporting.display_units import adopt_case_units
+
+    adopt_case_units(study.case())
+
+
 def _limits_name(study) -> str:
     """The name of a sweep's limits table: ``limits``, unless a sweep is called that."""
     return "limits" if "limits" not in {sweep.name for sweep in study.sweeps} else "violated_limits"
@@ -180,7 +193,7 @@ def _cleaning(args) -> int:
 
     from hxtrain.solver.demos import DEMO_CASES, demo_case_path
     from hxtrain.solver.reporting.console_tables import render
-    from hxtrain.solver.reporting.display_units import current
+    from hxtrain.solver.reporting.display_units import adopt_case_units, current
     from hxtrain.solver.reporting.files import check_output_path
     from hxtrain.solver.reporting.text import boxed, note_lines
     from hxtrain.solver.simulation.results import CAUTION, simulate
@@ -191,6 +204,7 @@ def _cleaning(args) -> int:
     if args.out:
         check_output_path(args.out, inputs, ["ranking", "limits"])
     case = load_case(path)
+    adopt_case_units(case)
     fouled = simulate(case)
     ranking = cleaning_ranking(case, fouled)
     limits = _cleaning_limits(fouled, ranking, current())

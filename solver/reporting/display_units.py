@@ -407,6 +407,15 @@ def current() -> Display:
     return _CURRENT.get()
 
 
+def adopt_case_units(case) -> Display:
+    """The command's units with ``case``'s ``settings.display_units`` over them, made the choice
+    for the rest of the :func:`using` block the command runs in (that block's end restores what
+    was before it): a command on a case or a study shows every report and file as ``run`` does."""
+    display = current().with_case(case)
+    _CURRENT.set(display)
+    return display
+
+
 @contextlib.contextmanager
 def using(display: Display):
     """Reports made inside this block show ``display``'s units and width."""

@@ -248,7 +248,7 @@ def uncertainty_command(args, write, say_written) -> int:
     from hxtrain.network import CaseError
     from hxtrain.network.study import load_study
 
-    from hxtrain.solver.reporting.display_units import current
+    from hxtrain.solver.reporting.display_units import adopt_case_units, current
     from hxtrain.solver.reporting.text import note_lines
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies.distributed import cluster_for
@@ -262,6 +262,7 @@ def uncertainty_command(args, write, say_written) -> int:
     if args.seed is not None and not 0 <= args.seed <= SEED_LARGEST:
         raise CaseError(f"--seed must be a whole number from 0 to {SEED_LARGEST:,} (as the study file's "
                         "'uncertainty.seed')")
+    adopt_case_units(study.case())
     with cluster_for(args):
         result = run_uncertainty(study, args.samples, args.seed)
     written = write(result.shown_tables(current()), args,
