@@ -592,3 +592,26 @@ def test_the_petroleum_correlation_without_valid_range_spans_the_default():
         simulate(case_from_mapping(hot_feed({"petroleum": {"api_gravity": 31, "watson_k": 11.8}})))
     assert math.isfinite(simulate(case_from_mapping(hot_feed({"petroleum": {"api_gravity": 31, "watson_k": 11.8}},
                                                               target=500.0))).summary["fired_heater_duty_kw"])
+
+
+def test_after_an_interrupt_the_event_loops_teardown_says_nothing(monkeypatch, capsys, ctrl_c):
+    """Ctrl-C on a study on Dask printed 'Task exception was never retrieved' tracebacks (asyncio's
+    log of Dask's cancelled tasks) and worker warnings after the one line; once stopped, those
+    loggers are silent."""
+    import logging
+
+    logging.getLogger("distributed.worker.state_machine")
+
+    def interrupted(args):
+        os.kill(os.getpid(), signal.SIGINT)
+        time.sleep(5)
+        return 0
+
+    try:
+        code, out, err = run_cli(capsys, *with_command(monkeypatch, interrupted))
+        assert (code, err) == (130, "interrupted\n")
+        for name in ("asyncio", "distributed.worker.state_machine"):
+            assert not logging.getLogger(name).isEnabledFor(logging.CRITICAL)
+    finally:
+        for name in ("asyncio", "distributed.worker.state_machine"):
+            logging.getLogger(name).setLevel(logging.NOTSET)

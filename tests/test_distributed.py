@@ -105,9 +105,13 @@ def test_a_failed_connection_leaves_no_half_made_client_behind():
     ("", "needs the scheduler's address"), ("   ", "needs the scheduler's address"),
     ("http://127.0.0.1:8787", "is the scheduler's dashboard"), ("not a url", "has no port"),
     ("tcp://10.0.0.5", "has no port"), ("10.0.0.5:port", "has no port"),
+    (":8799", "has no host"), ("tcp://127.0.0.1:99999", "port 99999 is not a port"),
+    ("ftp://10.0.0.5:21", r"the scheme one of tcp, tls, ws, wss, ucx, inproc\)$"),
 ])
 def test_what_cannot_be_a_scheduler_address_is_refused_before_connecting(address, fragment):
-    """A dashboard's http:// address, an address without a port, or none at all: bad input
+    """A dashboard's http:// address, an address without a port or host, a port that is none
+    (a trial's ':8799' had been said to have no port, 99999 had waited 12 s for a connection,
+    and 'TCP://' had been called a dashboard), or none at all: bad input
     (exit 2), said before any connection (these had been an internal error, or, for "", a
     silent run in this process)."""
     with pytest.raises(ClusterError, match=fragment):
@@ -243,3 +247,7 @@ def test_a_cluster_whose_workers_are_all_lost_is_given_up_on(monkeypatch):
                 DaskPieces(client).map(time.sleep, [1.0, 1.0, 1.0])
             closer.join()
             assert time.monotonic() - start < 15.0
+
+
+def test_a_scheme_in_capitals_is_read_as_the_scheme():
+    assert distributed_module.checked_address("TCP://127.0.0.1:8786") == "tcp://127.0.0.1:8786"

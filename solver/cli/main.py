@@ -404,7 +404,13 @@ def _complain(args, message):
 
 def _stopped(args) -> int:
     """One line for the signal that stopped the run (Ctrl-C when none was noted: an interrupt
-    raised before the handlers were set, or by other code)."""
+    raised before the handlers were set, or by other code). What an event loop still logs as it
+    is torn down (Dask's tasks cancelled, their exceptions never retrieved) is not for the user:
+    the line is."""
+    import logging
+
+    for name in ("asyncio", *(n for n in list(logging.root.manager.loggerDict) if n.split(".")[0] == "distributed")):
+        logging.getLogger(name).setLevel(logging.CRITICAL + 1)
     if SIGNALS_RECEIVED and is_sigterm(SIGNALS_RECEIVED[-1]):
         _complain(args, "terminated (SIGTERM)")
         return EXIT_TERMINATED

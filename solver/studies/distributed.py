@@ -12,6 +12,7 @@ for a local one (``--local-cluster N``: N worker processes on this machine).
 from __future__ import annotations
 
 import gc
+import logging
 import sys
 import threading
 from contextlib import contextmanager
@@ -127,15 +128,21 @@ def checked_address(scheduler: str) -> str:
     if not text:
         raise ClusterError(f"--scheduler needs the scheduler's address, {example}")
     scheme, given, rest = text.partition("://")
-    scheme, rest = (scheme, rest) if given else ("tcp", text)
+    scheme, rest = (scheme.lower(), rest) if given else ("tcp", text)
     if scheme not in SCHEMES:
+        dashboard = ": an http:// address is the scheduler's dashboard, not the scheduler" if scheme.startswith(
+            "http") else ""
         raise ClusterError(f"{text!r} is not a Dask scheduler's address ({example}; the scheme one of "
-                           f"{', '.join(SCHEMES)}): an http:// address is the scheduler's dashboard, not the scheduler")
+                           f"{', '.join(SCHEMES)}){dashboard}")
     host, colon, port = rest.rpartition(":")
-    if scheme != "inproc" and not (colon and host and port.isdigit()):
+    if scheme != "inproc" and not (colon and port.isdigit()):
         raise ClusterError(f"{text!r} has no port: give the scheduler's, {example} (8786 unless it was started "
                            "with another; 8787 is usually its dashboard)")
-    return text
+    if scheme != "inproc" and not host:
+        raise ClusterError(f"{text!r} has no host: give the scheduler's, {example} (127.0.0.1 on this machine)")
+    if scheme != "inproc" and not 0 < int(port) < 65536:
+        raise ClusterError(f"{text!r}: port {port} is not a port (1 to 65535)")
+    return f"{scheme}://{rest}" if given else text
 
 
 def _connected(distributed, scheduler, timeout):
@@ -202,8 +209,11 @@ def on_cluster(scheduler=None, local_workers=None, *, minimum=PIECE_MINIMUM, pro
         client = _with_workers(_connected(distributed, scheduler, timeout), scheduler)
     else:
         try:
+            # the workers' own log lines (a task cancelled by Ctrl-C) off the shared screen: a
+            # piece's failure comes back to the command, which words it
             cluster = distributed.LocalCluster(n_workers=int(local_workers or 1), threads_per_worker=1,
-                                               processes=processes, dashboard_address=None)
+                                               processes=processes, dashboard_address=None,
+                                               silence_logs=logging.CRITICAL)
         except (OSError, TimeoutError) as exc:
             raise ClusterError(f"cannot start a local Dask cluster: {exc}") from None
         client = distributed.Client(cluster)
