@@ -237,25 +237,26 @@ def refuse_temperature_multiple(path, kind: q.Kind, where, advice=None):
 
 
 def _exchanger(data, tag, where) -> dict:
-    if isinstance(tag, str) and tag in ((data.get("air_coolers") if isinstance(data.get("air_coolers"), dict) else None)
-                                        or {}):
+    coolers = data.get("air_coolers")
+    if isinstance(coolers, dict) and isinstance(tag, str) and tag in coolers:
         raise CaseError(f"'{tag}' is an air cooler: bypasses and shells are changed on exchangers (an air cooler's "
                         "keys can be set, scaled and swept)", path=where)
     return _unit_entry(data, tag, where)[1]
 
 
-_WHAT = {"exchangers": "exchanger", "air_coolers": "air cooler"}
+_WHAT = {"exchangers": ("exchanger", "exchangers"), "air_coolers": ("air cooler", "air coolers")}
+"""A unit section's unit, singular and plural, for messages."""
 
 
 def _unit_entry(data, tag, where, sections=("exchangers",)) -> tuple[str, dict]:
     """(section, entry) of the unit ``tag`` in the first of ``sections`` that has it; an error
     naming the nearest tags of those sections where none has."""
-    what = " or ".join(_WHAT[s] for s in sections)
+    what = " or ".join(_WHAT[s][0] for s in sections)
     if not isinstance(tag, str) or not tag.strip():
         raise CaseError(f"expected an {what} tag such as E-104, got {describe(tag)}", path=where)
     tables = {s: data.get(s) for s in sections if isinstance(data.get(s), dict) and data.get(s)}
     if not tables:
-        raise CaseError(f"the case has no {what.replace('exchanger', 'exchangers').replace('cooler', 'coolers')} "
+        raise CaseError(f"the case has no {' or '.join(_WHAT[s][1] for s in sections)} "
                         f"('{sections[0]}' holds {describe(data.get(sections[0]))})", path=where)
     section = next((s for s, units in tables.items() if tag in units), None)
     if section is None:
@@ -263,7 +264,7 @@ def _unit_entry(data, tag, where, sections=("exchangers",)) -> tuple[str, dict]:
         hint = ", ".join(difflib.get_close_matches(tag, names, n=3)) or ", ".join(names[:5])
         raise CaseError(f"no {what} '{tag}' in the case; nearest: {hint}", path=where)
     if not isinstance(tables[section][tag], dict):
-        raise CaseError(f"'{section}.{tag}' holds {describe(tables[section][tag])}, not an {_WHAT[section]}'s keys",
+        raise CaseError(f"'{section}.{tag}' holds {describe(tables[section][tag])}, not an {_WHAT[section][0]}'s keys",
                         path=where)
     return section, tables[section][tag]
 

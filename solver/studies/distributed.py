@@ -134,15 +134,18 @@ def checked_address(scheduler: str) -> str:
             "http") else ""
         raise ClusterError(f"{text!r} is not a Dask scheduler's address ({example}; the scheme one of "
                            f"{', '.join(SCHEMES)}){dashboard}")
+    address = f"{scheme}://{rest}" if given else text
+    if scheme == "inproc":  # an in-process scheduler's address names no host and port
+        return address
     host, colon, port = rest.rpartition(":")
-    if scheme != "inproc" and not (colon and port.isdigit()):
+    if not (colon and port.isdigit()):
         raise ClusterError(f"{text!r} has no port: give the scheduler's, {example} (8786 unless it was started "
                            "with another; 8787 is usually its dashboard)")
-    if scheme != "inproc" and not host:
+    if not host:
         raise ClusterError(f"{text!r} has no host: give the scheduler's, {example} (127.0.0.1 on this machine)")
-    if scheme != "inproc" and not 0 < int(port) < 65536:
+    if not 0 < int(port) < 65536:
         raise ClusterError(f"{text!r}: port {port} is not a port (1 to 65535)")
-    return f"{scheme}://{rest}" if given else text
+    return address
 
 
 def _connected(distributed, scheduler, timeout):
