@@ -10,11 +10,13 @@ is known from the graph: column (inlet segment) i touches only the rows (outlet 
 the unit it enters. Two inlet segments of different units never share a row, so the columns are
 coloured by the inlet's position at its unit (Curtis, Powell & Reid, IMA J. Appl. Math. 13,
 1974, from memory): as many colours as the most inlets of one unit in the block, usually two.
-All colours are evaluated in one simultaneous sweep with the perturbed copies stacked on the
-batch axis, so a Jacobian costs one sweep whatever the size. No unit of the block reads what
-another computes in that sweep, so the units are asked class by class, each class in one
-stacked call (:func:`~hxtrain.units.protocol.outlet_temperatures_together`): a sweep of
-thousands of exchangers is a few calls, not thousands.
+The Jacobian costs one sweep per colour besides the sweep at the point itself, whatever the
+size; for a single scenario all of them are one sweep, the perturbed copies stacked on the batch
+axis (in a larger batch a unit's own values may differ along that axis, and the copies are swept
+in turn). No unit of the block reads what another computes in a sweep, so
+the units are asked class by class, each class in one stacked call
+(:func:`~hxtrain.units.protocol.outlet_temperatures_together`): a sweep of thousands of
+exchangers is a few calls, not thousands.
 
 Each iteration solves (I - dG/dT) d = G(T) - T, one sparse LU per scenario (all scenarios as
 one block-diagonal matrix). The step is the distance to the solution of the linearised
@@ -84,24 +86,36 @@ class BlockEquations:
 
     def evaluate(self, net, layout, temperature, flow, x):
         """G at x (batch, segments of the block), the Jacobian entries (batch, pattern) and the
-        temperatures of the segments leaving the block at x, in one simultaneous sweep of the
-        block with the colours' perturbed copies stacked."""
+        temperatures of the segments leaving the block at x: a sweep of the block at x and at
+        each colour's perturbed copy. A batch of one sweeps them all at once, stacked on the
+        batch axis (a sweep of thousands of units is then a few calls, not three times as many);
+        a larger batch sweeps them in turn, as a unit's own values may lie along that axis (a UA,
+        a fouling resistance or a blend's fractions that differ from scenario to scenario)."""
         batch, n = x.shape
         step = FD_STEP * np.maximum(1.0, np.abs(x))
-        stacked = np.concatenate([x] + [x + np.where(self.column_colour == c, step, 0.0)
-                                        for c in range(self.colours)])
-        copies = self.colours + 1
-        work = np.asfortranarray(np.tile(temperature[:, self.columns], (copies, 1)))
-        work[:, self.local_segments] = stacked
-        flows = np.tile(np.broadcast_to(flow, temperature.shape)[:, self.columns], (copies, 1))
-        out = np.full(work.shape, np.nan, order="F")
-        for group in self.groups:  # every unit reads work, none reads out
-            out[:, group.outlets] = group.outlets_from(net, layout, work, flows).transpose(1, 0, 2)
-        g_all = out[:, self.local_segments].reshape(copies, batch, n)
-        g = g_all[0]
-        shifted = g_all[1 + self.entry_colour, :, self.rows].T  # (batch, pattern)
+        points = [x] + [x + np.where(self.column_colour == c, step, 0.0) for c in range(self.colours)]
+        columns, flows = temperature[:, self.columns], np.broadcast_to(flow, temperature.shape)[:, self.columns]
+        if batch == 1:
+            copies = len(points)
+            swept = np.split(self._sweep(net, layout, np.tile(columns, (copies, 1)), np.tile(flows, (copies, 1)),
+                                         np.concatenate(points)), copies)
+        else:
+            swept = [self._sweep(net, layout, columns, flows, point) for point in points]
+        g = swept[0][:, self.local_segments]
+        perturbed = np.stack([out[:, self.local_segments] for out in swept[1:]])  # (colours, batch, n)
+        shifted = perturbed[self.entry_colour, :, self.rows].T  # (batch, pattern)
         derivative = (shifted - g[:, self.rows]) / step[:, self.cols]
-        return g, derivative, out[:batch, self.local_leaving]
+        return g, derivative, swept[0][:, self.local_leaving]
+
+    def _sweep(self, net, layout, columns, flows, point):
+        """Every unit's outlets (batch, the block's columns) with the block's segments at ``point``
+        and the rest of ``columns`` as they are: no unit of the block reads what another writes."""
+        work = np.array(columns, order="F")
+        work[:, self.local_segments] = point
+        out = np.full(work.shape, np.nan, order="F")
+        for group in self.groups:
+            out[:, group.outlets] = group.outlets_from(net, layout, work, flows).transpose(1, 0, 2)
+        return out
 
     def newton_step(self, residual, derivative):
         """d with (I - dG/dT) d = residual, per scenario."""
