@@ -22,6 +22,7 @@ from __future__ import annotations
 import sys
 import functools
 
+from .memory import keep_freed_memory
 from .parser import build_parser
 from .signals import (EXIT_BROKEN_PIPE, EXIT_INTERRUPTED, EXIT_TERMINATED, SIGNALS_RECEIVED, Terminated,
                       catch_signals, discard_stdout, is_sigterm, restore_signals, stdout_gone, stop_if_signalled,
@@ -330,6 +331,7 @@ def main(argv=None) -> int:
         handlers = catch_signals()
         sys.unraisablehook = functools.partial(unraisable, unraisable_hook, lambda: handlers is not None)
         args = build_parser().parse_args(argv)
+        keep_freed_memory()
         code = _dispatch(args)
         stop_if_signalled()
         sys.stdout.flush()  # here, not at exit: a reader that has gone away is handled below

@@ -270,7 +270,7 @@ def assess(net: Network, solution: TemperatureSolution, tolerance, unsettled=Non
             fail(finding.active, NOT_VALID, finding.messages, tuple(finding.key.split(".")))
     # a supply outside its fluid's data is the reason first: an iteration it sent off the numbers is its consequence
     supplies = [net.outlets[name][0] for name, unit in net.units.items() if not unit.inlets]
-    _temperature_checks(net, t, np.where(np.isin(np.arange(t.shape[1]), supplies), flow, 0.0), fail)
+    _temperature_checks(net, t, flow, fail, supplies)
     lost = solution.left_the_numbers(net.batch)
     fail(~solution.converged, NOT_CONVERGED, lambda k: _not_converged_text(t[k], lost[k]), None)
     if unsettled is not None:
@@ -390,35 +390,38 @@ def enthalpies(net, segments, state, layout=None):
     return result
 
 
-def _temperature_checks(net, t, flow, fail):
+def _temperature_checks(net, t, flow, fail, segments=None):
     """Temperatures that no answer may have: not found (NaN), below absolute zero or above the
     physical range; or outside a fluid's data range (not valid, unless the fluid allows
     extrapolation: then a warning finding, returned). The tests run on all segments at once
-    (one call per fluid); only the segments where one fails are looked at one by one, in
-    segment order."""
+    (one call per fluid), or on ``segments`` only where given; only the segments where one fails
+    are looked at one by one, in segment order."""
     low, high = PHYSICAL_RANGE
-    flowing = flow > 0.0
+    checked = np.arange(t.shape[1]) if segments is None else np.asarray(segments, int)
+    t_checked = t if segments is None else t[:, checked]
+    flowing = (flow if segments is None else flow[:, checked]) > 0.0
     with np.errstate(invalid="ignore"):
-        lost = flowing & ~((t >= low) & (t <= high))
+        lost = flowing & ~((t_checked >= low) & (t_checked <= high))
     attention = np.any(lost, axis=0)
     by_member: dict = {}
-    for seg, fluid in zip(net.segments, net.fluids):
-        for member in fluid.members():
-            by_member.setdefault(id(member), (member, []))[1].append(seg.index)
+    for j, index in enumerate(checked):
+        for member in net.fluids[index].members():
+            by_member.setdefault(id(member), (member, []))[1].append(j)
     for member, columns in by_member.values():
         with np.errstate(invalid="ignore"):
-            outside = flowing[:, columns] & member.outside_range(t[:, columns])
+            outside = flowing[:, columns] & member.outside_range(t_checked[:, columns])
         attention[np.array(columns)[np.any(outside, axis=0)]] = True
     warnings = []
-    for index in np.flatnonzero(attention):
+    for j in np.flatnonzero(attention):
+        index = int(checked[j])
         seg, fluid = net.segments[index], net.fluids[index]
-        column = t[:, seg.index]
-        fail(lost[:, index], NOT_VALID, f"segment {seg.label} has no possible temperature: its enthalpy lies outside "
+        column = t_checked[:, j]
+        fail(lost[:, j], NOT_VALID, f"segment {seg.label} has no possible temperature: its enthalpy lies outside "
                                         f"{low:g} to {high:g} °C (a duty too large for the flow it acts on?)",
              (*net.case.keys.get(seg.source, (seg.source,)),))
         for member in fluid.members():
             with np.errstate(invalid="ignore"):
-                outside = flowing[:, index] & member.outside_range(column)
+                outside = flowing[:, j] & member.outside_range(column)
             if not np.any(outside):
                 continue
             range_low, range_high = member.valid_range
