@@ -10,7 +10,8 @@ data back-calculate them: the tube side's share counts times D_o/D_i). A model's
 the keys of its table in :data:`hxtrain.units.fouling_models.MODELS` (``r_f0``, its value just
 after a cleaning, optional and 0 by default), bare numbers in the model's own units (days,
 m²·K/W per day, J/mol), bounded by that table; ``initial`` (the resistance at ``start``)
-defaults to the case's fouling of that exchanger. Conditions of threshold models (film
+defaults to the plant data's fouling now where the schedule has ``from_monitoring`` and they
+give one for that exchanger, else to the case's fouling of that exchanger. Conditions of threshold models (film
 temperature, Reynolds number, shear) are set by the network, never in the file.
 
 Time: dates are ISO 8601. The horizon and fixed baseline intervals are whole numbers of steps
@@ -71,11 +72,14 @@ DAY = pd.Timedelta(days=1)
 class FoulingLaw(NamedTuple):
     """How one exchanger's fouling grows: a model of :data:`MODELS` by name, its parameters in
     the model's units (every parameter of its table, ``r_f0`` included), and the fouling at the
-    start of the horizon (m²·K/W, total on the outside area)."""
+    start of the horizon (m²·K/W, total on the outside area). ``initial_written`` False: the file
+    gives no ``initial``, and ``initial`` is the case's fouling, which the plant data's fouling
+    now replaces where the schedule has them (:func:`hxtrain.solver.scheduling.setup.build_horizon`)."""
 
     model: str
     parameters: dict
     initial: float
+    initial_written: bool = True
 
 
 class CleaningTerms(NamedTuple):
@@ -261,7 +265,7 @@ def _fouling(top: Fields, case: Case, folder: Path) -> tuple[dict, Path | None]:
         if not spec.fouling:
             raise e.error(None, f"{tag}'s U takes no fouling (it is given by 'ua' or 'u'): a fouling model needs U "
                                 "from 'clean_u', 'film' or 'geometry' in the case")
-        laws[tag] = _law(e, spec)
+        laws[tag] = _law(e, spec, measured_later=monitoring is not None)
     if monitoring is None and not laws:
         raise f.error(None, "give 'from_monitoring' (models fitted to plant data), 'exchangers' (models written "
                             "here), or both")
@@ -286,7 +290,10 @@ def _monitoring(f: Fields, case: Case, folder: Path) -> Path:
     return path
 
 
-def _law(e: Fields, spec) -> FoulingLaw:
+def _law(e: Fields, spec, measured_later=False) -> FoulingLaw:
+    """The law written at ``e``. Without ``initial`` it starts from the case's fouling, unless
+    ``measured_later`` (the schedule has plant data, whose fouling now is the start: its check
+    against an asymptote waits for it)."""
     name = e.choice("model", tuple(MODELS))
     for condition in MODELS[name].conditions:
         if condition.name in e.value:
@@ -294,24 +301,29 @@ def _law(e: Fields, spec) -> FoulingLaw:
                                           "sets at each step, not a parameter of the file")
     parameters = {p.name: e.quantity(p.name, parameter_kind(name, p.name), required=p.name != "r_f0", default=0.0)
                   for p in MODELS[name].parameters}
+    written = e.has("initial")
     initial = e.quantity("initial", q.FOULING, required=False, default=lumped_fouling(spec))
-    if name == "asymptotic":
-        _below_asymptote(e, parameters, initial)
+    problem = asymptote_problem(name, parameters, initial, "initial" if written else
+                                "the case's fouling (the default initial)")
+    if problem and (written or not measured_later):
+        raise e.error("r_inf", problem)
     e.text("description")
     e.finish()
-    return FoulingLaw(name, parameters, initial)
+    return FoulingLaw(name, parameters, initial, written)
 
 
-def _below_asymptote(e: Fields, parameters: dict, initial: float):
-    """An asymptotic law's start must not lie above its asymptote r_f0 + r_inf: the usual slip is
-    writing the asymptote itself as r_inf, which is the rise above r_f0."""
+def asymptote_problem(model: str, parameters: dict, initial: float, start: str) -> str | None:
+    """Why an asymptotic law cannot start at ``initial`` (called ``start`` in the message), or
+    None: its start must not lie above its asymptote r_f0 + r_inf; the usual slip is writing the
+    asymptote itself as r_inf, which is the rise above r_f0."""
+    if model != "asymptotic":
+        return None
     r_f0, r_inf = parameters["r_f0"], parameters["r_inf"]
     if initial <= (r_f0 + r_inf) * (1.0 + 1e-12):
-        return
-    start = "initial" if e.has("initial") else "the case's fouling (the default initial)"
-    raise e.error("r_inf", f"{start} {initial:.4g} m²·K/W lies above the asymptote r_f0 + r_inf = {r_f0:.4g} + "
-                           f"{r_inf:.4g} = {r_f0 + r_inf:.4g} m²·K/W: r_inf is the rise above r_f0, not the asymptote "
-                           f"itself (an asymptote of {initial:.4g} or more needs r_inf >= {initial - r_f0:.4g})")
+        return None
+    return (f"{start} {initial:.4g} m²·K/W lies above the asymptote r_f0 + r_inf = {r_f0:.4g} + {r_inf:.4g} = "
+            f"{r_f0 + r_inf:.4g} m²·K/W: r_inf is the rise above r_f0, not the asymptote itself (an asymptote of "
+            f"{initial:.4g} or more needs r_inf >= {initial - r_f0:.4g})")
 
 
 def _cleaning_terms(f: Fields, case: Case, cleanable: list, step, steps) -> dict:

@@ -331,3 +331,41 @@ def test_any_value_replaced_by_junk_is_read_or_refused_with_a_key_path():
             assert exc.file == "plan.yaml" and len(str(exc)) <= MAX_MESSAGE_CHARS, (path, junk, str(exc))
         checked += 1
     assert checked > 300
+
+
+def test_a_written_law_without_initial_starts_from_the_plant_datas_fouling_where_there_is_one():
+    """A law written without ``initial`` beside plant data starts from the plant data's fouling
+    now, not from the case's design fouling (a trial had overridden only E-104's rate and got
+    every cost built on the case's value, 40 % off the measured one, with no word); the laws
+    table says where each start came from. Without plant data for it, the case's fouling."""
+    from hxtrain.solver.scheduling.horizon import ExchangerLaw
+    from hxtrain.solver.scheduling.setup import written_laws
+
+    plan = schedule(fouling={"exchangers": {"E-104": {"model": "linear", "rate": 1e-6},
+                                            "E-110": {"model": "linear", "rate": 2e-6, "initial": 0.0007}}})
+    assert not plan.fouling["E-104"].initial_written and plan.fouling["E-110"].initial_written
+    measured = {name: ExchangerLaw("linear", {"r_f0": 0.0, "rate": 0.0}, {"r_f0": 0.0, "rate": 0.0}, value)
+                for name, value in (("E-104", 0.000842), ("E-110", 0.0011))}
+    laws, table = written_laws(plan, measured)
+    assert laws["E-104"].initial == 0.000842 and laws["E-110"].initial == 0.0007  # a written initial stands
+    sources = table.set_index("exchanger")["source"]
+    assert sources["E-104"].endswith("(no initial given: the plant data's fouling now)")
+    assert sources["E-110"] == "written in the schedule file"
+    laws, table = written_laws(plan, {})
+    assert laws["E-104"].initial == plan.fouling["E-104"].initial  # the case's (checked above)
+    assert table.set_index("exchanger")["source"]["E-104"].endswith("(no initial given: the case's fouling)")
+
+
+def test_an_asymptote_below_the_plant_datas_fouling_is_refused_at_its_key():
+    """An asymptotic law (r_f0 + r_inf = 0.0017) read without ``initial``: the case's fouling lies
+    below its asymptote, but the plant data's fouling now, 0.0019, lies above it: refused at
+    r_inf, naming where the start came from."""
+    from hxtrain.solver.scheduling.horizon import ExchangerLaw
+    from hxtrain.solver.scheduling.setup import written_laws
+
+    plan = schedule(fouling={"exchangers": {"E-104": {"model": "asymptotic", "r_inf": 0.0017, "tau": "90 days"}}})
+    assert plan.fouling["E-104"].initial < 0.0017  # the case's, 0.00158
+    measured = {"E-104": ExchangerLaw("linear", {"r_f0": 0.0, "rate": 0.0}, {"r_f0": 0.0, "rate": 0.0}, 0.0019)}
+    with pytest.raises(CaseError, match="the plant data's fouling now 0.0019 m²·K/W lies above the asymptote") as error:
+        written_laws(plan, measured)
+    assert error.value.path == ("fouling", "exchangers", "E-104", "r_inf") and error.value.file == "plan.yaml"

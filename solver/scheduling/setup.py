@@ -20,9 +20,13 @@ import pandas as pd
 from hxtrain.network.changes import existing_number
 from hxtrain.network.errors import CaseError
 from hxtrain.network.reading import read_document
-from hxtrain.network.schedule_file import ScheduleFile
+from hxtrain.network.schedule_file import ScheduleFile, asymptote_problem
 
 from .horizon import ExchangerLaw, Horizon
+
+
+SOURCE_COLUMNS = ["exchanger", "model", "source", "initial"]
+"""The table of where each exchanger's law came from (:func:`build_horizon`)."""
 
 
 def fitted_laws(schedule: ScheduleFile, progress=None) -> tuple[dict, pd.DataFrame]:
@@ -49,7 +53,7 @@ def fitted_laws(schedule: ScheduleFile, progress=None) -> tuple[dict, pd.DataFra
             laws[name] = ExchangerLaw("linear", held, held, float(max(today.loc[name, "fouling"], 0.0)))
             rows.append((name, "held", "no law determined by the plant data: its last fouling held",
                          float(today.loc[name, "fouling"])))
-    return laws, pd.DataFrame(rows, columns=["exchanger", "model", "source", "initial"])
+    return laws, pd.DataFrame(rows, columns=SOURCE_COLUMNS)
 
 
 def _history_began_at_cleaning(cleanings: pd.DataFrame, name, since) -> bool:
@@ -59,11 +63,25 @@ def _history_began_at_cleaning(cleanings: pd.DataFrame, name, since) -> bool:
     return bool((mine["time"] == since).any())
 
 
-def written_laws(schedule: ScheduleFile) -> dict:
-    """The laws the schedule file writes: ``r_f0`` is the fouling just after a cleaning, and the
-    law starts from ``initial``."""
-    return {name: ExchangerLaw(law.model, dict(law.parameters), dict(law.parameters), float(law.initial))
-            for name, law in schedule.fouling.items()}
+def written_laws(schedule: ScheduleFile, measured=None) -> tuple[dict, pd.DataFrame]:
+    """The laws the schedule file writes (``r_f0`` is the fouling just after a cleaning), and
+    their rows of the table of where each came from. A law starts from its ``initial``; where
+    the file gives none, from the fouling now of ``measured`` (the laws from plant data), else
+    from the case's fouling: the table says which."""
+    measured = measured or {}
+    laws, rows = {}, []
+    for name, law in schedule.fouling.items():
+        initial, start = float(law.initial), ""
+        if not law.initial_written:
+            start = " (no initial given: the case's fouling)"
+            if name in measured:
+                initial, start = float(measured[name].initial), " (no initial given: the plant data's fouling now)"
+                problem = asymptote_problem(law.model, law.parameters, initial, "the plant data's fouling now")
+                if problem:
+                    raise schedule.error(("fouling", "exchangers", name, "r_inf"), problem)
+        laws[name] = ExchangerLaw(law.model, dict(law.parameters), dict(law.parameters), initial)
+        rows.append((name, law.model, f"written in the schedule file{start}", initial))
+    return laws, pd.DataFrame(rows, columns=SOURCE_COLUMNS)
 
 
 def operating_settings(schedule: ScheduleFile) -> dict:
@@ -99,16 +117,13 @@ def _case_value(data, key):
 
 def build_horizon(schedule: ScheduleFile, progress=None) -> tuple[Horizon, pd.DataFrame]:
     """The :class:`Horizon` of a schedule, and the table of where each law came from."""
-    laws, sources = ({}, pd.DataFrame(columns=["exchanger", "model", "source", "initial"]))
+    laws, sources = ({}, pd.DataFrame(columns=SOURCE_COLUMNS))
     if schedule.monitoring_file is not None:
         laws, sources = fitted_laws(schedule, progress)
-    written = written_laws(schedule)
+    written, rows = written_laws(schedule, laws)
     laws.update(written)
     if written:
-        sources = pd.concat([sources[~sources["exchanger"].isin(list(written))],
-                             pd.DataFrame([(n, law.model, "written in the schedule file", law.initial)
-                                           for n, law in written.items()], columns=sources.columns)],
-                            ignore_index=True)
+        sources = pd.concat([sources[~sources["exchanger"].isin(list(written))], rows], ignore_index=True)
     exchangers = [name for name in schedule.case.exchangers if name in laws]
     terms = [schedule.cleaning.get(name) for name in exchangers]
     duration = np.array([t.duration_steps if t is not None else 1 for t in terms])
