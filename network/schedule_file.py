@@ -17,7 +17,8 @@ temperature, Reynolds number, shear) are set by the network, never in the file.
 Time: dates are ISO 8601. The horizon and fixed baseline intervals are whole numbers of steps
 (part steps are refused, naming the nearest whole numbers), the horizon at most
 :data:`MAX_STEPS`; a cleaning's duration is rounded UP to whole steps (10 days with weekly steps
-takes 2 steps: an exchanger cannot be back in service part-way through a step). A
+takes 2 steps: an exchanger cannot be back in service part-way through a step); an exchanger
+whose cleaning is longer than the horizon is never cleaned, and the report says so. A
 ``not_allowed`` period is inclusive: a ``to`` date (at midnight) includes that whole day; it
 becomes the indices of every step it overlaps (widened to whole steps; the report says so). An
 operating-plan entry holds from its date until the next entry's (the case's values before the
@@ -205,10 +206,10 @@ def schedule_from_document(doc: Document, folder: Path) -> ScheduleFile:
     laws, monitoring = _fouling(top, case, folder)
     cleanable = [t for t, data in case.exchangers.items() if t in laws or (monitoring and data["spec"].fouling)]
     cleaning = top.mapping("cleaning", required=True, what="a mapping with default, exchangers, at_most_at_once, ...")
-    terms = _cleaning_terms(cleaning, case, cleanable, step, steps)
+    beyond = []
+    terms = _cleaning_terms(cleaning, case, cleanable, step, steps, beyond)
     at_most = cleaning.integer("at_most_at_once", DEFAULT_AT_MOST_AT_ONCE, 1, 1000)
     new_limits_allowed = cleaning.flag("allow_new_limit_violations", False)
-    beyond = []
     not_allowed = _not_allowed(cleaning, start, step, steps, beyond)
     cleaning.finish()
     return ScheduleFile(
@@ -326,9 +327,12 @@ def asymptote_problem(model: str, parameters: dict, initial: float, start: str) 
             f"{initial:.4g} or more needs r_inf >= {initial - r_f0:.4g})")
 
 
-def _cleaning_terms(f: Fields, case: Case, cleanable: list, step, steps) -> dict:
-    default = _terms(f.mapping("default", what="{cost, duration}"), None, step, steps) if f.has("default") else None
-    terms = {}
+def _cleaning_terms(f: Fields, case: Case, cleanable: list, step, steps, beyond: list) -> dict:
+    """Each cleanable exchanger's terms: its own entry, else the default. A cleaning longer than
+    the horizon cannot be planned: that exchanger is never cleaned, and ``beyond`` says so (a
+    horizon shortened to try a plan is not refused for it)."""
+    default = _terms(f.mapping("default", what="{cost, duration}"), None, step) if f.has("default") else None
+    terms, where = {}, {}
     for tag, e in f.named_entries("exchangers", "exchanger tags to their cleaning terms"):
         spec = _unit_in(case, tag, "exchangers", error_at(e, None))["spec"]
         if tag not in cleanable:
@@ -336,15 +340,27 @@ def _cleaning_terms(f: Fields, case: Case, cleanable: list, step, steps) -> dict
                    "it has no fouling model (fouling.exchangers) and there is no from_monitoring: its fouling stays "
                    "as the case gives it")
             raise e.error(None, f"cleaning {tag} changes nothing: {why}")
-        terms[tag] = _terms(e, default, step, steps)
+        terms[tag] = _terms(e, default, step)
+        where[tag] = e.path + ("duration",) if e.has("duration") else None
     missing = [t for t in cleanable if t not in terms]
     if missing and default is None:
         raise f.error(None, f"no cleaning terms for {', '.join(missing)}: give 'default' ({{cost, duration}}) or an "
                             "entry under 'exchangers' for each")
-    return {t: terms.get(t, default) for t in cleanable}
+    chosen = {t: terms.get(t, default) for t in cleanable}
+    too_long = {tag: t for tag, t in chosen.items() if t.allowed and t.duration_steps > steps}
+    for tag, t in too_long.items():
+        chosen[tag] = t._replace(allowed=False)
+        key = where.get(tag) or f.path + ("default", "duration")
+        if not any(c.allowed for c in chosen.values()):  # nothing left to plan: refused at the first
+            raise f.doc.error(key, f"a cleaning of {t.duration_steps} steps of {shown_duration(step)} (its duration "
+                                   f"rounded up to whole steps) does not fit in the horizon of {steps} steps, nor does "
+                                   "any other exchanger's: no plan could clean anything")
+        beyond.append((format_path(key), f"{tag}'s cleaning, {t.duration_steps} steps of {shown_duration(step)} "
+                                         "(rounded up to whole steps): never cleaned"))
+    return chosen
 
 
-def _terms(f: Fields, default: CleaningTerms | None, step, steps) -> CleaningTerms:
+def _terms(f: Fields, default: CleaningTerms | None, step) -> CleaningTerms:
     allowed = f.flag("allowed", True)
     cost = read_quantity(f, "cost", q.NUMBER, required=allowed and default is None, minimum=0.0)
     if allowed and (default is None or not default.duration_steps):
@@ -354,9 +370,6 @@ def _terms(f: Fields, default: CleaningTerms | None, step, steps) -> CleaningTer
     f.finish()
     fallback = default or CleaningTerms(0.0, 0, allowed)
     count = fallback.duration_steps if duration is None else steps_covering(duration, step)
-    if allowed and count >= steps:
-        raise f.error("duration", f"a cleaning of {count} steps of {shown_duration(step)} (its duration rounded up to whole "
-                                  f"steps) does not fit in the horizon of {steps} steps")
     return CleaningTerms(fallback.cost if cost is None else cost, count, allowed)
 
 

@@ -369,3 +369,19 @@ def test_an_asymptote_below_the_plant_datas_fouling_is_refused_at_its_key():
     with pytest.raises(CaseError, match="the plant data's fouling now 0.0019 m²·K/W lies above the asymptote") as error:
         written_laws(plan, measured)
     assert error.value.path == ("fouling", "exchangers", "E-104", "r_inf") and error.value.file == "plan.yaml"
+
+
+def test_a_cleaning_longer_than_the_horizon_leaves_that_exchanger_uncleaned_and_says_so():
+    """A horizon shortened to try a plan: the default cleaning (3 weeks) is longer than the 2-week
+    horizon, E-104's own (2 weeks) just fits (it had been refused as "does not fit", and so had
+    the whole file for the default's sake): E-110 is never cleaned, and the report's list of
+    what lies beyond the horizon names it with the key path of the duration it took."""
+    plan = schedule(horizon="2 weeks", fouling={"exchangers": {
+        "E-104": {"model": "linear", "rate": 1e-6}, "E-110": {"model": "linear", "rate": 2e-6}}},
+        cleaning={"default": {"cost": 45000, "duration": "3 weeks"},
+                  "exchangers": {"E-104": {"cost": 50000, "duration": "2 weeks"}}})
+    assert plan.steps == 2
+    assert plan.cleaning["E-104"] == CleaningTerms(50000.0, 2, True)
+    assert plan.cleaning["E-110"] == CleaningTerms(45000.0, 3, False)
+    assert plan.beyond_horizon == [("cleaning.default.duration",
+                                    "E-110's cleaning, 3 steps of 1 week (rounded up to whole steps): never cleaned")]
