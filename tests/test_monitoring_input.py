@@ -508,3 +508,26 @@ def test_the_window_after_a_ramp_is_not_judged_by_its_change_from_the_ramp(tmp_p
                             hourly("2026-01-01", 48, **{"FI-1001": 342.0, "TI-1011": temperature}), window="6 h")
     assert list(windows.steady.index[~windows.steady]) == [pd.Timestamp("2026-01-01 12:00")]
     assert "across the window" in windows.reason.iloc[2]
+
+
+def test_a_repeated_time_keeps_the_first_copy_and_says_whether_the_copies_agree(tmp_path):
+    """Rows 4 and 6 repeat the times of rows 3 and 5 (the header is row 1): the first copies are
+    kept; row 4 reads the same, row 6 reads TI-1001 differently (a trial's export dropped such a
+    conflicting copy without a word). The console names each repeated row, and a negative flow
+    (an impossible reading) with its row and time, not only their counts."""
+    from hxtrain.solver.reporting.monitoring_text import _skipped_lines
+
+    data = good_data()
+    data.loc[2, "time"], data.loc[4, "time"] = data.loc[1, "time"], data.loc[3, "time"]
+    data.loc[2, "FI-1001":] = data.loc[1, "FI-1001":]
+    data.loc[4, "TI-1001"] = 99.9
+    data.loc[5, "FI-1001"] = -5.0
+    history = read_history(load_monitoring(write_plant(tmp_path, GOOD_TAGS, data)))
+    repeated = history.skipped[history.skipped["reason"] == "time repeated"].set_index("row")["detail"]
+    assert repeated.to_dict() == {4: "the time of row 3, whose readings are kept; this row's are the same",
+                                  6: "the time of row 5, whose readings are kept; this row's differ in TI-1001: "
+                                     "which copy is right?"}
+    lines = _skipped_lines(history.skipped)
+    named = "    2026-01-01 01:00 (data file row 4): the time of row 3, whose readings are kept; this row's are the same"
+    assert named in lines
+    assert any(line.startswith("    FI-1001 at 2026-01-01 05:00 (data file row 7): -5 t/h") for line in lines)

@@ -366,7 +366,8 @@ def test_an_asymptote_below_the_plant_datas_fouling_is_refused_at_its_key():
     plan = schedule(fouling={"exchangers": {"E-104": {"model": "asymptotic", "r_inf": 0.0017, "tau": "90 days"}}})
     assert plan.fouling["E-104"].initial < 0.0017  # the case's, 0.00158
     measured = {"E-104": ExchangerLaw("linear", {"r_f0": 0.0, "rate": 0.0}, {"r_f0": 0.0, "rate": 0.0}, 0.0019)}
-    with pytest.raises(CaseError, match="the plant data's fouling now 0.0019 m²·K/W lies above the asymptote") as error:
+    above = "the plant data's fouling now 0.0019 m²·K/W lies above the asymptote"
+    with pytest.raises(CaseError, match=above) as error:
         written_laws(plan, measured)
     assert error.value.path == ("fouling", "exchangers", "E-104", "r_inf") and error.value.file == "plan.yaml"
 

@@ -147,7 +147,10 @@ def read_history(monitoring: MonitoringFile) -> History:
         raise CaseError("the file has a header but no data rows", file=name)
     rows = np.arange(len(body)) + 2  # file rows: the header is row 1
     skips = _Skips()
-    times, keep = _times(body.iloc[:, position[monitoring.time_column]], rows, skips.column(""), monitoring, name)
+    columns = [t.column for t in monitoring.tags.values()]
+    readings = body.iloc[:, [position[c] for c in columns]].to_numpy(dtype=object)
+    times, keep = _times(body.iloc[:, position[monitoring.time_column]], rows, skips.column(""), monitoring, name,
+                         lambda i, j: [c for c, x, y in zip(columns, readings[i], readings[j]) if not _same(x, y)])
     values = {tag.name: _readings(body.iloc[:, position[tag.column]], tag, keep, skips.column(tag.column))
               for tag in monitoring.tags.values()}
     values = without_glitches(values, monitoring.tags.values(), keep, times, skips.column)
@@ -318,10 +321,12 @@ def _parse_times(raw: pd.Series, rows: np.ndarray, monitoring: MonitoringFile, n
     return times
 
 
-def _times(raw: pd.Series, rows: np.ndarray, skip, monitoring: MonitoringFile, name: str):
+def _times(raw: pd.Series, rows: np.ndarray, skip, monitoring: MonitoringFile, name: str, differing):
     """(times, keep): the time of each row (NaT where unreadable) and the rows kept, whose
     times increase strictly; ``skip`` is told every other row. A row is compared with the
-    latest time of the rows kept before it."""
+    latest time of the rows kept before it. A row repeating a kept row's time is skipped, the
+    first copy kept; ``differing(i, j)`` names the data columns whose readings differ between
+    rows i and j (positions), for the skipped row's detail."""
     times = _parse_times(raw, rows, monitoring, name)
     missing = raw.isna().to_numpy()
     valid = ~np.isnat(times)
@@ -337,10 +342,26 @@ def _times(raw: pd.Series, rows: np.ndarray, skip, monitoring: MonitoringFile, n
     expected = (f"does not follow time_format {monitoring.time_format!r}" if monitoring.time_format else
                 "is not a date and time (ISO 8601: 2026-03-14 06:00)")
     skip(unreadable, TIME_UNREADABLE, [f"{shorten(str(t))} {expected}" for t in text[unreadable]])
-    skip(repeated, TIME_REPEATED, [f"the time of row {rows[b]}" for b in latest_row[repeated]])
+    skip(repeated, TIME_REPEATED, [_repeat_detail(rows[b], differing(b, r))
+                                   for r, b in zip(np.flatnonzero(repeated), latest_row[repeated])])
     skip(backwards, TIME_BACKWARDS, [f"before row {rows[b]}'s {pd.Timestamp(times[b])}"
                                      for b in latest_row[backwards]])
     return times, keep
+
+
+def _repeat_detail(kept_row, differ: list) -> str:
+    """Why a row repeating row ``kept_row``'s time is left out, and whether its readings agree."""
+    agree = ("this row's are the same" if not differ else
+             f"this row's differ in {', '.join(differ[:5])}{', ...' if len(differ) > 5 else ''}: which copy is right?")
+    return f"the time of row {kept_row}, whose readings are kept; {agree}"
+
+
+def _same(x, y) -> bool:
+    """Whether two cells read the same: equal numbers, or the same text, or both empty."""
+    if pd.isna(x) or pd.isna(y):
+        return bool(pd.isna(x) and pd.isna(y))
+    a, b = pd.to_numeric(pd.Series([x, y], dtype=object), errors="coerce")
+    return bool(a == b) if not (np.isnan(a) or np.isnan(b)) else str(x).strip() == str(y).strip()
 
 
 def _readings(raw: pd.Series, tag: Tag, keep: np.ndarray, skip) -> np.ndarray:

@@ -20,7 +20,7 @@ from .text import boxed, fitted, note_lines
 
 from hxtrain.network.monitoring_file import shown_duration
 from hxtrain.solver.monitoring.excursions import EXCURSION
-from hxtrain.solver.monitoring.historian import HELD, SPIKE
+from hxtrain.solver.monitoring.historian import HELD, IMPOSSIBLE, SPIKE, TIME_REPEATED
 
 TREND_DAYS = 90
 """The fouling trend is the weighted least-squares slope over the last this many days of
@@ -28,6 +28,8 @@ identifiable windows since the exchanger's last cleaning, given per 30 days with
 uncertainty (k = 2): over a shorter span the noise of daily back-calculated fouling swamps it."""
 SPIKES_SHOWN = 8
 """Spikes named one by one in the report (the rest are counted; all are in the skipped rows)."""
+NAMED_ONE_BY_ONE = (SPIKE, IMPOSSIBLE, TIME_REPEATED)
+"""Readings and rows left out that the console names one by one (the first :data:`SPIKES_SHOWN`)."""
 
 
 def fouling_trend(state: pd.DataFrame, cleanings: pd.DataFrame, days=TREND_DAYS) -> pd.DataFrame:
@@ -214,6 +216,10 @@ def _redundancy_lines(result) -> list[str]:
     return lines
 
 
+def _when(time) -> str:
+    return "(no time)" if pd.isna(time) else f"{pd.Timestamp(time):%Y-%m-%d %H:%M}"
+
+
 def _skipped_lines(skipped: pd.DataFrame) -> list[str]:
     """What the reader left out, by reason: whole rows and single cells."""
     if skipped is None or skipped.empty:
@@ -235,9 +241,10 @@ def _skipped_lines(skipped: pd.DataFrame) -> list[str]:
         parts = (([f"{whole} rows (data file row{'s' if whole > 1 else ''} {shown})"] if whole else [])
                  + ([f"{int(cells.sum())} cells{most}"] if cells.any() else []))
         lines.append(f"  left out ({reason}): {' and '.join(parts)}")
-        if reason == SPIKE:  # readings taken out of the data: each named, with its neighbours
-            lines += [f"    {r.column} at {pd.Timestamp(r.time):%Y-%m-%d %H:%M} (data file row {r.row}): {r.detail}"
-                      for r in rows.head(SPIKES_SHOWN).itertuples()]
+        if reason in NAMED_ONE_BY_ONE:  # each named, with why (a spike: its neighbours)
+            lines += [part for r in rows.head(SPIKES_SHOWN).itertuples() for part in textwrap.wrap(
+                f"    {r.column + ' at ' if r.column else ''}{_when(r.time)} (data file row {r.row}): {r.detail}",
+                WIDTH, subsequent_indent="      ", break_on_hyphens=False)]
             if len(rows) > SPIKES_SHOWN:
                 lines.append(f"    and {len(rows) - SPIKES_SHOWN} more (the skipped rows table, written by --out)")
         if reason == HELD:  # a frozen reading: each run named once
