@@ -266,8 +266,8 @@ def _base(top: Fields, study_file: Path) -> Document:
 
 def parse_metric(f: Fields, key, value) -> str:
     if not isinstance(value, str) or "." not in value or value.rsplit(".", 1)[1] not in METRIC_FIELDS:
-        raise f.error(key, f"expected a result such as F-101.inlet or E-106.cold_out (TAG.{'|'.join(METRIC_FIELDS)}), "
-                           f"got {describe(value)}")
+        raise f.error(key, f"expected one unit's result, its tag and one of {'|'.join(METRIC_FIELDS)} (an exchanger's "
+                           f"TAG.duty or TAG.cold_out, a heater's TAG.inlet), got {describe(value)}")
     return value
 
 

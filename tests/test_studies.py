@@ -272,6 +272,16 @@ ERROR_CASES = {
             target: {{value: E-303, equals: 60}}
         """,
         ["specifications.s.target.value", "E-303"]),
+    "metric_a_total": (  # the example names the kinds of result, not units another case has (F-101, E-106)
+        f"""
+        base: {COOLING}
+        specifications:
+          s:
+            adjust: {CW_FIRST}
+            between: [0.3, 0.7]
+            target: {{value: totals.heat_to_utilities, equals: 60}}
+        """,
+        ["specifications.s.target.value", "totals.heat_to_utilities", "one unit's result", "TAG.cold_out"]),
     "metric_unknown_field": (
         f"""
         base: {COOLING}

@@ -113,16 +113,19 @@ def run_uncertainty(study, samples=None, seed=None) -> UncertaintyResult:
     batch = simulate_batch(case, drawn, metrics=True)
     table = batch.table
     ok = table["success"].to_numpy(bool)
-    percentiles = _percentiles(table[ok], _result_columns(table))
+    percentiles = _percentiles(table[ok], _result_columns(table, case.streams))
     tornado, gaps = _tornado(case, drawn, table, ok)
     return UncertaintyResult(table, percentiles, tornado, seed, int(np.sum(~ok)), gaps)
 
 
-def _result_columns(table) -> list:
-    """Totals and heater inlets first, then each unit's duty and outlets."""
+def _result_columns(table, supplies=()) -> list:
+    """Totals and heater inlets first, then each unit's duty and outlets; not the outlets of the
+    ``supplies`` (their supply temperatures: inputs, constant unless drawn, and then in the
+    tornado)."""
     units = [c for c in table.columns if "." in c and not c.startswith(("streams.", "exchangers.", "heaters.",
                                                                         "coolers.", "splitters."))]
-    named = [c for c in units if c.rsplit(".", 1)[1] in ("duty", "hot_out", "cold_out", "outlet")]
+    inputs = {f"{name}.outlet" for name in supplies}
+    named = [c for c in units if c.rsplit(".", 1)[1] in ("duty", "hot_out", "cold_out", "outlet") and c not in inputs]
     headline = [c for c in table.columns if c in TOTALS or c.endswith("_inlet_c")]
     return headline + named
 
