@@ -48,3 +48,47 @@ def select(condition, x, y):
     shape = np.broadcast_shapes(condition.shape, np.shape(x), np.shape(y))
     chosen = np.asarray(chosen, dtype=np.result_type(x, y))
     return chosen if chosen.shape == shape else np.broadcast_to(chosen, shape)
+
+
+def sum_last(x):
+    """The sum over the last axis, a short one (a unit's inlets or outlets), added column by
+    column: the numbers of ``x.sum(axis=-1)`` (numpy adds fewer than eight terms in order), but
+    some 30 times faster on a C-ordered (20,000, 2) array, whose short inner axis numpy's
+    reduction takes row by row.
+
+    >>> sum_last(np.array([[1.0, 2.0, 3.0], [4.0, 5.0, 6.0]])).tolist()
+    [6.0, 15.0]
+    """
+    x = np.asarray(x, dtype=float)
+    if x.shape[-1] == 0:
+        return np.zeros(x.shape[:-1])
+    total = x[..., 0] + 0.0  # a new array, never a view of x
+    for k in range(1, x.shape[-1]):
+        total = total + x[..., k]
+    return total
+
+
+def mean_last(x):
+    """The mean over the last axis, a short one (see :func:`sum_last`).
+
+    >>> mean_last(np.array([[1.0, 2.0], [4.0, 8.0]])).tolist()
+    [1.5, 6.0]
+    """
+    x = np.asarray(x, dtype=float)
+    return sum_last(x) / x.shape[-1]
+
+
+def abs_max_last(x):
+    """The largest absolute value over the last axis, a short one (a block's tears), taken column
+    by column as :func:`sum_last` adds (NaN where a row holds one, as ``np.max`` gives).
+
+    >>> abs_max_last(np.array([[1.0, -3.0], [2.0, np.nan]])).tolist()
+    [3.0, nan]
+    """
+    x = np.asarray(x, dtype=float)
+    if x.shape[-1] == 0:
+        return np.zeros(x.shape[:-1])
+    largest = np.abs(x[..., 0])
+    for k in range(1, x.shape[-1]):
+        largest = np.maximum(largest, np.abs(x[..., k]))
+    return largest

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .arrays import mean_last, sum_last
 
 __all__ = ["mix_temperature"]
 
@@ -28,7 +29,7 @@ def mix_temperature(t_in, c_in):
     """
     t_in = np.asarray(t_in, dtype=float)
     c_in = np.asarray(c_in, dtype=float)
-    total = c_in.sum(axis=-1)
+    total = sum_last(c_in)
     flows = total > 0.0
-    weighted = (c_in * t_in).sum(axis=-1) / np.where(flows, total, 1.0)
-    return np.where(flows, weighted, t_in.mean(axis=-1))
+    weighted = sum_last(c_in * t_in) / np.where(flows, total, 1.0)
+    return weighted if flows.all() else np.where(flows, weighted, mean_last(t_in))

@@ -52,12 +52,10 @@ __all__ = [
 
 
 def _within_bounds(p, r1):
-    """Clip P1 to its physical range [0, min(1, 1/R1)]: round-off can put a saturated P a few
-    ulp above its limit, which would make the F factor's logarithm blow up."""
-    with np.errstate(divide="ignore"):
-        positive = r1 > 0.0
-        upper = np.minimum(1.0, select(positive, 1.0 / select(positive, r1, 1.0), 1.0))
-    return np.clip(p, 0.0, upper)
+    """Clip P1 to its physical range [0, min(1, 1/R1)] = [0, 1/max(1, R1)]: round-off can put a
+    saturated P a few ulp above its limit, which would make the F factor's logarithm blow up
+    (np.minimum and np.maximum: the same numbers as np.clip, at two thirds of its cost)."""
+    return np.minimum(np.maximum(p, 0.0), 1.0 / np.fmax(r1, 1.0))
 
 
 def _one_minus_exp_over_x(x):
@@ -136,6 +134,9 @@ def _x_coth(x, scale):
     x + 2x / expm1(2 scale x): exact as the product goes to 0 (expm1), x where it is large (expm1
     overflows to inf), and on a batch ~25 % cheaper than numpy's tanh."""
     zero = x == 0.0
+    if not zero.any():  # the usual case: no limit to take (it would cost three array operations)
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            return x + 2.0 * x / np.expm1(2.0 * scale * x)
     safe = select(zero, 1.0, x)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         return select(zero, 1.0 / select(scale == 0.0, 1.0, scale), safe + 2.0 * safe / np.expm1(2.0 * scale * safe))
@@ -362,11 +363,10 @@ def p_shells_in_series(p_one, r1, shells):
         safe = select(zero, 1.0, y)
         psi = select(zero, float(shells), np.expm1(shells * np.log1p(safe)) / safe)
         p = 1.0 / (1.0 + 1.0 / (u * psi))
-        above_one = r1 > 1.0
-        saturated = select(above_one, 1.0 / select(above_one, r1, 1.0), 1.0)
+        limit = 1.0 / np.fmax(r1, 1.0)  # P1's bound, min(1, 1/R1), as in _within_bounds
     # a unit already at its limit (P = 1, or P = 1/R for R > 1) keeps the series there
-    p = select(p_one * np.maximum(r1, 1.0) >= 1.0, saturated, select(p_one <= 0.0, 0.0, p))
-    return _within_bounds(p, r1)
+    p = select(p_one * np.maximum(r1, 1.0) >= 1.0, limit, select(p_one <= 0.0, 0.0, p))
+    return np.minimum(np.maximum(p, 0.0), limit)
 
 
 def ntu_counterflow(p1, r1):

@@ -6,6 +6,7 @@ from __future__ import annotations
 import numpy as np
 
 from . import balances
+from .arrays import mean_last, sum_last
 from .properties import PHYSICAL_RANGE, Blend
 from .protocol import COOLERS, FIRED_HEATERS, LARGEST_DUTY, LARGEST_FIRED_DUTY, OTHER_HEATERS, Inlets, Parameter, \
     UnitBase, UnitReport, check, design_temperature_findings
@@ -108,10 +109,10 @@ class Mixer(UnitBase):
     def outlet_states(self, inlets, outlet_fluids):
         """Mixed by enthalpy: on a stream that carries enthalpy every inlet has one fluid (fluids
         on enthalpy curves mix with no other), so the outlet's h is the flow-weighted mean."""
-        total = inlets.m.sum(axis=1)
+        total = sum_last(inlets.m)
         flows = total > 0.0
         h_in = sum(inlets.enthalpy_flow(j) for j in range(inlets.m.shape[1]))
-        h = np.where(flows, h_in / np.where(flows, total, 1.0), inlets.h.mean(axis=1))[:, None]
+        h = np.where(flows, h_in / np.where(flows, total, 1.0), mean_last(inlets.h))[:, None]
         return outlet_fluids[0].temperature(h), h
 
     def report(self, inlets):
@@ -378,7 +379,7 @@ def mix(inlets: Inlets, heat_loss=None):
     """Outlet temperature of an adiabatic mixer from its enthalpy balance, or of one that loses
     ``heat_loss`` (kW, one value per scenario) to its surroundings; with no flow at all, the mean
     of the inlet temperatures (any value balances a zero flow)."""
-    total = inlets.m.sum(axis=1)
+    total = sum_last(inlets.m)
     flows = total > 0.0
     lost = 0.0 if heat_loss is None else np.where(flows, heat_loss, 0.0)
     if all(f.constant_cp for f in inlets.fluids):
@@ -386,11 +387,11 @@ def mix(inlets: Inlets, heat_loss=None):
         t_mix = balances.mix_temperature(inlets.t, capacities)
         if heat_loss is None:
             return t_mix
-        rate = capacities.sum(axis=1)
+        rate = sum_last(capacities)
         return t_mix - lost / np.where(rate > 0.0, rate, 1.0)
     h_in = sum(inlets.enthalpy_flow(j) for j in range(inlets.t.shape[1])) - lost
     fractions = inlets.m / np.where(flows, total, 1.0)[:, None]
     blend = Blend(inlets.fluids, [fractions[:, j] for j in range(inlets.t.shape[1])])
     guess = balances.mix_temperature(inlets.t, np.where(flows[:, None], inlets.m, 1.0))
     t_out = blend.temperature(h_in / np.where(flows, total, 1.0), guess=guess)
-    return np.where(flows, t_out, inlets.t.mean(axis=1))
+    return np.where(flows, t_out, mean_last(inlets.t))

@@ -36,6 +36,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from hxtrain.units.arrays import abs_max_last
 from hxtrain.units.protocol import outlets_within
 
 Q_MIN, Q_MAX = -5.0, 0.9
@@ -178,7 +179,7 @@ def converge_tears(evaluate, x0, tolerance, max_iterations, one_tear=None) -> Te
         residual = g - x
         # a scenario whose tears or their sweep left the numbers (a unit met a state no
         # temperature has) cannot come back by any step: it stops here, not converged
-        active = active & ~_small(residual, tolerance - evaluate.error) & np.all(np.isfinite(residual), axis=1)
+        active = active & ~_small(residual, tolerance - evaluate.error) & np.isfinite(abs_max_last(residual))
     evaluate.precision = 0.0
     if evaluate.loose:  # what is decided and kept from here on comes from an exact sweep
         g = evaluate(x)
@@ -203,7 +204,7 @@ def _stuck(stage, steps, size, best, history, newton):
 
 
 def _small(residual, tolerance):
-    return np.all(np.abs(residual) <= tolerance, axis=1)
+    return abs_max_last(residual) <= tolerance
 
 
 def _wegstein_step(x, g, x_prev, g_prev):
@@ -251,12 +252,12 @@ class _QuasiNewton:
         if self.matrix is None or (self.refresh and not self.fresh):
             self.matrix, self.fresh = _newton_matrix(evaluate, x, g), True
         direction = _solve(self.matrix, residual)
-        size = np.max(np.abs(residual), axis=1)
+        size = abs_max_last(residual)
         step = np.ones(x.shape[0])
         for _ in range(HALVINGS + 1):
             trial = np.where(active[:, None], x + step[:, None] * direction, x)
             g_trial = evaluate(trial)
-            trial_size = np.max(np.abs(g_trial - trial), axis=1)
+            trial_size = abs_max_last(g_trial - trial)
             worse = active & ~(trial_size < size)
             if not np.any(worse):
                 break
@@ -283,12 +284,12 @@ def _polish(evaluate, x, g, residual, converged, matrix, negligible):
     Wegstein path) the Jacobian is made and every converged scenario is polished."""
     known = matrix is not None
     direction = _solve(matrix if known else _newton_matrix(evaluate, x, g), residual)
-    needed = converged & (np.max(np.abs(direction), axis=1) > negligible) if known else converged
+    needed = converged & (abs_max_last(direction) > negligible) if known else converged
     if not np.any(needed):
         return x, g, residual
     trial = np.where(needed[:, None], x + direction, x)
     g_trial = evaluate(trial)
     r_trial = g_trial - trial
-    better = np.max(np.abs(r_trial), axis=1) < np.max(np.abs(residual), axis=1)
+    better = abs_max_last(r_trial) < abs_max_last(residual)
     keep = better[:, None]
     return np.where(keep, trial, x), np.where(keep, g_trial, g), np.where(keep, r_trial, residual)
