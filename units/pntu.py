@@ -189,10 +189,12 @@ def _tema_e_denominator(ntu1, r1, n1, half, side1):
             - _x_coth(ntu1, one / (2.0 * n1)) / n1
             + _x_coth(ntu1, e / (2.0 * n1)) * e / n1
         )
+    elif n1 == 1.0:  # two tube passes: the two middle terms cancel exactly (and n1 divides nothing)
+        e = np.sqrt(r1 * r1 + 1.0)
+        denominator_times_ntu = ntu1 * (1.0 + r1) + _x_coth(ntu1, e / 2.0) * e
     else:
         e = np.sqrt(r1**2 + n1**2)
-        # with two tube passes (n1 = 1) the two middle terms cancel exactly
-        middle = 0.0 if n1 == 1.0 else _x_coth(r1, half) - _x_coth(r1, half / n1) / n1
+        middle = _x_coth(r1, half) - _x_coth(r1, half / n1) / n1
         denominator_times_ntu = ntu1 * (1.0 + r1 + middle) + _x_coth(ntu1, e / (2.0 * n1)) * e / n1
     return denominator_times_ntu
 

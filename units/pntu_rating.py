@@ -89,6 +89,8 @@ def _outlet(t_in, t_other_in, c, duty_out, ua):
     """Outlet temperature of one side losing ``duty_out``; a side without flow leaves at the
     other inlet temperature (the limit P -> 1 as its NTU -> inf), or at its own with UA = 0."""
     flows = c > 0.0
+    if flows.all():  # the usual case: no side without flow to take the limit for
+        return t_in - duty_out / c
     safe_c = select(flows, c, 1.0)
     stagnant = select(ua > 0.0, t_other_in, t_in)
     return select(flows, t_in - duty_out / safe_c, stagnant)

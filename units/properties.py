@@ -108,7 +108,9 @@ class FluidModel:
     def mean_cp(self, t1, t2, h1=None):
         """Mean cp between two temperatures, (h2 - h1)/(t2 - t1); cp(t1) where they coincide.
         ``h1``: the enthalpy at ``t1`` where the caller has it already (an iteration on ``t2``)."""
-        t1, t2 = np.broadcast_arrays(_t(t1), _t(t2))
+        t1, t2 = _t(t1), _t(t2)
+        if t1.shape != t2.shape:
+            t1, t2 = np.broadcast_arrays(t1, t2)
         dt = t2 - t1
         close = np.abs(dt) < 1e-9
         mean = (self.enthalpy(t2) - (self.enthalpy(t1) if h1 is None else h1)) / select(close, 1.0, dt)

@@ -22,7 +22,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .arrays import as_arrays
+from .arrays import as_arrays, select
 from .pntu_rating import ExchangerRating, carried, rate_exchanger
 from .protocol import note_outlets_loosened, outlet_precision
 from .u_models import Coefficients, FixedCoefficient
@@ -58,10 +58,11 @@ def outlets_settled(change, t_hot_in, previous_change=None):
     distance = change
     if previous_change is not None:
         with np.errstate(divide="ignore", invalid="ignore"):
-            ratio = np.where(previous_change > 0.0, change / previous_change, np.inf)
-        contracting = ratio < CONTRACTION_LIMIT
-        factor = np.minimum(1.0, CONTRACTION_SAFETY * ratio / (1.0 - np.where(contracting, ratio, 0.0)))
-        distance = np.where(contracting, change * factor, change)
+            ratio = change / previous_change  # inf or NaN where nothing moved before: no contraction
+            contracting = ratio < CONTRACTION_LIMIT
+            if contracting.any():  # elsewhere the factor is not used
+                factor = np.minimum(1.0, CONTRACTION_SAFETY * ratio / (1.0 - ratio))
+                distance = np.where(contracting, change * factor, change)
     # a scenario whose numbers are gone (NaN from inlets no state has) has nothing to settle
     own = (distance <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot_in))) | ~np.isfinite(change)
     allowed = outlet_precision()
@@ -253,10 +254,10 @@ def moved_outlets(last_inlets, last_outlets, t_hot_in, t_cold_in):
     (hot_in, cold_in), (hot_out, cold_out) = last_inlets, last_outlets
     span = hot_in - cold_in
     usable = np.abs(span) > 1e-6 * (1.0 + np.abs(hot_in))
-    safe = np.where(usable, span, 1.0)
+    safe = select(usable, span, 1.0)
     new_span = t_hot_in - t_cold_in
-    return (np.where(usable, t_hot_in - (hot_in - hot_out) / safe * new_span, hot_out),
-            np.where(usable, t_cold_in + (cold_out - cold_in) / safe * new_span, cold_out))
+    return (select(usable, t_hot_in - (hot_in - hot_out) / safe * new_span, hot_out),
+            select(usable, t_cold_in + (cold_out - cold_in) / safe * new_span, cold_out))
 
 
 def _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, details):
@@ -307,10 +308,10 @@ def _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot
         return rating
     hot_flows, cold_flows = flowing
     enthalpy_drop = h_in[0] - fluid_hot.enthalpy(rating.t_hot_out_exchanger)
-    duty = np.where(hot_flows, m_hot_x * enthalpy_drop, rating.duty)
-    h_cold = h_in[1] + duty / np.where(cold_flows, m_cold_x, 1.0)
-    t_cold_x = np.where(cold_flows, fluid_cold.temperature(h_cold, guess=rating.t_cold_out_exchanger),
-                        rating.t_cold_out_exchanger)
+    duty = select(hot_flows, m_hot_x * enthalpy_drop, rating.duty)
+    h_cold = h_in[1] + duty / select(cold_flows, m_cold_x, 1.0)
+    t_cold_x = select(cold_flows, fluid_cold.temperature(h_cold, guess=rating.t_cold_out_exchanger),
+                      rating.t_cold_out_exchanger)
     t_hot_out = _remix(fluid_hot, t_hot_in, rating.t_hot_out_exchanger, spec.bypass_hot)
     t_cold_out = _remix(fluid_cold, t_cold_in, t_cold_x, spec.bypass_cold)
     return ExchangerRating(**{**rating.__dict__, "duty": duty,

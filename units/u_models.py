@@ -84,6 +84,16 @@ class SideFilm:
     exponent: float
     reference_temperature: float | None = None
     reference_reynolds: float | None = None
+    _reference: tuple | None = field(default=None, init=False, repr=False, compare=False)
+
+    def _reference_properties(self, fluid):
+        """(k, ln μ, cp) of ``fluid`` at the reference temperature: the same in every pass of
+        an exchanger's rating, so kept for the last fluid asked (fluid models do not change)."""
+        kept = self._reference
+        if kept is None or kept[0] is not fluid:
+            t_ref = self.reference_temperature
+            kept = self._reference = (fluid, fluid.conductivity(t_ref), fluid.log_viscosity(t_ref), fluid.cp(t_ref))
+        return kept[1:]
 
     def at_reference_properties(self, mass_flow):
         """h at ``mass_flow`` with the reference properties: the flow part of the scaling, fixed
@@ -98,11 +108,10 @@ class SideFilm:
         log_mu = None if self.reference_temperature is None else fluid.log_viscosity(temperature)
         if log_mu is None:
             return h, None
-        t_ref = self.reference_temperature
-        k_ref = fluid.conductivity(t_ref)
+        k_ref, log_mu_ref, cp_ref = self._reference_properties(fluid)
         k = fluid.conductivity(temperature) if fluid.conductivity_follows_temperature else k_ref
-        log_mu_ratio = fluid.log_viscosity(t_ref) - log_mu
-        log_ratio = films.log_property_correction(self.exponent, -log_mu_ratio, fluid.cp(temperature) / fluid.cp(t_ref),
+        log_mu_ratio = log_mu_ref - log_mu
+        log_ratio = films.log_property_correction(self.exponent, -log_mu_ratio, fluid.cp(temperature) / cp_ref,
                                                   1.0 if k is None or k_ref is None else k / k_ref)
         return h * np.exp(log_ratio), log_mu_ratio
 
