@@ -41,7 +41,7 @@ ratios of an exchanger's passes wander by up to about this much from one pass to
 (measured on the crude demo: 0.005-0.05, rarely more than doubling)."""
 
 
-def outlets_settled(change, t_hot_in, previous_change=None):
+def outlets_settled(change, t_hot_in, previous_change=None, tolerance=None):
     """Where the outlets are within the passes' tolerance of the iteration's fixed point:
     :data:`OUTLET_TOLERANCE` times (1 + |T_hot,in|), or the looser precision a solver allows here
     (noted where that looser precision is what settles some scenario: the result is then not
@@ -54,7 +54,8 @@ def outlets_settled(change, t_hot_in, previous_change=None):
     successive substitution that contracts by ~0.01 a pass then stops one pass earlier than the
     change alone would let it, at the same distance from the answer. The looser precision is
     judged on the change itself: an inexact Newton sweep counts on its units being that close
-    (made as loose as allowed, the tear iteration took a fifth iteration on the crude demo)."""
+    (made as loose as allowed, the tear iteration took a fifth iteration on the crude demo).
+    ``tolerance``: :func:`own_tolerance` of ``t_hot_in``, where the caller has it (every pass)."""
     distance = change
     if previous_change is not None:
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -64,7 +65,7 @@ def outlets_settled(change, t_hot_in, previous_change=None):
                 factor = np.minimum(1.0, CONTRACTION_SAFETY * ratio / (1.0 - ratio))
                 distance = np.where(contracting, change * factor, change)
     # a scenario whose numbers are gone (NaN from inlets no state has) has nothing to settle
-    own = (distance <= OUTLET_TOLERANCE * (1.0 + np.abs(t_hot_in))) | ~np.isfinite(change)
+    own = (distance <= (own_tolerance(t_hot_in) if tolerance is None else tolerance)) | ~np.isfinite(change)
     allowed = outlet_precision()
     if allowed <= 0.0:
         return own
@@ -72,6 +73,12 @@ def outlets_settled(change, t_hot_in, previous_change=None):
     if np.any(settled & ~own):
         note_outlets_loosened()
     return settled
+
+
+def own_tolerance(t_hot_in):
+    """K: how far from their fixed point the passes leave the outlets, :data:`OUTLET_TOLERANCE`
+    times (1 + |T_hot,in|)."""
+    return OUTLET_TOLERANCE * (1.0 + np.abs(t_hot_in))
 
 
 @dataclass
@@ -202,16 +209,20 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
     t_hot_in, t_cold_in, m_hot, m_cold = as_arrays(t_hot_in, t_cold_in, m_hot, m_cold)
     m_hot_x, m_cold_x = through_exchanger(spec, m_hot, m_cold)
     simple = rates_linearly(spec, fluid_hot, fluid_cold)
-    if guess is not None and np.shape(guess[0]) == t_hot_in.shape:
+    warm = guess is not None and np.shape(guess[0]) == t_hot_in.shape
+    if warm:
         t_hot_x, t_cold_x = (np.array(g, dtype=float) for g in guess)
     else:
         t_hot_x, t_cold_x = t_hot_in.copy(), t_cold_in.copy()
+    # a report's rating starts from the last sweep's, at these inlets: its first pass is nearly
+    # always the last, so it is made with the report's quantities at once
+    first_is_last = details and warm and members == 1
     coefficients = None
     u_at = None if spec.ua is not None else coefficients_at(spec, m_hot_x, m_cold_x, fluid_hot, fluid_cold)
     h_in = (fluid_hot.enthalpy(t_hot_in), fluid_cold.enthalpy(t_cold_in))  # every pass's mean cp starts here
     frozen = np.zeros(t_hot_in.shape, bool)  # stacked exchangers that stopped at an earlier pass
     stopped = np.zeros(t_hot_in.shape, int)  # and the pass each stopped at
-    previous_change = None
+    previous_change, tolerance = None, own_tolerance(t_hot_in)
     for passes in range(1, MAX_PASSES + 1):
         t_mean_hot, t_mean_cold = 0.5 * (t_hot_in + t_hot_x), 0.5 * (t_cold_in + t_cold_x)
         if spec.ua is not None:
@@ -221,20 +232,22 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
             ua = coefficients.u_service * spec.total_area / 1000.0
         c_hot = m_hot * fluid_hot.mean_cp(t_hot_in, t_hot_x, h_in[0])
         c_cold = m_cold * fluid_cold.mean_cp(t_cold_in, t_cold_x, h_in[1])
-        rating = _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, details and simple)
+        with_details = details and (simple or (first_is_last and passes == 1))
+        rating = _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, with_details)
         change = np.maximum(np.abs(rating.t_hot_out_exchanger - t_hot_x), np.abs(rating.t_cold_out_exchanger - t_cold_x))
-        met = outlets_settled(change, t_hot_in, previous_change)
+        met = outlets_settled(change, t_hot_in, previous_change, tolerance)
         previous_change = change
-        if members > 1 and passes > 1:
-            rating, c_hot, c_cold, ua = _keep_frozen(frozen, (rating, c_hot, c_cold, ua), kept)
-        stopped = np.where(frozen, stopped, passes)
+        if members > 1:
+            if passes > 1:
+                rating, c_hot, c_cold, ua = _keep_frozen(frozen, (rating, c_hot, c_cold, ua), kept)
+            stopped = np.where(frozen, stopped, passes)
         t_hot_x, t_cold_x = rating.t_hot_out_exchanger, rating.t_cold_out_exchanger
-        if simple or np.all(met | frozen):
+        if simple or np.all(met | frozen if members > 1 else met):
             break
         if members > 1:
             frozen = frozen | np.repeat(met.reshape(members, -1).all(axis=1), met.size // members)
             kept = (rating, c_hot, c_cold, ua)
-    if details and not simple:  # the report's quantities at the last pass, not at every pass
+    if details and rating.f is None:  # the report's quantities at the last pass, not at every pass
         rating = _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, True)
     flowing = (carried(c_hot * (1.0 - spec.bypass_hot)) > 0.0, carried(c_cold * (1.0 - spec.bypass_cold)) > 0.0)
     rating = _close_on_enthalpy(rating, t_hot_in, t_cold_in, m_hot_x, m_cold_x, fluid_hot, fluid_cold, spec, simple,
