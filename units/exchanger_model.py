@@ -12,8 +12,8 @@ from .arrangements import arranged, unit_halves
 from .pntu_rating import ExchangerRating
 from .u_models import Coefficients, FixedCoefficient, GeometryFilms
 from .back_calculation import back_calculate
-from .service_rating import ExchangerSpec, ServiceRating, coefficient_quantities, moved_outlets, pressure_drops, \
-    rate_in_service, rates_linearly, shell_flows, through_exchanger
+from .service_rating import ExchangerSpec, ServiceRating, coefficient_quantities, coefficients_at, moved_outlets, \
+    pressure_drops, rate_in_service, rates_linearly, shell_flows, through_exchanger
 from .properties import stacked, stacking_key
 from .zone_exchanger import rate_zoned, rated_by_zones, zone_problem, zone_report
 
@@ -91,6 +91,7 @@ class Exchanger(UnitBase):
         from) utilities rather than heat recovered between process streams."""
         self._last_outlets = self._last_inlets = None  # warm start of the in-service iteration (speed only)
         self._affine = None  # the outlets' fixed fractions of the inlet difference, and what they hold for
+        self._flow_part = None  # U's part fixed by the flows (coefficients_at), and what it holds for
         self._curves = {}  # cp models sampled as enthalpy curves for zone rating (speed only)
 
     @property
@@ -135,13 +136,14 @@ class Exchanger(UnitBase):
             self.spec.thermal.u = values
         else:
             self.spec.set_fouling(part, values)
-        self._last_outlets = self._last_inlets = self._affine = None
+        self._last_outlets = self._last_inlets = self._affine = self._flow_part = None
 
     def rate(self, inlets, details=True):
         t_hot, t_cold = inlets.t[:, 0], inlets.t[:, 1]
         guess = moved_outlets(self._last_inlets, self._last_outlets, t_hot, t_cold)
         service = rate_in_service(self.spec, t_hot, t_cold, inlets.m[:, 0], inlets.m[:, 1],
-                                  inlets.fluids[0], inlets.fluids[1], guess=guess, details=details)
+                                  inlets.fluids[0], inlets.fluids[1], guess=guess, details=details,
+                                  u_at=self._u_at_flows(inlets))
         self._last_inlets = (t_hot, t_cold)
         self._last_outlets = (service.rating.t_hot_out_exchanger, service.rating.t_cold_out_exchanger)
         return service
@@ -191,6 +193,19 @@ class Exchanger(UnitBase):
         x = self.rate(inlets, details=False).rating
         return np.stack([x.t_hot_out, x.t_cold_out], axis=1)
 
+    def _u_at_flows(self, inlets):
+        """U as a function of the sides' mean temperatures at these flows
+        (:func:`.service_rating.coefficients_at`), kept while the flows and fluids stay: the
+        sweeps of a tear iteration rate an exchanger at the same flows again and again. None
+        with a fixed UA."""
+        if self.spec.ua is not None:
+            return None
+        m, fluids = inlets.m, inlets.fluids
+        if not _holds_for(self._flow_part, fluids, m):
+            u_at = coefficients_at(self.spec, *through_exchanger(self.spec, m[:, 0], m[:, 1]), *fluids)
+            self._flow_part = (fluids[0], fluids[1], np.array(m), u_at)
+        return self._flow_part[3]
+
     def _affine_fractions(self, inlets):
         """(hot, cold) fractions of the inlet difference by which each side's outlet moves, where
         the rating is linear and homogeneous in the inlet temperatures: constant cp on both sides
@@ -203,8 +218,7 @@ class Exchanger(UnitBase):
         if not rates_linearly(spec, fluids[0], fluids[1]):
             return None
         kept = self._affine
-        if kept is not None and kept[0] is fluids[0] and kept[1] is fluids[1] and kept[2].shape == m.shape \
-                and np.array_equal(kept[2], m):
+        if _holds_for(kept, fluids, m):
             return kept[3]
         ones = np.ones(m.shape[0])
         x = rate_in_service(spec, ones, 0.0 * ones, m[:, 0], m[:, 1], fluids[0], fluids[1], details=False).rating
@@ -433,3 +447,10 @@ class Exchanger(UnitBase):
                 check("transitional_tube_side", "warning", notes["transitional_tube_side"], key,
                       "tube-side Re = {re:.0f} is transitional (2300-10000): the film coefficient "
                       "is uncertain there", re=coefficients.reynolds_tube)]
+
+
+def _holds_for(kept, fluids, m) -> bool:
+    """Whether ``kept`` (fluid hot, fluid cold, flows, what was worked out from them) was worked
+    out for these fluids and flows (batch, 2)."""
+    return kept is not None and kept[0] is fluids[0] and kept[1] is fluids[1] and kept[2].shape == m.shape \
+        and np.array_equal(kept[2], m)

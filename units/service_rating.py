@@ -193,11 +193,12 @@ def rates_linearly(spec: ExchangerSpec, fluid_hot, fluid_cold) -> bool:
 
 
 def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, fluid_hot, fluid_cold,
-                    guess=None, details=True, members=1) -> ServiceRating:
+                    guess=None, details=True, members=1, u_at=None) -> ServiceRating:
     """Rate an exchanger with temperature-dependent cp and a flow- and temperature-dependent U.
 
     ``guess`` (hot and cold outlet temperatures of the exchanger proper, e.g. from the previous
-    call) only shortens the iteration; the answer is the same fixed point. ``details=False``
+    call) only shortens the iteration; the answer is the same fixed point. ``u_at``: what
+    :func:`coefficients_at` gives for these flows and fluids, where the caller kept it. ``details=False``
     skips what only a report needs (see :func:`rate_exchanger`) and the pressure drops.
 
     ``members`` > 1: the batch axis holds that many exchangers of one arrangement stacked, each
@@ -218,7 +219,8 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
     # always the last, so it is made with the report's quantities at once
     first_is_last = details and warm and members == 1
     coefficients = None
-    u_at = None if spec.ua is not None else coefficients_at(spec, m_hot_x, m_cold_x, fluid_hot, fluid_cold)
+    if spec.ua is None and u_at is None:
+        u_at = coefficients_at(spec, m_hot_x, m_cold_x, fluid_hot, fluid_cold)
     h_in = (fluid_hot.enthalpy(t_hot_in), fluid_cold.enthalpy(t_cold_in))  # every pass's mean cp starts here
     frozen = np.zeros(t_hot_in.shape, bool)  # stacked exchangers that stopped at an earlier pass
     stopped = np.zeros(t_hot_in.shape, int)  # and the pass each stopped at
