@@ -101,6 +101,8 @@ def fake_solves(monkeypatch):
         def process_time():
             return clock[0]
 
+        perf_counter = process_time
+
     def solve(case, values, tolerance, max_iterations, metrics=False, plan=None):
         count = len(next(iter(values.values())))
         solved.append(count)
@@ -119,6 +121,8 @@ def fake_solves(monkeypatch):
     def costing(fixed, each, planning=0.0):
         costs.update(fixed=fixed, each=each, planning=planning)
         return solved
+
+    costing.clock = clock
 
     return costing
 
@@ -183,3 +187,38 @@ def test_a_remembered_cost_that_says_split_splits_the_whole_batch_alike(monkeypa
     assert later.processes == 2 and not solved
     pd.testing.assert_frame_equal(later.table, whole.table, check_exact=False, rtol=1e-11, atol=1e-9)
     np.testing.assert_allclose(later.temperature, whole.temperature, rtol=0, atol=1e-9)
+
+
+@pytest.mark.parametrize("overlap, splits_again", [(0.0, False), (0.9, True)])
+def test_a_split_that_did_not_pay_is_not_made_again(fake_solves, monkeypatch, overlap, splits_again):
+    """How fast a case's processes solve while sharing the machine is measured on its first
+    split: its wall time, less a batch's fixed cost and the processes' own, against the probes'
+    cost per scenario. A batch that is mostly memory traffic slows when two share the memory
+    (the crude demo's fixed-property form at 100,000 scenarios measured 0.37 of its speed alone,
+    and two processes took 1.13 times as long as one); where the measured speed says a split
+    does not pay, the case's later batches stay in one process. Here a batch costs 20 ms and
+    20 µs a scenario; the two parts of the first split's 16,000 scenarios are solved one after
+    the other (``overlap`` 0: no gain) or nine tenths of each part at the same time as the
+    other's."""
+    solved = fake_solves(0.020, 20e-6)
+    clock, solve = fake_solves.clock, batch_module._solve_batch
+
+    def parts(case, jobs, tolerance, max_iterations, metrics, plan, measured):
+        start = clock[0]
+        results = [solve(case, job, tolerance, max_iterations, metrics, plan) for job in jobs]
+        clock[0] -= overlap * (clock[0] - start) / len(jobs)  # the time two parts ran at once
+        return results
+
+    monkeypatch.setattr(batch_module, "_split", parts)
+    monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
+    case = batch_module.as_case(demo_case_path("crude_preheat"))
+    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 20_000)}
+    assert simulate_batch(case, values, workers=2).processes == 2
+    rest = 20_000 - (1 + batch_module.PROBE_GROWTH) * batch_module.PROBE
+    known = batch_module._remembered(case, values, False)
+    assert known.exact and known.each == pytest.approx(20e-6) and known.fixed == pytest.approx(0.020)
+    wall = 2 * (0.020 + 20e-6 * rest / 2) * (1.0 - overlap / 2)
+    assert known.shared_speed == pytest.approx(20e-6 * rest / (2 * (wall - 0.020)), rel=1e-9)
+    solved.clear()
+    assert simulate_batch(case, values, workers=2).processes == (2 if splits_again else 1)
+    assert solved == ([10_000, 10_000] if splits_again else [20_000])

@@ -90,6 +90,14 @@ class _Measured:
     segments: int
     float_columns: tuple
     """What a worker's shared block is sized after (see :mod:`.part_transfer`)."""
+    fixed: float = 0.0
+    """Seconds a batch of the case costs besides its scenarios (order, tears, each unit's calls),
+    from the two probes (0 after one)."""
+    shared_speed: float = SHARED_SPEED
+    """How fast this case's processes solved while the others did too, against alone: as
+    :data:`SHARED_SPEED` until a split of its batches is timed (:func:`_timed_split`), then as
+    measured (a batch that is mostly memory traffic, such as the fixed-property form's, slows
+    more when two share the memory than one that is mostly arithmetic, as shipped)."""
 
 
 _MEASURED: dict = {}
@@ -156,21 +164,24 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
     if int(workers) <= 1 or scenarios < (1 + PROBE_GROWTH) * PROBE + 2 * PROCESS_MINIMUM:
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
     known, parts = _remembered(case, values, metrics), _parts(workers, scenarios)
-    if known is not None and (known.exact or not _pays(known.each / SECOND_PROBE_WORTH, scenarios, parts)):
-        if not (known.exact and _pays(known.each, scenarios, parts)):
+    if known is not None and (known.exact or not _pays(known.each / SECOND_PROBE_WORTH, scenarios, parts,
+                                                       known.shared_speed)):
+        if not (known.exact and _pays(known.each, scenarios, parts, known.shared_speed)):
             return _solve_batch(case, values, tolerance, max_iterations, metrics)
-        return _joined(_split(case, _pieces(values, scenarios, parts), tolerance, max_iterations, metrics, None,
-                              known), processes=parts)
+        return _joined(_timed_split(case, _pieces(values, scenarios, parts), tolerance, max_iterations, metrics, None,
+                                    known), processes=parts)
     first, each, bound = _probe(case, values, tolerance, max_iterations, metrics, lambda cost: _pays(
         cost / SECOND_PROBE_WORTH, scenarios - PROBE, _parts(workers, scenarios - PROBE)))
     measured = _remember(case, values, metrics, bound if each is None else each, each is not None, first[0])
+    if each is not None:  # the first probe's cost beyond its scenarios': the fixed cost of a batch
+        measured.fixed = max(0.0, (bound - each) * PROBE)
     probed = sum(len(r.table) for r in first)
     rest = _take(values, slice(probed, scenarios))
     parts = _parts(workers, scenarios - probed)
     if parts == 1 or each is None or not _pays(each, scenarios - probed, parts):
         return _joined([*first, _solve_batch(case, rest, tolerance, max_iterations, metrics, first[0].plan)])
-    return _joined([*first, *_split(case, _pieces(rest, scenarios - probed, parts), tolerance, max_iterations,
-                                    metrics, first[0].plan, measured)], processes=parts)
+    return _joined([*first, *_timed_split(case, _pieces(rest, scenarios - probed, parts), tolerance, max_iterations,
+                                          metrics, first[0].plan, measured)], processes=parts)
 
 
 def _parts(workers, scenarios) -> int:
@@ -179,12 +190,27 @@ def _parts(workers, scenarios) -> int:
     return max(1, min(int(workers), scenarios // PROCESS_MINIMUM))
 
 
-def _pays(each, scenarios, parts) -> bool:
+def _pays(each, scenarios, parts, shared_speed=SHARED_SPEED) -> bool:
     """Whether ``parts`` processes solve ``scenarios`` scenarios of ``each`` seconds sooner than
-    this process alone: the time saved, each x scenarios x (1 - 1/(parts x :data:`SHARED_SPEED`)),
+    this process alone: the time saved, each x scenarios x (1 - 1/(parts x ``shared_speed``)),
     beyond :data:`PROCESS_COST` for every other process."""
-    saved = each * scenarios * (1.0 - 1.0 / (parts * SHARED_SPEED))
+    saved = each * scenarios * (1.0 - 1.0 / (parts * shared_speed))
     return parts > 1 and saved > PROCESS_COST * (parts - 1)
+
+
+def _timed_split(case, jobs, tolerance, max_iterations, metrics, plan, measured: _Measured):
+    """:func:`_split`, timed: the speed its processes solved at while sharing the machine,
+    ``measured.each`` x its scenarios against its wall time less the batch's fixed cost (which
+    every part pays at once) and :data:`PROCESS_COST`, becomes the case's ``shared_speed`` for
+    its later batches (a split that did not pay is not made again)."""
+    start = time.perf_counter()
+    results = _split(case, jobs, tolerance, max_iterations, metrics, plan, measured)
+    seconds, parts = time.perf_counter() - start, len(jobs)
+    solving = seconds - measured.fixed - PROCESS_COST * (parts - 1)
+    if measured.exact and solving > 0.0:
+        alone = measured.each * sum(scenario_count(job) for job in jobs)
+        measured.shared_speed = min(1.0, alone / (parts * solving))
+    return results
 
 
 def _split(case, jobs, tolerance, max_iterations, metrics, plan, measured: _Measured):
