@@ -227,9 +227,13 @@ def log_property_correction(exponent, log_viscosity_ratio, cp_ratio=1.0, conduct
     n, log_mu, cp, k = as_floats(exponent, log_viscosity_ratio, cp_ratio, conductivity_ratio)
     log_phi = (1.0 / 3.0 - n) * log_mu
     if cp.ndim or cp != 1.0:  # a constant cp or conductivity leaves its term 0: no log over the batch
-        log_phi = log_phi + np.log(cp) / 3.0
+        term = np.log(cp)
+        term /= 3.0
+        log_phi = log_phi + term
     if k.ndim or k != 1.0:
-        log_phi = log_phi + np.log(k) * (2.0 / 3.0)
+        term = np.log(k)
+        term *= 2.0 / 3.0
+        log_phi = log_phi + term
     return log_phi
 
 

@@ -137,7 +137,12 @@ def _x_coth(x, scale, twice=None):
     zero = x == 0.0
     if not zero.any():  # the usual case: no limit to take (it would cost three array operations)
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            return x + 2.0 * x / np.expm1((2.0 * scale if twice is None else twice) * x)
+            below = np.asarray((2.0 * scale if twice is None else twice) * x)  # an array even for one value
+            np.expm1(below, out=below)
+            above = 2.0 * x
+            above /= below
+            above += x  # x + 2x / expm1(2 scale x), in place
+            return above
     safe = select(zero, 1.0, x)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         return select(zero, 1.0 / select(scale == 0.0, 1.0, scale), safe + 2.0 * safe / np.expm1(2.0 * scale * safe))
@@ -192,7 +197,11 @@ def _tema_e_denominator(ntu1, r1, n1, half, side1):
         )
     elif n1 == 1.0:  # two tube passes: the two middle terms cancel exactly (and n1 divides nothing)
         e = np.sqrt(r1 * r1 + 1.0)
-        denominator_times_ntu = ntu1 * (1.0 + r1) + _x_coth(ntu1, e / 2.0, twice=e) * e
+        denominator_times_ntu = 1.0 + r1  # NTU1 (1 + R1) + e NTU1 coth(e NTU1 / 2), in place
+        denominator_times_ntu *= ntu1
+        coth_term = _x_coth(ntu1, e / 2.0, twice=e)
+        coth_term *= e
+        denominator_times_ntu += coth_term
     else:
         e = np.sqrt(r1**2 + n1**2)
         middle = _x_coth(r1, half) - _x_coth(r1, half / n1) / n1

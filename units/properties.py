@@ -231,12 +231,19 @@ class PolynomialCp(FluidModel):
 def _horner(high_first, t):
     """The polynomial with coefficients ``high_first`` (highest power first) at ``t``: what
     ``np.polyval`` gives for finite ``t``, to the last digit, without its array of zeros and
-    first multiplication (these run in every pass of every rating)."""
+    first multiplication (these run in every pass of every rating), and in place: one new array,
+    not two a coefficient (the same operations in the same order: the same numbers).
+
+    >>> _horner(np.array([2.0, -1.0, 3.0]), np.array([0.0, 1.0, 2.0])).tolist()  # 2t² - t + 3
+    [3.0, 4.0, 9.0]
+    """
     if len(high_first) == 1:
         return np.full(np.shape(t), high_first[0])
-    y = high_first[0] * t + high_first[1]
+    y = high_first[0] * t
+    y += high_first[1]
     for c in high_first[2:]:
-        y = y * t + c
+        y *= t
+        y += c
     return y
 
 

@@ -49,7 +49,11 @@ def overall_coefficient(h_shell, h_tube, fouling_shell=0.0, fouling_tube=0.0, wa
     """
     hs, ht, rfs, rft, rw, ratio = as_floats(h_shell, h_tube, fouling_shell, fouling_tube, wall, diameter_ratio)
     with np.errstate(divide="ignore"):
-        total = 1.0 / hs + rfs + rw + rft * ratio + ratio / ht
+        total = 1.0 / hs  # summed in place, in the order written: 1/h_s + R_fs + R_w + R_ft·ratio + ratio/h_t
+        total += rfs
+        total += rw
+        total += rft * ratio
+        total += ratio / ht
     return select((hs <= 0.0) | (ht <= 0.0), 0.0, 1.0 / total)  # a film not known (NaN) leaves U not known
 
 

@@ -113,7 +113,9 @@ class SideFilm:
         log_mu_ratio = log_mu_ref - log_mu
         log_ratio = films.log_property_correction(self.exponent, -log_mu_ratio, fluid.cp(temperature) / cp_ref,
                                                   1.0 if k is None or k_ref is None else k / k_ref)
-        return h * np.exp(log_ratio), log_mu_ratio
+        factor = np.exp(log_ratio)
+        factor *= h  # h times the property factor, in place
+        return factor, log_mu_ratio
 
 
 class ScaledFilms:
