@@ -226,7 +226,7 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
     stopped = np.zeros(t_hot_in.shape, int)  # and the pass each stopped at
     previous_change, tolerance = None, own_tolerance(t_hot_in)
     for passes in range(1, MAX_PASSES + 1):
-        t_mean_hot, t_mean_cold = 0.5 * (t_hot_in + t_hot_x), 0.5 * (t_cold_in + t_cold_x)
+        t_mean_hot, t_mean_cold = _mean(t_hot_in, t_hot_x), _mean(t_cold_in, t_cold_x)
         if spec.ua is not None:
             ua = np.broadcast_to(np.asarray(spec.ua, dtype=float), t_hot_in.shape)
         else:
@@ -236,7 +236,7 @@ def rate_in_service(spec: ExchangerSpec, t_hot_in, t_cold_in, m_hot, m_cold, flu
         c_cold = m_cold * fluid_cold.mean_cp(t_cold_in, t_cold_x, h_in[1])
         with_details = details and (simple or (first_is_last and passes == 1))
         rating = _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, with_details)
-        change = np.maximum(np.abs(rating.t_hot_out_exchanger - t_hot_x), np.abs(rating.t_cold_out_exchanger - t_cold_x))
+        change = _largest_move(rating.t_hot_out_exchanger, t_hot_x, rating.t_cold_out_exchanger, t_cold_x)
         met = outlets_settled(change, t_hot_in, previous_change, tolerance)
         previous_change = change
         if members > 1:
@@ -271,8 +271,29 @@ def moved_outlets(last_inlets, last_outlets, t_hot_in, t_cold_in):
     usable = np.abs(span) > 1e-6 * (1.0 + np.abs(hot_in))
     safe = select(usable, span, 1.0)
     new_span = t_hot_in - t_cold_in
-    return (select(usable, t_hot_in - (hot_in - hot_out) / safe * new_span, hot_out),
-            select(usable, t_cold_in + (cold_out - cold_in) / safe * new_span, cold_out))
+    hot_drop = hot_in - hot_out  # carried in place: T_h,in - (T_h,in - T_h,out) / span x new span
+    hot_drop /= safe
+    hot_drop *= new_span
+    cold_rise = cold_out - cold_in  # and T_c,in + (T_c,out - T_c,in) / span x new span
+    cold_rise /= safe
+    cold_rise *= new_span
+    cold_rise += t_cold_in
+    return select(usable, t_hot_in - hot_drop, hot_out), select(usable, cold_rise, cold_out)
+
+
+def _mean(a, b):
+    """(a + b) / 2 as 0.5 x (a + b), in place: one new array."""
+    total = a + b
+    total *= 0.5
+    return total
+
+
+def _largest_move(hot_new, hot_old, cold_new, cold_old):
+    """max(|hot_new - hot_old|, |cold_new - cold_old|), in place: two new arrays, not five."""
+    hot, cold = np.asarray(hot_new - hot_old), np.asarray(cold_new - cold_old)  # arrays even for one value
+    np.abs(hot, out=hot)
+    np.abs(cold, out=cold)
+    return np.maximum(hot, cold, out=hot)
 
 
 def _rate(spec, t_hot_in, t_cold_in, c_hot, c_cold, ua, details):
