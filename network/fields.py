@@ -220,6 +220,15 @@ def nearest(word, options) -> str:
     return f" (did you mean '{close[0]}'?)" if close else ""
 
 
+def counted(count, noun: str, plural: str | None = None) -> str:
+    """``count`` and the noun, plural unless the count is one.
+
+    >>> counted(1, "step"), counted(3, "step"), counted(2, "tear iteration"), counted(0, "cell")
+    ('1 step', '3 steps', '2 tear iterations', '0 cells')
+    """
+    return f"{count:,} {noun if count == 1 else plural or noun + 's'}"
+
+
 def describe(value) -> str:
     if isinstance(value, dict):
         return "a mapping"

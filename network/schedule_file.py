@@ -43,7 +43,7 @@ from . import quantities as q
 from .case import Case
 from .changes import key_kind, study_number
 from .errors import CaseError, format_path
-from .fields import Fields, describe, nearest
+from .fields import Fields, counted, describe, nearest
 from .graph import Network, build_network
 from .monitoring_file import (DEFAULT_STEP, read_base_case, read_duration, read_economics, error_at, read_quantity,
                               relative_path, read_timestamp, load_monitoring, shown_duration, whole_steps)
@@ -323,8 +323,9 @@ def asymptote_problem(model: str, parameters: dict, initial: float, start: str) 
     if initial <= (r_f0 + r_inf) * (1.0 + 1e-12):
         return None
     return (f"{start} {initial:.4g} m²·K/W lies above the asymptote r_f0 + r_inf = {r_f0:.4g} + {r_inf:.4g} = "
-            f"{r_f0 + r_inf:.4g} m²·K/W: r_inf is the rise above r_f0, not the asymptote itself (an asymptote of "
-            f"{initial:.4g} or more needs r_inf >= {initial - r_f0:.4g})")
+            f"{r_f0 + r_inf:.4g} m²·K/W (all in m²·K/W, whatever units the file used): r_inf is the rise above r_f0, "
+            f"not the asymptote itself (an asymptote of {initial:.4g} or more needs r_inf >= {initial - r_f0:.4g} "
+            "m²·K/W)")
 
 
 def _cleaning_terms(f: Fields, case: Case, cleanable: list, step, steps, beyond: list) -> dict:
@@ -352,11 +353,12 @@ def _cleaning_terms(f: Fields, case: Case, cleanable: list, step, steps, beyond:
         chosen[tag] = t._replace(allowed=False)
         key = where.get(tag) or f.path + ("default", "duration")
         if not any(c.allowed for c in chosen.values()):  # nothing left to plan: refused at the first
-            raise f.doc.error(key, f"a cleaning of {t.duration_steps} steps of {shown_duration(step)} (its duration "
-                                   f"rounded up to whole steps) does not fit in the horizon of {steps} steps, nor does "
-                                   "any other exchanger's: no plan could clean anything")
-        beyond.append((format_path(key), f"{tag}'s cleaning, {t.duration_steps} steps of {shown_duration(step)} "
-                                         "(rounded up to whole steps): never cleaned"))
+            raise f.doc.error(key, f"a cleaning of {counted(t.duration_steps, 'step')} of {shown_duration(step)} (its "
+                                   f"duration rounded up to whole steps) does not fit in the horizon of "
+                                   f"{counted(steps, 'step')}, nor does any other exchanger's: no plan could clean "
+                                   "anything")
+        beyond.append((format_path(key), f"{tag}'s cleaning, {counted(t.duration_steps, 'step')} of "
+                                         f"{shown_duration(step)} (rounded up to whole steps): never cleaned"))
     return chosen
 
 

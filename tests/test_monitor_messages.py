@@ -31,7 +31,7 @@ def test_a_week_reading_zero_and_rows_without_readings_are_said(tmp_path, capsys
     assert (f"reading zero (out of operation, or a dead transmitter?) in 7 (FI-102; {days[20]:%Y-%m-%d} to "
             f"{days[26]:%Y-%m-%d})") in text
     assert "Plant data: 37 rows from" in text and "(2 more with no usable reading of any tag)" in text
-    assert "left out (time repeated): 1 rows (data file row 32)" in text
+    assert "left out (time repeated): 1 row (data file row 32)" in text
 
 
 def test_a_column_with_thousands_separators_is_refused_with_its_text(tmp_path, capsys):

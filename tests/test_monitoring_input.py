@@ -525,8 +525,8 @@ def test_a_repeated_time_keeps_the_first_copy_and_says_whether_the_copies_agree(
     history = read_history(load_monitoring(write_plant(tmp_path, GOOD_TAGS, data)))
     repeated = history.skipped[history.skipped["reason"] == "time repeated"].set_index("row")["detail"]
     assert repeated.to_dict() == {4: "the time of row 3, whose readings are kept; this row's are the same",
-                                  6: "the time of row 5, whose readings are kept; this row's differ in TI-1001: "
-                                     "which copy is right?"}
+                                  6: "the time of row 5, whose readings are kept; this row's differ: TI-1001 99.9 "
+                                     "against 30.0: which copy is right?"}
     lines = _skipped_lines(history.skipped)
     named = "    2026-01-01 01:00 (data file row 4): the time of row 3, whose readings are kept; this row's are the same"
     assert named in lines

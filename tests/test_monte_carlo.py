@@ -82,9 +82,11 @@ def test_percentiles_and_tornado_come_from_the_batch(study_file):
     row = result.percentiles.set_index("result").loc["fired_heater_duty_kw"]
     np.testing.assert_allclose([row.p10, row.p50, row.p90], np.percentile(duty, [10, 50, 90]), rtol=1e-12)
     assert "E-101.duty" in set(result.percentiles["result"]) and "E-101.cold_out" in set(result.percentiles["result"])
-    # a supply's outlet is its supply temperature, an input (drawn here: in the tornado), not a result
-    supplies = [f"{name}.outlet" for name in study.case().streams]
-    assert "crude.outlet" in supplies and not set(supplies) & set(result.percentiles["result"])
+    # a supply's outlet is its supply temperature, an input (drawn here: in the tornado), not a
+    # result; a splitter's repeats its inlet's, listed where it is made
+    repeating = [f"{name}.outlet" for name in (*study.case().streams, *study.case().splitters)]
+    assert {"crude.outlet", "crude_split.outlet"} <= set(repeating) & set(result.samples.columns)
+    assert not set(repeating) & set(result.percentiles["result"])
     swings = result.tornado["swing_kw"].abs().to_numpy()
     assert np.all(np.diff(swings) <= 0)
     top = result.tornado.iloc[0]

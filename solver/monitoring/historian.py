@@ -150,7 +150,8 @@ def read_history(monitoring: MonitoringFile) -> History:
     columns = [t.column for t in monitoring.tags.values()]
     readings = body.iloc[:, [position[c] for c in columns]].to_numpy(dtype=object)
     times, keep = _times(body.iloc[:, position[monitoring.time_column]], rows, skips.column(""), monitoring, name,
-                         lambda i, j: [c for c, x, y in zip(columns, readings[i], readings[j]) if not _same(x, y)])
+                         lambda i, j: [(c, x, y) for c, x, y in zip(columns, readings[i], readings[j])
+                                       if not _same(x, y)])
     values = {tag.name: _readings(body.iloc[:, position[tag.column]], tag, keep, skips.column(tag.column))
               for tag in monitoring.tags.values()}
     values = without_glitches(values, monitoring.tags.values(), keep, times, skips.column)
@@ -325,8 +326,8 @@ def _times(raw: pd.Series, rows: np.ndarray, skip, monitoring: MonitoringFile, n
     """(times, keep): the time of each row (NaT where unreadable) and the rows kept, whose
     times increase strictly; ``skip`` is told every other row. A row is compared with the
     latest time of the rows kept before it. A row repeating a kept row's time is skipped, the
-    first copy kept; ``differing(i, j)`` names the data columns whose readings differ between
-    rows i and j (positions), for the skipped row's detail."""
+    first copy kept; ``differing(i, j)`` gives (column, reading in i, reading in j) where rows i
+    and j (positions) read differently, for the skipped row's detail."""
     times = _parse_times(raw, rows, monitoring, name)
     missing = raw.isna().to_numpy()
     valid = ~np.isnat(times)
@@ -350,10 +351,20 @@ def _times(raw: pd.Series, rows: np.ndarray, skip, monitoring: MonitoringFile, n
 
 
 def _repeat_detail(kept_row, differ: list) -> str:
-    """Why a row repeating row ``kept_row``'s time is left out, and whether its readings agree."""
-    agree = ("this row's are the same" if not differ else
-             f"this row's differ in {', '.join(differ[:5])}{', ...' if len(differ) > 5 else ''}: which copy is right?")
-    return f"the time of row {kept_row}, whose readings are kept; {agree}"
+    """Why a row repeating row ``kept_row``'s time is left out, and whether its readings agree
+    (``differ``: column, kept reading, this row's reading, where they do not)."""
+    if not differ:
+        return f"the time of row {kept_row}, whose readings are kept; this row's are the same"
+    shown = ", ".join(f"{c} {_cell(y)} against {_cell(x)}" for c, x, y in differ[:3])
+    more = f" and {len(differ) - 3} more" if len(differ) > 3 else ""
+    return (f"the time of row {kept_row}, whose readings are kept; this row's differ: {shown}{more}: which copy is "
+            "right?")
+
+
+def _cell(value) -> str:
+    """A cell as the file wrote it (empty: 'empty'; a long text cut at 24 characters)."""
+    text = "empty" if pd.isna(value) else str(value).strip()
+    return text if len(text) <= 24 else text[:21] + "..."
 
 
 def _same(x, y) -> bool:

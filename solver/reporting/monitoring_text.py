@@ -18,6 +18,7 @@ from .console_tables import fixed, render
 from .display_units import Display, by_quantity, current
 from .text import boxed, fitted, note_lines
 
+from hxtrain.network.fields import counted
 from hxtrain.network.monitoring_file import shown_duration
 from hxtrain.solver.monitoring.excursions import EXCURSION
 from hxtrain.solver.monitoring.historian import HELD, IMPOSSIBLE, SPIKE, TIME_REPEATED
@@ -238,8 +239,8 @@ def _skipped_lines(skipped: pd.DataFrame) -> list[str]:
             most = ""
         numbers = rows.loc[~cells, "row"].drop_duplicates()
         shown = ", ".join(map(str, numbers.head(SPIKES_SHOWN))) + (", ..." if len(numbers) > SPIKES_SHOWN else "")
-        parts = (([f"{whole} rows (data file row{'s' if whole > 1 else ''} {shown})"] if whole else [])
-                 + ([f"{int(cells.sum())} cells{most}"] if cells.any() else []))
+        parts = (([f"{counted(whole, 'row')} (data file row{'s' if whole > 1 else ''} {shown})"] if whole else [])
+                 + ([f"{counted(int(cells.sum()), 'cell')}{most}"] if cells.any() else []))
         lines.append(f"  left out ({reason}): {' and '.join(parts)}")
         if reason in NAMED_ONE_BY_ONE:  # each named, with why (a spike: its neighbours)
             lines += [part for r in rows.head(SPIKES_SHOWN).itertuples() for part in textwrap.wrap(

@@ -28,6 +28,7 @@ import numpy as np
 
 from hxtrain.network import load_case
 from hxtrain.network.case import case_from_document
+from hxtrain.network.fields import counted
 from hxtrain.network.reading import Document, read_document
 
 from hxtrain.solver.simulation.batch import simulate_batch
@@ -187,7 +188,7 @@ def benchmark_text(figures) -> str:
         lines += [
             f"  {row['label']}",
             f"    batch, 1 process:  {row['batch_seconds']:7.2f} s = {row['batch_rate']:10,.0f} scenario-solves/s "
-            f"({row['iterations']} tear iterations)",
+            f"({counted(row['iterations'], 'tear iteration')})",
             *([f"    batch, {split}: {row['workers_seconds']:7.2f} s = {row['workers_rate']:10,.0f} "
                f"scenario-solves/s ({row['workers_rate'] / row['batch_rate']:.2f} x 1 process; first runs, where it "
             f"probes the case's cost: {row['first_seconds'] / row['workers_first_seconds']:.2f} x)"]

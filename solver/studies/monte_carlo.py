@@ -113,18 +113,19 @@ def run_uncertainty(study, samples=None, seed=None) -> UncertaintyResult:
     batch = simulate_batch(case, drawn, metrics=True)
     table = batch.table
     ok = table["success"].to_numpy(bool)
-    percentiles = _percentiles(table[ok], _result_columns(table, case.streams))
+    percentiles = _percentiles(table[ok], _result_columns(table, [*case.streams, *case.splitters]))
     tornado, gaps = _tornado(case, drawn, table, ok)
     return UncertaintyResult(table, percentiles, tornado, seed, int(np.sum(~ok)), gaps)
 
 
-def _result_columns(table, supplies=()) -> list:
+def _result_columns(table, repeating=()) -> list:
     """Totals and heater inlets first, then each unit's duty and outlets; not the outlets of the
-    ``supplies`` (their supply temperatures: inputs, constant unless drawn, and then in the
-    tornado)."""
+    units ``repeating`` what enters them: supplies (their supply temperatures, inputs: constant
+    unless drawn, and then in the tornado) and splitters (their inlet's temperature, listed where
+    it is made)."""
     units = [c for c in table.columns if "." in c and not c.startswith(("streams.", "exchangers.", "heaters.",
                                                                         "coolers.", "splitters."))]
-    inputs = {f"{name}.outlet" for name in supplies}
+    inputs = {f"{name}.outlet" for name in repeating}
     named = [c for c in units if c.rsplit(".", 1)[1] in ("duty", "hot_out", "cold_out", "outlet") and c not in inputs]
     headline = [c for c in table.columns if c in TOTALS or c.endswith("_inlet_c")]
     return headline + named
