@@ -323,9 +323,9 @@ def asymptote_problem(model: str, parameters: dict, initial: float, start: str) 
     if initial <= (r_f0 + r_inf) * (1.0 + 1e-12):
         return None
     return (f"{start} {initial:.4g} m²·K/W lies above the asymptote r_f0 + r_inf = {r_f0:.4g} + {r_inf:.4g} = "
-            f"{r_f0 + r_inf:.4g} m²·K/W (all in m²·K/W, whatever units the file used): r_inf is the rise above r_f0, "
-            f"not the asymptote itself (an asymptote of {initial:.4g} or more needs r_inf >= {initial - r_f0:.4g} "
-            "m²·K/W)")
+            f"{r_f0 + r_inf:.4g} m²·K/W (all in m²·K/W, whatever units the file used): r_inf is the rise above "
+            f"r_f0, not the asymptote itself (an asymptote of {initial:.4g} or more needs r_inf >= "
+            f"{initial - r_f0:.4g} m²·K/W)")
 
 
 def _cleaning_terms(f: Fields, case: Case, cleanable: list, step, steps, beyond: list) -> dict:
