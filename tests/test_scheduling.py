@@ -393,3 +393,12 @@ def test_each_baselines_limits_are_tabled_and_its_new_ones_named(tmp_path):
     text = " ".join(_new_baseline_limits(made))
     assert "every 26 steps: E-103 temperature_cross in 71 steps (worst 2027-08-02)" in text
     assert "E-112" not in text and "no cleaning:" not in text
+
+
+def test_the_laws_table_lists_the_exchangers_in_the_cases_order(tmp_path):
+    """Laws written in the file in another order (X-3 before X-1), or written beside fitted ones
+    (a trial saw a written law listed after all the fitted ones): the table of where each law
+    came from follows the case's order of exchangers."""
+    small_schedule(tmp_path, ("X-3", "X-1"), 4)
+    _, sources = build_horizon(load_schedule(tmp_path / "schedule.yaml"))
+    assert list(sources.index) == ["X-1", "X-3"]

@@ -136,7 +136,9 @@ def build_horizon(schedule: ScheduleFile, progress=None) -> tuple[Horizon, pd.Da
     base = functools.cache(lambda: evaluate(schedule.case))  # the case as written: evaluated once, if needed
     _check_threshold_conditions(schedule, horizon, written, base)
     _check_furnace_limit(schedule, base)
-    return horizon, sources.set_index("exchanger")
+    order = {name: k for k, name in enumerate(schedule.case.exchangers)}  # the table in the case's order
+    return horizon, sources.sort_values("exchanger", key=lambda tags: tags.map(order), kind="stable").set_index(
+        "exchanger")
 
 
 def _check_furnace_limit(schedule: ScheduleFile, base):
