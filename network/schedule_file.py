@@ -352,7 +352,7 @@ def _cleaning_terms(f: Fields, case: Case, cleanable: list, step, steps, beyond:
     for tag, t in too_long.items():
         chosen[tag] = t._replace(allowed=False)
         key = where.get(tag) or f.path + ("default", "duration")
-        if not any(c.allowed for c in chosen.values()):  # nothing left to plan: refused at the first
+        if not any(c.allowed for c in chosen.values()):  # nothing left to plan: refused at this one's key
             raise f.doc.error(key, f"a cleaning of {counted(t.duration_steps, 'step')} of {shown_duration(step)} (its "
                                    f"duration rounded up to whole steps) does not fit in the horizon of "
                                    f"{counted(steps, 'step')}, nor does any other exchanger's: no plan could clean "

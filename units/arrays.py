@@ -59,13 +59,7 @@ def sum_last(x):
     >>> sum_last(np.array([[1.0, 2.0, 3.0], [4.0, 5.0, 6.0]])).tolist()
     [6.0, 15.0]
     """
-    x = np.asarray(x, dtype=float)
-    if x.shape[-1] == 0:
-        return np.zeros(x.shape[:-1])
-    total = x[..., 0] + 0.0  # a new array, never a view of x
-    for k in range(1, x.shape[-1]):
-        total = total + x[..., k]
-    return total
+    return _fold_last(x, lambda column: column + 0.0, np.add)  # + 0.0: a new array, never a view of x
 
 
 def mean_last(x):
@@ -85,10 +79,16 @@ def abs_max_last(x):
     >>> abs_max_last(np.array([[1.0, -3.0], [2.0, np.nan]])).tolist()
     [3.0, nan]
     """
+    return _fold_last(x, np.abs, lambda largest, column: np.maximum(largest, np.abs(column)))
+
+
+def _fold_last(x, first, combine):
+    """``first`` of the last axis's first column, ``combine``d with each further column in turn
+    (zeros where the axis is empty)."""
     x = np.asarray(x, dtype=float)
     if x.shape[-1] == 0:
         return np.zeros(x.shape[:-1])
-    largest = np.abs(x[..., 0])
+    result = first(x[..., 0])
     for k in range(1, x.shape[-1]):
-        largest = np.maximum(largest, np.abs(x[..., k]))
-    return largest
+        result = combine(result, x[..., k])
+    return result

@@ -51,11 +51,17 @@ __all__ = [
 
 
 
-def _within_bounds(p, r1):
+def _within_bounds(p, r1, limit=None):
     """Clip P1 to its physical range [0, min(1, 1/R1)] = [0, 1/max(1, R1)]: round-off can put a
     saturated P a few ulp above its limit, which would make the F factor's logarithm blow up
-    (np.minimum and np.maximum: the same numbers as np.clip, at two thirds of its cost)."""
-    return np.minimum(np.maximum(p, 0.0), 1.0 / np.fmax(r1, 1.0))
+    (np.minimum and np.maximum: the same numbers as np.clip, at two thirds of its cost).
+    ``limit``: :func:`_p_limit` of ``r1``, where the caller has it."""
+    return np.minimum(np.maximum(p, 0.0), _p_limit(r1) if limit is None else limit)
+
+
+def _p_limit(r1):
+    """P1's largest value at R1, min(1, 1/R1), as 1/max(1, R1) (1 where R1 is not a number)."""
+    return 1.0 / np.fmax(r1, 1.0)
 
 
 def _one_minus_exp_over_x(x):
@@ -135,17 +141,15 @@ def _x_coth(x, scale, twice=None):
     overflows to inf), and on a batch ~25 % cheaper than numpy's tanh. ``twice``: 2 x scale where
     the caller has it (the same number: doubling and halving are exact in binary floating point)."""
     zero = x == 0.0
-    if not zero.any():  # the usual case: no limit to take (it would cost three array operations)
-        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            below = np.asarray((2.0 * scale if twice is None else twice) * x)  # an array even for one value
-            np.expm1(below, out=below)
-            above = 2.0 * x
-            above /= below
-            above += x  # x + 2x / expm1(2 scale x), in place
-            return above
-    safe = select(zero, 1.0, x)
+    limit_taken = zero.any()  # usually not: then no limit to take (three array operations)
+    safe = select(zero, 1.0, x) if limit_taken else x
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        return select(zero, 1.0 / select(scale == 0.0, 1.0, scale), safe + 2.0 * safe / np.expm1(2.0 * scale * safe))
+        below = np.asarray((2.0 * scale if twice is None else twice) * safe)  # an array even for one value
+        np.expm1(below, out=below)
+        above = 2.0 * safe
+        above /= below
+        above += safe  # x + 2x / expm1(2 scale x), in place
+        return select(zero, 1.0 / select(scale == 0.0, 1.0, scale), above) if limit_taken else above
 
 
 def p_tema_e(ntu1, r1, tube_passes=2, side1="shell"):
@@ -375,10 +379,10 @@ def p_shells_in_series(p_one, r1, shells):
         safe = select(zero, 1.0, y)
         psi = select(zero, float(shells), np.expm1(shells * np.log1p(safe)) / safe)
         p = 1.0 / (1.0 + 1.0 / (u * psi))
-        limit = 1.0 / np.fmax(r1, 1.0)  # P1's bound, min(1, 1/R1), as in _within_bounds
+        limit = _p_limit(r1)
     # a unit already at its limit (P = 1, or P = 1/R for R > 1) keeps the series there
     p = select(p_one * np.maximum(r1, 1.0) >= 1.0, limit, select(p_one <= 0.0, 0.0, p))
-    return np.minimum(np.maximum(p, 0.0), limit)
+    return _within_bounds(p, r1, limit)
 
 
 def ntu_counterflow(p1, r1):

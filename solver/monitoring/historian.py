@@ -148,9 +148,9 @@ def read_history(monitoring: MonitoringFile) -> History:
     rows = np.arange(len(body)) + 2  # file rows: the header is row 1
     skips = _Skips()
     columns = [t.column for t in monitoring.tags.values()]
-    readings = body.iloc[:, [position[c] for c in columns]].to_numpy(dtype=object)
+    places = [position[c] for c in columns]  # the rows of a repeated time are compared only where one is
     times, keep = _times(body.iloc[:, position[monitoring.time_column]], rows, skips.column(""), monitoring, name,
-                         lambda i, j: [(c, x, y) for c, x, y in zip(columns, readings[i], readings[j])
+                         lambda i, j: [(c, x, y) for c, x, y in zip(columns, body.iloc[i, places], body.iloc[j, places])
                                        if not _same(x, y)])
     values = {tag.name: _readings(body.iloc[:, position[tag.column]], tag, keep, skips.column(tag.column))
               for tag in monitoring.tags.values()}

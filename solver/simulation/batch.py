@@ -110,11 +110,12 @@ def _remembered(case, values, metrics) -> _Measured | None:
     return _MEASURED.get((id(case), tuple(sorted(values)), bool(metrics)))
 
 
-def _remember(case, values, metrics, each, exact, probe) -> _Measured:
+def _remember(case, values, metrics, each, exact, probe, fixed=0.0) -> _Measured:
     key = (id(case), tuple(sorted(values)), bool(metrics))
     if key not in _MEASURED:
         weakref.finalize(case, _MEASURED.pop, key, None)
-    _MEASURED[key] = _Measured(each, exact, probe.temperature.shape[1], part_transfer.float_columns(probe.table))
+    _MEASURED[key] = _Measured(each, exact, probe.temperature.shape[1], part_transfer.float_columns(probe.table),
+                               fixed)
     return _MEASURED[key]
 
 
@@ -172,9 +173,9 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
                                     known), processes=parts)
     first, each, bound = _probe(case, values, tolerance, max_iterations, metrics, lambda cost: _pays(
         cost / SECOND_PROBE_WORTH, scenarios - PROBE, _parts(workers, scenarios - PROBE)))
-    measured = _remember(case, values, metrics, bound if each is None else each, each is not None, first[0])
-    if each is not None:  # the first probe's cost beyond its scenarios': the fixed cost of a batch
-        measured.fixed = max(0.0, (bound - each) * PROBE)
+    # the first probe's cost beyond its scenarios' is the fixed cost of a batch
+    measured = _remember(case, values, metrics, bound if each is None else each, each is not None, first[0],
+                         0.0 if each is None else max(0.0, (bound - each) * PROBE))
     probed = sum(len(r.table) for r in first)
     rest = _take(values, slice(probed, scenarios))
     parts = _parts(workers, scenarios - probed)
