@@ -386,3 +386,18 @@ def test_a_cleaning_longer_than_the_horizon_leaves_that_exchanger_uncleaned_and_
     assert plan.cleaning["E-110"] == CleaningTerms(45000.0, 3, False)
     assert plan.beyond_horizon == [("cleaning.default.duration",
                                     "E-110's cleaning, 3 steps of 1 week (rounded up to whole steps): never cleaned")]
+
+
+def test_an_asymptote_below_the_cases_fouling_is_refused_where_the_plant_data_give_none():
+    """Beside plant data, a law without ``initial`` is checked against its asymptote only once its
+    start is known; where the plant data give no fouling for that exchanger the start is the
+    case's (E-104: 0.00158), and an asymptote below it is refused as it is without plant data
+    (it had passed)."""
+    from hxtrain.network.schedule_file import FoulingLaw
+    from hxtrain.solver.scheduling.setup import written_laws
+
+    plan = schedule()
+    case_fouling = plan.fouling["E-104"].initial
+    plan.fouling["E-104"] = FoulingLaw("asymptotic", {"r_f0": 0.0, "r_inf": 0.001, "tau": 90.0}, case_fouling, False)
+    with pytest.raises(CaseError, match="the case's fouling \\(the default initial\\) 0.001581 m²·K/W lies above"):
+        written_laws(plan, {})

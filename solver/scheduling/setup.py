@@ -72,13 +72,14 @@ def written_laws(schedule: ScheduleFile, measured=None) -> tuple[dict, pd.DataFr
     laws, rows = {}, []
     for name, law in schedule.fouling.items():
         initial, start = float(law.initial), ""
-        if not law.initial_written:
-            start = " (no initial given: the case's fouling)"
+        if not law.initial_written:  # the start chosen here is checked here, whichever it is
+            start, words = " (no initial given: the case's fouling)", "the case's fouling (the default initial)"
             if name in measured:
-                initial, start = float(measured[name].initial), " (no initial given: the plant data's fouling now)"
-                problem = asymptote_problem(law.model, law.parameters, initial, "the plant data's fouling now")
-                if problem:
-                    raise schedule.error(("fouling", "exchangers", name, "r_inf"), problem)
+                initial = float(measured[name].initial)
+                start, words = " (no initial given: the plant data's fouling now)", "the plant data's fouling now"
+            problem = asymptote_problem(law.model, law.parameters, initial, words)
+            if problem:
+                raise schedule.error(("fouling", "exchangers", name, "r_inf"), problem)
         laws[name] = ExchangerLaw(law.model, dict(law.parameters), dict(law.parameters), initial)
         rows.append((name, law.model, f"written in the schedule file{start}", initial))
     return laws, pd.DataFrame(rows, columns=SOURCE_COLUMNS)
