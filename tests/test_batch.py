@@ -125,9 +125,8 @@ def test_a_batch_split_over_processes_equals_one_batch(start, monkeypatch):
 
     import hxtrain.solver.simulation.batch as batch_module
 
-    # small probes and parts, and splitting always judged worth it, so 30 scenarios really split
-    monkeypatch.setattr(batch_module, "PROBE", 4)
-    monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 4)  # probes of 4 and 16, then two parts of 5
+    # small parts, and splitting always judged worth it, so 30 scenarios really split
+    monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 4)
     monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
     if start == "spawn":
         monkeypatch.setattr(batch_module, "_process_context", lambda: multiprocessing.get_context("spawn"))
@@ -139,10 +138,11 @@ def test_a_batch_split_over_processes_equals_one_batch(start, monkeypatch):
             super().__init__(workers, **kwargs)
 
     monkeypatch.setattr(batch_module, "ProcessPoolExecutor", Counted)
-    path = demo_case_path("crude_preheat")
+    case = batch_module.as_case(demo_case_path("crude_preheat"))
     values = {"streams.crude.flow": np.linspace(70.0, 110.0, 30), "exchangers.E-110.bypass.cold": np.linspace(0, 0.3, 30)}
-    whole = simulate_batch(path, values)
-    split = simulate_batch(path, values, workers=2)
+    whole = simulate_batch(case, values)
+    assert simulate_batch(case, values, workers=2).processes == 1  # the case's first: solved here and timed
+    split = simulate_batch(case, values, workers=2)
     assert started == [1]  # one worker process beside this one
     assert len(split.table) == 30 and split.table["converged"].all()
     np.testing.assert_array_equal(split.table["streams.crude.flow"], values["streams.crude.flow"])

@@ -1,6 +1,6 @@
-"""The batch split: a worker's part comes back through shared memory (``part_transfer``); the
-probe times a scenario without the batch's fixed cost; a batch is split only where the time
-saved exceeds what the processes cost (``batch._pays``).
+"""The batch split: a worker's part comes back through shared memory (``part_transfer``); a
+case's first split-allowed batch is solved here and timed, without the batch's fixed cost; a
+later batch is split only where the time saved exceeds what the processes cost (``batch._pays``).
 
 The independent path is the batch solved in one process: a split batch must give the same
 table (every column, in order, the same dtypes) and temperatures.
@@ -61,17 +61,24 @@ def test_the_blocks_are_freed_when_a_part_fails():
     assert _shared_blocks() == before
 
 
+def _timed_then_split(case, values, **options):
+    """A case's first split-allowed batch is solved here and timed; the second is the split."""
+    case = batch_module.as_case(case)
+    first = simulate_batch(case, values, workers=2, **options)
+    assert first.processes == 1 and batch_module._remembered(case, values, options.get("metrics", False))
+    return simulate_batch(case, values, workers=2, **options)
+
+
 def test_a_split_batch_with_metrics_equals_one_batch_and_leaves_no_block(monkeypatch):
     """Every named result of every unit (``metrics``: one float column each) comes back from the
     worker through its block: the table equals the one-process table exactly."""
-    monkeypatch.setattr(batch_module, "PROBE", 4)
     monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 4)
     monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
     values = {"streams.crude.flow": np.linspace(70.0, 110.0, 30)}
     path = demo_case_path("crude_preheat")
     before = _shared_blocks()
     whole = simulate_batch(path, values, metrics=True)
-    split = simulate_batch(path, values, metrics=True, workers=2)
+    split = _timed_then_split(path, values, metrics=True)
     assert split.processes == 2 and _shared_blocks() == before
     assert list(split.table.columns) == list(whole.table.columns)
     assert (split.table.dtypes == whole.table.dtypes).all()
@@ -127,98 +134,120 @@ def fake_solves(monkeypatch):
     return costing
 
 
-def test_the_probe_times_a_scenario_without_the_fixed_cost_of_a_batch(fake_solves):
-    """A batch costs a fixed time besides its time per scenario; only the latter is split, so
-    the probe must not take the fixed cost for a cost per scenario (30 ms a batch, 14 µs a
-    scenario), nor the first probe's finding of the calculation order (10 ms, once; the second
-    reuses the order) for a saving."""
-    fake_solves(0.030, 14e-6, planning=0.010)
+def _consistent(fake_solves, each, planning=0.0):
+    """Fake batches whose fixed cost is :data:`batch.FIXED_COST_SCENARIOS` scenarios' worth."""
+    return fake_solves(each * batch_module.FIXED_COST_SCENARIOS, each, planning)
+
+
+def test_a_first_batch_is_solved_here_whole_and_timed(fake_solves):
+    """Nothing is known of a case before its first split-allowed batch, and a timing made apart
+    from the batch would be a batch of its own, with its fixed cost (about a sixth of a batch of
+    20,000 on the crude demo): the first batch is solved here, whole (no process started), and
+    timed in CPU time less the finding of the calculation order (10 ms here, once a batch): one
+    scenario's cost is its time over its scenarios and a batch's fixed cost in scenarios."""
+    solved = _consistent(fake_solves, 14e-6, planning=0.010)
+    case = batch_module.as_case(demo_case_path("crude_preheat"))
     values = {"streams.crude.flow": np.linspace(70.0, 110.0, 20_000)}
-    probes, each, _ = batch_module._probe(None, values, None, None, False, lambda cost: True)
-    assert [len(r.table) for r in probes] == [batch_module.PROBE, batch_module.PROBE_GROWTH * batch_module.PROBE]
-    assert each == pytest.approx(14e-6, rel=1e-6)
+    assert simulate_batch(case, values, workers=2).processes == 1 and solved == [20_000]
+    assert batch_module._remembered(case, values, False).each == pytest.approx(14e-6, rel=1e-9)
 
 
-def test_a_first_probe_that_cannot_pay_well_is_not_followed_by_a_second(fake_solves):
-    """The first probe's cost per scenario includes the batch's fixed cost, so it overstates the
-    saving; where even that saving is small (fixed cost 20 ms, 4 µs a scenario, 20,000
-    scenarios), no second probe is spent on it and the batch stays in this process."""
-    solved = fake_solves(0.020, 4e-6)
-    result = simulate_batch(demo_case_path("crude_preheat"), {"streams.crude.flow": np.linspace(70.0, 110.0, 20_000)},
-                            workers=2)
-    assert solved == [batch_module.PROBE, 20_000 - batch_module.PROBE] and result.processes == 1
-
-
-def test_a_later_batch_of_the_same_case_is_decided_without_a_probe(fake_solves):
-    """A study sends many batches of one case; the probe is a batch with its own fixed cost,
-    lost wherever the batch then stays in one process (20 ms of a 100 ms batch here). The first
-    batch's probe is remembered for the case object and its varied keys: a later batch that it
-    says stays here is solved whole at once. Another case, or other varied keys, probe again."""
-    solved = fake_solves(0.020, 4e-6)
+def test_a_case_whose_split_cannot_pay_stays_whole_in_this_process(fake_solves):
+    """4 µs a scenario (the crude demo's fixed-property form): two processes would save ~0.03 s
+    of a batch of 20,000, less than a process costs; every batch stays here, whole, and the
+    cost of a scenario is the least any of them measured (a process's first batches also pay
+    for the growth of its heap)."""
+    solved = _consistent(fake_solves, 4e-6)
     case = batch_module.as_case(demo_case_path("crude_preheat"))
     values = {"streams.crude.flow": np.linspace(70.0, 110.0, 20_000)}
     simulate_batch(case, values, workers=2)
-    assert solved == [batch_module.PROBE, 20_000 - batch_module.PROBE]
-    solved.clear()
-    assert simulate_batch(case, values, workers=2).processes == 1
-    assert solved == [20_000]
-    solved.clear()
+    known = batch_module._remembered(case, values, False)
+    known.each *= 1.5  # as a first batch in a cold process might have measured
+    for _ in range(2):
+        assert simulate_batch(case, values, workers=2).processes == 1
+    assert solved == [20_000] * 3 and known.each == pytest.approx(4e-6, rel=1e-9)
+
+
+def test_what_a_batch_measured_decides_only_its_case_and_varied_keys(fake_solves, monkeypatch):
+    """A study sends many batches of one case: what the first measured is kept for the case
+    object and its varied keys. Another case, or other varied keys, are timed again (solved
+    whole here), and no process is started for them."""
+    solved = _consistent(fake_solves, 20e-6)
+    monkeypatch.setattr(batch_module, "_split", lambda *args: pytest.fail("split before its case was timed"))
+    case = batch_module.as_case(demo_case_path("crude_preheat"))
+    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 20_000)}
+    simulate_batch(case, values, workers=2)
     simulate_batch(case, {"streams.crude.supply_temperature": np.linspace(20.0, 40.0, 20_000)}, workers=2)
     simulate_batch(batch_module.as_case(demo_case_path("crude_preheat")), values, workers=2)
-    assert solved == [batch_module.PROBE, 20_000 - batch_module.PROBE] * 2
+    simulate_batch(case, values, workers=2, metrics=True)
+    assert solved == [20_000] * 4
 
 
-def test_a_remembered_cost_that_says_split_splits_the_whole_batch_alike(monkeypatch):
-    """Where the first batch's probes found a split pays, a later batch is split from its first
-    scenario (no probe solved here first): the same table and temperatures as one process."""
-    monkeypatch.setattr(batch_module, "PROBE", 4)
+def test_a_timed_case_splits_its_later_batches_alike(monkeypatch):
+    """Where the case's first batch measured that a split pays, its later batches are split from
+    their first scenario: the same table and temperatures as one process."""
     monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 4)
     monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
-    monkeypatch.setattr(batch_module, "CLEARLY_WORTH", 0.0)
     case = batch_module.as_case(demo_case_path("crude_preheat"))
     values = {"streams.crude.flow": np.linspace(70.0, 110.0, 30)}
     whole = simulate_batch(case, values)
-    first = simulate_batch(case, values, workers=2)
-    known = batch_module._remembered(case, values, False)
-    assert first.processes == 2 and known is not None and known.exact
-    solved = []
-    monkeypatch.setattr(batch_module, "_probe", lambda *args: solved.append(args) or pytest.fail("probed again"))
-    later = simulate_batch(case, values, workers=2)
-    assert later.processes == 2 and not solved
+    later = _timed_then_split(case, values)
+    assert later.processes == 2
     pd.testing.assert_frame_equal(later.table, whole.table, check_exact=False, rtol=1e-11, atol=1e-9)
     np.testing.assert_allclose(later.temperature, whole.temperature, rtol=0, atol=1e-9)
+
+
+def _parts_in_turn(monkeypatch, clock, overlap):
+    """Replace the split by the parts solved one after the other on the fake clock, then the
+    clock moved back by ``overlap`` of a part's time (the time two parts ran at once)."""
+    solve, plans = batch_module._solve_batch, []
+
+    def parts(case, jobs, tolerance, max_iterations, metrics, plan, measured):
+        plans.append(plan)
+        start = clock[0]
+        results = [solve(case, job, tolerance, max_iterations, metrics, plan) for job in jobs]
+        clock[0] -= overlap * (clock[0] - start) / len(jobs)
+        return results
+
+    monkeypatch.setattr(batch_module, "_split", parts)
+    return plans
 
 
 @pytest.mark.parametrize("overlap, splits_again", [(0.0, False), (0.9, True)])
 def test_a_split_that_did_not_pay_is_not_made_again(fake_solves, monkeypatch, overlap, splits_again):
     """How fast a case's processes solve while sharing the machine is measured on its first
-    split: its wall time, less a batch's fixed cost and the processes' own, against the probes'
-    cost per scenario. A batch that is mostly memory traffic slows when two share the memory
-    (the crude demo's fixed-property form at 100,000 scenarios measured 0.37 of its speed alone,
-    and two processes took 1.13 times as long as one); where the measured speed says a split
-    does not pay, the case's later batches stay in one process. Here a batch costs 20 ms and
-    20 µs a scenario; the two parts of the first split's 16,000 scenarios are solved one after
-    the other (``overlap`` 0: no gain) or nine tenths of each part at the same time as the
-    other's."""
-    solved = fake_solves(0.020, 20e-6)
-    clock, solve = fake_solves.clock, batch_module._solve_batch
-
-    def parts(case, jobs, tolerance, max_iterations, metrics, plan, measured):
-        start = clock[0]
-        results = [solve(case, job, tolerance, max_iterations, metrics, plan) for job in jobs]
-        clock[0] -= overlap * (clock[0] - start) / len(jobs)  # the time two parts ran at once
-        return results
-
-    monkeypatch.setattr(batch_module, "_split", parts)
+    split: its wall time, less a batch's fixed cost and the processes' own, against the cost per
+    scenario its batches solved here measured. A batch that is mostly memory traffic slows when
+    two share the memory (the crude demo's fixed-property form at 100,000 scenarios measured
+    0.56 of its speed alone); where the measured speed says a split does not pay, the case's
+    later batches stay in one process. Here a scenario costs 20 µs; the two parts of the split
+    are solved one after the other (``overlap`` 0: no gain) or nine tenths of each part at the
+    same time as the other's."""
+    solved = _consistent(fake_solves, 20e-6)
+    _parts_in_turn(monkeypatch, fake_solves.clock, overlap)
     monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
     case = batch_module.as_case(demo_case_path("crude_preheat"))
     values = {"streams.crude.flow": np.linspace(70.0, 110.0, 20_000)}
+    assert simulate_batch(case, values, workers=2).processes == 1
     assert simulate_batch(case, values, workers=2).processes == 2
-    rest = 20_000 - (1 + batch_module.PROBE_GROWTH) * batch_module.PROBE
-    known = batch_module._remembered(case, values, False)
-    assert known.exact and known.each == pytest.approx(20e-6) and known.fixed == pytest.approx(0.020)
-    wall = 2 * (0.020 + 20e-6 * rest / 2) * (1.0 - overlap / 2)
-    assert known.shared_speed == pytest.approx(20e-6 * rest / (2 * (wall - 0.020)), rel=1e-9)
+    known, fixed = batch_module._remembered(case, values, False), 20e-6 * batch_module.FIXED_COST_SCENARIOS
+    assert known.fixed == pytest.approx(fixed)
+    wall = 2 * (fixed + 20e-6 * 10_000) * (1.0 - overlap / 2)
+    assert known.shared_speed == pytest.approx(20e-6 * 20_000 / (2 * (wall - fixed)), rel=1e-9)
     solved.clear()
     assert simulate_batch(case, values, workers=2).processes == (2 if splits_again else 1)
     assert solved == ([10_000, 10_000] if splits_again else [20_000])
+
+
+def test_a_large_first_batch_is_timed_on_its_first_part_and_the_rest_decided_by_it(fake_solves, monkeypatch):
+    """A first batch of at least LEARNING_BATCHES x LEARNING_PART scenarios: its first part is
+    solved here and timed (its own fixed cost then a small share of the batch), and the rest is
+    split where that timing says it pays, reusing the first part's calculation order."""
+    solved = _consistent(fake_solves, 20e-6, planning=0.010)
+    plans = _parts_in_turn(monkeypatch, fake_solves.clock, 0.9)
+    monkeypatch.setattr(batch_module, "LEARNING_PART", 5_000)
+    case = batch_module.as_case(demo_case_path("crude_preheat"))
+    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 20_000)}
+    result = simulate_batch(case, values, workers=2)
+    assert solved == [5_000, 7_500, 7_500] and result.processes == 2 and plans == [["the order"]]
+    np.testing.assert_array_equal(result.table["n"], np.concatenate([np.arange(5_000)] + [np.arange(7_500)] * 2))

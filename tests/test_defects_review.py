@@ -291,7 +291,7 @@ from concurrent.futures import ProcessPoolExecutor
 signal.signal(signal.SIGINT, signal.default_int_handler)  # as a terminal gives it
 import hxtrain.solver.cli.main as cli
 import hxtrain.solver.simulation.batch as batch
-batch.PROCESS_COST = 0.0  # split whatever the probe measures, so that the workers are there to interrupt
+batch.PROCESS_COST = 0.0  # split whatever the first timed batch measured, so that the workers are there to interrupt
 submit = ProcessPoolExecutor.map
 
 
@@ -303,7 +303,7 @@ def map_then_ctrl_c(self, *args, **kwargs):
 
 
 ProcessPoolExecutor.map = map_then_ctrl_c
-sys.exit(cli.main(["benchmark", "--scenarios", "14000", "--loop", "1", "--workers", "2"]))  # >= 12,500: probes + two parts
+sys.exit(cli.main(["benchmark", "--scenarios", "14000", "--loop", "1", "--workers", "2"]))  # the second split-allowed run: two parts
 """
 
 

@@ -209,14 +209,13 @@ def test_the_demos_keep_their_tear_iteration():
 
 
 def test_a_cheap_batch_stays_in_one_process_and_a_costly_one_splits(monkeypatch):
-    """The batch times its first scenarios: below the cost that pays for a process it never
-    starts one; above it, the rest is split (this process solving a part) and agrees with one
-    batch."""
-    monkeypatch.setattr(batch_module, "PROBE", 4)
+    """A case's first split-allowed batch is timed here; below the cost that pays for a process
+    its batches never start one; above it, a later batch is split (this process solving a part)
+    and agrees with one batch."""
     monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 8)
-    path = demo_case_path("crude_preheat")
-    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 40)}  # a probe of 4, three parts of 12
-    whole = simulate_batch(path, values)
+    case = batch_module.as_case(demo_case_path("crude_preheat"))
+    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 40)}  # three parts of 13-14
+    whole = simulate_batch(case, values)
 
     def refuse(*args, **kwargs):
         raise AssertionError("a process pool was started for a cheap batch")
@@ -224,7 +223,7 @@ def test_a_cheap_batch_stays_in_one_process_and_a_costly_one_splits(monkeypatch)
     monkeypatch.setattr(batch_module, "PROCESS_COST", 1e9)
     with monkeypatch.context() as m:
         m.setattr(batch_module, "ProcessPoolExecutor", refuse)
-        cheap = simulate_batch(path, values, workers=2)
+        cheap = [simulate_batch(case, values, workers=2) for _ in range(2)]
     started = []
 
     class Counted(batch_module.ProcessPoolExecutor):
@@ -234,24 +233,25 @@ def test_a_cheap_batch_stays_in_one_process_and_a_costly_one_splits(monkeypatch)
 
     monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
     monkeypatch.setattr(batch_module, "ProcessPoolExecutor", Counted)
-    split = simulate_batch(path, values, workers=3)
-    assert started == [2]  # a scenario dearer than CLEARLY_WORTH: no second probe; 36 left, one part here
-    assert (whole.processes, cheap.processes, split.processes) == (1, 1, 3)  # what the benchmark prints
-    for result in (cheap, split):
+    split = simulate_batch(case, values, workers=3)
+    assert started == [2]  # two workers beside this process
+    assert [r.processes for r in (whole, *cheap, split)] == [1, 1, 1, 3]  # what the benchmark prints
+    for result in (*cheap, split):
         assert len(result.table) == 40 and result.table["success"].all()
         np.testing.assert_allclose(result.temperature, whole.temperature, rtol=0, atol=1e-9)
 
 
 def test_a_batch_finds_its_calculation_order_once_for_all_its_parts(monkeypatch):
-    """The probes, this process's part and the workers' parts share the order and tear sets
-    found by the first probe (part of every batch's fixed cost): one search, same answers."""
+    """A large first batch's timed part, this process's part of the rest and the workers' parts
+    share the order and tear sets found for the first part (part of every batch's fixed cost):
+    one search, same answers."""
     from hxtrain.solver.simulation import evaluation
 
-    monkeypatch.setattr(batch_module, "PROBE", 4)
+    monkeypatch.setattr(batch_module, "LEARNING_PART", 10)
     monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 8)
     monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
     path = demo_case_path("crude_preheat")
-    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 40)}
+    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 40)}  # a timed part of 10, two parts of 15
     whole = simulate_batch(path, values)
     searches = []
     search = evaluation.plan_calculation

@@ -40,8 +40,9 @@ class BatchResult:
     """(scenarios, segments) °C, NaN where a scenario is not converged or not valid; segments in
     the order of the one-case streams table."""
     processes: int = 1
-    """How many processes solved the batch at once: 1 where it stayed in this one (the probe
-    found a split would not pay), else the parts solved side by side (on a cluster, its tasks)."""
+    """How many processes solved the batch at once: 1 where it stayed in this one (a split
+    would not pay, or the case had not been timed yet), else the parts solved side by side (on
+    a cluster, its tasks)."""
     plan: list | None = field(default=None, repr=False)
     """The calculation order and tear sets (:mod:`.sequencing`), found once and reused by the
     batch's other parts: scenarios vary values, never the network's structure."""
@@ -57,47 +58,52 @@ measured on a 2-core virtual machine) and the return of its part (through shared
 :mod:`.part_transfer`: ~10 ms per 50,000 crude-demo scenarios), with a margin of about 1.5.
 A batch is split only where the time the other processes save is larger (:func:`_pays`)."""
 SHARED_SPEED = 0.75
-"""How fast a process solves while the others solve too, against alone: measured 0.7-1.0 on a
-2-core virtual machine (two processes solving 10,000 crude-demo scenarios at once each took
-1.0-1.45 times as long as one alone: the cores share the host's memory bandwidth)."""
-PROBE = 2000
-"""Scenarios solved first, in this process, to measure what one costs before splitting the rest."""
-PROBE_GROWTH = 2
-"""The second probe's size in first probes (see :func:`_probe`)."""
-SECOND_PROBE_WORTH = 3.0
-"""A second probe is made only where the first says a split could save more than this many times
-what the processes cost: it costs a batch's fixed cost itself, and the first probe's cost per
-scenario, which includes the fixed cost, overstates the saving (about twice for the crude demo's
-fixed-property form in a batch of 20,000)."""
-CLEARLY_WORTH = 50e-6
-"""Seconds: a first probe dearer than this a scenario, its fixed cost included, is taken at its
-word (no second probe). The crude demo's fixed cost is ~0.09 s as shipped (first probe ~90 µs a
-scenario, 37 µs without the fixed cost) and ~0.02 s in the fixed-property form (~15 µs and
-6.5 µs); a second probe costs that fixed cost again, which as shipped ate the gain of a split
-of 20,000 scenarios."""
+"""How fast a process is taken to solve while the others solve too, against alone, until a split
+of the case is timed (:func:`_timed_split`): measured 0.58-0.93 on a 2-core virtual machine (two
+processes each solving 10,000 or 50,000 crude-demo scenarios at once, against one alone: the
+cores share the host's memory bandwidth, and the fixed-property form, mostly memory traffic,
+slows most)."""
+FIXED_COST_SCENARIOS = 3300.0
+"""A batch's fixed cost (order, tears, each unit's per-call cost in every pass), counted in
+scenarios: a batch of n scenarios costs about (n + FIXED_COST_SCENARIOS) times one scenario.
+Measured on the crude demo (batches of 1 to 20,000, CPU time, best of 5): 0.055 s and 15.5 µs
+a scenario as shipped (3,550), 0.011 s and 3.4 µs in the fixed-property form (3,240). Both
+figures are the cost of the same ~100 numpy operations a pass, called on one scenario or on
+each, so their ratio holds across cases and machines more closely than either. A split saves
+only the scenarios' part; every process pays the fixed cost."""
+LEARNING_PART = 50_000
+"""A case's first split-allowed batch of at least :data:`LEARNING_BATCHES` times this many
+scenarios solves this many here first, timed, and decides the rest by them; a smaller first
+batch is solved whole here and timed (:func:`_timed_here`): it is not split, since nothing says
+yet that a split would pay, and a timing made apart from it would cost a batch's fixed cost
+again (about a sixth of a batch of 20,000)."""
+LEARNING_BATCHES = 4
+"""See :data:`LEARNING_PART`: the timed part's own fixed cost is then at most 1.7 % of the
+batch (3,300 scenarios' worth in 200,000)."""
 
 
 @dataclass
 class _Measured:
-    """What the probes of a case's first split-allowed batch found, kept for its later batches
-    (:func:`_remembered`): a study sends many batches of one case, and each probe is a batch with
-    its own fixed cost, which is lost wherever the batch then stays in one process."""
+    """What a case's batches solved in this process measured, kept for its later batches
+    (:func:`_remembered`): a study sends many batches of one case."""
 
     each: float
-    """Seconds a scenario costs: without the batch's fixed cost (``exact``, two probes), or the
-    first probe's cost with it (an upper bound: one probe was enough to refuse a split)."""
-    exact: bool
+    """Seconds a scenario costs in this process alone: the least of the case's batches solved
+    here, each timed in CPU time less its finding of the order, over its scenarios and
+    :data:`FIXED_COST_SCENARIOS` (a process's first batches also pay for its heap's growth)."""
     segments: int
     float_columns: tuple
     """What a worker's shared block is sized after (see :mod:`.part_transfer`)."""
-    fixed: float = 0.0
-    """Seconds a batch of the case costs besides its scenarios (order, tears, each unit's calls),
-    from the two probes (0 after one)."""
     shared_speed: float = SHARED_SPEED
     """How fast this case's processes solved while the others did too, against alone: as
     :data:`SHARED_SPEED` until a split of its batches is timed (:func:`_timed_split`), then as
     measured (a batch that is mostly memory traffic, such as the fixed-property form's, slows
     more when two share the memory than one that is mostly arithmetic, as shipped)."""
+
+    @property
+    def fixed(self) -> float:
+        """Seconds a batch of the case costs besides its scenarios."""
+        return self.each * FIXED_COST_SCENARIOS
 
 
 _MEASURED: dict = {}
@@ -106,17 +112,22 @@ case is. Only a split is decided from it: the calculation order is found again (
 change the case between batches)."""
 
 
+def _key(case, values, metrics):
+    return id(case), tuple(sorted(values)), bool(metrics)
+
+
 def _remembered(case, values, metrics) -> _Measured | None:
-    return _MEASURED.get((id(case), tuple(sorted(values)), bool(metrics)))
+    return _MEASURED.get(_key(case, values, metrics))
 
 
-def _remember(case, values, metrics, each, exact, probe, fixed=0.0) -> _Measured:
-    key = (id(case), tuple(sorted(values)), bool(metrics))
-    if key not in _MEASURED:
+def _learn(case, values, metrics, each, result) -> _Measured:
+    key = _key(case, values, metrics)
+    known = _MEASURED.get(key)
+    if known is None:
         weakref.finalize(case, _MEASURED.pop, key, None)
-    _MEASURED[key] = _Measured(each, exact, probe.temperature.shape[1], part_transfer.float_columns(probe.table),
-                               fixed)
-    return _MEASURED[key]
+        known = _MEASURED[key] = _Measured(each, result.temperature.shape[1], part_transfer.float_columns(result.table))
+    known.each = min(known.each, each)
+    return known
 
 
 _CLUSTER = contextvars.ContextVar("hxtrain_batch_cluster", default=None)
@@ -141,17 +152,18 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
     see :mod:`hxtrain.network.scenarios` for the paths that may vary) of ``case`` (a file, a
     mapping or a Case): the evaluation's view as one row per scenario.
 
-    ``workers`` > 1 may split the scenarios over that many processes: the first few thousand
-    are solved here, timed (:func:`_probe`); only where the time other processes would save
-    exceeds what they cost (:func:`_pays`) is the rest cut into contiguous parts (at least
+    ``workers`` > 1 may split the scenarios over that many processes, from what the case's
+    earlier batches measured (:func:`_remembered`: the same case object and varied keys; a study
+    sends many batches of one case): only where the time other processes would save exceeds
+    what they cost (:func:`_pays`) is the batch cut into contiguous parts (at least
     :data:`PROCESS_MINIMUM` scenarios a part), this process solving one of them while worker
-    processes solve the others and return their floats through shared memory. A later batch of
-    the same case object with the same varied keys is decided from what the first one's probes
-    measured (:func:`_remembered`), without probing again: split whole, or solved here. Inside
-    :func:`batches_on` the parts go to that cluster instead. Every scenario converges on its own
-    either way; ``iterations`` is the largest over the parts. ``metrics`` adds a column per named
-    result of every unit (``TAG.duty``, ``TAG.cold_out``, ...: what a study may target), NaN where
-    a scenario is not a success."""
+    processes solve the others and return their floats through shared memory. A case's first
+    such batch is solved here and timed, so that a second process never makes it slower; one of
+    at least :data:`LEARNING_BATCHES` x :data:`LEARNING_PART` scenarios is timed on its first
+    part and the rest decided by that. Inside :func:`batches_on` the parts go to that cluster
+    instead. Every scenario converges on its own either way; ``iterations`` is the largest over
+    the parts. ``metrics`` adds a column per named result of every unit (``TAG.duty``,
+    ``TAG.cold_out``, ...: what a study may target), NaN where a scenario is not a success."""
     case = as_case(case)
     scenarios = scenario_count(values)
     cluster = _CLUSTER.get()
@@ -162,27 +174,25 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
                                        [tolerance] * parts, [max_iterations] * parts, [metrics] * parts),
                            processes=parts)
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
-    if int(workers) <= 1 or scenarios < (1 + PROBE_GROWTH) * PROBE + 2 * PROCESS_MINIMUM:
+    if int(workers) <= 1 or scenarios < 2 * PROCESS_MINIMUM:
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
-    known, parts = _remembered(case, values, metrics), _parts(workers, scenarios)
-    if known is not None and (known.exact or not _pays(known.each / SECOND_PROBE_WORTH, scenarios, parts,
-                                                       known.shared_speed)):
-        if not (known.exact and _pays(known.each, scenarios, parts, known.shared_speed)):
-            return _solve_batch(case, values, tolerance, max_iterations, metrics)
-        return _joined(_timed_split(case, _pieces(values, scenarios, parts), tolerance, max_iterations, metrics, None,
-                                    known), processes=parts)
-    first, each, bound = _probe(case, values, tolerance, max_iterations, metrics, lambda cost: _pays(
-        cost / SECOND_PROBE_WORTH, scenarios - PROBE, _parts(workers, scenarios - PROBE)))
-    # the first probe's cost beyond its scenarios' is the fixed cost of a batch
-    measured = _remember(case, values, metrics, bound if each is None else each, each is not None, first[0],
-                         0.0 if each is None else max(0.0, (bound - each) * PROBE))
-    probed = sum(len(r.table) for r in first)
-    rest = _take(values, slice(probed, scenarios))
-    parts = _parts(workers, scenarios - probed)
-    if parts == 1 or each is None or not _pays(each, scenarios - probed, parts):
-        return _joined([*first, _solve_batch(case, rest, tolerance, max_iterations, metrics, first[0].plan)])
-    return _joined([*first, *_timed_split(case, _pieces(rest, scenarios - probed, parts), tolerance, max_iterations,
-                                          metrics, first[0].plan, measured)], processes=parts)
+    job = (case, tolerance, max_iterations, metrics)
+    if _remembered(case, values, metrics) is None and scenarios >= LEARNING_BATCHES * LEARNING_PART:
+        first = _timed_here(*job, _take(values, slice(0, LEARNING_PART)))
+        rest, processes = _decided(*job, _take(values, slice(LEARNING_PART, scenarios)), workers, first.plan)
+        return _joined([first, *rest], processes)
+    return _joined(*_decided(*job, values, workers))
+
+
+def _decided(case, tolerance, max_iterations, metrics, values, workers, plan=None):
+    """(the results of ``values``' parts, how many processes solved them): split where what the
+    case measured says it pays, else solved here and timed."""
+    scenarios, known = scenario_count(values), _remembered(case, values, metrics)
+    parts = _parts(workers, scenarios)
+    if known is None or not _pays(known.each, scenarios, parts, known.shared_speed):
+        return [_timed_here(case, tolerance, max_iterations, metrics, values, plan)], 1
+    return _timed_split(case, _pieces(values, scenarios, parts), tolerance, max_iterations, metrics, plan,
+                        known), parts
 
 
 def _parts(workers, scenarios) -> int:
@@ -199,6 +209,18 @@ def _pays(each, scenarios, parts, shared_speed=SHARED_SPEED) -> bool:
     return parts > 1 and saved > PROCESS_COST * (parts - 1)
 
 
+def _timed_here(case, tolerance, max_iterations, metrics, values, plan=None) -> BatchResult:
+    """``values`` solved in this process, timed in its CPU time (another program's load on the
+    machine is not a cost of the case) less the time spent finding the calculation order (once a
+    batch, and reused by its parts): what one scenario costs, learnt for the case's later
+    batches (:func:`_learn`)."""
+    start = time.process_time()
+    result = _solve_batch(case, values, tolerance, max_iterations, metrics, plan)
+    seconds = time.process_time() - start - result.planning_seconds
+    _learn(case, values, metrics, max(0.0, seconds) / (scenario_count(values) + FIXED_COST_SCENARIOS), result)
+    return result
+
+
 def _timed_split(case, jobs, tolerance, max_iterations, metrics, plan, measured: _Measured):
     """:func:`_split`, timed: the speed its processes solved at while sharing the machine,
     ``measured.each`` x its scenarios against its wall time less the batch's fixed cost (which
@@ -208,9 +230,8 @@ def _timed_split(case, jobs, tolerance, max_iterations, metrics, plan, measured:
     results = _split(case, jobs, tolerance, max_iterations, metrics, plan, measured)
     seconds, parts = time.perf_counter() - start, len(jobs)
     solving = seconds - measured.fixed - PROCESS_COST * (parts - 1)
-    if measured.exact and solving > 0.0:
-        alone = measured.each * sum(scenario_count(job) for job in jobs)
-        measured.shared_speed = min(1.0, alone / (parts * solving))
+    alone = measured.each * sum(scenario_count(job) for job in jobs)
+    measured.shared_speed = min(1.0, alone / (parts * solving)) if solving > 0.0 else 1.0
     return results
 
 
@@ -234,35 +255,6 @@ def _solve_part(case, values, tolerance, max_iterations, metrics, plan, shared):
     return part_transfer.solve_into(shared, _solve_batch(case, values, tolerance, max_iterations, metrics, plan))
 
 
-def _probe(case, values, tolerance, max_iterations, metrics, pays):
-    """(the probes' results, the seconds one more scenario costs, or None where a split would
-    not pay well even at the first probe's cost per scenario; and that first probe's cost per
-    scenario, its fixed cost included). Every batch has a fixed cost
-    (order, tears, each unit's per-call overhead in every sweep: ~0.02 s for the crude demo's
-    fixed-property form, ~0.09 s as shipped) besides its cost per scenario, and a split saves only
-    the latter: timed alone, 2,000 scenarios of the fixed form cost 15 µs each against 6.5 µs
-    each in a batch of 20,000. So the first :data:`PROBE` scenarios are timed, and where even with
-    the fixed cost a split at that cost would not pay well (``pays``), or they cost more than
-    :data:`CLEARLY_WORTH` each, that is the answer; else the next :data:`PROBE_GROWTH` times as
-    many are timed too: the difference of the two timings, per extra scenario, is the cost of
-    one (the fixed cost cancels). Both probes are timed in this process's CPU time, so that
-    another program's load on the machine does not pass for a cost of the case, and the first
-    without its finding of the calculation order (which the second reuses; counted in, it made
-    the difference too small by its cost)."""
-    start = time.process_time()
-    first = _solve_batch(case, _take(values, slice(0, PROBE)), tolerance, max_iterations, metrics)
-    small = time.process_time() - start - first.planning_seconds
-    if small / PROBE >= CLEARLY_WORTH:
-        return [first], small / PROBE, small / PROBE
-    if not pays(small / PROBE):
-        return [first], None, small / PROBE
-    start = time.process_time()
-    second = _solve_batch(case, _take(values, slice(PROBE, (1 + PROBE_GROWTH) * PROBE)), tolerance, max_iterations,
-                          metrics, first.plan)
-    large = time.process_time() - start
-    return [first, second], max(0.0, large - small) / ((PROBE_GROWTH - 1) * PROBE), small / PROBE
-
-
 def _take(values, where):
     return {path: np.atleast_1d(np.asarray(v, dtype=float))[where] for path, v in values.items()}
 
@@ -273,6 +265,8 @@ def _pieces(values, scenarios, parts):
 
 def _joined(results, processes=1) -> BatchResult:
     results = list(results)
+    if len(results) == 1:
+        return results[0]
     return BatchResult(pd.concat([r.table for r in results], ignore_index=True), max(r.iterations for r in results),
                        np.concatenate([r.temperature for r in results]), processes, results[0].plan)
 

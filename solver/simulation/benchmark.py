@@ -93,8 +93,8 @@ def time_case(case, label, scenarios, loop, workers, repeats=3):
     runs[0]()
     if workers > 1:
         runs.append(lambda: simulate_batch(case, {path: flows}, workers=workers))
-    firsts = []
-    timed = _alternated(runs, repeats, firsts)
+    rounds = []
+    timed = _alternated(runs, repeats, rounds)
     (one_process, batch), (several, split) = timed[0], timed[-1]  # one process allowed: the same run
     worst = float(np.nanmax(np.abs(split.temperature - batch.temperature)))
     start = time.perf_counter()
@@ -106,27 +106,29 @@ def time_case(case, label, scenarios, loop, workers, repeats=3):
     loop_seconds = time.perf_counter() - start
     return {"label": label, "batch_seconds": one_process, "batch_rate": scenarios / one_process,
             "workers_seconds": several, "workers_rate": scenarios / several, "processes": split.processes,
-            "first_seconds": firsts[0], "workers_first_seconds": firsts[-1],
+            "round_ratios": [timings[0] / timings[-1] for timings in rounds],
             "loop_seconds": loop_seconds,
             "loop_rate": loop / loop_seconds, "largest_difference_k": worst,
             "all_converged": bool(batch.table["converged"].all() and split.table["converged"].all()),
             "iterations": batch.iterations}
 
 
-def _alternated(functions, repeats, firsts=None):
+def _alternated(functions, repeats, rounds=None):
     """[(the shortest of ``repeats`` timings, the result of that run)] for each of ``functions``,
     run in turn ``repeats`` times: on a shared machine a run is disturbed now and then, and
-    alternating lets the disturbances fall on both sides alike. ``firsts``, where given, gets
-    each function's first timing (a split batch's first run probes; later ones remember)."""
+    alternating lets the disturbances fall on both sides alike. ``rounds``, where given, gets each
+    round's timings (a case's first split-allowed batch is solved in one process and timed; later
+    ones are decided by what it measured, and the first split measures the processes' speed)."""
     best = [(float("inf"), None) for _ in functions]
-    for round_ in range(repeats):
+    for _ in range(repeats):
+        timings = []
         for k, function in enumerate(functions):
             start = time.perf_counter()
             result = function()
-            seconds = time.perf_counter() - start
-            if round_ == 0 and firsts is not None:
-                firsts.append(seconds)
-            best[k] = min(best[k], (seconds, result), key=lambda pair: pair[0])
+            timings.append(time.perf_counter() - start)
+            best[k] = min(best[k], (timings[-1], result), key=lambda pair: pair[0])
+        if rounds is not None:
+            rounds.append(timings)
     return best
 
 
@@ -190,8 +192,9 @@ def benchmark_text(figures) -> str:
             f"    batch, 1 process:  {row['batch_seconds']:7.2f} s = {row['batch_rate']:10,.0f} scenario-solves/s "
             f"({counted(row['iterations'], 'tear iteration')})",
             *([f"    batch, {split}: {row['workers_seconds']:7.2f} s = {row['workers_rate']:10,.0f} "
-               f"scenario-solves/s ({row['workers_rate'] / row['batch_rate']:.2f} x 1 process; first runs, where it "
-            f"probes the case's cost: {row['first_seconds'] / row['workers_first_seconds']:.2f} x)"]
+               f"scenario-solves/s ({row['workers_rate'] / row['batch_rate']:.2f} x 1 process; each run against the "
+               f"one-process run before it: {', '.join(f'{r:.2f}' for r in row['round_ratios'])} x, the first "
+               "solved in one process and timed)"]
               if f["workers"] > 1 else []),
             f"    loop of single solves:       {row['loop_rate']:10,.2f} scenario-solves/s",
             f"    batch / loop: {row['batch_rate'] / row['loop_rate']:,.0f} x (1 process)"

@@ -84,7 +84,7 @@ class Evaluation:
     labels: dict = field(default_factory=dict)
     planning_seconds: float = 0.0
     """CPU seconds spent finding the calculation order (0 where it was given): a batch's timing
-    probe leaves it out (:func:`.batch._probe`)."""
+    leaves it out (:func:`.batch._timed_here`)."""
 
     @property
     def success(self) -> np.ndarray:

@@ -4,8 +4,8 @@ Most of a part's result is floats: the temperature of every segment and the tabl
 columns, about 480 bytes a scenario on the crude demo. Sent back through the process pool's pipe
 (pickled, then read in chunks) 50,000 scenarios of them took ~145 ms on the 2-core VM, as long
 as solving them in the crude demo's fixed-property form, so a second process could not pay for
-such a batch. Here the parent process makes one shared-memory block per part, sized from the
-probe's result (:func:`reserve`); the worker writes its floats into it (:func:`solve_into`) and
+such a batch. Here the parent process makes one shared-memory block per part, sized after
+the case's earlier results (:func:`reserve`); the worker writes its floats into it (:func:`solve_into`) and
 sends only the rest of its table through the pipe; the parent copies the floats out and frees
 the block (:func:`collect`; the blocks are freed when :func:`reserve`'s block ends).
 
