@@ -128,6 +128,7 @@ def test_a_batch_split_over_processes_equals_one_batch(start, monkeypatch):
     # small parts, and splitting always judged worth it, so 30 scenarios really split
     monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 4)
     monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
+    monkeypatch.setattr(batch_module, "FIXED_COST_SCENARIOS", 0.0)  # so that a few scenarios split
     if start == "spawn":
         monkeypatch.setattr(batch_module, "_process_context", lambda: multiprocessing.get_context("spawn"))
     started = []

@@ -232,6 +232,7 @@ def test_a_cheap_batch_stays_in_one_process_and_a_costly_one_splits(monkeypatch)
             super().__init__(workers, **kwargs)
 
     monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
+    monkeypatch.setattr(batch_module, "FIXED_COST_SCENARIOS", 0.0)  # so that a few scenarios split
     monkeypatch.setattr(batch_module, "ProcessPoolExecutor", Counted)
     split = simulate_batch(case, values, workers=3)
     assert started == [2]  # two workers beside this process
@@ -250,6 +251,7 @@ def test_a_batch_finds_its_calculation_order_once_for_all_its_parts(monkeypatch)
     monkeypatch.setattr(batch_module, "LEARNING_PART", 10)
     monkeypatch.setattr(batch_module, "PROCESS_MINIMUM", 8)
     monkeypatch.setattr(batch_module, "PROCESS_COST", 0.0)
+    monkeypatch.setattr(batch_module, "FIXED_COST_SCENARIOS", 0.0)  # so that a few scenarios split
     path = demo_case_path("crude_preheat")
     values = {"streams.crude.flow": np.linspace(70.0, 110.0, 40)}  # a timed part of 10, two parts of 15
     whole = simulate_batch(path, values)

@@ -1243,6 +1243,23 @@ def test_a_sweep_names_the_limits_its_points_violate(tmp_path, capsys):
         assert named == expected
 
 
+def test_a_sweep_shows_small_swept_values_as_they_differ(tmp_path, capsys):
+    """A bypass swept over 0, 0.001, 0.002 and 0.004 had shown 0.00 on every row: the swept
+    values are shown with as many decimals as tell them apart (two significant digits), the
+    results beside them as before."""
+    study = write(tmp_path, f"""
+        base: {CRUDE}
+        sweeps:
+          small_bypass:
+            grid:
+              exchangers.E-110.bypass.cold: [0.0, 0.001, 0.002, 0.004]
+        """)
+    code, out, err = run_cli(capsys, "sweep", study)
+    assert code == 0, err
+    rows = [line.split() for line in out.splitlines() if line.strip().startswith("0.00")]
+    assert [row[0] for row in rows] == ["0.0000", "0.0010", "0.0020", "0.0040"]
+
+
 @pytest.mark.parametrize("peak, goal, met", [(250.0, 245.0, True), (250.0, 255.0, False)])
 def test_a_specification_whose_result_turns_inside_the_range_is_scanned(monkeypatch, peak, goal, met):
     """A result that peaks inside the adjusted range (a trial's exchanger duty against a flow)

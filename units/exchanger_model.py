@@ -7,6 +7,7 @@ from dataclasses import fields, replace
 import numpy as np
 
 from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, PropertyNeed, UnitReport, UnitBase, check, \
+    stagnant_side_findings, \
     blanked_where_idle, design_temperature_findings, exchanger_totals, warning_line_findings
 from .arrangements import arranged, unit_halves
 from .pntu_rating import ExchangerRating
@@ -371,6 +372,7 @@ class Exchanger(UnitBase):
             quantities[f"dp_{side}"] = drop
         labels = {"u_source": "fixed UA" if self.spec.ua is not None else self.spec.thermal.source}
         findings = self._limit_findings(inlets, service) + self._rating_findings(x, coefficients, t_hot, t_cold)
+        findings += stagnant_side_findings(self.key, still, {"hot": t_hot, "cold": t_cold})
         if hasattr(self.spec.thermal, "scaling_findings") and self.spec.ua is None:  # U from films known at one flow
             m_x = through_exchanger(self.spec, inlets.m[:, 0], inlets.m[:, 1])
             findings += self.spec.thermal.scaling_findings(self.key, *shell_flows(self.spec, *m_x))

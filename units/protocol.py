@@ -464,6 +464,18 @@ def design_temperature_findings(sides):
     return findings
 
 
+def stagnant_side_findings(key, still, t_in) -> list:
+    """A warning where nothing flows through one side of an exchanger (a closed branch, a side
+    bypassed whole) while the other side flows: its outlet shown is its inlet (no duty), but what
+    stands in that side heats or cools towards the other side's inlet temperature, and liquid
+    blocked in there and heated expands (it needs thermal relief: common practice).
+    ``still``: side -> where nothing flows through it; ``t_in``: side -> inlet temperature, °C."""
+    return [check("no_flow", "warning", still[side] & ~still[other], key,
+                  f"no flow through the {side} side while the {other} side flows at {{t:.1f}} °C: what stands in "
+                  f"the {side} side goes towards that temperature (blocked in and heated, liquid needs thermal relief)",
+                  t=t_in[other]) for side, other in (("hot", "cold"), ("cold", "hot"))]
+
+
 def blanked_where_idle(quantities: dict, idle) -> dict:
     """A rating's report quantities with P, R, NTU, effectiveness, F, LMTD and approach blank (NaN,
     not 1 or 0) where ``idle``: a side with nothing flowing through has none of them."""

@@ -136,7 +136,7 @@ def _compare(args) -> int:
 def _sweep(args) -> int:
     from hxtrain.network import CaseError
 
-    from hxtrain.solver.reporting.console_tables import render
+    from hxtrain.solver.reporting.console_tables import TELL_APART, render
     from hxtrain.solver.reporting.display_units import current
     from hxtrain.solver.reporting.files import with_whole_counts
     import pandas as pd
@@ -156,6 +156,8 @@ def _sweep(args) -> int:
         # the swept values named with their unit (streams.crude.flow_kg_s): converted like any result
         tables = {sweep.name: (table := run_sweep(study, sweep)).rename(columns=grid_columns_with_units(sweep, table))
                   for sweep in study.sweeps}
+    # each sweep's grid columns: the swept values as told apart (a bypass of 0.001 is not 0.00)
+    grids = {sweep.name: list(tables[sweep.name].columns[:len(sweep.grid)]) for sweep in study.sweeps}
     # each sweep's violated limits, counted over its points, in the files as on the console
     limits = pd.concat([limit_counts(table).rename(columns={"scenarios": "points", "rows": "point_numbers"})
                         .assign(sweep=name) for name, table in tables.items()], ignore_index=True)
@@ -165,7 +167,7 @@ def _sweep(args) -> int:
     for name, table in tables.items():
         print(f"\nSweep {name}\n{'-' * (6 + len(name))}")
         print(render(with_whole_counts(table.drop(columns=["message", "status_text", "violated_limits"])), display,
-                     digits={"relative_imbalance": ".1e"}))
+                     digits={"relative_imbalance": ".1e", **dict.fromkeys(grids[name], TELL_APART)}))
         failed = table[~table["success"].astype(bool)]
         print("\n".join(boxed(f"POINTS OF SWEEP {name} WITH NO ANSWER ({paths_of_the_case(study)})",
                                (f"point {k + 1}: {display.message(m)}"

@@ -18,6 +18,28 @@ GAP = 2
 """Spaces between columns."""
 DIMENSIONLESS_DIGITS = 2
 """Decimals of a number without a unit (NTU, P, R, F)."""
+TELL_APART = "tell apart"
+"""``digits`` of a column of inputs (a sweep's grid): as many decimals as show each nonzero
+value to two significant digits and every two different values differently
+(:func:`decimals_to_tell_apart`), at least the column's own."""
+MOST_DECIMALS = 8
+
+
+def decimals_to_tell_apart(values, least: int) -> int:
+    """The fewest decimals, at least ``least`` and at most :data:`MOST_DECIMALS`, that show each
+    nonzero finite value of ``values`` to two significant digits and no two different values
+    alike.
+
+    >>> decimals_to_tell_apart([0.0, 0.001, 0.002], 2), decimals_to_tell_apart([1.0, 1.005, 1.01], 2)
+    (4, 3)
+    """
+    finite = np.asarray(values, dtype=float)
+    finite = finite[np.isfinite(finite)]
+    distinct, nonzero = np.unique(finite), np.abs(finite[finite != 0.0])
+    places = max(least, int(np.max(1 - np.floor(np.log10(nonzero))))) if nonzero.size else least
+    while places < MOST_DECIMALS and np.unique(np.round(distinct, places)).size < distinct.size:
+        places += 1
+    return min(places, MOST_DECIMALS)
 
 
 def fixed(value: float, digits: int) -> str:
@@ -67,6 +89,9 @@ def cells(frame: pd.DataFrame, display: Display, words: dict | None = None, digi
         elif holds_words(values):
             values = values.map(display.message)
         places = digits.get(name, column.digits if column is not None else DIMENSIONLESS_DIGITS)
+        if places == TELL_APART:
+            places = decimals_to_tell_apart(pd.to_numeric(values, errors="coerce"),
+                                            column.digits if column is not None else DIMENSIONLESS_DIGITS)
         stem = column.stem if column else str(name)
         headings.append(words.get(name, stem if "." in stem else stem.replace("_", " ")))  # a key path as written
         units.append(column.label if column is not None and numeric else "")  # a unit only over converted numbers

@@ -11,9 +11,10 @@ from __future__ import annotations
 
 import contextvars
 import multiprocessing
+import hashlib
+import os
 import sys
 import time
-import weakref
 from concurrent.futures import ProcessPoolExecutor
 from contextlib import contextmanager
 from dataclasses import dataclass, field
@@ -100,33 +101,35 @@ class _Measured:
     measured (a batch that is mostly memory traffic, such as the fixed-property form's, slows
     more when two share the memory than one that is mostly arithmetic, as shipped)."""
 
-    @property
-    def fixed(self) -> float:
-        """Seconds a batch of the case costs besides its scenarios."""
-        return self.each * FIXED_COST_SCENARIOS
-
 
 _MEASURED: dict = {}
-"""(id of a case, its varied key paths, metrics or not) -> :class:`_Measured`, dropped when the
-case is. Only a split is decided from it: the calculation order is found again (a study may
-change the case between batches)."""
+"""(the case's identity (:func:`_identity`), its varied key paths, metrics or not) ->
+:class:`_Measured`, the latest :data:`REMEMBERED` kept."""
+REMEMBERED = 256
 
 
-def _key(case, values, metrics):
-    return id(case), tuple(sorted(values)), bool(metrics)
+def _identity(given) -> tuple:
+    """What a case's timings are kept under: a file by its path, modification time and size; a
+    mapping or a Case by its text (its ``repr``: a case changed in place, or another fluid
+    object, is another case, timed afresh)."""
+    if isinstance(given, (str, os.PathLike)):
+        stat = os.stat(given)
+        return "file", os.path.realpath(given), stat.st_mtime_ns, stat.st_size
+    return "case", hashlib.sha1(repr(given).encode()).hexdigest()
 
 
-def _remembered(case, values, metrics) -> _Measured | None:
-    return _MEASURED.get(_key(case, values, metrics))
+def _remembered(who, values, metrics) -> _Measured | None:
+    return _MEASURED.get((who, tuple(sorted(values)), bool(metrics)))
 
 
-def _learn(case, values, metrics, each, result) -> _Measured:
-    key = _key(case, values, metrics)
-    known = _MEASURED.get(key)
-    if known is None:
-        weakref.finalize(case, _MEASURED.pop, key, None)
-        known = _MEASURED[key] = _Measured(each, result.temperature.shape[1], part_transfer.float_columns(result.table))
+def _learn(who, values, metrics, each, result) -> _Measured:
+    key = (who, tuple(sorted(values)), bool(metrics))
+    known = _MEASURED.pop(key, None) or _Measured(each, 0, ())
     known.each = min(known.each, each)
+    known.segments, known.float_columns = result.temperature.shape[1], part_transfer.float_columns(result.table)
+    _MEASURED[key] = known  # the latest last
+    while len(_MEASURED) > REMEMBERED:
+        _MEASURED.pop(next(iter(_MEASURED)))
     return known
 
 
@@ -153,18 +156,22 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
     mapping or a Case): the evaluation's view as one row per scenario.
 
     ``workers`` > 1 may split the scenarios over that many processes, from what the case's
-    earlier batches measured (:func:`_remembered`: the same case object and varied keys; a study
-    sends many batches of one case): only where the time other processes would save exceeds
-    what they cost (:func:`_pays`) is the batch cut into contiguous parts (at least
-    :data:`PROCESS_MINIMUM` scenarios a part), this process solving one of them while worker
-    processes solve the others and return their floats through shared memory. A case's first
-    such batch is solved here and timed, so that a second process never makes it slower; one of
-    at least :data:`LEARNING_BATCHES` x :data:`LEARNING_PART` scenarios is timed on its first
-    part and the rest decided by that. Inside :func:`batches_on` the parts go to that cluster
+    earlier batches measured (:func:`_remembered`: the same case, by its file or its content
+    (:func:`_identity`), the same varied keys and ``metrics``; a study sends many batches of one
+    case): only where the time other processes would save exceeds what they cost
+    (:func:`_pays`) is the batch cut into contiguous parts (at least :data:`PROCESS_MINIMUM`
+    scenarios a part), this process solving one of them while worker processes solve the
+    others and return their floats through shared memory. A case's first such batch is solved
+    here and timed, so a second process never makes it slower; one of at least
+    :data:`LEARNING_BATCHES` x :data:`LEARNING_PART` scenarios is timed on its first part and
+    the rest decided by that. The first split times how fast the processes solved together
+    (:func:`_timed_split`): on a machine where they could not, that one split is slower than one
+    process, and the case is split again only where its batches are large enough that the
+    measured speed says it pays. Inside :func:`batches_on` the parts go to that cluster
     instead. Every scenario converges on its own either way; ``iterations`` is the largest over
     the parts. ``metrics`` adds a column per named result of every unit (``TAG.duty``,
     ``TAG.cold_out``, ...: what a study may target), NaN where a scenario is not a success."""
-    case = as_case(case)
+    given, case = case, as_case(case)
     scenarios = scenario_count(values)
     cluster = _CLUSTER.get()
     if cluster is not None:
@@ -176,21 +183,21 @@ def simulate_batch(case, values: dict, *, tolerance=None, max_iterations=None, w
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
     if int(workers) <= 1 or scenarios < 2 * PROCESS_MINIMUM:
         return _solve_batch(case, values, tolerance, max_iterations, metrics)
-    job = (case, tolerance, max_iterations, metrics)
-    if _remembered(case, values, metrics) is None and scenarios >= LEARNING_BATCHES * LEARNING_PART:
+    job = (case, _identity(given), tolerance, max_iterations, metrics)
+    if _remembered(job[1], values, metrics) is None and scenarios >= LEARNING_BATCHES * LEARNING_PART:
         first = _timed_here(*job, _take(values, slice(0, LEARNING_PART)))
         rest, processes = _decided(*job, _take(values, slice(LEARNING_PART, scenarios)), workers, first.plan)
         return _joined([first, *rest], processes)
     return _joined(*_decided(*job, values, workers))
 
 
-def _decided(case, tolerance, max_iterations, metrics, values, workers, plan=None):
+def _decided(case, who, tolerance, max_iterations, metrics, values, workers, plan=None):
     """(the results of ``values``' parts, how many processes solved them): split where what the
     case measured says it pays, else solved here and timed."""
-    scenarios, known = scenario_count(values), _remembered(case, values, metrics)
+    scenarios, known = scenario_count(values), _remembered(who, values, metrics)
     parts = _parts(workers, scenarios)
     if known is None or not _pays(known.each, scenarios, parts, known.shared_speed):
-        return [_timed_here(case, tolerance, max_iterations, metrics, values, plan)], 1
+        return [_timed_here(case, who, tolerance, max_iterations, metrics, values, plan)], 1
     return _timed_split(case, _pieces(values, scenarios, parts), tolerance, max_iterations, metrics, plan,
                         known), parts
 
@@ -203,13 +210,16 @@ def _parts(workers, scenarios) -> int:
 
 def _pays(each, scenarios, parts, shared_speed=SHARED_SPEED) -> bool:
     """Whether ``parts`` processes solve ``scenarios`` scenarios of ``each`` seconds sooner than
-    this process alone: the time saved, each x scenarios x (1 - 1/(parts x ``shared_speed``)),
-    beyond :data:`PROCESS_COST` for every other process."""
-    saved = each * scenarios * (1.0 - 1.0 / (parts * shared_speed))
-    return parts > 1 and saved > PROCESS_COST * (parts - 1)
+    this process alone: alone the batch costs (scenarios + :data:`FIXED_COST_SCENARIOS`) x each;
+    split, every process pays the fixed cost and its share at ``shared_speed``, (scenarios /
+    parts + FIXED_COST_SCENARIOS) x each / shared_speed, and :data:`PROCESS_COST` for every
+    other process."""
+    alone = (scenarios + FIXED_COST_SCENARIOS) * each
+    split = (scenarios / parts + FIXED_COST_SCENARIOS) * each / shared_speed
+    return parts > 1 and alone - split > PROCESS_COST * (parts - 1)
 
 
-def _timed_here(case, tolerance, max_iterations, metrics, values, plan=None) -> BatchResult:
+def _timed_here(case, who, tolerance, max_iterations, metrics, values, plan=None) -> BatchResult:
     """``values`` solved in this process, timed in its CPU time (another program's load on the
     machine is not a cost of the case) less the time spent finding the calculation order (once a
     batch, and reused by its parts): what one scenario costs, learnt for the case's later
@@ -217,21 +227,22 @@ def _timed_here(case, tolerance, max_iterations, metrics, values, plan=None) -> 
     start = time.process_time()
     result = _solve_batch(case, values, tolerance, max_iterations, metrics, plan)
     seconds = time.process_time() - start - result.planning_seconds
-    _learn(case, values, metrics, max(0.0, seconds) / (scenario_count(values) + FIXED_COST_SCENARIOS), result)
+    _learn(who, values, metrics, max(0.0, seconds) / (scenario_count(values) + FIXED_COST_SCENARIOS), result)
     return result
 
 
 def _timed_split(case, jobs, tolerance, max_iterations, metrics, plan, measured: _Measured):
-    """:func:`_split`, timed: the speed its processes solved at while sharing the machine,
-    ``measured.each`` x its scenarios against its wall time less the batch's fixed cost (which
-    every part pays at once) and :data:`PROCESS_COST`, becomes the case's ``shared_speed`` for
-    its later batches (a split that did not pay is not made again)."""
+    """:func:`_split`, timed: the speed its processes solved at while sharing the machine, what
+    its largest part would cost alone (``measured.each`` x its scenarios and a batch's fixed
+    cost) against the wall time less :data:`PROCESS_COST` for every other process, becomes the
+    case's ``shared_speed`` for its later batches (a split that did not pay is not made again
+    at that size)."""
     start = time.perf_counter()
     results = _split(case, jobs, tolerance, max_iterations, metrics, plan, measured)
     seconds, parts = time.perf_counter() - start, len(jobs)
-    solving = seconds - measured.fixed - PROCESS_COST * (parts - 1)
-    alone = measured.each * sum(scenario_count(job) for job in jobs)
-    measured.shared_speed = min(1.0, alone / (parts * solving)) if solving > 0.0 else 1.0
+    solving = seconds - PROCESS_COST * (parts - 1)
+    alone = measured.each * (max(scenario_count(job) for job in jobs) + FIXED_COST_SCENARIOS)
+    measured.shared_speed = min(1.0, alone / solving) if solving > 0.0 else 1.0
     return results
 
 

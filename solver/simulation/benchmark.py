@@ -106,7 +106,8 @@ def time_case(case, label, scenarios, loop, workers, repeats=3):
     loop_seconds = time.perf_counter() - start
     return {"label": label, "batch_seconds": one_process, "batch_rate": scenarios / one_process,
             "workers_seconds": several, "workers_rate": scenarios / several, "processes": split.processes,
-            "round_ratios": [timings[0] / timings[-1] for timings in rounds],
+            "round_ratios": [(one[0] / allowed[0], allowed[1].processes) for one, *_, allowed in rounds]
+            if workers > 1 else [],
             "loop_seconds": loop_seconds,
             "loop_rate": loop / loop_seconds, "largest_difference_k": worst,
             "all_converged": bool(batch.table["converged"].all() and split.table["converged"].all()),
@@ -117,7 +118,7 @@ def _alternated(functions, repeats, rounds=None):
     """[(the shortest of ``repeats`` timings, the result of that run)] for each of ``functions``,
     run in turn ``repeats`` times: on a shared machine a run is disturbed now and then, and
     alternating lets the disturbances fall on both sides alike. ``rounds``, where given, gets each
-    round's timings (a case's first split-allowed batch is solved in one process and timed; later
+    round's (timing, result) pairs (a case's first split-allowed batch is solved in one process and timed; later
     ones are decided by what it measured, and the first split measures the processes' speed)."""
     best = [(float("inf"), None) for _ in functions]
     for _ in range(repeats):
@@ -125,8 +126,8 @@ def _alternated(functions, repeats, rounds=None):
         for k, function in enumerate(functions):
             start = time.perf_counter()
             result = function()
-            timings.append(time.perf_counter() - start)
-            best[k] = min(best[k], (timings[-1], result), key=lambda pair: pair[0])
+            timings.append((time.perf_counter() - start, result))
+            best[k] = min(best[k], timings[-1], key=lambda pair: pair[0])
         if rounds is not None:
             rounds.append(timings)
     return best
@@ -193,8 +194,8 @@ def benchmark_text(figures) -> str:
             f"({counted(row['iterations'], 'tear iteration')})",
             *([f"    batch, {split}: {row['workers_seconds']:7.2f} s = {row['workers_rate']:10,.0f} "
                f"scenario-solves/s ({row['workers_rate'] / row['batch_rate']:.2f} x 1 process; each run against the "
-               f"one-process run before it: {', '.join(f'{r:.2f}' for r in row['round_ratios'])} x, the first "
-               "solved in one process and timed)"]
+               f"one-process run before it: {', '.join(f'{r:.2f} x ({_split_label(n, n)})' for r, n in row['round_ratios'])}"
+               "; the first is solved in one process and timed)"]
               if f["workers"] > 1 else []),
             f"    loop of single solves:       {row['loop_rate']:10,.2f} scenario-solves/s",
             f"    batch / loop: {row['batch_rate'] / row['loop_rate']:,.0f} x (1 process)"

@@ -9,8 +9,9 @@ the case's earlier results (:func:`reserve`); the worker writes its floats into 
 sends only the rest of its table through the pipe; the parent copies the floats out and frees
 the block (:func:`collect`; the blocks are freed when :func:`reserve`'s block ends).
 
-A part whose table does not have the columns the block was sized for (it cannot happen for parts
-of one batch, whose tables have the same columns) is sent back whole, through the pipe.
+A part whose table does not have the columns or rows the block was sized for (the block is sized
+after the same case's earlier batch, whose columns a part's have unless the case differs) is sent
+back whole, through the pipe: slower, never read from the wrong place.
 """
 
 from __future__ import annotations
