@@ -283,3 +283,24 @@ def test_a_case_changed_in_place_is_timed_afresh(fake_solves):
     assert batch_module._remembered(batch_module._identity(case), values, False) is not None
     case.streams["crude"]["flow"] *= 1.1
     assert batch_module._remembered(batch_module._identity(case), values, False) is None
+
+
+def test_a_batch_larger_than_a_piece_is_solved_in_pieces_with_one_order(monkeypatch):
+    """A batch of more than PIECE_SCENARIOS scenarios is solved in pieces one after the other
+    (its arrays within the caches, its memory bounded), all with the calculation order found for
+    the first: the same table and temperatures as one piece, within the tolerance's scatter."""
+    from hxtrain.solver.simulation import evaluation
+
+    path = demo_case_path("crude_preheat")
+    values = {"streams.crude.flow": np.linspace(70.0, 110.0, 23), "exchangers.E-110.bypass.cold": np.linspace(0, 0.3, 23)}
+    whole = simulate_batch(path, values, metrics=True)
+    monkeypatch.setattr(batch_module, "PIECE_SCENARIOS", 5)
+    searches, pieces, search, evaluate = [], [], evaluation.plan_calculation, batch_module.evaluate
+    monkeypatch.setattr(evaluation, "plan_calculation", lambda graph: searches.append(graph) or search(graph))
+    monkeypatch.setattr(batch_module, "evaluate", lambda case, v, **kw: pieces.append(len(v["streams.crude.flow"]))
+                        or evaluate(case, v, **kw))
+    pieced = simulate_batch(path, values, metrics=True)
+    assert pieces == [5, 5, 5, 4, 4] and len(searches) == 1
+    assert list(pieced.table.index) == list(range(23))
+    pd.testing.assert_frame_equal(pieced.table, whole.table, check_exact=False, rtol=1e-11, atol=1e-9)
+    np.testing.assert_allclose(pieced.temperature, whole.temperature, rtol=0, atol=1e-9)

@@ -72,6 +72,15 @@ a scenario as shipped (3,550), 0.011 s and 3.4 µs in the fixed-property form (3
 figures are the cost of the same ~100 numpy operations a pass, called on one scenario or on
 each, so their ratio holds across cases and machines more closely than either. A split saves
 only the scenarios' part; every process pays the fixed cost."""
+PIECE_SCENARIOS = 40_000
+"""Most scenarios solved at once: a larger batch is solved in pieces of at most this many, one
+after the other, in each process. Its arrays then stay within the caches, and its memory stays
+bounded (about 5 kB a scenario on the crude demo: 550 MB at 100,000 at once). Measured on the
+crude demo, idle 2-core machine (CPU time, best of 3, alternated), pieces of 100,000 (none),
+50,000, 40,000, 25,000 and 12,500: 100,000 scenarios with fixed properties 0.53, 0.48, 0.45,
+0.45 and 0.49 s; as shipped 1.85, 1.71, 1.73, 1.81 and 1.98 s; 200,000 with fixed properties
+1.04 s in one piece against 0.82 s in pieces of 40,000. Each piece costs a batch's fixed cost
+(:data:`FIXED_COST_SCENARIOS`), which smaller pieces pay too often."""
 LEARNING_PART = 50_000
 """A case's first split-allowed batch of at least :data:`LEARNING_BATCHES` times this many
 scenarios solves this many here first, timed, and decides the rest by them; a smaller first
@@ -90,8 +99,8 @@ class _Measured:
 
     each: float
     """Seconds a scenario costs in this process alone: the least of the case's batches solved
-    here, each timed in CPU time less its finding of the order, over its scenarios and
-    :data:`FIXED_COST_SCENARIOS` (a process's first batches also pay for its heap's growth)."""
+    here, each timed in CPU time less its finding of the order, over :func:`_in_scenarios` (a
+    process's first batches also pay for its heap's growth)."""
     segments: int
     float_columns: tuple
     """What a worker's shared block is sized after (see :mod:`.part_transfer`)."""
@@ -210,12 +219,11 @@ def _parts(workers, scenarios) -> int:
 
 def _pays(each, scenarios, parts, shared_speed=SHARED_SPEED) -> bool:
     """Whether ``parts`` processes solve ``scenarios`` scenarios of ``each`` seconds sooner than
-    this process alone: alone the batch costs (scenarios + :data:`FIXED_COST_SCENARIOS`) x each;
-    split, every process pays the fixed cost and its share at ``shared_speed``, (scenarios /
-    parts + FIXED_COST_SCENARIOS) x each / shared_speed, and :data:`PROCESS_COST` for every
-    other process."""
-    alone = (scenarios + FIXED_COST_SCENARIOS) * each
-    split = (scenarios / parts + FIXED_COST_SCENARIOS) * each / shared_speed
+    this process alone: alone the batch costs :func:`_in_scenarios` (its scenarios and the fixed
+    cost of each of its pieces) x each; split, every process pays for its share and its own
+    pieces at ``shared_speed``, and :data:`PROCESS_COST` for every other process."""
+    alone = _in_scenarios(scenarios) * each
+    split = _in_scenarios(-(-scenarios // parts)) * each / shared_speed
     return parts > 1 and alone - split > PROCESS_COST * (parts - 1)
 
 
@@ -227,21 +235,21 @@ def _timed_here(case, who, tolerance, max_iterations, metrics, values, plan=None
     start = time.process_time()
     result = _solve_batch(case, values, tolerance, max_iterations, metrics, plan)
     seconds = time.process_time() - start - result.planning_seconds
-    _learn(who, values, metrics, max(0.0, seconds) / (scenario_count(values) + FIXED_COST_SCENARIOS), result)
+    _learn(who, values, metrics, max(0.0, seconds) / _in_scenarios(scenario_count(values)), result)
     return result
 
 
 def _timed_split(case, jobs, tolerance, max_iterations, metrics, plan, measured: _Measured):
     """:func:`_split`, timed: the speed its processes solved at while sharing the machine, what
-    its largest part would cost alone (``measured.each`` x its scenarios and a batch's fixed
-    cost) against the wall time less :data:`PROCESS_COST` for every other process, becomes the
+    its largest part would cost alone (``measured.each`` x :func:`_in_scenarios`) against the
+    wall time less :data:`PROCESS_COST` for every other process, becomes the
     case's ``shared_speed`` for its later batches (a split that did not pay is not made again
     at that size)."""
     start = time.perf_counter()
     results = _split(case, jobs, tolerance, max_iterations, metrics, plan, measured)
     seconds, parts = time.perf_counter() - start, len(jobs)
     solving = seconds - PROCESS_COST * (parts - 1)
-    alone = measured.each * (max(scenario_count(job) for job in jobs) + FIXED_COST_SCENARIOS)
+    alone = measured.each * _in_scenarios(max(scenario_count(job) for job in jobs))
     measured.shared_speed = min(1.0, alone / solving) if solving > 0.0 else 1.0
     return results
 
@@ -289,6 +297,31 @@ def _process_context():
 
 
 def _solve_batch(case, values, tolerance, max_iterations, metrics=False, plan=None) -> BatchResult:
+    """``values`` solved in this process, in pieces of at most :data:`PIECE_SCENARIOS` scenarios
+    one after the other (:func:`_piece_count`), all with the calculation order of the first."""
+    scenarios = scenario_count(values)
+    results = []
+    for piece in _pieces(values, scenarios, _piece_count(scenarios)):
+        results.append(_solve_piece(case, piece, tolerance, max_iterations, metrics, plan))
+        plan = results[0].plan
+    joined = _joined(results)
+    joined.planning_seconds = results[0].planning_seconds
+    return joined
+
+
+def _in_scenarios(scenarios) -> float:
+    """What a batch of ``scenarios`` costs in this process, counted in scenarios: they and a
+    batch's fixed cost for each of its pieces."""
+    return scenarios + _piece_count(scenarios) * FIXED_COST_SCENARIOS
+
+
+def _piece_count(scenarios) -> int:
+    """Pieces a batch of ``scenarios`` is solved in, in this process: one per
+    :data:`PIECE_SCENARIOS` or part of it."""
+    return max(1, -(-int(scenarios) // PIECE_SCENARIOS))
+
+
+def _solve_piece(case, values, tolerance, max_iterations, metrics=False, plan=None) -> BatchResult:
     evaluation = evaluate(case, values, tolerance=tolerance, max_iterations=max_iterations, plan=plan)
     table = pd.DataFrame({path: np.broadcast_to(np.asarray(v, dtype=float).reshape(-1), (evaluation.batch,))
                           for path, v in values.items()})
