@@ -315,6 +315,12 @@ def test_the_html_reports_carry_what_the_console_does(tmp_path, capsys):
     # the table's value as the text gives it (a fraction had shown 0.60 beside 0.5995 in the text)
     values = [re.findall(rf"{key} = (0\.\d{{4}}) gives", section)[0] for key in ("fraction", "cold")]
     assert len(values) == 2 and all(f"<td>{value}</td>" in section for value in values), values
+    # one column per quantity, each number with its unit where the specifications aim at
+    # different kinds (a difference in K, an outlet in °C): the table had shown each heading twice
+    table = section[section.index("<table>"):section.index("</table>")]
+    headings = re.findall(r"<th>([^<]*)</th>", table[:table.index('<tr class="units">')])
+    assert headings.count("achieved") == 1 and headings.count("at low end") == 1, headings
+    assert "<td>0.00 K</td>" in table and "<td>240.0 °C</td>" in table
 
 
 @pytest.mark.parametrize("demo", ["crude_preheat", "desalter_and_reactor", "naphtha_vaporiser", "study"])

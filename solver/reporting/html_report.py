@@ -82,11 +82,15 @@ def limits_section(findings: pd.DataFrame, display: Display, scenario=False, fai
 
 
 def html_table(frame: pd.DataFrame, display: Display, words=None, digits=None, ids=False, limited=(),
-               caption="") -> str:
+               caption="", merged=False) -> str:
     """A table with words and units as two header lines, numbers in their units' decimals;
     ``ids``: rows get ``id="unit-NAME"`` (the targets of the links); rows of ``limited`` units
-    are highlighted."""
+    are highlighted; ``merged``: columns of one heading in several units (each row filling one of
+    them: specifications aiming at a temperature or a difference) shown as one, each number with
+    its unit (:func:`_merged_by_heading`)."""
     headings, units, columns = cells(frame, display, words, digits)
+    if merged:
+        headings, units, columns = _merged_by_heading(headings, units, columns)
     numbered = isinstance(frame.index, pd.RangeIndex) and frame.index.name is None
     index_name = "" if numbered else escape(str(frame.index.name or ""))
     head = ("<tr>" + ("" if numbered else f"<th>{index_name}</th>") + "".join(f"<th>{escape(h)}</th>" for h in headings)
@@ -101,6 +105,28 @@ def html_table(frame: pd.DataFrame, display: Display, words=None, digits=None, i
         body.append(f"<tr{attributes}>" + ("" if numbered else f"<th>{escape(str(name))}</th>") + cells_html + "</tr>")
     title = f"<caption>{escape(caption)}</caption>" if caption else ""
     return f"<div class=\"table\"><table>{title}<thead>{head}</thead><tbody>{''.join(body)}</tbody></table></div>"
+
+
+def _merged_by_heading(headings, units, columns):
+    """Columns that share a heading but not a unit made one: each row's filled cell, followed by
+    its unit; the unit line left empty there. Other columns as they were.
+
+    >>> _merged_by_heading(["name", "achieved", "achieved"], ["", "K", "°C"], [["a", "b"], ["0.00", ""], ["", "240.0"]])
+    (['name', 'achieved'], ['', ''], [['a', 'b'], ['0.00 K', '240.0 °C']])
+    """
+    order = list(dict.fromkeys(headings))
+    merged_headings, merged_units, merged_columns = [], [], []
+    for heading in order:
+        at = [k for k, h in enumerate(headings) if h == heading]
+        if len(at) == 1 or len({units[k] for k in at}) == 1:
+            for k in at:
+                merged_headings.append(heading), merged_units.append(units[k]), merged_columns.append(columns[k])
+            continue
+        rows = len(columns[at[0]])
+        merged_headings.append(heading), merged_units.append("")
+        merged_columns.append([next((f"{columns[k][r]} {units[k]}".strip() for k in at if columns[k][r]), "")
+                               for r in range(rows)])
+    return merged_headings, merged_units, merged_columns
 
 
 def _totals(result: SimulationResult, display: Display) -> str:
@@ -205,7 +231,8 @@ def study_report(study, comparison, display: Display | None = None, specificatio
         body.append(f"<section id=\"specifications\"><h2>Specifications</h2><ul>{items}</ul>"
                     + html_table(specification_table(specifications).drop(columns="message"), display,
                                  digits={"value": 4},  # a fraction as the text above gives it (0.5995, not 0.60)
-                                 caption="Each specification's adjusted value and what it reached") + "</section>")
+                                 caption="Each specification's adjusted value and what it reached", merged=True)
+                    + "</section>")
     if base is not None:
         body.append("<section id=\"network\"><h2>The base case</h2>"
                     f"<figure>{network_svg(base, display)}</figure></section>")
