@@ -430,3 +430,8 @@ def test_the_ladder_exponent_counts_a_shape_built_of_whole_trains():
                   converged=True) for r in rows]
     text = ladder_text(timed, "varying")
     assert "chained n/a (fewer than two sizes)" in text and "nan" not in text
+    # the peak above the process's memory before the network: the interpreter's own is not the network's
+    measured = ladder_text([dict(timed[0], peak=263.0, start=126.0)], "varying").splitlines()
+    heading = next(line for line in measured if "peak MB" in line)
+    row = next(line for line in measured if line.startswith("side_by_side"))
+    assert heading.index("above") < heading.index("tears") and row.split()[-5:-3] == ["263", "137"], row

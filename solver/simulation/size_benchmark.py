@@ -35,18 +35,33 @@ def _reset_peak() -> bool:
         return False
 
 
-def _peak_mb() -> float:
+def _status_mb(field) -> float | None:
+    """A memory figure of ``/proc/self/status`` (Linux: ``VmHWM`` the peak, ``VmRSS`` now) in
+    MB; None where there is none."""
     try:
         with open("/proc/self/status", encoding="ascii") as status:
             for line in status:
-                if line.startswith("VmHWM:"):
+                if line.startswith(f"{field}:"):
                     return int(line.split()[1]) / 1024.0
     except OSError:
         pass
+    return None
+
+
+def _peak_mb() -> float:
+    peak = _status_mb("VmHWM")
+    if peak is not None:
+        return peak
     import resource
 
     scale = 1.0 if sys.platform == "darwin" else 1024.0
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / scale / 1024.0
+
+
+def _resident_mb() -> float:
+    """The process's resident memory now (Linux); NaN elsewhere."""
+    now = _status_mb("VmRSS")
+    return float("nan") if now is None else now
 
 
 def measure(shape, units, properties="varying") -> dict:
@@ -74,6 +89,7 @@ def measure(shape, units, properties="varying") -> dict:
                                                                        state["case"].settings.tolerance), 0)),
     }
     resettable = _reset_peak()
+    start_mb = _resident_mb()  # the interpreter and the libraries, before the network
     for stage in STAGES:
         _reset_peak()
         start = time.perf_counter()
@@ -85,6 +101,7 @@ def measure(shape, units, properties="varying") -> dict:
     bounds = [b.lower_bound for b in state["plan"] if b.tears]
     return {"shape": shape, "properties": properties, "units": unit_count(mapping), "times": times, "peaks": peaks,
             "total": sum(times.values()), "peak": max(peaks.values()), "peak_per_stage": resettable,
+            "start": start_mb,
             "tears": tears, "tears_at_least": sum(b for b in bounds if b is not None),
             "iterations": solution.iterations, "converged": bool(solution.converged.all()),
             "balance": float(state["result"].balance["relative_imbalance"])}
@@ -131,15 +148,19 @@ def _shown(value) -> str:
 def ladder_text(rows, properties) -> str:
     stages = " ".join(f"{s:>9}" for s in STAGES)
     lines = [f"size ladder ({properties} properties): seconds per stage, peak resident memory (MB) of the "
-             "largest stage", f"{'shape':<15}{'units':>7} {stages} {'total':>8} {'peak MB':>8} {'tears':>12} "
-             f"{'iter':>5}"]
+             "largest stage and that peak above the process's memory before the network (the interpreter and "
+             "the libraries)", f"{'shape':<15}{'units':>7} {stages} {'total':>8} {'peak MB':>8} {'above':>6} "
+             f"{'tears':>12} {'iter':>5}"]
     for r in rows:
         if "error" in r:
             lines.append(f"{r['shape']:<15}{r['units']:>7}  {r['error']}")
             continue
         times = " ".join(f"{r['times'][s]:9.3f}" for s in STAGES)
         tears = f"{r['tears']} (>={r['tears_at_least']})"
-        lines.append(f"{r['shape']:<15}{r['units']:>7} {times} {r['total']:8.2f} {r['peak']:8.0f} {tears:>12} "
+        above = r["peak"] - r.get("start", float("nan"))
+        above = f"{above:6.0f}" if above == above else f"{'':>6}"  # not known off Linux
+        lines.append(f"{r['shape']:<15}{r['units']:>7} {times} {r['total']:8.2f} {r['peak']:8.0f} {above} "
+                     f"{tears:>12} "
                      f"{r['iterations']:>5}{'' if r['converged'] else '  NOT CONVERGED'}")
     shapes = list(dict.fromkeys(r["shape"] for r in rows))
     lines.append("fitted exponent of the total time (sizes >= 1000 units): " +
