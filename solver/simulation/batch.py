@@ -104,6 +104,9 @@ class _Measured:
     segments: int
     float_columns: tuple
     """What a worker's shared block is sized after (see :mod:`.part_transfer`)."""
+    plan: list | None = None
+    """The calculation order found for the case's batches (the same file or content, the same
+    varied keys): a later batch and its parts reuse it."""
     shared_speed: float = SHARED_SPEED
     """How fast this case's processes solved while the others did too, against alone: as
     :data:`SHARED_SPEED` until a split of its batches is timed (:func:`_timed_split`), then as
@@ -136,6 +139,7 @@ def _learn(who, values, metrics, each, result) -> _Measured:
     known = _MEASURED.pop(key, None) or _Measured(each, 0, ())
     known.each = min(known.each, each)
     known.segments, known.float_columns = result.temperature.shape[1], part_transfer.float_columns(result.table)
+    known.plan = result.plan
     _MEASURED[key] = known  # the latest last
     while len(_MEASURED) > REMEMBERED:
         _MEASURED.pop(next(iter(_MEASURED)))
@@ -204,7 +208,7 @@ def _decided(case, who, tolerance, max_iterations, metrics, values, workers, pla
     """(the results of ``values``' parts, how many processes solved them): split where what the
     case measured says it pays, else solved here and timed."""
     scenarios, known = scenario_count(values), _remembered(who, values, metrics)
-    parts = _parts(workers, scenarios)
+    parts, plan = _parts(workers, scenarios), plan or (known and known.plan)
     if known is None or not _pays(known.each, scenarios, parts, known.shared_speed):
         return [_timed_here(case, who, tolerance, max_iterations, metrics, values, plan)], 1
     return _timed_split(case, _pieces(values, scenarios, parts), tolerance, max_iterations, metrics, plan,
