@@ -11,7 +11,6 @@ from __future__ import annotations
 import dataclasses
 import difflib
 import math
-import re
 from dataclasses import dataclass
 from typing import Callable
 
@@ -159,21 +158,16 @@ def resolve_duty_unit(net: Network, text, error: Callable[[str], CaseError] | No
 
 # ----------------------------------------------------------------------------- units of readings
 
-_MILLION_BTU = re.compile(r"(?<![A-Za-z_])MMBtu(?![A-Za-z_])", re.IGNORECASE)
-_AMBIGUOUS_BTU = re.compile(r"(?<![A-Za-z_])MBtu(?![A-Za-z_])", re.IGNORECASE)
-
-
 def trade_units(text: str) -> str:
-    """The trade's 'MMBtu' (a million Btu) in pint's spelling, 'MBtu' (pint's mega-Btu); a
-    written 'MBtu' (a thousand Btu to some, a million to others) is refused as ambiguous.
+    """``text`` with the trade's units checked: 'MMBtu' is a million Btu; 'MBtu' and 'Mlb' (a
+    thousand to some, a million to others) are refused as ambiguous
+    (:func:`~.quantities.unit_spelling`, which every quantity of every file goes through).
 
     >>> trade_units("25 MMBtu/h")
-    '25 MBtu/h'
+    '25 MMBtu/h'
     """
-    if _AMBIGUOUS_BTU.search(text):
-        raise q.QuantityError(f"{shorten(text)}: 'MBtu' means a thousand Btu to some and a million to others; "
-                              "write 'kBtu' or 'MMBtu'")
-    return _MILLION_BTU.sub("MBtu", text)
+    q.unit_spelling(text, q.NUMBER)
+    return text
 
 
 def unbounded(kind: q.Kind) -> q.Kind:

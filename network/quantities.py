@@ -311,9 +311,26 @@ _TYPESET = {"\u00b7": "*", "\u22c5": "*", "\u00b2": "^2", "\u00b3": "^3"}
 """Data sheets' middle dot and superscripts ('Btu/h·ft²·°F') in pint's spelling."""
 
 
+_THOUSAND_OR_MEGA = re.compile(r"(?<![A-Za-z_])M(btu|lbm?|lbs)(?![A-Za-z_])", re.IGNORECASE)
+"""'MBtu', 'Mlb': M is a thousand in the trade's old usage (MBtu/h, Mlb/h) and mega in SI."""
+
+
 def unit_spelling(unit_text: str, kind: Kind) -> str:
     """Units as written ('°F', 'Btu/h·ft²·°F', '%') in pint's spelling; outside temperature
-    levels a degree is a difference (delta_degF)."""
+    levels a degree is a difference (delta_degF). 'MBtu' and 'Mlb' are refused as ambiguous.
+
+    >>> unit_spelling("Mlb/h", MASS_FLOW)
+    Traceback (most recent call last):
+    ...
+    hxtrain.network.quantities.QuantityError: 'Mlb/h': M means a thousand in the trade's 'Mlb' and a million in SI; write 'klb' for a thousand or 'lb' times 1e6
+    """
+    ambiguous = _THOUSAND_OR_MEGA.search(unit_text)
+    if ambiguous:
+        what = "Btu" if ambiguous.group(1).lower() == "btu" else "lb"
+        instead = "'kBtu' for a thousand or 'MMBtu' for a million" if what == "Btu" else \
+            "'klb' for a thousand or 'lb' times 1e6"
+        raise QuantityError(f"{shorten(unit_text)}: M means a thousand in the trade's '{ambiguous.group(0)}' and a "
+                            f"million in SI; write {instead}")
     if unit_text == "%":
         return "percent"
     if kind.unit in ("kPa", "Pa") and unit_text in _ABSOLUTE_PRESSURE:
