@@ -111,7 +111,12 @@ def _read_arrangement(f: Fields):
         raise f.error("mixed_side", "'mixed_side' applies to arrangement crossflow only")
     shells_flow = f.choice("shells_flow", FLOWS, required=False, default="counterflow")
     probe = arranged(name, **{k: v for k, v in options.items() if k != "passes"})
-    needs_side = line.sided(passes, probe.options) or any(f.has(k) for k in THERMAL_KEYS)
+    by_films = [k for k in THERMAL_KEYS if f.has(k)]
+    needs_side = line.sided(passes, probe.options) or bool(by_films)
+    if needs_side and not f.has("shell_side"):
+        why = (f"'{by_films[0]}' gives each side's film" if by_films else
+               f"with {passes} tube passes the {name} relation is not the same for both sides")
+        raise f.doc.error(f.path, f"missing key 'shell_side' (hot or cold: the stream in the shell): {why}")
     shell_side = f.choice("shell_side", SIDES, required=needs_side, default="hot")
     if "passes" in options:  # a plate's passes as (the shell_side stream's, the other's)
         options["passes"] = (options["passes"][shell_side], options["passes"][_other(shell_side)])

@@ -311,6 +311,10 @@ _TYPESET = {"\u00b7": "*", "\u22c5": "*", "\u00b2": "^2", "\u00b3": "^3"}
 """Data sheets' middle dot and superscripts ('Btu/h·ft²·°F') in pint's spelling."""
 
 
+_DATA_SHEET_POWER = re.compile(r"(?<![A-Za-z_])(ft|in|m|cm|mm)([23])(?![\w^])")
+"""An area or a volume as data sheets write it: 'ft2', 'm2', 'in3'."""
+_DATA_SHEET_PRODUCT = re.compile(r"[\u00b7\u22c5]|(?<=[A-Za-z0-9\u00b2\u00b3°])-(?=[A-Za-z°])")
+"""A middle dot, or a hyphen between two units ('hr-ft2-°F'; not the minus of an exponent, 's^-1')."""
 _THOUSAND_OR_MEGA = re.compile(r"(?<![A-Za-z_])M(btu|lbm?|lbs)(?![A-Za-z_])", re.IGNORECASE)
 """'MBtu', 'Mlb': M is a thousand in the trade's old usage (MBtu/h, Mlb/h) and mega in SI."""
 
@@ -335,9 +339,11 @@ def unit_spelling(unit_text: str, kind: Kind) -> str:
         return "percent"
     if kind.unit in ("kPa", "Pa") and unit_text in _ABSOLUTE_PRESSURE:
         return _ABSOLUTE_PRESSURE[unit_text]
+    unit_text = _DATA_SHEET_POWER.sub(r"\1^\2", unit_text)  # 'ft2' for ft²
     over, slash, under = unit_text.partition("/")
-    if slash and "/" not in under and any(dot in under for dot in "\u00b7\u22c5"):
-        unit_text = f"{over}/({under})"  # 'Btu/h·ft²·°F': the dotted units after the slash are all below it
+    if slash and "/" not in under and _DATA_SHEET_PRODUCT.search(under):
+        # 'Btu/h·ft²·°F', 'BTU/hr-ft2-°F': the units joined after the slash are all below it
+        unit_text = f"{over}/({_DATA_SHEET_PRODUCT.sub('*', under)})"
     for sign, spelt in _TYPESET.items():
         unit_text = unit_text.replace(sign, spelt)
     unit_text = _spell_degrees(unit_text)

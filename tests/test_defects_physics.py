@@ -288,16 +288,24 @@ def test_a_design_temperature_exceeded_on_both_sides_names_each_side():
     assert named.iloc[0] == "E-1 design_temperature (hot); E-1 design_temperature (cold)"
 
 
-def test_a_side_bypassed_whole_is_not_held_to_its_design_temperature():
-    """All the water round E-1 (the exchanger isolated on that side): nothing of it is inside to
-    limit, though it arrives above the design temperature; with 99 % round, the 1 % inside is
-    held to it (a new user's trial: the limit was reported at the inlet temperature)."""
-    data = _bypassed_water_case(25.0)
+def test_a_side_bypassed_whole_is_held_to_the_other_sides_inlet():
+    """All the water round E-1 (that side isolated) while the oil still flows at 120 °C: none of
+    the water arriving at 30 °C is inside (an earlier trial: the limit had been reported at the
+    water's inlet), but the tubes and what stands in them go towards the oil's inlet, 120 °C, and
+    that is what the side's design temperature is checked against (a no_flow warning says why).
+    With 99 % round, the 1 % inside is held to its own outlet; with the oil stopped too, the
+    exchanger is isolated and nothing is checked."""
+    data = _bypassed_water_case(100.0)
     data["exchangers"]["E-1"]["bypass"] = {"cold": 1.0}
-    assert not (simulate(case_from_mapping(data, "<test>")).findings["kind"] == "design_temperature").any()
+    findings = simulate(case_from_mapping(data, "<test>")).findings.set_index("kind")
+    assert "reaches 120.0 °C, above its design temperature of 100.0 °C" in findings.loc["design_temperature", "message"]
+    assert "flows at 120.0 °C" in findings.loc["no_flow", "message"]
+    data = _bypassed_water_case(25.0)
     data["exchangers"]["E-1"]["bypass"] = {"cold": 0.99}
     limits = simulate(case_from_mapping(data, "<test>")).findings
     assert (limits["kind"] == "design_temperature").sum() == 1
+    data["exchangers"]["E-1"]["bypass"] = {"cold": 1.0, "hot": 1.0}
+    assert not simulate(case_from_mapping(data, "<test>")).findings["kind"].isin(["design_temperature", "no_flow"]).any()
 
 
 def test_a_bypassed_side_shows_its_outlet_inside_the_exchanger():

@@ -232,6 +232,31 @@ def test_a_bypass_is_in_the_table_and_drawn_round_its_unit_on_its_side():
     assert ">bypass hot 25%</text>" in svg and ">bypass cold 40%</text>" in svg  # in print too, not only a title
 
 
+def test_a_loop_through_both_sides_of_an_exchanger_draws_its_bypass_on_the_side_bypassed():
+    """A feed-effluent loop: one path passes E-2's cold side, a heater, then E-2's hot side, and
+    an air cooler. The cold side's bypass is drawn once, on the heated (blue) stream (a trial
+    found no arc at all, and a hot bypass drawn on both); the air cooler, whose process is its hot
+    side, is drawn as a cooler, not in the heaters' colour."""
+    from hxtrain.solver.reporting import network_diagram as diagram
+
+    data = {"fluids": {"feed": {"cp": 2.3}},
+            "streams": {"feed": {"fluid": "feed", "flow": 20, "supply_temperature": 40,
+                                 "path": "E-2.cold -> F-1 -> E-2.hot -> A-1 -> product"}},
+            "heaters": {"F-1": {"outlet_temperature": 350}},
+            "exchangers": {"E-2": {"arrangement": "counterflow", "ua": 60, "bypass": {"cold": 0.1}}},
+            "air_coolers": {"A-1": {"tube_rows": 4, "tube_passes": 2, "ua": 40,
+                                    "air": {"inlet_temperature": 30, "flow": 150}}},
+            "products": {"product": {}}}
+    result = simulate(case_from_mapping(data, "<test>"))
+    svg = diagram.network_svg(result, Display())
+    arcs = re.findall(r'fill="none" stroke="(#\w+)"[^>]*><title>([^<]+)</title>', svg)
+    assert arcs == [(diagram.HEATED, "E-2: 10% of the cold side goes round it (bypass)")], arcs
+    assert ">bypass cold 10%</text>" in svg
+    cooler = re.search(r'<rect [^>]*fill="(#\w+)"[^>]*/>\s*<text[^>]*>A-1<', svg)
+    heater = re.search(r'<rect [^>]*fill="(#\w+)"[^>]*/>\s*<text[^>]*>F-1<', svg)
+    assert (cooler.group(1), heater.group(1)) == (diagram.COOLS, diagram.HEATS)
+
+
 def test_a_hot_stream_whose_exchanger_is_bypassed_whole_is_still_drawn_cooled():
     """The oil all round its one exchanger: its temperature does not change, but it passes a hot
     side, so it is drawn cooled (rust, right to left) and profiled among the cooled streams (a new

@@ -50,6 +50,12 @@ def _bypass(spec, side):
     return spec.bypass_hot if side == "hot" else spec.bypass_cold
 
 
+def _exposed(flows, t_in, t_inside, towards):
+    """(inlet, outlet inside) a side's design temperature is checked against: its own where it
+    flows, else ``towards`` (the other side's inlet while that one flows, else NaN: nothing)."""
+    return np.where(flows, t_in, towards), np.where(flows, t_inside, towards)
+
+
 def _inside_words(bypass) -> str:
     """Where a side's peak is read: inside the exchanger where the side has a bypass (in every
     scenario: "its"; in some: "any", as in a schedule whose cleanings bypass the exchanger)."""
@@ -389,13 +395,17 @@ class Exchanger(UnitBase):
         # a side's peak is inside the exchanger: its outlet there, ahead of any bypass that
         # mixes back what went round (the mixed outlet lies between that and the inlet)
         inside, inlets_t = _outlets_inside(x), {"hot": t_hot, "cold": t_cold}
-        # what passes through the shells and tubes counts, not what goes round them: a side
-        # bypassed whole (an exchanger isolated) has no temperature inside to limit
+        # what passes through the shells and tubes counts, not what goes round them; a side with
+        # nothing through it (bypassed whole, a closed branch) goes towards the other side's inlet
+        # while that one flows (its metal and what stands in it: the no_flow warning), and has
+        # nothing to limit where neither flows (an exchanger isolated)
         through = dict(zip(("hot", "cold"), through_exchanger(self.spec, inlets.m[:, 0], inlets.m[:, 1])))
         findings = design_temperature_findings({
             f"the {side} side {_inside_words(_bypass(self.spec, side))}":
                 (f"{key}.design_temperature.{side}", design.get(side),
-                 np.where(through[side] > 0.0, inlets_t[side], np.nan), inside[side]) for side in inside})
+                 *_exposed(through[side] > 0.0, inlets_t[side], inside[side],
+                           np.where(through[other] > 0.0, inlets_t[other], np.nan)))
+            for side, other in (("hot", "cold"), ("cold", "hot"))})
         for side, m in through.items():
             limit = self.limits.get("maximum_flow", {}).get(side)
             if limit is not None:

@@ -81,7 +81,9 @@ def rows_of(result: SimulationResult) -> tuple[list[Row], set, set]:
             if end in junctions:
                 nodes.append(end)
             chunk = temperatures[first:last + 1]
-            sides = {s.unit: s.side for s in origin.path}
+            # the sides this turn passes: a path may pass both sides of one exchanger (a feed-effluent
+            # loop), each in a turn of its own
+            sides = {s.unit: s.side for s in origin.path[first:last]}
             rows.append(Row(origin.name if k == 0 else f"{origin.name} ({k + 1})", nodes, sides, start, end,
                             _heated(chunk, [sides.get(n) for n in nodes]), utility, chunk))
     _level_rows_follow_their_stream(rows)
@@ -295,6 +297,15 @@ def _arrow(x, y, step, colour) -> str:
     return (f'<path d="M{x - step * 7},{y - 6} L{x + step * 3},{y} L{x - step * 7},{y + 6} z" fill="{colour}"/>')
 
 
+def _heats_its_stream(units: pd.DataFrame, node) -> bool:
+    """Whether a unit drawn on one stream heats it: a heater has only a cold side (its process);
+    an air cooler has both (its process the hot side, the air the cold), and cools."""
+    def known(column):
+        return column in units and node in units.index and units.at[node, column] == units.at[node, column]
+
+    return known("cold_in_c") and not known("hot_in_c")
+
+
 def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display, bypasses=None,
           linked=False) -> list[str]:
     """A unit's symbol, tag and duty, ringed by its worst finding, linked to its table row (where
@@ -324,7 +335,7 @@ def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display
         for yy in ys:
             parts.append(f'<circle cx="{x}" cy="{yy}" r="9" fill="#fff" stroke="{ring}" stroke-width="{thick}"/>')
     else:
-        heats = (units.at[node, "cold_in_c"] == units.at[node, "cold_in_c"]) if "cold_in_c" in units else False
+        heats = _heats_its_stream(units, node)
         parts.append(f'<rect x="{x - 10}" y="{top - 10}" width="20" height="20" rx="5" fill="{HEATS if heats else COOLS}" '
                      f'stroke="{ring}" stroke-width="{thick}"/>')
     colour = LIMIT if worst == "limit" else "#222"
