@@ -357,6 +357,28 @@ def _is_volume_flow(ureg, unit_text: str) -> bool:
         return False
 
 
+def in_written_terms(written, number: float, kind: Kind, digits: int = 2) -> str:
+    """``number`` (in ``kind``'s default unit) as a message gives it beside a value written
+    ``written``: in the default unit, and in the written value's unit too where it has another
+    one, so that a file in US units reads its own terms.
+
+    >>> in_written_terms("10 psia", 89.53, TEMPERATURE)
+    '89.53 °C'
+    >>> in_written_terms("200 degF", 89.53, TEMPERATURE)
+    '89.53 °C (193.15 degF)'
+    """
+    shown = f"{number:.{digits}f} {kind.shown_unit}".strip()
+    match = NUMBER_AT_START.match(written) if isinstance(written, str) else None
+    unit = match.group(2) if match else ""
+    try:
+        scale, offset = conversion_to(unit, kind) if unit else (1.0, 0.0)
+    except QuantityError:
+        return shown
+    if (scale, offset) == (1.0, 0.0):
+        return shown
+    return f"{shown} ({(number - offset) / scale:.{digits}f} {unit})"
+
+
 def conversion_to(unit_text: str, kind: Kind) -> tuple[float, float]:
     """(scale, offset) with value in ``kind``'s default unit = scale · value in ``unit_text`` +
     offset: how reports show values in a chosen unit (settings.display_units). Raises

@@ -276,10 +276,13 @@ def _read_steam_heater(f: Fields, reading: Reading) -> dict:
     }
     t_sat = saturation_temperature(data["steam_pressure"])
     if data["outlet_temperature"] is not None and data["outlet_temperature"] >= t_sat:
+        written = f.value["outlet_temperature"]
         raise f.error("outlet_temperature",
-                      f"{data['outlet_temperature']:g} °C is at or above the saturation temperature of the steam "
-                      f"({t_sat:.2f} °C at {data['steam_pressure']:g} kPa): condensing steam cannot heat a stream "
-                      "there; raise 'steam_pressure' or lower 'outlet_temperature'")
+                      f"{q.shorten(written)} ({q.in_written_terms(None, data['outlet_temperature'], q.TEMPERATURE)}) is "
+                      "at or above the saturation temperature of the steam at "
+                      f"{q.shorten(f.value['steam_pressure'])}, {q.in_written_terms(written, t_sat, q.TEMPERATURE)}: "
+                      "condensing steam cannot heat a stream there; raise 'steam_pressure' or lower "
+                      "'outlet_temperature'")
     f.text("description")
     f.finish()
     return data

@@ -300,6 +300,17 @@ def steam_case(setting, t_in=60.0, pressure="10 bar", crude=None, flow=25.0):
     }
 
 
+def test_a_steam_outlet_refused_in_a_us_file_is_worded_in_its_terms():
+    """'200 degF' at '10 psia' (89.53 °C, IAPWS-IF97): the refusal quotes both as written and
+    gives the saturation temperature in °F too (a trial: a US file's error read in °C and kPa)."""
+    with pytest.raises(CaseError) as refused:
+        case_from_mapping(steam_case({"outlet_temperature": "200 degF"}, pressure="10 psia"))
+    message = str(refused.value)
+    t_sat = saturation_temperature(10 * 6.894757293168361)
+    assert f"'200 degF' (93.33 °C) is at or above the saturation temperature of the steam at '10 psia'" in message
+    assert f"{t_sat:.2f} °C ({t_sat * 1.8 + 32:.2f} degF)" in message
+
+
 def test_steam_heater_by_ua_follows_the_isothermal_effectiveness_exactly():
     """R = 0: ε = 1 − exp(−NTU), NTU = UA/(ṁ·cp) (Incropera et al., ε–NTU for Cr = 0)."""
     ua, flow, cp, t_in = 80.0, 25.0, 2.2, 60.0
