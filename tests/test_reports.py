@@ -335,6 +335,8 @@ def test_the_html_reports_carry_what_the_console_does(tmp_path, capsys):
     code, out, err = run_in_process(capsys, "report", study, "--out", tmp_path / "s.html")
     assert code == 0, err
     page = (tmp_path / "s.html").read_text(encoding="utf-8")
+    # each variant with what it changes, as the study file writes it (a trial: names alone)
+    assert "(bypass: E-110.cold, fraction: 0.3)" in page and "(add_shells: E-104, count: 1)" in page
     section = page[page.index('<section id="specifications">'):]
     assert "branch_balance" in section and "e110_outlet_by_bypass" in section and "met - " in section
     # the table's value as the text gives it (a fraction had shown 0.60 beside 0.5995 in the text)

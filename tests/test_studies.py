@@ -1216,11 +1216,10 @@ def test_a_heaters_row_is_named_as_its_result_is():
     assert comparison.table.loc["C-101 outlet_c", "base"] == metric(base, "C-101.outlet")
 
 
-def test_a_sweep_names_the_limits_its_points_violate(tmp_path, capsys):
-    """At 115 % crude flow four tube sides pass their allowable pressure drop: the sweep's
-    report boxes each violated limit with the points where it is (it had printed only counts),
-    and each row of the written table names its limits, the same ones a separate run of that
-    point reports."""
+def _flow_sweep_beside_single_runs(tmp_path, capsys, severity):
+    """The console of a two-point crude-flow sweep (85 % and 115 %), and for each point the
+    findings of ``severity`` its row names and those a separate run of that point reports (both
+    as 'unit check')."""
     study = write(tmp_path, f"""
         base: {CRUDE}
         sweeps:
@@ -1232,15 +1231,38 @@ def test_a_sweep_names_the_limits_its_points_violate(tmp_path, capsys):
     out_file = tmp_path / "sweep.csv"
     code, out, err = run_cli(capsys, "sweep", study, "--out", out_file)
     assert code == 0, err
-    assert "LIMITS VIOLATED" in out and "E-102 pressure_drop (tube): 1 of 2 (50%), points 2" in out
-    rows = pd.read_csv(out_file, keep_default_na=False)
-    data = read_document(CRUDE).data
-    for _, row in rows.iterrows():
+    column = {"limit": "violated_limits", "warning": "warning_names"}[severity]
+    data, points = read_document(CRUDE).data, []
+    for _, row in pd.read_csv(out_file, keep_default_na=False).iterrows():
         data["streams"]["crude"]["flow"] = f"{row['streams.crude.flow'] * 342.0} t/h"
-        limits = simulate(case_from_mapping(copy.deepcopy(data), str(CRUDE))).limits
-        expected = {f"{u} {k}" for u, k in zip(limits["unit"], limits["kind"])}
-        named = {label.split(" (")[0] for label in row["violated_limits"].split("; ") if label}
-        assert named == expected
+        findings = simulate(case_from_mapping(copy.deepcopy(data), str(CRUDE))).findings
+        found = findings[findings["severity"] == severity]
+        points.append(([label for label in row[column].split("; ") if label],
+                       {f"{u} {k}" for u, k in zip(found["unit"], found["kind"])}))
+    return out, points
+
+
+def test_a_sweep_names_the_limits_its_points_violate(tmp_path, capsys):
+    """At 115 % crude flow four tube sides pass their allowable pressure drop: the sweep's
+    report boxes each violated limit with the points where it is (it had printed only counts),
+    and each row of the written table names its limits, the same ones a separate run of that
+    point reports."""
+    out, points = _flow_sweep_beside_single_runs(tmp_path, capsys, "limit")
+    assert "LIMITS VIOLATED" in out and "E-102 pressure_drop (tube): 1 of 2 (50%), points 2" in out
+    for named, expected in points:
+        assert {label.split(" (")[0] for label in named} == expected
+
+
+def test_a_sweep_names_the_warnings_it_counts(tmp_path, capsys):
+    """A trial: a sweep's rows counted their warnings, and neither the console nor the file said
+    which. Each row of the written table names them, as a separate run of that point reports
+    them; the console lists each with the points it is in."""
+    out, points = _flow_sweep_beside_single_runs(tmp_path, capsys, "warning")
+    for k, (named, expected) in enumerate(points):
+        assert {label.split(" (")[0] for label in named} == expected and expected
+        for label in named:
+            listed = next(line for line in out.splitlines() if line.startswith(f"  * {label}: "))
+            assert listed.endswith((f"points {k + 1}", "points 1-2")), listed
 
 
 def test_a_sweep_shows_small_swept_values_as_they_differ(tmp_path, capsys):

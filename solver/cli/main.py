@@ -141,7 +141,8 @@ def _sweep(args) -> int:
     from hxtrain.solver.reporting.files import with_whole_counts
     import pandas as pd
 
-    from hxtrain.solver.reporting.text import boxed, limit_counts, limits_over_scenarios, note_lines, paths_of_the_case
+    from hxtrain.solver.reporting.text import boxed, limit_counts, limits_over_scenarios, note_lines, \
+        paths_of_the_case, warnings_over_scenarios
     from hxtrain.solver.simulation.results import CAUTION
     from hxtrain.solver.studies import run_sweep
     from hxtrain.solver.studies.sweeps import grid_columns_with_units
@@ -166,13 +167,15 @@ def _sweep(args) -> int:
     display = current()
     for name, table in tables.items():
         print(f"\nSweep {name}\n{'-' * (6 + len(name))}")
-        print(render(with_whole_counts(table.drop(columns=["message", "status_text", "violated_limits"])), display,
+        print(render(with_whole_counts(table.drop(columns=["message", "status_text", "violated_limits",
+                                                           "warning_names"], errors="ignore")), display,
                      digits={"relative_imbalance": ".1e", **dict.fromkeys(grids[name], TELL_APART)}))
         failed = table[~table["success"].astype(bool)]
         print("\n".join(boxed(f"POINTS OF SWEEP {name} WITH NO ANSWER ({paths_of_the_case(study)})",
                                (f"point {k + 1}: {display.message(m)}"
                                 for k, m in zip(failed.index, failed["message"])))))
-        print("\n".join(limits_over_scenarios(table, f"points of sweep {name}", display, name_rows="point")))
+        print("\n".join(limits_over_scenarios(table, f"points of sweep {name}", display, name_rows="point")
+                        + warnings_over_scenarios(table, f"points of sweep {name}", display, name_rows="point")))
     print("\n" + "\n".join(note_lines(current())))
     _say_written(written)
     return EXIT_OK

@@ -209,8 +209,9 @@ def study_report(study, comparison, display: Display | None = None, specificatio
     display = (display or current()).with_case(_base_case(base))
     body = _header(study.title or str(study.file), f"study file {study.file}", display)
     body.append(limits_section(comparison.findings, display, scenario=True, failures=comparison.failures))
-    variants = "".join(f"<li><b>{escape(n)}</b>{': ' + escape(d) if d else ''}</li>"
-                       for n, (d, _, _) in study.variants.items())
+    variants = "".join(f"<li><b>{escape(n)}</b>{': ' + escape(d) if d else ''} <span class=\"changes\">"
+                       f"({escape(_changes_as_written(changes))})</span></li>"
+                       for n, (d, changes, _) in study.variants.items())
     changes = (f"<figure>{study_duty_changes_svg(comparison, display)}</figure>" if study.variants
                else "<p>The study has no variants: no changes from the base to draw.</p>")
     body.append(f"<section id=\"variants\"><h2>Variants</h2><ul>{variants}</ul>"
@@ -237,6 +238,12 @@ def study_report(study, comparison, display: Display | None = None, specificatio
         body.append("<section id=\"network\"><h2>The base case</h2>"
                     f"<figure>{network_svg(base, display)}</figure></section>")
     return _page(study.title or "hxtrain study", body)
+
+
+def _changes_as_written(changes) -> str:
+    """A variant's changes as its study file writes them ("bypass: E-110.cold, fraction: 0.3")."""
+    return "; ".join(", ".join(f"{k}: {v}" for k, v in change.items()) if isinstance(change, dict) else str(change)
+                     for change in changes)
 
 
 def _base_case(result):

@@ -19,6 +19,7 @@ warning in amber; every unit links to its row in the report's tables.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from html import escape
 
@@ -27,6 +28,7 @@ import pandas as pd
 
 from hxtrain.solver.simulation.results import SimulationResult
 
+from .console_tables import fixed
 from .display_units import Display
 
 COLUMN, ROW, LEFT, TOP = 92, 62, 0, 40
@@ -297,6 +299,18 @@ def _arrow(x, y, step, colour) -> str:
     return (f'<path d="M{x - step * 7},{y - 6} L{x + step * 3},{y} L{x - step * 7},{y + 6} z" fill="{colour}"/>')
 
 
+def _duty_text(value, digits) -> str:
+    """A duty beside its unit: one decimal, or as many as give three significant figures (1.85
+    MMBtu/h, not 1.8), at most the unit's own ``digits``.
+
+    >>> _duty_text(7590.44, 1), _duty_text(1.846, 3), _duty_text(25.93, 3), _duty_text(0.0, 3)
+    ('7,590.4', '1.85', '25.9', '0.0')
+    """
+    size = abs(value)
+    wanted = 2 - int(math.floor(math.log10(size))) if size > 0.0 and math.isfinite(size) else 1
+    return fixed(value, max(min(digits, 1), min(digits, wanted)))
+
+
 def _heats_its_stream(units: pd.DataFrame, node) -> bool:
     """Whether a unit drawn on one stream heats it: a heater has only a cold side (its process);
     an air cooler has both (its process the hot side, the air the cold), and cools."""
@@ -348,7 +362,7 @@ def _unit(node, x, ys, junction, units: pd.DataFrame, severity, display: Display
     if duty == duty:
         column = display.column("x_kw")
         parts.append(f'<text {beside} y="{top + 24}" font-size="10" fill="#444"{HALO}>'
-                     f'{display.value("duty", duty):,.{min(column.digits, 1)}f} {column.label}</text>')
+                     f'{_duty_text(display.value("duty", duty), column.digits)} {column.label}</text>')
     if bypasses:
         words = ", ".join(f"{side} {fraction:.0%}" for side, (fraction, _) in sorted(bypasses.items(), reverse=True))
         parts.append(f'<text {beside} y="{top + 36}" font-size="10" fill="#444"{HALO}>bypass {escape(words)}</text>')

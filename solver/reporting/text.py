@@ -144,23 +144,41 @@ def limits_over_scenarios(table, noun: str, display: Display | None = None, name
     ``violated_limits`` column) and in how many of them (``noun``: "points of sweep x",
     "samples"), most often first (:func:`limit_counts`); with ``name_rows`` ("point") also which
     rows, counted from 1 (a sweep's points); none where no scenario violates one."""
-    counts, total = limit_counts(table), len(table)
-    lines = [f"{row.limit}: {row.scenarios:,} of {total:,} ({row.share:.0%})"
-             + (f", {name_rows}s {row.rows}" if name_rows else "") for row in counts.itertuples()]
-    hit = int(sum(bool(text) for text in table.get("violated_limits", ())))
-    return boxed("LIMITS VIOLATED", lines, count=f"{len(lines)} limit(s), in {hit:,} of {total:,} {noun}",
+    lines, hit = _counted_lines(table, "violated_limits", name_rows)
+    return boxed("LIMITS VIOLATED", lines, count=f"{len(lines)} limit(s), in {hit:,} of {len(table):,} {noun}",
                  display=display)
 
 
-def limit_counts(table) -> pd.DataFrame:
-    """Each limit the scenarios of a batch ``table`` violate (its ``violated_limits`` column), most
-    often first: in how many scenarios, their share, and which rows (counted from 1, as runs):
-    the console's box and the files' ``limits`` table."""
+def warnings_over_scenarios(table, noun: str, display: Display | None = None, name_rows: str = "") -> list[str]:
+    """As :func:`limits_over_scenarios` for the warnings (``warning_names``), listed, not boxed:
+    a table's ``warnings`` column counts them, and this says which."""
+    lines, hit = _counted_lines(table, "warning_names", name_rows)
+    if not lines:
+        return []
+    say = display.message if display is not None else str
+    return [f"\nWarnings: {len(lines)} kind(s), in {hit:,} of {len(table):,} {noun}",
+            *(f"  * {say(line)}" for line in lines)]
+
+
+def _counted_lines(table, column, name_rows):
+    """(a line per finding named in ``column``, with its count, share and rows; how many rows
+    name any)."""
+    counts, total = limit_counts(table, column), len(table)
+    lines = [f"{row.limit}: {row.scenarios:,} of {total:,} ({row.share:.0%})"
+             + (f", {name_rows}s {row.rows}" if name_rows else "") for row in counts.itertuples()]
+    return lines, int(sum(bool(text) for text in table.get(column, ())))
+
+
+def limit_counts(table, column="violated_limits") -> pd.DataFrame:
+    """Each limit the scenarios of a batch ``table`` violate (its ``violated_limits`` column; or
+    the findings named in another ``column``), most often first: in how many scenarios, their
+    share, and which rows (counted from 1, as runs): the console's box and the files' ``limits``
+    table."""
     from hxtrain.solver.simulation.results import LIMIT_SEPARATOR
 
     rows_of = {}
-    for row, text in enumerate(table.get("violated_limits", ())):
-        for label in (text.split(LIMIT_SEPARATOR) if text else ()):
+    for row, text in enumerate(table.get(column, ())):
+        for label in (text.split(LIMIT_SEPARATOR) if isinstance(text, str) and text else ()):
             rows_of.setdefault(label, []).append(row + 1)
     ordered = sorted(rows_of.items(), key=lambda item: (-len(item[1]), item[0]))
     return pd.DataFrame({"limit": [label for label, _ in ordered], "scenarios": [len(rows) for _, rows in ordered],

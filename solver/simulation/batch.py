@@ -26,7 +26,7 @@ from hxtrain.network.scenarios import scenario_count
 
 from hxtrain.solver.simulation import part_transfer
 from hxtrain.solver.simulation.evaluation import NOT_CONVERGED, NOT_VALID, STATUS_NAMES, SUCCESS, as_case, evaluate
-from hxtrain.solver.simulation.results import scenario_summary, violated_limits
+from hxtrain.solver.simulation.results import named_findings, scenario_summary, violated_limits
 
 
 @dataclass
@@ -344,8 +344,9 @@ def scenario_table(evaluation) -> pd.DataFrame:
     """One row per scenario of an evaluation, the same columns for every batch: ``success``,
     ``status`` (0 success, 1 not converged, 2 not valid, 3 a check failed: see
     :mod:`.evaluation`), ``status_text``, ``converged``, ``valid``, ``message``, then the
-    headline numbers (NaN where the scenario is not a success), and last ``violated_limits``,
-    the limits the scenario violates (:func:`.results.violated_limits`)."""
+    headline numbers (NaN where the scenario is not a success), then ``violated_limits``, the
+    limits the scenario violates (:func:`.results.violated_limits`), and last ``warning_names``,
+    its warnings named alike (the ``warnings`` column counts them)."""
     status = evaluation.status
     names = np.array([STATUS_NAMES[code] for code in sorted(STATUS_NAMES)], dtype=object)
     message = np.full(evaluation.batch, "", dtype=object)
@@ -363,4 +364,5 @@ def scenario_table(evaluation) -> pd.DataFrame:
         table[name] = column
     table["relative_imbalance"] = evaluation.balance["relative_imbalance"]
     table["violated_limits"] = violated_limits(evaluation)
+    table["warning_names"] = named_findings(evaluation, "warning")
     return table

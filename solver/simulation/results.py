@@ -191,14 +191,21 @@ def finding_label(finding) -> str:
 def violated_limits(evaluation: Evaluation) -> np.ndarray:
     """Per scenario, the limits it violates (:func:`limit_label`, joined by
     :data:`LIMIT_SEPARATOR`); "" where none, or where the scenario has no answer."""
+    return named_findings(evaluation, "limit")
+
+
+def named_findings(evaluation: Evaluation, severity: str) -> np.ndarray:
+    """Per scenario, its findings of ``severity`` ("limit", "warning") by unit and check
+    (:func:`limit_label`), joined by :data:`LIMIT_SEPARATOR`; "" where none, or where the scenario
+    has no answer."""
     ok = evaluation.success
-    limits = [(limit_label(unit, f), np.broadcast_to(f.active, ok.shape) & ok) for unit, f in evaluation.findings
-              if f.severity == "limit" and f.active.any()]
-    if not limits:
+    found = [(limit_label(unit, f), np.broadcast_to(f.active, ok.shape) & ok) for unit, f in evaluation.findings
+             if f.severity == severity and f.active.any()]
+    if not found:
         return np.full(evaluation.batch, "", dtype=object)
-    # worded once per distinct combination of limits (a batch has few), not once per scenario
-    combinations, which = _distinct_rows(np.stack([hit for _, hit in limits], axis=1))
-    words = np.array([LIMIT_SEPARATOR.join(label for (label, _), on in zip(limits, row) if on)
+    # worded once per distinct combination (a batch has few), not once per scenario
+    combinations, which = _distinct_rows(np.stack([hit for _, hit in found], axis=1))
+    words = np.array([LIMIT_SEPARATOR.join(dict.fromkeys(label for (label, _), on in zip(found, row) if on))
                       for row in combinations], dtype=object)
     return words[which]
 

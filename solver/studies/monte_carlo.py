@@ -190,7 +190,8 @@ def uncertainty_text(result: UncertaintyResult, study, display=None) -> str:
     command's units and width)."""
     from hxtrain.solver.reporting.console_tables import fixed, render, render_any
     from hxtrain.solver.reporting.display_units import current
-    from hxtrain.solver.reporting.text import boxed, fitted, limits_over_scenarios, paths_of_the_case
+    from hxtrain.solver.reporting.text import boxed, fitted, limits_over_scenarios, paths_of_the_case, \
+        warnings_over_scenarios
 
     display = display or current()
     tables = result.shown_tables(display)
@@ -218,6 +219,7 @@ def uncertainty_text(result: UncertaintyResult, study, display=None) -> str:
                    _reasons(result.samples, display),
                    count=f"{result.failed:,} of {samples:,}")
     lines += limits_over_scenarios(result.samples, "samples", display)
+    lines += warnings_over_scenarios(result.samples, "samples", display)
     return "\n".join(lines)
 
 
