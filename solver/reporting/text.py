@@ -156,7 +156,7 @@ def warnings_over_scenarios(table, noun: str, display: Display | None = None, na
     if not lines:
         return []
     say = display.message if display is not None else str
-    return [f"\nWarnings: {len(lines)} kind(s), in {hit:,} of {len(table):,} {noun}",
+    return [f"\nWarnings: {len(lines)}, in {hit:,} of {len(table):,} {noun}",
             *(f"  * {say(line)}" for line in lines)]
 
 
