@@ -117,7 +117,7 @@ def _read_arrangement(f: Fields):
         why = (f"'{by_films[0]}' gives each side's film" if by_films else
                f"with {passes} tube passes the {name} relation is not the same for both sides")
         raise f.doc.error(f.path, f"missing key 'shell_side' (hot or cold: the stream in the shell): {why}")
-    shell_side = f.choice("shell_side", SIDES, required=needs_side, default="hot")
+    shell_side = f.choice("shell_side", SIDES, required=False, default="hot")  # given where needed: above
     if "passes" in options:  # a plate's passes as (the shell_side stream's, the other's)
         options["passes"] = (options["passes"][shell_side], options["passes"][_other(shell_side)])
     arranged_as = arranged(name, shells_flow=shells_flow, **options)

@@ -23,7 +23,7 @@ from .graph import Network
 from .quantities import shorten
 
 __all__ = ["QUANTITIES", "READING_KINDS", "SPREAD_KINDS", "DUTY_PARAMETERS", "Tag", "unit_points", "resolve_point",
-           "resolve_duty_unit", "unit_conversion", "read_uncertainty", "trade_units"]
+           "resolve_duty_unit", "unit_conversion", "read_uncertainty"]
 
 QUANTITIES = ("temperature", "flow", "duty")
 """What a tag may measure; readings are converted to °C, kg/s and kW."""
@@ -158,18 +158,6 @@ def resolve_duty_unit(net: Network, text, error: Callable[[str], CaseError] | No
 
 # ----------------------------------------------------------------------------- units of readings
 
-def trade_units(text: str) -> str:
-    """``text`` with the trade's units checked: 'MMBtu' is a million Btu; 'MBtu' and 'Mlb' (a
-    thousand to some, a million to others) are refused as ambiguous
-    (:func:`~.quantities.unit_spelling`, which every quantity of every file goes through).
-
-    >>> trade_units("25 MMBtu/h")
-    '25 MMBtu/h'
-    """
-    q.unit_spelling(text, q.NUMBER)
-    return text
-
-
 def unbounded(kind: q.Kind) -> q.Kind:
     """``kind`` without its plausible range (for conversions and sign checks of our own)."""
     return dataclasses.replace(kind, low=-math.inf, high=math.inf, least_nonzero=0.0)
@@ -188,7 +176,8 @@ def unit_conversion(unit, quantity: str) -> tuple[float, float]:
                 "duty": "a duty: kW, MW, Btu/h, MMBtu/h"}[quantity]
     if not isinstance(unit, str) or not unit.strip() or q.NUMBER_AT_START.match(unit):
         raise q.QuantityError(f"expected the unit of the tag's readings, {expected}; got {describe(unit)}")
-    text = trade_units(unit.strip())
+    text = unit.strip()
+    q.unit_spelling(text, q.NUMBER)  # 'MBtu', 'Mlb': refused as ambiguous, with what to write, before any fit
     try:
         offset = q.to_default_unit(f"0 {text}", unbounded(kind))
         scale = (q.to_default_unit(f"{CONVERSION_SPAN:g} {text}", unbounded(kind)) - offset) / CONVERSION_SPAN
@@ -221,7 +210,7 @@ def read_uncertainty(f: Fields, key, quantity: str, default):
     relative = isinstance(raw, str) and ("%" in raw or "percent" in raw)
     kind = q.FRACTION if relative else SPREAD_KINDS[quantity]
     try:
-        number = q.to_default_unit(trade_units(raw) if isinstance(raw, str) else raw, unbounded(kind))
+        number = q.to_default_unit(raw, unbounded(kind))
         if number <= 0.0:
             raise q.QuantityError(f"{shorten(raw)}: an uncertainty must be greater than 0 (a standard deviation"
                                   f"{' cannot be negative' if number < 0 else '; a perfect instrument has none'})")

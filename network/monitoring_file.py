@@ -52,7 +52,7 @@ from .errors import CaseError
 from .fields import Fields, describe, nearest
 from .graph import Network, build_network
 from .measurement_points import (DUTY_PARAMETERS, QUANTITIES, Tag, read_uncertainty, resolve_duty_unit,
-                                 resolve_point, trade_units, unit_conversion, unit_points)
+                                 resolve_point, unit_conversion, unit_points)
 from .quantities import shorten
 from .reading import Document, read_document, refuse_other_kind
 
@@ -380,7 +380,8 @@ def error_at(f: Fields, key) -> Callable[[str], CaseError]:
 
 
 def read_quantity(f: Fields, key, kind: q.Kind, required=False, default=None, above=None, minimum=None, per=None):
-    """Fields.quantity, with the trade's MMBtu understood; ``per``: for a plain number that is a
+    """Fields.quantity (the trade's MMBtu understood, 'MBtu' refused: :func:`.quantities.unit_spelling`);
+    ``per``: for a plain number that is a
     price, what it is per ("GJ of fuel"), said where units are written with it."""
     raw = f.raw(key, required, None)
     if raw is None:
@@ -388,11 +389,10 @@ def read_quantity(f: Fields, key, kind: q.Kind, required=False, default=None, ab
     if per is not None and isinstance(raw, str) and not _plain_number(raw):
         raise f.error(key, f"expected a plain number, the price per {per} in the economics' currency, got "
                            f"{shorten(raw)} (convert it: 1 MMBtu = 1.05506 GJ, 1 t = 1000 kg)")
-    read = trade_units(raw) if isinstance(raw, str) else raw
     try:
-        number = q.to_default_unit(read, kind)
-    except q.QuantityError as exc:  # worded with the text as written, not the spelling read
-        raise f.error(key, str(exc).replace(shorten(read), shorten(raw)) if read is not raw else str(exc)) from None
+        number = q.to_default_unit(raw, kind)
+    except q.QuantityError as exc:
+        raise f.error(key, str(exc)) from None
     unit = f" {kind.shown_unit}" if kind.shown_unit else ""
     if above is not None and number <= above:
         raise f.error(key, f"{shorten(raw)} must be greater than {above:g}{unit}")

@@ -7,8 +7,7 @@ from dataclasses import fields, replace
 import numpy as np
 
 from .protocol import HEAT_FROM_UTILITIES, HEAT_RECOVERED, HEAT_TO_UTILITIES, Parameter, PropertyNeed, UnitReport, UnitBase, check, \
-    stagnant_side_findings, \
-    blanked_where_idle, design_temperature_findings, exchanger_totals, warning_line_findings
+    blanked_where_idle, design_temperature_findings, exchanger_totals, stagnant_side_findings, warning_line_findings
 from .arrangements import arranged, unit_halves
 from .pntu_rating import ExchangerRating
 from .u_models import Coefficients, FixedCoefficient, GeometryFilms
@@ -365,7 +364,8 @@ class Exchanger(UnitBase):
             "t_cold_out": x.t_cold_out, "ua": service.ua, "ntu": x.ntu, "p": x.p, "r": x.r,
             "effectiveness": x.effectiveness, "f": x.f, "lmtd": x.lmtd, "approach": x.approach,
         }
-        still = dict(zip(("hot", "cold"), (m <= 0.0 for m in through_exchanger(self.spec, *inlets.m.T))))
+        through = self._through(inlets)
+        still = {side: m <= 0.0 for side, m in through.items()}
         quantities = blanked_where_idle(quantities, still["hot"] | still["cold"])
         for side, t_inside in _outlets_inside(x).items():
             fraction = _bypass(self.spec, side)
@@ -377,18 +377,25 @@ class Exchanger(UnitBase):
         for side, drop in service.pressure_drop.items():
             quantities[f"dp_{side}"] = drop
         labels = {"u_source": "fixed UA" if self.spec.ua is not None else self.spec.thermal.source}
-        findings = self._limit_findings(inlets, service) + self._rating_findings(x, coefficients, t_hot, t_cold)
+        findings = (self._limit_findings(inlets, service, through)
+                    + self._rating_findings(x, coefficients, t_hot, t_cold))
         findings += stagnant_side_findings(self.key, still, {"hot": t_hot, "cold": t_cold})
         if hasattr(self.spec.thermal, "scaling_findings") and self.spec.ua is None:  # U from films known at one flow
-            m_x = through_exchanger(self.spec, inlets.m[:, 0], inlets.m[:, 1])
-            findings += self.spec.thermal.scaling_findings(self.key, *shell_flows(self.spec, *m_x))
+            findings += self.spec.thermal.scaling_findings(self.key, *shell_flows(self.spec, through["hot"],
+                                                                                  through["cold"]))
             shell, tube = inlets.fluids if self.spec.shell_side == "hot" else inlets.fluids[::-1]
             findings += self.spec.thermal.reference_findings(self.key, shell, tube, x.duty.shape)
         totals = exchanger_totals(self.total, x.duty)
         metrics = {"duty": x.duty, "hot_in": t_hot, "hot_out": x.t_hot_out, "cold_in": t_cold, "cold_out": x.t_cold_out}
         return UnitReport(quantities, findings, labels=labels, totals=totals, metrics=metrics)
 
-    def _limit_findings(self, inlets, service):
+    def _through(self, inlets) -> dict:
+        """Side -> the flow through the exchanger itself, its bypass's share gone round."""
+        return dict(zip(("hot", "cold"), through_exchanger(self.spec, *inlets.m.T)))
+
+    def _limit_findings(self, inlets, service, through=None):
+        """``through``: :meth:`_through`, where the caller has it."""
+        through = through or self._through(inlets)
         x, key = service.rating, self.key
         t_hot, t_cold = inlets.t[:, 0], inlets.t[:, 1]
         design = self.limits.get("design_temperature", {})
@@ -399,7 +406,6 @@ class Exchanger(UnitBase):
         # nothing through it (bypassed whole, a closed branch) goes towards the other side's inlet
         # while that one flows (its metal and what stands in it: the no_flow warning), and has
         # nothing to limit where neither flows (an exchanger isolated)
-        through = dict(zip(("hot", "cold"), through_exchanger(self.spec, inlets.m[:, 0], inlets.m[:, 1])))
         findings = design_temperature_findings({
             f"the {side} side {_inside_words(_bypass(self.spec, side))}":
                 (f"{key}.design_temperature.{side}", design.get(side),

@@ -466,8 +466,8 @@ def design_temperature_findings(sides):
 
 def stagnant_side_findings(key, still, t_in) -> list:
     """A warning where nothing flows through one side of an exchanger (a closed branch, a side
-    bypassed whole) while the other side flows: its outlet shown is its inlet (no duty), but what
-    stands in that side heats or cools towards the other side's inlet temperature, and liquid
+    bypassed whole) while the other side flows: it has no duty, but what stands in that side
+    heats or cools towards the other side's inlet temperature, and liquid
     blocked in there and heated expands (it needs thermal relief: common practice).
     ``still``: side -> where nothing flows through it; ``t_in``: side -> inlet temperature, °C."""
     return [check("no_flow", "warning", still[side] & ~still[other], key,

@@ -114,19 +114,15 @@ def _merged_by_heading(headings, units, columns):
     >>> _merged_by_heading(["name", "achieved", "achieved"], ["", "K", "°C"], [["a", "b"], ["0.00", ""], ["", "240.0"]])
     (['name', 'achieved'], ['', ''], [['a', 'b'], ['0.00 K', '240.0 °C']])
     """
-    order = list(dict.fromkeys(headings))
-    merged_headings, merged_units, merged_columns = [], [], []
-    for heading in order:
+    kept = []  # (heading, unit, cells)
+    for heading in dict.fromkeys(headings):
         at = [k for k, h in enumerate(headings) if h == heading]
-        if len(at) == 1 or len({units[k] for k in at}) == 1:
-            for k in at:
-                merged_headings.append(heading), merged_units.append(units[k]), merged_columns.append(columns[k])
-            continue
-        rows = len(columns[at[0]])
-        merged_headings.append(heading), merged_units.append("")
-        merged_columns.append([next((f"{columns[k][r]} {units[k]}".strip() for k in at if columns[k][r]), "")
-                               for r in range(rows)])
-    return merged_headings, merged_units, merged_columns
+        if len({units[k] for k in at}) == 1:
+            kept += [(heading, units[k], columns[k]) for k in at]
+        else:
+            kept.append((heading, "", [next((f"{columns[k][r]} {units[k]}".strip() for k in at if columns[k][r]), "")
+                                       for r in range(len(columns[at[0]]))]))
+    return [h for h, _, _ in kept], [u for _, u, _ in kept], [c for _, _, c in kept]
 
 
 def _totals(result: SimulationResult, display: Display) -> str:

@@ -304,6 +304,8 @@ def _solve_batch(case, values, tolerance, max_iterations, metrics=False, plan=No
     """``values`` solved in this process, in pieces of at most :data:`PIECE_SCENARIOS` scenarios
     one after the other (:func:`_piece_count`), all with the calculation order of the first."""
     scenarios = scenario_count(values)
+    if scenarios <= PIECE_SCENARIOS:
+        return _solve_piece(case, values, tolerance, max_iterations, metrics, plan)
     results = []
     for piece in _pieces(values, scenarios, _piece_count(scenarios)):
         results.append(_solve_piece(case, piece, tolerance, max_iterations, metrics, plan))

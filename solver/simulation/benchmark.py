@@ -118,8 +118,9 @@ def _alternated(functions, repeats, rounds=None):
     """[(the shortest of ``repeats`` timings, the result of that run)] for each of ``functions``,
     run in turn ``repeats`` times: on a shared machine a run is disturbed now and then, and
     alternating lets the disturbances fall on both sides alike. ``rounds``, where given, gets each
-    round's (timing, result) pairs (a case's first split-allowed batch is solved in one process and timed; later
-    ones are decided by what it measured, and the first split measures the processes' speed)."""
+    round's (timing, result) pairs (a case's first split-allowed batch is solved in one process
+    and timed; later ones are decided by what it measured, and the first split measures the
+    processes' speed)."""
     best = [(float("inf"), None) for _ in functions]
     for _ in range(repeats):
         timings = []
@@ -181,6 +182,11 @@ def _split_label(processes, asked):
     return used if processes == asked else f"{used} of {asked} allowed"
 
 
+def _round_ratios(ratios) -> str:
+    """Each split-allowed run's speed against the one-process run before it, with the processes it used."""
+    return ", ".join(f"{ratio:.2f} x ({_split_label(used, used)})" for ratio, used in ratios)
+
+
 def benchmark_text(figures) -> str:
     f = figures
     lines = [f"hxtrain benchmark: {f['case']} demo ({f['exchangers']} exchangers), crude flow 70-115 %, "
@@ -194,8 +200,8 @@ def benchmark_text(figures) -> str:
             f"({counted(row['iterations'], 'tear iteration')})",
             *([f"    batch, {split}: {row['workers_seconds']:7.2f} s = {row['workers_rate']:10,.0f} "
                f"scenario-solves/s ({row['workers_rate'] / row['batch_rate']:.2f} x 1 process; each run against the "
-               f"one-process run before it: {', '.join(f'{r:.2f} x ({_split_label(n, n)})' for r, n in row['round_ratios'])}"
-               "; the first is solved in one process and timed)"]
+               f"one-process run before it: {_round_ratios(row['round_ratios'])}; the first is solved in one process "
+               "and timed)"]
               if f["workers"] > 1 else []),
             f"    loop of single solves:       {row['loop_rate']:10,.2f} scenario-solves/s",
             f"    batch / loop: {row['batch_rate'] / row['loop_rate']:,.0f} x (1 process)"
